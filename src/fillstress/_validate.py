@@ -1,0 +1,67 @@
+"""Small argument checks shared by the public API; each raises InputError naming the argument."""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from .errors import InputError
+
+
+def finite_array(value, name: str, *, ndim: int | None = None, dtype=np.float64) -> np.ndarray:
+    """Return `value` as a float array, refusing NaN/inf and a wrong number of dimensions."""
+    try:
+        arr = np.asarray(value, dtype=dtype)
+    except (TypeError, ValueError) as exc:
+        raise InputError(f"must be numeric ({exc})", argument=name) from None
+    if ndim is not None and arr.ndim != ndim:
+        raise InputError(f"must be {ndim}-dimensional, got shape {arr.shape}", argument=name)
+    if not np.all(np.isfinite(arr)):
+        bad = int(np.size(arr) - np.count_nonzero(np.isfinite(arr)))
+        raise InputError(f"contains {bad} NaN or infinite value(s)", argument=name)
+    return arr
+
+
+def positive(value, name: str) -> float:
+    """Return `value` as a float that must be finite and > 0."""
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        raise InputError(f"must be a number, got {value!r}", argument=name) from None
+    if not math.isfinite(v) or v <= 0:
+        raise InputError(f"must be positive and finite, got {value!r}", argument=name)
+    return v
+
+
+def finite(value, name: str) -> float:
+    """Return `value` as a finite float."""
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        raise InputError(f"must be a number, got {value!r}", argument=name) from None
+    if not math.isfinite(v):
+        raise InputError(f"must be finite, got {value!r}", argument=name)
+    return v
+
+
+def points_array(points, name: str = "points") -> np.ndarray:
+    """Return an (N, 3) float array of x, y, depth with depth >= 0."""
+    arr = finite_array(points, name)
+    if arr.ndim == 1 and arr.shape[0] == 3:
+        arr = arr[None, :]
+    if arr.ndim != 2 or arr.shape[1] != 3:
+        raise InputError(f"must have shape (N, 3) for x, y, depth; got {arr.shape}", argument=name)
+    if np.any(arr[:, 2] < 0):
+        raise InputError("depth (column 3) must be >= 0 below the ground surface, "
+                         f"got minimum {arr[:, 2].min():g}", argument=name)
+    return np.ascontiguousarray(arr)
+
+
+def depths_array(depths, name: str = "depths") -> np.ndarray:
+    """Return a 1-D float array of depths >= 0."""
+    arr = np.atleast_1d(finite_array(depths, name))
+    if arr.ndim != 1 or arr.size == 0:
+        raise InputError(f"must be a non-empty 1-D list of depths, got shape {arr.shape}", argument=name)
+    if np.any(arr < 0):
+        raise InputError(f"depths must be >= 0, got minimum {arr.min():g}", argument=name)
+    return arr

@@ -1,0 +1,136 @@
+"""The load model: a regular plan grid of uniformly loaded rectangular cells."""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ._validate import finite, finite_array, positive
+from .errors import InputError
+
+
+@dataclass(frozen=True, eq=False)
+class LoadGrid:
+    """A plan grid of cells, each a uniform surface pressure (kPa).
+
+    ``pressure[j, i]`` covers ``x0 + i*dx … x0 + (i+1)*dx`` and
+    ``y0 + j*dy … y0 + (j+1)*dy``: row 0 is the southern row, x runs east, y north.
+    Negative pressure (excavation, unloading) is allowed.
+
+    Parameters
+    ----------
+    pressure : array_like, shape (ny, nx)
+        Surface pressure of each cell in kPa.
+    x0, y0 : float
+        Coordinates (m) of the south-west corner of cell ``[0, 0]``.
+    dx, dy : float
+        Cell size (m) in x and y, positive.
+    crs : str or pyproj.CRS, optional
+        Coordinate reference system of x and y, carried through to outputs.
+
+    Examples
+    --------
+    >>> g = LoadGrid([[100.0, 100.0]], x0=0.0, y0=0.0, dx=1.0, dy=2.0)
+    >>> g.shape, g.total_load
+    ((1, 2), 400.0)
+    >>> g.extent
+    (0.0, 0.0, 2.0, 2.0)
+    """
+
+    pressure: np.ndarray
+    x0: float
+    y0: float
+    dx: float
+    dy: float
+    crs: object = field(default=None)
+
+    def __post_init__(self):
+        p = finite_array(self.pressure, "pressure", ndim=2)
+        if p.size == 0:
+            raise InputError("must have at least one cell", argument="pressure")
+        object.__setattr__(self, "pressure", np.ascontiguousarray(p))
+        object.__setattr__(self, "x0", finite(self.x0, "x0"))
+        object.__setattr__(self, "y0", finite(self.y0, "y0"))
+        object.__setattr__(self, "dx", positive(self.dx, "dx"))
+        object.__setattr__(self, "dy", positive(self.dy, "dy"))
+
+    @classmethod
+    def from_thickness(cls, thickness, unit_weight, x0, y0, dx, dy, crs=None) -> "LoadGrid":
+        """Build a grid from fill thickness (m) and unit weight (kN/m³, scalar or per cell).
+
+        Examples
+        --------
+        >>> g = LoadGrid.from_thickness([[2.0, 0.0]], 20.0, 0, 0, 1, 1)
+        >>> g.pressure.tolist()
+        [[40.0, 0.0]]
+        """
+        t = finite_array(thickness, "thickness", ndim=2)
+        gamma = finite_array(unit_weight, "unit_weight")
+        if gamma.ndim not in (0, 2) or (gamma.ndim == 2 and gamma.shape != t.shape):
+            raise InputError(f"must be a scalar or have the thickness shape {t.shape}, "
+                             f"got {gamma.shape}", argument="unit_weight")
+        if np.any(gamma < 0):
+            raise InputError("must be >= 0 kN/m³", argument="unit_weight")
+        return cls(t * gamma, x0, y0, dx, dy, crs)
+
+    # --- geometry -------------------------------------------------------------
+    @property
+    def shape(self) -> tuple[int, int]:
+        return self.pressure.shape
+
+    @property
+    def ny(self) -> int:
+        return self.pressure.shape[0]
+
+    @property
+    def nx(self) -> int:
+        return self.pressure.shape[1]
+
+    @property
+    def cell_area(self) -> float:
+        return self.dx * self.dy
+
+    @property
+    def extent(self) -> tuple[float, float, float, float]:
+        """(xmin, ymin, xmax, ymax) of the whole grid in m."""
+        return (self.x0, self.y0, self.x0 + self.nx * self.dx, self.y0 + self.ny * self.dy)
+
+    @property
+    def x_centres(self) -> np.ndarray:
+        return self.x0 + (np.arange(self.nx) + 0.5) * self.dx
+
+    @property
+    def y_centres(self) -> np.ndarray:
+        return self.y0 + (np.arange(self.ny) + 0.5) * self.dy
+
+    @property
+    def total_load(self) -> float:
+        """Sum of pressure × cell area, kN."""
+        return float(self.pressure.sum() * self.cell_area)
+
+    def same_lattice(self, other: "LoadGrid") -> bool:
+        """True when `other` has the same origin, cell size and shape."""
+        return (self.shape == other.shape and np.isclose(self.x0, other.x0)
+                and np.isclose(self.y0, other.y0) and np.isclose(self.dx, other.dx)
+                and np.isclose(self.dy, other.dy))
+
+    def with_pressure(self, pressure) -> "LoadGrid":
+        """A grid on the same lattice with new pressures."""
+        return LoadGrid(pressure, self.x0, self.y0, self.dx, self.dy, self.crs)
+
+    def __add__(self, other: "LoadGrid") -> "LoadGrid":
+        if not isinstance(other, LoadGrid):
+            return NotImplemented
+        if not self.same_lattice(other):
+            raise InputError("grids to add must share origin, cell size and shape", argument="other")
+        return self.with_pressure(self.pressure + other.pressure)
+
+    def cropped(self) -> "LoadGrid":
+        """The smallest sub-grid holding every non-zero cell (one zero cell if all are zero)."""
+        rows = np.flatnonzero(np.any(self.pressure != 0, axis=1))
+        cols = np.flatnonzero(np.any(self.pressure != 0, axis=0))
+        if rows.size == 0:
+            return LoadGrid(np.zeros((1, 1)), self.x0, self.y0, self.dx, self.dy, self.crs)
+        j0, j1, i0, i1 = rows[0], rows[-1] + 1, cols[0], cols[-1] + 1
+        return LoadGrid(self.pressure[j0:j1, i0:i1], self.x0 + i0 * self.dx,
+                        self.y0 + j0 * self.dy, self.dx, self.dy, self.crs)
