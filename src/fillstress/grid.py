@@ -134,3 +134,83 @@ class LoadGrid:
         j0, j1, i0, i1 = rows[0], rows[-1] + 1, cols[0], cols[-1] + 1
         return LoadGrid(self.pressure[j0:j1, i0:i1], self.x0 + i0 * self.dx,
                         self.y0 + j0 * self.dy, self.dx, self.dy, self.crs)
+
+
+@dataclass(frozen=True)
+class GridSpec:
+    """The analysis lattice shared by every fill body of a site: origin, cell size, shape, CRS.
+
+    Cell ``[j, i]`` covers ``x0 + i*dx … x0 + (i+1)*dx`` and ``y0 + j*dy … y0 + (j+1)*dy``.
+
+    Examples
+    --------
+    >>> s = GridSpec.covering((3.2, 1.0, 10.1, 4.9), cell=1.0)
+    >>> (s.x0, s.y0, s.nx, s.ny)
+    (3.0, 1.0, 8, 4)
+    """
+
+    x0: float
+    y0: float
+    dx: float
+    dy: float
+    nx: int
+    ny: int
+    crs: object = None
+
+    def __post_init__(self):
+        positive(self.dx, "dx")
+        positive(self.dy, "dy")
+        if int(self.nx) < 1 or int(self.ny) < 1:
+            raise InputError(f"grid must have at least one cell, got {self.ny} x {self.nx}",
+                             argument="nx/ny")
+
+    @classmethod
+    def covering(cls, bounds, cell: float, margin: float = 0.0, crs=None) -> "GridSpec":
+        """The lattice of square cells `cell` (m), snapped to multiples of `cell`, that
+        covers `bounds` = (xmin, ymin, xmax, ymax) grown by `margin` on every side."""
+        cell = positive(cell, "cell")
+        xmin, ymin, xmax, ymax = (float(b) for b in bounds)
+        if not (xmax >= xmin and ymax >= ymin):
+            raise InputError(f"bounds must be (xmin, ymin, xmax, ymax), got {bounds}", argument="bounds")
+        x0 = np.floor((xmin - margin) / cell) * cell
+        y0 = np.floor((ymin - margin) / cell) * cell
+        nx = max(1, int(np.ceil(round((xmax + margin - x0) / cell, 9))))
+        ny = max(1, int(np.ceil(round((ymax + margin - y0) / cell, 9))))
+        return cls(float(x0), float(y0), cell, cell, nx, ny, crs)
+
+    @property
+    def shape(self) -> tuple[int, int]:
+        return (int(self.ny), int(self.nx))
+
+    @property
+    def extent(self) -> tuple[float, float, float, float]:
+        return (self.x0, self.y0, self.x0 + self.nx * self.dx, self.y0 + self.ny * self.dy)
+
+    @property
+    def x_centres(self) -> np.ndarray:
+        return self.x0 + (np.arange(self.nx) + 0.5) * self.dx
+
+    @property
+    def y_centres(self) -> np.ndarray:
+        return self.y0 + (np.arange(self.ny) + 0.5) * self.dy
+
+    @property
+    def cell_area(self) -> float:
+        return self.dx * self.dy
+
+    def zeros(self) -> np.ndarray:
+        return np.zeros(self.shape)
+
+    def load_grid(self, pressure) -> LoadGrid:
+        """A LoadGrid of `pressure` (kPa, shape ``self.shape``) on this lattice."""
+        return LoadGrid(pressure, self.x0, self.y0, self.dx, self.dy, self.crs)
+
+    def refined(self, factor: int = 2) -> "GridSpec":
+        """The same extent with cells `factor` times smaller (convergence checks)."""
+        return GridSpec(self.x0, self.y0, self.dx / factor, self.dy / factor,
+                        self.nx * factor, self.ny * factor, self.crs)
+
+    def rasterio_transform(self):
+        """Affine transform of a north-up raster of this lattice (row 0 = northern row)."""
+        from affine import Affine
+        return Affine(self.dx, 0.0, self.x0, 0.0, -self.dy, self.y0 + self.ny * self.dy)
