@@ -1,0 +1,273 @@
+"""The site-file schema: every table and key, its type, unit, default and meaning.
+
+One declaration serves three readers: the validator (`site.py`), the generated
+site-file reference (`docs/site-file.md`, written by `tools/write_site_reference.py`) and
+the error messages that suggest the nearest valid key.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+# Unit kinds a key can carry; site.py converts each to SI with the site's unit system.
+LENGTH, PRESSURE, UNIT_WEIGHT, ANGLE, INV_PRESSURE, CV, NONE = (
+    "length", "pressure", "unit_weight", "angle", "1/pressure", "length2/time", "")
+
+UNIT_LABELS = {  # (SI label, US label) for the reference
+    LENGTH: ("m", "ft"), PRESSURE: ("kPa", "psf"), UNIT_WEIGHT: ("kN/m³", "pcf"),
+    ANGLE: ("degrees", "degrees"), INV_PRESSURE: ("1/kPa", "1/psf"),
+    CV: ("m²/year", "ft²/year"), NONE: ("", ""),
+}
+
+
+@dataclass(frozen=True)
+class Key:
+    """One key of a table: `kind` is str, float, int, bool, path, xy (list of [x, y] or
+    [x, y, z]), pairs (list of [a, b]), floats (list of numbers), extent (4 numbers),
+    table (free sub-table of numbers)."""
+
+    name: str
+    kind: str
+    doc: str
+    unit: str = NONE
+    default: object = None
+    required: bool = False
+    choices: tuple = ()
+    example: str = ""
+    minimum: float | None = None
+    exclusive_minimum: bool = False
+
+
+@dataclass(frozen=True)
+class Table:
+    """A table of keys. `many` = "array" for [[name]] arrays of tables, "named" for
+    [name.<id>] tables keyed by a name of the user's choosing, "" for one table."""
+
+    name: str
+    doc: str
+    keys: tuple[Key, ...]
+    many: str = ""
+    required: bool = False
+    variants: dict = field(default_factory=dict)   # value of `kind` -> extra keys
+
+    def key(self, name: str) -> Key | None:
+        for k in self.keys:
+            if k.name == name:
+                return k
+        return None
+
+    def keys_for(self, kind: str | None) -> tuple[Key, ...]:
+        return self.keys + tuple(self.variants.get(kind, ()))
+
+    def all_key_names(self) -> list[str]:
+        names = [k.name for k in self.keys]
+        for extra in self.variants.values():
+            names += [k.name for k in extra if k.name not in names]
+        return names
+
+
+_POS = dict(minimum=0.0, exclusive_minimum=True)
+_NONNEG = dict(minimum=0.0)
+
+SITE = Table("site", "Who and where: the site's name, coordinate system and unit system.", (
+    Key("name", "str", "Name of the site, printed on every output.", required=True,
+        example='"Kestrel Quay ore yard"'),
+    Key("description", "str", "One or two sentences on the job.", default=""),
+    Key("crs", "str", "Projected coordinate reference system of the site (EPSG code or WKT). "
+        "Layers in another CRS are transformed to it; layers without a CRS are taken to be "
+        "in it. Geographic (degree) systems are refused.", example='"EPSG:32632"'),
+    Key("units", "str", "Unit system of every number in this file and of the outputs: SI "
+        "(m, kPa, kN/m³) or US customary (ft, psf, pcf; settlement in inches).",
+        default="SI", choices=("SI", "US")),
+), required=True)
+
+GRID = Table("grid", "The analysis grid and the stress method.", (
+    Key("cell", "float", "Plan cell size. Default: chosen from the smallest fill feature and the "
+        "shallowest receptor depth.", unit=LENGTH, **_POS, example="1.0"),
+    Key("margin", "float", "Distance the grid extends beyond the fill and the receptors.",
+        unit=LENGTH, default=10.0, **_NONNEG),
+    Key("method", "str", "Stress solution: Boussinesq (homogeneous isotropic half-space) or "
+        "Westergaard (layered deposit with thin rigid reinforcing layers).",
+        default="boussinesq", choices=("boussinesq", "westergaard")),
+    Key("poisson", "float", "Poisson's ratio for the Westergaard solution (0 ≤ ν < 0.5).",
+        default=0.0, minimum=0.0),
+    Key("convergence_check", "bool", "Recompute the receptors on a grid of half the cell size "
+        "and report the largest relative change.", default=True),
+))
+
+GROUND = Table("ground", "The existing ground surface, used to turn elevations into depths "
+               "and to draw the fill in 3D. Give at most one source.", (
+    Key("elevation", "float", "A flat existing ground at this elevation.", unit=LENGTH),
+    Key("raster", "path", "GeoTIFF of existing ground elevation.", example='"existing.tif"'),
+    Key("points", "path", "Survey points (x, y, z) as CSV or whitespace text, triangulated.",
+        example='"existing_survey.csv"'),
+    Key("landxml", "path", "LandXML file with a TIN surface of the existing ground."),
+    Key("surface_name", "str", "Which surface of a LandXML file to use (default: the first)."),
+))
+
+_BODY_COMMON = (
+    Key("kind", "str", "How the body is built.", required=True,
+        choices=("pile", "footprint", "embankment", "surfaces")),
+    Key("unit_weight", "float", "Bulk unit weight of the fill as placed.", unit=UNIT_WEIGHT,
+        required=True, **_POS, example="19.0"),
+    Key("stage", "int", "Construction stage; the load of stage k is the sum of bodies with "
+        "stage ≤ k.", default=1, minimum=1),
+    Key("excavation", "bool", "The body is removed material: its load is negative.",
+        default=False),
+)
+_OUTLINE = (
+    Key("outline", "xy", "Plan outline as a list of [x, y] vertices (closed automatically).",
+        example="[[0, 0], [40, 0], [40, 25], [0, 25]]"),
+    Key("file", "path", "Vector file (GeoJSON or any format geopandas reads) with the outline(s)."),
+    Key("where", "str", "Select features of `file` whose `id_field` equals this value."),
+    Key("id_field", "str", "Attribute of `file` used by `where`.", default="id"),
+)
+BODY_VARIANTS = {
+    "pile": _OUTLINE + (
+        Key("repose_angle", "float", "Angle of repose of the stockpiled material.", unit=ANGLE,
+            required=True, minimum=1.0, example="37"),
+        Key("crest_height", "float", "Height cap: the pile is flat-topped at this height.",
+            unit=LENGTH, **_POS),
+    ),
+    "footprint": _OUTLINE + (
+        Key("height", "float", "Constant fill height over the outline.", unit=LENGTH, **_NONNEG),
+        Key("height_field", "str", "Attribute of `file` holding each feature's height."),
+        Key("sloping_top", "bool", "Take the top from the z values of 3D outline vertices.",
+            default=False),
+    ),
+    "embankment": (
+        Key("centreline", "xy", "Centreline as a list of [x, y] vertices, in chainage order.",
+            example="[[0, 0], [80, 0], [140, 30]]"),
+        Key("file", "path", "Vector file with the centreline (a LineString)."),
+        Key("where", "str", "Select the feature of `file` whose `id_field` equals this value."),
+        Key("id_field", "str", "Attribute of `file` used by `where`.", default="id"),
+        Key("crest_width", "float", "Width of the crest.", unit=LENGTH, required=True, **_NONNEG),
+        Key("side_slope", "float", "Side slopes, horizontal per unit vertical (H:V).",
+            required=True, **_POS, example="2.0"),
+        Key("heights", "pairs", "Crest height profile as [chainage, height] pairs, linear "
+            "between them.", unit=LENGTH, required=True, example="[[0, 1.0], [120, 7.5]]"),
+        Key("start_end", "str", "End at chainage 0: a slope, or vertical against a structure.",
+            default="slope", choices=("slope", "vertical")),
+        Key("finish_end", "str", "End at the last chainage: a slope or vertical.",
+            default="slope", choices=("slope", "vertical")),
+        Key("end_slope", "float", "End slopes (H:V); default the side slope.", **_POS),
+    ),
+    "surfaces": (
+        Key("design", "path", "Design (finished) surface: GeoTIFF, survey points or LandXML.",
+            required=True, example='"design.tif"'),
+        Key("existing", "path", "Existing ground surface for this body: GeoTIFF, survey points "
+            "or LandXML. Default: the [ground] surface."),
+        Key("cut", "str", "Where the design is below existing ground: ignore the cut, or treat "
+            "it as unloading.", default="ignore", choices=("ignore", "unload")),
+    ),
+}
+BODIES = Table("bodies", "Fill bodies, one table each under a name of your choice, e.g. "
+               "[bodies.north_pile].", _BODY_COMMON, many="named", required=True,
+               variants=BODY_VARIANTS)
+
+SOIL = Table("soil", "Soil profile: horizontal layers below the existing ground.", (
+    Key("water_table", "float", "Depth of the water table below ground.", unit=LENGTH,
+        required=True, **_NONNEG),
+    Key("rigid_base", "float", "Depth of an incompressible base; no compression below it.",
+        unit=LENGTH, **_POS),
+    Key("influence_fraction", "float", "Influence depth: where Δσz falls to this fraction of "
+        "σ'v0 (common practice: 0.10).", default=0.10, **_POS),
+))
+LAYER = Table("soil.layers", "One soil layer; layers must follow each other without gaps "
+              "from depth 0.", (
+    Key("name", "str", "Layer name.", required=True, example='"soft clay"'),
+    Key("top", "float", "Depth of the layer top.", unit=LENGTH, required=True, **_NONNEG),
+    Key("bottom", "float", "Depth of the layer bottom.", unit=LENGTH, required=True, **_POS),
+    Key("unit_weight", "float", "Bulk unit weight above the water table.", unit=UNIT_WEIGHT,
+        required=True, **_POS),
+    Key("saturated_unit_weight", "float", "Saturated unit weight below the water table "
+        "(default: unit_weight).", unit=UNIT_WEIGHT, **_POS),
+    Key("cc", "float", "Compression index Cc.", **_POS),
+    Key("cr", "float", "Recompression (swelling) index Cr.", **_POS),
+    Key("e0", "float", "Initial void ratio.", **_POS),
+    Key("sigma_p", "float", "Preconsolidation stress σ'p.", unit=PRESSURE, **_POS),
+    Key("ocr", "float", "Overconsolidation ratio σ'p/σ'v0 at mid-layer (instead of sigma_p).",
+        minimum=1.0),
+    Key("mv", "float", "Coefficient of volume compressibility.", unit=INV_PRESSURE, **_POS),
+    Key("modulus", "float", "Constrained (oedometer) modulus.", unit=PRESSURE, **_POS),
+    Key("cv", "float", "Coefficient of consolidation, for settlement with time.", unit=CV, **_POS),
+    Key("drainage", "str", "Drainage boundaries of the layer for consolidation with time.",
+        default="double", choices=("double", "top", "bottom")),
+), many="array")
+
+BUILDINGS = Table("buildings", "Buildings to check, each an [[buildings]] entry: inline "
+                  "outline or a vector file of footprints.", (
+    Key("id", "str", "Name of the building (with `file`: prefix of the feature ids)."),
+    Key("outline", "xy", "Footprint as [x, y] vertices."),
+    Key("file", "path", "Vector file of footprint polygons."),
+    Key("id_field", "str", "Attribute of `file` naming each building.", default="id"),
+    Key("foundation_depth", "float", "Depth of the foundation below existing ground.",
+        unit=LENGTH, **_NONNEG),
+    Key("foundation_elevation", "float", "Elevation of the foundation (needs [ground]).",
+        unit=LENGTH),
+    Key("depth_field", "str", "Attribute of `file` with each foundation depth."),
+    Key("interior_spacing", "float", "Spacing of the interior grid of points.", unit=LENGTH,
+        default=5.0, **_POS),
+    Key("profile_step", "float", "Step of the vertical profile below the centroid.",
+        unit=LENGTH, default=1.0, **_POS),
+    Key("profile_bottom", "float", "Depth of the bottom of the vertical profile.",
+        unit=LENGTH, default=20.0, **_POS),
+), many="array")
+
+PIPES = Table("pipes", "Buried pipes and other lines, each a [[pipes]] entry.", (
+    Key("id", "str", "Name of the pipe."),
+    Key("line", "xy", "Route as [x, y] vertices in chainage order."),
+    Key("file", "path", "Vector file of LineStrings."),
+    Key("id_field", "str", "Attribute of `file` naming each line.", default="id"),
+    Key("crown_depth", "float", "Depth of the pipe crown below existing ground.", unit=LENGTH,
+        **_NONNEG),
+    Key("invert_depth", "float", "Depth of the invert (crown = invert − diameter).",
+        unit=LENGTH, **_NONNEG),
+    Key("invert_elevation", "floats", "Invert elevation, one value or one per vertex "
+        "(needs [ground]).", unit=LENGTH),
+    Key("depth_field", "str", "Attribute of `file` with the crown depth."),
+    Key("diameter", "float", "Outside diameter.", unit=LENGTH, default=0.0, **_NONNEG),
+    Key("spacing", "float", "Sampling spacing along the line.", unit=LENGTH, default=2.0, **_POS),
+    Key("differential_length", "float", "Length over which the largest differential "
+        "settlement is reported.", unit=LENGTH, default=10.0, **_POS),
+), many="array")
+
+BOREHOLES = Table("boreholes", "Vertical profiles of stress (and settlement) at points.", (
+    Key("id", "str", "Name of the borehole.", required=True),
+    Key("x", "float", "Easting.", unit=LENGTH, required=True),
+    Key("y", "float", "Northing.", unit=LENGTH, required=True),
+    Key("top", "float", "Depth of the first point.", unit=LENGTH, default=0.5, **_NONNEG),
+    Key("bottom", "float", "Depth of the last point.", unit=LENGTH, default=20.0, **_POS),
+    Key("step", "float", "Depth step.", unit=LENGTH, default=0.5, **_POS),
+), many="array")
+
+PLAN_GRIDS = Table("plan_grids", "Plan grids of Δσz at a list of depths, computed exactly by "
+                   "FFT on the analysis grid's cell centres.", (
+    Key("name", "str", "Name used in file names.", required=True, example='"plan"'),
+    Key("depths", "floats", "Depths of the slices.", unit=LENGTH, required=True,
+        example="[2.0, 5.0, 10.0]"),
+    Key("extent", "extent", "[xmin, ymin, xmax, ymax] of the grid (default: the analysis grid "
+        "extent).", unit=LENGTH),
+), many="array")
+
+SETTLEMENT = Table("settlement", "Settlement checks (need [soil]).", (
+    Key("stage_days", "floats", "Start time of each construction stage, days after the "
+        "start of stage 1, for the settlement-time curve.", example="[0, 90]"),
+    Key("limit_no_cracking", "float", "Angular distortion limit where no cracking is "
+        "acceptable (Bjerrum 1963: 1/500).", default=1 / 500, **_POS),
+    Key("limit_first_cracking", "float", "Limit of first cracking of panel walls "
+        "(Bjerrum 1963: 1/300).", default=1 / 300, **_POS),
+    Key("limit_structural_damage", "float", "Limit of structural damage (Bjerrum 1963: "
+        "1/150).", default=1 / 150, **_POS),
+))
+
+OUTPUTS = Table("outputs", "Which files a run writes besides the point tables and manifest.", (
+    Key("geotiff", "bool", "One GeoTIFF per depth slice and the fill rasters.", default=True),
+    Key("netcdf", "bool", "The NetCDF cube of the plan grids.", default=True),
+    Key("vtk", "bool", "VTK files for 3D viewers.", default=True),
+    Key("report", "bool", "The HTML engineering report.", default=True),
+    Key("scene", "bool", "The standalone HTML 3D scene.", default=True),
+))
+
+TABLES: tuple[Table, ...] = (SITE, GRID, GROUND, BODIES, SOIL, LAYER, BUILDINGS, PIPES,
+                             BOREHOLES, PLAN_GRIDS, SETTLEMENT, OUTPUTS)
+TOP_LEVEL = {t.name: t for t in TABLES if "." not in t.name}
