@@ -1,0 +1,169 @@
+"""The `fillstress` command: thin subcommands over the library, nothing computed here.
+
+Exit codes: 0 success, 2 bad input (one line, no traceback), 1 internal error.
+"""
+from __future__ import annotations
+
+import argparse
+import sys
+from pathlib import Path
+
+from . import __version__
+from .errors import FillstressError, InputError
+
+EPILOG = """\
+examples:
+  fillstress example stockpile_yard            run a bundled sample site into ./results-stockpile_yard
+  fillstress check site.toml                   validate a site file, list bodies, loads, grid, cost
+  fillstress run site.toml -o results          run a site file into the folder results/
+  fillstress point site.toml 120 45 3.5        Δσz at x=120, y=45, depth 3.5 (site units)
+  fillstress view results --png view.png       render the 3D view to a PNG (or open a window)
+  fillstress report results                    (re)write results/report.html
+"""
+
+
+def main(argv=None) -> int:
+    parser = _parser()
+    args = parser.parse_args(argv)
+    if not getattr(args, "func", None):
+        parser.print_help()
+        return 2
+    from .console import Console
+    console = Console(quiet=getattr(args, "quiet", False))
+    try:
+        return args.func(args, console) or 0
+    except InputError as exc:
+        console.error(str(exc))
+        return 2
+    except FillstressError as exc:
+        console.error(str(exc))
+        return 2
+    except KeyboardInterrupt:
+        console.error("interrupted; no results were changed")
+        return 130
+    except Exception as exc:  # an internal error: say so plainly, traceback on request
+        if getattr(args, "debug", False):
+            raise
+        console.error(f"internal error ({type(exc).__name__}: {exc}); "
+                      "rerun with --debug for the traceback and please report it")
+        return 1
+
+
+def _parser() -> argparse.ArgumentParser:
+    p = argparse.ArgumentParser(
+        prog="fillstress", formatter_class=argparse.RawDescriptionHelpFormatter,
+        description="Vertical stress increase and settlement below fills, stockpiles and "
+                    "embankments on an elastic half-space.", epilog=EPILOG)
+    p.add_argument("--version", action="version", version=f"fillstress {__version__}")
+    p.add_argument("--debug", action="store_true", help="show tracebacks of internal errors")
+    sub = p.add_subparsers(title="commands", metavar="COMMAND")
+
+    def command(name, func, help_, example):
+        c = sub.add_parser(name, help=help_, description=f"{help_}\n\nexample:\n  {example}",
+                           formatter_class=argparse.RawDescriptionHelpFormatter)
+        c.set_defaults(func=func)
+        c.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
+        c.add_argument("-q", "--quiet", action="store_true", help="print only errors")
+        return c
+
+    c = command("run", _run, "Run a site file into a results folder.",
+                "fillstress run site.toml -o results --overwrite")
+    c.add_argument("site", type=Path, help="site file (TOML)")
+    _run_options(c)
+
+    c = command("check", _check, "Validate a site file and show what a run would compute.",
+                "fillstress check site.toml")
+    c.add_argument("site", type=Path, help="site file (TOML)")
+
+    c = command("example", _example, "Run a bundled sample site end to end (list them "
+                "without a name).", "fillstress example bridge_approach -o approach-results")
+    c.add_argument("name", nargs="?", help="sample site name")
+    _run_options(c)
+
+    c = command("point", _point, "Δσz at points given on the command line (site units).",
+                "fillstress point site.toml 120 45 3.5  130 45 6.0")
+    c.add_argument("site", type=Path, help="site file (TOML)")
+    c.add_argument("xyz", nargs="+", type=float, help="x y depth, repeated for more points")
+    c.add_argument("--stage", type=int, default=None, help="construction stage (default: last)")
+
+    c = command("view", _view, "Show the results in 3D, or render them to PNG / HTML.",
+                "fillstress view results --png view.png --exaggeration 2")
+    c.add_argument("results", type=Path, help="results folder of a run")
+    c.add_argument("--png", type=Path, help="render offscreen to this PNG instead of a window")
+    c.add_argument("--html", type=Path, help="write a standalone HTML scene instead")
+    c.add_argument("--exaggeration", type=float, default=1.0, help="vertical exaggeration")
+    c.add_argument("--quantity", default="dsz", help="dsz, stress_ratio or settlement")
+
+    c = command("report", _report, "Write the HTML engineering report of a results folder.",
+                "fillstress report results -o job-report.html")
+    c.add_argument("results", type=Path, help="results folder of a run")
+    c.add_argument("-o", "--output", type=Path, help="report file (default results/report.html)")
+    return p
+
+
+def _run_options(c):
+    c.add_argument("-o", "--out", type=Path, help="results folder (default: results-<site>)")
+    c.add_argument("--overwrite", action="store_true",
+                   help="replace an existing results folder (only once the new one is complete)")
+    c.add_argument("--no-report", action="store_true", help="skip the report and 3D scene")
+    c.add_argument("--workers", type=int, default=None,
+                   help="run on a local Dask cluster with this many workers")
+    c.add_argument("--scheduler", default=None, help="address of a Dask scheduler to run on")
+
+
+def _run(args, console):
+    from .run import run_site_file
+    summary = run_site_file(args.site, args.out, overwrite=args.overwrite,
+                            report=not args.no_report, progress=console.progress,
+                            workers=args.workers, scheduler=args.scheduler)
+    console.summary(summary)
+
+
+def _check(args, console):
+    from .run import check_site_file
+    console.check(check_site_file(args.site))
+
+
+def _example(args, console):
+    from .examples import example_site, list_examples
+    if not args.name:
+        console.examples(list_examples())
+        return
+    _run(argparse.Namespace(**{**vars(args), "site": example_site(args.name),
+                               "out": args.out or Path(f"results-{args.name}")}), console)
+
+
+def _point(args, console):
+    from .run import stress_at_points
+    if len(args.xyz) % 3:
+        raise InputError(f"needs x y depth triples, got {len(args.xyz)} numbers", argument="xyz")
+    console.points(stress_at_points(args.site, args.xyz, stage=args.stage))
+
+
+def _view(args, console):
+    from . import viewer
+    _require_results(args.results)
+    if args.html:
+        viewer.export_scene_html(args.results, args.html)
+        console.wrote(args.html)
+    elif args.png:
+        viewer.render_png(args.results, args.png, exaggeration=args.exaggeration,
+                          quantity=args.quantity)
+        console.wrote(args.png)
+    else:
+        viewer.show(args.results, exaggeration=args.exaggeration, quantity=args.quantity)
+
+
+def _report(args, console):
+    from .report import write_report
+    _require_results(args.results)
+    console.wrote(write_report(args.results, args.output))
+
+
+def _require_results(folder: Path):
+    if not (folder / "manifest.json").is_file():
+        raise InputError("not a fillstress results folder (no manifest.json)", file=folder)
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())
