@@ -1,0 +1,239 @@
+"""One projected site CRS for every layer; metres inside the code.
+
+The site CRS must be projected (a plan grid in degrees makes no sense for stress). Its
+axis unit may be the metre or any length unit pyproj knows (international foot, US
+survey foot, ...). Internally fillstress works in metres, so a layer is first
+reprojected to the site CRS (pyproj, ``always_xy``) and its coordinates are then
+multiplied by the site's metres-per-unit factor (pyproj
+``crs.axis_info[0].unit_conversion_factor``); :func:`from_site` divides on the way out.
+
+:func:`metric_twin` builds the same projection with metre axes, so a GeoDataFrame that
+holds internal (metre) coordinates can carry an honest CRS.
+
+Examples
+--------
+>>> crs, f = site_crs("EPSG:2263")     # NAD83 / New York Long Island (ftUS)
+>>> round(f, 12)
+0.304800609601
+>>> to_site((1000.0, 2000.0), None, (crs, f))   # a layer stated in the site CRS
+(304.80060960121924, 609.6012192024385)
+"""
+from __future__ import annotations
+
+import numpy as np
+import pyproj
+import shapely
+from pyproj.crs import ProjectedCRS
+from pyproj.crs.coordinate_system import Cartesian2DCS
+
+from .errors import InputError
+
+SiteCRS = tuple  # (pyproj.CRS, metres_per_unit)
+
+
+def as_crs(crs_like, argument: str = "crs") -> pyproj.CRS:
+    """Parse anything pyproj accepts ('EPSG:32633', WKT, pyproj.CRS) or raise InputError.
+
+    Examples
+    --------
+    >>> as_crs(32633).to_epsg()
+    32633
+    """
+    try:
+        return pyproj.CRS.from_user_input(crs_like)
+    except (pyproj.exceptions.CRSError, TypeError, ValueError) as exc:
+        raise InputError(f"is not a coordinate reference system pyproj understands "
+                         f"({str(exc).splitlines()[0]})", argument=argument) from None
+
+
+def _horizontal(crs: pyproj.CRS) -> pyproj.CRS:
+    """The horizontal part of a compound (horizontal + vertical) CRS."""
+    if crs.is_compound:
+        return crs.sub_crs_list[0]
+    return crs
+
+
+def suggest_projected(lon: float, lat: float) -> str:
+    """Name the WGS 84 UTM zone holding (lon, lat), e.g. for an error message.
+
+    Examples
+    --------
+    >>> suggest_projected(10.5, 59.9)
+    'EPSG:32632 (WGS 84 / UTM zone 32N)'
+    """
+    from pyproj.aoi import AreaOfInterest
+    from pyproj.database import query_utm_crs_info
+    hits = query_utm_crs_info(datum_name="WGS 84",
+                              area_of_interest=AreaOfInterest(lon, lat, lon, lat))
+    if not hits:
+        return "a projected CRS in metres for the site"
+    return f"{hits[0].auth_name}:{hits[0].code} ({hits[0].name})"
+
+
+def site_crs(crs_like, *, near_lonlat=None, argument: str = "crs") -> tuple[pyproj.CRS, float]:
+    """Validate the site CRS and return it with its metres-per-unit factor.
+
+    Parameters
+    ----------
+    crs_like : str, int or pyproj.CRS
+        The site CRS; must be projected with east/north axes in a length unit.
+    near_lonlat : (float, float), optional
+        Longitude/latitude of the site, used only to suggest a UTM zone when
+        `crs_like` is geographic.
+    argument : str
+        Name used in error messages.
+
+    Returns
+    -------
+    (pyproj.CRS, float)
+        The horizontal CRS and the metres per CRS unit (1.0, 0.3048, 1200/3937, ...).
+
+    Examples
+    --------
+    >>> site_crs("EPSG:32632")[1]
+    1.0
+    >>> site_crs("EPSG:4326")
+    Traceback (most recent call last):
+    ...
+    fillstress.errors.InputError: argument crs: EPSG:4326 is geographic (degrees); use a projected CRS in metres or feet, e.g. the UTM zone of the site (pyproj.database.query_utm_crs_info)
+    """
+    crs = _horizontal(as_crs(crs_like, argument))
+    label = crs.to_string()
+    if crs.is_geographic:
+        hint = ("the UTM zone of the site (pyproj.database.query_utm_crs_info)"
+                if near_lonlat is None else suggest_projected(*near_lonlat))
+        raise InputError(f"{label} is geographic (degrees); use a projected CRS in metres "
+                         f"or feet, e.g. {hint}", argument=argument)
+    if not crs.is_projected:
+        raise InputError(f"{label} is not a projected CRS", argument=argument)
+    axes = crs.axis_info[:2]
+    if {a.direction.lower() for a in axes} != {"east", "north"}:
+        raise InputError(f"{label} axes point {[a.direction for a in axes]}; fillstress "
+                         "needs east and north axes", argument=argument)
+    factors = [a.unit_conversion_factor for a in axes]
+    if not np.isclose(factors[0], factors[1], rtol=1e-12) or factors[0] <= 0:
+        raise InputError(f"{label} has unequal or invalid axis units {factors}",
+                         argument=argument)
+    return crs, float(factors[0])
+
+
+def _resolve_site(site) -> tuple[pyproj.CRS, float]:
+    if isinstance(site, tuple) and len(site) == 2 and isinstance(site[0], pyproj.CRS):
+        return site
+    return site_crs(site, argument="site")
+
+
+def _layer_centre_lonlat(geom_or_xy, crs: pyproj.CRS):
+    xy = _as_xy_array(geom_or_xy)
+    cx, cy = np.nanmean(xy[:, 0]), np.nanmean(xy[:, 1])
+    if crs.is_geographic:
+        to_ll = pyproj.Transformer.from_crs(crs, "EPSG:4326", always_xy=True)
+        return to_ll.transform(cx, cy)
+    return None
+
+
+def _as_xy_array(geom_or_xy) -> np.ndarray:
+    if isinstance(geom_or_xy, shapely.Geometry) or (
+            isinstance(geom_or_xy, np.ndarray) and geom_or_xy.dtype == object):
+        return shapely.get_coordinates(geom_or_xy)
+    if isinstance(geom_or_xy, tuple) and len(geom_or_xy) == 2:
+        return np.column_stack([np.ravel(geom_or_xy[0]), np.ravel(geom_or_xy[1])])
+    return np.asarray(geom_or_xy, dtype=float).reshape(-1, np.shape(geom_or_xy)[-1])[:, :2]
+
+
+def _apply(geom_or_xy, func, argument):
+    """Apply ``func((N, 2) array) -> (N, 2) array`` to a geometry, an (x, y) pair or an array."""
+    if isinstance(geom_or_xy, shapely.Geometry) or (
+            isinstance(geom_or_xy, np.ndarray) and geom_or_xy.dtype == object):
+        return shapely.transform(geom_or_xy, func, include_z=False)
+    if isinstance(geom_or_xy, tuple) and len(geom_or_xy) == 2:
+        x = np.asarray(geom_or_xy[0], dtype=float)
+        y = np.asarray(geom_or_xy[1], dtype=float)
+        out = func(np.column_stack([x.ravel(), y.ravel()]))
+        if x.ndim == 0:
+            return float(out[0, 0]), float(out[0, 1])
+        return out[:, 0].reshape(x.shape), out[:, 1].reshape(y.shape)
+    arr = np.array(geom_or_xy, dtype=float)
+    if arr.ndim != 2 or arr.shape[1] not in (2, 3):
+        raise InputError(f"must be a geometry, an (x, y) pair or an (N, 2|3) array, got "
+                         f"shape {arr.shape}", argument=argument)
+    arr[:, :2] = func(arr[:, :2])  # z (elevation) is left as it is
+    return arr
+
+
+def to_site(geom_or_xy, from_crs, site, *, argument: str = "geometry"):
+    """Bring a layer into internal site coordinates (metres in the site projection).
+
+    Parameters
+    ----------
+    geom_or_xy : shapely geometry (or array of them), (x, y) pair, or (N, 2|3) array
+        Coordinates in `from_crs`. A third column (elevation) is not changed.
+    from_crs : CRS-like or None
+        The layer's CRS. None means the layer is in the site CRS.
+    site : (pyproj.CRS, float) from :func:`site_crs`, CRS-like, or None
+        The site CRS. None (the site states no CRS) is accepted only when `from_crs`
+        is None too, and then the layer coordinates are taken as metres.
+    argument : str
+        Name used in error messages.
+
+    Returns
+    -------
+    The same kind of object as `geom_or_xy`, in metres.
+
+    Examples
+    --------
+    >>> x, y = to_site((10.5, 59.9), "EPSG:4326", "EPSG:32632")
+    >>> round(x, 1), round(y, 1)
+    (583914.1, 6641224.9)
+    """
+    if site is None:
+        if from_crs is None:
+            return _apply(geom_or_xy, lambda xy: xy, argument)
+        layer = as_crs(from_crs, argument)
+        where = _layer_centre_lonlat(geom_or_xy, layer)
+        hint = suggest_projected(*where) if where else layer.to_string()
+        raise InputError(f"the layer is in {layer.to_string()} but the site states no CRS; "
+                         f"state a projected site CRS, e.g. {hint}", argument=argument)
+    crs, factor = _resolve_site(site)
+    layer = crs if from_crs is None else _horizontal(as_crs(from_crs, argument))
+    transformer = None if layer.equals(crs) else pyproj.Transformer.from_crs(
+        layer, crs, always_xy=True)
+
+    def func(xy):
+        if transformer is not None:
+            xy = np.column_stack(transformer.transform(xy[:, 0], xy[:, 1]))
+        return xy * factor
+
+    return _apply(geom_or_xy, func, argument)
+
+
+def from_site(geom_or_xy, site, *, argument: str = "geometry"):
+    """Internal metres back to site-CRS units (for writing outputs in the site CRS).
+
+    Examples
+    --------
+    >>> from_site((0.3048, 3.048), "EPSG:2229")[0] != 1.0   # US survey foot, not 0.3048 m
+    True
+    """
+    if site is None:
+        return _apply(geom_or_xy, lambda xy: xy, argument)
+    _, factor = _resolve_site(site)
+    return _apply(geom_or_xy, lambda xy: xy / factor, argument)
+
+
+def metric_twin(crs_like) -> pyproj.CRS:
+    """The same projection as `crs_like` with metre axes (east, north).
+
+    Coordinates in the twin are exactly the site-CRS coordinates times the
+    metres-per-unit factor, so it is the honest CRS of internal coordinates.
+
+    Examples
+    --------
+    >>> metric_twin("EPSG:2263").axis_info[0].unit_name
+    'metre'
+    """
+    crs, factor = site_crs(crs_like)
+    if factor == 1.0:
+        return crs
+    return ProjectedCRS(conversion=crs.coordinate_operation, geodetic_crs=crs.geodetic_crs,
+                        cartesian_cs=Cartesian2DCS(), name=f"{crs.name} (metres)")

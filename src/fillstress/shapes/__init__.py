@@ -1,0 +1,1 @@
+"""Fill bodies as cell-average thickness grids."""
