@@ -141,11 +141,21 @@ def _as_xy_array(geom_or_xy) -> np.ndarray:
     return np.asarray(geom_or_xy, dtype=float).reshape(-1, np.shape(geom_or_xy)[-1])[:, :2]
 
 
+def _xy_columns(func):
+    """Wrap ``func`` so it changes only x and y of an (N, 2) or (N, 3) array."""
+    def wrapped(coords):
+        out = np.array(coords, dtype=float)
+        if len(out):
+            out[:, :2] = func(out[:, :2])
+        return out
+    return wrapped
+
+
 def _apply(geom_or_xy, func, argument):
     """Apply ``func((N, 2) array) -> (N, 2) array`` to a geometry, an (x, y) pair or an array."""
     if isinstance(geom_or_xy, shapely.Geometry) or (
             isinstance(geom_or_xy, np.ndarray) and geom_or_xy.dtype == object):
-        return shapely.transform(geom_or_xy, func, include_z=False)
+        return shapely.transform(geom_or_xy, _xy_columns(func), include_z=None)
     if isinstance(geom_or_xy, tuple) and len(geom_or_xy) == 2:
         x = np.asarray(geom_or_xy[0], dtype=float)
         y = np.asarray(geom_or_xy[1], dtype=float)
