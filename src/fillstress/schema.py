@@ -9,13 +9,15 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 # Unit kinds a key can carry; site.py converts each to SI with the site's unit system.
-LENGTH, PRESSURE, UNIT_WEIGHT, ANGLE, INV_PRESSURE, CV, NONE = (
-    "length", "pressure", "unit_weight", "angle", "1/pressure", "length2/time", "")
+# COORD: plan coordinates in the units of the site CRS (metres, international or US survey
+# feet), converted with the CRS's own axis factor, not with the unit system's length.
+LENGTH, PRESSURE, UNIT_WEIGHT, ANGLE, INV_PRESSURE, CV, COORD, NONE = (
+    "length", "pressure", "unit_weight", "angle", "1/pressure", "length2/time", "crs", "")
 
 UNIT_LABELS = {  # (SI label, US label) for the reference
     LENGTH: ("m", "ft"), PRESSURE: ("kPa", "psf"), UNIT_WEIGHT: ("kN/m³", "pcf"),
     ANGLE: ("degrees", "degrees"), INV_PRESSURE: ("1/kPa", "1/psf"),
-    CV: ("m²/year", "ft²/year"), NONE: ("", ""),
+    CV: ("m²/year", "ft²/year"), COORD: ("CRS unit", "CRS unit"), NONE: ("", ""),
 }
 
 
@@ -115,7 +117,7 @@ _BODY_COMMON = (
         default=False),
 )
 _OUTLINE = (
-    Key("outline", "xy", "Plan outline as a list of [x, y] vertices (closed automatically).",
+    Key("outline", "xy", "Plan outline as a list of [x, y] vertices in site CRS units (closed automatically).",
         example="[[0, 0], [40, 0], [40, 25], [0, 25]]"),
     Key("file", "path", "Vector file (GeoJSON or any format geopandas reads) with the outline(s)."),
     Key("where", "str", "Select features of `file` whose `id_field` equals this value."),
@@ -135,7 +137,7 @@ BODY_VARIANTS = {
             default=False),
     ),
     "embankment": (
-        Key("centreline", "xy", "Centreline as a list of [x, y] vertices, in chainage order.",
+        Key("centreline", "xy", "Centreline as a list of [x, y] vertices in site CRS units, in chainage order.",
             example="[[0, 0], [80, 0], [140, 30]]"),
         Key("file", "path", "Vector file with the centreline (a LineString)."),
         Key("where", "str", "Select the feature of `file` whose `id_field` equals this value."),
@@ -197,7 +199,7 @@ LAYER = Table("soil.layers", "One soil layer; layers must follow each other with
 BUILDINGS = Table("buildings", "Buildings to check, each an [[buildings]] entry: inline "
                   "outline or a vector file of footprints.", (
     Key("id", "str", "Name of the building (with `file`: prefix of the feature ids)."),
-    Key("outline", "xy", "Footprint as [x, y] vertices."),
+    Key("outline", "xy", "Footprint as [x, y] vertices in site CRS units."),
     Key("file", "path", "Vector file of footprint polygons."),
     Key("id_field", "str", "Attribute of `file` naming each building.", default="id"),
     Key("foundation_depth", "float", "Depth of the foundation below existing ground.",
@@ -215,7 +217,7 @@ BUILDINGS = Table("buildings", "Buildings to check, each an [[buildings]] entry:
 
 PIPES = Table("pipes", "Buried pipes and other lines, each a [[pipes]] entry.", (
     Key("id", "str", "Name of the pipe."),
-    Key("line", "xy", "Route as [x, y] vertices in chainage order."),
+    Key("line", "xy", "Route as [x, y] vertices in site CRS units, in chainage order."),
     Key("file", "path", "Vector file of LineStrings."),
     Key("id_field", "str", "Attribute of `file` naming each line.", default="id"),
     Key("crown_depth", "float", "Depth of the pipe crown below existing ground.", unit=LENGTH,
@@ -233,8 +235,8 @@ PIPES = Table("pipes", "Buried pipes and other lines, each a [[pipes]] entry.", 
 
 BOREHOLES = Table("boreholes", "Vertical profiles of stress (and settlement) at points.", (
     Key("id", "str", "Name of the borehole.", required=True),
-    Key("x", "float", "Easting.", unit=LENGTH, required=True),
-    Key("y", "float", "Northing.", unit=LENGTH, required=True),
+    Key("x", "float", "Easting.", unit=COORD, required=True),
+    Key("y", "float", "Northing.", unit=COORD, required=True),
     Key("top", "float", "Depth of the first point.", unit=LENGTH, default=0.5, **_NONNEG),
     Key("bottom", "float", "Depth of the last point.", unit=LENGTH, default=20.0, **_POS),
     Key("step", "float", "Depth step.", unit=LENGTH, default=0.5, **_POS),
@@ -246,7 +248,7 @@ PLAN_GRIDS = Table("plan_grids", "Plan grids of Δσz at a list of depths, compu
     Key("depths", "floats", "Depths of the slices.", unit=LENGTH, required=True,
         example="[2.0, 5.0, 10.0]"),
     Key("extent", "extent", "[xmin, ymin, xmax, ymax] of the grid (default: the analysis grid "
-        "extent).", unit=LENGTH),
+        "extent).", unit=COORD),
 ), many="array")
 
 SETTLEMENT = Table("settlement", "Settlement checks (need [soil]).", (

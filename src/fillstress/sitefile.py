@@ -228,7 +228,9 @@ class _Validator:
         if pairs:
             # [chainage, height]: both lengths
             return [[self.units.length_si(a), self.units.length_si(b)] for a, b in out]
-        return [[self.units.length_si(c) for c in p] for p in out]
+        # x, y stay in CRS units (site.py scales them by the CRS axis factor); z is a length
+        return [[float(p[0]), float(p[1])] + [self.units.length_si(c) for c in p[2:]]
+                for p in out]
 
     def _si(self, v, key: schema.Key):
         if v is None or isinstance(v, (bool, str)) or key.kind in ("str", "bool", "int"):
