@@ -2,5 +2,6 @@
 from __future__ import annotations
 
 from .direct import vertical_stress
+from .slices import SlicePlan, slice_at_depth, stress_slices
 
-__all__ = ["vertical_stress"]
+__all__ = ["vertical_stress", "stress_slices", "slice_at_depth", "SlicePlan"]
