@@ -185,12 +185,20 @@ def _call_height(height: HeightFunction, x: np.ndarray, y: np.ndarray) -> np.nda
     return z
 
 
+_CHUNK_POINTS = 1 << 20  # sample points evaluated at once (bounds memory)
+
+
 def _inside_cell_means(height, spec, jj, ii, samples):
     offs = (np.arange(samples) + 0.5) / samples
     ox, oy = np.meshgrid(offs * spec.dx, offs * spec.dy, indexing="xy")
-    x = (spec.x0 + ii * spec.dx)[:, None] + ox.ravel()[None, :]
-    y = (spec.y0 + jj * spec.dy)[:, None] + oy.ravel()[None, :]
-    return _call_height(height, x, y).mean(axis=1)
+    ox, oy = ox.ravel()[None, :], oy.ravel()[None, :]
+    means = np.empty(len(jj))
+    step = max(1, _CHUNK_POINTS // samples**2)
+    for k in range(0, len(jj), step):
+        x = (spec.x0 + ii[k:k + step] * spec.dx)[:, None] + ox
+        y = (spec.y0 + jj[k:k + step] * spec.dy)[:, None] + oy
+        means[k:k + step] = _call_height(height, x, y).mean(axis=1)
+    return means
 
 
 def _edge_cell_integrals(height, geometry, boxes, samples):
