@@ -1,0 +1,323 @@
+"""Reading a results folder through its documented contract (docs/results-folder.md).
+
+The report and the 3D viewer see a run only through this module: JSON, CSV, GeoJSON,
+GeoTIFF and the NetCDF stress cube, never the solver's objects. Column names carry the
+unit suffix given by ``manifest.json`` → ``units``; every plan field is returned with
+``y`` ascending, so ``values[j, i]`` sits at ``(x[i], y[j])`` and row 0 is the south row,
+the same convention as :class:`fillstress.grid.LoadGrid`.
+"""
+from __future__ import annotations
+
+import json
+import re
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from ..errors import InputError
+
+#: Quantities that can be shown on plan slices and at sample points; value = unit key.
+QUANTITIES = {"dsz": "pressure", "stress_ratio": None, "settlement": "settlement",
+              "sigma_v0": "pressure"}
+_UNIT_KEYS = ("length", "pressure", "unit_weight", "settlement")
+_SLICE_NAME = re.compile(r"^(?P<q>dsz)_(?P<grid>.+)_z(?P<depth>[0-9]+(?:\.[0-9]+)?)(?P<unit>[A-Za-z]+)$")
+
+
+@dataclass(frozen=True)
+class UnitLabels:
+    """Unit labels of one results folder, as written in column suffixes.
+
+    Examples
+    --------
+    >>> u = UnitLabels("m", "kPa", "kN/m3", "mm")
+    >>> u.suffixed("dsz", "pressure"), u.suffixed("stress_ratio", None)
+    ('dsz_kPa', 'stress_ratio')
+    """
+
+    length: str
+    pressure: str
+    unit_weight: str
+    settlement: str
+
+    def label(self, unit_key: str | None) -> str:
+        """The label for a unit key ('length', 'pressure', ...), '' for dimensionless."""
+        return "" if unit_key is None else getattr(self, unit_key)
+
+    def suffixed(self, base: str, unit_key: str | None) -> str:
+        """Column name `base` with the unit suffix of `unit_key` (none when dimensionless)."""
+        label = self.label(unit_key)
+        return f"{base}_{label}" if label else base
+
+
+@dataclass(frozen=True, eq=False)
+class PlanField:
+    """A plan grid of values: ``values[j, i]`` at ``(x[i], y[j])``, x and y ascending.
+
+    Examples
+    --------
+    >>> f = PlanField("dsz", "plan", 2.0, np.array([0.5, 1.5]), np.array([0.5]),
+    ...               np.array([[3.0, 4.0]]), "kPa")
+    >>> f.value_range()
+    (3.0, 4.0)
+    """
+
+    quantity: str
+    grid: str
+    depth: float | None
+    x: np.ndarray
+    y: np.ndarray
+    values: np.ndarray
+    units: str
+
+    def value_range(self) -> tuple[float, float]:
+        """(min, max) of the finite values; (0, 0) when there are none."""
+        finite = self.values[np.isfinite(self.values)]
+        if finite.size == 0:
+            return (0.0, 0.0)
+        return (float(finite.min()), float(finite.max()))
+
+
+@dataclass(frozen=True)
+class Feature:
+    """One GeoJSON feature: a shapely geometry and its properties."""
+
+    receptor_id: str
+    geometry: object
+    properties: dict = field(default_factory=dict)
+
+
+def _read_json(path: Path, *, required: bool) -> dict:
+    if not path.is_file():
+        if required:
+            raise InputError("is missing from the results folder", file=path)
+        return {}
+    try:
+        data = json.loads(path.read_text(encoding="utf-8"))
+    except (json.JSONDecodeError, UnicodeDecodeError) as exc:
+        raise InputError(f"is not valid JSON ({exc})", file=path) from None
+    if not isinstance(data, dict):
+        raise InputError("must hold a JSON object at the top level", file=path)
+    return data
+
+
+def _ascending(coord: np.ndarray, values: np.ndarray, axis: int):
+    """Flip `values` along `axis` when `coord` runs downwards, so coordinates ascend."""
+    if coord.size > 1 and coord[0] > coord[-1]:
+        return coord[::-1].copy(), np.flip(values, axis=axis).copy()
+    return coord, values
+
+
+class ResultsFolder:
+    """Read-only view of one results folder.
+
+    Parameters
+    ----------
+    path : str or path-like
+        The folder holding ``manifest.json`` and the other documented files.
+
+    Examples
+    --------
+    >>> import tempfile, json, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp())
+    >>> _ = (d / "manifest.json").write_text(json.dumps({"units": {
+    ...     "length": "m", "pressure": "kPa", "unit_weight": "kN/m3", "settlement": "mm"}}))
+    >>> ResultsFolder(d).units.pressure
+    'kPa'
+    """
+
+    def __init__(self, path):
+        self.path = Path(path)
+        if not self.path.is_dir():
+            raise InputError("is not a results folder (no such directory)", argument="results_dir")
+        self.manifest = _read_json(self.path / "manifest.json", required=True)
+        self.summary = _read_json(self.path / "summary.json", required=False)
+        self.units = self._read_units()
+
+    def _read_units(self) -> UnitLabels:
+        units = self.manifest.get("units")
+        if not isinstance(units, dict):
+            raise InputError("must be an object of unit labels", file=self.path / "manifest.json",
+                             key="units")
+        missing = [k for k in _UNIT_KEYS if not isinstance(units.get(k), str)]
+        if missing:
+            raise InputError(f"lacks label(s) {', '.join(missing)}",
+                             file=self.path / "manifest.json", key="units")
+        return UnitLabels(*(units[k] for k in _UNIT_KEYS))
+
+    # --- tables ----------------------------------------------------------------
+    def table(self, name: str):
+        """The CSV ``<name>.csv`` as a pandas DataFrame, or None when absent."""
+        import pandas as pd
+        path = self.path / f"{name}.csv"
+        if not path.is_file():
+            return None
+        try:
+            return pd.read_csv(path, dtype={"receptor_id": str, "point_id": str, "body": str},
+                               keep_default_na=False, na_values=[""])
+        except (pd.errors.ParserError, UnicodeDecodeError) as exc:
+            raise InputError(f"cannot be read as CSV ({exc})", file=path) from None
+
+    def _tables(self, suffix: str) -> dict:
+        kinds = sorted(p.name[: -len(suffix)] for p in self.path.glob(f"*{suffix}"))
+        return {k: self.table(k + suffix[:-4]) for k in kinds}
+
+    def point_tables(self) -> dict:
+        """``{kind: DataFrame}`` for every ``<kind>_points.csv``."""
+        return self._tables("_points.csv")
+
+    def summary_tables(self) -> dict:
+        """``{kind: DataFrame}`` for every ``<kind>_summary.csv``."""
+        return self._tables("_summary.csv")
+
+    def column(self, df, base: str, unit_key: str | None, *, name: str) -> str:
+        """The column of `df` for `base` in this folder's unit, or InputError naming it."""
+        col = self.units.suffixed(base, unit_key)
+        if col not in df.columns:
+            raise InputError(f"has no column {col!r}", file=self.path / f"{name}.csv", key=col)
+        return col
+
+    def optional_column(self, df, base: str, unit_key: str | None) -> str | None:
+        """Like :meth:`column` but None when the column is absent."""
+        col = self.units.suffixed(base, unit_key)
+        return col if col in df.columns else None
+
+    # --- vectors ---------------------------------------------------------------
+    def features(self, name: str) -> list[Feature]:
+        """Features of ``<name>.geojson`` (empty list when the file is absent)."""
+        import shapely.geometry
+        path = self.path / f"{name}.geojson"
+        data = _read_json(path, required=False)
+        feats = []
+        for k, feat in enumerate(data.get("features", [])):
+            try:
+                geom = shapely.geometry.shape(feat["geometry"])
+            except (KeyError, TypeError, ValueError, AttributeError) as exc:
+                raise InputError(f"feature {k} has no valid geometry ({exc})", file=path) from None
+            props = feat.get("properties") or {}
+            feats.append(Feature(str(props.get("receptor_id", f"{name}-{k}")), geom, props))
+        return feats
+
+    # --- rasters and the stress cube ---------------------------------------------
+    def raster(self, relpath: str, quantity: str, units: str) -> PlanField | None:
+        """A north-up GeoTIFF as a PlanField (nodata → NaN), or None when absent."""
+        import rasterio
+        path = self.path / relpath
+        if not path.is_file():
+            return None
+        try:
+            with rasterio.open(path) as src:
+                t = src.transform
+                if t.b != 0 or t.d != 0:
+                    raise InputError("is rotated; expected a north-up raster", file=path)
+                values = src.read(1, masked=True).astype(float).filled(np.nan)
+                x = t.c + (np.arange(src.width) + 0.5) * t.a
+                y = t.f + (np.arange(src.height) + 0.5) * t.e
+        except rasterio.errors.RasterioIOError as exc:
+            raise InputError(f"cannot be read as GeoTIFF ({exc})", file=path) from None
+        x, values = _ascending(x, values, 1)
+        y, values = _ascending(y, values, 0)
+        return PlanField(quantity, "", None, x, y, values, units)
+
+    def fill_thickness(self) -> PlanField | None:
+        """Final-stage fill thickness (length unit), from the GeoTIFF or else the cube."""
+        field_ = self.raster("fill_thickness.tif", "fill_thickness", self.units.length)
+        if field_ is None:
+            cube = self.cube()
+            if cube is not None and "fill_thickness" in cube:
+                field_ = self._plan_from_array(cube["fill_thickness"], "fill_thickness", "",
+                                               None, self.units.length)
+        return field_
+
+    def ground_elevation(self) -> PlanField | None:
+        """Existing ground elevation, when the site has one."""
+        return self.raster("ground_elevation.tif", "ground_elevation", self.units.length)
+
+    def cube(self):
+        """The stress cube as an xarray Dataset (loaded into memory), or None."""
+        import xarray as xr
+        path = self.path / "stress_cube.nc"
+        if not path.is_file():
+            return None
+        try:
+            with xr.open_dataset(path) as ds:
+                return ds.load()
+        except (OSError, ValueError) as exc:
+            raise InputError(f"cannot be read as NetCDF ({exc})", file=path) from None
+
+    @staticmethod
+    def _plan_from_array(da, quantity, grid, depth, units) -> PlanField:
+        ydim, xdim = da.dims[-2:]
+        x = np.asarray(da[xdim].values if xdim in da.coords else np.arange(da.shape[-1]), float)
+        y = np.asarray(da[ydim].values if ydim in da.coords else np.arange(da.shape[-2]), float)
+        values = np.asarray(da.values, float)
+        x, values = _ascending(x, values, 1)
+        y, values = _ascending(y, values, 0)
+        return PlanField(quantity, grid, depth, x, y, values, units)
+
+    def plan_slices(self, quantity: str = "dsz") -> list[PlanField]:
+        """Every horizontal slice of `quantity`, sorted by plan grid then depth.
+
+        Read from ``stress_cube.nc`` (variables ``<quantity>_<grid>``); Δσz falls back to
+        ``slices/dsz_<grid>_z<depth><len>.tif`` when there is no cube.
+        """
+        unit_key = _quantity_unit_key(quantity)
+        units = self.units.label(unit_key)
+        cube = self.cube()
+        slices = []
+        if cube is not None:
+            for var in sorted(cube.data_vars):
+                grid = _grid_of(var, quantity)
+                da = cube[var]
+                if grid is None or da.ndim != 3:
+                    continue
+                depths = np.asarray(da[da.dims[0]].values, float)
+                for k in np.argsort(depths):
+                    slices.append(self._plan_from_array(da.isel({da.dims[0]: int(k)}), quantity,
+                                                        grid, float(depths[k]), units))
+        elif quantity == "dsz":
+            slices = self._tif_slices(units)
+        return sorted(slices, key=lambda s: (s.grid, s.depth))
+
+    def _tif_slices(self, units: str) -> list[PlanField]:
+        out = []
+        for path in sorted((self.path / "slices").glob("*.tif")):
+            m = _SLICE_NAME.match(path.stem)
+            if m is None:
+                continue
+            f = self.raster(f"slices/{path.name}", "dsz", units)
+            out.append(PlanField("dsz", m["grid"], float(m["depth"]), f.x, f.y, f.values, units))
+        return out
+
+    def available_quantities(self) -> list[str]:
+        """Quantities present on plan slices or as a point column, in QUANTITIES order."""
+        cube = self.cube()
+        names = set(cube.data_vars) if cube is not None else set()
+        found = []
+        for q, unit_key in QUANTITIES.items():
+            col = self.units.suffixed(q, unit_key)
+            in_cube = any(_grid_of(v, q) is not None for v in names)
+            in_points = any(df is not None and col in df.columns
+                            for df in self.point_tables().values())
+            if in_cube or in_points or (q == "dsz" and self.plan_slices("dsz")):
+                found.append(q)
+        return found
+
+
+def _quantity_unit_key(quantity: str) -> str | None:
+    if quantity not in QUANTITIES:
+        raise InputError(f"unknown quantity {quantity!r}; choose one of {', '.join(QUANTITIES)}",
+                         argument="quantity")
+    return QUANTITIES[quantity]
+
+
+def _grid_of(var: str, quantity: str) -> str | None:
+    """Plan grid name of cube variable `var` if it holds `quantity`, else None."""
+    if var == quantity:
+        return "plan"
+    if var.startswith(quantity + "_"):
+        rest = var[len(quantity) + 1:]
+        # 'stress_ratio_plan' must not count as quantity 'stress'; all quantities are listed.
+        if not any(var.startswith(q + "_") and len(q) > len(quantity) for q in QUANTITIES):
+            return rest
+    return None
