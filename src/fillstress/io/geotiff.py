@@ -1,0 +1,100 @@
+"""GeoTIFF writing of one 2-D array on the analysis lattice.
+
+In memory row 0 is the southern row (see :class:`~fillstress.grid.GridSpec`); a GeoTIFF is
+north-up, so rows are flipped on the way out. Values are float32 in the output unit;
+NaN marks "no value" and is declared as the nodata value.
+"""
+from __future__ import annotations
+
+import os
+
+import numpy as np
+
+from ..errors import InputError
+from ..grid import GridSpec
+from ..units import SI, UnitSystem
+from .atomic import write_atomic
+from .tables import to_output_units, unit_label
+
+
+def rasterio_crs(crs):
+    """A rasterio CRS from anything pyproj understands (None stays None)."""
+    if crs is None:
+        return None
+    from pyproj import CRS
+    from pyproj.exceptions import CRSError
+    from rasterio.crs import CRS as RioCRS
+    try:
+        return RioCRS.from_wkt(CRS.from_user_input(crs).to_wkt())
+    except CRSError as exc:
+        raise InputError(f"is not a usable CRS ({exc})", argument="crs") from None
+
+
+def north_up(array: np.ndarray) -> np.ndarray:
+    """Rows reordered from south-first (memory) to north-first (raster file).
+
+    Examples
+    --------
+    >>> north_up(np.array([[1, 2], [3, 4]])).tolist()
+    [[3, 4], [1, 2]]
+    """
+    return np.ascontiguousarray(array[::-1, :])
+
+
+def write_geotiff(path, array, grid: GridSpec, *, quantity: str | None,
+                  units: UnitSystem = SI, description: str = "", crs=None) -> os.PathLike:
+    """Write `array` (SI, shape ``grid.shape``, row 0 south) as a single-band GeoTIFF.
+
+    Parameters
+    ----------
+    path : str or path-like
+        Output ``.tif``; written atomically.
+    array : array_like, shape (ny, nx)
+        Values in SI; NaN for "no value", infinities refused.
+    grid : GridSpec
+        Lattice giving the georeferencing.
+    quantity : {"length", "pressure", "settlement", ...} or None
+        Converts values to `units`; None for dimensionless values.
+    units : UnitSystem
+        Output unit system; its label is stored in the band's ``units`` tag.
+    description : str
+        Band description (e.g. ``"fill thickness"``).
+    crs : optional
+        Overrides ``grid.crs``.
+
+    Examples
+    --------
+    >>> import tempfile, os, rasterio
+    >>> g = GridSpec(0.0, 0.0, 1.0, 1.0, nx=2, ny=2, crs="EPSG:32633")
+    >>> f = os.path.join(tempfile.mkdtemp(), "t.tif")
+    >>> _ = write_geotiff(f, [[1.0, 2.0], [3.0, 4.0]], g, quantity="length")
+    >>> with rasterio.open(f) as src:
+    ...     src.read(1).tolist(), src.tags(1)["units"], tuple(map(float, src.xy(0, 0)))
+    ([[3.0, 4.0], [1.0, 2.0]], 'm', (0.5, 1.5))
+    """
+    import rasterio
+
+    if not isinstance(grid, GridSpec):
+        raise InputError(f"must be a GridSpec, got {type(grid).__name__}", argument="grid")
+    try:
+        values = np.asarray(array, dtype=np.float64)
+    except (TypeError, ValueError) as exc:
+        raise InputError(f"must be numeric ({exc})", argument="array") from None
+    if values.shape != grid.shape:
+        raise InputError(f"must have the grid shape {grid.shape}, got {values.shape}",
+                         argument="array")
+    if np.any(np.isinf(values)):
+        raise InputError("holds infinite values", argument="array")
+    label = "" if quantity is None else unit_label(units, quantity)
+    data = north_up(to_output_units(values, units, quantity)).astype(np.float32)
+    profile = dict(driver="GTiff", width=grid.nx, height=grid.ny, count=1,
+                   dtype="float32", crs=rasterio_crs(crs if crs is not None else grid.crs),
+                   transform=grid.rasterio_transform(), nodata=np.nan, compress="deflate")
+
+    def write(tmp):
+        with rasterio.open(tmp, "w", **profile) as dst:
+            dst.write(data, 1)
+            dst.set_band_description(1, description)
+            dst.update_tags(1, units=label)
+
+    return write_atomic(path, write)

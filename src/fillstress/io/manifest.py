@@ -1,0 +1,169 @@
+"""``manifest.json``: what produced a results folder, from what, and checksums of every file.
+
+The manifest is written last, inside the folder being assembled, so its ``outputs``
+table lists every other file with its SHA-256; anyone can later check that a results
+folder is complete and unaltered, and which inputs (by SHA-256) it came from.
+"""
+from __future__ import annotations
+
+import datetime as _dt
+import hashlib
+import json
+import math
+import os
+from pathlib import Path
+from typing import Iterable, Mapping
+
+import numpy as np
+
+from ..errors import InputError
+from ..grid import GridSpec
+from ..units import SI, UnitSystem
+from .atomic import ResultsFolder, write_atomic
+from .tables import to_output_units, unit_label
+
+MANIFEST_NAME = "manifest.json"
+
+
+def sha256_file(path, chunk_size: int = 1 << 20) -> str:
+    """Hex SHA-256 of a file's bytes, read in chunks.
+
+    Examples
+    --------
+    >>> import tempfile, os
+    >>> f = os.path.join(tempfile.mkdtemp(), "abc.txt")
+    >>> _ = open(f, "wb").write(b"abc")
+    >>> sha256_file(f)[:16]  # FIPS 180-2, appendix B.1 test vector for "abc"
+    'ba7816bf8f01cfea'
+    """
+    path = Path(os.fspath(path))
+    if not path.is_file():
+        raise InputError("file not found, cannot checksum it", file=path)
+    digest = hashlib.sha256()
+    with open(path, "rb") as fh:
+        for block in iter(lambda: fh.read(chunk_size), b""):
+            digest.update(block)
+    return digest.hexdigest()
+
+
+def _jsonable(value, key: str):
+    """Plain JSON types for settings; anything else is refused with the key named."""
+    if isinstance(value, Mapping):
+        return {str(k): _jsonable(v, f"{key}.{k}" if key else str(k)) for k, v in value.items()}
+    if isinstance(value, np.ndarray):
+        value = value.tolist()
+    if isinstance(value, (list, tuple)):
+        return [_jsonable(v, f"{key}[{i}]") for i, v in enumerate(value)]
+    if isinstance(value, (bool, np.bool_)) or value is None:
+        return None if value is None else bool(value)
+    if isinstance(value, (int, np.integer)):
+        return int(value)
+    if isinstance(value, (float, np.floating)):
+        if not math.isfinite(value):
+            raise InputError(f"setting is {value!r}; JSON holds finite numbers only",
+                             argument="settings", key=key)
+        return float(value)
+    if isinstance(value, (str, os.PathLike)):
+        return os.fspath(value)
+    raise InputError(f"setting of type {type(value).__name__} cannot be written to JSON",
+                     argument="settings", key=key)
+
+
+def _crs_wkt(crs):
+    if crs is None:
+        return None
+    from pyproj import CRS
+    from pyproj.exceptions import CRSError
+    try:
+        return CRS.from_user_input(crs).to_wkt()
+    except CRSError as exc:
+        raise InputError(f"is not a usable CRS ({exc})", argument="crs") from None
+
+
+def _grid_entry(grid, units: UnitSystem):
+    if grid is None:
+        return None
+    if not isinstance(grid, GridSpec):
+        raise InputError(f"must be a GridSpec, got {type(grid).__name__}", argument="grid")
+    length = lambda v: float(to_output_units(float(v), units, "length"))  # noqa: E731
+    return {"x0": length(grid.x0), "y0": length(grid.y0), "dx": length(grid.dx),
+            "dy": length(grid.dy), "nx": int(grid.nx), "ny": int(grid.ny),
+            "unit": unit_label(units, "length")}
+
+
+def output_checksums(folder, *, exclude=(MANIFEST_NAME,)) -> dict[str, str]:
+    """Relative POSIX path → SHA-256 of every file under `folder` (hidden temporaries and
+    `exclude` left out), sorted by path."""
+    root = Path(os.fspath(folder))
+    files = sorted(p for p in root.rglob("*") if p.is_file())
+    out = {}
+    for p in files:
+        rel = p.relative_to(root).as_posix()
+        if rel in exclude or any(part.startswith(".") for part in Path(rel).parts):
+            continue
+        out[rel] = sha256_file(p)
+    return out
+
+
+def build_manifest(*, settings: Mapping, units: UnitSystem = SI, inputs: Iterable = (),
+                   outputs: Mapping[str, str] | None = None, site_file=None, crs=None,
+                   grid: GridSpec | None = None, assumptions: str = "", cautions: str = "",
+                   created: _dt.datetime | None = None) -> dict:
+    """The manifest as a JSON-ready dict (see ``docs/results-folder.md``).
+
+    Examples
+    --------
+    >>> import datetime as dt
+    >>> m = build_manifest(settings={"cell_m": 1.0}, grid=GridSpec(0.0, 0.0, 1.0, 1.0, 2, 3),
+    ...                    created=dt.datetime(2024, 5, 1, 12, 0, tzinfo=dt.timezone.utc))
+    >>> m["created"], m["units"]["pressure"], m["grid"]["ny"]
+    ('2024-05-01T12:00:00+00:00', 'kPa', 3)
+    """
+    from .. import __version__
+
+    created = created or _dt.datetime.now(_dt.timezone.utc)
+    if created.tzinfo is None:
+        raise InputError("must carry a time zone (UTC)", argument="created")
+    input_hashes = {os.fspath(p): sha256_file(p) for p in inputs}
+    return {
+        "program": "fillstress",
+        "version": __version__,
+        "created": created.astimezone(_dt.timezone.utc).isoformat(timespec="seconds"),
+        "site_file": None if site_file is None else os.fspath(site_file),
+        "settings": _jsonable(dict(settings), ""),
+        "units": {"system": units.name, "length": units.length, "pressure": units.pressure,
+                  "unit_weight": units.unit_weight, "settlement": units.settlement},
+        "inputs": input_hashes,
+        "outputs": dict(outputs or {}),
+        "crs": _crs_wkt(crs),
+        "grid": _grid_entry(grid, units),
+        "assumptions": str(assumptions),
+        "cautions": str(cautions),
+    }
+
+
+def write_manifest(folder, **fields) -> Path:
+    """Checksum every file already in `folder`, then write ``folder/manifest.json``.
+
+    `folder` is a path or a :class:`~fillstress.io.atomic.ResultsFolder` (its folder being
+    assembled); `fields` are those of :func:`build_manifest` except ``outputs``.
+
+    Examples
+    --------
+    >>> import tempfile, pathlib, json
+    >>> d = pathlib.Path(tempfile.mkdtemp())
+    >>> _ = (d / "bodies.csv").write_text("body\\n")
+    >>> m = json.loads(write_manifest(d, settings={}).read_text())
+    >>> list(m["outputs"])
+    ['bodies.csv']
+    """
+    root = folder.root if isinstance(folder, ResultsFolder) else Path(os.fspath(folder))
+    if not root.is_dir():
+        raise InputError("results folder does not exist", file=root)
+    if "outputs" in fields:
+        raise InputError("outputs are computed from the folder, do not pass them",
+                         argument="outputs")
+    manifest = build_manifest(outputs=output_checksums(root), **fields)
+    text = json.dumps(manifest, indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+    return write_atomic(root / MANIFEST_NAME,
+                        lambda tmp: tmp.write_text(text, encoding="utf-8"))

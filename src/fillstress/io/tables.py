@@ -1,0 +1,210 @@
+"""Point and receptor tables to CSV and GeoJSON, with unit-suffixed column names.
+
+Values arrive in SI (m, kPa, kN/m³, settlement in m) and leave in the site's
+:class:`~fillstress.units.UnitSystem`; each quantity column is renamed ``<name>_<unit>``
+(``depth_m``, ``dsz_psf``, ``unit_weight_kN_m3``). Plan geometry in GeoJSON stays in the
+site CRS coordinates exactly as held.
+"""
+from __future__ import annotations
+
+import os
+from typing import Mapping
+
+import numpy as np
+import pandas as pd
+
+from ..errors import InputError
+from ..units import FOOT, PSF_KPA, UnitSystem
+from .atomic import write_atomic
+
+# Which physical quantity a column holds; None = dimensionless or a count.
+DEFAULT_QUANTITIES: dict[str, str | None] = {
+    **dict.fromkeys(["x", "y", "depth", "chainage", "foundation_depth", "top_depth",
+                     "bottom_depth", "diameter", "max_height", "thickness", "top", "bottom"],
+                    "length"),
+    **dict.fromkeys(["dsz", "dsz_max", "sigma_v0", "surface_pressure"], "pressure"),
+    **dict.fromkeys(["settlement", "settlement_max", "differential_settlement"], "settlement"),
+    "unit_weight": "unit_weight",
+    "footprint_area": "area",
+    "volume": "volume",
+    "total_load": "force",
+    **dict.fromkeys(["n_points", "stress_ratio", "angular_distortion", "stage"], None),
+}
+_KIP_KN = 1000.0 * PSF_KPA * FOOT**2  # 1 kip = 1000 lbf; lbf = psf × ft²
+
+
+def unit_label(units: UnitSystem, quantity: str) -> str:
+    """Display label of `quantity` in `units`, e.g. ``"kN/m3"`` or ``"psf"``.
+
+    Examples
+    --------
+    >>> from fillstress.units import US
+    >>> unit_label(US, "pressure"), unit_label(US, "volume")
+    ('psf', 'ft3')
+    """
+    return _unit(units, quantity)[0]
+
+
+def unit_suffix(units: UnitSystem, quantity: str) -> str:
+    """Column-name suffix of `quantity` in `units` (no ``/``, safe in file and field names).
+
+    Examples
+    --------
+    >>> from fillstress.units import SI, US
+    >>> unit_suffix(SI, "unit_weight"), unit_suffix(US, "force"), unit_suffix(US, "area")
+    ('kN_m3', 'kip', 'ft2')
+    """
+    return _unit(units, quantity)[0].replace("/", "_")
+
+
+def to_output_units(values, units: UnitSystem, quantity: str | None):
+    """Convert SI `values` of `quantity` to `units` (returned unchanged for None).
+
+    Examples
+    --------
+    >>> from fillstress.units import US
+    >>> round(float(to_output_units(0.3048, US, "length")), 12)
+    1.0
+    """
+    if quantity is None:
+        return values
+    return values / _unit(units, quantity)[1]
+
+
+def _unit(units: UnitSystem, quantity: str) -> tuple[str, float]:
+    """(label, SI value of one output unit)."""
+    L = units.length_to_m
+    table = {
+        "length": (units.length, L),
+        "area": (f"{units.length}2", L**2),
+        "volume": (f"{units.length}3", L**3),
+        "pressure": (units.pressure, units.pressure_to_kpa),
+        "unit_weight": (units.unit_weight, units.unit_weight_to_kn_m3),
+        "settlement": (units.settlement, units.settlement_to_m),
+        "force": ("kip", _KIP_KN) if units.name == "US" else ("kN", 1.0),
+    }
+    if quantity not in table:
+        raise InputError(f"unknown quantity {quantity!r}; use one of {', '.join(table)}",
+                         argument="quantities")
+    return table[quantity]
+
+
+def labelled_table(table: pd.DataFrame, units: UnitSystem,
+                   quantities: Mapping[str, str | None] | None = None) -> pd.DataFrame:
+    """A copy of `table` in output units with unit-suffixed quantity columns.
+
+    Numeric columns must have a quantity, from :data:`DEFAULT_QUANTITIES` or `quantities`
+    (``None`` marks a dimensionless column); text and boolean columns pass through. Columns
+    holding NaN keep it (e.g. ``chainage`` of non-pipe points) — the CSV writes it empty.
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> from fillstress.units import US
+    >>> t = pd.DataFrame({"receptor_id": ["B1"], "depth": [3.048], "dsz": [47.8802589]})
+    >>> labelled_table(t, US).round(6).to_dict("records")
+    [{'receptor_id': 'B1', 'depth_ft': 10.0, 'dsz_psf': 1000.0}]
+    """
+    known = {**DEFAULT_QUANTITIES, **dict(quantities or {})}
+    out = {}
+    for name in table.columns:
+        column = table[name]
+        numeric = pd.api.types.is_numeric_dtype(column) and not pd.api.types.is_bool_dtype(column)
+        if name == "geometry" or not numeric:
+            out[name] = column
+            continue
+        if name not in known:
+            raise InputError(f"numeric column {name!r} has no declared quantity; pass it in "
+                             "quantities (None if dimensionless)", argument="quantities")
+        q = known[name]
+        values = column.to_numpy(dtype=float)
+        if np.any(np.isinf(values)):
+            raise InputError(f"column {name!r} holds infinite values", argument="table")
+        out[name if q is None else f"{name}_{unit_suffix(units, q)}"] = \
+            to_output_units(values, units, q)
+    return pd.DataFrame(out, index=table.index)
+
+
+def write_table_csv(path, table: pd.DataFrame, units: UnitSystem,
+                    quantities: Mapping[str, str | None] | None = None) -> os.PathLike:
+    """Write `table` to CSV in output units (atomic).
+
+    Examples
+    --------
+    >>> import tempfile, os, pandas as pd
+    >>> from fillstress.units import SI
+    >>> f = os.path.join(tempfile.mkdtemp(), "t.csv")
+    >>> _ = write_table_csv(f, pd.DataFrame({"receptor_id": ["P1"], "chainage": [2.5]}), SI)
+    >>> open(f).read().splitlines()
+    ['receptor_id,chainage_m', 'P1,2.5']
+    """
+    labelled = labelled_table(table, units, quantities)
+    return write_atomic(path, lambda tmp: labelled.to_csv(tmp, index=False))
+
+
+def _crs_or_none(crs):
+    if crs is None:
+        return None
+    from pyproj import CRS
+    from pyproj.exceptions import CRSError
+    try:
+        return CRS.from_user_input(crs)
+    except CRSError as exc:
+        raise InputError(f"is not a usable CRS ({exc})", argument="crs") from None
+
+
+def write_geojson(path, frame, units: UnitSystem, *, crs=None,
+                  quantities: Mapping[str, str | None] | None = None) -> os.PathLike:
+    """Write a GeoDataFrame's attributes (output units) and geometry to GeoJSON (atomic).
+
+    `crs` overrides the frame's own CRS; geometry coordinates are written as they are.
+
+    Examples
+    --------
+    >>> import tempfile, os, geopandas as gpd
+    >>> from shapely.geometry import box
+    >>> from fillstress.units import SI
+    >>> f = os.path.join(tempfile.mkdtemp(), "buildings.geojson")
+    >>> g = gpd.GeoDataFrame({"receptor_id": ["B1"], "foundation_depth": [1.2]},
+    ...                      geometry=[box(0, 0, 8, 5)], crs="EPSG:32633")
+    >>> _ = write_geojson(f, g, SI)
+    >>> list(gpd.read_file(f).columns)
+    ['receptor_id', 'foundation_depth_m', 'geometry']
+    """
+    import geopandas as gpd
+
+    if not isinstance(frame, gpd.GeoDataFrame):
+        raise InputError(f"must be a GeoDataFrame, got {type(frame).__name__}", argument="frame")
+    target_crs = _crs_or_none(crs) if crs is not None else frame.crs
+    attrs = labelled_table(pd.DataFrame(frame.drop(columns=frame.geometry.name)), units,
+                           quantities)
+    out = gpd.GeoDataFrame(attrs, geometry=frame.geometry.to_numpy(), crs=target_crs)
+    return write_atomic(path, lambda tmp: out.to_file(tmp, driver="GeoJSON"))
+
+
+def write_points_geojson(path, points: pd.DataFrame, units: UnitSystem, *, crs=None,
+                         quantities: Mapping[str, str | None] | None = None) -> os.PathLike:
+    """Write a point table (columns ``x``, ``y`` in the site CRS) as GeoJSON points.
+
+    The properties are the same unit-suffixed columns as the CSV.
+
+    Examples
+    --------
+    >>> import tempfile, os, geopandas as gpd
+    >>> from fillstress.receptors import borehole_points
+    >>> from fillstress.units import SI
+    >>> f = os.path.join(tempfile.mkdtemp(), "borehole_points.geojson")
+    >>> _ = write_points_geojson(f, borehole_points("BH1", 500, 600, 0, 1, 1), SI,
+    ...                          crs="EPSG:32633")
+    >>> gpd.read_file(f).geometry.x.tolist()
+    [500.0, 500.0]
+    """
+    import geopandas as gpd
+
+    for col in ("x", "y"):
+        if col not in points.columns:
+            raise InputError(f"point table has no {col!r} column", argument="points")
+    geometry = gpd.points_from_xy(points["x"].to_numpy(float), points["y"].to_numpy(float))
+    frame = gpd.GeoDataFrame(points.reset_index(drop=True), geometry=geometry,
+                             crs=_crs_or_none(crs))
+    return write_geojson(path, frame, units, quantities=quantities)

@@ -1,0 +1,258 @@
+"""VTK files for a 3-D view: fill surface, stress grids, buildings, pipes and boreholes.
+
+All coordinates are in the output length unit. Below-ground objects use ``z = -depth``
+(the existing ground is ``z = 0``); the fill surface is at ``ground + thickness`` with the
+ground elevation taken as 0 when none is given, so the two frames coincide only then.
+Array names are bare (``dsz``, ``thickness``, ``depth``); the field array ``units`` says
+which unit each quantity is in. pyvista is imported only when a writer runs.
+"""
+from __future__ import annotations
+
+import os
+
+import numpy as np
+import pandas as pd
+import shapely
+from shapely.geometry import Polygon
+
+from ..errors import InputError
+from ..grid import GridSpec
+from ..units import SI, UnitSystem
+from .atomic import write_atomic
+from .netcdf import SLICE_DIMS
+from .tables import to_output_units, unit_label
+
+
+def _units_note(units: UnitSystem) -> np.ndarray:
+    return np.array([f"length={unit_label(units, 'length')}",
+                     f"pressure={unit_label(units, 'pressure')}"])
+
+
+def _save(path, mesh) -> os.PathLike:
+    return write_atomic(path, lambda tmp: mesh.save(tmp))
+
+
+def _length(values, units):
+    return to_output_units(np.asarray(values, dtype=float), units, "length")
+
+
+# --- fill surface ----------------------------------------------------------------------
+def fill_surface_mesh(thickness, grid: GridSpec, *, ground=None, units: UnitSystem = SI):
+    """Top of fill as a quad surface through the cell centres (point data ``thickness``).
+
+    Examples
+    --------
+    >>> g = GridSpec(0.0, 0.0, 2.0, 2.0, nx=3, ny=2)
+    >>> m = fill_surface_mesh([[0, 1, 2], [0, 1, 3]], g, ground=10.0)
+    >>> m.n_points, m.n_cells, float(m.points[:, 2].max())
+    (6, 2, 13.0)
+    """
+    import pyvista as pv
+
+    t = np.asarray(thickness, dtype=float)
+    if t.shape != grid.shape or not np.all(np.isfinite(t)):
+        raise InputError(f"must be finite with the grid shape {grid.shape}, got {t.shape}",
+                         argument="thickness")
+    z0 = np.zeros_like(t) if ground is None else np.broadcast_to(
+        np.asarray(ground, dtype=float), t.shape)
+    if not np.all(np.isfinite(z0)):
+        raise InputError("ground elevation must be finite everywhere", argument="ground")
+    x, y = np.meshgrid(_length(grid.x_centres, units), _length(grid.y_centres, units))
+    z = _length(z0 + t, units)
+    surface = pv.StructuredGrid(x, y, z).extract_surface(algorithm=None)
+    # StructuredGrid points run x fastest then y: the C-order ravel of (ny, nx).
+    surface.point_data["thickness"] = _length(t, units).ravel()
+    surface.field_data["units"] = _units_note(units)
+    return surface
+
+
+def write_fill_surface(path, thickness, grid: GridSpec, *, ground=None,
+                       units: UnitSystem = SI) -> os.PathLike:
+    """Write :func:`fill_surface_mesh` to ``.vtp`` (atomic)."""
+    return _save(path, fill_surface_mesh(thickness, grid, ground=ground, units=units))
+
+
+# --- stress grids ----------------------------------------------------------------------
+def stress_grid_mesh(dsz, units: UnitSystem = SI):
+    """Δσz slices (DataArray, dims depth, y, x) as a RectilinearGrid with ``z = -depth``.
+
+    Examples
+    --------
+    >>> import xarray as xr
+    >>> da = xr.DataArray(np.arange(8.0).reshape(2, 2, 2), dims=SLICE_DIMS,
+    ...                   coords={"depth": [1.0, 4.0], "y": [0.0, 1.0], "x": [0.0, 2.0]})
+    >>> m = stress_grid_mesh(da)
+    >>> m.z.tolist(), float(m.point_data["dsz"][m.find_closest_point((2, 1, -1))])
+    ([-4.0, -1.0], 3.0)
+    """
+    import pyvista as pv
+
+    if tuple(getattr(dsz, "dims", ())) != SLICE_DIMS:
+        raise InputError(f"must be a DataArray with dims {SLICE_DIMS}", argument="dsz")
+    depth = np.asarray(dsz["depth"].values, dtype=float)
+    order = np.argsort(-depth)  # VTK wants ascending z = -depth
+    values = np.asarray(dsz.values, dtype=float)[order]
+    mesh = pv.RectilinearGrid(_length(dsz["x"].values, units), _length(dsz["y"].values, units),
+                              _length(-depth[order], units))
+    mesh.point_data["dsz"] = to_output_units(values, units, "pressure").ravel()
+    mesh.field_data["units"] = _units_note(units)
+    return mesh
+
+
+def write_stress_grid(path, dsz, units: UnitSystem = SI) -> os.PathLike:
+    """Write :func:`stress_grid_mesh` to ``.vtr`` (atomic)."""
+    return _save(path, stress_grid_mesh(dsz, units))
+
+
+# --- buildings -------------------------------------------------------------------------
+def _prism(poly: Polygon, z_bottom: float, z_top: float):
+    """Points and faces (VTK flat list) of a closed prism with outward-facing faces."""
+    poly = shapely.orient_polygons(poly)  # exterior counter-clockwise, holes clockwise
+    points, faces = [], []
+
+    def add(xyz):
+        points.append(xyz)
+        return len(points) - 1
+
+    for tri in shapely.get_parts(shapely.constrained_delaunay_triangles(poly)):
+        xy = np.asarray(tri.exterior.coords)[:3, :2]
+        if not shapely.is_ccw(tri.exterior):
+            xy = xy[::-1]
+        top = [add((x, y, z_top)) for x, y in xy]
+        bottom = [add((x, y, z_bottom)) for x, y in xy[::-1]]
+        faces += [3, *top, 3, *bottom]
+    for ring in [poly.exterior, *poly.interiors]:
+        xy = np.asarray(ring.coords)[:, :2]
+        for (xa, ya), (xb, yb) in zip(xy[:-1], xy[1:]):
+            quad = [add((xa, ya, z_bottom)), add((xb, yb, z_bottom)),
+                    add((xb, yb, z_top)), add((xa, ya, z_top))]
+            faces += [4, *quad]
+    return np.array(points, dtype=float), faces
+
+
+def buildings_mesh(buildings, units: UnitSystem = SI):
+    """Footprints extruded from foundation level (``z = -foundation_depth``) to the ground.
+
+    `buildings` is a GeoDataFrame with ``receptor_id``, ``foundation_depth`` (m) and Polygon
+    geometry. A zero foundation depth gives a thin slab 1 mm deep so it stays visible.
+    Cell data: ``receptor_id``, ``foundation_depth``.
+
+    Examples
+    --------
+    >>> import geopandas as gpd
+    >>> from shapely.geometry import box
+    >>> b = gpd.GeoDataFrame({"receptor_id": ["B1"], "foundation_depth": [2.0]},
+    ...                      geometry=[box(0, 0, 4, 3)])
+    >>> round(buildings_mesh(b).triangulate().volume, 9)
+    24.0
+    """
+    import pyvista as pv
+
+    _require_columns(buildings, ["receptor_id", "foundation_depth"], "buildings")
+    all_points, all_faces, ids, depths, offset = [], [], [], [], 0
+    for rid, depth, poly in zip(buildings["receptor_id"], buildings["foundation_depth"],
+                                buildings.geometry):
+        if not isinstance(poly, Polygon) or not poly.is_valid or poly.area <= 0:
+            raise InputError(f"building {rid}: footprint must be a valid Polygon",
+                             argument="buildings")
+        d = float(depth)
+        if not np.isfinite(d) or d < 0:
+            raise InputError(f"building {rid}: foundation_depth must be >= 0, got {depth!r}",
+                             argument="buildings")
+        pts, faces = _prism(poly, -max(d, 1e-3), 0.0)
+        n_cells = _count_cells(faces)
+        all_faces += _shift_faces(faces, offset)
+        all_points.append(pts)
+        offset += len(pts)
+        ids += [str(rid)] * n_cells
+        depths += [d] * n_cells
+    if not all_points:
+        raise InputError("has no buildings", argument="buildings")
+    pts = np.vstack(all_points)
+    mesh = pv.PolyData(np.column_stack([_length(pts[:, 0], units), _length(pts[:, 1], units),
+                                        _length(pts[:, 2], units)]), faces=all_faces)
+    mesh.cell_data["receptor_id"] = np.array(ids)
+    mesh.cell_data["foundation_depth"] = _length(depths, units)
+    mesh = mesh.clean()  # merge the duplicated corner points of neighbouring faces
+    mesh.field_data["units"] = _units_note(units)
+    return mesh
+
+
+def _count_cells(faces) -> int:
+    n, k = 0, 0
+    while k < len(faces):
+        k += faces[k] + 1
+        n += 1
+    return n
+
+
+def _shift_faces(faces, offset: int) -> list:
+    out, k = [], 0
+    while k < len(faces):
+        n = faces[k]
+        out += [n, *(i + offset for i in faces[k + 1:k + 1 + n])]
+        k += n + 1
+    return out
+
+
+def write_buildings(path, buildings, units: UnitSystem = SI) -> os.PathLike:
+    """Write :func:`buildings_mesh` to ``.vtp`` (atomic)."""
+    return _save(path, buildings_mesh(buildings, units))
+
+
+# --- pipes and boreholes as polylines --------------------------------------------------
+def _require_columns(table, columns, name):
+    missing = [c for c in columns if c not in getattr(table, "columns", [])]
+    if missing:
+        raise InputError(f"missing column(s) {', '.join(missing)}", argument=name)
+
+
+def polylines_mesh(points: pd.DataFrame, order_by: str, units: UnitSystem = SI):
+    """One polyline per receptor through its sample points, ordered by `order_by`, at
+    ``z = -depth``. Point data: ``depth``, ``chainage`` (when present) and ``dsz`` (when
+    present); cell data ``receptor_id``.
+
+    Examples
+    --------
+    >>> from fillstress.receptors import borehole_points
+    >>> m = polylines_mesh(borehole_points("BH1", 3, 4, 0, 6, 2), "depth")
+    >>> m.n_lines, m.points[:, 2].tolist()
+    (1, [-0.0, -2.0, -4.0, -6.0])
+    """
+    import pyvista as pv
+
+    _require_columns(points, ["receptor_id", "x", "y", "depth", order_by], "points")
+    if len(points) == 0:
+        raise InputError("has no points", argument="points")
+    ordered = points.sort_values(["receptor_id", order_by], kind="stable")
+    ordered = ordered.set_index("receptor_id", drop=False).loc[
+        pd.unique(points["receptor_id"])].reset_index(drop=True)
+    lines, ids, start = [], [], 0
+    for rid, group in ordered.groupby("receptor_id", sort=False):
+        n = len(group)  # a one-point line (borehole with top = bottom) is legal VTK
+        lines += [n, *range(start, start + n)]
+        ids.append(str(rid))
+        start += n
+    xyz = np.column_stack([_length(ordered["x"], units), _length(ordered["y"], units),
+                           _length(-ordered["depth"].to_numpy(float), units)])
+    mesh = pv.PolyData(xyz, lines=lines)
+    mesh.point_data["depth"] = _length(ordered["depth"], units)
+    if "chainage" in ordered and ordered["chainage"].notna().all():
+        mesh.point_data["chainage"] = _length(ordered["chainage"], units)
+    if "dsz" in ordered:
+        mesh.point_data["dsz"] = to_output_units(ordered["dsz"].to_numpy(float), units,
+                                                 "pressure")
+    mesh.cell_data["receptor_id"] = np.array(ids)
+    mesh.field_data["units"] = _units_note(units)
+    return mesh
+
+
+def write_pipes(path, pipe_points: pd.DataFrame, units: UnitSystem = SI) -> os.PathLike:
+    """Pipes as polylines along their crown, from :func:`fillstress.receptors.pipe_points`."""
+    return _save(path, polylines_mesh(pipe_points, "chainage", units))
+
+
+def write_boreholes(path, borehole_points: pd.DataFrame,
+                    units: UnitSystem = SI) -> os.PathLike:
+    """Boreholes as vertical polylines, from :func:`fillstress.receptors.borehole_points`."""
+    return _save(path, polylines_mesh(borehole_points, "depth", units))
