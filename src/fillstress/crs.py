@@ -181,8 +181,8 @@ def to_site(geom_or_xy, from_crs, site, *, argument: str = "geometry"):
     from_crs : CRS-like or None
         The layer's CRS. None means the layer is in the site CRS.
     site : (pyproj.CRS, float) from :func:`site_crs`, CRS-like, or None
-        The site CRS. None (the site states no CRS) is accepted only when `from_crs`
-        is None too, and then the layer coordinates are taken as metres.
+        The site CRS. None means the site states no CRS: that is an error, naming a
+        projected CRS to use (a layer without a CRS needs the site to state one).
     argument : str
         Name used in error messages.
 
@@ -198,7 +198,8 @@ def to_site(geom_or_xy, from_crs, site, *, argument: str = "geometry"):
     """
     if site is None:
         if from_crs is None:
-            return _apply(geom_or_xy, lambda xy: xy, argument)
+            raise InputError("the layer has no CRS and the site states none; state the "
+                             "site CRS", argument=argument)
         layer = as_crs(from_crs, argument)
         where = _layer_centre_lonlat(geom_or_xy, layer)
         hint = suggest_projected(*where) if where else layer.to_string()

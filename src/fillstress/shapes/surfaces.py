@@ -1,0 +1,310 @@
+"""Fill from two surfaces: thickness = design surface − existing ground.
+
+A *surface* is any object with
+
+* ``sample(x, y) -> z``: elevations (m) at internal site coordinates (m), NaN off the
+  surface or where it has no data;
+* ``bounds``: ``(xmin, ymin, xmax, ymax)`` in internal metres;
+* ``crs``: the site CRS the coordinates refer to (pyproj.CRS or None).
+
+Two are provided: :class:`TinSurface` (triangles, linear on each; from survey points or
+LandXML) and :class:`RasterSurface` (grid, bilinear between pixel centres; from GeoTIFF).
+The readers live in :mod:`fillstress.io`.
+
+Cell averages are taken by a ``samples × samples`` midpoint rule in every cell. Where
+either surface has no data at a sample point there is no fill there (the point counts
+as zero thickness), and the points compared are reported.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..errors import InputError
+from ..grid import GridSpec
+from .coverage import check_samples, check_spec
+
+CUT_MODES = ("ignore", "unload")
+
+
+# --- surfaces ------------------------------------------------------------------------
+class TinSurface:
+    """A triangulated surface, linear on each triangle, NaN outside the triangles.
+
+    Parameters
+    ----------
+    points : array_like, shape (N, 3)
+        x, y (internal metres) and z (m) of the vertices.
+    triangles : array_like of int, shape (T, 3), optional
+        Vertex indices of each triangle; a Delaunay triangulation of the points
+        (scipy, Qhull) when omitted, so the surface then covers their convex hull.
+    crs : pyproj.CRS, optional
+        Site CRS of the coordinates.
+    source : str, optional
+        File name, for error messages.
+
+    Examples
+    --------
+    >>> s = TinSurface([(0, 0, 10.0), (10, 0, 12.0), (0, 10, 10.0), (10, 10, 12.0)])
+    >>> s.sample(np.array([5.0, 20.0]), np.array([5.0, 5.0])).tolist()
+    [11.0, nan]
+    >>> s.bounds
+    (0.0, 0.0, 10.0, 10.0)
+    """
+
+    def __init__(self, points, triangles=None, crs=None, source=None):
+        from matplotlib.tri import LinearTriInterpolator, Triangulation
+        pts = np.asarray(points, dtype=float)
+        where = {"file": source} if source else {"argument": "points"}
+        if pts.ndim != 2 or pts.shape[1] != 3 or len(pts) < 3:
+            raise InputError(f"needs at least 3 points (x, y, z), got shape {pts.shape}", **where)
+        if not np.all(np.isfinite(pts)):
+            raise InputError("has NaN or infinite coordinates", **where)
+        tri = _delaunay(pts, where) if triangles is None else np.asarray(triangles, dtype=int)
+        if tri.ndim != 2 or tri.shape[1] != 3 or len(tri) == 0:
+            raise InputError(f"needs at least one triangle, got shape {tri.shape}", **where)
+        if tri.min() < 0 or tri.max() >= len(pts):
+            raise InputError("a triangle refers to a point that does not exist", **where)
+        try:
+            self._tri = Triangulation(pts[:, 0], pts[:, 1], tri)
+            self._interp = LinearTriInterpolator(self._tri, pts[:, 2])
+            self._tri.get_trifinder()
+        except (ValueError, RuntimeError) as exc:
+            raise InputError(f"is not a valid triangulation ({exc})", **where) from None
+        used = pts[np.unique(tri)]
+        self.points, self.triangles, self.crs, self.source = pts, tri, crs, source
+        self.bounds = (float(used[:, 0].min()), float(used[:, 1].min()),
+                       float(used[:, 0].max()), float(used[:, 1].max()))
+
+    @classmethod
+    def from_points(cls, points, crs=None, source=None) -> "TinSurface":
+        """A Delaunay TIN of scattered survey points (NaN outside their convex hull)."""
+        return cls(points, None, crs, source)
+
+    def sample(self, x, y) -> np.ndarray:
+        """Elevation (m) at (x, y), NaN off the surface."""
+        x = np.asarray(x, dtype=float)
+        z = self._interp(x.ravel(), np.asarray(y, dtype=float).ravel())
+        return np.ma.filled(z.astype(float), np.nan).reshape(x.shape)
+
+
+def _delaunay(pts, where) -> np.ndarray:
+    from scipy.spatial import Delaunay, QhullError
+    xy = pts[:, :2]
+    if len(np.unique(xy, axis=0)) < len(xy):
+        raise InputError("has two points at the same x, y", **where)
+    try:
+        return Delaunay(xy).simplices
+    except QhullError:
+        raise InputError("points are all on one line; they do not span a surface",
+                         **where) from None
+
+
+class RasterSurface:
+    """A north-up grid of elevations, bilinear between pixel centres.
+
+    Within half a pixel of the edge the value is the nearest edge pixel's (the raster
+    covers its full extent); beyond it, NaN. A sample that needs a nodata pixel is NaN.
+
+    Parameters
+    ----------
+    z : array_like, shape (rows, cols)
+        Elevations (m), row 0 the northern row; NaN for no data.
+    x0, y_top : float
+        Internal coordinates (m) of the north-west corner of the raster.
+    dx, dy : float
+        Pixel size (m), positive.
+    crs : pyproj.CRS, optional
+        Site CRS.
+    to_raster : callable, optional
+        ``(x, y) -> (x', y')``: internal metres to the raster's own (metre) frame when
+        the raster was stated in another CRS; None when it is the site frame.
+    source : str, optional
+        File name.
+
+    Examples
+    --------
+    >>> r = RasterSurface([[2.0, 4.0], [0.0, 2.0]], 0.0, 2.0, 1.0, 1.0)
+    >>> r.sample(np.array([1.0, 0.2, 3.0]), np.array([1.0, 1.8, 1.0])).tolist()
+    [2.0, 2.0, nan]
+    """
+
+    def __init__(self, z, x0, y_top, dx, dy, crs=None, to_raster=None, source=None,
+                 bounds=None):
+        self.z = np.asarray(z, dtype=float)
+        self.x0, self.y_top, self.dx, self.dy = float(x0), float(y_top), float(dx), float(dy)
+        self.crs, self.to_raster, self.source = crs, to_raster, source
+        rows, cols = self.z.shape
+        self.bounds = bounds or (self.x0, self.y_top - rows * self.dy,
+                                 self.x0 + cols * self.dx, self.y_top)
+
+    def sample(self, x, y) -> np.ndarray:
+        """Bilinear elevation (m) at (x, y), NaN off the raster or next to nodata."""
+        x = np.asarray(x, dtype=float)
+        y = np.asarray(y, dtype=float)
+        if self.to_raster is not None:
+            x, y = self.to_raster(x, y)
+        rows, cols = self.z.shape
+        fc = (x - self.x0) / self.dx - 0.5
+        fr = (self.y_top - y) / self.dy - 0.5
+        off = (fc < -0.5) | (fc > cols - 0.5) | (fr < -0.5) | (fr > rows - 0.5) \
+            | ~np.isfinite(fc) | ~np.isfinite(fr)
+        c0, wc = _cell_and_weight(fc, cols)
+        r0, wr = _cell_and_weight(fr, rows)
+        c1, r1 = np.minimum(c0 + 1, cols - 1), np.minimum(r0 + 1, rows - 1)
+        top = _lerp(self.z[r0, c0], self.z[r0, c1], wc)
+        bottom = _lerp(self.z[r1, c0], self.z[r1, c1], wc)
+        out = _lerp(top, bottom, wr)
+        out[off] = np.nan
+        return out
+
+
+def _cell_and_weight(f, n):
+    """Lower neighbour index and weight towards the upper one, clamped to the edge."""
+    f = np.clip(np.nan_to_num(f), 0.0, n - 1)
+    i0 = np.minimum(np.floor(f).astype(int), max(n - 2, 0))
+    return i0, f - i0
+
+
+def _lerp(a, b, w):
+    """Linear blend that ignores a neighbour whose weight is zero (so its NaN does not leak)."""
+    with np.errstate(invalid="ignore"):
+        return np.where(w <= 0, a, np.where(w >= 1, b, a + w * (b - a)))
+
+
+# --- fill from surfaces --------------------------------------------------------------
+@dataclass(frozen=True)
+class CutReport:
+    """Where the design is above (fill) or below (cut) the existing ground.
+
+    Volumes in m³ and areas in m², from the sub-cell samples; ``area_compared`` is where
+    both surfaces have data inside the grid.
+    """
+
+    volume_fill: float
+    volume_cut: float
+    area_fill: float
+    area_cut: float
+    area_compared: float
+    cut: str
+
+
+def check_surface(surface, argument: str):
+    """Refuse an object that does not offer sample(x, y), bounds and crs."""
+    if not (callable(getattr(surface, "sample", None)) and hasattr(surface, "bounds")
+            and hasattr(surface, "crs")):
+        raise InputError("must be a surface with sample(x, y), bounds and crs",
+                         argument=argument)
+    return surface
+
+
+def _check_same_crs(design, existing, spec) -> None:
+    import pyproj
+    named = [(n, c) for n, c in (("design", design.crs), ("existing", existing.crs),
+                                  ("spec", spec.crs)) if c is not None]
+    for (n1, c1), (n2, c2) in zip(named, named[1:]):
+        if not pyproj.CRS.from_user_input(c1).equals(pyproj.CRS.from_user_input(c2)):
+            raise InputError(f"{n1} is in {pyproj.CRS.from_user_input(c1).to_string()} but "
+                             f"{n2} is in {pyproj.CRS.from_user_input(c2).to_string()}; "
+                             "read both into the site CRS", argument=n2)
+
+
+def _overlap(a, b):
+    box = (max(a[0], b[0]), max(a[1], b[1]), min(a[2], b[2]), min(a[3], b[3]))
+    return box if box[0] < box[2] and box[1] < box[3] else None
+
+
+def _row_samples(spec, j, samples):
+    offs = (np.arange(samples) + 0.5) / samples
+    xs = spec.x0 + (np.arange(spec.nx)[:, None] + offs[None, :]).ravel() * spec.dx
+    ys = spec.y0 + (j + offs) * spec.dy
+    return np.meshgrid(xs, ys, indexing="xy")  # (samples, nx*samples)
+
+
+def fill_from_surfaces(design, existing, spec: GridSpec, *, cut: str = "ignore",
+                       samples: int = 4) -> tuple[np.ndarray, CutReport]:
+    """Cell-average fill thickness (m) = design surface − existing ground.
+
+    Parameters
+    ----------
+    design, existing : surface
+        Top of the fill and the existing ground (see the module docstring), same CRS.
+    spec : GridSpec
+        The analysis lattice.
+    cut : {"ignore", "unload"}
+        Where the design is below the ground: "ignore" (default) gives no load there;
+        "unload" keeps the negative thickness (soil removed, negative load).
+    samples : int
+        Sample points per cell side.
+
+    Returns
+    -------
+    thickness : numpy.ndarray, shape ``spec.shape``
+    report : CutReport
+
+    Examples
+    --------
+    >>> ground = TinSurface([(0, 0, 10.0), (8, 0, 10.0), (0, 8, 10.0), (8, 8, 10.0)])
+    >>> top = TinSurface([(0, 0, 9.0), (8, 0, 13.0), (0, 8, 9.0), (8, 8, 13.0)])
+    >>> t, rep = fill_from_surfaces(top, ground, GridSpec(0.0, 0.0, 2.0, 2.0, 4, 4))
+    >>> t[0].tolist(), rep.volume_fill, rep.volume_cut
+    ([0.0, 0.5, 1.5, 2.5], 72.0, 8.0)
+    """
+    check_surface(design, "design")
+    check_surface(existing, "existing")
+    check_spec(spec)
+    samples = check_samples(samples)
+    if cut not in CUT_MODES:
+        raise InputError(f"must be one of {CUT_MODES}, got {cut!r}", argument="cut")
+    _check_same_crs(design, existing, spec)
+    both = _overlap(design.bounds, existing.bounds)
+    if both is None:
+        raise InputError(f"design surface {tuple(design.bounds)} and existing ground "
+                         f"{tuple(existing.bounds)} do not overlap", argument="existing")
+    if _overlap(both, spec.extent) is None:
+        raise InputError("the surfaces do not overlap the analysis grid", argument="spec")
+    thickness = spec.zeros()
+    sums = np.zeros(5)  # fill volume, cut volume, fill count, cut count, compared count
+    sub_area = spec.cell_area / samples**2
+    for j in range(spec.ny):
+        x, y = _row_samples(spec, j, samples)
+        diff = design.sample(x, y) - existing.sample(x, y)
+        valid = np.isfinite(diff)
+        diff = np.where(valid, diff, 0.0)
+        diff[np.abs(diff) < 1e-9] = 0.0
+        load = diff if cut == "unload" else np.maximum(diff, 0.0)
+        thickness[j] = load.reshape(samples, spec.nx, samples).mean(axis=(0, 2))
+        sums += [np.maximum(diff, 0).sum() * sub_area, np.maximum(-diff, 0).sum() * sub_area,
+                 (diff > 0).sum(), (diff < 0).sum(), valid.sum()]
+    if sums[4] == 0:
+        raise InputError("there is no point inside the grid where both surfaces have data",
+                         argument="existing")
+    report = CutReport(float(sums[0]), float(sums[1]), float(sums[2] * sub_area),
+                       float(sums[3] * sub_area), float(sums[4] * sub_area), cut)
+    return thickness, report
+
+
+def resample_to_grid(surface, spec: GridSpec, *, samples: int = 4) -> np.ndarray:
+    """Cell-mean elevation (m) of one surface over the valid sample points of each cell.
+
+    Meant for maps of the ground (e.g. ``ground_elevation.tif``): a cell with no valid
+    sample is NaN, which marks "no data" there, never a load.
+
+    Examples
+    --------
+    >>> s = TinSurface([(0, 0, 1.0), (4, 0, 5.0), (0, 4, 1.0), (4, 4, 5.0)])
+    >>> resample_to_grid(s, GridSpec(0.0, 0.0, 2.0, 2.0, 3, 1)).tolist()
+    [[2.0, 4.0, nan]]
+    """
+    check_surface(surface, "surface")
+    check_spec(spec)
+    samples = check_samples(samples)
+    out = np.full(spec.shape, np.nan)
+    for j in range(spec.ny):
+        x, y = _row_samples(spec, j, samples)
+        z = surface.sample(x, y).reshape(samples, spec.nx, samples)
+        n = np.isfinite(z).sum(axis=(0, 2))
+        total = np.where(np.isfinite(z), z, 0.0).sum(axis=(0, 2))
+        out[j] = np.where(n > 0, total / np.maximum(n, 1), np.nan)
+    return out
