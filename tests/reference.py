@@ -1,0 +1,71 @@
+"""Slow, obviously-correct numpy references for the stress engine (no numba).
+
+Every fast path (numba node and cell kernels, FFT slices) is compared with these.
+The formulas are written out again here on purpose instead of importing the kernels.
+"""
+from __future__ import annotations
+
+import numpy as np
+
+
+def eta(poisson: float) -> float:
+    """Westergaard (1938): η = sqrt((1 − 2ν) / (2 − 2ν))."""
+    return np.sqrt((1.0 - 2.0 * poisson) / (2.0 - 2.0 * poisson))
+
+
+def boussinesq_corner(a, b, z):
+    """Holl (1940)-style signed corner factor, guarded where a term is 0/0."""
+    a, b, z = np.broadcast_arrays(*(np.asarray(v, dtype=float) for v in (a, b, z)))
+    r = np.sqrt(a * a + b * b + z * z)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        first = np.arctan2(a * b, z * r)
+        second = a * b * z / r * (1.0 / (a * a + z * z) + 1.0 / (b * b + z * z))
+    # the second term vanishes wherever a factor a, b or z is zero (its limit there)
+    second = np.where((a == 0) | (b == 0) | (z == 0), 0.0, second)
+    first = np.where(r == 0, 0.0, first)
+    return (first + second) / (2.0 * np.pi)
+
+
+def westergaard_corner(a, b, z, poisson=0.0):
+    """Westergaard (1938) signed corner factor atan2(ab, ηz·sqrt(a²+b²+η²z²)) / 2π."""
+    c = eta(poisson) * np.asarray(z, dtype=float)
+    return np.arctan2(a * b, c * np.sqrt(a * a + b * b + c * c)) / (2.0 * np.pi)
+
+
+def corner(a, b, z, method="boussinesq", poisson=None):
+    if method == "boussinesq":
+        return boussinesq_corner(a, b, z)
+    return westergaard_corner(a, b, z, 0.0 if poisson is None else poisson)
+
+
+def rectangle(x1, x2, y1, y2, z, method="boussinesq", poisson=None):
+    """Δσz/q of a uniform rectangle, edges as offsets from the point."""
+    f = lambda a, b: corner(a, b, z, method, poisson)  # noqa: E731
+    return f(x2, y2) - f(x1, y2) - f(x2, y1) + f(x1, y1)
+
+
+def grid_stress(pressure, x0, y0, dx, dy, points, method="boussinesq", poisson=None):
+    """Δσz (kPa) at points (N, 3) by the per-cell four-corner sum, one point at a time."""
+    pressure = np.asarray(pressure, dtype=float)
+    ny, nx = pressure.shape
+    xe = x0 + np.arange(nx + 1) * dx
+    ye = y0 + np.arange(ny + 1) * dy
+    out = np.empty(len(points))
+    for k, (px, py, z) in enumerate(np.asarray(points, dtype=float)):
+        x1 = (xe[:-1] - px)[None, :]
+        x2 = (xe[1:] - px)[None, :]
+        y1 = (ye[:-1] - py)[:, None]
+        y2 = (ye[1:] - py)[:, None]
+        out[k] = np.sum(pressure * rectangle(x1, x2, y1, y2, z, method, poisson))
+    return out
+
+
+def boussinesq_point(r, z):
+    """Boussinesq (1885): Δσz/Q = 3z³ / (2π (r² + z²)^(5/2))."""
+    return 3.0 * z**3 / (2.0 * np.pi * (r * r + z * z) ** 2.5)
+
+
+def westergaard_point(r, z, poisson=0.0):
+    """Westergaard (1938): Δσz/Q = ηz / (2π (η²z² + r²)^(3/2))."""
+    c = eta(poisson) * z
+    return c / (2.0 * np.pi * (c * c + r * r) ** 1.5)
