@@ -1,0 +1,389 @@
+"""Write a run's results into its results folder (docs/results-folder.md), and the tables
+the command prints. Values are SI inside; the io writers convert to the site's units.
+
+Plan coordinates are written in site-CRS units. The unit-converting writers divide every
+length by the unit system's metre factor, so coordinates handed to them are pre-scaled by
+(unit metres / CRS metres) — the US survey foot is not the international foot.
+"""
+from __future__ import annotations
+
+import json
+from dataclasses import replace
+
+import geopandas as gpd
+import numpy as np
+import pandas as pd
+
+from . import crs as crsmod
+from .grid import GridSpec
+from .io import geotiff, manifest, netcdf, tables, vtk
+from .io.atomic import write_atomic
+from .progress import silent
+
+KIND_FILES = {"building": "buildings", "pipe": "pipes", "borehole": "boreholes"}
+
+
+# --- coordinates for output -----------------------------------------------------------
+def _coord_scale(site) -> float:
+    """Factor that makes a unit-converting writer emit site-CRS coordinates."""
+    return site.units.length_to_m / site.metres_per_unit
+
+
+def _crs_spec(site) -> GridSpec:
+    """The analysis lattice in site-CRS units (for GeoTIFF transforms)."""
+    f, s = site.metres_per_unit, site.spec
+    return GridSpec(s.x0 / f, s.y0 / f, s.dx / f, s.dy / f, s.nx, s.ny, site.crs)
+
+
+def _scaled_points(site, points: pd.DataFrame) -> pd.DataFrame:
+    k = _coord_scale(site)
+    return points.assign(x=points["x"] * k, y=points["y"] * k)
+
+
+def _scaled_slice(site, da):
+    k = _coord_scale(site)
+    return da.assign_coords(x=da["x"] * k, y=da["y"] * k)
+
+
+def _geometry_out(site, geoms):
+    """Internal-metre geometries → the same geometries in site-CRS units."""
+    if site.crs is None:
+        return list(geoms)
+    return list(crsmod.from_site(np.asarray(list(geoms), dtype=object),
+                                 (site.crs, site.metres_per_unit)))
+
+
+# --- tables ---------------------------------------------------------------------------
+def bodies_table(site) -> pd.DataFrame:
+    return pd.DataFrame([{"body": b.name, "kind": b.kind, "stage": b.stage,
+                          "excavation": b.excavation, "unit_weight": b.unit_weight,
+                          "volume": b.volume, "footprint_area": b.footprint_area,
+                          "max_height": b.max_height, "total_load": b.total_load}
+                         for b in site.bodies])
+
+
+def building_summary(res) -> pd.DataFrame:
+    rows = []
+    for b in res.buildings:
+        r = b.as_row()
+        rows.append({"receptor_id": r["receptor_id"], "n_points": r["n_points"],
+                     "settlement_max": r["settlement_max_m"],
+                     "settlement_min": r["settlement_min_m"],
+                     "differential_settlement": r["differential_m"],
+                     "angular_distortion": r["angular_distortion"],
+                     "distortion_between": f"{r['distortion_point_a']}–{r['distortion_point_b']}",
+                     "worst_limit_reached": r["worst_limit"] or "none",
+                     **{k: v for k, v in r.items() if k.startswith("exceeds_")}})
+    return pd.DataFrame(rows)
+
+
+def pipe_summary(res) -> pd.DataFrame:
+    rows = []
+    for p in res.pipes:
+        r = p.as_row()
+        rows.append({"receptor_id": r["receptor_id"], "n_points": r["n_points"],
+                     "settlement_max": r["settlement_max_m"],
+                     "chainage_at_max": r["chainage_at_max_m"],
+                     "differential_length": r["differential_length_m"],
+                     "differential_settlement": r["differential_max_m"],
+                     "differential_from": r["differential_from_chainage_m"],
+                     "differential_to": r["differential_to_chainage_m"],
+                     "gradient_max": r["gradient_max"]})
+    return pd.DataFrame(rows)
+
+
+EXTRA_QUANTITIES = {"chainage_at_max": "length", "differential_length": "length",
+                    "differential_from": "length", "differential_to": "length",
+                    "gradient_max": None, "influence_depth": "length", "fraction": None,
+                    "x_at_max": "length", "y_at_max": "length", "depth_at_max": "length",
+                    "elevation": "length"}
+
+
+def stress_summary(points: pd.DataFrame) -> pd.DataFrame:
+    """Per receptor: the largest Δσz and where it occurs (SI)."""
+    rows = []
+    for rid, g in points.groupby("receptor_id", sort=False):
+        k = g["dsz"].idxmax()
+        row = {"receptor_id": rid, "n_points": len(g), "dsz_max": g.at[k, "dsz"],
+               "x_at_max": g.at[k, "x"], "y_at_max": g.at[k, "y"],
+               "depth_at_max": g.at[k, "depth"]}
+        if "stress_ratio" in g:
+            row["stress_ratio_max"] = float(np.nanmax(g["stress_ratio"])) if g["stress_ratio"].notna().any() else np.nan
+        rows.append(row)
+    return pd.DataFrame(rows)
+
+
+def kind_summary(res, kind: str) -> pd.DataFrame:
+    pts = res.points[res.points["receptor_kind"] == kind]
+    summary = stress_summary(pts)
+    extra = {"building": building_summary, "pipe": pipe_summary}.get(kind)
+    if extra is not None and (res.buildings if kind == "building" else res.pipes):
+        more = extra(res).drop(columns=["n_points"])
+        summary = summary.merge(more, on="receptor_id", how="left")
+    if res.profiles:
+        prof = pd.DataFrame(res.profiles)
+        summary = summary.merge(prof, on="receptor_id", how="left")
+    return summary
+
+
+# --- writing --------------------------------------------------------------------------
+def _q():
+    return {**EXTRA_QUANTITIES, "stress_ratio_max": None,
+            **{c: "settlement" for c in ("settlement",)}}
+
+
+def _quantities(frame: pd.DataFrame) -> dict:
+    q = dict(_q())
+    for c in frame.columns:
+        if c.startswith("settlement_stage"):
+            q[c] = "settlement"
+        if c.startswith("exceeds_"):
+            q[c] = None
+    return q
+
+
+def write_all(res, folder, *, report=True, progress=silent, assumptions="", cautions="",
+              version="") -> None:
+    site = res.site
+    steps = 6 + (2 if report else 0)
+    with progress("writing results", steps) as bar:
+        _write_tables(res, folder)
+        bar.advance()
+        _write_rasters(res, folder)
+        bar.advance()
+        _write_cube(res, folder)
+        bar.advance()
+        _write_vtk(res, folder)
+        bar.advance()
+        _write_summary_json(res, folder, assumptions, cautions)
+        bar.advance()
+        fields = dict(settings=_settings(site), units=site.units,
+                      inputs=site.config.input_files(), site_file=site.path,
+                      crs=site.crs, grid=_crs_spec(site), assumptions=assumptions,
+                      cautions=cautions)
+        if report:
+            # The report and scene read the folder through the same contract as any
+            # finished results folder, manifest included; the final manifest then
+            # checksums them too.
+            manifest.write_manifest(folder, **fields)
+            _write_report_and_scene(folder, bar)
+        manifest.write_manifest(folder, **fields)
+        bar.advance()
+
+
+def _write_tables(res, folder) -> None:
+    site, u = res.site, res.site.units
+    tables.write_table_csv(folder.path("bodies.csv"), bodies_table(site), u)
+    for kind, name in KIND_FILES.items():
+        pts = res.points[res.points["receptor_kind"] == kind]
+        if pts.empty:
+            continue
+        q = _quantities(pts)
+        out = _scaled_points(site, pts)
+        tables.write_table_csv(folder.path(f"{name}_points.csv"), out, u, q)
+        tables.write_points_geojson(folder.path(f"{name}_points.geojson"), out, u,
+                                    crs=site.crs, quantities=q)
+        summary = kind_summary(res, kind)
+        summary = summary.assign(x_at_max=summary["x_at_max"] * _coord_scale(site),
+                                 y_at_max=summary["y_at_max"] * _coord_scale(site))
+        tables.write_table_csv(folder.path(f"{name}_summary.csv"), summary, u,
+                               _quantities(summary))
+        _write_geometry(res, folder, kind, name)
+    if res.time_curves:
+        rows = [{"receptor_id": rid, "days": d, "settlement": s}
+                for rid, (days, curve) in res.time_curves.items() for d, s in zip(days, curve)]
+        tables.write_table_csv(folder.path("settlement_time.csv"), pd.DataFrame(rows), u,
+                               {"days": None, "settlement": "settlement"})
+
+
+def _write_geometry(res, folder, kind, name) -> None:
+    site = res.site
+    items = site.receptors.get(name, [])
+    if kind == "building":
+        attrs = [{"receptor_id": r["id"], "foundation_depth": r["depth"]} for r in items]
+    elif kind == "pipe":
+        attrs = [{"receptor_id": r["id"], "depth": float(np.max(r["depth"])),
+                  "diameter": r.get("diameter") or 0.0} for r in items]
+    else:
+        attrs = [{"receptor_id": r["id"], "top_depth": r["top"], "bottom_depth": r["bottom"]}
+                 for r in items]
+    frame = gpd.GeoDataFrame(attrs, geometry=_geometry_out(site, [r["geometry"] for r in items]),
+                             crs=site.crs)
+    tables.write_geojson(folder.path(f"{name}.geojson"), frame, site.units, crs=site.crs)
+
+
+def _write_rasters(res, folder) -> None:
+    site, u = res.site, res.site.units
+    if not _output(site, "geotiff"):
+        return
+    spec = _crs_spec(site)
+    geotiff.write_geotiff(folder.path("fill_thickness.tif"), site.fill_thickness(), spec,
+                          quantity="length", units=u, description="fill thickness")
+    geotiff.write_geotiff(folder.path("surface_pressure.tif"), res.grid.pressure, spec,
+                          quantity="pressure", units=u, description="surface pressure")
+    ground = site.ground_elevation_grid()
+    if ground is not None:
+        geotiff.write_geotiff(folder.path("ground_elevation.tif"), np.nan_to_num(ground), spec,
+                              quantity="length", units=u, description="existing ground")
+    for name, da in res.slices.items():
+        sub = _slice_spec(site, da)
+        for depth in da["depth"].values:
+            label = f"{u.length_out(depth):05.2f}{u.length}"
+            geotiff.write_geotiff(folder.path(f"slices/dsz_{name}_z{label}.tif"),
+                                  da.sel(depth=depth).values, sub, quantity="pressure",
+                                  units=u, description=f"dsz at depth {label}")
+
+
+def _slice_spec(site, da) -> GridSpec:
+    """Lattice (site-CRS units) whose cell centres are the slice's x, y coordinates."""
+    f, dx, dy = site.metres_per_unit, site.spec.dx, site.spec.dy
+    x, y = da["x"].values, da["y"].values
+    return GridSpec((x[0] - dx / 2) / f, (y[0] - dy / 2) / f, dx / f, dy / f, len(x), len(y),
+                    site.crs)
+
+
+def _write_cube(res, folder) -> None:
+    site = res.site
+    if not res.slices or not _output(site, "netcdf"):
+        return
+    k = _coord_scale(site)
+    s = site.spec
+    scaled = GridSpec(s.x0 * k, s.y0 * k, s.dx * k, s.dy * k, s.nx, s.ny, site.crs)
+    netcdf.write_stress_cube(folder.path("stress_cube.nc"),
+                             {n: _scaled_slice(site, da) for n, da in res.slices.items()},
+                             grid=scaled, fill_thickness=site.fill_thickness(),
+                             units=site.units, crs=site.crs)
+
+
+def _write_vtk(res, folder) -> None:
+    site, u = res.site, res.site.units
+    if not _output(site, "vtk"):
+        return
+    k = _coord_scale(site)
+    s = site.spec
+    scaled = GridSpec(s.x0 * k, s.y0 * k, s.dx * k, s.dy * k, s.nx, s.ny, site.crs)
+    ground = site.ground_elevation_grid()
+    vtk.write_fill_surface(folder.path("vtk/fill_surface.vtp"), site.fill_thickness(), scaled,
+                           ground=ground, units=u)
+    for name, da in res.slices.items():
+        vtk.write_stress_grid(folder.path(f"vtk/stress_{name}.vtr"), _scaled_slice(site, da), u)
+    pts = _scaled_points(site, res.points)
+    b = site.receptors.get("buildings", [])
+    if b:
+        frame = gpd.GeoDataFrame({"receptor_id": [r["id"] for r in b],
+                                  "foundation_depth": [r["depth"] for r in b]},
+                                 geometry=[_scale_geom(r["geometry"], k) for r in b])
+        vtk.write_buildings(folder.path("vtk/buildings.vtp"), frame, u)
+    if (pts["receptor_kind"] == "pipe").any():
+        vtk.write_pipes(folder.path("vtk/pipes.vtp"), pts[pts["receptor_kind"] == "pipe"], u)
+    if (pts["receptor_kind"] == "borehole").any():
+        vtk.write_boreholes(folder.path("vtk/boreholes.vtp"),
+                            pts[pts["receptor_kind"] == "borehole"], u)
+
+
+def _scale_geom(geom, k):
+    import shapely
+    return shapely.transform(geom, lambda c: c * k)
+
+
+def _write_summary_json(res, folder, assumptions, cautions) -> None:
+    site = res.site
+    data = {
+        "site": {"name": site.name, "description": site.description,
+                 "units": site.units.name, "method": site.method, "poisson": site.poisson,
+                 "cell": site.units.length_out(site.spec.dx), "stages": site.stages},
+        "bodies": json.loads(tables.labelled_table(bodies_table(site), site.units)
+                             .to_json(orient="records")),
+        "soil": _soil_rows(site),
+        "convergence": res.convergence,
+        "receptors": {name: json.loads(tables.labelled_table(
+            kind_summary(res, kind).drop(columns=["x_at_max", "y_at_max"]), site.units,
+            _quantities(kind_summary(res, kind))).to_json(orient="records"))
+            for kind, name in KIND_FILES.items()
+            if (res.points["receptor_kind"] == kind).any()},
+        "timings_s": res.timings,
+        "assumptions": assumptions, "cautions": cautions,
+    }
+    write_atomic(folder.path("summary.json"),
+                 lambda p: p.write_text(json.dumps(data, indent=2, default=_json_default)))
+
+
+def _json_default(v):
+    if isinstance(v, (np.floating, np.integer)):
+        return v.item()
+    if isinstance(v, np.ndarray):
+        return v.tolist()
+    return str(v)
+
+
+def _soil_rows(site) -> list[dict]:
+    if site.soil is None:
+        return []
+    u = site.units
+    return [{"name": L.name, f"top_{u.length}": u.length_out(L.top_m),
+             f"bottom_{u.length}": u.length_out(L.bottom_m), "model": L.kind,
+             f"unit_weight_{u.unit_weight}": L.unit_weight / u.unit_weight_to_kn_m3}
+            for L in site.soil.layers]
+
+
+def _write_report_and_scene(folder, bar) -> None:
+    from .report import write_report
+    from .viewer import export_scene_html
+    write_report(folder.root, folder.path("report.html"))
+    bar.advance()
+    export_scene_html(folder.root, folder.path("scene.html"))
+    bar.advance()
+
+
+def _output(site, key) -> bool:
+    return (site.config.get("outputs") or {}).get(key, True) is not False
+
+
+def _settings(site) -> dict:
+    grid = site.config.get("grid") or {}
+    return {"method": site.method, "poisson": site.poisson, "cell_m": site.spec.dx,
+            "margin_m": grid.get("margin"), "stages": site.stages,
+            "convergence_check": grid.get("convergence_check", True),
+            "units": site.units.name}
+
+
+# --- console tables -------------------------------------------------------------------
+def body_rows(site):
+    u = site.units
+    rows = [[b.name, b.kind, b.stage, u.unit_weight_si(1) and b.unit_weight / u.unit_weight_to_kn_m3,
+             b.volume / u.length_to_m ** 3, b.footprint_area / u.length_to_m ** 2,
+             u.length_out(b.max_height), tables.to_output_units(b.total_load, u, "force")]
+            for b in site.bodies]
+    force = tables.unit_label(u, "force")
+    return ("Fill bodies", ["body", "kind", "stage", f"γ ({u.unit_weight})",
+                            f"volume ({u.length}³)", f"footprint ({u.length}²)",
+                            f"max height ({u.length})", f"load ({force})"], rows)
+
+
+def check_rows(site):
+    from .estimate_run import describe_run
+    return ("What a run computes", ["item", "value"], describe_run(site))
+
+
+def summary_tables(res):
+    site, u = res.site, res.site.units
+    out = [body_rows(site)]
+    rows = []
+    for kind in KIND_FILES:
+        pts = res.points[res.points["receptor_kind"] == kind]
+        if pts.empty:
+            continue
+        s = kind_summary(res, kind)
+        for _, r in s.iterrows():
+            row = [kind, r["receptor_id"], u.pressure_out(r["dsz_max"]),
+                   u.length_out(r["depth_at_max"])]
+            if site.soil is not None:
+                row += [u.settlement_out(r.get("settlement_max", np.nan))
+                        if "settlement_max" in r else np.nan,
+                        r.get("angular_distortion", np.nan), r.get("worst_limit_reached", "")]
+            rows.append(row)
+    cols = ["kind", "receptor", f"max Δσz ({u.pressure})", f"at depth ({u.length})"]
+    if site.soil is not None:
+        cols += [f"max settlement ({u.settlement})", "angular distortion", "limit reached"]
+    out.append(("Receptors", cols, rows))
+    return out
