@@ -1,0 +1,218 @@
+"""Direct summation and FFT slices against the numpy reference; input validation."""
+from __future__ import annotations
+
+import numpy as np
+import pytest
+import xarray as xr
+
+import reference
+from fillstress import LoadGrid
+from fillstress.errors import InputError
+from fillstress.solve import slice_at_depth, stress_slices, vertical_stress
+from fillstress.solve.direct import node_weights
+
+METHODS = [("boussinesq", None), ("westergaard", 0.0), ("westergaard", 0.35)]
+
+
+def random_grid(seed, ny=9, nx=13, dx=0.7, dy=1.1):
+    rng = np.random.default_rng(seed)
+    p = rng.uniform(-20.0, 120.0, (ny, nx))
+    p[rng.random((ny, nx)) < 0.3] = 0.0          # holes and sharp edges
+    return LoadGrid(p, x0=501.3, y0=-48.0, dx=dx, dy=dy)
+
+
+def random_points(grid, seed, n=60, with_nodes=True):
+    rng = np.random.default_rng(seed)
+    xmin, ymin, xmax, ymax = grid.extent
+    pts = np.column_stack([rng.uniform(xmin - 4, xmax + 4, n), rng.uniform(ymin - 4, ymax + 4, n),
+                           rng.choice([0.0, 0.05, 0.8, 3.0, 20.0], n)])
+    if with_nodes:  # points exactly on nodes, edges and centres, at the surface and below
+        pts[:3, :2] = [[grid.x0, grid.y0], [grid.x0 + 2 * grid.dx, grid.y0 + 0.5 * grid.dy],
+                       [grid.x0 + 3.5 * grid.dx, grid.y0 + 4.5 * grid.dy]]
+    return pts
+
+
+@pytest.mark.parametrize("method, poisson", METHODS)
+@pytest.mark.parametrize("kernel", ["nodes", "cells"])
+def test_fast_kernels_match_reference(method, poisson, kernel):
+    grid = random_grid(1)
+    pts = random_points(grid, 2)
+    expected = reference.grid_stress(grid.pressure, grid.x0, grid.y0, grid.dx, grid.dy, pts,
+                                     method, poisson)
+    got = vertical_stress(grid, pts, method, poisson, kernel=kernel)
+    scale = np.abs(grid.pressure).max()
+    np.testing.assert_allclose(got, expected, rtol=0, atol=1e-12 * scale)
+
+
+@pytest.mark.parametrize("method, poisson", METHODS)
+def test_node_and_cell_kernels_agree_on_uniform_and_ragged_fills(method, poisson):
+    uniform = LoadGrid(np.full((20, 30), 75.0), x0=0.0, y0=0.0, dx=0.5, dy=0.5)
+    for grid in (uniform, random_grid(3, 25, 17)):
+        pts = random_points(grid, 4, 80)
+        a = vertical_stress(grid, pts, method, poisson, kernel="nodes")
+        b = vertical_stress(grid, pts, method, poisson, kernel="cells")
+        np.testing.assert_allclose(a, b, rtol=0, atol=1e-11 * np.abs(grid.pressure).max())
+
+
+def test_node_weights_regroup_the_cell_sum():
+    p = np.array([[1.0, 2.0], [3.0, 5.0]])
+    w = node_weights(p)
+    # uniform interior nodes vanish and the weights sum to zero (each cell adds +−−+)
+    assert w.shape == (3, 3)
+    assert w.sum() == 0.0
+    assert w[1, 1] == 1.0 - 2.0 - 3.0 + 5.0
+    assert np.count_nonzero(node_weights(np.full((4, 4), 7.0))) == 4
+
+
+def test_chunking_does_not_change_the_result():
+    grid = random_grid(5)
+    pts = random_points(grid, 6, 37)
+    whole = vertical_stress(grid, pts)
+    for chunk in (1, 5, 36, 100):
+        np.testing.assert_array_equal(vertical_stress(grid, pts, chunk=chunk), whole)
+
+
+def test_single_point_and_empty_load():
+    grid = LoadGrid(np.zeros((3, 3)), 0.0, 0.0, 1.0, 1.0)
+    assert vertical_stress(grid, [1.0, 1.0, 2.0]).tolist() == [0.0]
+    assert vertical_stress(grid, np.zeros((0, 3))).shape == (0,)
+
+
+def test_vertical_stress_rejects_bad_input():
+    grid = random_grid(7)
+    ok = [[0.0, 0.0, 1.0]]
+    cases = [
+        (lambda: vertical_stress("grid", ok), "grid"),
+        (lambda: vertical_stress(grid, [[0.0, 0.0, -1.0]]), "points"),
+        (lambda: vertical_stress(grid, [[0.0, np.nan, 1.0]]), "points"),
+        (lambda: vertical_stress(grid, [[0.0, 1.0]]), "points"),
+        (lambda: vertical_stress(grid, np.zeros((2, 3, 1))), "points"),
+        (lambda: vertical_stress(grid, ok, "newmark"), "method"),
+        (lambda: vertical_stress(grid, ok, "westergaard", 0.5), "poisson"),
+        (lambda: vertical_stress(grid, ok, "westergaard", -0.01), "poisson"),
+        (lambda: vertical_stress(grid, ok, "boussinesq", 0.3), "poisson"),
+        (lambda: vertical_stress(grid, ok, chunk=0), "chunk"),
+        (lambda: vertical_stress(grid, ok, chunk=2.5), "chunk"),
+        (lambda: vertical_stress(grid, ok, kernel="fast"), "kernel"),
+    ]
+    for call, argument in cases:
+        with pytest.raises(InputError) as info:
+            call()
+        assert info.value.argument == argument
+
+
+def test_mutated_grid_is_rechecked():
+    grid = random_grid(8)
+    grid.pressure[2, 3] = np.inf
+    with pytest.raises(InputError, match="grid.pressure"):
+        vertical_stress(grid, [[0.0, 0.0, 1.0]])
+    bad = random_grid(8)
+    object.__setattr__(bad, "dx", 0.0)
+    with pytest.raises(InputError, match="grid.dx"):
+        vertical_stress(bad, [[0.0, 0.0, 1.0]])
+    with pytest.raises(InputError, match="grid.dy"):
+        object.__setattr__(bad, "dx", 1.0)
+        object.__setattr__(bad, "dy", -1.0)
+        stress_slices(bad, [1.0])
+
+
+# --- FFT slices ---------------------------------------------------------------------
+def direct_on_slice(grid, da, method, poisson):
+    X, Y = np.meshgrid(da.x.values, da.y.values)
+    out = []
+    for z in da.depth.values:
+        pts = np.column_stack([X.ravel(), Y.ravel(), np.full(X.size, z)])
+        out.append(reference.grid_stress(grid.pressure, grid.x0, grid.y0, grid.dx, grid.dy,
+                                         pts, method, poisson).reshape(X.shape))
+    return np.array(out)
+
+
+@pytest.mark.parametrize("method, poisson", METHODS)
+@pytest.mark.parametrize("offset, pad", [((0.0, 0.0), 0.0), ((0.21, -0.4), 1.5),
+                                         ((0.35, 0.55), 0.3)])
+def test_fft_slices_equal_the_reference_sum(method, poisson, offset, pad):
+    grid = random_grid(9, ny=7, nx=10)
+    # offset (0.35, 0.55) puts samples on cell edges, where the surface value jumps: a
+    # one-ulp difference in a coordinate then flips q/2 to q, so depth 0 is left to the
+    # exactly representable case below
+    depths = [0.4, 2.5] if offset == (0.35, 0.55) else [0.0, 0.4, 2.5]
+    da = stress_slices(grid, depths, method, poisson, offset=offset, pad=pad)
+    expected = direct_on_slice(grid, da, method, poisson)
+    np.testing.assert_allclose(da.values, expected, rtol=0,
+                               atol=1e-11 * np.abs(expected).max())
+
+
+@pytest.mark.parametrize("method, poisson", METHODS)
+def test_fft_surface_slice_on_edges_and_nodes(method, poisson):
+    rng = np.random.default_rng(13)
+    grid = LoadGrid(rng.uniform(0, 100, (4, 5)), x0=0.0, y0=0.0, dx=1.0, dy=2.0)
+    for offset in [(0.5, 0.0), (0.0, 1.0), (0.5, 1.0), (0.25, 0.0)]:
+        da = stress_slices(grid, [0.0], method, poisson, offset=offset, pad=1.0)
+        expected = direct_on_slice(grid, da, method, poisson)
+        np.testing.assert_allclose(da.values, expected, rtol=0, atol=1e-11 * 100)
+
+
+def test_slice_coordinates_attrs_and_padding():
+    grid = LoadGrid(np.ones((4, 6)), x0=300.0, y0=700.0, dx=0.5, dy=2.0)
+    da = stress_slices(grid, [1.0, 3.0], "westergaard", 0.2, offset=(0.1, -0.3), pad=1.01)
+    assert isinstance(da, xr.DataArray)
+    assert da.dims == ("depth", "y", "x")
+    pad_x, pad_y = 3, 1                           # 1.01 m rounds up to 3 and 1 cells
+    assert da.shape == (2, 4 + 2 * pad_y, 6 + 2 * pad_x)
+    np.testing.assert_allclose(da.x.values, 300.0 + (np.arange(12) - 3 + 0.5) * 0.5 + 0.1)
+    np.testing.assert_allclose(da.y.values, 700.0 + (np.arange(6) - 1 + 0.5) * 2.0 - 0.3)
+    assert da.attrs["units"] == "kPa" and da.attrs["method"] == "westergaard"
+    assert da.attrs["poisson"] == 0.2 and "stress" in da.attrs["long_name"]
+    assert da.depth.values.tolist() == [1.0, 3.0]
+    assert stress_slices(grid, 2.0).attrs["poisson"] == "not used"
+
+
+def test_slice_of_dx_not_equal_dy_matches_direct():
+    grid = random_grid(10, ny=5, nx=8, dx=0.3, dy=1.7)
+    da = stress_slices(grid, [1.2], pad=0.6)
+    X, Y = np.meshgrid(da.x.values, da.y.values)
+    pts = np.column_stack([X.ravel(), Y.ravel(), np.full(X.size, 1.2)])
+    direct = vertical_stress(grid, pts).reshape(X.shape)
+    np.testing.assert_allclose(da.values[0], direct, rtol=0, atol=1e-11 * np.abs(direct).max())
+
+
+def test_slice_at_depth_lattice_and_plan_reuse():
+    p = np.arange(12.0).reshape(3, 4)
+    out = slice_at_depth(p, 1.0, 2.0, 1.5, pad_cells=(2, 1), offset=(0.25, 0.0))
+    assert out.shape == (5, 8)
+    grid = LoadGrid(p, 0.0, 0.0, 1.0, 2.0)
+    sample = [[(3 - 2 + 0.5) * 1.0 + 0.25, (2 - 1 + 0.5) * 2.0, 1.5]]
+    assert out[2, 3] == pytest.approx(vertical_stress(grid, sample)[0], abs=1e-12)
+
+
+def test_slice_inputs_are_validated():
+    grid = random_grid(11)
+    cases = [
+        (lambda: stress_slices(grid, [-1.0]), "depths"),
+        (lambda: stress_slices(grid, []), "depths"),
+        (lambda: stress_slices(grid, [np.nan]), "depths"),
+        (lambda: stress_slices(grid, [1.0], offset=(1.0,)), "offset"),
+        (lambda: stress_slices(grid, [1.0], offset=(np.inf, 0.0)), "offset"),
+        (lambda: stress_slices(grid, [1.0], pad=-1.0), "pad"),
+        (lambda: stress_slices(grid, [1.0], workers=0), "workers"),
+        (lambda: stress_slices(grid, [1.0], "westergaard", 0.7), "poisson"),
+        (lambda: stress_slices(grid, [1.0], "linear"), "method"),
+        (lambda: stress_slices(grid.pressure, [1.0]), "grid"),
+        (lambda: slice_at_depth([[1.0]], 0.0, 1.0, 1.0), "dx"),
+        (lambda: slice_at_depth([[1.0]], 1.0, 1.0, -0.5), "depth"),
+        (lambda: slice_at_depth([1.0, 2.0], 1.0, 1.0, 1.0), "pressure"),
+        (lambda: slice_at_depth([[np.nan]], 1.0, 1.0, 1.0), "pressure"),
+        (lambda: slice_at_depth([[1.0]], 1.0, 1.0, 1.0, pad_cells=(1, -1)), "pad_cells"),
+        (lambda: slice_at_depth([[1.0]], 1.0, 1.0, 1.0, pad_cells=3), "pad_cells"),
+    ]
+    for call, argument in cases:
+        with pytest.raises(InputError) as info:
+            call()
+        assert info.value.argument == argument
+
+
+def test_workers_do_not_change_the_slice():
+    grid = random_grid(12)
+    one = stress_slices(grid, [1.0], workers=1).values
+    two = stress_slices(grid, [1.0], workers=2).values
+    np.testing.assert_allclose(one, two, rtol=0, atol=1e-12 * np.abs(one).max())
