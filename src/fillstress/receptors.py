@@ -221,7 +221,8 @@ def pipe_points(receptor_id, line: LineString, depth_at, *, spacing: float,
     spacing : float
         Chainage step (m) between regular points.
     diameter : float, optional
-        Outside diameter (m); needed when `level` is ``"invert"``.
+        Outside diameter (m, > 0); needed when `level` is ``"invert"``. With a crown level
+        it is only checked (>= 0; 0 means not stated).
     level : {"crown", "invert"}
         What `depth_at` gives. The stress point is the crown: invert depth minus diameter.
 
@@ -251,8 +252,8 @@ def pipe_points(receptor_id, line: LineString, depth_at, *, spacing: float,
         if diameter is None:
             raise InputError("is needed when level='invert'", argument="diameter")
         depth = depth - positive(diameter, "diameter")
-    elif diameter is not None:
-        positive(diameter, "diameter")
+    elif diameter is not None and finite(diameter, "diameter") < 0:  # 0 = not stated
+        raise InputError(f"must be >= 0 m, got {diameter!r}", argument="diameter")
     if np.any(depth < 0):
         k = int(np.argmin(depth))
         raise InputError(f"pipe {rid}: crown is above the ground at chainage {ch[k]:.3f} m "

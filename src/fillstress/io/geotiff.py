@@ -14,7 +14,7 @@ from ..errors import InputError
 from ..grid import GridSpec
 from ..units import SI, UnitSystem
 from .atomic import write_atomic
-from .tables import to_output_units, unit_label
+from .tables import plan_unit, to_output_units, unit_label
 
 
 def rasterio_crs(crs):
@@ -41,6 +41,22 @@ def north_up(array: np.ndarray) -> np.ndarray:
     return np.ascontiguousarray(array[::-1, :])
 
 
+def crs_transform(grid: GridSpec, crs=None):
+    """North-up affine transform of `grid` (internal metres) in the units of `crs`.
+
+    Examples
+    --------
+    >>> t = crs_transform(GridSpec(3048.0, 0.0, 3.048, 3.048, 2, 1), "EPSG:2263")
+    >>> round(t.a, 5), round(t.c, 2), round(t.f, 5)
+    (9.99998, 9999.98, 9.99998)
+    """
+    from affine import Affine
+
+    f = plan_unit(crs)[1] if crs is not None else 1.0
+    top = grid.y0 + grid.ny * grid.dy
+    return Affine(grid.dx / f, 0.0, grid.x0 / f, 0.0, -grid.dy / f, top / f)
+
+
 def write_geotiff(path, array, grid: GridSpec, *, quantity: str | None,
                   units: UnitSystem = SI, description: str = "", crs=None) -> os.PathLike:
     """Write `array` (SI, shape ``grid.shape``, row 0 south) as a single-band GeoTIFF.
@@ -52,7 +68,7 @@ def write_geotiff(path, array, grid: GridSpec, *, quantity: str | None,
     array : array_like, shape (ny, nx)
         Values in SI; NaN for "no value", infinities refused.
     grid : GridSpec
-        Lattice giving the georeferencing.
+        Lattice in internal metres; the file's transform is in the CRS's unit.
     quantity : {"length", "pressure", "settlement", ...} or None
         Converts values to `units`; None for dimensionless values.
     units : UnitSystem
@@ -85,11 +101,12 @@ def write_geotiff(path, array, grid: GridSpec, *, quantity: str | None,
                          argument="array")
     if np.any(np.isinf(values)):
         raise InputError("holds infinite values", argument="array")
+    site = crs if crs is not None else grid.crs
     label = "" if quantity is None else unit_label(units, quantity)
     data = north_up(to_output_units(values, units, quantity)).astype(np.float32)
     profile = dict(driver="GTiff", width=grid.nx, height=grid.ny, count=1,
-                   dtype="float32", crs=rasterio_crs(crs if crs is not None else grid.crs),
-                   transform=grid.rasterio_transform(), nodata=np.nan, compress="deflate")
+                   dtype="float32", crs=rasterio_crs(site), transform=crs_transform(grid, site),
+                   nodata=np.nan, compress="deflate")
 
     def write(tmp):
         with rasterio.open(tmp, "w", **profile) as dst:

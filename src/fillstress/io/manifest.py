@@ -20,7 +20,7 @@ from ..errors import InputError
 from ..grid import GridSpec
 from ..units import SI, UnitSystem
 from .atomic import ResultsFolder, write_atomic
-from .tables import to_output_units, unit_label
+from .tables import plan_unit
 
 MANIFEST_NAME = "manifest.json"
 
@@ -80,15 +80,15 @@ def _crs_wkt(crs):
         raise InputError(f"is not a usable CRS ({exc})", argument="crs") from None
 
 
-def _grid_entry(grid, units: UnitSystem):
+def _grid_entry(grid, units: UnitSystem, crs):
+    """The lattice in the CRS's plan unit, like the GeoTIFF transforms."""
     if grid is None:
         return None
     if not isinstance(grid, GridSpec):
         raise InputError(f"must be a GridSpec, got {type(grid).__name__}", argument="grid")
-    length = lambda v: float(to_output_units(float(v), units, "length"))  # noqa: E731
-    return {"x0": length(grid.x0), "y0": length(grid.y0), "dx": length(grid.dx),
-            "dy": length(grid.dy), "nx": int(grid.nx), "ny": int(grid.ny),
-            "unit": unit_label(units, "length")}
+    label, factor = plan_unit(crs, units)
+    return {"x0": grid.x0 / factor, "y0": grid.y0 / factor, "dx": grid.dx / factor,
+            "dy": grid.dy / factor, "nx": int(grid.nx), "ny": int(grid.ny), "unit": label}
 
 
 def output_checksums(folder, *, exclude=(MANIFEST_NAME,)) -> dict[str, str]:
@@ -121,6 +121,7 @@ def build_manifest(*, settings: Mapping, units: UnitSystem = SI, inputs: Iterabl
     """
     from .. import __version__
 
+    crs = crs if crs is not None else getattr(grid, "crs", None)
     created = created or _dt.datetime.now(_dt.timezone.utc)
     if created.tzinfo is None:
         raise InputError("must carry a time zone (UTC)", argument="created")
@@ -132,11 +133,12 @@ def build_manifest(*, settings: Mapping, units: UnitSystem = SI, inputs: Iterabl
         "site_file": None if site_file is None else os.fspath(site_file),
         "settings": _jsonable(dict(settings), ""),
         "units": {"system": units.name, "length": units.length, "pressure": units.pressure,
-                  "unit_weight": units.unit_weight, "settlement": units.settlement},
+                  "unit_weight": units.unit_weight, "settlement": units.settlement,
+                  "plan": plan_unit(crs, units)[0]},
         "inputs": input_hashes,
         "outputs": dict(outputs or {}),
         "crs": _crs_wkt(crs),
-        "grid": _grid_entry(grid, units),
+        "grid": _grid_entry(grid, units, crs),
         "assumptions": str(assumptions),
         "cautions": str(cautions),
     }

@@ -2,8 +2,9 @@
 
 Each plan grid ``<g>`` becomes a variable ``dsz_<g>`` on its own dimensions
 ``(depth_<g>, y_<g>, x_<g>)`` (grids need not share nodes); the fill thickness is
-``fill_thickness (y, x)`` on the analysis-grid cell centres. Coordinates and values are in
-the output unit system; the CRS is carried CF-style in a ``crs`` variable (``crs_wkt``).
+``fill_thickness (y, x)`` on the analysis-grid cell centres. Values and depths are in the
+output unit system, plan coordinates in the site CRS's unit (internal metres scaled by its
+axis factor); the CRS is carried CF-style in a ``crs`` variable (``crs_wkt``).
 """
 from __future__ import annotations
 
@@ -42,13 +43,16 @@ def _checked_slice(name: str, da):
     return da
 
 
-def _length_coord(values_m, units, name: str, axis: str) -> tuple:
-    attrs = {"units": unit_label(units, "length")}
+def _length_coord(values_m, units, name: str, axis: str, crs) -> tuple:
+    """Depth in the unit system's length; plan axes in the CRS's unit (see plan_unit)."""
+    quantity = "length" if axis == "depth" else "plan"
+    attrs = {"units": unit_label(units, quantity, crs)}
     if axis == "depth":
         attrs.update(long_name="depth below existing ground", positive="down")
     else:
         attrs.update(standard_name=f"projection_{axis}_coordinate", axis=axis.upper())
-    return (name, to_output_units(np.asarray(values_m, float), units, "length"), attrs)
+    values = to_output_units(np.asarray(values_m, float), units, quantity, crs)
+    return (name, values, attrs)
 
 
 def stress_dataset(slices: Mapping, *, grid: GridSpec | None = None, fill_thickness=None,
@@ -58,7 +62,8 @@ def stress_dataset(slices: Mapping, *, grid: GridSpec | None = None, fill_thickn
     Parameters
     ----------
     slices : mapping of str to xarray.DataArray
-        Plan-grid name → Δσz (kPa) with dims ``("depth", "y", "x")`` and coordinates in m.
+        Plan-grid name → Δσz (kPa) with dims ``("depth", "y", "x")`` and coordinates in
+        internal metres.
     grid : GridSpec, optional
         Analysis lattice, needed for `fill_thickness`; its CRS is used unless `crs` is given.
     fill_thickness : array_like, shape ``grid.shape``, optional
@@ -81,13 +86,14 @@ def stress_dataset(slices: Mapping, *, grid: GridSpec | None = None, fill_thickn
 
     if not slices:
         raise InputError("needs at least one plan grid", argument="slices")
+    crs = crs if crs is not None else getattr(grid, "crs", None)
     variables, coords = {}, {}
     p_label = unit_label(units, "pressure")
     for name, da in slices.items():
         da = _checked_slice(name, da)
         dims = tuple(f"{d}_{name}" for d in SLICE_DIMS)
         for dim, axis in zip(dims, SLICE_DIMS):
-            coords[dim] = _length_coord(da[axis].values, units, dim, axis)
+            coords[dim] = _length_coord(da[axis].values, units, dim, axis, crs)
         variables[f"dsz_{name}"] = (dims, to_output_units(da.values.astype(float), units,
                                                           "pressure"),
                                     {"units": p_label, "grid_mapping": "crs",
@@ -99,13 +105,12 @@ def stress_dataset(slices: Mapping, *, grid: GridSpec | None = None, fill_thickn
         if t.shape != grid.shape or not np.all(np.isfinite(t)):
             raise InputError(f"must be finite with the grid shape {grid.shape}, got "
                              f"{t.shape}", argument="fill_thickness")
-        coords["y"] = _length_coord(grid.y_centres, units, "y", "y")
-        coords["x"] = _length_coord(grid.x_centres, units, "x", "x")
+        coords["y"] = _length_coord(grid.y_centres, units, "y", "y", crs)
+        coords["x"] = _length_coord(grid.x_centres, units, "x", "x", crs)
         variables["fill_thickness"] = (("y", "x"), to_output_units(t, units, "length"),
                                        {"units": unit_label(units, "length"),
                                         "grid_mapping": "crs",
                                         "long_name": "final fill thickness (negative = cut)"})
-    crs = crs if crs is not None else getattr(grid, "crs", None)
     variables["crs"] = ((), np.int32(0), _crs_attrs(crs))
     ds = xr.Dataset(variables, coords={k: (v[0], v[1], v[2]) for k, v in coords.items()})
     ds.attrs.update(Conventions="CF-1.8", title="fillstress stress cube", units_system=units.name)

@@ -2,8 +2,9 @@
 
 Values arrive in SI (m, kPa, kN/m³, settlement in m) and leave in the site's
 :class:`~fillstress.units.UnitSystem`; each quantity column is renamed ``<name>_<unit>``
-(``depth_m``, ``dsz_psf``, ``unit_weight_kN_m3``). Plan geometry in GeoJSON stays in the
-site CRS coordinates exactly as held.
+(``depth_m``, ``dsz_psf``, ``unit_weight_kN/m3``). Plan coordinates (``x``, ``y`` and
+GeoJSON geometry) are internal metres scaled to the site CRS's own axis unit, so they are
+the CRS's coordinates; their suffix names that unit (``m``, ``ft``, ``ftUS``).
 """
 from __future__ import annotations
 
@@ -14,14 +15,15 @@ import numpy as np
 import pandas as pd
 
 from ..errors import InputError
-from ..units import FOOT, PSF_KPA, UnitSystem
+from ..units import FOOT, PSF_KPA, SI, UnitSystem
 from .atomic import write_atomic
 
-# Which physical quantity a column holds; None = dimensionless or a count.
+# Which physical quantity a column holds; None = dimensionless or a count. "plan" is a
+# plan coordinate: written in the site CRS's own unit (see plan_unit), not the unit system's.
 DEFAULT_QUANTITIES: dict[str, str | None] = {
-    **dict.fromkeys(["x", "y", "depth", "chainage", "foundation_depth", "top_depth",
-                     "bottom_depth", "diameter", "max_height", "thickness", "top", "bottom"],
-                    "length"),
+    "x": "plan", "y": "plan",
+    **dict.fromkeys(["depth", "chainage", "foundation_depth", "top_depth", "bottom_depth",
+                     "diameter", "max_height", "thickness", "top", "bottom"], "length"),
     **dict.fromkeys(["dsz", "dsz_max", "sigma_v0", "surface_pressure"], "pressure"),
     **dict.fromkeys(["settlement", "settlement_max", "differential_settlement"], "settlement"),
     "unit_weight": "unit_weight",
@@ -31,48 +33,37 @@ DEFAULT_QUANTITIES: dict[str, str | None] = {
     **dict.fromkeys(["n_points", "stress_ratio", "angular_distortion", "stage"], None),
 }
 _KIP_KN = 1000.0 * PSF_KPA * FOOT**2  # 1 kip = 1000 lbf; lbf = psf × ft²
+_CRS_UNIT_LABELS = {"metre": "m", "foot": "ft", "US survey foot": "ftUS"}
 
 
-def unit_label(units: UnitSystem, quantity: str) -> str:
-    """Display label of `quantity` in `units`, e.g. ``"kN/m3"`` or ``"psf"``.
+def plan_unit(crs, units: UnitSystem = SI) -> tuple[str, float]:
+    """(label, metres per unit) of plan coordinates in the outputs.
 
-    Examples
-    --------
-    >>> from fillstress.units import US
-    >>> unit_label(US, "pressure"), unit_label(US, "volume")
-    ('psf', 'ft3')
-    """
-    return _unit(units, quantity)[0]
-
-
-def unit_suffix(units: UnitSystem, quantity: str) -> str:
-    """Column-name suffix of `quantity` in `units` (no ``/``, safe in file and field names).
-
-    Examples
-    --------
-    >>> from fillstress.units import SI, US
-    >>> unit_suffix(SI, "unit_weight"), unit_suffix(US, "force"), unit_suffix(US, "area")
-    ('kN_m3', 'kip', 'ft2')
-    """
-    return _unit(units, quantity)[0].replace("/", "_")
-
-
-def to_output_units(values, units: UnitSystem, quantity: str | None):
-    """Convert SI `values` of `quantity` to `units` (returned unchanged for None).
+    With a site CRS, plan coordinates are written in the CRS's own axis unit so they match
+    the CRS and the engineer's drawings (a US survey foot is not an international foot).
+    Without one they are local lengths in the unit system's length unit.
 
     Examples
     --------
     >>> from fillstress.units import US
-    >>> round(float(to_output_units(0.3048, US, "length")), 12)
-    1.0
+    >>> plan_unit("EPSG:32633"), plan_unit(None, US)
+    (('m', 1.0), ('ft', 0.3048))
+    >>> label, f = plan_unit("EPSG:2263")  # NAD83 / New York Long Island (ftUS)
+    >>> label, round(f, 12)
+    ('ftUS', 0.304800609601)
     """
-    if quantity is None:
-        return values
-    return values / _unit(units, quantity)[1]
+    if crs is None:
+        return units.length, units.length_to_m
+    from ..crs import site_crs
+    proj, factor = site_crs(crs, argument="crs")
+    name = proj.axis_info[0].unit_name
+    return _CRS_UNIT_LABELS.get(name, name.replace(" ", "_")), factor
 
 
-def _unit(units: UnitSystem, quantity: str) -> tuple[str, float]:
+def _unit(units: UnitSystem, quantity: str, crs=None) -> tuple[str, float]:
     """(label, SI value of one output unit)."""
+    if quantity == "plan":
+        return plan_unit(crs, units)
     L = units.length_to_m
     table = {
         "length": (units.length, L),
@@ -84,24 +75,53 @@ def _unit(units: UnitSystem, quantity: str) -> tuple[str, float]:
         "force": ("kip", _KIP_KN) if units.name == "US" else ("kN", 1.0),
     }
     if quantity not in table:
-        raise InputError(f"unknown quantity {quantity!r}; use one of {', '.join(table)}",
-                         argument="quantities")
+        raise InputError(f"unknown quantity {quantity!r}; use plan or one of "
+                         f"{', '.join(table)}", argument="quantities")
     return table[quantity]
 
 
+def unit_label(units: UnitSystem, quantity: str, crs=None) -> str:
+    """Label of `quantity` in `units`, also the column-name suffix (``dsz_psf``).
+
+    Examples
+    --------
+    >>> from fillstress.units import US
+    >>> unit_label(US, "pressure"), unit_label(US, "volume"), unit_label(US, "force")
+    ('psf', 'ft3', 'kip')
+    """
+    return _unit(units, quantity, crs)[0]
+
+
+def to_output_units(values, units: UnitSystem, quantity: str | None, crs=None):
+    """Convert SI `values` of `quantity` to `units` (returned unchanged for None).
+
+    Examples
+    --------
+    >>> from fillstress.units import US
+    >>> round(float(to_output_units(0.3048, US, "length")), 12)
+    1.0
+    """
+    if quantity is None:
+        return values
+    return values / _unit(units, quantity, crs)[1]
+
+
 def labelled_table(table: pd.DataFrame, units: UnitSystem,
-                   quantities: Mapping[str, str | None] | None = None) -> pd.DataFrame:
+                   quantities: Mapping[str, str | None] | None = None, *,
+                   crs=None) -> pd.DataFrame:
     """A copy of `table` in output units with unit-suffixed quantity columns.
 
     Numeric columns must have a quantity, from :data:`DEFAULT_QUANTITIES` or `quantities`
-    (``None`` marks a dimensionless column); text and boolean columns pass through. Columns
-    holding NaN keep it (e.g. ``chainage`` of non-pipe points) — the CSV writes it empty.
+    (``None`` marks a dimensionless column); text and boolean columns pass through. Plan
+    coordinates (``x``, ``y``) go to the unit of `crs` (see :func:`plan_unit`). NaN stays
+    NaN (e.g. ``chainage`` of non-pipe points; the CSV writes it empty); infinities are
+    refused.
 
     Examples
     --------
     >>> import pandas as pd
     >>> from fillstress.units import US
-    >>> t = pd.DataFrame({"receptor_id": ["B1"], "depth": [3.048], "dsz": [47.8802589]})
+    >>> t = pd.DataFrame({"receptor_id": ["B1"], "depth": [3.048], "dsz": [47.8802589804]})
     >>> labelled_table(t, US).round(6).to_dict("records")
     [{'receptor_id': 'B1', 'depth_ft': 10.0, 'dsz_psf': 1000.0}]
     """
@@ -110,7 +130,7 @@ def labelled_table(table: pd.DataFrame, units: UnitSystem,
     for name in table.columns:
         column = table[name]
         numeric = pd.api.types.is_numeric_dtype(column) and not pd.api.types.is_bool_dtype(column)
-        if name == "geometry" or not numeric:
+        if not numeric:
             out[name] = column
             continue
         if name not in known:
@@ -120,14 +140,15 @@ def labelled_table(table: pd.DataFrame, units: UnitSystem,
         values = column.to_numpy(dtype=float)
         if np.any(np.isinf(values)):
             raise InputError(f"column {name!r} holds infinite values", argument="table")
-        out[name if q is None else f"{name}_{unit_suffix(units, q)}"] = \
-            to_output_units(values, units, q)
+        label = name if q is None else f"{name}_{unit_label(units, q, crs)}"
+        out[label] = to_output_units(values, units, q, crs)
     return pd.DataFrame(out, index=table.index)
 
 
 def write_table_csv(path, table: pd.DataFrame, units: UnitSystem,
-                    quantities: Mapping[str, str | None] | None = None) -> os.PathLike:
-    """Write `table` to CSV in output units (atomic).
+                    quantities: Mapping[str, str | None] | None = None, *,
+                    crs=None) -> os.PathLike:
+    """Write `table` to CSV in output units (atomic); `crs` sets the unit of x and y.
 
     Examples
     --------
@@ -138,26 +159,23 @@ def write_table_csv(path, table: pd.DataFrame, units: UnitSystem,
     >>> open(f).read().splitlines()
     ['receptor_id,chainage_m', 'P1,2.5']
     """
-    labelled = labelled_table(table, units, quantities)
+    labelled = labelled_table(table, units, quantities, crs=crs)
     return write_atomic(path, lambda tmp: labelled.to_csv(tmp, index=False))
 
 
-def _crs_or_none(crs):
+def _pyproj_crs(crs):
     if crs is None:
         return None
-    from pyproj import CRS
-    from pyproj.exceptions import CRSError
-    try:
-        return CRS.from_user_input(crs)
-    except CRSError as exc:
-        raise InputError(f"is not a usable CRS ({exc})", argument="crs") from None
+    from ..crs import as_crs
+    return as_crs(crs, "crs")
 
 
 def write_geojson(path, frame, units: UnitSystem, *, crs=None,
                   quantities: Mapping[str, str | None] | None = None) -> os.PathLike:
-    """Write a GeoDataFrame's attributes (output units) and geometry to GeoJSON (atomic).
+    """Write a GeoDataFrame in internal metres to GeoJSON in the site CRS (atomic).
 
-    `crs` overrides the frame's own CRS; geometry coordinates are written as they are.
+    Geometry is scaled from metres to the CRS's axis unit; attributes go to output units.
+    `crs` (the site CRS) overrides the frame's own CRS.
 
     Examples
     --------
@@ -172,19 +190,22 @@ def write_geojson(path, frame, units: UnitSystem, *, crs=None,
     ['receptor_id', 'foundation_depth_m', 'geometry']
     """
     import geopandas as gpd
+    import shapely
 
     if not isinstance(frame, gpd.GeoDataFrame):
         raise InputError(f"must be a GeoDataFrame, got {type(frame).__name__}", argument="frame")
-    target_crs = _crs_or_none(crs) if crs is not None else frame.crs
+    site = _pyproj_crs(crs) if crs is not None else frame.crs
+    factor = plan_unit(site, units)[1] if site is not None else 1.0
+    geometry = shapely.transform(frame.geometry.to_numpy(), lambda xy: xy / factor)
     attrs = labelled_table(pd.DataFrame(frame.drop(columns=frame.geometry.name)), units,
-                           quantities)
-    out = gpd.GeoDataFrame(attrs, geometry=frame.geometry.to_numpy(), crs=target_crs)
+                           quantities, crs=site)
+    out = gpd.GeoDataFrame(attrs, geometry=geometry, crs=site)
     return write_atomic(path, lambda tmp: out.to_file(tmp, driver="GeoJSON"))
 
 
 def write_points_geojson(path, points: pd.DataFrame, units: UnitSystem, *, crs=None,
                          quantities: Mapping[str, str | None] | None = None) -> os.PathLike:
-    """Write a point table (columns ``x``, ``y`` in the site CRS) as GeoJSON points.
+    """Write a point table (``x``, ``y`` in internal metres) as GeoJSON points.
 
     The properties are the same unit-suffixed columns as the CSV.
 
@@ -205,6 +226,5 @@ def write_points_geojson(path, points: pd.DataFrame, units: UnitSystem, *, crs=N
         if col not in points.columns:
             raise InputError(f"point table has no {col!r} column", argument="points")
     geometry = gpd.points_from_xy(points["x"].to_numpy(float), points["y"].to_numpy(float))
-    frame = gpd.GeoDataFrame(points.reset_index(drop=True), geometry=geometry,
-                             crs=_crs_or_none(crs))
-    return write_geojson(path, frame, units, quantities=quantities)
+    frame = gpd.GeoDataFrame(points.reset_index(drop=True), geometry=geometry)
+    return write_geojson(path, frame, units, crs=crs, quantities=quantities)

@@ -40,12 +40,14 @@ def _length(values, units):
 def fill_surface_mesh(thickness, grid: GridSpec, *, ground=None, units: UnitSystem = SI):
     """Top of fill as a quad surface through the cell centres (point data ``thickness``).
 
+    Point ``j * nx + i`` is cell ``[j, i]`` (row 0 south); quads face upward.
+
     Examples
     --------
     >>> g = GridSpec(0.0, 0.0, 2.0, 2.0, nx=3, ny=2)
     >>> m = fill_surface_mesh([[0, 1, 2], [0, 1, 3]], g, ground=10.0)
-    >>> m.n_points, m.n_cells, float(m.points[:, 2].max())
-    (6, 2, 13.0)
+    >>> m.n_points, m.n_cells, m.points[5].tolist(), float(m.point_data["thickness"][5])
+    (6, 2, [5.0, 3.0, 13.0], 3.0)
     """
     import pyvista as pv
 
@@ -53,14 +55,21 @@ def fill_surface_mesh(thickness, grid: GridSpec, *, ground=None, units: UnitSyst
     if t.shape != grid.shape or not np.all(np.isfinite(t)):
         raise InputError(f"must be finite with the grid shape {grid.shape}, got {t.shape}",
                          argument="thickness")
-    z0 = np.zeros_like(t) if ground is None else np.broadcast_to(
-        np.asarray(ground, dtype=float), t.shape)
+    try:
+        z0 = np.zeros_like(t) if ground is None else np.broadcast_to(
+            np.asarray(ground, dtype=float), t.shape)
+    except ValueError:
+        raise InputError(f"must be a number or have the grid shape {grid.shape}",
+                         argument="ground") from None
     if not np.all(np.isfinite(z0)):
         raise InputError("ground elevation must be finite everywhere", argument="ground")
-    x, y = np.meshgrid(_length(grid.x_centres, units), _length(grid.y_centres, units))
-    z = _length(z0 + t, units)
-    surface = pv.StructuredGrid(x, y, z).extract_surface(algorithm=None)
-    # StructuredGrid points run x fastest then y: the C-order ravel of (ny, nx).
+    x, y = np.meshgrid(grid.x_centres, grid.y_centres)
+    xyz = np.column_stack([x.ravel(), y.ravel(), (z0 + t).ravel()])
+    ny, nx = t.shape
+    corner = (np.arange(ny - 1)[:, None] * nx + np.arange(nx - 1)[None, :]).ravel()
+    quads = np.column_stack([np.full(corner.size, 4), corner, corner + 1, corner + 1 + nx,
+                             corner + nx])  # counter-clockwise seen from above
+    surface = pv.PolyData(_length(xyz, units), faces=quads.ravel() if corner.size else None)
     surface.point_data["thickness"] = _length(t, units).ravel()
     surface.field_data["units"] = _units_note(units)
     return surface
