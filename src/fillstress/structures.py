@@ -1,0 +1,362 @@
+"""What settlement means for buildings and pipes: differential settlement, angular
+distortion against Bjerrum's (1963) limits, and differential settlement along pipes.
+
+Inputs are plain arrays in SI units (m, kPa) with one value per sample point, as produced
+from the receptors' sample points; results are frozen dataclasses with an ``as_row()``
+giving a flat dict (column names carry SI unit suffixes) for CSV writers.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from scipy.spatial import Delaunay
+
+from ._validate import finite_array, positive
+from .errors import InputError
+
+# Bjerrum (1963), limiting angular distortions, as reproduced in standard foundation texts.
+BJERRUM_1963_LIMITS = {
+    "no_cracking": 1.0 / 500.0,          # safe limit where no cracking is acceptable
+    "panel_wall_cracking": 1.0 / 300.0,  # first cracking of panel walls expected
+    "structural_damage": 1.0 / 150.0,    # structural damage of general buildings expected
+}
+LIMIT_DESCRIPTIONS = {
+    "no_cracking": "limit where no cracking is acceptable (Bjerrum 1963)",
+    "panel_wall_cracking": "first cracking of panel walls (Bjerrum 1963)",
+    "structural_damage": "structural damage to general buildings (Bjerrum 1963)",
+}
+_COLLINEAR_RATIO = 1e-9
+
+
+# --- adjacency ------------------------------------------------------------------------
+def _plan_points(xy) -> np.ndarray:
+    arr = finite_array(xy, "xy")
+    if arr.ndim != 2 or arr.shape[1] != 2 or arr.shape[0] == 0:
+        raise InputError(f"must have shape (N, 2) for plan x, y with N >= 1, got {arr.shape}",
+                         argument="xy")
+    return arr
+
+
+def _is_collinear(xy: np.ndarray) -> bool:
+    centred = xy - xy.mean(axis=0)
+    sv = np.linalg.svd(centred, compute_uv=False)
+    return sv.size < 2 or sv[1] <= _COLLINEAR_RATIO * max(sv[0], 1e-300)
+
+
+def adjacent_pairs(xy) -> np.ndarray:
+    """Index pairs of neighbouring plan points: the edges of their Delaunay triangulation.
+
+    Points on one line are joined in order along it; one point has no pairs.
+
+    Parameters
+    ----------
+    xy : array_like, shape (N, 2)
+
+    Returns
+    -------
+    ndarray of int, shape (P, 2), each row ``i < j``, rows sorted.
+
+    Examples
+    --------
+    >>> adjacent_pairs([[0, 0], [1, 0], [0, 1]]).tolist()
+    [[0, 1], [0, 2], [1, 2]]
+    >>> adjacent_pairs([[2, 2], [0, 0], [1, 1]]).tolist()    # collinear: along the line
+    [[0, 2], [1, 2]]
+    """
+    pts = _plan_points(xy)
+    n = pts.shape[0]
+    if n < 2:
+        return np.zeros((0, 2), dtype=int)
+    if n == 2 or _is_collinear(pts):
+        centred = pts - pts.mean(axis=0)
+        axis = np.linalg.svd(centred, full_matrices=False)[2][0]
+        order = np.argsort(centred @ axis, kind="stable")
+        edges = np.column_stack([order[:-1], order[1:]])
+    else:
+        tri = Delaunay(pts).simplices
+        edges = np.concatenate([tri[:, [0, 1]], tri[:, [1, 2]], tri[:, [0, 2]]])
+    edges = np.sort(edges, axis=1)
+    return np.unique(edges, axis=0)
+
+
+def _check_pairs(pairs, n: int) -> np.ndarray:
+    arr = np.asarray(pairs)
+    if arr.size == 0:
+        return np.zeros((0, 2), dtype=int)
+    if arr.ndim != 2 or arr.shape[1] != 2 or not np.issubdtype(arr.dtype, np.integer):
+        raise InputError(f"must be integer index pairs of shape (P, 2), got {arr.dtype} {arr.shape}",
+                         argument="pairs")
+    if arr.min() < 0 or arr.max() >= n:
+        raise InputError(f"indices must lie in 0 … {n - 1}, got {arr.min()} … {arr.max()}",
+                         argument="pairs")
+    if np.any(arr[:, 0] == arr[:, 1]):
+        raise InputError("a pair joins a point to itself", argument="pairs")
+    return arr
+
+
+# --- buildings ------------------------------------------------------------------------
+@dataclass(frozen=True)
+class BuildingSettlement:
+    """Settlement summary of one building (SI units: m; distortions are dimensionless).
+
+    ``angular_distortion`` is the largest |Δs| / distance over adjacent point pairs, found
+    between ``distortion_points`` ``distortion_span_m`` apart; with ``tilt_removed`` the
+    best-fit plane (rigid tilt) was subtracted first. ``tilt`` is the slope of that plane.
+    ``exceeded`` lists the limits reached (distortion >= limit), most severe first,
+    ``worst_limit`` the most severe (largest) of them ("" when none); ``limits_checked``
+    names every limit tried.
+    """
+
+    receptor_id: str
+    n_points: int
+    settlement_max_m: float
+    settlement_min_m: float
+    differential_m: float
+    angular_distortion: float
+    distortion_points: tuple[str, str] | None
+    distortion_span_m: float
+    tilt: float
+    tilt_removed: bool
+    exceeded: tuple[str, ...]
+    worst_limit: str
+    limits_checked: tuple[str, ...] = ()
+
+    def as_row(self) -> dict:
+        """A flat dict for one CSV row; limits appear as ``exceeds_<name>`` booleans."""
+        a, b = self.distortion_points or ("", "")
+        row = {"receptor_id": self.receptor_id, "n_points": self.n_points,
+               "settlement_max_m": self.settlement_max_m, "settlement_min_m": self.settlement_min_m,
+               "differential_m": self.differential_m, "angular_distortion": self.angular_distortion,
+               "distortion_point_a": a, "distortion_point_b": b,
+               "distortion_span_m": self.distortion_span_m, "tilt": self.tilt,
+               "tilt_removed": self.tilt_removed, "worst_limit": self.worst_limit}
+        row.update({f"exceeds_{name}": name in self.exceeded for name in self.limits_checked})
+        return row
+
+
+def _best_fit_slope(xy: np.ndarray, s: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Residuals of `s` from its least-squares plane (a line for collinear points), and the
+    plane's gradient (ds/dx, ds/dy)."""
+    n = xy.shape[0]
+    if n < 2:
+        return s - s.mean(), np.zeros(2)
+    centred = xy - xy.mean(axis=0)
+    if _is_collinear(xy):
+        axis = np.linalg.svd(centred, full_matrices=False)[2][0]
+        basis = (centred @ axis)[:, None]
+        directions = axis[None, :]
+    else:
+        basis = centred
+        directions = np.eye(2)
+    design = np.column_stack([np.ones(n), basis])
+    coef = np.linalg.lstsq(design, s, rcond=None)[0]
+    return s - design @ coef, coef[1:] @ directions
+
+
+def _limits(limits) -> dict[str, float]:
+    if limits is None:
+        return dict(BJERRUM_1963_LIMITS)
+    if not isinstance(limits, dict) or not limits:
+        raise InputError("must be a non-empty dict of name → angular distortion limit", argument="limits")
+    return {str(k): positive(v, f"limits[{k!r}]") for k, v in limits.items()}
+
+
+def building_settlement(receptor_id, xy, settlement, point_ids=None, pairs=None,
+                        limits: dict | None = None, remove_tilt: bool = False) -> BuildingSettlement:
+    """Maximum, minimum and differential settlement and the largest angular distortion.
+
+    Parameters
+    ----------
+    receptor_id : str
+    xy : array_like, shape (N, 2)
+        Plan positions (m) of the building's sample points.
+    settlement : array_like, shape (N,)
+        Settlement (m, positive down) at each point.
+    point_ids : sequence of str, optional
+        Names of the points for the report; default "0", "1", …
+    pairs : array_like of int, shape (P, 2), optional
+        Adjacent point pairs; default the Delaunay edges (`adjacent_pairs`).
+    limits : dict, optional
+        Name → limiting angular distortion; default `BJERRUM_1963_LIMITS`.
+    remove_tilt : bool
+        Subtract the best-fit plane (rigid-body tilt) before computing distortion, as in
+        Bjerrum's relative rotation; default False (tilt counts: conservative).
+
+    Examples
+    --------
+    A 20 m wall whose far end settles 50 mm more: distortion 0.05 / 20 = 1/400.
+
+    >>> r = building_settlement("shed", [[0, 0], [10, 0], [20, 0]], [0.010, 0.035, 0.060])
+    >>> round(1 / r.angular_distortion), r.worst_limit, round(r.differential_m, 3)
+    (400, 'no_cracking', 0.05)
+    """
+    pts = _plan_points(xy)
+    s = np.atleast_1d(finite_array(settlement, "settlement"))
+    if s.shape != (pts.shape[0],):
+        raise InputError(f"must have one value per point ({pts.shape[0]}), got shape {s.shape}",
+                         argument="settlement")
+    ids = [str(i) for i in range(s.size)] if point_ids is None else [str(p) for p in point_ids]
+    if len(ids) != s.size:
+        raise InputError(f"must name each of the {s.size} points, got {len(ids)}", argument="point_ids")
+    lim = _limits(limits)
+    edges = adjacent_pairs(pts) if pairs is None else _check_pairs(pairs, s.size)
+    residual, gradient = _best_fit_slope(pts, s)
+    values = residual if remove_tilt else s
+    distortion, worst_pair, span = _largest_distortion(pts, values, edges)
+    exceeded = tuple(name for name, v in sorted(lim.items(), key=lambda kv: kv[1], reverse=True)
+                     if distortion >= v * (1 - 1e-12))      # reached, allowing for rounding
+    worst = max(exceeded, key=lambda name: lim[name]) if exceeded else ""
+    return BuildingSettlement(
+        receptor_id=str(receptor_id), n_points=int(s.size),
+        settlement_max_m=float(s.max()), settlement_min_m=float(s.min()),
+        differential_m=float(s.max() - s.min()), angular_distortion=distortion,
+        distortion_points=None if worst_pair is None else (ids[worst_pair[0]], ids[worst_pair[1]]),
+        distortion_span_m=span, tilt=float(np.hypot(*gradient)), tilt_removed=bool(remove_tilt),
+        exceeded=exceeded, worst_limit=worst, limits_checked=tuple(lim))
+
+
+def _largest_distortion(pts, values, edges):
+    if edges.shape[0] == 0:
+        return 0.0, None, 0.0
+    length = np.hypot(*(pts[edges[:, 1]] - pts[edges[:, 0]]).T)
+    if np.any(length <= 0):
+        i, j = edges[np.argmax(length <= 0)]
+        raise InputError(f"points {i} and {j} share one plan position; remove duplicates",
+                         argument="xy")
+    ratio = np.abs(values[edges[:, 1]] - values[edges[:, 0]]) / length
+    k = int(np.argmax(ratio))
+    return float(ratio[k]), (int(edges[k, 0]), int(edges[k, 1])), float(length[k])
+
+
+# --- pipes ----------------------------------------------------------------------------
+@dataclass(frozen=True)
+class PipeSettlement:
+    """Settlement profile and summary of one pipe (SI: m, kPa).
+
+    ``chainage_m`` and ``settlement_m`` are the profile sorted by chainage.
+    ``differential_max_m`` is the largest |s_i − s_j| over point pairs at most
+    ``differential_length_m`` apart in chainage, between chainages ``differential_between_m``.
+    ``gradient_max`` is the largest |Δs| / Δchainage between consecutive points.
+    """
+
+    receptor_id: str
+    n_points: int
+    chainage_m: np.ndarray
+    settlement_m: np.ndarray
+    settlement_max_m: float
+    chainage_at_max_m: float
+    settlement_min_m: float
+    differential_length_m: float
+    differential_max_m: float
+    differential_between_m: tuple[float, float] | None
+    gradient_max: float
+    dsz_crown_max_kpa: float
+    chainage_at_dsz_max_m: float
+
+    def as_row(self) -> dict:
+        """A flat dict for one CSV row (the profile arrays left out)."""
+        a, b = self.differential_between_m or (float("nan"), float("nan"))
+        return {"receptor_id": self.receptor_id, "n_points": self.n_points,
+                "settlement_max_m": self.settlement_max_m, "chainage_at_max_m": self.chainage_at_max_m,
+                "settlement_min_m": self.settlement_min_m,
+                "differential_length_m": self.differential_length_m,
+                "differential_max_m": self.differential_max_m,
+                "differential_from_chainage_m": a, "differential_to_chainage_m": b,
+                "gradient_max": self.gradient_max, "dsz_crown_max_kPa": self.dsz_crown_max_kpa,
+                "chainage_at_dsz_max_m": self.chainage_at_dsz_max_m}
+
+    def profile_rows(self) -> list[dict]:
+        """One dict per point along the pipe: chainage and settlement."""
+        return [{"receptor_id": self.receptor_id, "chainage_m": float(c), "settlement_m": float(s)}
+                for c, s in zip(self.chainage_m, self.settlement_m)]
+
+
+def largest_differential_within(chainage, settlement, length_m) -> tuple[float, tuple[int, int] | None]:
+    """Largest |s_i − s_j| over pairs with |chainage_i − chainage_j| <= `length_m`.
+
+    Parameters
+    ----------
+    chainage : array_like, shape (N,), strictly increasing
+    settlement : array_like, shape (N,)
+    length_m : float
+
+    Returns
+    -------
+    (float, (i, j) or None)
+        The differential (m) and the indices of the pair, i < j.
+
+    Examples
+    --------
+    >>> largest_differential_within([0, 5, 10, 15], [0.00, 0.01, 0.05, 0.06], 5.0)
+    (0.04, (1, 2))
+    """
+    ch = np.atleast_1d(finite_array(chainage, "chainage"))
+    s = np.atleast_1d(finite_array(settlement, "settlement"))
+    length = positive(length_m, "length_m")
+    if ch.ndim != 1 or s.shape != ch.shape:
+        raise InputError(f"chainage {ch.shape} and settlement {s.shape} must be matching 1-D arrays",
+                         argument="settlement")
+    if np.any(np.diff(ch) <= 0):
+        raise InputError("chainage must be strictly increasing", argument="chainage")
+    reach = length * (1 + 1e-12) + 1e-12
+    ends = np.searchsorted(ch, ch + reach, side="right")
+    best, pair = 0.0, None
+    for i in range(ch.size):
+        window = s[i:ends[i]]
+        if window.size < 2:
+            continue
+        hi, lo = int(np.argmax(window)), int(np.argmin(window))
+        diff = float(window[hi] - window[lo])
+        if diff > best:
+            best, pair = diff, tuple(sorted((i + hi, i + lo)))
+    return best, pair
+
+
+def pipe_settlement(receptor_id, chainage, settlement, dsz_crown, length_m) -> PipeSettlement:
+    """Settlement profile, largest differential over `length_m`, and crown stress increase.
+
+    Parameters
+    ----------
+    receptor_id : str
+    chainage : array_like, shape (N,)
+        Distance (m) along the pipe of each sample point; distinct values, any order.
+    settlement : array_like, shape (N,)
+        Settlement (m) at each point (at the crown depth or of the pipe bed).
+    dsz_crown : array_like, shape (N,)
+        Vertical stress increase (kPa) at the crown.
+    length_m : float
+        Length over which differential settlement is judged (e.g. a pipe section or
+        joint spacing).
+
+    Examples
+    --------
+    >>> r = pipe_settlement("main", [10, 0, 5], [0.03, 0.01, 0.02], [40, 10, 25], 5.0)
+    >>> r.chainage_m.tolist(), round(r.differential_max_m, 3), r.dsz_crown_max_kpa
+    ([0.0, 5.0, 10.0], 0.01, 40.0)
+    """
+    ch = np.atleast_1d(finite_array(chainage, "chainage"))
+    s = np.atleast_1d(finite_array(settlement, "settlement"))
+    q = np.atleast_1d(finite_array(dsz_crown, "dsz_crown"))
+    if ch.ndim != 1 or ch.size == 0:
+        raise InputError(f"must be a non-empty 1-D array, got shape {ch.shape}", argument="chainage")
+    for name, arr in (("settlement", s), ("dsz_crown", q)):
+        if arr.shape != ch.shape:
+            raise InputError(f"must have one value per chainage ({ch.size}), got shape {arr.shape}",
+                             argument=name)
+    order = np.argsort(ch, kind="stable")
+    ch, s, q = ch[order], s[order], q[order]
+    if np.any(np.diff(ch) <= 0):
+        k = int(np.argmax(np.diff(ch) <= 0))
+        raise InputError(f"chainage {ch[k]:g} m appears more than once", argument="chainage")
+    length = positive(length_m, "length_m")
+    diff, pair = largest_differential_within(ch, s, length) if ch.size > 1 else (0.0, None)
+    gradient = float(np.max(np.abs(np.diff(s)) / np.diff(ch))) if ch.size > 1 else 0.0
+    k_max, k_q = int(np.argmax(s)), int(np.argmax(q))
+    return PipeSettlement(
+        receptor_id=str(receptor_id), n_points=int(ch.size), chainage_m=ch, settlement_m=s,
+        settlement_max_m=float(s[k_max]), chainage_at_max_m=float(ch[k_max]),
+        settlement_min_m=float(s.min()), differential_length_m=length,
+        differential_max_m=diff,
+        differential_between_m=None if pair is None else (float(ch[pair[0]]), float(ch[pair[1]])),
+        gradient_max=gradient, dsz_crown_max_kpa=float(q[k_q]), chainage_at_dsz_max_m=float(ch[k_q]))
