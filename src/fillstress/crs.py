@@ -248,3 +248,29 @@ def metric_twin(crs_like) -> pyproj.CRS:
         return crs
     return ProjectedCRS(conversion=crs.coordinate_operation, geodetic_crs=crs.geodetic_crs,
                         cartesian_cs=Cartesian2DCS(), name=f"{crs.name} (metres)")
+
+
+def layer_and_site(layer_crs, site, *, file=None) -> tuple[pyproj.CRS, tuple[pyproj.CRS, float]]:
+    """The CRS a layer is in and the site CRS it goes to, by fillstress's rules.
+
+    A layer without a CRS is taken to be in the site CRS; a site without a CRS adopts
+    the layer's (which must then be projected); both missing is an error naming `file`.
+
+    Examples
+    --------
+    >>> layer, (site, f) = layer_and_site(None, "EPSG:32632")
+    >>> layer.to_epsg(), site.to_epsg(), f
+    (32632, 32632, 1.0)
+    """
+    if site is not None:
+        site = _resolve_site(site)
+        layer = site[0] if layer_crs is None else _horizontal(as_crs(layer_crs, "crs"))
+        return layer, site
+    if layer_crs is None:
+        raise InputError("has no CRS and the site states none; state the site CRS "
+                         "(or the file's)", file=file)
+    try:
+        site = site_crs(layer_crs)
+    except InputError as exc:
+        raise InputError(exc.reason, file=file) from None
+    return site[0], site

@@ -92,6 +92,9 @@ def height_profile(heights, length: float, start_chainage: float = 0.0):
 
 
 def _end_slope(value, argument: str):
+    if value is None:
+        raise InputError(f"state the end: a slope H:V (number) or {VERTICAL!r}",
+                         argument=argument)
     if isinstance(value, str):
         if value.lower() != VERTICAL:
             raise InputError(f"must be a slope H:V (number) or {VERTICAL!r}, got {value!r}",
@@ -155,26 +158,30 @@ class _Embankment:
                                              quad_segs=16)
 
 
-def embankment_thickness(centreline, crest_width: float, side_slope: float, heights,
-                         spec: GridSpec, *, start_slope=None, end_slope=None,
-                         start_chainage: float = 0.0, samples: int = 4) -> np.ndarray:
+def embankment_thickness(centreline, spec: GridSpec, *, crest_width: float,
+                         side_slope: float, heights, start_slope, end_slope,
+                         chainages=None, start_chainage: float = 0.0,
+                         samples: int = 4) -> np.ndarray:
     """Cell-average thickness (m) of an embankment along a centreline.
 
     Parameters
     ----------
     centreline : shapely.LineString
         Plan centreline (m), straight or curved (a polyline); must not cross itself.
+    spec : GridSpec
+        The analysis lattice; the whole embankment must lie inside it.
     crest_width : float
         Crest width w (m), >= 0.
     side_slope : float
         Side slopes n, horizontal per vertical (H:V), > 0.
-    heights : float or sequence of (chainage, height)
-        Crest height (m) — constant, or piecewise linear in chainage (m).
-    spec : GridSpec
-        The analysis lattice; the whole embankment must lie inside it.
-    start_slope, end_slope : float or "vertical", optional
-        End slope (H:V) at the line's first / last vertex, or ``"vertical"`` for a fill
-        stopped by a structure. Default: the side slope.
+    heights : float, sequence of (chainage, height), or sequence of heights
+        Crest height (m): constant, or piecewise linear in chainage (m). With
+        `chainages` given, `heights` is the matching list of heights.
+    start_slope, end_slope : float or "vertical"
+        End at the line's first / last vertex: a slope (H:V, > 0) or ``"vertical"``
+        for a fill stopped by a structure. Both must be stated.
+    chainages : sequence of float, optional
+        Chainages (m) of `heights` when they are given as two separate lists.
     start_chainage : float
         Chainage of the first vertex, the origin of the profile chainages.
     samples : int
@@ -191,8 +198,9 @@ def embankment_thickness(centreline, crest_width: float, side_slope: float, heig
 
     >>> import shapely
     >>> spec = GridSpec(-2.0, -5.0, 0.5, 0.5, 48, 20)
-    >>> t = embankment_thickness(shapely.LineString([(0, 0), (20, 0)]), 4.0, 1.0, 2.0,
-    ...                          spec, start_slope="vertical", end_slope="vertical")
+    >>> t = embankment_thickness(shapely.LineString([(0, 0), (20, 0)]), spec,
+    ...                          crest_width=4.0, side_slope=1.0, heights=2.0,
+    ...                          start_slope="vertical", end_slope="vertical")
     >>> round(float(t.sum() * spec.cell_area), 6)
     240.0
     """
@@ -202,10 +210,15 @@ def embankment_thickness(centreline, crest_width: float, side_slope: float, heig
     if w < 0:
         raise InputError(f"must be >= 0 m, got {crest_width!r}", argument="crest_width")
     n = positive(side_slope, "side_slope")
+    if chainages is not None:
+        if np.ndim(chainages) != 1 or np.shape(heights) != np.shape(chainages):
+            raise InputError("chainages and heights must be lists of the same length",
+                             argument="chainages")
+        heights = list(zip(chainages, heights))
     ch, hts = height_profile(heights, line.length, finite(start_chainage, "start_chainage"))
     if hts.max() <= 0:
         raise InputError("crest height is zero everywhere", argument="heights")
-    start = _end_slope(n if start_slope is None else start_slope, "start_slope")
-    end = _end_slope(n if end_slope is None else end_slope, "end_slope")
+    start = _end_slope(start_slope, "start_slope")
+    end = _end_slope(end_slope, "end_slope")
     body = _Embankment(line, ch, hts, w, n, start, end)
     return cell_average(body.region(), body, spec, samples=samples, argument="centreline")

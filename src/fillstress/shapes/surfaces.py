@@ -17,6 +17,7 @@ as zero thickness), and the points compared are reported.
 """
 from __future__ import annotations
 
+import os
 from dataclasses import dataclass
 
 import numpy as np
@@ -118,8 +119,8 @@ class RasterSurface:
     crs : pyproj.CRS, optional
         Site CRS.
     to_raster : callable, optional
-        ``(x, y) -> (x', y')``: internal metres to the raster's own (metre) frame when
-        the raster was stated in another CRS; None when it is the site frame.
+        ``(x, y) -> (x', y')``: internal metres to the raster's own coordinates when
+        the raster is in another CRS than the site; None when it is the site frame.
     source : str, optional
         File name.
 
@@ -190,24 +191,82 @@ class CutReport:
     cut: str
 
 
+class FunctionSurface:
+    """A surface given by a function ``z(x, y)`` everywhere (e.g. a flat ground).
+
+    Examples
+    --------
+    >>> FunctionSurface(lambda x, y: 0 * x + 5.0).sample(np.array([1.0]), np.array([2.0]))
+    array([5.])
+    """
+
+    def __init__(self, func, crs=None):
+        self.func, self.crs = func, crs
+        self.bounds = (-np.inf, -np.inf, np.inf, np.inf)
+
+    def sample(self, x, y) -> np.ndarray:
+        x = np.asarray(x, dtype=float)
+        return np.broadcast_to(np.asarray(self.func(x, np.asarray(y, dtype=float)),
+                                          dtype=float), x.shape)
+
+
 def check_surface(surface, argument: str):
-    """Refuse an object that does not offer sample(x, y), bounds and crs."""
-    if not (callable(getattr(surface, "sample", None)) and hasattr(surface, "bounds")
-            and hasattr(surface, "crs")):
-        raise InputError("must be a surface with sample(x, y), bounds and crs",
-                         argument=argument)
-    return surface
+    """A surface object as it is, a plain callable ``z(x, y)`` wrapped; refuse the rest."""
+    if callable(getattr(surface, "sample", None)) and hasattr(surface, "bounds") \
+            and hasattr(surface, "crs"):
+        return surface
+    if callable(surface):
+        return FunctionSurface(surface)
+    raise InputError("must be a surface with sample(x, y), bounds and crs, or a "
+                     "callable z(x, y)", argument=argument)
+
+
+def _comparable(crs_like):
+    """CRS in metre form, so a foot site CRS and its metre twin compare equal."""
+    from .. import crs as crsmod
+    c = crsmod.as_crs(crs_like)
+    try:
+        return crsmod.metric_twin(c)
+    except InputError:
+        return c
 
 
 def _check_same_crs(design, existing, spec) -> None:
-    import pyproj
     named = [(n, c) for n, c in (("design", design.crs), ("existing", existing.crs),
                                   ("spec", spec.crs)) if c is not None]
     for (n1, c1), (n2, c2) in zip(named, named[1:]):
-        if not pyproj.CRS.from_user_input(c1).equals(pyproj.CRS.from_user_input(c2)):
-            raise InputError(f"{n1} is in {pyproj.CRS.from_user_input(c1).to_string()} but "
-                             f"{n2} is in {pyproj.CRS.from_user_input(c2).to_string()}; "
-                             "read both into the site CRS", argument=n2)
+        a, b = _comparable(c1), _comparable(c2)
+        if not a.equals(b):
+            raise InputError(f"{n1} is in {a.name!r} but {n2} is in {b.name!r}; read both "
+                             "into the site CRS", argument=n2)
+
+
+def read_surface(path, site_crs=None, *, z_to_m: float = 1.0, surface_name=None, crs=None):
+    """Read a surface file, choosing the reader by its suffix.
+
+    ``.tif``/``.tiff`` → GeoTIFF (:func:`fillstress.io.rasters.read_raster_surface`),
+    ``.xml``/``.landxml`` → LandXML (:func:`fillstress.io.landxml.read_landxml_surface`;
+    `z_to_m` only when the file declares no units), anything else → survey points
+    (:func:`fillstress.io.survey.read_survey_points`).
+
+    Examples
+    --------
+    >>> import tempfile, os
+    >>> f = os.path.join(tempfile.mkdtemp(), "pts.txt")
+    >>> _ = open(f, "w").write("0 0 1\\n10 0 1\\n0 10 1\\n")
+    >>> read_surface(f, "EPSG:32632").bounds
+    (0.0, 0.0, 10.0, 10.0)
+    """
+    suffix = os.path.splitext(str(path))[1].lower()
+    if suffix in (".tif", ".tiff"):
+        from ..io.rasters import read_raster_surface
+        return read_raster_surface(path, site_crs, crs=crs, z_to_m=z_to_m)
+    if suffix in (".xml", ".landxml"):
+        from ..io.landxml import read_landxml_surface
+        return read_landxml_surface(path, site_crs, surface_name=surface_name, crs=crs,
+                                    z_to_m=z_to_m)
+    from ..io.survey import read_survey_points
+    return read_survey_points(path, site_crs, crs=crs, z_to_m=z_to_m)
 
 
 def _overlap(a, b):
@@ -228,7 +287,7 @@ def fill_from_surfaces(design, existing, spec: GridSpec, *, cut: str = "ignore",
 
     Parameters
     ----------
-    design, existing : surface
+    design, existing : surface or callable z(x, y)
         Top of the fill and the existing ground (see the module docstring), same CRS.
     spec : GridSpec
         The analysis lattice.
@@ -251,8 +310,8 @@ def fill_from_surfaces(design, existing, spec: GridSpec, *, cut: str = "ignore",
     >>> t[0].tolist(), rep.volume_fill, rep.volume_cut
     ([0.0, 0.5, 1.5, 2.5], 72.0, 8.0)
     """
-    check_surface(design, "design")
-    check_surface(existing, "existing")
+    design = check_surface(design, "design")
+    existing = check_surface(existing, "existing")
     check_spec(spec)
     samples = check_samples(samples)
     if cut not in CUT_MODES:
@@ -297,7 +356,7 @@ def resample_to_grid(surface, spec: GridSpec, *, samples: int = 4) -> np.ndarray
     >>> resample_to_grid(s, GridSpec(0.0, 0.0, 2.0, 2.0, 3, 1)).tolist()
     [[2.0, 4.0, nan]]
     """
-    check_surface(surface, "surface")
+    surface = check_surface(surface, "surface")
     check_spec(spec)
     samples = check_samples(samples)
     out = np.full(spec.shape, np.nan)
