@@ -50,7 +50,7 @@ def stockpile_yard():
                 material="crushed aggregate"),
     ]
     write_json(d / "pile_toes.geojson", feature_collection(piles, "EPSG:32632"))
-    warehouse = [[x0 + 30, y0 + 2], [x0 + 96, y0 + 2], [x0 + 96, y0 + 30], [x0 + 30, y0 + 30]]
+    warehouse = [[x0 + 30, y0 + 12], [x0 + 96, y0 + 12], [x0 + 96, y0 + 38], [x0 + 30, y0 + 38]]
     write_json(d / "buildings.geojson", feature_collection(
         [polygon(warehouse, id="warehouse", foundation_depth=1.2)], "EPSG:32632"))
 

@@ -62,7 +62,8 @@ def _parser() -> argparse.ArgumentParser:
         c = sub.add_parser(name, help=help_, description=f"{help_}\n\nexample:\n  {example}",
                            formatter_class=argparse.RawDescriptionHelpFormatter)
         c.set_defaults(func=func)
-        c.add_argument("--debug", action="store_true", help=argparse.SUPPRESS)
+        c.add_argument("--debug", action="store_true", default=argparse.SUPPRESS,
+                       help=argparse.SUPPRESS)
         c.add_argument("-q", "--quiet", action="store_true", help="print only errors")
         return c
 

@@ -13,7 +13,9 @@ from rich.table import Table
 class Console:
     def __init__(self, quiet: bool = False):
         self.quiet = quiet
-        self.out = _RichConsole(highlight=False)
+        # Piped output (logs, CI) gets a wide table instead of rich's 80-column default.
+        wide = None if sys.stdout.isatty() else 140
+        self.out = _RichConsole(highlight=False, width=wide)
         self.err = _RichConsole(stderr=True, highlight=False)
 
     def error(self, message: str) -> None:
@@ -77,5 +79,7 @@ def _fmt(v) -> str:
     if isinstance(v, float):
         if v != v:
             return "–"
+        if abs(v) >= 1000:
+            return f"{v:,.0f}"
         return f"{v:.3g}" if abs(v) < 1e-2 and v != 0 else f"{v:,.2f}"
     return str(v)

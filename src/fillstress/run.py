@@ -89,7 +89,7 @@ def _conv_steps(site: Site) -> int:
 def _plan_slices(site: Site, grid, plan):
     """FFT slices on the cell centres of the analysis grid, cut to the plan extent."""
     from .solve import stress_slices
-    xmin, ymin, xmax, ymax = plan.extent
+    xmin, ymin, xmax, ymax = plan.xmin, plan.ymin, plan.xmax, plan.ymax
     gx0, gy0, gx1, gy1 = grid.extent
     pad = max(0.0, gx0 - xmin, gy0 - ymin, xmax - gx1, ymax - gy1)
     da = stress_slices(grid, plan.depths, method=site.method, poisson=site.poisson, pad=pad)
@@ -116,13 +116,20 @@ def convergence_check(site: Site, pts: pd.DataFrame) -> dict:
 
 def _soil_results(res: RunResults) -> None:
     p, soil = res.points, res.site.soil
-    p["sigma_v0"] = soil.sigma_v0_eff(p["depth"].to_numpy(float))
+    # σ'v0 is known only within the stated profile; deeper points get NaN, not a guess.
+    depth = p["depth"].to_numpy(float)
+    inside = depth <= soil.bottom_m
+    sigma = np.full(len(p), np.nan)
+    sigma[inside] = soil.sigma_v0_eff(depth[inside])
+    p["sigma_v0"] = sigma
     with np.errstate(divide="ignore", invalid="ignore"):
         p["stress_ratio"] = np.where(p["sigma_v0"] > 0, p["dsz"] / p["sigma_v0"], np.nan)
     fraction = res.site.config["soil"]["influence_fraction"]
     from .settlement import influence_depth
     for rid, g in p[p["role"].isin(["profile", "borehole"])].groupby("receptor_id", sort=False):
-        g = g.sort_values("depth")
+        g = g[g["sigma_v0"].notna()].sort_values("depth")
+        if len(g) < 2:
+            continue
         z = influence_depth(g["depth"].to_numpy(), g["dsz"].to_numpy(),
                             g["sigma_v0"].to_numpy(), fraction)
         res.profiles.append({"receptor_id": rid, "influence_depth": _float(z),

@@ -71,7 +71,7 @@ class Site:
 
     def fill_thickness(self, stage: int | None = None) -> np.ndarray:
         stage = self.stages[-1] if stage is None else stage
-        return sum((b.signed_thickness() for b in self.bodies if b.stage <= stage),
+        return sum((b.sign * b.thickness for b in self.bodies if b.stage <= stage),
                    self.spec.zeros())
 
     def ground_elevation_grid(self):
@@ -304,10 +304,9 @@ def _embankment(ctx, name, raw, spec):
     chain, heights = np.array(raw["heights"]).T
     end = raw.get("end_slope") or raw["side_slope"]
     return embankment_thickness(
-        line, spec, crest_width=raw["crest_width"], side_slope=raw["side_slope"],
-        chainages=chain, heights=heights,
-        start_slope=None if raw["start_end"] == "vertical" else end,
-        end_slope=None if raw["finish_end"] == "vertical" else end)
+        line, raw["crest_width"], raw["side_slope"], list(zip(chain, heights)), spec,
+        start_slope="vertical" if raw["start_end"] == "vertical" else end,
+        end_slope="vertical" if raw["finish_end"] == "vertical" else end)
 
 
 def _surfaces(ctx, name, raw, spec):

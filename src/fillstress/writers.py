@@ -107,6 +107,8 @@ def stress_summary(points: pd.DataFrame) -> pd.DataFrame:
         row = {"receptor_id": rid, "n_points": len(g), "dsz_max": g.at[k, "dsz"],
                "x_at_max": g.at[k, "x"], "y_at_max": g.at[k, "y"],
                "depth_at_max": g.at[k, "depth"]}
+        if "settlement" in g and g["settlement"].notna().any():
+            row["settlement_max"] = float(np.nanmax(g["settlement"]))
         if "stress_ratio" in g:
             row["stress_ratio_max"] = float(np.nanmax(g["stress_ratio"])) if g["stress_ratio"].notna().any() else np.nan
         rows.append(row)
@@ -118,7 +120,7 @@ def kind_summary(res, kind: str) -> pd.DataFrame:
     summary = stress_summary(pts)
     extra = {"building": building_summary, "pipe": pipe_summary}.get(kind)
     if extra is not None and (res.buildings if kind == "building" else res.pipes):
-        more = extra(res).drop(columns=["n_points"])
+        more = extra(res).drop(columns=["n_points", "settlement_max"])
         summary = summary.merge(more, on="receptor_id", how="left")
     if res.profiles:
         prof = pd.DataFrame(res.profiles)
@@ -128,16 +130,18 @@ def kind_summary(res, kind: str) -> pd.DataFrame:
 
 # --- writing --------------------------------------------------------------------------
 def _q():
-    return {**EXTRA_QUANTITIES, "stress_ratio_max": None,
-            **{c: "settlement" for c in ("settlement",)}}
+    return {**EXTRA_QUANTITIES, "stress_ratio_max": None}
 
 
 def _quantities(frame: pd.DataFrame) -> dict:
+    """Quantity of every numeric column: names carry it (settlement_*, *_at_max, …)."""
     q = dict(_q())
     for c in frame.columns:
-        if c.startswith("settlement_stage"):
+        if c in q or c in tables.DEFAULT_QUANTITIES:
+            continue
+        if c.startswith(("settlement", "differential_settlement")):
             q[c] = "settlement"
-        if c.startswith("exceeds_"):
+        elif c.startswith(("exceeds_", "stress_ratio")):
             q[c] = None
     return q
 
