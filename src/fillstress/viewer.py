@@ -265,7 +265,8 @@ def build_scene(results_dir, *, exaggeration: float = 1.0, quantity: str = "dsz"
     Returns
     -------
     pyvista.Plotter
-        The plotter; its ``fillstress_clim`` attribute holds the colour range used.
+        The plotter. Attributes ``fillstress_clim`` (colour range of `quantity`),
+        ``fillstress_slice_depths`` and ``fillstress_slice_actors`` ((depth, actor) pairs).
 
     Examples
     --------
@@ -290,6 +291,7 @@ def build_scene(results_dir, *, exaggeration: float = 1.0, quantity: str = "dsz"
     import pyvista as pv
     pv.set_new_attribute(plotter, "fillstress_clim", builder.clim)
     pv.set_new_attribute(plotter, "fillstress_slice_depths", builder.slice_depths())
+    pv.set_new_attribute(plotter, "fillstress_slice_actors", list(builder.slice_actors))
     plotter.add_text(_caption(folder, builder, exaggeration), position="upper_left",
                      font_size=9, color="black")
     plotter.view_isometric()
