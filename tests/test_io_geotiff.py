@@ -1,0 +1,69 @@
+"""GeoTIFF writing: north-up flip on an asymmetric array, CRS, nodata, unit conversion."""
+from __future__ import annotations
+
+import numpy as np
+import pytest
+import rasterio
+
+from fillstress import InputError
+from fillstress.grid import GridSpec
+from fillstress.io.geotiff import write_geotiff
+from fillstress.units import US
+
+GRID = GridSpec(4200.0, 9100.0, 2.0, 5.0, nx=4, ny=3, crs="EPSG:32633")
+# Asymmetric: every value distinct, value = 10 * row + column, row 0 = south.
+FIELD = 10.0 * np.arange(3)[:, None] + np.arange(4)[None, :]
+
+
+def test_north_up_flip_and_georeferencing(tmp_path):
+    path = write_geotiff(tmp_path / "fill_thickness.tif", FIELD, GRID, quantity="length",
+                         description="fill thickness")
+    with rasterio.open(path) as src:
+        data = src.read(1)
+        assert src.dtypes == ("float32",) and src.crs.to_epsg() == 32633
+        assert data[0].tolist() == FIELD[-1].tolist()  # first file row = northern row
+        # Sample every cell centre through the transform: value must be the memory cell.
+        for j, y in enumerate(GRID.y_centres):
+            for i, x in enumerate(GRID.x_centres):
+                row, col = src.index(x, y)
+                assert data[row, col] == FIELD[j, i]
+        assert src.bounds == (4200.0, 9100.0, 4208.0, 9115.0)
+        assert src.descriptions == ("fill thickness",)
+        assert src.tags(1)["units"] == "m"
+
+
+def test_nodata_only_where_nan(tmp_path):
+    field = FIELD.copy()
+    field[1, 2] = np.nan
+    path = write_geotiff(tmp_path / "s.tif", field, GRID, quantity="pressure")
+    with rasterio.open(path) as src:
+        assert np.isnan(src.nodata)
+        mask = src.read_masks(1) == 0
+        assert mask.sum() == 1 and mask[3 - 1 - 1, 2]  # memory row 1 of 3 -> file row 1
+
+
+def test_us_pressure_conversion(tmp_path):
+    psf = 0.45359237 * 9.80665 / 0.3048**2 / 1000.0  # kPa per psf, exact definitions
+    path = write_geotiff(tmp_path / "surface_pressure.tif", FIELD * psf, GRID,
+                         quantity="pressure", units=US)
+    with rasterio.open(path) as src:
+        assert src.read(1)[::-1] == pytest.approx(FIELD, rel=1e-6)  # float32
+        assert src.tags(1)["units"] == "psf"
+
+
+def test_survey_foot_crs_transform(tmp_path):
+    f = 1200 / 3937  # US survey foot in m (US Federal Register, 1959 notice)
+    grid = GridSpec(1000 * f, 2000 * f, 10 * f, 10 * f, nx=4, ny=3, crs="EPSG:2263")
+    path = write_geotiff(tmp_path / "t.tif", FIELD, grid, quantity="length", units=US)
+    with rasterio.open(path) as src:
+        assert src.bounds == pytest.approx((1000.0, 2000.0, 1040.0, 2030.0))
+        assert src.crs.to_epsg() == 2263
+
+
+@pytest.mark.parametrize("array, argument", [(np.zeros((4, 3)), "array"),
+                                             (np.full((3, 4), np.inf), "array")])
+def test_bad_arrays(tmp_path, array, argument):
+    with pytest.raises(InputError) as err:
+        write_geotiff(tmp_path / "x.tif", array, GRID, quantity="length")
+    assert err.value.argument == argument
+    assert not list(tmp_path.iterdir())

@@ -1,0 +1,130 @@
+"""Point tables to CSV and GeoJSON: unit suffixes, US conversion, CRS round trips."""
+from __future__ import annotations
+
+import geopandas as gpd
+import numpy as np
+import pandas as pd
+import pyproj
+import pytest
+from shapely.geometry import LineString, box
+
+from fillstress import InputError
+from fillstress.io.tables import (labelled_table, plan_unit, unit_label, write_geojson,
+                                  write_points_geojson, write_table_csv)
+from fillstress.receptors import borehole_points, pipe_points
+from fillstress.units import SI, US
+
+# Exact by definition: international foot 0.3048 m and pound 0.45359237 kg (1959
+# international yard and pound agreement), standard gravity 9.80665 m/s² (3rd CGPM, 1901).
+# 1 psf = 0.45359237 * 9.80665 / 0.3048**2 Pa = 47.880 258 98 Pa; NIST SP 811 (2008)
+# Appendix B lists 4.788 026 E+01 Pa (recalled from memory), consistent with it.
+PSF_IN_KPA = 0.45359237 * 9.80665 / 0.3048**2 / 1000.0
+# 1 kip = 1000 lbf = 4.448 221 615 kN (same definitions; NIST SP 811: 4.448 222 E+03 N).
+KIP_IN_KN = 0.45359237 * 9.80665
+
+
+def _points():
+    pts = pd.concat([pipe_points("Culvert-7", LineString([(0, 0), (9.144, 0)]), 1.524,
+                                 spacing=3.048),
+                     borehole_points("BH-3", 1.0, 2.0, 0.0, 3.048, 3.048)], ignore_index=True)
+    pts["dsz"] = np.linspace(PSF_IN_KPA * 100, PSF_IN_KPA * 600, len(pts))
+    return pts
+
+
+def test_psf_factor_matches_the_published_value():
+    assert PSF_IN_KPA == pytest.approx(0.04788026, rel=1e-6)
+
+
+def test_us_conversion_of_every_quantity_kind():
+    t = pd.DataFrame({"receptor_id": ["B1"], "depth": [3.048], "dsz": [PSF_IN_KPA * 250],
+                      "settlement": [0.0254], "unit_weight": [0.45359237 * 9.80665e-3 / 0.3048**3 * 120],
+                      "volume": [0.3048**3 * 8], "footprint_area": [0.3048**2 * 5],
+                      "total_load": [KIP_IN_KN * 3], "stress_ratio": [0.4], "n_points": [7]})
+    out = labelled_table(t, US).iloc[0]
+    assert out["depth_ft"] == pytest.approx(10.0)
+    assert out["dsz_psf"] == pytest.approx(250.0)
+    assert out["settlement_in"] == pytest.approx(1.0)
+    assert out["unit_weight_pcf"] == pytest.approx(120.0)
+    assert out["volume_ft3"] == pytest.approx(8.0)
+    assert out["footprint_area_ft2"] == pytest.approx(5.0)
+    assert out["total_load_kip"] == pytest.approx(3.0)
+    assert out["stress_ratio"] == 0.4 and out["n_points"] == 7
+
+
+def test_si_labels_and_settlement_in_mm():
+    t = pd.DataFrame({"settlement": [0.0125], "unit_weight": [19.5], "total_load": [10.0]})
+    out = labelled_table(t, SI)
+    assert list(out.columns) == ["settlement_mm", "unit_weight_kN/m3", "total_load_kN"]
+    assert out["settlement_mm"].iloc[0] == pytest.approx(12.5)
+
+
+def test_undeclared_numeric_column_is_refused_and_can_be_declared():
+    t = pd.DataFrame({"receptor_id": ["P"], "wobble": [1.0]})
+    with pytest.raises(InputError, match="'wobble' has no declared quantity"):
+        labelled_table(t, SI)
+    assert list(labelled_table(t, SI, {"wobble": None}).columns) == ["receptor_id", "wobble"]
+    assert list(labelled_table(t, US, {"wobble": "pressure"}).columns) == ["receptor_id",
+                                                                          "wobble_psf"]
+    with pytest.raises(InputError, match="unknown quantity"):
+        labelled_table(t, SI, {"wobble": "speed"})
+
+
+def test_infinite_values_are_refused():
+    with pytest.raises(InputError, match="infinite"):
+        labelled_table(pd.DataFrame({"dsz": [np.inf]}), SI)
+
+
+def test_points_csv_round_trip_in_us_units(tmp_path):
+    pts = _points()
+    path = write_table_csv(tmp_path / "pipes_points.csv", pts, US)
+    back = pd.read_csv(path)
+    assert list(back.columns) == ["receptor_kind", "receptor_id", "point_id", "role", "x_ft",
+                                  "y_ft", "depth_ft", "chainage_ft", "dsz_psf"]
+    assert back["chainage_ft"].iloc[:4].tolist() == pytest.approx([0, 10, 20, 30])
+    assert back["chainage_ft"].iloc[4:].isna().all()  # boreholes have no chainage
+    assert back["depth_ft"].iloc[:4].tolist() == pytest.approx([5.0] * 4)
+    assert back["dsz_psf"].to_numpy() == pytest.approx(np.linspace(100, 600, len(pts)))
+    assert back["point_id"].tolist() == pts["point_id"].tolist()
+
+
+def test_plan_unit_follows_the_crs_not_the_unit_system():
+    # US survey foot = 1200/3937 m (US Federal Register, 1959 notice); EPSG:2263 uses it.
+    assert plan_unit("EPSG:2263", US) == ("ftUS", pytest.approx(1200 / 3937, rel=1e-12))
+    assert plan_unit("EPSG:32633", US) == ("m", 1.0)
+    assert plan_unit(None, SI) == ("m", 1.0)
+    assert unit_label(US, "plan", "EPSG:2263") == "ftUS"
+
+
+def test_points_geojson_in_a_survey_foot_crs_matches_pyproj(tmp_path):
+    # A borehole at E 990 000 ftUS, N 210 000 ftUS in EPSG:2263, held internally in metres.
+    f = 1200 / 3937
+    pts = borehole_points("BH-Harrow", 990000 * f, 210000 * f, 0.0, 3.048, 1.524)
+    path = write_points_geojson(tmp_path / "boreholes_points.geojson", pts, US,
+                                crs="EPSG:2263")
+    back = gpd.read_file(path)
+    assert back.crs.to_epsg() == 2263
+    assert back.geometry.x.to_numpy() == pytest.approx(990000.0, abs=1e-6)
+    assert back["x_ftUS"].to_numpy() == pytest.approx(990000.0, abs=1e-6)
+    assert back["depth_ft"].tolist() == pytest.approx([0.0, 5.0, 10.0])
+    # Georeferencing check independent of fillstress: pyproj's own answer for the point.
+    lon, lat = pyproj.Transformer.from_crs(2263, 4326, always_xy=True).transform(990000, 210000)
+    ll = back.to_crs(4326).geometry.iloc[0]
+    assert (ll.x, ll.y) == (pytest.approx(lon, abs=1e-9), pytest.approx(lat, abs=1e-9))
+
+
+def test_receptor_geometry_geojson_round_trip(tmp_path):
+    frame = gpd.GeoDataFrame({"receptor_id": ["Granary", "Forge"],
+                              "foundation_depth": [1.2, 0.6096]},
+                             geometry=[box(500, 600, 512, 608), box(520, 600, 530, 604)],
+                             crs="EPSG:32633")
+    path = write_geojson(tmp_path / "buildings.geojson", frame, US)
+    back = gpd.read_file(path)
+    assert back.crs.to_epsg() == 32633
+    assert back["receptor_id"].tolist() == ["Granary", "Forge"]
+    assert back["foundation_depth_ft"].tolist() == pytest.approx([1.2 / 0.3048, 2.0])
+    assert back.geometry.iloc[0].equals_exact(box(500, 600, 512, 608), 1e-9)
+
+
+def test_geojson_needs_a_geodataframe(tmp_path):
+    with pytest.raises(InputError):
+        write_geojson(tmp_path / "x.geojson", pd.DataFrame({"a": [1]}), SI)
