@@ -59,11 +59,13 @@ def check_polygonal(geometry, argument: str = "geometry"):
     if not isinstance(geometry, (shapely.Polygon, shapely.MultiPolygon)):
         raise InputError(f"must be a shapely Polygon or MultiPolygon, got "
                          f"{type(geometry).__name__}", argument=argument)
-    if geometry.is_empty or geometry.area <= 0:
-        raise InputError("is empty or has zero area", argument=argument)
+    if geometry.is_empty:
+        raise InputError("is empty", argument=argument)
     if not shapely.is_valid(geometry):
         raise InputError(f"is not a valid polygon ({shapely.is_valid_reason(geometry)})",
                          argument=argument)
+    if geometry.area <= 0:
+        raise InputError("has zero area", argument=argument)
     if not np.all(np.isfinite(shapely.get_coordinates(geometry))):
         raise InputError("has NaN or infinite coordinates", argument=argument)
     return geometry
