@@ -1,0 +1,197 @@
+"""The engineering report and the results-folder reader it stands on.
+
+Data come from tests/results_fixture.py (invented site); expected values are read back
+from the fixture's own files or from the arrays it wrote, never typed in here.
+"""
+from __future__ import annotations
+
+import base64
+import json
+import shutil
+from html.parser import HTMLParser
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from fillstress.errors import InputError
+from fillstress.report import write_report
+from fillstress.report.folder import ResultsFolder
+from fillstress.report.html import SECTIONS, esc
+from results_fixture import NASTY_ID, write_results_folder
+
+
+@pytest.fixture(scope="module")
+def truth(tmp_path_factory):
+    return write_results_folder(tmp_path_factory.mktemp("report") / "run")
+
+
+@pytest.fixture(scope="module")
+def page(truth, tmp_path_factory):
+    path = write_report(truth.path, tmp_path_factory.mktemp("out") / "report.html")
+    text = path.read_text(encoding="utf-8")
+    parsed = _Page()
+    parsed.feed(text)
+    parsed.close()
+    return text, parsed
+
+
+class _Page(HTMLParser):
+    """Collects what the tests look at: tags, section ids, headings, images, text."""
+
+    def __init__(self):
+        super().__init__(convert_charrefs=True)
+        self.tags, self.sections, self.images, self.links = [], {}, [], []
+        self.text, self._heading_for = [], None
+        self.flagged_rows = 0
+
+    def handle_starttag(self, tag, attrs):
+        attrs = dict(attrs)
+        self.tags.append(tag)
+        if tag == "section":
+            self._heading_for = attrs.get("id")
+            self.sections[self._heading_for] = ""
+        if tag == "img":
+            self.images.append(attrs.get("src", ""))
+        if tag in ("a", "link", "script", "iframe") or "href" in attrs:
+            self.links.append((tag, attrs))
+        if tag == "tr" and "flagged" in (attrs.get("class") or ""):
+            self.flagged_rows += 1
+
+    def handle_data(self, data):
+        self.text.append(data)
+        if self._heading_for and self.tags and self.tags[-1] == "h2":
+            self.sections[self._heading_for] += data
+            self._heading_for = None
+
+
+def test_report_has_every_section(page):
+    _, parsed = page
+    for key, heading in SECTIONS:
+        assert parsed.sections.get(key) == heading
+
+
+def test_images_are_embedded_pngs(page, truth):
+    _, parsed = page
+    # 2 plan slices + 2 building profiles + 1 borehole + 1 pipe in the fixture
+    assert len(parsed.images) == len(truth.depths) + len(truth.building_ids) + 2
+    for src in parsed.images:
+        assert src.startswith("data:image/png;base64,")
+        assert base64.b64decode(src.split(",", 1)[1])[:8] == b"\x89PNG\r\n\x1a\n"
+
+
+def test_report_is_self_contained(page):
+    text, parsed = page
+    assert parsed.links == []                       # no <a>, <link>, <script>, href
+    assert "script" not in parsed.tags
+    assert "http://" not in text and "https://" not in text
+
+
+def test_text_from_input_files_is_escaped(page):
+    text, parsed = page
+    assert NASTY_ID in "".join(parsed.text)        # shown, as text
+    assert "<script>" not in text
+    assert esc(NASTY_ID) in text
+    assert "<b>draft</b>" not in text and "<i>only</i>" not in text
+    assert "&lt;b&gt;draft&lt;/b&gt;" in text
+
+
+def test_flags_and_values_in_tables(page, truth):
+    text, parsed = page
+    flagged = 0
+    for kind in ("buildings", "pipes", "boreholes"):
+        df = pd.read_csv(truth.path / f"{kind}_summary.csv", keep_default_na=False)
+        flagged += int((df["flag"].astype(str).str.strip() != "").sum())
+        for value in df["dsz_max_kPa"]:
+            assert f"{value:.4g}" in text
+    assert flagged >= 1                               # the fixture has a flagged building
+    assert parsed.flagged_rows == flagged
+
+
+def test_inputs_convergence_provenance_cautions(page, truth):
+    text, parsed = page
+    body = "".join(parsed.text)
+    bodies = pd.read_csv(truth.path / "bodies.csv")
+    for col in ("volume_m3", "footprint_area_m2", "max_height_m", "total_load_kN"):
+        assert f"{bodies[col][0]:.4g}" in body
+    assert "soft grey clay" in body                   # soil profile from summary.json
+    manifest = json.loads((truth.path / "manifest.json").read_text())
+    for sha in manifest["inputs"].values():
+        assert sha in body
+    assert manifest["version"] in body and manifest["created"] in body
+    conv = json.loads((truth.path / "summary.json").read_text())["convergence"]
+    assert f"{conv['max_change_percent']:.4g}" in body
+    assert "licensed geotechnical engineer" in body
+    assert "Local codes and regulations govern" in body
+    assert "Westergaard" in body and "superposition" in body
+
+
+def test_print_css(page):
+    text, _ = page
+    assert "@media print" in text and "break-before: page" in text and "@page" in text
+
+
+def test_default_path_and_missing_parts(truth, tmp_path):
+    copy = tmp_path / "copy"
+    shutil.copytree(truth.path, copy)
+    summary = json.loads((copy / "summary.json").read_text())
+    del summary["convergence"], summary["soil_profile"]
+    (copy / "summary.json").write_text(json.dumps(summary))
+    path = write_report(copy)
+    assert path == copy / "report.html"
+    text = path.read_text(encoding="utf-8")
+    assert "No convergence check in this results folder" in text
+    assert "No soil profile" in text
+    assert not list(copy.glob(".report.html.partial"))
+
+
+# --- the reader ---------------------------------------------------------------
+
+def test_cube_slices_match_what_was_written(truth):
+    folder = ResultsFolder(truth.path)
+    slices = folder.plan_slices("dsz")
+    assert [s.depth for s in slices] == list(truth.depths)
+    for s, expected in zip(slices, truth.dsz):
+        np.testing.assert_allclose(s.x, truth.x)
+        np.testing.assert_allclose(s.y, truth.y)
+        np.testing.assert_allclose(s.values, expected)
+
+
+def test_geotiff_slices_are_read_north_up(truth, tmp_path):
+    """Without the cube, the slices come from the north-up GeoTIFFs: same values, row 0 south."""
+    copy = tmp_path / "copy"
+    shutil.copytree(truth.path, copy)
+    (copy / "stress_cube.nc").unlink()
+    slices = ResultsFolder(copy).plan_slices("dsz")
+    assert [(s.grid, s.depth) for s in slices] == [("plan", d) for d in truth.depths]
+    for s, expected in zip(slices, truth.dsz):
+        np.testing.assert_allclose(s.y, truth.y)
+        np.testing.assert_allclose(s.values, expected, rtol=1e-6)   # float32 on disk
+    fill = ResultsFolder(copy).fill_thickness()
+    np.testing.assert_allclose(fill.values, truth.thickness, rtol=1e-6)
+
+
+def test_missing_manifest(tmp_path):
+    with pytest.raises(InputError, match="manifest.json: is missing"):
+        ResultsFolder(tmp_path)
+
+
+def test_bad_json(tmp_path):
+    (tmp_path / "manifest.json").write_text("{not json")
+    with pytest.raises(InputError, match="not valid JSON"):
+        ResultsFolder(tmp_path)
+
+
+def test_missing_unit_labels(tmp_path):
+    (tmp_path / "manifest.json").write_text(json.dumps({"units": {"length": "m"}}))
+    with pytest.raises(InputError, match=r"\[units\] lacks label\(s\) pressure"):
+        ResultsFolder(tmp_path)
+
+
+def test_missing_column_is_named(truth, tmp_path):
+    copy = tmp_path / "copy"
+    shutil.copytree(truth.path, copy)
+    p = copy / "boreholes_points.csv"
+    pd.read_csv(p).drop(columns=["depth_m"]).to_csv(p, index=False)
+    with pytest.raises(InputError, match=r"boreholes_points.csv: \[depth_m\]"):
+        write_report(copy)
