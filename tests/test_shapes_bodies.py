@@ -1,0 +1,176 @@
+"""Body statistics, staged pressure (loads add), cell-size rule, and the footprint reader."""
+import json
+
+import geopandas
+import numpy as np
+import pyproj
+import pytest
+import shapely
+
+from fillstress.errors import InputError
+from fillstress.grid import GridSpec
+from fillstress.shapes.bodies import Body, default_cell_size, refine, stage_pressure
+from fillstress.shapes.footprints import footprint_thickness, read_footprints
+
+SPEC = GridSpec(0.0, 0.0, 1.0, 1.0, 10, 8)
+
+
+def _pad(x0, x1, h):
+    return footprint_thickness(shapely.box(x0, 1, x1, 6), h, SPEC)
+
+
+def test_body_stats_from_a_prism():
+    b = Body("west pad", "footprint", 19.5, 1, _pad(0.5, 4.5, 2.0), SPEC)
+    assert b.volume == pytest.approx(4 * 5 * 2.0)
+    assert b.total_load == pytest.approx(19.5 * 40.0)
+    # grid estimate of the area: every touched cell counts whole
+    assert b.footprint_area == pytest.approx(5 * 5)
+    assert Body("w", "footprint", 19.5, 1, b.thickness, SPEC, footprint_area_m2=20.0).footprint_area == 20.0
+    assert b.max_height == pytest.approx(2.0)
+
+
+def test_stage_pressure_stacks_overlapping_bodies():
+    base = Body("base", "footprint", 20.0, 1, _pad(0, 6, 1.0), SPEC)
+    top = Body("surcharge", "footprint", 18.0, 2, _pad(3, 9, 2.0), SPEC)
+    p1 = stage_pressure([base, top], SPEC, 1)
+    p2 = stage_pressure([base, top], SPEC, 2)
+    np.testing.assert_allclose(p1, base.pressure)
+    np.testing.assert_allclose(p2, base.pressure + top.pressure)
+    assert p2[3, 4] == pytest.approx(20.0 * 1.0 + 18.0 * 2.0)  # overlap: loads add
+    assert stage_pressure([base, top], SPEC, 0).sum() == 0.0
+    assert p2.sum() * SPEC.cell_area == pytest.approx(base.total_load + top.total_load)
+
+
+def test_body_and_stage_errors():
+    t = _pad(0, 6, 1.0)
+    cases = [
+        (dict(unit_weight=0.0), "unit_weight"),
+        (dict(stage=-1), "stage"),
+        (dict(stage=1.5), "stage"),
+        (dict(thickness=np.zeros((3, 3))), "shape"),
+        (dict(thickness=np.full(SPEC.shape, np.nan)), "NaN"),
+        (dict(thickness=-t, excavation=True), "positive thickness"),
+        (dict(name=""), "name"),
+    ]
+    base = dict(name="b", kind="footprint", unit_weight=20.0, stage=1, thickness=t, spec=SPEC)
+    for change, message in cases:
+        with pytest.raises(InputError, match=message):
+            Body(**{**base, **change})
+    other = GridSpec(0.0, 0.0, 2.0, 2.0, 5, 4)
+    with pytest.raises(InputError, match="another grid"):
+        stage_pressure([Body(**base)], other, 1)
+    with pytest.raises(InputError, match="not a Body"):
+        stage_pressure(["b"], SPEC, 1)
+
+
+@pytest.mark.parametrize("feature, depth, expected", [
+    (30.0, 4.0, 2.0),      # min(3.0, 2.0)
+    (8.0, None, 0.5),      # 0.8 → 0.5
+    (100.0, 30.0, 10.0),   # min(10, 15)
+    (12.0, 0.9, 0.25),     # 0.45 → 0.25
+    (5000.0, 500.0, 20.0),  # upper bound
+    (0.3, 0.05, 0.1),      # lower bound
+])
+def test_default_cell_size(feature, depth, expected):
+    assert default_cell_size(feature, depth) == expected
+
+
+def test_default_cell_size_and_refine_errors():
+    with pytest.raises(InputError, match="smallest_feature_m"):
+        default_cell_size(0.0, 2.0)
+    with pytest.raises(InputError, match="shallowest_depth_m"):
+        default_cell_size(10.0, -1.0)
+    assert refine(SPEC, 4).shape == (32, 40)
+    with pytest.raises(InputError, match="factor"):
+        refine(SPEC, 1)
+
+
+# --- footprint layers ------------------------------------------------------------------
+def _write(tmp_path, name, frame):
+    path = tmp_path / name
+    frame.to_file(path)
+    return path
+
+
+def test_read_footprints_round_trip_and_foot_target(tmp_path):
+    pads = geopandas.GeoDataFrame(
+        {"name": ["quarry apron", "silo ring"], "height_m": [2.5, 4.0]},
+        geometry=[shapely.box(500000, 6000000, 500040, 6000025),
+                  shapely.Point(500100, 6000050).buffer(12).difference(
+                      shapely.Point(500100, 6000050).buffer(5))],
+        crs="EPSG:32632")
+    path = _write(tmp_path, "pads.geojson", pads)
+    got = read_footprints(path)
+    assert got.height_m.tolist() == [2.5, 4.0]
+    assert got.sloping_top.tolist() == [False, False]
+    np.testing.assert_allclose(got.area, pads.area, rtol=1e-12)
+    # A foot target CRS: internal coordinates are the pyproj coordinates × the foot
+    # factor (pyproj's axis unit_conversion_factor), i.e. metres in that projection.
+    target = pyproj.CRS("EPSG:2229")
+    f = target.axis_info[0].unit_conversion_factor
+    tr = pyproj.Transformer.from_crs(32632, target, always_xy=True)
+    got_ft = read_footprints(path, target_crs=target)
+    x, y = tr.transform(500000.0, 6000000.0)
+    bx = got_ft.geometry[0].exterior.coords
+    assert min(np.hypot(px - x * f, py - y * f) for px, py in bx) < 1e-6
+    assert got_ft.crs.axis_info[0].unit_name == "metre"
+
+
+def test_read_footprints_sloping_from_vertex_z(tmp_path):
+    poly = shapely.Polygon([(0, 0, 1.0), (20, 0, 3.0), (20, 10, 3.0), (0, 10, 1.0)])
+    path = _write(tmp_path, "ramp.geojson",
+                  geopandas.GeoDataFrame({"id": [1]}, geometry=[poly], crs="EPSG:32632"))
+    got = read_footprints(path, height_to_m=0.5)
+    assert bool(got.sloping_top[0]) and got.height_m[0] == pytest.approx(1.5)
+    assert shapely.get_coordinates(got.geometry[0], include_z=True)[1, 2] == pytest.approx(1.5)
+
+
+def _geojson(tmp_path, name, features):
+    doc = {"type": "FeatureCollection", "features": features,
+           "crs": {"type": "name", "properties": {"name": "urn:ogc:def:crs:EPSG::32632"}}}
+    path = tmp_path / name
+    path.write_text(json.dumps(doc))
+    return path
+
+
+def _feature(coords, **props):
+    return {"type": "Feature", "properties": props,
+            "geometry": {"type": "Polygon", "coordinates": [coords]}}
+
+
+SQUARE = [[0, 0], [10, 0], [10, 10], [0, 10], [0, 0]]
+BOWTIE = [[0, 0], [10, 10], [10, 0], [0, 10], [0, 0]]
+
+
+@pytest.mark.parametrize("make, kwargs, message", [
+    (lambda p: p / "missing.geojson", {}, "file not found"),
+    (lambda p: (p / "broken.geojson").write_text("{not json") or p / "broken.geojson", {},
+     "cannot be read"),
+    (lambda p: _geojson(p, "nofeat.geojson", []), {}, "no features"),
+    (lambda p: _geojson(p, "noh.geojson", [_feature(SQUARE, name="a")]), {},
+     "no height attribute"),
+    (lambda p: _geojson(p, "noh2.geojson", [_feature(SQUARE, name="a")]),
+     {"height_field": "fill_m"}, "no height attribute 'fill_m'"),
+    (lambda p: _geojson(p, "neg.geojson", [_feature(SQUARE, height=-1.0)]), {}, "negative"),
+    (lambda p: _geojson(p, "nan.geojson", [_feature(SQUARE, height=None)]), {}, "NaN"),
+    (lambda p: _geojson(p, "bow.geojson", [_feature(BOWTIE, height=1.0)]), {},
+     "not a valid polygon"),
+    # GeoJSON defaults to WGS 84, so the CRS-less case is a shapefile without .prj
+    (lambda p: _write(p, "nocrs.shp", geopandas.GeoDataFrame(
+        {"height": [1.0]}, geometry=[shapely.box(0, 0, 10, 10)])), {}, "no CRS"),
+])
+def test_read_footprints_bad_files(tmp_path, make, kwargs, message):
+    path = make(tmp_path)
+    with pytest.raises(InputError, match=message) as err:
+        read_footprints(path, **kwargs)
+    assert str(path) in str(err.value)
+
+
+def test_read_footprints_geographic_layer_suggests_utm(tmp_path):
+    pad = geopandas.GeoDataFrame({"height": [2.0]}, geometry=[shapely.box(10.50, 59.90, 10.51, 59.905)],
+                                 crs="EPSG:4326")
+    path = _write(tmp_path, "ll.geojson", pad)
+    with pytest.raises(InputError, match="EPSG:32632"):
+        read_footprints(path)
+    got = read_footprints(path, target_crs="EPSG:32632")  # reprojected when a site CRS is given
+    assert got.area[0] == pytest.approx(pad.to_crs(32632).area[0], rel=1e-9)
