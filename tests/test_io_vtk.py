@@ -1,0 +1,108 @@
+"""VTK writers round-trip through pyvista.read."""
+from __future__ import annotations
+
+import geopandas as gpd
+import numpy as np
+import pandas as pd
+import pytest
+import pyvista as pv
+import xarray as xr
+from shapely.geometry import LineString, Polygon, box
+
+from fillstress import InputError
+from fillstress.grid import GridSpec
+from fillstress.io.netcdf import SLICE_DIMS
+from fillstress.io.vtk import (write_boreholes, write_buildings, write_fill_surface,
+                               write_pipes, write_stress_grid)
+from fillstress.receptors import borehole_points, pipe_points
+from fillstress.units import US
+
+GRID = GridSpec(50.0, 80.0, 2.0, 4.0, nx=4, ny=3)
+THICK = 0.5 * np.arange(3)[:, None] + 0.1 * np.arange(4)[None, :]  # asymmetric, row 0 south
+
+
+def test_fill_surface_points_sit_on_ground_plus_thickness(tmp_path):
+    ground = 20.0 + 0.01 * np.arange(12).reshape(3, 4)
+    mesh = pv.read(write_fill_surface(tmp_path / "fill_surface.vtp", THICK, GRID,
+                                      ground=ground))
+    assert mesh.n_points == 12 and mesh.n_cells == 6
+    for j, y in enumerate(GRID.y_centres):
+        for i, x in enumerate(GRID.x_centres):
+            k = mesh.find_closest_point((x, y, ground[j, i] + THICK[j, i]))
+            assert mesh.points[k] == pytest.approx([x, y, ground[j, i] + THICK[j, i]])
+            assert mesh.point_data["thickness"][k] == pytest.approx(THICK[j, i])
+    normals = mesh.compute_normals(cell_normals=True, point_normals=False)
+    assert np.all(normals.cell_data["Normals"][:, 2] > 0)  # quads face up
+
+
+def test_fill_surface_without_ground_and_in_feet(tmp_path):
+    mesh = pv.read(write_fill_surface(tmp_path / "f.vtp", THICK * 0.3048, GRID, units=US))
+    assert mesh.points[:, 2].max() == pytest.approx(THICK.max())
+    assert mesh.points[:, 0].min() == pytest.approx(51.0 / 0.3048)
+    assert list(mesh.field_data["units"]) == ["length=ft", "pressure=psf"]
+
+
+def test_stress_grid_node_values(tmp_path):
+    x, y, d = [0.0, 5.0, 12.0], [100.0, 104.0], [1.0, 3.0, 8.0]
+    values = np.arange(18.0).reshape(3, 2, 3)  # (depth, y, x), all distinct
+    da = xr.DataArray(values, dims=SLICE_DIMS, coords={"depth": d, "y": y, "x": x})
+    mesh = pv.read(write_stress_grid(tmp_path / "stress_plan.vtr", da))
+    assert isinstance(mesh, pv.RectilinearGrid)
+    assert mesh.z.tolist() == [-8.0, -3.0, -1.0]
+    for k, dk in enumerate(d):
+        for j, yj in enumerate(y):
+            for i, xi in enumerate(x):
+                p = mesh.find_closest_point((xi, yj, -dk))
+                assert mesh.points[p] == pytest.approx([xi, yj, -dk])
+                assert mesh.point_data["dsz"][p] == values[k, j, i]
+
+
+def test_buildings_are_closed_prisms_with_the_right_volume(tmp_path):
+    ell = Polygon([(0, 0), (10, 0), (10, 4), (4, 4), (4, 9), (0, 9)])  # area 40 + 20 = 60
+    court = Polygon(box(20, 0, 32, 12).exterior.coords, [box(24, 4, 28, 8).exterior.coords])
+    frame = gpd.GeoDataFrame({"receptor_id": ["Ell", "Court"], "foundation_depth": [2.5, 1.0]},
+                             geometry=[ell, court])
+    mesh = pv.read(write_buildings(tmp_path / "buildings.vtp", frame))
+    assert set(mesh.cell_data["receptor_id"]) == {"Ell", "Court"}
+    for rid, area, depth in (("Ell", 60.0, 2.5), ("Court", 144.0 - 16.0, 1.0)):
+        part = mesh.extract_cells(np.flatnonzero(mesh.cell_data["receptor_id"] == rid))
+        surf = part.extract_surface(algorithm=None).triangulate()
+        assert surf.n_open_edges == 0  # closed
+        assert surf.volume == pytest.approx(area * depth)
+        assert surf.bounds[4:6] == pytest.approx((-depth, 0.0))
+
+
+def test_buildings_in_feet(tmp_path):
+    frame = gpd.GeoDataFrame({"receptor_id": ["B"], "foundation_depth": [0.3048]},
+                             geometry=[box(0, 0, 3.048, 3.048)])
+    mesh = pv.read(write_buildings(tmp_path / "b.vtp", frame, US))
+    assert mesh.triangulate().volume == pytest.approx(100.0)  # 10 ft x 10 ft x 1 ft
+
+
+def test_bad_buildings(tmp_path):
+    frame = gpd.GeoDataFrame({"receptor_id": ["B"], "foundation_depth": [-1.0]},
+                             geometry=[box(0, 0, 1, 1)])
+    with pytest.raises(InputError, match="foundation_depth"):
+        write_buildings(tmp_path / "b.vtp", frame)
+    with pytest.raises(InputError, match="missing column"):
+        write_buildings(tmp_path / "b.vtp", frame.drop(columns="foundation_depth"))
+
+
+def test_pipes_and_boreholes_as_lines(tmp_path):
+    pipe = pipe_points("Main-4", LineString([(0, 0), (20, 0), (20, 10)]), [2.0, 3.0, 1.0],
+                       spacing=6.0)
+    pipe["dsz"] = np.arange(len(pipe), dtype=float)
+    shuffled = pipe.sample(frac=1.0, random_state=3)  # order must come from chainage
+    mesh = pv.read(write_pipes(tmp_path / "pipes.vtp", shuffled))
+    assert mesh.n_lines == 1 and list(mesh.cell_data["receptor_id"]) == ["Main-4"]
+    np.testing.assert_allclose(mesh.points[:, 2], -pipe["depth"].to_numpy())
+    np.testing.assert_allclose(mesh.point_data["chainage"], pipe["chainage"].to_numpy())
+    np.testing.assert_allclose(mesh.point_data["dsz"], pipe["dsz"].to_numpy())
+    line = mesh.lines
+    assert line[0] == len(pipe) and list(line[1:]) == list(range(len(pipe)))
+
+    holes = [borehole_points("H1", 5, 5, 0, 4, 2), borehole_points("H2", 9, 9, 1, 2, 1)]
+    mesh = pv.read(write_boreholes(tmp_path / "boreholes.vtp", pd.concat(holes)))
+    assert mesh.n_lines == 2
+    assert mesh.points[:, 2].tolist() == [-0.0, -2.0, -4.0, -1.0, -2.0]
+    assert "chainage" not in mesh.point_data
