@@ -69,6 +69,15 @@ def _jsonable(value, key: str):
                      argument="settings", key=key)
 
 
+def _text(value, name: str):
+    """A paragraph (str) or a list of statements (list of str), kept as given."""
+    if isinstance(value, str):
+        return value
+    if isinstance(value, (list, tuple)) and all(isinstance(v, str) for v in value):
+        return list(value)
+    raise InputError("must be text or a list of texts", argument=name)
+
+
 def _crs_wkt(crs):
     if crs is None:
         return None
@@ -107,7 +116,8 @@ def output_checksums(folder, *, exclude=(MANIFEST_NAME,)) -> dict[str, str]:
 
 def build_manifest(*, settings: Mapping, units: UnitSystem = SI, inputs: Iterable = (),
                    outputs: Mapping[str, str] | None = None, site_file=None, crs=None,
-                   grid: GridSpec | None = None, assumptions: str = "", cautions: str = "",
+                   grid: GridSpec | None = None, assumptions: str | list = "",
+                   cautions: str | list = "",
                    created: _dt.datetime | None = None) -> dict:
     """The manifest as a JSON-ready dict (see ``docs/results-folder.md``).
 
@@ -139,8 +149,8 @@ def build_manifest(*, settings: Mapping, units: UnitSystem = SI, inputs: Iterabl
         "outputs": dict(outputs or {}),
         "crs": _crs_wkt(crs),
         "grid": _grid_entry(grid, units, crs),
-        "assumptions": str(assumptions),
-        "cautions": str(cautions),
+        "assumptions": _text(assumptions, "assumptions"),
+        "cautions": _text(cautions, "cautions"),
     }
 
 
