@@ -151,3 +151,14 @@ def test_public_influence_functions_validate():
         rectangle_influence(float("nan"), 1, 0, 1, 1.0)
     with pytest.raises(InputError, match="radius"):
         point_influence(-1.0, 1.0)
+
+
+def test_tiny_offsets_keep_their_quadrant_at_the_surface():
+    # a·b of two offsets near 1e-293 underflows to 0; the corner must still be ±1/4
+    tiny = 1.08e-293
+    assert boussinesq.corner(tiny, tiny, 0.0) == 0.25
+    assert boussinesq.corner(-tiny, tiny, 0.0) == -0.25
+    assert westergaard.corner(tiny, tiny, 0.0, 0.7) == 0.25
+    assert shared_corner(tiny, -tiny, 0.0, 1.0, 1.0) == -0.25
+    assert boussinesq.rectangle(tiny, 1.0, tiny, 1.0, 0.0) == 0.0     # a hair outside
+    assert boussinesq.rectangle(-tiny, 1.0, -tiny, 1.0, 0.0) == 1.0   # a hair inside

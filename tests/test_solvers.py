@@ -216,3 +216,12 @@ def test_workers_do_not_change_the_slice():
     one = stress_slices(grid, [1.0], workers=1).values
     two = stress_slices(grid, [1.0], workers=2).values
     np.testing.assert_allclose(one, two, rtol=0, atol=1e-12 * np.abs(one).max())
+
+
+@pytest.mark.parametrize("kernel", ["nodes", "cells"])
+def test_point_a_hair_outside_a_corner(kernel):
+    # found by hypothesis: offsets of 1e-293 made a·b underflow and gave −q/4
+    grid = LoadGrid([[1.0]], x0=0.0, y0=0.0, dx=1.0, dy=1.0)
+    pts = [[-1.08e-293, -1.08e-293, 0.0], [1.08e-293, 1.08e-293, 0.0], [0.0, 0.0, 0.0]]
+    got = vertical_stress(grid, pts, kernel=kernel)
+    np.testing.assert_allclose(got, [0.0, 1.0, 0.25], rtol=0, atol=1e-15)  # outside, inside, corner

@@ -13,7 +13,7 @@ vectorised, validating entry points for other parts of the program.
 
 Both corner functions share one shape, which the fast solvers exploit::
 
-    F = 1/(2π) [ atan2(ab, cR) + s · (b·ac(a) + a·ac(b)) / R ],   R = sqrt(a²+b²+c²)
+    F = 1/(2π) [ atan2(a·b/R, c) + s · (b·ac(a) + a·ac(b)) / R ],   R = sqrt(a²+b²+c²)
 
 with ``ac(t) = t z / (t² + z²)`` and c = z, s = 1 (Boussinesq) or c = ηz, s = 0
 (Westergaard).  :class:`KernelSpec` carries (c/z, s).
@@ -99,7 +99,7 @@ def shared_corner(a, b, z, depth_scale, second_term):
     c = depth_scale * z
     r = max(math.sqrt(a * a + b * b + c * c), 1e-300)  # r = 0 only when a = b = 0
     second = second_term * (b * boussinesq.cross_ratio(a, z) + a * boussinesq.cross_ratio(b, z)) / r
-    return boussinesq.INV_2PI * (math.atan2(a * b, c * r) + second)
+    return boussinesq.INV_2PI * (math.atan2(a * (b / r), c) + second)
 
 
 @numba.njit(cache=True)

@@ -12,7 +12,9 @@ Closed forms per unit surface load (dimensionless influence for areas, 1/m² for
   ``atan2`` stays on the principal branch everywhere, so the classic Newmark (1935)
   "+π when m²n² > m²+n²+1" correction is never needed, and F is odd in a and in b.
   A rectangle x1..x2 × y1..y2 (offsets from the point) is
-  ``F(x2,y2) − F(x1,y2) − F(x2,y1) + F(x1,y1)``.
+  ``F(x2,y2) − F(x1,y2) − F(x2,y1) + F(x1,y1)``.  The code evaluates
+  ``atan2(ab, zR)`` as ``atan2(a·(b/R), z)`` (the same angle, since R > 0) so that the
+  product of two tiny offsets cannot underflow to zero and lose its quadrant.
 
 These are scalar numba functions: they assume valid input (z >= 0) and stay
 branch-light.  The validating public entry points live in ``fillstress.kernels``.
@@ -69,7 +71,8 @@ def corner(a, b, z):
     r = math.hypot(math.hypot(a, b), z)
     if r == 0.0:
         return 0.0
-    first = math.atan2(a * b, z * r)
+    # atan2(ab, zR) written as atan2(a·(b/R), z): same angle, but ab cannot underflow to 0
+    first = math.atan2(a * (b / r), z)
     # abz/R·(1/(a²+z²) + 1/(b²+z²)) regrouped so no 0/0 arises on edges or at z = 0
     second = (b * cross_ratio(a, z) + a * cross_ratio(b, z)) / r
     return INV_2PI * (first + second)

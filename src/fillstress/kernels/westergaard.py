@@ -55,7 +55,10 @@ def corner(a, b, z, eta):
     """
     c = eta * abs(z)  # abs turns -0.0 into +0.0 so atan2 stays in the right half-plane
     r = math.hypot(math.hypot(a, b), c)
-    return INV_2PI * math.atan2(a * b, c * r)
+    if r == 0.0:
+        return 0.0
+    # atan2(ab, cR) as atan2(a·(b/R), c): same angle, but ab cannot underflow to 0
+    return INV_2PI * math.atan2(a * (b / r), c)
 
 
 @numba.njit(cache=True)

@@ -79,8 +79,11 @@ def _node_kernel(points, x_nodes, y_nodes, rows, row_start, cols, values,
                 b_cross = second_term * boussinesq.cross_ratio(b, z)
                 for m in range(row_start[k], row_start[k + 1]):
                     i = cols[m]
-                    r = max(math.sqrt(a_sq[i] + b_sq), 1e-300)  # r = 0 only if a = b = 0
-                    f = math.atan2(a[i] * b, c * r) + (b * a_cross[i] + a[i] * b_cross) / r
+                    # r = 0 only if a = b = 0; atan2(ab, cR) taken as atan2(a·b/R, c)
+                    # so a product of tiny offsets cannot underflow and lose its sign
+                    inv_r = 1.0 / max(math.sqrt(a_sq[i] + b_sq), 1e-300)
+                    f = (math.atan2(a[i] * (b * inv_r), c)
+                         + (b * a_cross[i] + a[i] * b_cross) * inv_r)
                     total += values[m] * f
             out[p] = INV_2PI * total
 

@@ -44,9 +44,9 @@ def _unit_cell_kernel(a_nodes, b_nodes, z, depth_scale, second_term):
         b = b_nodes[j]
         b_cross = second_term * boussinesq.cross_ratio(b, z)
         for i in range(na):
-            r = max(math.sqrt(a_sq[i] + b * b), 1e-300)  # r = 0 only if a = b = 0
-            corner[j, i] = INV_2PI * (math.atan2(a_nodes[i] * b, c * r)
-                                      + (b * a_cross[i] + a_nodes[i] * b_cross) / r)
+            inv_r = 1.0 / max(math.sqrt(a_sq[i] + b * b), 1e-300)  # r = 0 only if a = b = 0
+            corner[j, i] = INV_2PI * (math.atan2(a_nodes[i] * (b * inv_r), c)
+                                      + (b * a_cross[i] + a_nodes[i] * b_cross) * inv_r)
     cell = np.empty((nb - 1, na - 1))
     for j in numba.prange(nb - 1):
         for i in range(na - 1):
