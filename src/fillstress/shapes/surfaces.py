@@ -67,6 +67,8 @@ class TinSurface:
             raise InputError(f"needs at least one triangle, got shape {tri.shape}", **where)
         if tri.min() < 0 or tri.max() >= len(pts):
             raise InputError("a triangle refers to a point that does not exist", **where)
+        if np.any((tri[:, 0] == tri[:, 1]) | (tri[:, 1] == tri[:, 2]) | (tri[:, 0] == tri[:, 2])):
+            raise InputError("a triangle uses the same point twice", **where)
         try:
             self._tri = Triangulation(pts[:, 0], pts[:, 1], tri)
             self._interp = LinearTriInterpolator(self._tri, pts[:, 2])
