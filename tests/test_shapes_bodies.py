@@ -159,6 +159,7 @@ BOWTIE = [[0, 0], [10, 10], [10, 0], [0, 10], [0, 0]]
     (lambda p: _write(p, "nocrs.shp", geopandas.GeoDataFrame(
         {"height": [1.0]}, geometry=[shapely.box(0, 0, 10, 10)])), {}, "no CRS"),
 ])
+@pytest.mark.filterwarnings("ignore:'crs' was not provided")  # the CRS-less file on purpose
 def test_read_footprints_bad_files(tmp_path, make, kwargs, message):
     path = make(tmp_path)
     with pytest.raises(InputError, match=message) as err:
