@@ -17,7 +17,7 @@ import pytest
 from fillstress.errors import InputError
 from fillstress.report import write_report
 from fillstress.report.folder import ResultsFolder
-from fillstress.report.html import SECTIONS, esc
+from fillstress.report.html import SECTIONS, _fmt, esc
 from results_fixture import NASTY_ID, write_results_folder
 
 
@@ -103,7 +103,7 @@ def test_flags_and_values_in_tables(page, truth):
         df = pd.read_csv(truth.path / f"{kind}_summary.csv", keep_default_na=False)
         flagged += int((df["flag"].astype(str).str.strip() != "").sum())
         for value in df["dsz_max_kPa"]:
-            assert f"{value:.4g}" in text
+            assert _fmt(value) in text
     assert flagged >= 1                               # the fixture has a flagged building
     assert parsed.flagged_rows == flagged
 
@@ -113,14 +113,14 @@ def test_inputs_convergence_provenance_cautions(page, truth):
     body = "".join(parsed.text)
     bodies = pd.read_csv(truth.path / "bodies.csv")
     for col in ("volume_m3", "footprint_area_m2", "max_height_m", "total_load_kN"):
-        assert f"{bodies[col][0]:.4g}" in body
+        assert _fmt(bodies[col][0]) in body
     assert "soft grey clay" in body                   # soil profile from summary.json
     manifest = json.loads((truth.path / "manifest.json").read_text())
     for sha in manifest["inputs"].values():
         assert sha in body
     assert manifest["version"] in body and manifest["created"] in body
     conv = json.loads((truth.path / "summary.json").read_text())["convergence"]
-    assert f"{conv['max_change_percent']:.4g}" in body
+    assert _fmt(conv["max_change_percent"]) in body
     assert "licensed geotechnical engineer" in body
     assert "Local codes and regulations govern" in body
     assert "Westergaard" in body and "superposition" in body
@@ -195,3 +195,12 @@ def test_missing_column_is_named(truth, tmp_path):
     pd.read_csv(p).drop(columns=["depth_m"]).to_csv(p, index=False)
     with pytest.raises(InputError, match=r"boreholes_points.csv: \[depth_m\]"):
         write_report(copy)
+
+
+def test_boolean_flag_columns_mark_rows():
+    from fillstress.report.html import html_table
+    table = html_table(["receptor_id", "exceeds_panel_wall_cracking", "worst_limit_reached"],
+                       [["a", False, "none"], ["b", True, "panel wall cracking"]])
+    rows = table.split("<tr")[2:]                     # skip the header row
+    assert 'class="flagged"' not in rows[0]
+    assert 'class="flagged"' in rows[1]

@@ -22,8 +22,8 @@ COLOUR_MAPS = {"dsz": "viridis", "stress_ratio": "plasma", "settlement": "magma"
                "sigma_v0": "viridis", "fill_thickness": "cividis"}
 LAYERS = ("fill", "slices", "points", "buildings", "pipes", "boreholes")
 # Plain-Latin titles: VTK's built-in fonts lack the Greek letters.
-QUANTITY_TITLES = {"dsz": "vertical stress increase", "stress_ratio": "stress ratio dsz/s'v0",
-                   "settlement": "settlement", "sigma_v0": "vertical effective stress s'v0"}
+QUANTITY_TITLES = {"dsz": "stress increase", "stress_ratio": "dsz / s'v0",
+                   "settlement": "settlement", "sigma_v0": "s'v0"}
 
 
 class _Frame:
@@ -126,7 +126,8 @@ class _SceneBuilder:
 
     def _mesh_kwargs(self):
         return dict(cmap=COLOUR_MAPS[self.quantity], clim=self.clim, scalar_bar_args={
-            "title": self.bar_title, "vertical": True, "fmt": "%.3g", "n_labels": 5},
+            "title": self.bar_title, "vertical": True, "fmt": "%.3g", "n_labels": 5,
+            "position_x": 0.84},
             lighting=False)  # unlit, so the colours read exactly against the scalar bar
 
     def add_fill(self):

@@ -62,7 +62,7 @@ body { font-family: "Helvetica Neue", Arial, sans-serif; color: #1d1d1d; margin:
 h1 { font-size: 1.6em; border-bottom: 3px solid #2b4a6f; padding-bottom: .2em; }
 h2 { font-size: 1.25em; color: #2b4a6f; border-bottom: 1px solid #b8c4d2; margin-top: 1.8em; }
 h3 { font-size: 1.05em; margin-bottom: .3em; }
-table { border-collapse: collapse; margin: .5em 0 1em; font-size: .85em; }
+table { border-collapse: collapse; margin: .5em 0 1em; font-size: .85em; max-width: 100%; }
 th, td { border: 1px solid #c9c9c9; padding: .2em .5em; text-align: left; vertical-align: top; }
 th { background: #eef2f6; }
 td.num { text-align: right; font-variant-numeric: tabular-nums; }
@@ -77,6 +77,7 @@ code { font-size: .9em; word-break: break-all; }
 @page { size: A4; margin: 16mm 14mm; }
 @media print {
   body { margin: 0; max-width: none; font-size: 10pt; }
+  table { font-size: 7.5pt; }
   section.new-page { break-before: page; page-break-before: always; }
   thead { display: table-header-group; }
   tr { break-inside: avoid; page-break-inside: avoid; }
@@ -97,13 +98,20 @@ def esc(value) -> str:
 
 
 def _fmt(value) -> str:
-    """A cell value: floats to 4 significant figures, the rest as text (escaped)."""
+    """A cell value: floats to 4 significant figures (2 decimals from 1000 up, so that
+    coordinates keep their precision), the rest as text (escaped).
+
+    Examples
+    --------
+    >>> _fmt(0.012345), _fmt(512363.0), _fmt("<x>")
+    ('0.01235', '512363.00', '&lt;x&gt;')
+    """
     if isinstance(value, (bool, np.bool_)):
         return "yes" if value else "no"
     if isinstance(value, (float, np.floating)):
         if math.isnan(value):
             return ""
-        return esc(f"{value:.4g}")
+        return esc(f"{value:.2f}" if abs(value) >= 1000 else f"{value:.4g}")
     if isinstance(value, (int, np.integer)):
         return esc(value)
     if value is None:
@@ -124,10 +132,22 @@ def _is_flag_set(value) -> bool:
     return str(value).strip().lower() not in ("", "0", "false", "no", "none", "ok")
 
 
+def is_flag_column(name) -> bool:
+    """Columns that flag a receptor: "flag…", "exceeds_…", "…limit_reached".
+
+    Examples
+    --------
+    >>> [is_flag_column(c) for c in ("flag", "exceeds_panel_wall_cracking", "dsz_max_kPa")]
+    [True, True, False]
+    """
+    name = str(name).lower()
+    return "flag" in name or name.startswith("exceeds_") or name.endswith("limit_reached")
+
+
 def html_table(columns, rows) -> str:
     """An HTML table; every cell escaped, numbers right-aligned, flagged rows marked.
 
-    A column whose name contains "flag" marks its row when the value is set.
+    A flag column (:func:`is_flag_column`) marks its row when the value is set.
 
     Examples
     --------
@@ -137,8 +157,10 @@ def html_table(columns, rows) -> str:
     True
     """
     columns = list(columns)
-    flag_idx = [k for k, c in enumerate(columns) if "flag" in str(c).lower()]
-    out = ["<table><thead><tr>", *(f"<th>{esc(c)}</th>" for c in columns), "</tr></thead><tbody>"]
+    flag_idx = [k for k, c in enumerate(columns) if is_flag_column(c)]
+    # <wbr> after underscores lets long column names wrap instead of widening the page.
+    heads = (esc(c).replace("_", "_<wbr>") for c in columns)
+    out = ["<table><thead><tr>", *(f"<th>{h}</th>" for h in heads), "</tr></thead><tbody>"]
     for row in rows:
         flagged = any(_is_flag_set(row[k]) for k in flag_idx)
         out.append('<tr class="flagged">' if flagged else "<tr>")
@@ -242,7 +264,7 @@ class _Report:
             parts.append("<h3>Fill bodies</h3>" + frame_table(bodies))
         else:
             parts.append('<p class="note">No bodies.csv in this results folder.</p>')
-        soil = self.f.summary.get("soil_profile")
+        soil = self.f.summary.get("soil_profile") or self.f.summary.get("soil")
         if soil:
             parts.append("<h3>Soil profile</h3>" + json_block(soil, 4))
         else:
