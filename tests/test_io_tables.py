@@ -9,7 +9,7 @@ import pytest
 from shapely.geometry import LineString, box
 
 from fillstress import InputError
-from fillstress.io.tables import (labelled_table, plan_unit, unit_label, write_geojson,
+from fillstress.io.tables import (crs_unit_label, labelled_table, plan_unit, unit_label, write_geojson,
                                   write_points_geojson, write_table_csv)
 from fillstress.receptors import borehole_points, pipe_points
 from fillstress.units import SI, US
@@ -89,10 +89,13 @@ def test_points_csv_round_trip_in_us_units(tmp_path):
 
 def test_plan_unit_follows_the_crs_not_the_unit_system():
     # US survey foot = 1200/3937 m (US Federal Register, 1959 notice); EPSG:2263 uses it.
-    assert plan_unit("EPSG:2263", US) == ("ftUS", pytest.approx(1200 / 3937, rel=1e-12))
-    assert plan_unit("EPSG:32633", US) == ("m", 1.0)
+    assert plan_unit("EPSG:2263", US) == ("ft", pytest.approx(1200 / 3937, rel=1e-12))
+    assert plan_unit("EPSG:2263", SI) == ("ftUS", pytest.approx(1200 / 3937, rel=1e-12))
+    assert plan_unit("EPSG:32633", US) == ("m", 1.0)  # never "ft" for metres
     assert plan_unit(None, SI) == ("m", 1.0)
-    assert unit_label(US, "plan", "EPSG:2263") == "ftUS"
+    assert plan_unit(None, US) == ("ft", 0.3048)
+    assert unit_label(SI, "plan", "EPSG:2263") == "ftUS"
+    assert crs_unit_label("EPSG:2263") == "ftUS"
 
 
 def test_points_geojson_in_a_survey_foot_crs_matches_pyproj(tmp_path):
@@ -104,7 +107,8 @@ def test_points_geojson_in_a_survey_foot_crs_matches_pyproj(tmp_path):
     back = gpd.read_file(path)
     assert back.crs.to_epsg() == 2263
     assert back.geometry.x.to_numpy() == pytest.approx(990000.0, abs=1e-6)
-    assert back["x_ftUS"].to_numpy() == pytest.approx(990000.0, abs=1e-6)
+    # Column suffix "ft" (the unit system's kind), values in survey feet (the CRS's unit).
+    assert back["x_ft"].to_numpy() == pytest.approx(990000.0, abs=1e-6)
     assert back["depth_ft"].tolist() == pytest.approx([0.0, 5.0, 10.0])
     # Georeferencing check independent of fillstress: pyproj's own answer for the point.
     lon, lat = pyproj.Transformer.from_crs(2263, 4326, always_xy=True).transform(990000, 210000)

@@ -11,7 +11,7 @@ from .atomic import ResultsFolder, write_atomic
 from .geotiff import write_geotiff
 from .manifest import build_manifest, sha256_file, write_manifest
 from .netcdf import stress_dataset, write_stress_cube
-from .tables import (labelled_table, plan_unit, unit_label, write_geojson,
+from .tables import (crs_unit_label, labelled_table, plan_unit, unit_label, write_geojson,
                      write_points_geojson, write_table_csv)
 from .vtk import (write_boreholes, write_buildings, write_fill_surface, write_pipes,
                   write_stress_grid)
@@ -19,7 +19,7 @@ from .vtk import (write_boreholes, write_buildings, write_fill_surface, write_pi
 __all__ = [
     "ResultsFolder", "write_atomic", "write_geotiff", "build_manifest", "sha256_file",
     "write_manifest", "stress_dataset", "write_stress_cube", "labelled_table", "unit_label",
-    "plan_unit", "write_geojson", "write_points_geojson", "write_table_csv",
+    "plan_unit", "crs_unit_label", "write_geojson", "write_points_geojson", "write_table_csv",
     "write_boreholes", "write_buildings", "write_fill_surface", "write_pipes",
     "write_stress_grid",
 ]

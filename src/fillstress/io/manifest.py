@@ -20,7 +20,7 @@ from ..errors import InputError
 from ..grid import GridSpec
 from ..units import SI, UnitSystem
 from .atomic import ResultsFolder, write_atomic
-from .tables import plan_unit
+from .tables import crs_unit_label, plan_unit
 
 MANIFEST_NAME = "manifest.json"
 
@@ -89,13 +89,19 @@ def _crs_wkt(crs):
         raise InputError(f"is not a usable CRS ({exc})", argument="crs") from None
 
 
+def _plan_label(crs, units: UnitSystem) -> str:
+    """The exact unit of plan coordinates (``ftUS`` even where columns say ``ft``)."""
+    return units.length if crs is None else crs_unit_label(crs)
+
+
 def _grid_entry(grid, units: UnitSystem, crs):
     """The lattice in the CRS's plan unit, like the GeoTIFF transforms."""
     if grid is None:
         return None
     if not isinstance(grid, GridSpec):
         raise InputError(f"must be a GridSpec, got {type(grid).__name__}", argument="grid")
-    label, factor = plan_unit(crs, units)
+    factor = plan_unit(crs, units)[1]
+    label = _plan_label(crs, units)
     return {"x0": grid.x0 / factor, "y0": grid.y0 / factor, "dx": grid.dx / factor,
             "dy": grid.dy / factor, "nx": int(grid.nx), "ny": int(grid.ny), "unit": label}
 
@@ -144,7 +150,7 @@ def build_manifest(*, settings: Mapping, units: UnitSystem = SI, inputs: Iterabl
         "settings": _jsonable(dict(settings), ""),
         "units": {"system": units.name, "length": units.length, "pressure": units.pressure,
                   "unit_weight": units.unit_weight, "settlement": units.settlement,
-                  "plan": plan_unit(crs, units)[0]},
+                  "plan": _plan_label(crs, units)},
         "inputs": input_hashes,
         "outputs": dict(outputs or {}),
         "crs": _crs_wkt(crs),

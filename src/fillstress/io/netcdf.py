@@ -18,7 +18,7 @@ from ..errors import InputError
 from ..grid import GridSpec
 from ..units import SI, UnitSystem
 from .atomic import write_atomic
-from .tables import to_output_units, unit_label
+from .tables import crs_unit_label, to_output_units, unit_label
 
 _NAME = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_-]*$")
 SLICE_DIMS = ("depth", "y", "x")
@@ -46,7 +46,8 @@ def _checked_slice(name: str, da):
 def _length_coord(values_m, units, name: str, axis: str, crs) -> tuple:
     """Depth in the unit system's length; plan axes in the CRS's unit (see plan_unit)."""
     quantity = "length" if axis == "depth" else "plan"
-    attrs = {"units": unit_label(units, quantity, crs)}
+    exact = quantity == "plan" and crs is not None
+    attrs = {"units": crs_unit_label(crs) if exact else unit_label(units, quantity, crs)}
     if axis == "depth":
         attrs.update(long_name="depth below existing ground", positive="down")
     else:

@@ -4,7 +4,7 @@ Values arrive in SI (m, kPa, kN/m³, settlement in m) and leave in the site's
 :class:`~fillstress.units.UnitSystem`; each quantity column is renamed ``<name>_<unit>``
 (``depth_m``, ``dsz_psf``, ``unit_weight_kN/m3``). Plan coordinates (``x``, ``y`` and
 GeoJSON geometry) are internal metres scaled to the site CRS's own axis unit, so they are
-the CRS's coordinates; their suffix names that unit (``m``, ``ft``, ``ftUS``).
+the CRS's coordinates; see :func:`plan_unit` for their suffix.
 """
 from __future__ import annotations
 
@@ -36,28 +36,45 @@ _KIP_KN = 1000.0 * PSF_KPA * FOOT**2  # 1 kip = 1000 lbf; lbf = psf × ft²
 _CRS_UNIT_LABELS = {"metre": "m", "foot": "ft", "US survey foot": "ftUS"}
 
 
+def crs_unit_label(crs) -> str:
+    """Short label of a site CRS's axis unit: ``m``, ``ft``, ``ftUS`` or pyproj's name.
+
+    Examples
+    --------
+    >>> crs_unit_label("EPSG:2263"), crs_unit_label("EPSG:32633")
+    ('ftUS', 'm')
+    """
+    from ..crs import site_crs
+    name = site_crs(crs, argument="crs")[0].axis_info[0].unit_name
+    return _CRS_UNIT_LABELS.get(name, name.replace(" ", "_"))
+
+
 def plan_unit(crs, units: UnitSystem = SI) -> tuple[str, float]:
-    """(label, metres per unit) of plan coordinates in the outputs.
+    """(column suffix, metres per unit) of plan coordinates in the outputs.
 
     With a site CRS, plan coordinates are written in the CRS's own axis unit so they match
     the CRS and the engineer's drawings (a US survey foot is not an international foot).
-    Without one they are local lengths in the unit system's length unit.
+    The suffix is the unit system's length label when the CRS unit is that kind of unit
+    (``ft`` for both foot variants, ``m`` for metres), else the CRS unit's own label, so a
+    column is never labelled with a different kind of unit; :func:`crs_unit_label` gives
+    the exact unit. Without a CRS, coordinates are local lengths in the unit system.
 
     Examples
     --------
     >>> from fillstress.units import US
-    >>> plan_unit("EPSG:32633"), plan_unit(None, US)
-    (('m', 1.0), ('ft', 0.3048))
-    >>> label, f = plan_unit("EPSG:2263")  # NAD83 / New York Long Island (ftUS)
-    >>> label, round(f, 12)
-    ('ftUS', 0.304800609601)
+    >>> plan_unit("EPSG:32633"), plan_unit(None, US), plan_unit("EPSG:32633", US)
+    (('m', 1.0), ('ft', 0.3048), ('m', 1.0))
+    >>> label, f = plan_unit("EPSG:2263", US)  # NAD83 / New York Long Island (ftUS)
+    >>> label, round(f, 12), plan_unit("EPSG:2263", SI)[0]
+    ('ft', 0.304800609601, 'ftUS')
     """
     if crs is None:
         return units.length, units.length_to_m
     from ..crs import site_crs
-    proj, factor = site_crs(crs, argument="crs")
-    name = proj.axis_info[0].unit_name
-    return _CRS_UNIT_LABELS.get(name, name.replace(" ", "_")), factor
+    factor = site_crs(crs, argument="crs")[1]
+    label = crs_unit_label(crs)
+    same_kind = {"m": ("m",), "ft": ("ft", "ftUS")}.get(units.length, ())
+    return (units.length if label in same_kind else label), factor
 
 
 def _unit(units: UnitSystem, quantity: str, crs=None) -> tuple[str, float]:
