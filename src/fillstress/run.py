@@ -275,7 +275,9 @@ class RunSummary:
         lines = []
         if r.convergence:
             c = r.convergence
-            lines.append(f"convergence: halving the cell ({c['cell']:g} → {c['fine_cell']:g} m) "
+            u = r.site.units
+            lines.append(f"convergence: halving the cell ({u.length_out(c['cell']):g} → "
+                         f"{u.length_out(c['fine_cell']):g} {u.length}) "
                          f"changes Δσz by at most {100 * c['max_relative_change']:.2f} % "
                          f"(at {c['at_point']})")
         lines.append(f"results written to {self.folder}")

@@ -187,7 +187,7 @@ LAYER = Table("soil.layers", "One soil layer; layers must follow each other with
     Key("cr", "float", "Recompression (swelling) index Cr.", **_POS),
     Key("e0", "float", "Initial void ratio.", **_POS),
     Key("sigma_p", "float", "Preconsolidation stress σ'p.", unit=PRESSURE, **_POS),
-    Key("ocr", "float", "Overconsolidation ratio σ'p/σ'v0 at mid-layer (instead of sigma_p).",
+    Key("ocr", "float", "Overconsolidation ratio σ'p/σ'v0, applied at each depth (instead of sigma_p).",
         minimum=1.0),
     Key("mv", "float", "Coefficient of volume compressibility.", unit=INV_PRESSURE, **_POS),
     Key("modulus", "float", "Constrained (oedometer) modulus.", unit=PRESSURE, **_POS),

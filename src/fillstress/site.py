@@ -304,7 +304,8 @@ def _embankment(ctx, name, raw, spec):
     chain, heights = np.array(raw["heights"]).T
     end = raw.get("end_slope") or raw["side_slope"]
     return embankment_thickness(
-        line, raw["crest_width"], raw["side_slope"], list(zip(chain, heights)), spec,
+        line, spec, crest_width=raw["crest_width"], side_slope=raw["side_slope"],
+        heights=heights, chainages=chain,
         start_slope="vertical" if raw["start_end"] == "vertical" else end,
         end_slope="vertical" if raw["finish_end"] == "vertical" else end)
 

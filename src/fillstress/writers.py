@@ -1,9 +1,9 @@
 """Write a run's results into its results folder (docs/results-folder.md), and the tables
 the command prints. Values are SI inside; the io writers convert to the site's units.
 
-Plan coordinates are written in site-CRS units. The unit-converting writers divide every
-length by the unit system's metre factor, so coordinates handed to them are pre-scaled by
-(unit metres / CRS metres) — the US survey foot is not the international foot.
+Plan coordinates are written in site-CRS units: the io writers take internal metres and
+the site CRS and scale x, y by the CRS's own axis unit (the US survey foot is not the
+international foot). The VTK writers know no CRS, so their coordinates are pre-scaled.
 """
 from __future__ import annotations
 
@@ -14,7 +14,6 @@ import geopandas as gpd
 import numpy as np
 import pandas as pd
 
-from . import crs as crsmod
 from .grid import GridSpec
 from .io import geotiff, manifest, netcdf, tables, vtk
 from .io.atomic import write_atomic
@@ -35,22 +34,15 @@ def _crs_spec(site) -> GridSpec:
     return GridSpec(s.x0 / f, s.y0 / f, s.dx / f, s.dy / f, s.nx, s.ny, site.crs)
 
 
-def _scaled_points(site, points: pd.DataFrame) -> pd.DataFrame:
+def _vtk_points(site, points: pd.DataFrame) -> pd.DataFrame:
+    """x, y scaled so the VTK writers' unit-system conversion yields site-CRS units."""
     k = _coord_scale(site)
     return points.assign(x=points["x"] * k, y=points["y"] * k)
 
 
-def _scaled_slice(site, da):
+def _vtk_slice(site, da):
     k = _coord_scale(site)
     return da.assign_coords(x=da["x"] * k, y=da["y"] * k)
-
-
-def _geometry_out(site, geoms):
-    """Internal-metre geometries → the same geometries in site-CRS units."""
-    if site.crs is None:
-        return list(geoms)
-    return list(crsmod.from_site(np.asarray(list(geoms), dtype=object),
-                                 (site.crs, site.metres_per_unit)))
 
 
 # --- tables ---------------------------------------------------------------------------
@@ -183,15 +175,12 @@ def _write_tables(res, folder) -> None:
         if pts.empty:
             continue
         q = _quantities(pts)
-        out = _scaled_points(site, pts)
-        tables.write_table_csv(folder.path(f"{name}_points.csv"), out, u, q)
-        tables.write_points_geojson(folder.path(f"{name}_points.geojson"), out, u,
+        tables.write_table_csv(folder.path(f"{name}_points.csv"), pts, u, q, crs=site.crs)
+        tables.write_points_geojson(folder.path(f"{name}_points.geojson"), pts, u,
                                     crs=site.crs, quantities=q)
-        summary = kind_summary(res, kind)
-        summary = summary.assign(x_at_max=summary["x_at_max"] * _coord_scale(site),
-                                 y_at_max=summary["y_at_max"] * _coord_scale(site))
+        summary = kind_summary(res, kind).rename(columns={"x_at_max": "x", "y_at_max": "y"})
         tables.write_table_csv(folder.path(f"{name}_summary.csv"), summary, u,
-                               _quantities(summary))
+                               _quantities(summary), crs=site.crs)
         _write_geometry(res, folder, kind, name)
     if res.time_curves:
         rows = [{"receptor_id": rid, "days": d, "settlement": s}
@@ -211,8 +200,7 @@ def _write_geometry(res, folder, kind, name) -> None:
     else:
         attrs = [{"receptor_id": r["id"], "top_depth": r["top"], "bottom_depth": r["bottom"]}
                  for r in items]
-    frame = gpd.GeoDataFrame(attrs, geometry=_geometry_out(site, [r["geometry"] for r in items]),
-                             crs=site.crs)
+    frame = gpd.GeoDataFrame(attrs, geometry=[r["geometry"] for r in items])
     tables.write_geojson(folder.path(f"{name}.geojson"), frame, site.units, crs=site.crs)
 
 
@@ -220,43 +208,41 @@ def _write_rasters(res, folder) -> None:
     site, u = res.site, res.site.units
     if not _output(site, "geotiff"):
         return
-    spec = _crs_spec(site)
+    spec = site.spec                      # internal metres; the writer converts to CRS units
     geotiff.write_geotiff(folder.path("fill_thickness.tif"), site.fill_thickness(), spec,
-                          quantity="length", units=u, description="fill thickness")
+                          quantity="length", units=u, description="fill thickness",
+                          crs=site.crs)
     geotiff.write_geotiff(folder.path("surface_pressure.tif"), res.grid.pressure, spec,
-                          quantity="pressure", units=u, description="surface pressure")
+                          quantity="pressure", units=u, description="surface pressure",
+                          crs=site.crs)
     ground = site.ground_elevation_grid()
     if ground is not None:
         geotiff.write_geotiff(folder.path("ground_elevation.tif"), np.nan_to_num(ground), spec,
-                              quantity="length", units=u, description="existing ground")
+                              quantity="length", units=u, description="existing ground",
+                              crs=site.crs)
     for name, da in res.slices.items():
         sub = _slice_spec(site, da)
         for depth in da["depth"].values:
             label = f"{u.length_out(depth):05.2f}{u.length}"
             geotiff.write_geotiff(folder.path(f"slices/dsz_{name}_z{label}.tif"),
                                   da.sel(depth=depth).values, sub, quantity="pressure",
-                                  units=u, description=f"dsz at depth {label}")
+                                  units=u, description=f"dsz at depth {label}", crs=site.crs)
 
 
 def _slice_spec(site, da) -> GridSpec:
-    """Lattice (site-CRS units) whose cell centres are the slice's x, y coordinates."""
-    f, dx, dy = site.metres_per_unit, site.spec.dx, site.spec.dy
+    """Lattice (internal metres) whose cell centres are the slice's x, y coordinates."""
+    dx, dy = site.spec.dx, site.spec.dy
     x, y = da["x"].values, da["y"].values
-    return GridSpec((x[0] - dx / 2) / f, (y[0] - dy / 2) / f, dx / f, dy / f, len(x), len(y),
-                    site.crs)
+    return GridSpec(x[0] - dx / 2, y[0] - dy / 2, dx, dy, len(x), len(y), site.crs)
 
 
 def _write_cube(res, folder) -> None:
     site = res.site
     if not res.slices or not _output(site, "netcdf"):
         return
-    k = _coord_scale(site)
-    s = site.spec
-    scaled = GridSpec(s.x0 * k, s.y0 * k, s.dx * k, s.dy * k, s.nx, s.ny, site.crs)
-    netcdf.write_stress_cube(folder.path("stress_cube.nc"),
-                             {n: _scaled_slice(site, da) for n, da in res.slices.items()},
-                             grid=scaled, fill_thickness=site.fill_thickness(),
-                             units=site.units, crs=site.crs)
+    netcdf.write_stress_cube(folder.path("stress_cube.nc"), res.slices, grid=site.spec,
+                             fill_thickness=site.fill_thickness(), units=site.units,
+                             crs=site.crs)
 
 
 def _write_vtk(res, folder) -> None:
@@ -270,8 +256,8 @@ def _write_vtk(res, folder) -> None:
     vtk.write_fill_surface(folder.path("vtk/fill_surface.vtp"), site.fill_thickness(), scaled,
                            ground=ground, units=u)
     for name, da in res.slices.items():
-        vtk.write_stress_grid(folder.path(f"vtk/stress_{name}.vtr"), _scaled_slice(site, da), u)
-    pts = _scaled_points(site, res.points)
+        vtk.write_stress_grid(folder.path(f"vtk/stress_{name}.vtr"), _vtk_slice(site, da), u)
+    pts = _vtk_points(site, res.points)
     b = site.receptors.get("buildings", [])
     if b:
         frame = gpd.GeoDataFrame({"receptor_id": [r["id"] for r in b],

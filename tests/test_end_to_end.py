@@ -1,0 +1,195 @@
+"""End to end: each bundled sample site runs from the command line into a temporary
+folder; every output opens with its reader and agrees with an in-process computation."""
+import json
+import shutil
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from fillstress.cli import main
+from fillstress.examples import example_site, list_examples
+from fillstress.site import load_site
+from fillstress.solve import vertical_stress
+
+SITES = ["stockpile_yard", "bridge_approach", "preload_surcharge"]
+
+
+@pytest.fixture(scope="module")
+def runs(tmp_path_factory):
+    root = tmp_path_factory.mktemp("runs")
+    out = {}
+    for name in SITES:
+        folder = root / name
+        code = main(["run", str(example_site(name)), "-o", str(folder), "--quiet"])
+        assert code == 0
+        out[name] = folder
+    return out
+
+
+def test_every_sample_site_is_listed_with_a_readme():
+    names = [row[0] for row in list_examples()]
+    assert names == sorted(SITES)
+    for name in SITES:
+        assert (example_site(name).parent / "README.md").read_text().strip()
+
+
+@pytest.mark.parametrize("name", SITES)
+def test_outputs_exist_and_open(runs, name):
+    import geopandas as gpd
+    import pyvista as pv
+    import rasterio
+    import xarray as xr
+
+    folder = runs[name]
+    manifest = json.loads((folder / "manifest.json").read_text())
+    for rel in manifest["outputs"]:
+        assert (folder / rel).is_file(), rel
+    assert {"manifest.json", "summary.json", "bodies.csv", "report.html", "scene.html",
+            "stress_cube.nc", "fill_thickness.tif"} <= {p.name for p in folder.iterdir()}
+    tifs = sorted((folder / "slices").glob("*.tif"))
+    assert tifs
+    for tif in tifs:
+        with rasterio.open(tif) as src:
+            band = src.read(1)
+            assert src.crs is not None and np.isfinite(band).all() and band.max() > 0
+    with xr.open_dataset(folder / "stress_cube.nc") as cube:
+        assert any(v.startswith("dsz_") for v in cube.data_vars)
+    for vtk_file in (folder / "vtk").iterdir():
+        assert pv.read(vtk_file).n_points > 0
+    for geo in folder.glob("*_points.geojson"):
+        frame = gpd.read_file(geo)
+        assert len(frame) > 0 and frame.crs is not None
+    # no half-written temporary files or partial folders left behind
+    assert not list(folder.parent.glob(".*partial*"))
+    assert not [p for p in folder.rglob("*") if ".tmp" in p.name]
+
+
+@pytest.mark.parametrize("name", SITES)
+def test_point_tables_agree_with_in_process_solution(runs, name):
+    site = load_site(example_site(name))
+    u = site.units
+    p_col, l_col = f"dsz_{u.pressure}", f"depth_{u.length}"
+    for csv in runs[name].glob("*_points.csv"):
+        table = pd.read_csv(csv)
+        xyz = np.column_stack([table[f"x_{u.length}"] * site.metres_per_unit,
+                               table[f"y_{u.length}"] * site.metres_per_unit,
+                               table[l_col] * u.length_to_m])
+        expected = vertical_stress(site.load_grid(), xyz, method=site.method,
+                                   poisson=site.poisson)
+        np.testing.assert_allclose(table[p_col] * u.pressure_to_kpa, expected,
+                                   rtol=1e-6, atol=1e-6 * max(1.0, expected.max()))
+
+
+def test_geotiff_slice_matches_points_in_crs_units(runs):
+    """The US-survey-foot site: raster georeferencing in CRS units, values in psf."""
+    import rasterio
+    site = load_site(example_site("bridge_approach"))
+    tif = sorted((runs["bridge_approach"] / "slices").glob("*z05.00ft.tif"))[0]
+    with rasterio.open(tif) as src:
+        band = src.read(1)
+        row, col = np.unravel_index(np.argmax(band), band.shape)
+        x, y = src.xy(row, col)            # site-CRS units (US survey feet)
+    xyz = [[x * site.metres_per_unit, y * site.metres_per_unit, 5.0 * 0.3048]]
+    expected = vertical_stress(site.load_grid(), xyz)[0] / site.units.pressure_to_kpa
+    assert band[row, col] == pytest.approx(expected, rel=1e-5)
+
+
+@pytest.mark.parametrize("name", SITES)
+def test_every_file_uses_the_same_site_crs_coordinates(runs, name):
+    """CSV, GeoJSON, NetCDF and GeoTIFF agree on plan coordinates (site-CRS units), and the
+    site file's own vertices come back unchanged."""
+    import geopandas as gpd
+    import rasterio
+    import xarray as xr
+    folder = runs[name]
+    u = load_site(example_site(name)).units.length
+    for csv in folder.glob("*_points.csv"):
+        table = pd.read_csv(csv)
+        geo = gpd.read_file(csv.with_suffix(".geojson"))
+        np.testing.assert_allclose(geo.geometry.x, table[f"x_{u}"], rtol=0, atol=1e-6)
+        np.testing.assert_allclose(geo.geometry.y, table[f"y_{u}"], rtol=0, atol=1e-6)
+    with rasterio.open(folder / "fill_thickness.tif") as src, \
+            xr.open_dataset(folder / "stress_cube.nc") as cube:
+        x_first = src.xy(0, 0)[0]
+        assert float(cube["x"][0]) == pytest.approx(x_first, abs=1e-6)
+    if name == "bridge_approach":          # sewer start vertex as typed in site.toml
+        pipe = pd.read_csv(folder / "pipes_points.csv").iloc[0]
+        assert (pipe["x_ft"], pipe["y_ft"]) == pytest.approx((3115473.5, 10071841.2), abs=1e-6)
+        house = gpd.read_file(folder / "buildings.geojson").geometry[0]
+        assert house.exterior.coords[0] == pytest.approx((3115579.7, 10072298.8), abs=1e-6)
+
+
+def test_failed_run_leaves_previous_results_intact(tmp_path, monkeypatch):
+    site = example_site("preload_surcharge")
+    out = tmp_path / "res"
+    assert main(["run", str(site), "-o", str(out), "--quiet", "--no-report"]) == 0
+    before = {p.relative_to(out): p.read_bytes() for p in out.rglob("*") if p.is_file()}
+
+    from fillstress import writers
+
+    def boom(*args, **kwargs):
+        raise RuntimeError("disk pulled out mid-run")
+    monkeypatch.setattr(writers, "_write_vtk", boom)
+    code = main(["run", str(site), "-o", str(out), "--quiet", "--no-report", "--overwrite"])
+    assert code == 1
+    after = {p.relative_to(out): p.read_bytes() for p in out.rglob("*") if p.is_file()}
+    assert after == before
+    assert not list(tmp_path.glob(".*partial*"))
+
+
+def test_existing_results_are_not_overwritten_without_asking(tmp_path, capsys):
+    out = tmp_path / "res"
+    out.mkdir()
+    (out / "keep.txt").write_text("earlier run")
+    code = main(["run", str(example_site("preload_surcharge")), "-o", str(out), "--quiet"])
+    assert code == 2
+    assert "--overwrite" in capsys.readouterr().err
+    assert (out / "keep.txt").read_text() == "earlier run"
+
+
+def _copy_site(tmp_path, name="stockpile_yard"):
+    dst = tmp_path / name
+    shutil.copytree(example_site(name).parent, dst)
+    return dst / "site.toml"
+
+
+@pytest.mark.parametrize("edit, words", [
+    (lambda t: t.replace('file = "buildings.geojson"', 'file = "missing.geojson"'),
+     "file not found"),
+    (lambda t: t.replace("repose_angle = 37.0", "repose_angel = 37.0"),
+     "did you mean 'repose_angle'"),
+    (lambda t: t + '\n[ground]\nelevation = 10.0\n[[buildings]]\nid = "kiosk"\n'
+                   'outline = [[512300, 5763500], [512305, 5763500], [512305, 5763505]]\n'
+                   'foundation_elevation = 12.0\n', "above"),
+])
+def test_bad_input_exits_2_with_one_line(tmp_path, capsys, edit, words):
+    site = _copy_site(tmp_path)
+    site.write_text(edit(site.read_text()))
+    code = main(["check", str(site)])
+    err = capsys.readouterr().err.strip()
+    assert code == 2
+    assert words in err and len(err.splitlines()) == 1 and "Traceback" not in err
+
+
+def test_empty_receptor_layer_is_refused(tmp_path, capsys):
+    site = _copy_site(tmp_path)
+    (site.parent / "buildings.geojson").write_text(
+        '{"type": "FeatureCollection", "features": []}')
+    assert main(["check", str(site)]) == 2
+    err = capsys.readouterr().err
+    assert "no features" in err and "buildings.geojson" in err
+
+
+def test_missing_site_file(tmp_path, capsys):
+    assert main(["run", str(tmp_path / "nope.toml")]) == 2
+    assert "site file not found" in capsys.readouterr().err
+
+
+def test_point_command_matches_library(capsys):
+    site = load_site(example_site("preload_surcharge"))
+    assert main(["point", str(example_site("preload_surcharge")), "452100", "218300", "5"]) == 0
+    printed = capsys.readouterr().out
+    expected = vertical_stress(site.load_grid(), [[452100.0, 218300.0, 5.0]])[0]
+    assert f"{expected:.2f}" in printed
