@@ -1,0 +1,245 @@
+"""Time and memory of a run, estimated from its sizes before anything is allocated.
+
+Memory figures count the arrays the solvers allocate (numpy and numba), from their
+shapes; time figures use throughputs measured on a 2-core development machine and are
+meant for "seconds, minutes or hours", not for scheduling.  :func:`check_capacity`
+raises :class:`~fillstress.errors.CapacityError` with the numbers when a run cannot fit.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import scipy.fft
+
+from ._validate import positive
+from .errors import CapacityError, InputError
+
+# Throughputs on the development machine (2 cores, both threads), common practice to
+# keep such constants beside the code that uses them; refreshed by benchmarks/bench_scale.py.
+CORNERS_PER_SECOND = 6.0e7       # node-kernel corner evaluations, direct summation
+FAR_SECONDS_PER_POINT = 6.0e-5   # far-field walk at the default accuracy, per point
+FFT_FLOPS_PER_SECOND = 1.5e9     # scipy.fft real transforms, 5 n log2 n flops each
+_FLOAT = 8
+_COMPLEX = 16
+_MIN_TILE = 16
+
+
+@dataclass(frozen=True)
+class Estimate:
+    """What a run needs: peak bytes, seconds and a one-line description.
+
+    Examples
+    --------
+    >>> e = Estimate("slices", 3 * 2**30, 12.0, "1000 × 1000 cells, 5 depths")
+    >>> e.gigabytes
+    3.2
+    """
+
+    operation: str
+    bytes: int
+    seconds: float
+    detail: str
+
+    @property
+    def gigabytes(self) -> float:
+        return round(self.bytes / 1e9, 1)
+
+    def __str__(self) -> str:
+        return f"{self.operation}: {format_bytes(self.bytes)}, about {self.seconds:.3g} s ({self.detail})"
+
+
+def format_bytes(n: float) -> str:
+    """Bytes in decimal units with one decimal.
+
+    Examples
+    --------
+    >>> format_bytes(31.2e9), format_bytes(2048), format_bytes(12)
+    ('31.2 GB', '2.0 kB', '12 B')
+    """
+    for unit, size in (("TB", 1e12), ("GB", 1e9), ("MB", 1e6), ("kB", 1e3)):
+        if n >= size:
+            return f"{n / size:.1f} {unit}"
+    return f"{int(n)} B"
+
+
+def _count(value, name: str, minimum: int = 0) -> int:
+    if isinstance(value, bool) or not isinstance(value, int) and not hasattr(value, "__index__"):
+        raise InputError(f"must be a whole number, got {value!r}", argument=name)
+    value = int(value)
+    if value < minimum:
+        raise InputError(f"must be >= {minimum}, got {value}", argument=name)
+    return value
+
+
+def _shape(shape, name: str = "shape") -> tuple[int, int]:
+    try:
+        ny, nx = shape
+    except (TypeError, ValueError):
+        raise InputError(f"must be (ny, nx), got {shape!r}", argument=name) from None
+    return _count(ny, name, 1), _count(nx, name, 1)
+
+
+def _fft_seconds(n: int) -> float:
+    return 5.0 * n * math.log2(max(n, 2)) / FFT_FLOPS_PER_SECOND
+
+
+def fft_working_bytes(tile_shape, out_shape) -> int:
+    """Peak bytes of one exact FFT slice of a (ny, nx) load array onto an (my, mx) lattice.
+
+    Counts the pressure spectrum, the node corner array and the unit-cell kernel, the
+    kernel spectrum, a transform temporary and the inverse transform.
+
+    Examples
+    --------
+    >>> fft_working_bytes((100, 100), (100, 100)) > 0
+    True
+    """
+    ny, nx = _shape(tile_shape, "tile_shape")
+    my, mx = _shape(out_shape, "out_shape")
+    fy = scipy.fft.next_fast_len(ny + my - 1, real=True)
+    fx = scipy.fft.next_fast_len(nx + mx - 1, real=True)
+    spectrum = _COMPLEX * fy * (fx // 2 + 1)
+    real = _FLOAT * fy * fx
+    nodes = _FLOAT * (ny + my) * (nx + mx)
+    return 3 * spectrum + 2 * real + 2 * nodes
+
+
+def estimate_slices(shape, n_depths: int, *, pad_cells=(0, 0), tile=None) -> Estimate:
+    """Estimate exact FFT slices of an (ny, nx) grid at `n_depths` depths.
+
+    Parameters
+    ----------
+    shape : (int, int)
+        Grid cells (ny, nx).
+    n_depths : int
+        Number of depths.
+    pad_cells : (int, int)
+        Extra sample columns and rows on each side (``pad_x, pad_y``).
+    tile : (int, int), optional
+        Tile size (ty, tx) in cells for :func:`fillstress.solve.tiled.tiled_slices`;
+        None for one untiled transform.
+
+    Examples
+    --------
+    >>> e = estimate_slices((1000, 1000), 5)
+    >>> e.bytes > 5 * 1000 * 1000 * 8      # output plus the transforms
+    True
+    >>> estimate_slices((1000, 1000), 5, tile=(250, 250)).bytes < e.bytes
+    True
+    """
+    ny, nx = _shape(shape)
+    n_depths = _count(n_depths, "n_depths", 1)
+    pad_x, pad_y = (_count(v, "pad_cells") for v in pad_cells)
+    my, mx = ny + 2 * pad_y, nx + 2 * pad_x
+    output = _FLOAT * n_depths * my * mx
+    if tile is None:
+        work = fft_working_bytes((ny, nx), (my, mx))
+        fy = scipy.fft.next_fast_len(ny + my - 1, real=True)
+        fx = scipy.fft.next_fast_len(nx + mx - 1, real=True)
+        seconds = (1 + 2 * n_depths) * _fft_seconds(fy * fx)
+        return Estimate("slices", output + work, seconds,
+                        f"{ny} × {nx} cells, {n_depths} depth(s), one transform of {fy} × {fx}")
+    ty, tx = _shape(tile, "tile")
+    pairs = math.ceil(ny / ty) * math.ceil(nx / tx) * math.ceil(my / ty) * math.ceil(mx / tx)
+    fy = scipy.fft.next_fast_len(2 * ty - 1, real=True)
+    fx = scipy.fft.next_fast_len(2 * tx - 1, real=True)
+    work = fft_working_bytes((ty, tx), (ty, tx)) + _FLOAT * n_depths * ty * tx
+    seconds = pairs * (1 + 2 * n_depths) * _fft_seconds(fy * fx)
+    return Estimate("slices-tiled", output + work, seconds,
+                    f"{ny} × {nx} cells, {n_depths} depth(s), tiles of {ty} × {tx}, "
+                    f"at most {pairs} tile pairs")
+
+
+def estimate_points(shape, n_points: int, *, algorithm: str = "direct", order: int = 4) -> Estimate:
+    """Estimate Δσz at `n_points` points below an (ny, nx) grid.
+
+    ``algorithm="direct"`` counts every grid node for every point (an upper bound:
+    nodes inside uniform fill are skipped); ``"far"`` the block pyramid and a
+    per-point walk.
+
+    Examples
+    --------
+    >>> d = estimate_points((1000, 1000), 100_000, algorithm="direct")
+    >>> f = estimate_points((1000, 1000), 100_000, algorithm="far")
+    >>> d.seconds > 100 * f.seconds
+    True
+    """
+    ny, nx = _shape(shape)
+    n_points = _count(n_points, "n_points")
+    cells, nodes = ny * nx, (ny + 1) * (nx + 1)
+    point_arrays = n_points * (3 + 1 + 1) * _FLOAT
+    if algorithm == "direct":
+        # node weights, padded pressure, compressed rows (int64 column + float value)
+        memory = _FLOAT * nodes + _FLOAT * (ny + 2) * (nx + 2) + 16 * nodes + point_arrays
+        seconds = n_points * nodes / CORNERS_PER_SECOND
+        return Estimate("points-direct", memory, seconds,
+                        f"{cells} cells, {n_points} points, direct summation")
+    if algorithm == "far":
+        from .solve.farfield import pyramid_blocks
+        n_mom = (order + 1) * (order + 2) // 2
+        n_terms = sum(n - 2 * m + 1 for n in range(order + 1) for m in range(n // 2 + 1))
+        blocks = pyramid_blocks(nx, ny)
+        # level-0 boxes, masses and moments while building; blocks keep centre,
+        # half-diagonal, mass and weights; two levels of raw moments at a time
+        build = cells * _FLOAT * (4 + 2 + 2 + n_mom)
+        memory = build + blocks * _FLOAT * (4 + n_terms + n_mom) + point_arrays + n_points * 24
+        seconds = n_points * FAR_SECONDS_PER_POINT * max(1.0, math.log2(max(cells, 2)) / 20.0)
+        return Estimate("points-far", memory, seconds,
+                        f"{cells} cells, {n_points} points, far-field order {order}")
+    raise InputError(f"must be 'direct' or 'far', got {algorithm!r}", argument="algorithm")
+
+
+def check_capacity(estimate: Estimate, memory_cap, *, hint: str = "") -> Estimate:
+    """Raise CapacityError when `estimate` needs more than `memory_cap` bytes.
+
+    Examples
+    --------
+    >>> check_capacity(Estimate("slices", 31_200_000_000, 1.0, ""), 8e9, hint="use tiles")
+    Traceback (most recent call last):
+    ...
+    fillstress.errors.CapacityError: slices needs 31.2 GB, cap is 8.0 GB; use tiles
+    """
+    if memory_cap is None:
+        return estimate
+    cap = positive(memory_cap, "memory_cap")
+    if estimate.bytes > cap:
+        tail = f"; {hint}" if hint else ""
+        raise CapacityError(f"{estimate.operation} needs {format_bytes(estimate.bytes)}, "
+                            f"cap is {format_bytes(cap)}{tail}")
+    return estimate
+
+
+def largest_tile(shape, n_depths: int, memory_cap, *, pad_cells=(0, 0)) -> tuple[int, int]:
+    """The largest square-ish tile (ty, tx) whose tiled slice run fits in `memory_cap` bytes.
+
+    Raises CapacityError when even the output alone, or a tile of 16 × 16 cells, does not fit.
+
+    Examples
+    --------
+    >>> largest_tile((4000, 4000), 5, 2e9)
+    (2000, 2000)
+    >>> largest_tile((4000, 4000), 5, 1e8)
+    Traceback (most recent call last):
+    ...
+    fillstress.errors.CapacityError: slices-tiled needs 640.0 MB, cap is 100.0 MB; the output alone does not fit: fewer depths or a coarser cell
+    """
+    ny, nx = _shape(shape)
+    cap = positive(memory_cap, "memory_cap")
+    pad_x, pad_y = (_count(v, "pad_cells") for v in pad_cells)
+    output = Estimate("slices-tiled", _FLOAT * _count(n_depths, "n_depths", 1)
+                      * (ny + 2 * pad_y) * (nx + 2 * pad_x), 0.0, "output only")
+    check_capacity(output, cap, hint="the output alone does not fit: fewer depths or a coarser cell")
+    parts = 1  # halve the tile side until the working set fits
+    while True:
+        ty, tx = math.ceil(ny / parts), math.ceil(nx / parts)
+        est = estimate_slices((ny, nx), n_depths, pad_cells=(pad_x, pad_y), tile=(ty, tx))
+        if est.bytes <= cap:
+            return ty, tx
+        if max(ty, tx) <= _MIN_TILE:
+            check_capacity(est, cap, hint="a coarser cell or fewer depths")
+        parts *= 2
+
+
+__all__ = ["Estimate", "estimate_slices", "estimate_points", "check_capacity",
+           "largest_tile", "fft_working_bytes", "format_bytes"]
