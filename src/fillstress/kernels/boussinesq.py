@@ -37,6 +37,9 @@ def cross_ratio(a, z):
     >>> cross_ratio(1.0, 1.0), cross_ratio(0.0, 0.0), cross_ratio(3.0, 0.0)
     (0.5, 0.0, 0.0)
     """
+    s = a * a + z * z
+    if s > 1e-290:  # the usual case; below this the squares may have underflowed
+        return a * z / s
     h = math.hypot(a, z)
     if h == 0.0:
         return 0.0
@@ -68,9 +71,11 @@ def corner(a, b, z):
     (-0.25, 0.0)
     """
     z = abs(z)  # turns -0.0 into +0.0 so atan2 stays in the right half-plane
-    r = math.hypot(math.hypot(a, b), z)
-    if r == 0.0:
-        return 0.0
+    r = math.sqrt(a * a + b * b + z * z)
+    if r < 1e-145:  # squares may have underflowed: recompute without them
+        r = math.hypot(math.hypot(a, b), z)
+        if r == 0.0:
+            return 0.0
     # atan2(ab, zR) written as atan2(a·(b/R), z): same angle, but ab cannot underflow to 0
     first = math.atan2(a * (b / r), z)
     # abz/R·(1/(a²+z²) + 1/(b²+z²)) regrouped so no 0/0 arises on edges or at z = 0

@@ -54,9 +54,11 @@ def corner(a, b, z, eta):
     -0.25
     """
     c = eta * abs(z)  # abs turns -0.0 into +0.0 so atan2 stays in the right half-plane
-    r = math.hypot(math.hypot(a, b), c)
-    if r == 0.0:
-        return 0.0
+    r = math.sqrt(a * a + b * b + c * c)
+    if r < 1e-145:  # squares may have underflowed: recompute without them
+        r = math.hypot(math.hypot(a, b), c)
+        if r == 0.0:
+            return 0.0
     # atan2(ab, cR) as atan2(a·(b/R), c): same angle, but ab cannot underflow to 0
     return INV_2PI * math.atan2(a * (b / r), c)
 

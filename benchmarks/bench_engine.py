@@ -1,0 +1,144 @@
+"""Stress-engine benchmark: direct summation throughput, FFT slice time, slice memory.
+
+Run from the repository root (warms the numba cache first, prints a Markdown table):
+
+    PYTHONPATH=src python benchmarks/bench_engine.py
+    PYTHONPATH=src python benchmarks/bench_engine.py --cells 300 --points 8000 --slice-size 1000
+
+Targets on the 2-core development machine: direct >= 1.0e8 cell-point pairs/s and
+>= 4x the numpy reference; one 1000x1000 slice <= 1 s; <= 1.5 GB peak for 20 slices.
+"""
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import resource
+import subprocess
+import sys
+import time
+import tracemalloc
+from pathlib import Path
+
+import numpy as np
+
+ROOT = Path(__file__).resolve().parents[1]
+sys.path.insert(0, str(ROOT / "src"))
+sys.path.insert(0, str(ROOT / "tests"))
+
+import reference  # noqa: E402
+from fillstress import LoadGrid  # noqa: E402
+from fillstress.solve import stress_slices, vertical_stress  # noqa: E402
+
+
+def best_time(fn, repeat: int) -> float:
+    """Shortest of `repeat` runs (s): the least disturbed by other load on the machine."""
+    times = []
+    for _ in range(repeat):
+        t = time.perf_counter()
+        fn()
+        times.append(time.perf_counter() - t)
+    return min(times)
+
+
+def fills(n: int, seed: int = 0):
+    """A ragged fill (every node weight non-zero) and a uniform one, n x n cells of 1 m."""
+    rng = np.random.default_rng(seed)
+    ragged = LoadGrid(rng.uniform(10.0, 120.0, (n, n)), 0.0, 0.0, 1.0, 1.0)
+    uniform = LoadGrid(np.full((n, n), 60.0), 0.0, 0.0, 1.0, 1.0)
+    return {"ragged": ragged, "uniform": uniform}
+
+
+def sample_points(n: int, extent: float, seed: int = 1) -> np.ndarray:
+    rng = np.random.default_rng(seed)
+    return np.column_stack([rng.uniform(-5, extent + 5, n), rng.uniform(-5, extent + 5, n),
+                            rng.uniform(0.5, 20.0, n)])
+
+
+def bench_direct(args) -> list[tuple[str, str, str]]:
+    rows = []
+    for name, grid in fills(args.cells).items():
+        n_cells = grid.pressure.size
+        pts = sample_points(args.points, args.cells)
+        few = pts[:args.reference_points]
+        # numpy reference, same fill, fewer points
+        t_ref = best_time(lambda: reference.grid_stress(grid.pressure, 0, 0, 1, 1, few), 1)
+        ref_rate = n_cells * len(few) / t_ref
+        for kernel, n_pts in (("nodes", args.points), ("cells", args.cell_points)):
+            p = pts[:n_pts]
+            vertical_stress(grid, p[:2], kernel=kernel)            # compiled code warm
+            t = best_time(lambda: vertical_stress(grid, p, kernel=kernel), args.repeat)
+            rate = n_cells * n_pts / t
+            rows.append((f"direct, {kernel} kernel, {name} fill {args.cells}x{args.cells}, "
+                         f"{n_pts} points", f"{rate:.3g} pairs/s", f"{rate / ref_rate:.1f}x numpy"))
+        rows.append((f"direct, numpy reference, {name} fill, {len(few)} points",
+                     f"{ref_rate:.3g} pairs/s", "1.0x"))
+    return rows
+
+
+def bench_slice(args) -> list[tuple[str, str, str]]:
+    n = args.slice_size
+    grid = fills(n)["ragged"]
+    stress_slices(LoadGrid(np.ones((8, 8)), 0, 0, 1, 1), [1.0])      # compiled code warm
+    t = best_time(lambda: stress_slices(grid, [5.0], workers=args.workers), args.repeat)
+    return [(f"FFT slice, {n}x{n} grid at {n}x{n} points, 1 depth", f"{t:.3f} s",
+             "target <= 1 s")]
+
+
+def memory_child(n: int, n_depths: int, workers) -> dict:
+    """Run in a fresh process: peak memory of `n_depths` slices of an n x n grid."""
+    grid = fills(n)["ragged"]
+    stress_slices(LoadGrid(np.ones((8, 8)), 0, 0, 1, 1), [1.0])
+    base_rss = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+    tracemalloc.start()
+    t = time.perf_counter()
+    da = stress_slices(grid, np.linspace(1.0, 20.0, n_depths), workers=workers)
+    elapsed = time.perf_counter() - t
+    _, peak = tracemalloc.get_traced_memory()
+    tracemalloc.stop()
+    return {"base_rss_mb": base_rss,
+            "peak_rss_mb": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024,
+            "traced_peak_mb": peak / 2**20, "output_mb": da.nbytes / 2**20, "seconds": elapsed}
+
+
+def bench_memory(args) -> list[tuple[str, str, str]]:
+    cmd = [sys.executable, __file__, "--memory-child", "--slice-size", str(args.slice_size),
+           "--depths", str(args.depths)] + (["--workers", str(args.workers)] if args.workers else [])
+    env = dict(os.environ, PYTHONPATH=str(ROOT / "src"))
+    out = json.loads(subprocess.run(cmd, check=True, capture_output=True, text=True,
+                                    env=env).stdout.strip().splitlines()[-1])
+    n = args.slice_size
+    label = f"{args.depths} slices of {n}x{n}"
+    return [(f"peak RSS, {label} (process, after imports {out['base_rss_mb']:.0f} MB)",
+             f"{out['peak_rss_mb']:.0f} MB", "target <= 1536 MB"),
+            (f"peak traced allocations, {label} (output {out['output_mb']:.0f} MB)",
+             f"{out['traced_peak_mb']:.0f} MB", ""),
+            (f"time, {label}", f"{out['seconds']:.2f} s", "")]
+
+
+def main(argv=None) -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--cells", type=int, default=200, help="direct: fill is cells x cells")
+    parser.add_argument("--points", type=int, default=5000, help="direct: points, node kernel")
+    parser.add_argument("--cell-points", type=int, default=500, help="direct: points, cell kernel")
+    parser.add_argument("--reference-points", type=int, default=20, help="numpy reference points")
+    parser.add_argument("--slice-size", type=int, default=1000, help="slice grid is n x n")
+    parser.add_argument("--depths", type=int, default=20, help="slices in the memory run")
+    parser.add_argument("--workers", type=int, default=None, help="scipy.fft threads")
+    parser.add_argument("--repeat", type=int, default=3)
+    parser.add_argument("--skip-memory", action="store_true")
+    parser.add_argument("--memory-child", action="store_true", help=argparse.SUPPRESS)
+    args = parser.parse_args(argv)
+    if args.memory_child:
+        print(json.dumps(memory_child(args.slice_size, args.depths, args.workers)))
+        return
+    rows = bench_direct(args) + bench_slice(args)
+    if not args.skip_memory:
+        rows += bench_memory(args)
+    print("| case | result | note |\n|---|---|---|")
+    for case, result, note in rows:
+        print(f"| {case} | {result} | {note} |")
+
+
+if __name__ == "__main__":
+    main()
