@@ -7,14 +7,11 @@ from .errors import InputError
 
 
 def sample_sites_dir() -> Path:
-    """Folder of the bundled sample sites, installed or in a source checkout."""
-    try:
-        from importlib.resources import files
-        folder = Path(str(files("fillstress.sample_sites")))
-        if folder.is_dir():
-            return folder
-    except (ModuleNotFoundError, TypeError):
-        pass
+    """Folder of the bundled sample sites: installed beside this module (package data
+    fillstress/sample_sites), or at the top of a source checkout."""
+    installed = Path(__file__).resolve().parent / "sample_sites"
+    if installed.is_dir():
+        return installed
     return Path(__file__).resolve().parents[2] / "sample_sites"
 
 

@@ -265,9 +265,27 @@ def _build_body(ctx: _Context, name: str, raw: dict, spec: GridSpec):
     where = f"bodies.{name}"
     with _located(ctx.cfg, where):
         thickness = _BUILDERS[raw["kind"]](ctx, name, raw, spec)
+        area, peak = _exact_size(ctx, name, raw)
         return bd.Body(name=name, kind=raw["kind"], unit_weight=raw["unit_weight"],
                        stage=raw["stage"], thickness=thickness, spec=spec,
-                       excavation=raw["excavation"])
+                       excavation=raw["excavation"], footprint_area_m2=area, max_height_m=peak)
+
+
+def _exact_size(ctx, name, raw) -> tuple[float | None, float | None]:
+    """Footprint area and peak height known from the geometry itself (None: take the
+    grid's estimate)."""
+    kind, outline = raw["kind"], ctx.outlines.get(name)
+    if kind == "pile":
+        radius = shapely.maximum_inscribed_circle(outline).length   # centre → toe distance
+        peak = np.tan(np.radians(raw["repose_angle"])) * radius
+        if raw.get("crest_height") is not None:
+            peak = min(peak, raw["crest_height"])
+        return outline.area, float(peak)
+    if kind == "footprint" and raw.get("height") is not None and raw.get("file") is None:
+        return outline.area, raw["height"]
+    if kind == "embankment":
+        return None, float(max(h for _, h in raw["heights"]))
+    return None, None
 
 
 def _pile(ctx, name, raw, spec):

@@ -28,12 +28,6 @@ def _coord_scale(site) -> float:
     return site.units.length_to_m / site.metres_per_unit
 
 
-def _crs_spec(site) -> GridSpec:
-    """The analysis lattice in site-CRS units (for GeoTIFF transforms)."""
-    f, s = site.metres_per_unit, site.spec
-    return GridSpec(s.x0 / f, s.y0 / f, s.dx / f, s.dy / f, s.nx, s.ny, site.crs)
-
-
 def _vtk_points(site, points: pd.DataFrame) -> pd.DataFrame:
     """x, y scaled so the VTK writers' unit-system conversion yields site-CRS units."""
     k = _coord_scale(site)
@@ -155,7 +149,7 @@ def write_all(res, folder, *, report=True, progress=silent, assumptions="", caut
         bar.advance()
         fields = dict(settings=_settings(site), units=site.units,
                       inputs=site.config.input_files(), site_file=site.path,
-                      crs=site.crs, grid=_crs_spec(site), assumptions=assumptions,
+                      crs=site.crs, grid=site.spec, assumptions=assumptions,
                       cautions=cautions)
         if report:
             # The report and scene read the folder through the same contract as any
