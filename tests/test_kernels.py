@@ -162,3 +162,23 @@ def test_tiny_offsets_keep_their_quadrant_at_the_surface():
     assert shared_corner(tiny, -tiny, 0.0, 1.0, 1.0) == -0.25
     assert boussinesq.rectangle(tiny, 1.0, tiny, 1.0, 0.0) == 0.0     # a hair outside
     assert boussinesq.rectangle(-tiny, 1.0, -tiny, 1.0, 0.0) == 1.0   # a hair inside
+
+
+def test_fast_atan_matches_libm():
+    from fillstress.kernels import fast_atan
+    rng = np.random.default_rng(8)
+    xs = np.concatenate([rng.standard_normal(20000) * 10.0 ** rng.integers(-30, 30, 20000),
+                         [0.0, -0.0, 0.66, -0.66, 2.414213562373095, 1.0, -1.0, 1e300,
+                          5e-324, np.inf, -np.inf]])
+    for x in xs:
+        expected = math.atan(x)
+        assert abs(fast_atan(x) - expected) <= 4e-16 * abs(expected)
+
+
+def test_corner_angle_matches_atan2_for_non_negative_c():
+    from fillstress.kernels import corner_angle
+    for y in (-3.0, -1e-200, -0.0, 0.0, 1e-300, 0.5, 7.0, 1e200):
+        for c in (0.0, 1e-300, 1e-10, 0.3, 2.0, 1e6):
+            inv_c = 1.0 / c if c > 0 else math.inf
+            expected = math.atan2(y, c)
+            assert corner_angle(y, c, inv_c) == pytest.approx(expected, rel=4e-16, abs=0)

@@ -21,7 +21,7 @@ import numpy as np
 from .._validate import finite_array, points_array, positive
 from ..errors import InputError
 from ..grid import LoadGrid
-from ..kernels import KernelSpec, boussinesq, resolve_method, westergaard
+from ..kernels import KernelSpec, boussinesq, corner_angle, resolve_method, westergaard
 
 INV_2PI = boussinesq.INV_2PI
 
@@ -67,6 +67,7 @@ def _node_kernel(points, x_nodes, y_nodes, rows, row_start, cols, values,
         for p in range(chunk * n_points // n_chunks, (chunk + 1) * n_points // n_chunks):
             z = abs(points[p, 2])
             c = depth_scale * z
+            inv_c = 1.0 / c if c > 0.0 else math.inf
             for i in range(x_nodes.size):
                 ai = x_nodes[i] - points[p, 0]
                 a[i] = ai
@@ -82,7 +83,7 @@ def _node_kernel(points, x_nodes, y_nodes, rows, row_start, cols, values,
                     # r = 0 only if a = b = 0; atan2(ab, cR) taken as atan2(a·b/R, c)
                     # so a product of tiny offsets cannot underflow and lose its sign
                     inv_r = 1.0 / max(math.sqrt(a_sq[i] + b_sq), 1e-300)
-                    f = (math.atan2(a[i] * (b * inv_r), c)
+                    f = (corner_angle(a[i] * (b * inv_r), c, inv_c)
                          + (b * a_cross[i] + a[i] * b_cross) * inv_r)
                     total += values[m] * f
             out[p] = INV_2PI * total

@@ -22,7 +22,7 @@ import xarray as xr
 
 from .._validate import depths_array, finite, finite_array, positive
 from ..errors import InputError
-from ..kernels import KernelSpec, boussinesq, resolve_method
+from ..kernels import KernelSpec, boussinesq, corner_angle, resolve_method
 from .direct import _checked_grid
 
 INV_2PI = boussinesq.INV_2PI
@@ -33,6 +33,7 @@ def _unit_cell_kernel(a_nodes, b_nodes, z, depth_scale, second_term):
     """G[j, i] = F(b_j+1, a_i+1) − F(a_i, b_j+1) − F(a_i+1, b_j) + F(a_i, b_j), F on nodes."""
     z = abs(z)
     c = depth_scale * z
+    inv_c = 1.0 / c if c > 0.0 else math.inf
     na, nb = a_nodes.size, b_nodes.size
     a_sq = np.empty(na)
     a_cross = np.empty(na)
@@ -45,7 +46,7 @@ def _unit_cell_kernel(a_nodes, b_nodes, z, depth_scale, second_term):
         b_cross = second_term * boussinesq.cross_ratio(b, z)
         for i in range(na):
             inv_r = 1.0 / max(math.sqrt(a_sq[i] + b * b), 1e-300)  # r = 0 only if a = b = 0
-            corner[j, i] = INV_2PI * (math.atan2(a_nodes[i] * (b * inv_r), c)
+            corner[j, i] = INV_2PI * (corner_angle(a_nodes[i] * (b * inv_r), c, inv_c)
                                       + (b * a_cross[i] + a_nodes[i] * b_cross) * inv_r)
     cell = np.empty((nb - 1, na - 1))
     for j in numba.prange(nb - 1):
