@@ -193,3 +193,13 @@ def test_point_command_matches_library(capsys):
     printed = capsys.readouterr().out
     expected = vertical_stress(site.load_grid(), [[452100.0, 218300.0, 5.0]])[0]
     assert f"{expected:.2f}" in printed
+
+
+def test_run_on_a_local_dask_cluster_equals_the_serial_run(runs, tmp_path):
+    out = tmp_path / "dask"
+    site = example_site("preload_surcharge")
+    assert main(["run", str(site), "-o", str(out), "--quiet", "--no-report",
+                 "--workers", "1"]) == 0
+    for csv in runs["preload_surcharge"].glob("*_points.csv"):
+        pd.testing.assert_frame_equal(pd.read_csv(out / csv.name), pd.read_csv(csv),
+                                      check_exact=False, rtol=1e-12)

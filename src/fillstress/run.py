@@ -45,28 +45,35 @@ class RunResults:
     time_curves: dict = field(default_factory=dict)  # receptor_id → (years, settlement m)
     convergence: dict = field(default_factory=dict)
     timings: dict = field(default_factory=dict)
+    client: object = None                            # Dask client while computing
 
 
-def stress(site: Site, grid, xyz: np.ndarray) -> np.ndarray:
-    """Δσz (kPa) at (N, 3) points for a load grid, with the site's method."""
-    from .solve import vertical_stress
+def stress(site: Site, grid, xyz: np.ndarray, client=None) -> np.ndarray:
+    """Δσz (kPa) at (N, 3) points for a load grid, with the site's method: direct
+    summation, or the far-field method for very large problems (solve.auto), on Dask
+    workers when a client is given."""
+    from .solve.auto import stress_at_points as serial
     if len(xyz) == 0:
         return np.zeros(0)
-    return vertical_stress(grid, xyz, method=site.method, poisson=site.poisson)
+    if client is not None:
+        from .distributed import distributed_points
+        return distributed_points(grid, xyz, site.method, site.poisson, client=client)
+    return serial(grid, xyz, site.method, site.poisson)
 
 
-def compute(site: Site, progress=silent) -> RunResults:
-    """Every number of a run, in SI; nothing is written."""
+def compute(site: Site, progress=silent, client=None) -> RunResults:
+    """Every number of a run, in SI; nothing is written. `client`: a Dask client to
+    spread the point and slice work over (results equal the serial path)."""
     t0 = time.perf_counter()
     grid = site.load_grid()
     pts = site.points.copy()
     steps = 2 + len(site.plan_grids) + (2 if site.soil is not None else 0) + _conv_steps(site)
     with progress("computing", steps) as bar:
-        pts["dsz"] = stress(site, grid, pts[["x", "y", "depth"]].to_numpy(float))
+        pts["dsz"] = stress(site, grid, pts[["x", "y", "depth"]].to_numpy(float), client)
         bar.advance()
-        res = RunResults(site, grid, pts)
+        res = RunResults(site, grid, pts, client=client)
         for plan in site.plan_grids:
-            res.slices[plan.name] = _plan_slices(site, grid, plan)
+            res.slices[plan.name] = _plan_slices(site, grid, plan, client)
             bar.advance()
         if site.soil is not None:
             _soil_results(res)
@@ -74,7 +81,7 @@ def compute(site: Site, progress=silent) -> RunResults:
             _settlement_results(res)
             bar.advance()
         if _conv_steps(site):
-            res.convergence = convergence_check(site, pts)
+            res.convergence = convergence_check(site, pts, client)
             bar.advance()
         bar.advance()
     res.timings["compute_s"] = time.perf_counter() - t0
@@ -86,24 +93,30 @@ def _conv_steps(site: Site) -> int:
                and len(site.points) > 0)
 
 
-def _plan_slices(site: Site, grid, plan):
+def _plan_slices(site: Site, grid, plan, client=None):
     """FFT slices on the cell centres of the analysis grid, cut to the plan extent."""
     from .solve import stress_slices
     xmin, ymin, xmax, ymax = plan.xmin, plan.ymin, plan.xmax, plan.ymax
     gx0, gy0, gx1, gy1 = grid.extent
     pad = max(0.0, gx0 - xmin, gy0 - ymin, xmax - gx1, ymax - gy1)
-    da = stress_slices(grid, plan.depths, method=site.method, poisson=site.poisson, pad=pad)
+    if client is not None:
+        from .distributed import distributed_slices
+        da = distributed_slices(grid, plan.depths, site.method, site.poisson, client=client,
+                                pad=pad)
+    else:
+        da = stress_slices(grid, plan.depths, method=site.method, poisson=site.poisson,
+                           pad=pad)
     return da.sel(x=slice(xmin, xmax), y=slice(ymin, ymax))
 
 
-def convergence_check(site: Site, pts: pd.DataFrame) -> dict:
+def convergence_check(site: Site, pts: pd.DataFrame, client=None) -> dict:
     """Recompute the receptor stresses on a grid of half the cell size; report the largest
     relative change where Δσz is at least 1 % of the largest applied pressure."""
     fine_spec = site.spec.refined(2)
     fine = site.load_grid(spec=fine_spec)
     xyz = pts[["x", "y", "depth"]].to_numpy(float)
     coarse_vals = pts["dsz"].to_numpy()
-    fine_vals = stress(site, fine, xyz)
+    fine_vals = stress(site, fine, xyz, client)
     qmax = float(np.abs(fine.pressure).max()) or 1.0
     mask = np.abs(fine_vals) >= 0.01 * qmax
     rel = np.abs(coarse_vals - fine_vals)[mask] / np.abs(fine_vals[mask]) if mask.any() else [0.0]
@@ -168,7 +181,7 @@ def _settlement_results(res: RunResults) -> None:
                                np.repeat(sub["y"].to_numpy(), len(z)),
                                np.tile(z, len(sub))])
         for s, g in enumerate(stage_grids):
-            dsz = stress(site, g, xyz).reshape(len(sub), len(z))
+            dsz = stress(site, g, xyz, res.client).reshape(len(sub), len(z))
             per_stage[idx, s] = st.consolidation_settlement(soil, z, h, dsz)
             by_layer_stage.setdefault(depth, []).append(st.settlement_by_layer(soil, z, h, dsz))
         by_layer_stage[depth] = (idx, np.stack(by_layer_stage[depth], axis=1))  # (N, S, L)
@@ -243,10 +256,15 @@ def run_site_file(path, out=None, *, overwrite=False, report=True, progress=sile
     site = load_site(path)
     out = Path(out) if out else Path(f"results-{Path(path).stem}")
     folder = ResultsFolder(out, overwrite=overwrite)      # refuses an existing folder now
+    if workers and scheduler:
+        raise InputError("give --workers or --scheduler, not both", argument="--workers")
     if workers or scheduler:
-        raise InputError("distributed runs are not wired into the command yet; "
-                         "run without --workers/--scheduler", argument="--workers")
-    res = compute(site, progress)
+        from .distributed import connect
+        with connect(scheduler or workers) as client:
+            res = compute(site, progress, client)
+        res.client = None
+    else:
+        res = compute(site, progress)
     with folder:
         t0 = time.perf_counter()
         write_results(res, folder, report=report, progress=progress)
