@@ -123,20 +123,18 @@ def slice_lattice(grid, pad_cells, offset) -> tuple[np.ndarray, np.ndarray]:
     return x, y
 
 
-def prepare_tiled(grid, depths, method="boussinesq", poisson=None, *, offset=(0.0, 0.0),
-                  pad=0.0, memory_cap=None, tile=None, workers=None):
-    """Validate a tiled slice run, check it against the cap and cut it into jobs.
+def slice_setup(grid, depths, method="boussinesq", poisson=None, *, offset=(0.0, 0.0), pad=0.0):
+    """Validate the arguments of a slice run, as :func:`~fillstress.solve.slices.stress_slices` does.
 
-    Returns ``(jobs, frame)``: the :class:`TileJob` list and a dict of the output
-    coordinates for :func:`assemble`.  Nothing of the output size is allocated here.
-    Used by :func:`tiled_slices` and :func:`fillstress.distributed.distributed_slices`.
+    Returns ``(grid, frame)`` where `frame` holds ``depth``, ``x``, ``y`` (sample
+    coordinates, m), ``spec``, ``offset`` and ``pad_cells``.
 
     Examples
     --------
     >>> from fillstress import LoadGrid
-    >>> jobs, frame = prepare_tiled(LoadGrid(np.ones((4, 4)), 0, 0, 1, 1), [1.0], tile=(2, 4))
-    >>> len(jobs), frame["x"].tolist()
-    (2, [0.5, 1.5, 2.5, 3.5])
+    >>> _, frame = slice_setup(LoadGrid(np.ones((2, 2)), 0, 0, 1, 1), [1.0], pad=1.0)
+    >>> frame["x"].tolist(), frame["pad_cells"]
+    ([-0.5, 0.5, 1.5, 2.5], (1, 1))
     """
     grid = _checked_grid(grid)
     z = depths_array(depths)
@@ -146,6 +144,28 @@ def prepare_tiled(grid, depths, method="boussinesq", poisson=None, *, offset=(0.
     if pad < 0:
         raise InputError(f"must be >= 0 m, got {pad!r}", argument="pad")
     pad_cells = (int(math.ceil(round(pad / grid.dx, 9))), int(math.ceil(round(pad / grid.dy, 9))))
+    x, y = slice_lattice(grid, pad_cells, (ox, oy))
+    return grid, {"depth": z, "y": y, "x": x, "spec": spec, "offset": (ox, oy),
+                  "pad_cells": pad_cells}
+
+
+def prepare_tiled(grid, depths, method="boussinesq", poisson=None, *, offset=(0.0, 0.0),
+                  pad=0.0, memory_cap=None, tile=None, workers=None):
+    """Validate a tiled slice run, check it against the cap and cut it into jobs.
+
+    Returns ``(jobs, frame)``: the :class:`TileJob` list and the frame of
+    :func:`slice_setup` for :func:`assemble`.  Nothing of the output size is allocated.
+    Used by :func:`tiled_slices` and :func:`fillstress.distributed.distributed_slices`.
+
+    Examples
+    --------
+    >>> from fillstress import LoadGrid
+    >>> jobs, frame = prepare_tiled(LoadGrid(np.ones((4, 4)), 0, 0, 1, 1), [1.0], tile=(2, 4))
+    >>> len(jobs), frame["x"].tolist()
+    (2, [0.5, 1.5, 2.5, 3.5])
+    """
+    grid, frame = slice_setup(grid, depths, method, poisson, offset=offset, pad=pad)
+    z, pad_cells = frame["depth"], frame["pad_cells"]
     if tile is None:
         if memory_cap is None:
             raise InputError("give a tile size or a memory cap in bytes", argument="tile/memory_cap")
@@ -153,17 +173,16 @@ def prepare_tiled(grid, depths, method="boussinesq", poisson=None, *, offset=(0.
     tile = _tile_arg(tile)
     est = estimate_slices(grid.shape, z.size, pad_cells=pad_cells, tile=tile)
     check_capacity(est, memory_cap, hint="smaller tiles, fewer depths or a coarser cell")
-    jobs = make_jobs(grid.pressure, grid.dx, grid.dy, z, spec, tile, pad_cells=pad_cells,
-                     offset=(ox, oy), workers=_workers(workers))
-    x, y = slice_lattice(grid, pad_cells, (ox, oy))
-    frame = {"depth": z, "y": y, "x": x, "spec": spec}
+    jobs = make_jobs(grid.pressure, grid.dx, grid.dy, z, frame["spec"], tile,
+                     pad_cells=pad_cells, offset=frame["offset"], workers=_workers(workers))
     return jobs, frame
 
 
 def assemble(jobs, results, frame) -> xr.DataArray:
     """Place tile results into one (depth, y, x) DataArray like ``stress_slices`` returns.
 
-    `results` may be a generator: each tile is written as it arrives, so only the output
+    `jobs` are anything with ``j0, j1, i0, i1`` (rows and columns of the lattice each
+    result covers); `results` may be a generator: each tile is written as it arrives, so only the output
     and one tile are held at a time.
     """
     values = np.empty((frame["depth"].size, frame["y"].size, frame["x"].size))
@@ -214,8 +233,9 @@ def tiled_slices(grid, depths, method="boussinesq", poisson=None, *, offset=(0.0
     with factory("stress slices (tiles)", len(jobs)) as bar:
         def tiles():
             for job in jobs:
-                yield run_tile(job)
-                bar.advance()
+                part = run_tile(job)
+                bar.advance()  # before yielding: the consumer stops after the last tile
+                yield part
         return assemble(jobs, tiles(), frame)
 
 

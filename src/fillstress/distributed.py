@@ -1,0 +1,248 @@
+"""Spread depth slices, slice tiles and point chunks over a Dask cluster.
+
+Every function takes the ``client`` explicitly (no global scheduler) and runs the same
+functions the serial path runs, on the same pieces, so the numbers are the same.  A
+worker lost mid-task is not fatal: the scheduler runs the task again elsewhere (Dask's
+``distributed.scheduler.allowed-failures``, 3 by default), and ``retries`` re-runs tasks
+that raised.
+
+Examples
+--------
+>>> import numpy as np
+>>> envelope([np.array([1.0, 5.0]), np.array([3.0, 2.0])]).tolist()
+[3.0, 5.0]
+"""
+from __future__ import annotations
+
+from contextlib import contextmanager
+from typing import NamedTuple
+
+import numpy as np
+import xarray as xr
+
+from ._validate import points_array
+from .errors import InputError
+from .progress import silent
+from .solve.auto import _chunk, choose_algorithm, point_evaluator
+from .solve.direct import _checked_grid
+from .solve.slices import slice_at_depth
+from .solve.tiled import assemble, prepare_tiled, run_tile, slice_setup
+
+DEFAULT_RETRIES = 2
+
+
+@contextmanager
+def connect(scheduler):
+    """A Dask client for a scheduler address ("tcp://host:8786") or a local cluster size.
+
+    An int starts ``LocalCluster(n_workers=scheduler, threads_per_worker=1,
+    processes=True)``, closed on exit; a string connects to a running scheduler.
+
+    Examples
+    --------
+    >>> with connect(0.5) as client:
+    ...     pass
+    Traceback (most recent call last):
+    ...
+    fillstress.errors.InputError: argument scheduler: must be a scheduler address or a number of workers >= 1, got 0.5
+    """
+    from distributed import Client, LocalCluster
+    if isinstance(scheduler, str) and scheduler.strip():
+        client = Client(scheduler.strip())
+        try:
+            yield client
+        finally:
+            client.close()
+        return
+    if isinstance(scheduler, bool) or not isinstance(scheduler, (int, np.integer)) or scheduler < 1:
+        raise InputError(f"must be a scheduler address or a number of workers >= 1, got {scheduler!r}",
+                         argument="scheduler")
+    cluster = LocalCluster(n_workers=int(scheduler), threads_per_worker=1, processes=True,
+                           dashboard_address=None)
+    client = Client(cluster)
+    try:
+        yield client
+    finally:
+        client.close()
+        cluster.close()
+
+
+def _client(client):
+    from distributed import Client
+    if not isinstance(client, Client):
+        raise InputError(f"must be a distributed.Client, got {type(client).__name__}",
+                         argument="client")
+    return client
+
+
+def _retries(retries) -> int:
+    if isinstance(retries, bool) or not isinstance(retries, (int, np.integer)) or retries < 0:
+        raise InputError(f"must be a whole number >= 0, got {retries!r}", argument="retries")
+    return int(retries)
+
+
+def _gather(client, futures, label, progress):
+    """Results in submission order, advancing the progress bar as tasks finish."""
+    from distributed import as_completed
+    factory = progress or silent
+    with factory(label, len(futures)) as bar:
+        for _ in as_completed(futures):
+            bar.advance()
+    return client.gather(futures)
+
+
+def distributed_points(grid, points, method="boussinesq", poisson=None, *, client,
+                       algorithm="auto", chunk_size=None, tol=1e-3, floor=0.01,
+                       retries=DEFAULT_RETRIES, progress=None) -> np.ndarray:
+    """Δσz (kPa) at points, chunks evaluated on Dask workers.
+
+    Same arguments and values as :func:`fillstress.solve.auto.stress_at_points`; the
+    evaluator (with the far-field pyramid, if chosen) is sent to the workers once.
+    """
+    client = _client(client)
+    grid = _checked_grid(grid)
+    pts = points_array(points)
+    step = _chunk(chunk_size)
+    chosen = choose_algorithm(grid, pts.shape[0], algorithm)
+    evaluate = point_evaluator(grid, method, poisson, algorithm=chosen, tol=tol, floor=floor)
+    shared = client.scatter(evaluate, broadcast=True)
+    futures = [client.submit(_apply, shared, pts[s:s + step], retries=_retries(retries), pure=False)
+               for s in range(0, pts.shape[0], step)]
+    parts = _gather(client, futures, f"stress at points ({chosen}, Dask)", progress)
+    return np.concatenate(parts) if parts else np.zeros(0)
+
+
+def _apply(evaluate, part):
+    return evaluate(part)
+
+
+def distributed_slices(grid, depths, method="boussinesq", poisson=None, *, client,
+                       offset=(0.0, 0.0), pad=0.0, memory_cap=None, tile=None,
+                       retries=DEFAULT_RETRIES, progress=None) -> xr.DataArray:
+    """Δσz (kPa) on plan slices, one Dask task per depth (or per tile with `tile` or
+    `memory_cap`, the cap then applying to each task).
+
+    Same lattice and values as :func:`fillstress.solve.slices.stress_slices` (untiled)
+    or :func:`fillstress.solve.tiled.tiled_slices` (tiled).
+    """
+    client = _client(client)
+    retries = _retries(retries)
+    if tile is not None or memory_cap is not None:
+        jobs, frame = prepare_tiled(grid, depths, method, poisson, offset=offset, pad=pad,
+                                    memory_cap=memory_cap, tile=tile)
+        futures = [client.submit(run_tile, job, retries=retries, pure=False) for job in jobs]
+        parts = _gather(client, futures, "stress slices (tiles, Dask)", progress)
+        return assemble(jobs, parts, frame)
+    grid, frame = slice_setup(grid, depths, method, poisson, offset=offset, pad=pad)
+    spec = frame["spec"]
+    pressure = client.scatter(grid.pressure, broadcast=True)
+    futures = [client.submit(slice_at_depth, pressure, grid.dx, grid.dy, float(z), spec.method,
+                             spec.poisson, offset=frame["offset"], pad_cells=frame["pad_cells"],
+                             retries=retries, pure=False)
+               for z in frame["depth"]]
+    parts = _gather(client, futures, "stress slices (depths, Dask)", progress)
+    whole = _Region(0, frame["y"].size, 0, frame["x"].size)
+    return assemble([whole], [np.stack(parts)], frame)
+
+
+class _Region(NamedTuple):
+    j0: int
+    j1: int
+    i0: int
+    i1: int
+
+
+def map_variants(fn, variants, client=None, *, retries=DEFAULT_RETRIES, progress=None) -> list:
+    """``[fn(v) for v in variants]``, on Dask workers when a client is given.
+
+    Examples
+    --------
+    >>> map_variants(abs, [-2, 3, -4])
+    [2, 3, 4]
+    """
+    if not callable(fn):
+        raise InputError(f"must be callable, got {type(fn).__name__}", argument="fn")
+    variants = list(variants)
+    factory = progress or silent
+    if client is None:
+        out = []
+        with factory("variants", len(variants)) as bar:
+            for v in variants:
+                out.append(fn(v))
+                bar.advance()
+        return out
+    client = _client(client)
+    futures = [client.submit(fn, v, retries=_retries(retries), pure=False) for v in variants]
+    return _gather(client, futures, "variants (Dask)", progress)
+
+
+def envelope(frames_or_arrays):
+    """Element-wise maximum over variants: numpy arrays, xarray objects or pandas frames.
+
+    All items must have the same shape (and, for xarray and pandas, the same
+    coordinates / index and columns).  pandas columns that are not numeric (ids,
+    labels) must be equal in every variant and are kept as they are.
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> a = pd.DataFrame({"receptor_id": ["B1", "B2"], "dsz_kPa": [10.0, 4.0]})
+    >>> b = pd.DataFrame({"receptor_id": ["B1", "B2"], "dsz_kPa": [7.0, 6.0]})
+    >>> envelope([a, b])["dsz_kPa"].tolist()
+    [10.0, 6.0]
+    """
+    items = list(frames_or_arrays)
+    if not items:
+        raise InputError("needs at least one variant", argument="frames_or_arrays")
+    first = items[0]
+    if isinstance(first, (xr.DataArray, xr.Dataset)):
+        return _envelope_xarray(items)
+    if hasattr(first, "select_dtypes") or type(first).__name__ == "Series":
+        return _envelope_pandas(items)
+    arrays = [np.asarray(a) for a in items]
+    if any(a.shape != arrays[0].shape for a in arrays):
+        raise InputError(f"all variants must have one shape, got {sorted({a.shape for a in arrays})}",
+                         argument="frames_or_arrays")
+    if any(np.isnan(a).any() for a in arrays if a.dtype.kind == "f"):
+        raise InputError("a variant holds NaN", argument="frames_or_arrays")
+    return np.maximum.reduce(arrays)
+
+
+def _envelope_xarray(items):
+    try:
+        aligned = xr.align(*items, join="exact")
+    except ValueError as exc:
+        raise InputError(f"variants must share coordinates ({exc})".splitlines()[0],
+                         argument="frames_or_arrays") from None
+    stacked = xr.concat(aligned, dim="variant")
+    if bool(stacked.isnull().any()) if isinstance(stacked, xr.DataArray) else any(
+            bool(v.isnull().any()) for v in stacked.data_vars.values()):
+        raise InputError("a variant holds NaN", argument="frames_or_arrays")
+    return stacked.max("variant", keep_attrs=True)
+
+
+def _envelope_pandas(items):
+    import pandas as pd
+    first = items[0]
+    for other in items[1:]:
+        if type(other) is not type(first) or not other.index.equals(first.index) or (
+                hasattr(first, "columns") and not other.columns.equals(first.columns)):
+            raise InputError("variants must share index and columns", argument="frames_or_arrays")
+    if isinstance(first, pd.Series):
+        return pd.concat(items, axis=1).max(axis=1, skipna=False).rename(first.name)
+    numeric = first.select_dtypes("number").columns
+    out = first.copy()
+    for col in first.columns:
+        if col in numeric:
+            values = pd.concat([f[col] for f in items], axis=1)
+            if values.isna().any().any():
+                raise InputError(f"a variant holds NaN in column {col!r}", argument="frames_or_arrays")
+            out[col] = values.max(axis=1)
+        elif not all(f[col].equals(first[col]) for f in items[1:]):
+            raise InputError(f"non-numeric column {col!r} differs between variants",
+                             argument="frames_or_arrays")
+    return out
+
+
+__all__ = ["connect", "distributed_points", "distributed_slices", "map_variants", "envelope",
+           "DEFAULT_RETRIES"]

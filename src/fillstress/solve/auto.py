@@ -1,0 +1,154 @@
+"""Δσz at points with the algorithm chosen by problem size, evaluated in chunks.
+
+Direct summation (exact) costs one corner evaluation per non-zero node weight per
+point; the far-field method (certified to ``tol``) costs a pyramid build plus a few
+hundred block visits per point.  ``algorithm="auto"`` uses direct summation while
+points × non-zero nodes stays below :data:`DIRECT_WORK_LIMIT`, else the far field.
+"""
+from __future__ import annotations
+
+import numpy as np
+
+from .._validate import points_array
+from ..errors import InputError
+from ..kernels import resolve_method
+from ..progress import silent
+from .direct import _checked_grid, node_weights, vertical_stress
+from .farfield import DEFAULT_ORDER, _accuracy, build_pyramid, evaluate_pyramid
+
+# About 1 s of direct summation on the 2-core development machine (see estimate.py);
+# above it the far field is faster, see docs/performance.md "## Scale".
+DIRECT_WORK_LIMIT = 5e7
+DEFAULT_CHUNK = 20_000
+ALGORITHMS = ("auto", "direct", "far")
+
+
+def direct_work(grid, n_points: int) -> int:
+    """Corner evaluations direct summation needs: points × non-zero node weights.
+
+    Examples
+    --------
+    >>> from fillstress import LoadGrid
+    >>> direct_work(LoadGrid(np.ones((3, 3)), 0, 0, 1, 1), 10)   # 4 corner nodes
+    40
+    """
+    return int(n_points) * int(np.count_nonzero(node_weights(grid.pressure)))
+
+
+def choose_algorithm(grid, n_points: int, algorithm: str = "auto") -> str:
+    """"direct" or "far" for `n_points` points below `grid` (`algorithm` overrides "auto").
+
+    Examples
+    --------
+    >>> from fillstress import LoadGrid
+    >>> g = LoadGrid(np.ones((3, 3)), 0, 0, 1, 1)
+    >>> choose_algorithm(g, 10), choose_algorithm(g, 10, "far")
+    ('direct', 'far')
+    """
+    if algorithm not in ALGORITHMS:
+        raise InputError(f"must be one of {', '.join(ALGORITHMS)}; got {algorithm!r}",
+                         argument="algorithm")
+    if algorithm != "auto":
+        return algorithm
+    return "direct" if direct_work(grid, n_points) <= DIRECT_WORK_LIMIT else "far"
+
+
+def _chunk(chunk_size) -> int:
+    if chunk_size is None:
+        return DEFAULT_CHUNK
+    if isinstance(chunk_size, bool) or not isinstance(chunk_size, (int, np.integer)) or chunk_size < 1:
+        raise InputError(f"must be a positive whole number of points, got {chunk_size!r}",
+                         argument="chunk_size")
+    return int(chunk_size)
+
+
+def point_evaluator(grid, method="boussinesq", poisson=None, *, algorithm="direct",
+                    tol=1e-3, floor=0.01, order=DEFAULT_ORDER):
+    """A picklable callable ``f(points) -> Δσz`` for one algorithm (no choice made here).
+
+    The far-field pyramid is built once, so chunks (and Dask tasks) share it.
+
+    Examples
+    --------
+    >>> from fillstress import LoadGrid
+    >>> f = point_evaluator(LoadGrid([[100.0]], 0, 0, 2, 2), algorithm="far")
+    >>> f(np.array([[1.0, 1.0, 0.0]])).round(9).tolist()
+    [100.0]
+    """
+    grid = _checked_grid(grid)
+    spec = resolve_method(method, poisson)
+    if algorithm == "direct":
+        return _Direct(grid, spec.method, spec.poisson)
+    if algorithm == "far":
+        tol, floor = _accuracy(tol, floor)
+        return _Far(build_pyramid(grid, spec.method, spec.poisson, order=order), tol, floor)
+    raise InputError(f"must be 'direct' or 'far', got {algorithm!r}", argument="algorithm")
+
+
+class _Direct:
+    def __init__(self, grid, method, poisson):
+        self.grid, self.method, self.poisson = grid, method, poisson
+
+    def __call__(self, points):
+        return vertical_stress(self.grid, points, self.method, self.poisson)
+
+
+class _Far:
+    def __init__(self, pyramid, tol, floor):
+        self.pyramid, self.tol, self.floor = pyramid, tol, floor
+
+    def __call__(self, points):
+        return evaluate_pyramid(self.pyramid, points, tol=self.tol, floor=self.floor)
+
+
+def stress_at_points(grid, points, method="boussinesq", poisson=None, *, algorithm="auto",
+                     chunk_size=None, progress=None, tol=1e-3, floor=0.01,
+                     order=DEFAULT_ORDER) -> np.ndarray:
+    """Δσz (kPa) at points, by direct summation or the far-field method.
+
+    Parameters
+    ----------
+    grid : LoadGrid
+        Surface pressure per cell (kPa).
+    points : array_like, shape (N, 3)
+        x (m), y (m), depth (m, >= 0).
+    method, poisson
+        As for :func:`fillstress.solve.vertical_stress`.
+    algorithm : {"auto", "direct", "far"}
+        "auto" picks by points × non-zero nodes (see :func:`choose_algorithm`).
+    chunk_size : int, optional
+        Points per chunk (default 20 000); the result does not depend on it.
+    progress : callable, optional
+        Progress factory ``progress(label, total)``, advanced by points done.
+    tol, floor, order
+        Far-field accuracy (see :func:`fillstress.solve.farfield.vertical_stress_far`):
+        ``|error| <= tol · max(|Δσz|, floor · max|p|)``.  Direct summation is exact.
+
+    Examples
+    --------
+    >>> from fillstress import LoadGrid
+    >>> g = LoadGrid([[100.0]], x0=0.0, y0=0.0, dx=2.0, dy=2.0)
+    >>> pts = [[0, 0, 2.0], [1, 1, 0.0]]
+    >>> a = stress_at_points(g, pts, algorithm="direct")
+    >>> b = stress_at_points(g, pts, algorithm="far", chunk_size=1)
+    >>> bool(np.all(np.abs(a - b) <= 1e-3 * np.maximum(np.abs(a), 1.0))), a.round(2).tolist()
+    (True, [17.52, 100.0])
+    """
+    grid = _checked_grid(grid)
+    pts = points_array(points)
+    step = _chunk(chunk_size)
+    chosen = choose_algorithm(grid, pts.shape[0], algorithm)
+    evaluate = point_evaluator(grid, method, poisson, algorithm=chosen, tol=tol, floor=floor,
+                               order=order)
+    out = np.empty(pts.shape[0])
+    factory = progress or silent
+    with factory(f"stress at points ({chosen})", pts.shape[0]) as bar:
+        for start in range(0, pts.shape[0], step):
+            part = pts[start:start + step]
+            out[start:start + part.shape[0]] = evaluate(part)
+            bar.advance(part.shape[0])
+    return out
+
+
+__all__ = ["stress_at_points", "choose_algorithm", "direct_work", "point_evaluator",
+           "DIRECT_WORK_LIMIT", "ALGORITHMS"]
