@@ -225,3 +225,18 @@ def test_point_a_hair_outside_a_corner(kernel):
     pts = [[-1.08e-293, -1.08e-293, 0.0], [1.08e-293, 1.08e-293, 0.0], [0.0, 0.0, 0.0]]
     got = vertical_stress(grid, pts, kernel=kernel)
     np.testing.assert_allclose(got, [0.0, 1.0, 0.25], rtol=0, atol=1e-15)  # outside, inside, corner
+
+
+def test_slice_plan_reused_across_depths_matches_stress_slices():
+    from fillstress.solve import SlicePlan
+    grid = random_grid(14, ny=6, nx=7)
+    plan = SlicePlan(grid.pressure, grid.dx, grid.dy, "westergaard", 0.1, offset=(0.1, 0.2),
+                     pad_cells=(2, 1))
+    da = stress_slices(grid, [0.5, 4.0], "westergaard", 0.1, offset=(0.1, 0.2), pad=1.1)
+    assert da.shape[1:] == (6 + 2, 7 + 2 * 2)       # 1.1 m: 2 cells of 0.7, 1 of 1.1
+    for k, z in enumerate([0.5, 4.0]):
+        np.testing.assert_array_equal(plan.at_depth(z), da.values[k])
+    with pytest.raises(InputError, match="depth"):
+        plan.at_depth(-1.0)
+    with pytest.raises(InputError, match="method"):
+        SlicePlan(grid.pressure, 1.0, 1.0, "elastic")

@@ -132,7 +132,14 @@ def _chunk_size(chunk, n_points: int) -> int:
 
 
 def node_coordinates(grid: LoadGrid) -> tuple[np.ndarray, np.ndarray]:
-    """x of the nx+1 node columns and y of the ny+1 node rows of `grid` (m)."""
+    """x of the nx+1 node columns and y of the ny+1 node rows of `grid` (m).
+
+    Examples
+    --------
+    >>> xs, ys = node_coordinates(LoadGrid([[1.0, 1.0]], x0=5.0, y0=0.0, dx=0.5, dy=2.0))
+    >>> xs.tolist(), ys.tolist()
+    ([5.0, 5.5, 6.0], [0.0, 2.0])
+    """
     return (grid.x0 + np.arange(grid.nx + 1) * grid.dx,
             grid.y0 + np.arange(grid.ny + 1) * grid.dy)
 

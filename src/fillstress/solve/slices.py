@@ -22,7 +22,7 @@ import xarray as xr
 
 from .._validate import depths_array, finite, finite_array, positive
 from ..errors import InputError
-from ..kernels import KernelSpec, boussinesq, corner_angle, resolve_method
+from ..kernels import boussinesq, corner_angle, resolve_method
 from .direct import _checked_grid
 
 INV_2PI = boussinesq.INV_2PI
@@ -30,7 +30,8 @@ INV_2PI = boussinesq.INV_2PI
 
 @numba.njit(parallel=True, cache=True)
 def _unit_cell_kernel(a_nodes, b_nodes, z, depth_scale, second_term):
-    """G[j, i] = F(b_j+1, a_i+1) − F(a_i, b_j+1) − F(a_i+1, b_j) + F(a_i, b_j), F on nodes."""
+    """Unit-cell influence G[j, i] = F(a_i+1, b_j+1) − F(a_i, b_j+1) − F(a_i+1, b_j) + F(a_i, b_j)
+    from the corner function F evaluated once on the node lattice (a_i, b_j)."""
     z = abs(z)
     c = depth_scale * z
     inv_c = 1.0 / c if c > 0.0 else math.inf
@@ -58,17 +59,31 @@ def _unit_cell_kernel(a_nodes, b_nodes, z, depth_scale, second_term):
 
 class SlicePlan:
     """Everything about a slice that does not depend on depth: the pressure spectrum,
-    FFT sizes and node offsets.  Reuse one plan for many depths.
+    FFT sizes and node offsets.  Build one plan and call :meth:`at_depth` per depth.
 
     The sample lattice has ``ny + 2·pad_y`` rows and ``nx + 2·pad_x`` columns; sample
     (l, k) sits at ``((k − pad_x + 0.5)·dx + ox, (l − pad_y + 0.5)·dy + oy)`` relative to
-    the south-west corner of the pressure grid.
+    the south-west corner of the pressure grid.  Arguments are as for
+    :func:`slice_at_depth` and are validated here.
+
+    Examples
+    --------
+    >>> plan = SlicePlan([[10.0, 10.0], [10.0, 10.0]], 1.0, 1.0, pad_cells=(1, 0))
+    >>> plan.shape_out, plan.at_depth(0.0).round(9).tolist()
+    ((2, 4), [[0.0, 10.0, 10.0, 0.0], [0.0, 10.0, 10.0, 0.0]])
     """
 
-    def __init__(self, pressure, dx, dy, spec: KernelSpec, offset=(0.0, 0.0),
-                 pad_cells=(0, 0), workers=None):
+    def __init__(self, pressure, dx, dy, method="boussinesq", poisson=None, *,
+                 offset=(0.0, 0.0), pad_cells=(0, 0), workers=None):
+        pressure = finite_array(pressure, "pressure", ndim=2)
+        if pressure.size == 0:
+            raise InputError("must have at least one cell", argument="pressure")
+        dx, dy = positive(dx, "dx"), positive(dy, "dy")
+        offset = _offset(offset)
+        pad_x, pad_y = _pad_cells(pad_cells)
+        workers = _workers(workers)
+        spec = resolve_method(method, poisson)
         ny, nx = pressure.shape
-        pad_x, pad_y = pad_cells
         self.spec, self.workers, self.shape_in = spec, workers, (ny, nx)
         self.shape_out = (ny + 2 * pad_y, nx + 2 * pad_x)
         my, mx = self.shape_out
@@ -82,8 +97,12 @@ class SlicePlan:
         self.b_nodes = (pad_y + ny - 0.5 - np.arange(ny + my)) * dy - offset[1]
 
     def at_depth(self, depth: float) -> np.ndarray:
-        """Δσz (kPa) on the sample lattice at one depth (m)."""
-        kernel = _unit_cell_kernel(self.a_nodes, self.b_nodes, float(depth),
+        """Δσz (kPa) on the sample lattice at one depth (m, >= 0)."""
+        depth = finite(depth, "depth")
+        if depth < 0:
+            raise InputError(f"must be >= 0 below the ground surface, got {depth!r}",
+                             argument="depth")
+        kernel = _unit_cell_kernel(self.a_nodes, self.b_nodes, depth,
                                    self.spec.depth_scale, self.spec.second_term)
         spectrum = scipy.fft.rfftn(kernel, s=self.fft_shape, workers=self.workers)
         del kernel
@@ -156,16 +175,9 @@ def slice_at_depth(pressure, dx, dy, depth, method="boussinesq", poisson=None, *
     >>> slice_at_depth([[100.0, 100.0]], 1.0, 1.0, 0.0, offset=(0.5, 0.0)).round(9).tolist()
     [[100.0, 50.0]]
     """
-    p = finite_array(pressure, "pressure", ndim=2)
-    if p.size == 0:
-        raise InputError("must have at least one cell", argument="pressure")
-    dx, dy = positive(dx, "dx"), positive(dy, "dy")
-    z = finite(depth, "depth")
-    if z < 0:
-        raise InputError(f"must be >= 0 below the ground surface, got {depth!r}", argument="depth")
-    plan = SlicePlan(p, dx, dy, resolve_method(method, poisson), _offset(offset),
-                     _pad_cells(pad_cells), _workers(workers))
-    return plan.at_depth(z)
+    plan = SlicePlan(pressure, dx, dy, method, poisson, offset=offset, pad_cells=pad_cells,
+                     workers=workers)
+    return plan.at_depth(depth)
 
 
 def stress_slices(grid, depths, method="boussinesq", poisson=None, *, offset=(0.0, 0.0),
@@ -209,13 +221,14 @@ def stress_slices(grid, depths, method="boussinesq", poisson=None, *, offset=(0.
     z = depths_array(depths)
     spec = resolve_method(method, poisson)
     ox, oy = _offset(offset)
+    workers = _workers(workers)
     pad = finite(pad, "pad")
     if pad < 0:
         raise InputError(f"must be >= 0 m, got {pad!r}", argument="pad")
     pad_x = int(math.ceil(round(pad / grid.dx, 9)))
     pad_y = int(math.ceil(round(pad / grid.dy, 9)))
-    plan = SlicePlan(grid.pressure, grid.dx, grid.dy, spec, (ox, oy), (pad_x, pad_y),
-                     _workers(workers))
+    plan = SlicePlan(grid.pressure, grid.dx, grid.dy, method, poisson, offset=(ox, oy),
+                     pad_cells=(pad_x, pad_y), workers=workers)
     my, mx = plan.shape_out
     values = np.empty((z.size, my, mx))
     for k, depth in enumerate(z):
