@@ -9,8 +9,29 @@ from ._validate import finite, finite_array, positive
 from .errors import InputError
 
 
+class _Lattice:
+    """Plan geometry shared by LoadGrid and GridSpec (needs x0, y0, dx, dy, nx, ny)."""
+
+    @property
+    def cell_area(self) -> float:
+        return self.dx * self.dy
+
+    @property
+    def extent(self) -> tuple[float, float, float, float]:
+        """(xmin, ymin, xmax, ymax) of the whole grid in m."""
+        return (self.x0, self.y0, self.x0 + self.nx * self.dx, self.y0 + self.ny * self.dy)
+
+    @property
+    def x_centres(self) -> np.ndarray:
+        return self.x0 + (np.arange(self.nx) + 0.5) * self.dx
+
+    @property
+    def y_centres(self) -> np.ndarray:
+        return self.y0 + (np.arange(self.ny) + 0.5) * self.dy
+
+
 @dataclass(frozen=True, eq=False)
-class LoadGrid:
+class LoadGrid(_Lattice):
     """A plan grid of cells, each a uniform surface pressure (kPa).
 
     ``pressure[j, i]`` covers ``x0 + i*dx … x0 + (i+1)*dx`` and
@@ -87,23 +108,6 @@ class LoadGrid:
         return self.pressure.shape[1]
 
     @property
-    def cell_area(self) -> float:
-        return self.dx * self.dy
-
-    @property
-    def extent(self) -> tuple[float, float, float, float]:
-        """(xmin, ymin, xmax, ymax) of the whole grid in m."""
-        return (self.x0, self.y0, self.x0 + self.nx * self.dx, self.y0 + self.ny * self.dy)
-
-    @property
-    def x_centres(self) -> np.ndarray:
-        return self.x0 + (np.arange(self.nx) + 0.5) * self.dx
-
-    @property
-    def y_centres(self) -> np.ndarray:
-        return self.y0 + (np.arange(self.ny) + 0.5) * self.dy
-
-    @property
     def total_load(self) -> float:
         """Sum of pressure × cell area, kN."""
         return float(self.pressure.sum() * self.cell_area)
@@ -137,7 +141,7 @@ class LoadGrid:
 
 
 @dataclass(frozen=True)
-class GridSpec:
+class GridSpec(_Lattice):
     """The analysis lattice shared by every fill body of a site: origin, cell size, shape, CRS.
 
     Cell ``[j, i]`` covers ``x0 + i*dx … x0 + (i+1)*dx`` and ``y0 + j*dy … y0 + (j+1)*dy``.
@@ -181,22 +185,6 @@ class GridSpec:
     @property
     def shape(self) -> tuple[int, int]:
         return (int(self.ny), int(self.nx))
-
-    @property
-    def extent(self) -> tuple[float, float, float, float]:
-        return (self.x0, self.y0, self.x0 + self.nx * self.dx, self.y0 + self.ny * self.dy)
-
-    @property
-    def x_centres(self) -> np.ndarray:
-        return self.x0 + (np.arange(self.nx) + 0.5) * self.dx
-
-    @property
-    def y_centres(self) -> np.ndarray:
-        return self.y0 + (np.arange(self.ny) + 0.5) * self.dy
-
-    @property
-    def cell_area(self) -> float:
-        return self.dx * self.dy
 
     def zeros(self) -> np.ndarray:
         return np.zeros(self.shape)

@@ -25,7 +25,7 @@ from typing import Sequence
 
 import numpy as np
 
-from ._validate import finite_array
+from ._validate import finite_array, positive
 from .errors import InputError
 
 DRAINAGE_KINDS = ("double", "single", "single-top", "single-bottom")
@@ -244,13 +244,7 @@ class SoilProfile:
     # --- validation -------------------------------------------------------------------
     @staticmethod
     def _positive_argument(value, name: str) -> float:
-        try:
-            v = float(value)
-        except (TypeError, ValueError):
-            raise InputError(f"must be a number, got {value!r}", argument=name) from None
-        if not math.isfinite(v) or v <= 0:
-            raise InputError(f"must be positive and finite, got {value!r}", argument=name)
-        return v
+        return positive(value, name)
 
     def _check_layers(self) -> None:
         if not self.layers:
