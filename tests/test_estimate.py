@@ -8,14 +8,13 @@ import scipy.fft
 from fillstress import CapacityError, InputError, LoadGrid
 from fillstress.estimate import (check_capacity, estimate_points, estimate_slices,
                                  fft_working_bytes, format_bytes, largest_tile)
-from fillstress.kernels import resolve_method
 from fillstress.solve.farfield import build_pyramid, pyramid_blocks
 from fillstress.solve.slices import SlicePlan
 
 
 def test_fft_estimate_covers_the_plan_arrays():
     p = np.ones((70, 90))
-    plan = SlicePlan(p, 1.0, 1.0, resolve_method(), (0.0, 0.0), (5, 3))
+    plan = SlicePlan(p, 1.0, 1.0, pad_cells=(5, 3))
     fy, fx = plan.fft_shape
     kernel_spectrum = plan.pressure_hat.nbytes
     inverse = 8 * fy * fx

@@ -58,7 +58,7 @@ def connect(scheduler):
         raise InputError(f"must be a scheduler address or a number of workers >= 1, got {scheduler!r}",
                          argument="scheduler")
     cluster = LocalCluster(n_workers=int(scheduler), threads_per_worker=1, processes=True,
-                           dashboard_address=None)
+                           dashboard_address=":0")
     client = Client(cluster)
     try:
         yield client

@@ -63,7 +63,8 @@ def run_tile(job: TileJob) -> np.ndarray:
         # sample (l, k) of this output tile must land where the global lattice puts it
         shift = ((job.i0 - pad_x - li0) * job.dx + job.offset[0],
                  (job.j0 - pad_y - lj0) * job.dy + job.offset[1])
-        plan = SlicePlan(block, job.dx, job.dy, job.spec, shift, (0, 0), job.workers)
+        plan = SlicePlan(block, job.dx, job.dy, job.spec.method, job.spec.poisson,
+                         offset=shift, pad_cells=(0, 0), workers=job.workers)
         for k, depth in enumerate(job.depths):
             out[k] += plan.at_depth(depth)
     return out[:, :job.j1 - job.j0, :job.i1 - job.i0]

@@ -1,0 +1,121 @@
+"""Dask runs give the serial numbers; a lost worker is retried; variant envelopes."""
+from __future__ import annotations
+
+import os
+import sys
+
+import cloudpickle
+import numpy as np
+import pandas as pd
+import pytest
+import xarray as xr
+from distributed import Client, LocalCluster
+
+from fillstress import InputError, LoadGrid
+from fillstress.distributed import (distributed_points, distributed_slices, envelope,
+                                    map_variants)
+from fillstress.solve.auto import stress_at_points
+from fillstress.solve.slices import stress_slices
+from fillstress.solve.tiled import tiled_slices
+
+# worker processes cannot import this test module: send its functions by value
+cloudpickle.register_pickle_by_value(sys.modules[__name__])
+
+
+@pytest.fixture(scope="module")
+def client():
+    with Client(processes=False, n_workers=1, threads_per_worker=2,
+                dashboard_address=":0") as c:
+        yield c
+
+
+def _grid():
+    rng = np.random.default_rng(11)
+    p = rng.uniform(-20, 100, (30, 41)) * (rng.random((30, 41)) > 0.3)
+    return LoadGrid(p, 5000.0, 800.0, 1.5, 2.0)
+
+
+def _points(n=400):
+    rng = np.random.default_rng(12)
+    return np.column_stack([rng.uniform(4980, 5080, n), rng.uniform(780, 880, n),
+                            rng.uniform(0, 30, n)])
+
+
+@pytest.mark.parametrize("algorithm", ["direct", "far"])
+def test_points_on_dask_equal_the_serial_path(client, algorithm):
+    grid, pts = _grid(), _points()
+    serial = stress_at_points(grid, pts, algorithm=algorithm, chunk_size=57)
+    spread = distributed_points(grid, pts, client=client, algorithm=algorithm, chunk_size=57)
+    np.testing.assert_array_equal(spread, serial)
+
+
+def test_slices_on_dask_equal_the_serial_path(client):
+    grid = _grid()
+    serial = stress_slices(grid, [0.0, 1.0, 6.0], pad=3.0, offset=(0.2, 0.0))
+    by_depth = distributed_slices(grid, [0.0, 1.0, 6.0], pad=3.0, offset=(0.2, 0.0), client=client)
+    xr.testing.assert_identical(by_depth, serial)
+    tiled = tiled_slices(grid, [0.0, 6.0], pad=3.0, tile=(9, 12))
+    by_tile = distributed_slices(grid, [0.0, 6.0], pad=3.0, tile=(9, 12), client=client)
+    xr.testing.assert_identical(by_tile, tiled)
+
+
+def test_client_must_be_a_dask_client():
+    with pytest.raises(InputError, match="argument client"):
+        distributed_points(_grid(), _points(3), client="tcp://nowhere:1")
+
+
+def _die_once(args):
+    """Kill the worker process the first time it runs (marker file), then answer."""
+    marker, value = args
+    if value == 2 and not os.path.exists(marker):
+        open(marker, "w").close()
+        os._exit(1)
+    return value * 10
+
+
+def test_a_lost_worker_is_retried_not_fatal(tmp_path):
+    marker = str(tmp_path / "died-once")
+    with LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
+                      dashboard_address=":0") as cluster, Client(cluster) as c:
+        out = map_variants(_die_once, [(marker, v) for v in range(4)], client=c)
+    assert os.path.exists(marker)       # a worker really died
+    assert out == [0, 10, 20, 30]
+
+
+def test_map_variants_serial_and_dask_agree(client):
+    grid = _grid()
+
+    def peak(scale):
+        return stress_at_points(grid.with_pressure(grid.pressure * scale), _points(50),
+                                algorithm="direct")
+
+    serial = map_variants(peak, [0.5, 1.0, 2.0])
+    spread = map_variants(peak, [0.5, 1.0, 2.0], client=client)
+    for a, b in zip(serial, spread):
+        np.testing.assert_array_equal(a, b)
+    np.testing.assert_array_equal(envelope(spread), np.maximum.reduce(serial))
+
+
+def test_envelope_of_arrays_frames_and_cubes():
+    a = np.array([[1.0, -5.0], [2.0, 8.0]])
+    b = np.array([[3.0, -7.0], [0.0, 9.0]])
+    assert envelope([a, b]).tolist() == [[3.0, -5.0], [2.0, 9.0]]
+    cube = lambda v: xr.DataArray(v, dims=("y", "x"), coords={"y": [0, 1], "x": [0, 1]},  # noqa: E731
+                                  attrs={"units": "kPa"})
+    env = envelope([cube(a), cube(b)])
+    assert env.values.tolist() == [[3.0, -5.0], [2.0, 9.0]] and env.attrs["units"] == "kPa"
+    f1 = pd.DataFrame({"receptor_id": ["P1", "P2"], "dsz_kPa": [4.0, 1.0]})
+    f2 = pd.DataFrame({"receptor_id": ["P1", "P2"], "dsz_kPa": [2.0, 6.0]})
+    out = envelope([f1, f2])
+    assert out["receptor_id"].tolist() == ["P1", "P2"] and out["dsz_kPa"].tolist() == [4.0, 6.0]
+
+
+def test_envelope_refuses_mismatched_variants():
+    with pytest.raises(InputError, match="one shape"):
+        envelope([np.zeros(3), np.zeros(4)])
+    with pytest.raises(InputError, match="NaN"):
+        envelope([np.zeros(2), np.array([1.0, np.nan])])
+    with pytest.raises(InputError, match="differs"):
+        envelope([pd.DataFrame({"id": ["a"], "v": [1.0]}), pd.DataFrame({"id": ["b"], "v": [2.0]})])
+    with pytest.raises(InputError, match="at least one"):
+        envelope([])
