@@ -16,6 +16,7 @@ examples:
   fillstress example stockpile_yard            run a bundled sample site into ./results-stockpile_yard
   fillstress check site.toml                   validate a site file, list bodies, loads, grid, cost
   fillstress run site.toml -o results          run a site file into the folder results/
+  fillstress batch site.toml variants.toml     run variants and their envelope
   fillstress point site.toml 120 45 3.5        Δσz at x=120, y=45, depth 3.5 (site units)
   fillstress view results --png view.png       render the 3D view to a PNG (or open a window)
   fillstress report results                    (re)write results/report.html
@@ -72,6 +73,13 @@ def _parser() -> argparse.ArgumentParser:
     c.add_argument("site", type=Path, help="site file (TOML)")
     _run_options(c)
 
+    c = command("batch", _batch, "Run a site over a list of variants into one folder, with "
+                "an envelope of the largest values.",
+                "fillstress batch site.toml variants.toml -o variants-results --workers 2")
+    c.add_argument("site", type=Path, help="site file (TOML)")
+    c.add_argument("variants", type=Path, help="variants file (TOML, [[variants]] tables)")
+    _run_options(c)
+
     c = command("check", _check, "Validate a site file and show what a run would compute.",
                 "fillstress check site.toml")
     c.add_argument("site", type=Path, help="site file (TOML)")
@@ -118,6 +126,19 @@ def _run(args, console):
                             report=not args.no_report, progress=console.progress,
                             workers=args.workers, scheduler=args.scheduler)
     console.summary(summary)
+
+
+def _batch(args, console):
+    from .batch import run_batch
+    summaries, envelope = run_batch(args.site, args.variants, args.out,
+                                    overwrite=args.overwrite, report=not args.no_report,
+                                    progress=console.progress, workers=args.workers,
+                                    scheduler=args.scheduler)
+    for summary in summaries:
+        console.lines([f"variant {summary.folder.name}:"])
+        console.summary(summary)
+    console.lines([f"envelope of {len(summaries)} variants: "
+                   f"{summaries[0].folder.parent / 'envelope_points.csv'}"])
 
 
 def _check(args, console):

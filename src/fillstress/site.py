@@ -44,6 +44,7 @@ class Site:
     points: pd.DataFrame             # every receptor sample point
     receptors: dict                  # kind → list of dicts (id, geometry, attributes)
     plan_grids: list = field(default_factory=list)
+    body_factors: tuple = (1.0, 1.0)  # (unit weight, thickness) scale of a batch variant
 
     @property
     def path(self) -> Path:
@@ -66,8 +67,13 @@ class Site:
 
     def rebuild_bodies(self, spec: GridSpec) -> list:
         """The same bodies rasterised on another lattice (the convergence check)."""
-        return [_build_body(self._ctx, name, raw, spec)
-                for name, raw in self.config["bodies"].items()]
+        from dataclasses import replace
+        gamma, height = self.body_factors
+        bodies = [_build_body(self._ctx, name, raw, spec)
+                  for name, raw in self.config["bodies"].items()]
+        return [replace(b, unit_weight=b.unit_weight * gamma, thickness=b.thickness * height,
+                        max_height_m=None if b.max_height_m is None else b.max_height_m * height)
+                for b in bodies]
 
     def fill_thickness(self, stage: int | None = None) -> np.ndarray:
         stage = self.stages[-1] if stage is None else stage

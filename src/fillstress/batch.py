@@ -1,0 +1,194 @@
+"""Batch runs: one site over a list of variants, each with its own results folder, plus an
+envelope (the largest value over the variants at every receptor point).
+
+A variants file is TOML with one [[variants]] table per variant:
+
+    [[variants]]
+    name = "dense_fill"          # folder name of the variant's results
+    unit_weight_factor = 1.10    # every body's unit weight × this
+    height_factor = 1.0          # every body's thickness × this
+    water_table = 0.5            # site units; replaces [soil] water_table
+    method = "westergaard"       # or "boussinesq"
+    poisson = 0.3                # Westergaard only
+"""
+from __future__ import annotations
+
+import copy
+import difflib
+import math
+import tomllib
+from dataclasses import dataclass, replace
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from .errors import InputError
+from .progress import silent
+
+VARIANT_KEYS = ("name", "unit_weight_factor", "height_factor", "water_table", "method",
+                "poisson")
+
+
+@dataclass(frozen=True)
+class Variant:
+    """One variant of a site; None keeps the site's own value."""
+
+    name: str
+    unit_weight_factor: float = 1.0
+    height_factor: float = 1.0
+    water_table: float | None = None      # m (SI)
+    method: str | None = None
+    poisson: float | None = None
+
+
+def read_variants(path, units) -> list[Variant]:
+    """Read and validate a variants file; lengths are converted with the site's units."""
+    path = Path(path)
+    if not path.is_file():
+        raise InputError("variants file not found", file=path)
+    try:
+        raw = tomllib.loads(path.read_text(encoding="utf-8"))
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(f"not valid TOML: {exc}", file=path) from None
+    items = raw.get("variants")
+    if set(raw) - {"variants"} or not isinstance(items, list) or not items:
+        raise InputError("needs one or more [[variants]] tables and nothing else", file=path)
+    variants = [_variant(v, i, path, units) for i, v in enumerate(items)]
+    names = [v.name for v in variants]
+    if len(set(names)) != len(names):
+        raise InputError("variant names must be unique", file=path, key="variants.name")
+    return variants
+
+
+def _variant(raw, i, path, units) -> Variant:
+    where = f"variants[{i}]"
+    if not isinstance(raw, dict):
+        raise InputError("must be a table", file=path, key=where)
+    for key in raw:
+        if key not in VARIANT_KEYS:
+            near = difflib.get_close_matches(key, VARIANT_KEYS, n=1)
+            hint = f"; did you mean '{near[0]}'?" if near else ""
+            raise InputError(f"unknown key{hint}", file=path, key=f"{where}.{key}")
+    name = raw.get("name")
+    if not isinstance(name, str) or not name.replace("_", "").replace("-", "").isalnum():
+        raise InputError("needs a name of letters, digits, _ or -", file=path, key=f"{where}.name")
+
+    def number(key, low, strict):
+        v = raw.get(key)
+        if v is None:
+            return None
+        if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v) \
+                or (v <= low if strict else v < low):
+            rel = ">" if strict else "≥"
+            raise InputError(f"must be a number {rel} {low:g}, got {v!r}", file=path,
+                             key=f"{where}.{key}")
+        return float(v)
+
+    method = raw.get("method")
+    if method is not None and method not in ("boussinesq", "westergaard"):
+        raise InputError(f"must be boussinesq or westergaard, got {method!r}", file=path,
+                         key=f"{where}.method")
+    wt = number("water_table", 0.0, False)
+    return Variant(name, number("unit_weight_factor", 0.0, True) or 1.0,
+                   number("height_factor", 0.0, True) or 1.0,
+                   None if wt is None else units.length_si(wt), method,
+                   number("poisson", 0.0, False))
+
+
+def apply_variant(site, v: Variant):
+    """A copy of `site` with the variant's changes."""
+    out = copy.copy(site)
+    out.body_factors = (site.body_factors[0] * v.unit_weight_factor,
+                        site.body_factors[1] * v.height_factor)
+    out.bodies = [_scaled_body(b, v) for b in site.bodies]
+    if v.method is not None:
+        out.method = v.method
+    if v.method == "boussinesq":
+        out.poisson = None
+    elif v.poisson is not None or out.method == "westergaard":
+        out.poisson = v.poisson if v.poisson is not None else (site.poisson or 0.0)
+    if v.water_table is not None:
+        if site.soil is None:
+            raise InputError("water_table needs a [soil] table in the site file",
+                             argument=f"variant {v.name}")
+        from .soil import SoilProfile
+        out.soil = SoilProfile(site.soil.layers, v.water_table, site.soil.rigid_base_m,
+                               site.soil.gamma_w)
+    return out
+
+
+def _scaled_body(b, v: Variant):
+    peak = None if b.max_height_m is None else b.max_height_m * v.height_factor
+    return replace(b, unit_weight=b.unit_weight * v.unit_weight_factor,
+                   thickness=np.asarray(b.thickness) * v.height_factor, max_height_m=peak)
+
+
+def envelope_points(frames: dict[str, pd.DataFrame]) -> pd.DataFrame:
+    """Per receptor point the largest Δσz (and settlement, stress ratio) over the variants,
+    with the variant that gives the largest Δσz."""
+    tagged = pd.concat([f.assign(variant=name) for name, f in frames.items()],
+                       ignore_index=True)
+    keys = ["receptor_kind", "receptor_id", "point_id"]
+    first = tagged.groupby(keys, sort=False).first().reset_index()
+    worst = tagged.loc[tagged.groupby(keys, sort=False)["dsz"].idxmax()]
+    out = first[keys + ["role", "x", "y", "depth", "chainage"]].copy()
+    for col in ("dsz", "settlement", "stress_ratio"):
+        if col in tagged:
+            out[col] = tagged.groupby(keys, sort=False)[col].max().to_numpy()
+    out["variant_of_max_dsz"] = worst["variant"].to_numpy()
+    return out
+
+
+def run_batch(site_path, variants_path, out, *, overwrite=False, report=False,
+              progress=silent, workers=None, scheduler=None):
+    """Run every variant into ``out/<name>/`` and write ``out/envelope_points.csv``."""
+    from .io.atomic import ResultsFolder
+    from .io.tables import write_table_csv
+    from .run import RunSummary, compute, slug
+    from .site import load_site
+    from .writers import _quantities, write_all
+    from .run import ASSUMPTIONS, CAUTIONS
+    from . import __version__
+
+    site = load_site(site_path)
+    variants = read_variants(variants_path, site.units)
+    out = Path(out) if out else Path(f"results-{Path(site_path).stem}-batch")
+    folder = ResultsFolder(out, overwrite=overwrite)
+    sites = [apply_variant(site, v) for v in variants]
+
+    if workers or scheduler:
+        from .distributed import connect, map_variants
+        with connect(scheduler or workers) as client:     # whole variants on the workers
+            results = map_variants(compute, sites, client, progress=progress)
+    else:
+        results = [compute(s, progress) for s in sites]
+    with folder:
+        for v, res in zip(variants, results):
+            sub = _SubFolder(folder, v.name)
+            write_all(res, sub, report=report, assumptions=ASSUMPTIONS, cautions=CAUTIONS,
+                      version=__version__)
+        env = envelope_points({v.name: r.points for v, r in zip(variants, results)})
+        write_table_csv(folder.path("envelope_points.csv"), env, site.units,
+                        {**_quantities(env), "variant_of_max_dsz": None}, crs=site.crs)
+        from .io.manifest import write_manifest
+        write_manifest(folder, settings={"variants": [vars(v) for v in variants]},
+                       units=site.units, inputs=site.config.input_files() + [Path(variants_path)],
+                       site_file=site.path, crs=site.crs, grid=site.spec,
+                       assumptions=ASSUMPTIONS, cautions=CAUTIONS)
+    return [RunSummary(r, out / v.name) for v, r in zip(variants, results)], env
+
+
+class _SubFolder:
+    """The part of a results-folder transaction under one variant's name."""
+
+    def __init__(self, folder, name: str):
+        self.folder, self.name = folder, name
+        self.root = folder.path(name)
+        self.root.mkdir(parents=True, exist_ok=True)
+
+    def path(self, rel: str) -> Path:
+        return self.folder.path(f"{self.name}/{rel}")
+
+    def __fspath__(self) -> str:
+        return str(self.root)

@@ -1,0 +1,94 @@
+"""Batch runs over variants and their envelope."""
+import numpy as np
+import pandas as pd
+import pytest
+
+from fillstress.batch import apply_variant, read_variants, Variant
+from fillstress.cli import main
+from fillstress.errors import InputError
+from fillstress.examples import example_site
+from fillstress.run import compute
+from fillstress.site import load_site
+from fillstress.units import SI
+
+VARIANTS = """
+[[variants]]
+name = "as_designed"
+
+[[variants]]
+name = "heavy"
+unit_weight_factor = 1.25
+
+[[variants]]
+name = "taller"
+height_factor = 1.5
+water_table = 0.5
+"""
+
+
+@pytest.fixture(scope="module")
+def batch(tmp_path_factory):
+    root = tmp_path_factory.mktemp("batch")
+    (root / "variants.toml").write_text(VARIANTS)
+    out = root / "out"
+    code = main(["batch", str(example_site("preload_surcharge")), str(root / "variants.toml"),
+                 "-o", str(out), "--quiet", "--no-report"])
+    assert code == 0
+    return out
+
+
+def _points(folder):
+    return pd.read_csv(folder / "boreholes_points.csv")
+
+
+def test_each_variant_has_a_complete_results_folder(batch):
+    for name in ("as_designed", "heavy", "taller"):
+        assert (batch / name / "manifest.json").is_file()
+        assert (batch / name / "boreholes_points.csv").is_file()
+    assert (batch / "manifest.json").is_file()
+
+
+def test_stress_scales_linearly_with_unit_weight_and_height(batch):
+    # Elastic superposition: Δσz is linear in the surface pressure γ·t (exact up to the
+    # round-off of summing signed corner terms, ~1e-15 of the applied pressure).
+    base = _points(batch / "as_designed")["dsz_kPa"]
+    for name, factor in (("heavy", 1.25), ("taller", 1.5)):
+        np.testing.assert_allclose(_points(batch / name)["dsz_kPa"], factor * base,
+                                   rtol=1e-12, atol=1e-10)
+
+
+def test_as_designed_variant_equals_a_plain_run():
+    site = load_site(example_site("preload_surcharge"))
+    plain = compute(site).points
+    same = compute(apply_variant(site, Variant("as_designed"))).points
+    pd.testing.assert_frame_equal(plain, same)
+
+
+def test_envelope_is_the_largest_value_of_any_variant(batch):
+    env = pd.read_csv(batch / "envelope_points.csv")
+    stacked = np.vstack([_points(batch / n)["dsz_kPa"] for n in ("as_designed", "heavy", "taller")])
+    np.testing.assert_allclose(env["dsz_kPa"], stacked.max(axis=0), rtol=1e-12)
+    assert set(env["variant_of_max_dsz"]) == {"taller"}        # 1.5 > 1.25 everywhere
+
+
+def test_higher_water_table_lowers_effective_stress(batch):
+    base = _points(batch / "as_designed")
+    wet = _points(batch / "taller")
+    deep = (base["depth_m"] > 1.0) & base["sigma_v0_kPa"].notna()   # below both water tables
+    assert deep.sum() > 10
+    assert (wet.loc[deep, "sigma_v0_kPa"] < base.loc[deep, "sigma_v0_kPa"]).all()
+
+
+@pytest.mark.parametrize("text, words", [
+    ("[[variants]]\nname = \"a\"\nunit_weight_factr = 1.1\n", "did you mean 'unit_weight_factor'"),
+    ("[[variants]]\nname = \"a\"\nheight_factor = -1\n", "must be a number > 0"),
+    ("[[variants]]\nname = \"a\"\n[[variants]]\nname = \"a\"\n", "unique"),
+    ("[[variants]]\nname = \"a b\"\n", "needs a name"),
+    ("[[variants]]\nname = \"a\"\nmethod = \"elastic\"\n", "boussinesq or westergaard"),
+])
+def test_bad_variants_file(tmp_path, text, words):
+    p = tmp_path / "v.toml"
+    p.write_text(text)
+    with pytest.raises(InputError, match=words) as err:
+        read_variants(p, SI)
+    assert str(p) in str(err.value)
