@@ -1,54 +1,102 @@
-"""What a run will compute and roughly what it costs, before computing anything."""
+"""What a run of a site will compute and what it will cost, before computing anything.
+
+The figures come from fillstress.estimate (sizes of the arrays the solvers allocate and
+throughputs measured on a 2-core machine); this module only counts the site's work.
+"""
 from __future__ import annotations
 
-import numpy as np
+import math
 
-# Throughput of direct summation measured on a 2-core machine (docs/performance.md):
-# conservative figures for estimates, not promises.
-PAIRS_PER_SECOND = 1.0e8
-FFT_CELLS_PER_SECOND = 1.0e7
+from .estimate import Estimate, check_capacity, estimate_points, estimate_slices, format_bytes
+
+DEFAULT_CAP_FRACTION = 0.6
 
 
-def run_cost(site) -> dict:
-    """Counts, estimated seconds and peak bytes of a run of `site`."""
-    cells = site.spec.nx * site.spec.ny
-    active = int(np.count_nonzero(site.load_grid().pressure))
-    n_points = len(site.points)
-    sublayer_points = 0
-    if site.soil is not None:
-        from .settlement import sublayers
-        settle = site.points[site.points["role"] != "profile"]
-        for depth, g in settle.groupby("depth"):
-            sublayer_points += len(g) * len(sublayers(site.soil, top_depth=float(depth))[0])
-        sublayer_points *= len(site.stages)
-    slice_depths = sum(len(p.depths) for p in site.plan_grids)
-    pairs = active * (n_points * 2 + sublayer_points)        # ×2: convergence check on 4× cells
-    fft_cells = 4 * cells * slice_depths
-    seconds = pairs / PAIRS_PER_SECOND + fft_cells * np.log2(max(fft_cells, 2)) / FFT_CELLS_PER_SECOND / 20
-    peak = 8 * (4 * cells * 6 + slice_depths * cells + 20 * max(n_points, 1))
-    return {"cells": cells, "loaded_cells": active, "points": n_points,
-            "settlement_points": sublayer_points, "slice_depths": slice_depths,
-            "seconds": float(seconds), "peak_bytes": int(peak)}
+def memory_cap(site) -> float:
+    """Bytes a run may use: [grid] memory_cap (GB) or 60 % of the machine's memory."""
+    gb = (site.config.get("grid") or {}).get("memory_cap")
+    if gb is not None:
+        return gb * 1e9
+    import psutil
+    return DEFAULT_CAP_FRACTION * psutil.virtual_memory().total
+
+
+def settlement_points(site) -> int:
+    """Sample points of the settlement columns (every sublayer, every stage)."""
+    if site.soil is None:
+        return 0
+    from .settlement import sublayers
+    settle = site.points[site.points["role"] != "profile"]
+    total = sum(len(g) * len(sublayers(site.soil, top_depth=float(d))[0])
+                for d, g in settle.groupby("depth"))
+    return total * len(site.stages)
+
+
+def _pad_cells(site, plan) -> tuple[int, int]:
+    gx0, gy0, gx1, gy1 = site.spec.extent
+    pad = max(0.0, gx0 - plan.xmin, gy0 - plan.ymin, plan.xmax - gx1, plan.ymax - gy1)
+    return (math.ceil(pad / site.spec.dx), math.ceil(pad / site.spec.dy))
+
+
+def run_estimates(site) -> list[Estimate]:
+    """One estimate per kind of work: receptor points, settlement columns, the
+    convergence check (a grid of half the cell size) and each plan grid's slices."""
+    from .solve.auto import choose_algorithm
+    shape, grid = site.spec.shape, site.load_grid()
+    out = []
+    for label, n, g_shape in (("receptor points", len(site.points), shape),
+                              ("settlement columns", settlement_points(site), shape),
+                              ("convergence check", len(site.points),
+                               (2 * shape[0], 2 * shape[1]))):
+        if n:
+            algorithm = choose_algorithm(grid, n)
+            e = estimate_points(g_shape, n, algorithm=algorithm)
+            out.append(Estimate(label, e.bytes, e.seconds, e.detail))
+    for plan in site.plan_grids:
+        e = estimate_slices(shape, len(plan.depths), pad_cells=_pad_cells(site, plan))
+        out.append(Estimate(f"plan grid {plan.name}", e.bytes, e.seconds, e.detail))
+    return out
+
+
+def check_fits(site) -> list[Estimate]:
+    """Raise CapacityError, with the numbers, when point work cannot fit the memory cap.
+    Plan slices that do not fit are tiled instead (see run.py)."""
+    cap = memory_cap(site)
+    estimates = run_estimates(site)
+    for e in estimates:
+        if not e.operation.startswith("plan grid"):
+            check_capacity(e, cap, hint="use a coarser [grid] cell or fewer receptor points")
+    return estimates
+
+
+def slices_need_tiles(site, plan) -> bool:
+    e = estimate_slices(site.spec.shape, len(plan.depths), pad_cells=_pad_cells(site, plan))
+    return e.bytes > memory_cap(site)
 
 
 def describe_run(site) -> list[list]:
     """Rows (item, value) for `fillstress check`."""
-    c = run_cost(site)
     u = site.units
     kinds = site.points["receptor_kind"].value_counts().to_dict() if len(site.points) else {}
+    loaded = int((site.load_grid().pressure != 0).sum())
+    estimates = run_estimates(site)
+    cap = memory_cap(site)
     rows = [
         ["site", site.name],
         ["CRS", site.crs.to_string() if site.crs is not None else "none stated"],
         ["units", f"{u.name} ({u.length}, {u.pressure}, {u.unit_weight})"],
         ["method", site.method + (f", ν = {site.poisson:g}" if site.poisson is not None else "")],
         ["analysis grid", f"{site.spec.nx} × {site.spec.ny} cells of "
-                          f"{u.length_out(site.spec.dx):g} {u.length} ({c['loaded_cells']:,} loaded)"],
+                          f"{u.length_out(site.spec.dx):g} {u.length} ({loaded:,} loaded)"],
         ["construction stages", ", ".join(map(str, site.stages))],
         ["receptor points", ", ".join(f"{n} {k}" for k, n in kinds.items()) or "none"],
-        ["plan-grid slices", str(c["slice_depths"])],
         ["soil profile", "none" if site.soil is None else
          ", ".join(L.name for L in site.soil.layers)],
-        ["estimated run time", f"{c['seconds']:.1f} s (2-core machine)"],
-        ["estimated peak memory", f"{c['peak_bytes'] / 2**20:.0f} MiB"],
     ]
+    rows += [[f"estimate: {e.operation}", f"{format_bytes(e.bytes)}, about {e.seconds:.2g} s "
+              f"({e.detail})" + (" — will be tiled" if e.bytes > cap and
+                                 e.operation.startswith("plan grid") else "")]
+             for e in estimates]
+    rows.append(["estimated total", f"about {sum(e.seconds for e in estimates):.2g} s on a "
+                 f"2-core machine; memory cap {format_bytes(cap)}"])
     return rows

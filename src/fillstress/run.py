@@ -99,10 +99,16 @@ def _plan_slices(site: Site, grid, plan, client=None):
     xmin, ymin, xmax, ymax = plan.xmin, plan.ymin, plan.xmax, plan.ymax
     gx0, gy0, gx1, gy1 = grid.extent
     pad = max(0.0, gx0 - xmin, gy0 - ymin, xmax - gx1, ymax - gy1)
+    from .estimate_run import memory_cap, slices_need_tiles
+    cap = memory_cap(site) if slices_need_tiles(site, plan) else None
     if client is not None:
         from .distributed import distributed_slices
         da = distributed_slices(grid, plan.depths, site.method, site.poisson, client=client,
-                                pad=pad)
+                                pad=pad, memory_cap=cap)
+    elif cap is not None:
+        from .solve.tiled import tiled_slices
+        da = tiled_slices(grid, plan.depths, site.method, site.poisson, pad=pad,
+                          memory_cap=cap)
     else:
         da = stress_slices(grid, plan.depths, method=site.method, poisson=site.poisson,
                            pad=pad)
@@ -253,9 +259,11 @@ def run_site_file(path, out=None, *, overwrite=False, report=True, progress=sile
     `out` defaults to ``results-<site file stem>`` beside the current folder.
     """
     from .io.atomic import ResultsFolder
+    from .estimate_run import check_fits
     site = load_site(path)
     out = Path(out) if out else Path(f"results-{Path(path).stem}")
     folder = ResultsFolder(out, overwrite=overwrite)      # refuses an existing folder now
+    check_fits(site)                                      # refuses, with numbers, before work
     if workers and scheduler:
         raise InputError("give --workers or --scheduler, not both", argument="--workers")
     if workers or scheduler:

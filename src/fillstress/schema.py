@@ -94,6 +94,9 @@ GRID = Table("grid", "The analysis grid and the stress method.", (
         default=0.0, minimum=0.0),
     Key("convergence_check", "bool", "Recompute the receptors on a grid of half the cell size "
         "and report the largest relative change.", default=True),
+    Key("memory_cap", "float", "Largest memory a run may use, in GB (10⁹ bytes). Plan slices "
+        "beyond it are computed in tiles; point work beyond it is refused before it starts. "
+        "Default: 60 % of the machine's memory.", **_POS),
 ))
 
 GROUND = Table("ground", "The existing ground surface, used to turn elevations into depths "

@@ -1,0 +1,43 @@
+"""A run checks its memory before it starts: point work over the cap is refused with the
+numbers; plan slices over the cap are computed in tiles with the same values."""
+import shutil
+
+import numpy as np
+import pytest
+
+from fillstress.cli import main
+from fillstress.estimate_run import run_estimates, slices_need_tiles
+from fillstress.examples import example_site
+from fillstress.run import compute
+from fillstress.site import load_site
+
+
+def _site_with_cap(tmp_path, cap_gb):
+    dst = tmp_path / "site"
+    shutil.copytree(example_site("preload_surcharge").parent, dst)
+    toml = dst / "site.toml"
+    toml.write_text(toml.read_text().replace("margin = 30.0", f"margin = 30.0\nmemory_cap = {cap_gb!r}"))
+    return toml
+
+
+def test_point_work_over_the_cap_is_refused_before_anything_is_written(tmp_path, capsys):
+    toml = _site_with_cap(tmp_path, 1e-6)               # 1 kB
+    out = tmp_path / "out"
+    assert main(["run", str(toml), "-o", str(out)]) == 2
+    err = capsys.readouterr().err
+    assert "needs" in err and "cap is" in err and len(err.strip().splitlines()) == 1
+    assert not out.exists() and not list(tmp_path.glob(".*partial*"))
+
+
+def test_slices_over_the_cap_are_tiled_with_the_same_values(tmp_path):
+    plain = load_site(example_site("preload_surcharge"))
+    est = {e.operation: e.bytes for e in run_estimates(plain)}
+    points = max(v for k, v in est.items() if not k.startswith("plan grid"))
+    slices = est["plan grid pad"]
+    assert points < slices, "the test needs slices to be the largest item"
+    capped = load_site(_site_with_cap(tmp_path, (points + slices) / 2 / 1e9))
+    assert slices_need_tiles(capped, capped.plan_grids[0])
+    a = compute(plain).slices["pad"]
+    b = compute(capped).slices["pad"]
+    np.testing.assert_allclose(b.values, a.values, rtol=0, atol=1e-10 * float(abs(a).max()))
+    assert b.dims == a.dims and np.array_equal(b.x, a.x) and np.array_equal(b.y, a.y)
