@@ -133,6 +133,7 @@ def build_site(cfg: SiteConfig) -> Site:
         site_crs = crsmod.site_crs(s["crs"]) if s.get("crs") else None
     factor = site_crs[1] if site_crs else 1.0
     ctx = _Context(cfg, site_crs, factor, None)
+    ctx.cut_reports = {}
     ctx.ground = _ground(ctx)
     geoms = {name: _body_outline(ctx, name, raw) for name, raw in cfg["bodies"].items()}
     receptors = _receptors(ctx)
@@ -343,7 +344,11 @@ def _surfaces(ctx, name, raw, spec):
         existing = ctx.ground
     else:
         raise InputError("needs existing = \"...\" or a [ground] table", argument="existing")
-    thickness, cut = fill_from_surfaces(design, existing, spec, cut=raw["cut"])
+    thickness, report = fill_from_surfaces(design, existing, spec, cut=raw["cut"])
+    if report.area_compared <= 0:
+        raise InputError("the design and existing surfaces do not overlap inside the grid",
+                         argument="design")
+    ctx.cut_reports[name] = report      # the cut is reported even where it is ignored
     return thickness
 
 

@@ -41,11 +41,20 @@ def _vtk_slice(site, da):
 
 # --- tables ---------------------------------------------------------------------------
 def bodies_table(site) -> pd.DataFrame:
-    return pd.DataFrame([{"body": b.name, "kind": b.kind, "stage": b.stage,
-                          "excavation": b.excavation, "unit_weight": b.unit_weight,
-                          "volume": b.volume, "footprint_area": b.footprint_area,
-                          "max_height": b.max_height, "total_load": b.total_load}
-                         for b in site.bodies])
+    """One row per body; surface-difference bodies also give the cut found and the area
+    where both surfaces were compared."""
+    cuts = site._ctx.cut_reports if hasattr(site, "_ctx") else {}
+    rows = []
+    for b in site.bodies:
+        cut = cuts.get(b.name)
+        rows.append({"body": b.name, "kind": b.kind, "stage": b.stage,
+                     "excavation": b.excavation, "unit_weight": b.unit_weight,
+                     "volume": b.volume, "footprint_area": b.footprint_area,
+                     "max_height": b.max_height, "total_load": b.total_load,
+                     "cut_volume": cut.volume_cut if cut else np.nan,
+                     "cut_treated_as": cut.cut if cut else "",
+                     "compared_area": cut.area_compared if cut else np.nan})
+    return pd.DataFrame(rows)
 
 
 def building_summary(res) -> pd.DataFrame:
@@ -82,7 +91,8 @@ EXTRA_QUANTITIES = {"chainage_at_max": "length", "differential_length": "length"
                     "differential_from": "length", "differential_to": "length",
                     "gradient_max": None, "influence_depth": "length", "fraction": None,
                     "x_at_max": "length", "y_at_max": "length", "depth_at_max": "length",
-                    "elevation": "length"}
+                    "elevation": "length", "cut_volume": "volume",
+                    "compared_area": "area"}
 
 
 def stress_summary(points: pd.DataFrame) -> pd.DataFrame:
@@ -163,7 +173,8 @@ def write_all(res, folder, *, report=True, progress=silent, assumptions="", caut
 
 def _write_tables(res, folder) -> None:
     site, u = res.site, res.site.units
-    tables.write_table_csv(folder.path("bodies.csv"), bodies_table(site), u)
+    bodies = bodies_table(site)
+    tables.write_table_csv(folder.path("bodies.csv"), bodies, u, _quantities(bodies))
     for kind, name in KIND_FILES.items():
         pts = res.points[res.points["receptor_kind"] == kind]
         if pts.empty:
@@ -276,8 +287,8 @@ def _write_summary_json(res, folder, assumptions, cautions) -> None:
         "site": {"name": site.name, "description": site.description,
                  "units": site.units.name, "method": site.method, "poisson": site.poisson,
                  "cell": site.units.length_out(site.spec.dx), "stages": site.stages},
-        "bodies": json.loads(tables.labelled_table(bodies_table(site), site.units)
-                             .to_json(orient="records")),
+        "bodies": json.loads(tables.labelled_table(bodies_table(site), site.units,
+                                                   EXTRA_QUANTITIES).to_json(orient="records")),
         "soil": _soil_rows(site),
         "convergence": res.convergence,
         "receptors": {name: json.loads(tables.labelled_table(

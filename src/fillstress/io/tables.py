@@ -154,6 +154,9 @@ def labelled_table(table: pd.DataFrame, units: UnitSystem,
             raise InputError(f"numeric column {name!r} has no declared quantity; pass it in "
                              "quantities (None if dimensionless)", argument="quantities")
         q = known[name]
+        if q is None and pd.api.types.is_integer_dtype(column):
+            out[name] = column              # counts and stage numbers stay whole numbers
+            continue
         values = column.to_numpy(dtype=float)
         if np.any(np.isinf(values)):
             raise InputError(f"column {name!r} holds infinite values", argument="table")
