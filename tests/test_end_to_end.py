@@ -203,3 +203,25 @@ def test_run_on_a_local_dask_cluster_equals_the_serial_run(runs, tmp_path):
     for csv in runs["preload_surcharge"].glob("*_points.csv"):
         pd.testing.assert_frame_equal(pd.read_csv(out / csv.name), pd.read_csv(csv),
                                       check_exact=False, rtol=1e-12)
+
+
+def test_plan_grid_spacing_takes_every_kth_cell_centre(tmp_path):
+    import rasterio
+    toml = _copy_site(tmp_path, "preload_surcharge")
+    toml.write_text(toml.read_text().replace('name = "pad"', 'name = "pad"\nspacing = 6.0'))
+    coarse = load_site(toml)
+    fine = load_site(example_site("preload_surcharge"))
+    from fillstress.run import compute
+    a = compute(fine).slices["pad"]
+    b = compute(coarse).slices["pad"]
+    np.testing.assert_array_equal(b.values, a.values[:, ::3, ::3])
+    out = tmp_path / "out"
+    assert main(["run", str(toml), "-o", str(out), "--quiet", "--no-report"]) == 0
+    with rasterio.open(next((out / "slices").glob("*.tif"))) as src:
+        assert src.res == (6.0, 6.0)
+        x, y = src.xy(0, 0)
+        assert x == pytest.approx(float(b.x[0])) and y == pytest.approx(float(b.y[-1]))
+    bad = toml.read_text().replace("spacing = 6.0", "spacing = 5.0")
+    toml.write_text(bad)
+    with pytest.raises(Exception, match="whole multiple of the cell size 2 m"):
+        load_site(toml)

@@ -112,7 +112,9 @@ def _plan_slices(site: Site, grid, plan, client=None):
     else:
         da = stress_slices(grid, plan.depths, method=site.method, poisson=site.poisson,
                            pad=pad)
-    return da.sel(x=slice(xmin, xmax), y=slice(ymin, ymax))
+    step = max(1, round(plan.spacing / site.spec.dx))
+    return da.sel(x=slice(xmin, xmax), y=slice(ymin, ymax)).isel(
+        x=slice(None, None, step), y=slice(None, None, step))
 
 
 def convergence_check(site: Site, pts: pd.DataFrame, client=None) -> dict:

@@ -252,6 +252,9 @@ PLAN_GRIDS = Table("plan_grids", "Plan grids of Δσz at a list of depths, compu
         example="[2.0, 5.0, 10.0]"),
     Key("extent", "extent", "[xmin, ymin, xmax, ymax] of the grid (default: the analysis grid "
         "extent).", unit=COORD),
+    Key("spacing", "float", "Node spacing: the analysis cell (default) or a whole multiple of "
+        "it, taking every k-th cell centre (the FFT slices are exact only on cell centres).",
+        unit=LENGTH, **_POS),
 ), many="array")
 
 SETTLEMENT = Table("settlement", "Settlement checks (need [soil]).", (

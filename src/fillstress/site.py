@@ -538,7 +538,13 @@ def _plan_grids(ctx: _Context, spec: GridSpec) -> list:
     grids = []
     for i, g in enumerate(ctx.cfg.get("plan_grids") or []):
         extent = (np.array(g["extent"]) * ctx.factor).tolist() if g.get("extent") else None
+        spacing = g.get("spacing") or spec.dx
+        step = spacing / spec.dx
+        if abs(step - round(step)) > 1e-6 or round(step) < 1:
+            raise InputError(f"must be a whole multiple of the cell size "
+                             f"{ctx.cfg.units.length_out(spec.dx):g} {ctx.cfg.units.length}",
+                             file=ctx.cfg.path, key=f"plan_grids[{i}].spacing")
         with _located(ctx.cfg, f"plan_grids[{i}]"):
-            grids.append(rc.plan_grid(extent or list(spec.extent), spec.dx, g["depths"],
-                                      name=g["name"]))
+            grids.append(rc.plan_grid(extent or list(spec.extent), round(step) * spec.dx,
+                                      g["depths"], name=g["name"]))
     return grids

@@ -236,8 +236,9 @@ def _write_rasters(res, folder) -> None:
 
 def _slice_spec(site, da) -> GridSpec:
     """Lattice (internal metres) whose cell centres are the slice's x, y coordinates."""
-    dx, dy = site.spec.dx, site.spec.dy
     x, y = da["x"].values, da["y"].values
+    dx = float(x[1] - x[0]) if len(x) > 1 else site.spec.dx
+    dy = float(y[1] - y[0]) if len(y) > 1 else site.spec.dy
     return GridSpec(x[0] - dx / 2, y[0] - dy / 2, dx, dy, len(x), len(y), site.crs)
 
 
