@@ -16,7 +16,6 @@ from __future__ import annotations
 import copy
 import difflib
 import math
-import tomllib
 from dataclasses import dataclass, replace
 from pathlib import Path
 
@@ -44,13 +43,9 @@ class Variant:
 
 def read_variants(path, units) -> list[Variant]:
     """Read and validate a variants file; lengths are converted with the site's units."""
+    from .sitefile import read_toml
     path = Path(path)
-    if not path.is_file():
-        raise InputError("variants file not found", file=path)
-    try:
-        raw = tomllib.loads(path.read_text(encoding="utf-8"))
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(f"not valid TOML: {exc}", file=path) from None
+    raw = read_toml(path, "variants file")
     items = raw.get("variants")
     if set(raw) - {"variants"} or not isinstance(items, list) or not items:
         raise InputError("needs one or more [[variants]] tables and nothing else", file=path)

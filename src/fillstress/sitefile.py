@@ -72,15 +72,20 @@ def read_site_file(path) -> SiteConfig:
     (3.048, 18.85)
     """
     path = Path(path)
+    return validate(read_toml(path, "site file"), path)
+
+
+def read_toml(path: Path, what: str) -> dict:
+    """Parse a TOML file, with one-line errors naming it (`what`: "site file", ...)."""
+    path = Path(path)
     if not path.is_file():
-        raise InputError("site file not found", file=path)
+        raise InputError(f"{what} not found", file=path)
     try:
-        raw = tomllib.loads(path.read_text(encoding="utf-8"))
+        return tomllib.loads(path.read_text(encoding="utf-8"))
     except tomllib.TOMLDecodeError as exc:
         raise InputError(f"not valid TOML: {exc}", file=path) from None
     except UnicodeDecodeError:
         raise InputError("not a UTF-8 text file", file=path) from None
-    return validate(raw, path)
 
 
 def validate(raw: dict, path: Path) -> SiteConfig:

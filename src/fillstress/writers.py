@@ -57,34 +57,39 @@ def bodies_table(site) -> pd.DataFrame:
     return pd.DataFrame(rows)
 
 
-def building_summary(res) -> pd.DataFrame:
+# Output column ← field of the structures.py row (SI; the writers convert units).
+BUILDING_COLUMNS = {"receptor_id": "receptor_id", "n_points": "n_points",
+                    "settlement_max": "settlement_max_m", "settlement_min": "settlement_min_m",
+                    "differential_settlement": "differential_m",
+                    "angular_distortion": "angular_distortion"}
+PIPE_COLUMNS = {"receptor_id": "receptor_id", "n_points": "n_points",
+                "settlement_max": "settlement_max_m", "chainage_at_max": "chainage_at_max_m",
+                "differential_length": "differential_length_m",
+                "differential_settlement": "differential_max_m",
+                "differential_from": "differential_from_chainage_m",
+                "differential_to": "differential_to_chainage_m", "gradient_max": "gradient_max"}
+
+
+def _renamed(items, columns: dict, extra=lambda row: {}) -> pd.DataFrame:
     rows = []
-    for b in res.buildings:
-        r = b.as_row()
-        rows.append({"receptor_id": r["receptor_id"], "n_points": r["n_points"],
-                     "settlement_max": r["settlement_max_m"],
-                     "settlement_min": r["settlement_min_m"],
-                     "differential_settlement": r["differential_m"],
-                     "angular_distortion": r["angular_distortion"],
-                     "distortion_between": f"{r['distortion_point_a']}–{r['distortion_point_b']}",
-                     "worst_limit_reached": r["worst_limit"] or "none",
-                     **{k: v for k, v in r.items() if k.startswith("exceeds_")}})
+    for item in items:
+        r = item.as_row()
+        rows.append({**{out: r[src] for out, src in columns.items()}, **extra(r)})
     return pd.DataFrame(rows)
+
+
+def _building_flags(r: dict) -> dict:
+    return {"distortion_between": f"{r['distortion_point_a']}–{r['distortion_point_b']}",
+            "worst_limit_reached": r["worst_limit"] or "none",
+            **{k: v for k, v in r.items() if k.startswith("exceeds_")}}
+
+
+def building_summary(res) -> pd.DataFrame:
+    return _renamed(res.buildings, BUILDING_COLUMNS, _building_flags)
 
 
 def pipe_summary(res) -> pd.DataFrame:
-    rows = []
-    for p in res.pipes:
-        r = p.as_row()
-        rows.append({"receptor_id": r["receptor_id"], "n_points": r["n_points"],
-                     "settlement_max": r["settlement_max_m"],
-                     "chainage_at_max": r["chainage_at_max_m"],
-                     "differential_length": r["differential_length_m"],
-                     "differential_settlement": r["differential_max_m"],
-                     "differential_from": r["differential_from_chainage_m"],
-                     "differential_to": r["differential_to_chainage_m"],
-                     "gradient_max": r["gradient_max"]})
-    return pd.DataFrame(rows)
+    return _renamed(res.pipes, PIPE_COLUMNS)
 
 
 EXTRA_QUANTITIES = {"chainage_at_max": "length", "differential_length": "length",
