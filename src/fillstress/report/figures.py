@@ -47,21 +47,58 @@ def _draw_fill_outline(ax, fill: PlanField | None):
                linestyles="dashed", linewidths=1.2)
 
 
+def _label(ax, x, y, text):
+    """A receptor id beside its symbol, on a white box so it reads over any colour."""
+    ax.annotate(str(text), (x, y), xytext=(4, 4), textcoords="offset points", fontsize=7,
+                bbox=dict(boxstyle="round,pad=0.15", facecolor="white", alpha=0.8,
+                          edgecolor="none"))
+
+
 def _draw_features(ax, buildings, pipes, boreholes):
     for feat in buildings:
         for poly in getattr(feat.geometry, "geoms", [feat.geometry]):
             if poly.geom_type == "Polygon":
                 x, y = poly.exterior.xy
                 ax.fill(x, y, facecolor="white", edgecolor="black", alpha=0.55, linewidth=1.2)
+        c = feat.geometry.centroid
+        _label(ax, c.x, c.y, feat.receptor_id)
     for feat in pipes:
         for line in getattr(feat.geometry, "geoms", [feat.geometry]):
             if line.geom_type == "LineString":
                 x, y = line.xy
                 ax.plot(x, y, color="darkorange", linewidth=2.4)
+        end = feat.geometry.interpolate(0.15, normalized=True)
+        _label(ax, end.x, end.y, feat.receptor_id)
     for feat in boreholes:
         c = feat.geometry.centroid
         ax.plot([c.x], [c.y], marker="o", markersize=7, markerfacecolor="white",
                 markeredgecolor="black")
+        _label(ax, c.x, c.y, feat.receptor_id)
+
+
+def nice_levels(lo: float, hi: float, n: int = 12) -> np.ndarray:
+    """Contour levels at round numbers covering [lo, hi] (from 0 when lo ≥ 0).
+
+    Examples
+    --------
+    >>> nice_levels(0.2, 2997.0).tolist()
+    [0.0, 250.0, 500.0, 750.0, 1000.0, 1250.0, 1500.0, 1750.0, 2000.0, 2250.0, 2500.0, 2750.0, 3000.0]
+    """
+    from matplotlib.ticker import MaxNLocator
+    lo = min(lo, 0.0)
+    hi = hi if hi > lo else lo + 1.0
+    return MaxNLocator(nbins=n, steps=[1, 2, 2.5, 5, 10]).tick_values(lo, hi)
+
+
+def _level_text(value: float) -> str:
+    return f"{value:,.0f}" if abs(value) >= 100 else f"{value:g}"
+
+
+def _figure_size(field: PlanField, width_in: float = 7.2) -> tuple[float, float]:
+    """Figure size that follows the plan's aspect ratio (colour bar on the right)."""
+    dx, dy = np.ptp(field.x), np.ptp(field.y)
+    aspect = dy / dx if dx > 0 and dy > 0 else 0.75
+    return width_in, float(np.clip((width_in - 2.3) * aspect + 0.9, 3.0, 9.0))
 
 
 def plan_map(field: PlanField, *, fill: PlanField | None = None, buildings=(), pipes=(),
@@ -76,13 +113,14 @@ def plan_map(field: PlanField, *, fill: PlanField | None = None, buildings=(), p
     fill : PlanField, optional
         Fill thickness; its outline is drawn dashed.
     buildings, pipes, boreholes : sequences of Feature
-        Receptor geometry drawn over the map.
+        Receptor geometry drawn over the map, each labelled with its id.
     length_unit : str
-        Axis unit label.
+        Unit of the plan coordinates (the CRS's axis unit), shown on both axes.
     label : str
         Colour bar label (the unit is appended).
     levels : array_like, optional
-        Contour levels; by default 12 levels from 0 (or the minimum) to the maximum.
+        Contour levels; by default round numbers from 0 (or the minimum) to the maximum
+        (:func:`nice_levels`). Pass the same levels to maps that are to be compared.
 
     Examples
     --------
@@ -91,17 +129,20 @@ def plan_map(field: PlanField, *, fill: PlanField | None = None, buildings=(), p
     >>> plan_map(f)[:4] == b"\\x89PNG"
     True
     """
+    from matplotlib.ticker import FuncFormatter, MaxNLocator
     lo, hi = field.value_range()
-    if levels is None:
-        lo = min(lo, 0.0)
-        levels = np.linspace(lo, hi if hi > lo else lo + 1.0, 13)
-    fig = _new_figure(6.4, 5.0)
+    levels = nice_levels(lo, hi) if levels is None else np.asarray(levels, float)
+    fig = _new_figure(*_figure_size(field))
     ax = fig.add_subplot()
     filled = ax.contourf(field.x, field.y, field.values, levels=levels, cmap=PLAN_CMAP,
                          extend="both")
     lines = ax.contour(field.x, field.y, field.values, levels=levels[1::2], colors="white",
-                       linewidths=0.6)
-    ax.clabel(lines, fmt="%.3g", fontsize=7)
+                       linewidths=0.7)
+    texts = ax.clabel(lines, fmt=_level_text, fontsize=8, inline=True, inline_spacing=6)
+    for t in texts:      # dark text on a light box: readable over every colour of the map
+        t.set_color("black")
+        t.set_bbox(dict(boxstyle="round,pad=0.1", facecolor="white", alpha=0.75,
+                        edgecolor="none"))
     _draw_fill_outline(ax, fill)
     _draw_features(ax, buildings, pipes, boreholes)
     ax.set_xlim(field.x[0], field.x[-1])
@@ -109,8 +150,13 @@ def plan_map(field: PlanField, *, fill: PlanField | None = None, buildings=(), p
     ax.set_aspect("equal")
     ax.set_xlabel(f"x, east ({length_unit})")
     ax.set_ylabel(f"y, north ({length_unit})")
-    ax.ticklabel_format(useOffset=False, style="plain")
-    fig.colorbar(filled, ax=ax, label=f"{label} ({field.units})", shrink=0.85)
+    plain = FuncFormatter(lambda v, _: f"{v:.0f}" if abs(v) >= 100 else f"{v:g}")
+    for axis in (ax.xaxis, ax.yaxis):
+        axis.set_major_locator(MaxNLocator(nbins=5))
+        axis.set_major_formatter(plain)
+    bar = fig.colorbar(filled, ax=ax, label=f"{label} ({field.units})", shrink=0.9,
+                       ticks=levels)
+    bar.ax.yaxis.set_major_formatter(FuncFormatter(lambda v, _: _level_text(v)))
     return png_bytes(fig)
 
 
@@ -169,4 +215,43 @@ def chainage_profile(chainage, values, *, length_unit: str, value_label: str,
     return png_bytes(fig)
 
 
-__all__ = ["plan_map", "depth_profile", "chainage_profile", "png_bytes", "Feature"]
+def settlement_time(days, settlement, *, settlement_unit: str, title: str = "",
+                    stage_days=()) -> bytes:
+    """Settlement against time since the first stage (log time axis, settlement down).
+
+    Time 0 cannot sit on a log axis: the curve starts at its first positive time.
+    The final value is written at the end of the curve.
+
+    Examples
+    --------
+    >>> settlement_time([0, 1, 10, 100], [0, 5, 20, 31], settlement_unit="mm")[:4] == b"\\x89PNG"
+    True
+    """
+    days = np.asarray(days, float)
+    values = np.asarray(settlement, float)
+    order = np.argsort(days)
+    days, values = days[order], values[order]
+    keep = (days > 0) & np.isfinite(values)
+    fig = _new_figure(6.4, 3.4)
+    ax = fig.add_subplot()
+    ax.plot(days[keep], values[keep], color="tab:blue")
+    for d in stage_days:
+        if d > 0:
+            ax.axvline(d, color="gray", linestyle=":", linewidth=1)
+    if keep.any():
+        ax.set_xscale("log")
+        ax.annotate(f"{values[keep][-1]:.3g} {settlement_unit}",
+                    (days[keep][-1], values[keep][-1]), xytext=(-4, 6),
+                    textcoords="offset points", ha="right", fontsize=8)
+    ax.set_ylim(bottom=0.0)
+    ax.invert_yaxis()                     # settlement plotted downward
+    ax.set_xlabel("time since the first stage was placed (days, log scale)")
+    ax.set_ylabel(f"settlement ({settlement_unit})")
+    ax.grid(True, which="both", linewidth=0.4, alpha=0.5)
+    if title:
+        ax.set_title(title, fontsize=9)
+    return png_bytes(fig)
+
+
+__all__ = ["plan_map", "depth_profile", "chainage_profile", "settlement_time", "nice_levels",
+           "png_bytes", "Feature"]

@@ -28,17 +28,25 @@ _SLICE_NAME = re.compile(r"^(?P<q>dsz)_(?P<grid>.+)_z(?P<depth>[0-9]+(?:\.[0-9]+
 class UnitLabels:
     """Unit labels of one results folder, as written in column suffixes.
 
+    ``plan`` is the unit of plan coordinates (the site CRS's axis unit, e.g. ``ftUS``);
+    it defaults to the length label.
+
     Examples
     --------
     >>> u = UnitLabels("m", "kPa", "kN/m3", "mm")
-    >>> u.suffixed("dsz", "pressure"), u.suffixed("stress_ratio", None)
-    ('dsz_kPa', 'stress_ratio')
+    >>> u.suffixed("dsz", "pressure"), u.suffixed("stress_ratio", None), u.plan
+    ('dsz_kPa', 'stress_ratio', 'm')
     """
 
     length: str
     pressure: str
     unit_weight: str
     settlement: str
+    plan: str = ""
+
+    def __post_init__(self):
+        if not self.plan:
+            object.__setattr__(self, "plan", self.length)
 
     def label(self, unit_key: str | None) -> str:
         """The label for a unit key ('length', 'pressure', ...), '' for dimensionless."""
@@ -143,7 +151,9 @@ class ResultsFolder:
         if missing:
             raise InputError(f"lacks label(s) {', '.join(missing)}",
                              file=self.path / "manifest.json", key="units")
-        return UnitLabels(*(units[k] for k in _UNIT_KEYS))
+        plan = units.get("plan")
+        return UnitLabels(*(units[k] for k in _UNIT_KEYS),
+                          plan=plan if isinstance(plan, str) and plan else units["length"])
 
     # --- tables ----------------------------------------------------------------
     def table(self, name: str):

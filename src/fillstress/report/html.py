@@ -2,20 +2,28 @@
 
 Images are embedded as base64 PNG and the style sheet is inline, so the file opens
 offline and can be sent on its own. Every text taken from the results folder passes
-through :func:`esc` (html.escape) before it reaches the page.
+through :func:`esc` (html.escape) before it reaches the page. Table headings state
+their unit in the site's unit system (:mod:`fillstress.report.labels`).
 """
 from __future__ import annotations
 
 import base64
-import html
-import math
+import re
 from datetime import datetime, timezone
 from pathlib import Path
 
 import numpy as np
 
+from ..units import FOOT
 from . import figures
-from .folder import ResultsFolder
+from .folder import ResultsFolder, UnitLabels
+from .labels import heading, unit_text
+from .tables import (_fmt, esc, frame_table, html_table, is_flag_column, is_flag_set,
+                     is_missing, json_block, key_value_table, plain, receptor_flagged,
+                     receptor_table)
+
+__all__ = ["SECTIONS", "write_report", "esc", "html_table", "frame_table", "json_block",
+           "is_flag_column", "_fmt"]
 
 SECTIONS = (
     ("site", "Site and job"),
@@ -24,6 +32,7 @@ SECTIONS = (
     ("plans", "Plan views of the vertical stress increase"),
     ("profiles", "Vertical profiles"),
     ("pipes", "Pipe profiles"),
+    ("time", "Settlement with time"),
     ("tables", "Result tables"),
     ("convergence", "Convergence check"),
     ("provenance", "Provenance"),
@@ -66,8 +75,12 @@ table { border-collapse: collapse; margin: .5em 0 1em; font-size: .85em; max-wid
 th, td { border: 1px solid #c9c9c9; padding: .2em .5em; text-align: left; vertical-align: top; }
 th { background: #eef2f6; }
 td.num { text-align: right; font-variant-numeric: tabular-nums; }
-tr.flagged td { background: #fde8e4; }
-td.flag { font-weight: bold; color: #8a1c0c; }
+tr.flagged td, th.flagged { background: #fde8e4; }
+th.flagged { color: #8a1c0c; }
+td.flag { font-weight: bold; color: #8a1c0c; background: #fde8e4; }
+table.receptors tbody th { font-weight: normal; background: #f6f8fa; }
+.findings { border: 2px solid #8a1c0c; padding: .4em 1em; background: #fde8e4; margin-top: 1em; }
+.findings.none { border-color: #2b4a6f; background: #eef2f6; }
 figure { margin: 1em 0; break-inside: avoid; page-break-inside: avoid; }
 figure img { max-width: 100%; }
 figcaption { font-size: .85em; color: #4a4a4a; }
@@ -84,130 +97,6 @@ code { font-size: .9em; word-break: break-all; }
   h2, h3 { break-after: avoid; page-break-after: avoid; }
 }
 """
-
-
-def esc(value) -> str:
-    """Text from an input file, escaped for HTML (quotes too).
-
-    Examples
-    --------
-    >>> esc('<script>alert("x")</script>')
-    '&lt;script&gt;alert(&quot;x&quot;)&lt;/script&gt;'
-    """
-    return html.escape(str(value), quote=True)
-
-
-def _fmt(value) -> str:
-    """A cell value: floats to 4 significant figures (2 decimals from 1000 up, so that
-    coordinates keep their precision), the rest as text (escaped).
-
-    Examples
-    --------
-    >>> _fmt(0.012345), _fmt(512363.0), _fmt("<x>")
-    ('0.01235', '512363.00', '&lt;x&gt;')
-    """
-    if isinstance(value, (bool, np.bool_)):
-        return "yes" if value else "no"
-    if isinstance(value, (float, np.floating)):
-        if math.isnan(value):
-            return ""
-        return esc(f"{value:.2f}" if abs(value) >= 1000 else f"{value:.4g}")
-    if isinstance(value, (int, np.integer)):
-        return esc(value)
-    if value is None:
-        return ""
-    return esc(value)
-
-
-def _is_number(value) -> bool:
-    return isinstance(value, (int, float, np.integer, np.floating)) and not isinstance(
-        value, (bool, np.bool_))
-
-
-def _is_flag_set(value) -> bool:
-    if value is None or (isinstance(value, float) and math.isnan(value)):
-        return False
-    if isinstance(value, (bool, np.bool_)):
-        return bool(value)
-    return str(value).strip().lower() not in ("", "0", "false", "no", "none", "ok")
-
-
-def is_flag_column(name) -> bool:
-    """Columns that flag a receptor: "flag…", "exceeds_…", "…limit_reached".
-
-    Examples
-    --------
-    >>> [is_flag_column(c) for c in ("flag", "exceeds_panel_wall_cracking", "dsz_max_kPa")]
-    [True, True, False]
-    """
-    name = str(name).lower()
-    return "flag" in name or name.startswith("exceeds_") or name.endswith("limit_reached")
-
-
-def html_table(columns, rows) -> str:
-    """An HTML table; every cell escaped, numbers right-aligned, flagged rows marked.
-
-    A flag column (:func:`is_flag_column`) marks its row when the value is set.
-
-    Examples
-    --------
-    >>> html_table(["id", "flag"], [["<b>", "too steep"]])[:30]
-    '<table><thead><tr><th>id</th><'
-    >>> "&lt;b&gt;" in html_table(["id"], [["<b>"]])
-    True
-    """
-    columns = list(columns)
-    flag_idx = [k for k, c in enumerate(columns) if is_flag_column(c)]
-    # <wbr> after underscores lets long column names wrap instead of widening the page.
-    heads = (esc(c).replace("_", "_<wbr>") for c in columns)
-    out = ["<table><thead><tr>", *(f"<th>{h}</th>" for h in heads), "</tr></thead><tbody>"]
-    for row in rows:
-        flagged = any(_is_flag_set(row[k]) for k in flag_idx)
-        out.append('<tr class="flagged">' if flagged else "<tr>")
-        for k, v in enumerate(row):
-            cls = "flag" if k in flag_idx and _is_flag_set(v) else ("num" if _is_number(v) else "")
-            out.append(f'<td class="{cls}">{_fmt(v)}</td>' if cls else f"<td>{_fmt(v)}</td>")
-        out.append("</tr>")
-    out.append("</tbody></table>")
-    return "".join(out)
-
-
-def frame_table(df) -> str:
-    """A pandas DataFrame as :func:`html_table`."""
-    return html_table(df.columns, df.itertuples(index=False, name=None))
-
-
-def json_block(value, level: int = 3) -> str:
-    """Any JSON value as HTML: objects as key/value tables, lists of objects as tables.
-
-    Examples
-    --------
-    >>> json_block({"a": 1, "b": [{"x": 2}]}).count("<table>")
-    2
-    """
-    if isinstance(value, dict):
-        scalars = [(k, v) for k, v in value.items() if not isinstance(v, (dict, list))]
-        nested = [(k, v) for k, v in value.items() if isinstance(v, (dict, list))]
-        parts = [html_table(["item", "value"], scalars)] if scalars else []
-        for k, v in nested:
-            parts.append(f"<h{level}>{esc(str(k).replace('_', ' '))}</h{level}>")
-            parts.append(json_block(v, min(level + 1, 6)))
-        return "".join(parts)
-    if isinstance(value, list):
-        if value and all(isinstance(v, dict) for v in value):
-            columns = list(dict.fromkeys(k for v in value for k in v))
-            rows = [[_plain(v.get(c)) for c in columns] for v in value]
-            return html_table(columns, rows)
-        return "<ul>" + "".join(f"<li>{_fmt(_plain(v))}</li>" for v in value) + "</ul>"
-    return f"<p>{_fmt(value)}</p>"
-
-
-def _plain(value):
-    """Nested JSON inside a table cell is shown as compact text."""
-    if isinstance(value, (dict, list)):
-        import json
-        return json.dumps(value, ensure_ascii=False)
-    return value
 
 
 def _img(png: bytes, caption: str) -> str:
@@ -231,6 +120,31 @@ def _text_list(value) -> list[str]:
     return [str(value)]
 
 
+def _metres_per_length(units: UnitLabels) -> float | None:
+    """Metres in one site length unit, for the few values the folder keeps in metres."""
+    return {"m": 1.0, "ft": FOOT}.get(units.length)
+
+
+#: Site keys shown elsewhere in the report (the run settings), not in the site table.
+_SITE_KEYS_SHOWN_ELSEWHERE = {"name", "units", "method", "poisson", "cell", "stages"}
+_PARTIAL_NAME = re.compile(r"^\.(?P<name>.+)\.partial-[0-9A-Za-z]+$")
+
+
+def _folder_name(path: Path) -> str:
+    """The results folder's final name (the report is written while it is still partial)."""
+    m = _PARTIAL_NAME.match(path.name)
+    return m["name"] if m else path.name
+
+
+def _units_text(units: UnitLabels, system: str | None) -> str:
+    names = {"SI": "SI", "US": "US customary"}
+    parts = [f"length {units.length}", f"pressure {units.pressure}",
+             f"unit weight {unit_text(units.unit_weight)}", f"settlement {units.settlement}",
+             f"plan coordinates {unit_text(units.plan)}"]
+    lead = f"{names.get(system, system)}: " if system else ""
+    return lead + ", ".join(parts)
+
+
 class _Report:
     """Assembles the sections of the report of one results folder."""
 
@@ -238,48 +152,84 @@ class _Report:
         self.f = folder
         self.u = folder.units
         self.points = folder.point_tables()
+        self.summaries = {k: df for k, df in folder.summary_tables().items() if df is not None}
         self.fill = folder.fill_thickness()
         self.buildings = folder.features("buildings")
         self.pipes = folder.features("pipes")
         self.boreholes = folder.features("boreholes")
+        self.to_m = _metres_per_length(self.u)
 
-    # --- sections ------------------------------------------------------------
+    # --- helpers ---------------------------------------------------------------
+    def _length(self, metres) -> str:
+        """A length kept in metres by the folder, as text in the site length unit."""
+        if self.to_m is None:
+            return f"{plain(metres)} m"
+        values = metres if isinstance(metres, list) else [metres]
+        return ", ".join(f"{plain(float(v) / self.to_m)}" for v in values) + f" {self.u.length}"
+
+    def _site(self) -> dict:
+        site = self.f.summary.get("site")
+        return site if isinstance(site, dict) else {}
+
+    def _settings_rows(self) -> list[tuple[str, object]]:
+        settings = self.f.manifest.get("settings") or {}
+        if not isinstance(settings, dict) or not settings:
+            settings = {k: v for k, v in self._site().items() if k in _SITE_KEYS_SHOWN_ELSEWHERE
+                        and k != "name"}
+        rows = []
+        for key, value in settings.items():
+            if is_missing(value) or isinstance(value, dict) or key == "units":
+                continue          # Poisson's ratio is for Westergaard only; units: site table
+            if key == "method":
+                value = str(value).capitalize()
+            if key.endswith("_m") and not isinstance(value, (bool, str)):
+                rows.append((heading(key[:-2], self.u), self._length(value)))
+            elif key == "cell" and not isinstance(value, (bool, str)):   # site units
+                rows.append((heading("cell", self.u), f"{plain(value)} {self.u.length}"))
+            else:
+                rows.append((heading(key, self.u), value))
+        return rows
+
+    # --- sections --------------------------------------------------------------
     def site(self) -> str:
-        m, s = self.f.manifest, self.f.summary
-        rows = [("site file", m.get("site_file", "")),
-                ("created (UTC)", m.get("created", "")),
-                ("program", f"{m.get('program', '')} {m.get('version', '')}".strip()),
-                ("units", ", ".join(f"{k}: {v}" for k, v in (m.get("units") or {}).items())),
-                ("coordinate reference system", _crs_name(m.get("crs"))),
-                ("analysis grid", _grid_text(m.get("grid"), self.u.length))]
-        parts = [html_table(["item", "value"], rows)]
-        if isinstance(s.get("site"), dict):
-            parts.insert(0, json_block(s["site"]))
-        return "".join(parts)
+        m = self.f.manifest
+        site = self._site()
+        rows = [("name", site.get("name"))]
+        rows += [(heading(k, self.u), v) for k, v in site.items()
+                 if k not in _SITE_KEYS_SHOWN_ELSEWHERE and not isinstance(v, (dict, list))]
+        units = m.get("units") or {}
+        rows += [("site file", m.get("site_file", "")),
+                 ("created (UTC)", m.get("created", "")),
+                 ("program", f"{m.get('program', '')} {m.get('version', '')}".strip()),
+                 ("units", _units_text(self.u, units.get("system"))),
+                 ("coordinate reference system", _crs_name(m.get("crs"))),
+                 ("analysis grid", _grid_text(m.get("grid"), self.u))]
+        return key_value_table(rows)
 
     def inputs(self) -> str:
         parts = []
         bodies = self.f.table("bodies")
         if bodies is not None:
-            parts.append("<h3>Fill bodies</h3>" + frame_table(bodies))
+            parts.append("<h3>Fill bodies</h3>" + frame_table(bodies, self.u))
         else:
             parts.append('<p class="note">No bodies.csv in this results folder.</p>')
         soil = self.f.summary.get("soil_profile") or self.f.summary.get("soil")
         if soil:
-            parts.append("<h3>Soil profile</h3>" + json_block(soil, 4))
+            parts.append("<h3>Soil profile</h3>" + json_block(soil, 4, self.u))
         else:
             parts.append('<p class="note">No soil profile: stresses only, no settlement.</p>')
-        settings = self.f.manifest.get("settings")
-        if settings:
-            parts.append("<h3>Resolved settings</h3>" + json_block(settings, 4))
+        rows = self._settings_rows()
+        if rows:
+            parts.append("<h3>Run settings</h3>" + key_value_table(rows))
         return "".join(parts)
 
     def method(self) -> str:
         given = _text_list(self.f.manifest.get("assumptions"))
         parts = [f"<p>{esc(t)}</p>" for t in METHOD_TEXT]
-        method = (self.f.manifest.get("settings") or {}).get("method")
+        method = (self.f.manifest.get("settings") or {}).get("method") or self._site().get("method")
         if method:
-            parts.append(f"<p>Solution used for this run: <strong>{esc(method)}</strong>.</p>")
+            parts.append(f"<p>Solution used for this run: <strong>"
+                         f"{esc(str(method).capitalize())}</strong>.</p>")
         if given:
             parts.append("<h3>Assumptions recorded with this run</h3><ul>"
                          + "".join(f"<li>{esc(t)}</li>" for t in given) + "</ul>")
@@ -291,13 +241,23 @@ class _Report:
         slices = self.f.plan_slices("dsz")
         if not slices:
             return '<p class="note">No plan slices in this results folder.</p>'
-        parts = ['<p class="note">Dashed line: outline of the fill. Orange: pipes. White '
-                 'polygons: buildings. Circles: boreholes.</p>']
+        plan_unit = unit_text(self.u.plan)
+        parts = [f'<p class="note">Dashed line: outline of the fill. Orange: pipes. White '
+                 f"polygons: buildings. Circles: boreholes. Coordinates in {esc(plan_unit)} "
+                 f"({esc(_crs_name(self.f.manifest.get('crs')))}). Maps of one plan grid share "
+                 f"their contour levels, so their colours compare directly.</p>"]
+        levels = {}
+        for s in slices:
+            lo, hi = levels.get(s.grid, (0.0, 0.0))
+            slo, shi = s.value_range()
+            levels[s.grid] = (min(lo, slo), max(hi, shi))
         for s in slices:
             png = figures.plan_map(s, fill=self.fill, buildings=self.buildings, pipes=self.pipes,
-                                   boreholes=self.boreholes, length_unit=self.u.length)
-            parts.append(_img(png, f"Δσz on plan grid '{s.grid}' at depth {s.depth:g} "
-                                   f"{self.u.length} ({self.u.pressure})"))
+                                   boreholes=self.boreholes, length_unit=plan_unit,
+                                   levels=figures.nice_levels(*levels[s.grid]))
+            parts.append(_img(png, f"Δσz ({self.u.pressure}) at depth {s.depth:g} "
+                                   f"{self.u.length} below the existing ground, plan grid "
+                                   f"'{s.grid}'"))
         return "".join(parts)
 
     def _groups(self, role: str):
@@ -313,7 +273,7 @@ class _Report:
         parts = []
         dsz = self.u.suffixed("dsz", "pressure")
         sv0 = self.u.suffixed("sigma_v0", "pressure")
-        for role, what in (("profile", "below"), ("borehole", "at borehole")):
+        for role, what in (("profile", "below building"), ("borehole", "at borehole")):
             for kind, rid, grp in self._groups(role):
                 depth = self.f.column(grp, "depth", "length", name=f"{kind}_points")
                 self.f.column(grp, "dsz", "pressure", name=f"{kind}_points")
@@ -323,7 +283,8 @@ class _Report:
                 png = figures.depth_profile(grp[depth], series, length_unit=self.u.length,
                                             value_label=f"stress ({self.u.pressure})",
                                             title=_mpl_text(rid))
-                parts.append(_img(png, f"Vertical profile {what} {rid}"))
+                parts.append(_img(png, f"Vertical profile {what} {rid}: Δσz and σ'v0 "
+                                       f"({self.u.pressure}) against depth ({self.u.length})"))
         return "".join(parts) or '<p class="note">No profile or borehole points.</p>'
 
     def pipe_profiles(self) -> str:
@@ -341,31 +302,63 @@ class _Report:
                     grp[chain], grp[dsz], length_unit=self.u.length,
                     value_label=f"Δσz at crown ({self.u.pressure})", second=second,
                     second_label=f"settlement ({self.u.settlement})", title=_mpl_text(rid))
-                parts.append(_img(png, f"Pipe {rid}: Δσz along chainage"))
+                what = " and settlement (dashed)" if second is not None else ""
+                parts.append(_img(png, f"Pipe {rid}: Δσz at the crown{what} along the "
+                                       f"chainage ({self.u.length})"))
         return "".join(parts) or '<p class="note">No pipes in this results folder.</p>'
+
+    def _receptor_kind(self, rid: str) -> tuple[str, str]:
+        """(kind, where) of a receptor id, from the sample-point tables."""
+        for kind, df in self.points.items():
+            if df is not None and "receptor_id" in df.columns and (df["receptor_id"] == rid).any():
+                if kind == "buildings":
+                    return "building", "at the centroid, foundation level"
+                return kind.rstrip("s"), "at the ground surface" if kind == "boreholes" else ""
+        return "receptor", ""
+
+    def time(self) -> str:
+        table = self.f.table("settlement_time")
+        if table is None or table.empty:
+            return '<p class="note">No settlement_time.csv: no settlement–time curves.</p>'
+        settle = self.f.column(table, "settlement", "settlement", name="settlement_time")
+        self.f.column(table, "days", None, name="settlement_time")
+        parts = ['<p class="note">Primary consolidation with time (Terzaghi 1-D theory), '
+                 "from the placing of the first stage. Settlement is plotted downward.</p>"]
+        for rid, grp in table.groupby("receptor_id", sort=False):
+            kind, where = self._receptor_kind(str(rid))
+            png = figures.settlement_time(grp["days"], grp[settle],
+                                          settlement_unit=self.u.settlement,
+                                          title=_mpl_text(f"{kind} {rid}"))
+            where = f" {where}" if where else ""
+            parts.append(_img(png, f"Settlement ({self.u.settlement}) against time (days) of "
+                                   f"{kind} {rid}{where}"))
+        return "".join(parts)
 
     def tables(self) -> str:
         parts = []
-        for kind, df in self.f.summary_tables().items():
-            if df is None:
-                continue
-            parts.append(f"<h3>{esc(kind.replace('_', ' '))}</h3>" + frame_table(df))
-        parts.append('<p class="note">Rows shaded red carry a flag. Every sample point is in '
-                     "the <code>*_points.csv</code> files of the results folder.</p>")
+        for kind, df in self.summaries.items():
+            parts.append(f"<h3>{esc(kind.replace('_', ' '))}</h3>" + receptor_table(df, self.u))
+        parts.append('<p class="note">Receptors and cells shaded red carry a flag (a limit '
+                     "reached). –: no value (the influence depth is blank where Δσz stays "
+                     "above the stated fraction of σ′v0 down to the deepest sample point). "
+                     "Every sample point is in the <code>*_points.csv</code> files of the "
+                     "results folder.</p>")
         return "".join(parts)
 
     def convergence(self) -> str:
         conv = self.f.summary.get("convergence")
         if not conv:
             return '<p class="note">No convergence check in this results folder.</p>'
-        return json_block(conv, 4)
+        text = _convergence_text(conv, self)
+        shown = {k: v for k, v in conv.items() if k not in ("cell", "fine_cell")}
+        return (f"<p>{esc(text)}</p>" if text else "") + json_block(shown, 4, self.u)
 
     def provenance(self) -> str:
         m = self.f.manifest
         rows = [("program", m.get("program", "")), ("version", m.get("version", "")),
                 ("results created (UTC)", m.get("created", "")),
                 ("report written (UTC)", datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")),
-                ("results folder", self.f.path.name)]
+                ("results folder", _folder_name(self.f.path))]
         parts = [html_table(["item", "value"], rows)]
         for key, title in (("inputs", "Input files (SHA-256)"), ("outputs", "Output files (SHA-256)")):
             hashes = m.get(key)
@@ -374,27 +367,103 @@ class _Report:
                     ["file", "sha256"], [(p, h) for p, h in hashes.items()]))
         return "".join(parts)
 
+    def _caution_items(self) -> list[str]:
+        return list(CAUTIONS) + _text_list(self.f.manifest.get("cautions"))
+
     def cautions(self) -> str:
-        items = list(CAUTIONS) + _text_list(self.f.manifest.get("cautions"))
-        return '<div class="caution"><ul>' + "".join(f"<li>{esc(t)}</li>" for t in items) + "</ul></div>"
+        return ('<div class="caution"><ul>'
+                + "".join(f"<li>{esc(t)}</li>" for t in self._caution_items()) + "</ul></div>")
+
+    def findings(self) -> str:
+        """The flagged receptors, stated at the top of the report."""
+        flagged, checked = [], False
+        for kind, df in self.summaries.items():
+            flag_cols = [c for c in df.columns if is_flag_column(c)]
+            checked = checked or bool(flag_cols)
+            for rec in df.to_dict("records"):
+                if receptor_flagged(rec):
+                    flagged.append(_flag_text(kind, rec, flag_cols, self.u))
+        if flagged:
+            return ('<div class="findings"><strong>Limits reached</strong><ul>'
+                    + "".join(f"<li>{esc(t)}</li>" for t in flagged)
+                    + '</ul>See the result tables for the values.</div>')
+        if checked:
+            return ('<div class="findings none">No building or pipe reached a checked limit.'
+                    "</div>")
+        return ""
 
     # --- page ----------------------------------------------------------------
     def page(self) -> str:
         bodies = {"site": self.site, "inputs": self.inputs, "method": self.method,
                   "plans": self.plans, "profiles": self.profiles, "pipes": self.pipe_profiles,
-                  "tables": self.tables, "convergence": self.convergence,
+                  "time": self.time, "tables": self.tables, "convergence": self.convergence,
                   "provenance": self.provenance, "cautions": self.cautions}
         title = _site_title(self.f)
         new_page = {"plans", "profiles", "tables", "provenance"}
         sections = []
-        for key, heading in SECTIONS:
+        for key, heading_text in SECTIONS:
             cls = ' class="new-page"' if key in new_page else ""
-            sections.append(f'<section id="{key}"{cls}><h2>{esc(heading)}</h2>{bodies[key]()}</section>')
+            sections.append(f'<section id="{key}"{cls}><h2>{esc(heading_text)}</h2>'
+                            f"{bodies[key]()}</section>")
+        top = ('<div class="caution" id="cautions-top"><ul>'
+               + "".join(f"<li>{esc(t)}</li>" for t in self._caution_items()) + "</ul></div>")
         return ("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
                 f"<title>{esc(title)}</title><style>{CSS}</style></head><body>"
                 f"<h1>Vertical stress below fills: {esc(title)}</h1>"
-                f'<p class="caution">{esc(CAUTIONS[0])} {esc(CAUTIONS[1])}</p>'
-                + "".join(sections) + "</body></html>\n")
+                + top + self.findings() + "".join(sections) + "</body></html>\n")
+
+
+def _flag_text(kind: str, rec: dict, flag_cols, units: UnitLabels) -> str:
+    exceeded = [c[len("exceeds_"):].replace("_", " ") for c in flag_cols
+                if c.startswith("exceeds_") and is_flag_set(rec.get(c))]
+    others = [f"{heading(c, units)}: {plain(rec.get(c)).replace('_', ' ')}" for c in flag_cols
+              if not c.startswith("exceeds_") and is_flag_set(rec.get(c))]
+    if exceeded:
+        others.append("limits exceeded: " + ", ".join(exceeded))
+    return f"{kind.rstrip('s')} {rec.get('receptor_id', '')}: " + "; ".join(others)
+
+
+def _convergence_text(conv: dict, report: _Report) -> str:
+    """The grid-halving check in words, cell sizes in the site length unit."""
+    change = conv.get("max_relative_change")
+    if change is None:
+        change = conv.get("max_change_percent")
+        change = None if change is None else float(change) / 100.0
+    cells = _convergence_cells(conv, report)
+    if change is None or cells is None:
+        return ""
+    text = (f"Halving the cell size from {cells[0]} to {cells[1]} changes Δσz at the "
+            f"sample points by at most {100 * float(change):.2f} %")
+    if conv.get("at_point"):
+        text += f" (at point {conv['at_point']})"
+    if conv.get("points_compared") is not None and conv.get("threshold_fraction_of_qmax"):
+        text += (f", over the {int(conv['points_compared'])} points where Δσz is at least "
+                 f"{100 * float(conv['threshold_fraction_of_qmax']):g} % of the largest "
+                 "surface pressure")
+    return text + "."
+
+
+def _convergence_cells(conv: dict, report: _Report):
+    """(coarse, fine) cell sizes as text, or None when their unit cannot be told."""
+    u = report.u
+    for suffix in (u.length, "m"):
+        a, b = conv.get(f"cell_{suffix}"), conv.get(f"refined_cell_{suffix}",
+                                                     conv.get(f"fine_cell_{suffix}"))
+        if a is not None and b is not None:
+            if suffix == u.length:
+                return f"{plain(a)} {u.length}", f"{plain(b)} {u.length}"
+            return report._length(a), report._length(b)
+    a, b = conv.get("cell"), conv.get("fine_cell")
+    if a is None or b is None:
+        return None
+    # A bare "cell" carries no unit: it is in metres when it equals the run's cell_m,
+    # in site units when it equals the site's cell.
+    cell_m = (report.f.manifest.get("settings") or {}).get("cell_m")
+    if cell_m is not None and np.isclose(float(a), float(cell_m)):
+        return report._length(a), report._length(b)
+    if report._site().get("cell") is not None and np.isclose(float(a), float(report._site()["cell"])):
+        return f"{plain(a)} {u.length}", f"{plain(b)} {u.length}"
+    return None
 
 
 def _site_title(folder: ResultsFolder) -> str:
@@ -416,13 +485,14 @@ def _crs_name(wkt) -> str:
         return str(wkt)[:120]
 
 
-def _grid_text(grid, unit: str) -> str:
+def _grid_text(grid, units: UnitLabels) -> str:
     if not isinstance(grid, dict):
         return "not given"
+    unit = unit_text(grid.get("unit") or units.plan)
     try:
-        return (f"{int(grid['nx'])} × {int(grid['ny'])} cells of {float(grid['dx']):g} × "
-                f"{float(grid['dy']):g} {unit}, south-west corner ({float(grid['x0']):.2f}, "
-                f"{float(grid['y0']):.2f})")
+        return (f"{int(grid['nx'])} × {int(grid['ny'])} cells of {float(grid['dx']):.4g} × "
+                f"{float(grid['dy']):.4g} {unit}, south-west corner ({float(grid['x0']):.2f}, "
+                f"{float(grid['y0']):.2f}) {unit}")
     except (KeyError, TypeError, ValueError):
         return str(grid)
 
