@@ -142,6 +142,10 @@ def _ratio_text(v: float) -> str:
     return "∞" if v == BIG else f"{v:g}"
 
 
+def _ratio_id(v: float) -> str:
+    return "inf" if v == BIG else f"{v:g}"
+
+
 def corner_factor(m: float, n: float, kernel: str) -> float:
     """Δσz/q below the corner of a uniform m·z by n·z rectangle, z = 2.5 m, q = 80 kPa."""
     z, q = 2.5, 80.0
@@ -153,7 +157,7 @@ for _k, (_m, _n, _value) in enumerate(NEWMARK_TABLE):
     _note = "value quoted in the project brief" if _k < NEWMARK_FROM_BRIEF \
         else "recalled from memory of that table"
     for _kernel in ("nodes", "cells"):
-        add(f"corner-m{_ratio_text(_m)}-n{_ratio_text(_n)}-{_kernel}", CORNER,
+        add(f"corner-m{_ratio_id(_m)}-n{_ratio_id(_n)}-{_kernel}", CORNER,
             f"I(m = {_ratio_text(_m)}, n = {_ratio_text(_n)}), {_kernel} kernel", _value,
             f"{NEWMARK_SOURCE}; {_note}", 2e-4, "abs", partial(corner_factor, _m, _n, _kernel))
 
