@@ -21,6 +21,11 @@ from .report.folder import QUANTITIES, PlanField, ResultsFolder
 COLOUR_MAPS = {"dsz": "viridis", "stress_ratio": "plasma", "settlement": "magma",
                "sigma_v0": "viridis", "fill_thickness": "cividis"}
 LAYERS = ("fill", "slices", "points", "buildings", "pipes", "boreholes")
+#: Round vertical exaggerations the automatic choice picks from.
+NICE_EXAGGERATIONS = (1.0, 1.5, 2.0, 2.5, 3.0, 4.0, 5.0, 6.0, 8.0, 10.0, 15.0, 20.0, 30.0, 50.0)
+#: The automatic exaggeration makes the scene's height about this share of its plan size.
+HEIGHT_SHARE = 0.35
+FILL_COLOUR = "burlywood"    # earth; kept out of the colour maps so fill never reads as stress
 # Plain-Latin titles: VTK's built-in fonts lack the Greek letters.
 QUANTITY_TITLES = {"dsz": "stress increase", "stress_ratio": "dsz / s'v0",
                    "settlement": "settlement", "sigma_v0": "s'v0"}
@@ -70,6 +75,20 @@ class _Frame:
         return pv.StructuredGrid(*(pts[:, k].reshape(xx.shape) for k in range(3)))
 
 
+class _ActorGroup:
+    """The actors of one slice (surface, frame, depth label), shown and hidden together."""
+
+    def __init__(self, actors):
+        self.actors = actors
+
+    def SetVisibility(self, visible: bool) -> None:  # noqa: N802 (VTK's spelling)
+        for actor in self.actors:
+            actor.SetVisibility(bool(visible))
+
+    def GetVisibility(self) -> bool:  # noqa: N802
+        return bool(self.actors[0].GetVisibility())
+
+
 def _quantity_range(slices, point_values) -> tuple[float, float]:
     """Common colour range of slices and point values of one quantity."""
     lows, highs = [], []
@@ -101,13 +120,33 @@ def _point_values(folder: ResultsFolder, quantity: str):
     return data[np.all(np.isfinite(data), axis=1)]
 
 
+def auto_exaggeration(plan_size: float, height: float) -> float:
+    """Vertical exaggeration for a scene `plan_size` across and `height` tall (fill + depth).
+
+    The largest round value (:data:`NICE_EXAGGERATIONS`) that keeps the exaggerated
+    height within :data:`HEIGHT_SHARE` of the plan size; never below 1 (depths are never
+    compressed).
+
+    Examples
+    --------
+    >>> auto_exaggeration(300.0, 20.0), auto_exaggeration(50.0, 40.0), auto_exaggeration(1e4, 1.0)
+    (5.0, 1.0, 50.0)
+    """
+    plan_size, height = float(plan_size), float(height)
+    if not (plan_size > 0 and height > 0 and np.isfinite(plan_size) and np.isfinite(height)):
+        return 1.0
+    wanted = HEIGHT_SHARE * plan_size / height
+    fitting = [e for e in NICE_EXAGGERATIONS if e <= wanted]
+    return fitting[-1] if fitting else 1.0
+
+
 class _SceneBuilder:
     """Adds each layer of one results folder to a pyvista Plotter."""
 
     def __init__(self, folder: ResultsFolder, plotter, frame: _Frame, quantity: str,
-                 fill_bar: bool = True):
+                 slice_floor: float = 0.0):
         self.folder, self.plotter, self.frame, self.quantity = folder, plotter, frame, quantity
-        self.fill_bar = fill_bar  # vtk.js draws one scalar bar only: the HTML scene drops this one
+        self.slice_floor = slice_floor
         self.slice_actors: list[tuple[float, object]] = []
         fill = folder.fill_thickness()
         self.fill = fill
@@ -121,40 +160,65 @@ class _SceneBuilder:
             raise InputError(f"the results folder has no {quantity!r} on slices or points",
                              argument="quantity")
         self.clim = _quantity_range(self.slices, self.point_data[:, 3])
+        if self.clim[0] >= 0.0:
+            self.clim = (0.0, self.clim[1])        # a bar from zero reads as "none to most"
         unit = folder.units.label(QUANTITIES[quantity])
         self.bar_title = f"{QUANTITY_TITLES[quantity]} ({unit})" if unit else QUANTITY_TITLES[quantity]
 
+    def height(self) -> float:
+        """Fill height plus the deepest slice or sample point (length unit)."""
+        top = float(np.nanmax(self.fill.values)) if self.fill is not None else 0.0
+        depths = [f.depth for f in self.slices] + list(self.point_data[:, 2])
+        return max(top, 0.0) + max(depths, default=0.0)
+
     def _mesh_kwargs(self):
+        fmt = "%.0f" if self.clim[1] - self.clim[0] >= 50 else "%.3g"
         return dict(cmap=COLOUR_MAPS[self.quantity], clim=self.clim, scalar_bar_args={
-            "title": self.bar_title, "vertical": True, "fmt": "%.3g", "n_labels": 5,
-            "position_x": 0.84},
+            "title": self.bar_title, "vertical": True, "fmt": fmt, "n_labels": 5,
+            "position_x": 0.86, "position_y": 0.1, "height": 0.6},
             lighting=False)  # unlit, so the colours read exactly against the scalar bar
 
     def add_fill(self):
+        """The fill surface in one earth colour, lit so its shape shows; ground outline."""
         if self.fill is None:
             return
         t = np.where(np.isfinite(self.fill.values), self.fill.values, 0.0)
         surf = self.frame.surface(self.fill, t)
-        label = f"fill thickness ({self.folder.units.length})"
-        surf.point_data[label] = t.ravel(order="F")
-        loaded = surf.threshold(1e-9, scalars=label, method="upper") if np.any(t > 0) else None
+        surf.point_data["thickness"] = t.ravel(order="F")
+        loaded = surf.threshold(1e-9, scalars="thickness", method="upper") if np.any(t > 0) else None
         if loaded is not None and loaded.n_points:
-            self.plotter.add_mesh(loaded, scalars=label, cmap=COLOUR_MAPS["fill_thickness"],
-                                  opacity=0.75, show_scalar_bar=self.fill_bar, scalar_bar_args={
-                                      "title": label, "vertical": True, "position_x": 0.05,
-                                      "fmt": "%.3g", "n_labels": 4})
+            self.plotter.add_mesh(loaded.extract_surface(algorithm="dataset_surface"),
+                                  color=FILL_COLOUR, opacity=0.4, smooth_shading=True)
         self.plotter.add_mesh(surf.outline(), color="dimgray", line_width=1)
 
     def add_slices(self, depth):
+        """Each slice, cut below `slice_floor` × the colour maximum, framed and labelled."""
+        import pyvista as pv
+        floor = self.clim[0] + self.slice_floor * (self.clim[1] - self.clim[0])
+        u = self.folder.units.length
         shown = 0
-        for f in self.slices:
+        for k, f in enumerate(self.slices):
             surf = self.frame.surface(f, np.full(f.values.shape, -f.depth))
             surf.point_data[self.bar_title] = f.values.ravel(order="F")
-            actor = self.plotter.add_mesh(surf, scalars=self.bar_title, nan_opacity=0.0,
-                                          show_scalar_bar=shown == 0, **self._mesh_kwargs())
-            actor.SetVisibility(bool(depth is None or np.isclose(f.depth, depth)))
-            self.slice_actors.append((f.depth, actor))
-            shown += 1
+            visible = bool(depth is None or np.isclose(f.depth, depth))
+            part = surf.threshold(floor, scalars=self.bar_title, method="upper") \
+                if self.slice_floor > 0 else surf
+            actors = [self.plotter.add_mesh(surf.outline(), color="gray", line_width=1)]
+            if part.n_points:
+                actors.append(self.plotter.add_mesh(
+                    part, scalars=self.bar_title,
+                    **({"nan_opacity": 0.0} if self.slice_floor == 0 else {}),
+                    show_scalar_bar=shown == 0, **self._mesh_kwargs()))
+                shown += 1
+            # Labels on the four corners in turn, so closely spaced depths do not overlap.
+            cx, cy = ((f.x[-1], f.y[0]), (f.x[0], f.y[0]), (f.x[-1], f.y[-1]), (f.x[0], f.y[-1]))[k % 4]
+            corner = self.frame.points(cx, cy, -f.depth)
+            actors.append(self.plotter.add_point_labels(
+                pv.PolyData(corner), [f"{f.depth:g} {u}"], font_size=11, show_points=False,
+                shape_opacity=0.6, always_visible=True))
+            group = _ActorGroup(actors)
+            group.SetVisibility(visible)
+            self.slice_actors.append((f.depth, group))
         if depth is not None and not any(np.isclose(d, depth) for d, _ in self.slice_actors):
             have = ", ".join(f"{d:g}" for d in self.slice_depths())
             raise InputError(f"no slice at depth {depth:g}; the folder has {have}", argument="depth")
@@ -237,17 +301,18 @@ def _validated_layers(layers) -> tuple[str, ...]:
     return layers
 
 
-def build_scene(results_dir, *, exaggeration: float = 1.0, quantity: str = "dsz",
+def build_scene(results_dir, *, exaggeration: float | None = None, quantity: str = "dsz",
                 depth: float | None = None, layers=LAYERS, interactive: bool = False,
-                off_screen: bool = True, window_size=(1200, 900), fill_bar: bool = True):
+                off_screen: bool = True, window_size=(1200, 900), slice_floor: float = 0.02):
     """Build the 3D scene of a results folder as a pyvista Plotter.
 
     Parameters
     ----------
     results_dir : str or path-like
         A results folder (docs/results-folder.md).
-    exaggeration : float
-        Vertical exaggeration, > 0; scene z is multiplied by it.
+    exaggeration : float, optional
+        Vertical exaggeration, > 0; scene z is multiplied by it. None (default) picks a
+        round value from the site's size (:func:`auto_exaggeration`).
     quantity : {"dsz", "stress_ratio", "settlement", "sigma_v0"}
         Quantity coloured on the slices and at the sample points.
     depth : float, optional
@@ -260,14 +325,18 @@ def build_scene(results_dir, *, exaggeration: float = 1.0, quantity: str = "dsz"
         Create the plotter off screen (for screenshots and HTML export).
     window_size : (int, int)
         Render window size in pixels.
-    fill_bar : bool
-        Draw the scalar bar of fill thickness besides the one of `quantity`.
+    slice_floor : float
+        Slices leave out values below this share (0 to 1) of the colour range, so the
+        slices beneath show through around the loaded area; 0 draws whole slices.
+        Slices stay opaque (VTK's offscreen translucency sorting is unreliable), so
+        their pixels are exactly colour-map colours.
 
     Returns
     -------
     pyvista.Plotter
         The plotter. Attributes ``fillstress_clim`` (colour range of `quantity`),
-        ``fillstress_slice_depths`` and ``fillstress_slice_actors`` ((depth, actor) pairs).
+        ``fillstress_exaggeration``, ``fillstress_slice_depths`` and
+        ``fillstress_slice_actors`` ((depth, actor group) pairs).
 
     Examples
     --------
@@ -277,13 +346,19 @@ def build_scene(results_dir, *, exaggeration: float = 1.0, quantity: str = "dsz"
     fillstress.errors.InputError: argument results_dir: is not a results folder (no such directory)
     """
     folder = ResultsFolder(results_dir)
-    exaggeration = positive(exaggeration, "exaggeration")
+    if exaggeration is not None:
+        exaggeration = positive(exaggeration, "exaggeration")
+    slice_floor = _share(slice_floor, "slice_floor")
     if quantity not in QUANTITIES:
         raise InputError(f"unknown quantity {quantity!r}; choose one of {', '.join(QUANTITIES)}",
                          argument="quantity")
     layers = _validated_layers(layers)
     plotter = _new_plotter(off_screen, window_size)
-    builder = _SceneBuilder(folder, plotter, _Frame(folder, exaggeration), quantity, fill_bar)
+    frame = _Frame(folder, 1.0)
+    builder = _SceneBuilder(folder, plotter, frame, quantity, slice_floor)
+    if exaggeration is None:
+        exaggeration = auto_exaggeration(builder.span, builder.height())
+    frame.exaggeration = exaggeration
     for name in layers:
         if name == "slices":
             builder.add_slices(depth)
@@ -291,6 +366,7 @@ def build_scene(results_dir, *, exaggeration: float = 1.0, quantity: str = "dsz"
             getattr(builder, f"add_{name}")()
     import pyvista as pv
     pv.set_new_attribute(plotter, "fillstress_clim", builder.clim)
+    pv.set_new_attribute(plotter, "fillstress_exaggeration", exaggeration)
     pv.set_new_attribute(plotter, "fillstress_slice_depths", builder.slice_depths())
     pv.set_new_attribute(plotter, "fillstress_slice_actors", list(builder.slice_actors))
     plotter.add_text(_caption(folder, builder, exaggeration), position="upper_left",
@@ -301,10 +377,26 @@ def build_scene(results_dir, *, exaggeration: float = 1.0, quantity: str = "dsz"
     return plotter
 
 
+def _share(value, name: str) -> float:
+    """A number from 0 to 1, or InputError naming the argument."""
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        raise InputError(f"must be a number from 0 to 1, got {value!r}", argument=name) from None
+    if not 0.0 <= v <= 1.0:
+        raise InputError(f"must be from 0 to 1, got {v:g}", argument=name)
+    return v
+
+
 def _caption(folder: ResultsFolder, builder: _SceneBuilder, exaggeration: float) -> str:
-    u = folder.units.length
-    return (f"origin E {builder.frame.x0:.2f} {u}, N {builder.frame.y0:.2f} {u}; "
-            f"vertical exaggeration {exaggeration:g}")
+    from .report.labels import unit_text
+    u, plan = folder.units.length, unit_text(folder.units.plan)
+    lines = [f"origin E {builder.frame.x0:.2f}, N {builder.frame.y0:.2f} {plan}; "
+             f"depths in {u}; vertical exaggeration {exaggeration:g}"]
+    if builder.slices and builder.slice_floor > 0:
+        lines.append(f"slices show {QUANTITY_TITLES[builder.quantity]} from "
+                     f"{builder.slice_floor:.0%} of the colour range up")
+    return "\n".join(lines)
 
 
 def _add_sliders(plotter, builder: _SceneBuilder, exaggeration: float):
@@ -324,11 +416,12 @@ def _add_sliders(plotter, builder: _SceneBuilder, exaggeration: float):
 
     def stretch(value):
         plotter.set_scale(zscale=value / exaggeration)
-    plotter.add_slider_widget(stretch, [1.0, 10.0], value=exaggeration, title="exaggeration",
-                              pointa=(0.55, 0.92), pointb=(0.9, 0.92), fmt="%.1f", color="black")
+    plotter.add_slider_widget(stretch, [1.0, max(10.0, 2.0 * exaggeration)], value=exaggeration,
+                              title="exaggeration", pointa=(0.55, 0.92), pointb=(0.9, 0.92),
+                              fmt="%.1f", color="black")
 
 
-def show(results_dir, *, exaggeration: float = 1.0, quantity: str = "dsz") -> None:
+def show(results_dir, *, exaggeration: float | None = None, quantity: str = "dsz") -> None:
     """Open the interactive scene in a desktop window (depth and exaggeration sliders).
 
     Examples
@@ -344,8 +437,8 @@ def show(results_dir, *, exaggeration: float = 1.0, quantity: str = "dsz") -> No
 
 
 def render_png(results_dir, path, *, camera="iso", window_size=(1200, 900),
-               exaggeration: float = 1.0, quantity: str = "dsz", depth: float | None = None,
-               layers=LAYERS) -> Path:
+               exaggeration: float | None = None, quantity: str = "dsz",
+               depth: float | None = None, layers=LAYERS, slice_floor: float = 0.02) -> Path:
     """Render the scene off screen to a PNG file and return its path.
 
     Parameters
@@ -363,7 +456,8 @@ def render_png(results_dir, path, *, camera="iso", window_size=(1200, 900),
     fillstress.errors.InputError: argument results_dir: is not a results folder (no such directory)
     """
     plotter = build_scene(results_dir, exaggeration=exaggeration, quantity=quantity,
-                          depth=depth, layers=layers, off_screen=True, window_size=window_size)
+                          depth=depth, layers=layers, off_screen=True, window_size=window_size,
+                          slice_floor=slice_floor)
     try:
         if camera == "iso":
             plotter.view_isometric()
@@ -379,7 +473,7 @@ def render_png(results_dir, path, *, camera="iso", window_size=(1200, 900),
     return path
 
 
-def export_scene_html(results_dir, path=None, *, exaggeration: float = 1.0,
+def export_scene_html(results_dir, path=None, *, exaggeration: float | None = None,
                       quantity: str = "dsz") -> Path:
     """Write the scene (every slice shown) as one self-contained HTML file.
 
@@ -395,7 +489,7 @@ def export_scene_html(results_dir, path=None, *, exaggeration: float = 1.0,
     fillstress.errors.InputError: argument results_dir: is not a results folder (no such directory)
     """
     plotter = build_scene(results_dir, exaggeration=exaggeration, quantity=quantity,
-                          off_screen=True, fill_bar=False)
+                          off_screen=True)
     path = Path(results_dir) / "scene.html" if path is None else Path(path)
     tmp = path.with_name(f".{path.name}.partial.html")
     try:
