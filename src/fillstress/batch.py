@@ -137,7 +137,40 @@ def envelope_points(frames: dict[str, pd.DataFrame]) -> pd.DataFrame:
 
 def run_batch(site_path, variants_path, out, *, overwrite=False, report=False,
               progress=silent, workers=None, scheduler=None):
-    """Run every variant into ``out/<name>/`` and write ``out/envelope_points.csv``."""
+    """Run every variant of a site into ``out/<name>/`` and write the envelope.
+
+    Parameters
+    ----------
+    site_path, variants_path : path-like
+        The site file and the variants file (see the module docstring).
+    out : path-like, optional
+        Folder of the batch; default ``results-<site>-batch``. Refused if it exists
+        unless `overwrite`.
+    report : bool
+        Write each variant's report and scene too (off by default: batches are big).
+    progress, workers, scheduler
+        As for :func:`fillstress.run.run_site_file`; with Dask, whole variants run on
+        the workers.
+
+    Returns
+    -------
+    (list of RunSummary, pandas.DataFrame)
+        One summary per variant, and the envelope table (SI) also written to
+        ``envelope_points.csv``.
+
+    Examples
+    --------
+    >>> import tempfile, pathlib
+    >>> from fillstress.examples import example_site
+    >>> d = pathlib.Path(tempfile.mkdtemp())
+    >>> _ = (d / "v.toml").write_text('[[variants]]\nname = "a"\n'
+    ...                               '[[variants]]\nname = "b"\nheight_factor = 2.0\n')
+    >>> runs, env = run_batch(example_site("preload_surcharge"), d / "v.toml", d / "out")
+    >>> sorted(p.name for p in (d / "out").iterdir())
+    ['a', 'b', 'envelope_points.csv', 'manifest.json']
+    >>> set(env["variant_of_max_dsz"])
+    {'b'}
+    """
     from .io.atomic import ResultsFolder
     from .io.tables import write_table_csv
     from .run import RunSummary, compute, slug

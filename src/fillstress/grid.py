@@ -14,6 +14,7 @@ class _Lattice:
 
     @property
     def cell_area(self) -> float:
+        """Plan area of one cell, m²."""
         return self.dx * self.dy
 
     @property
@@ -23,10 +24,12 @@ class _Lattice:
 
     @property
     def x_centres(self) -> np.ndarray:
+        """x of the cell centres (m), west to east."""
         return self.x0 + (np.arange(self.nx) + 0.5) * self.dx
 
     @property
     def y_centres(self) -> np.ndarray:
+        """y of the cell centres (m), south to north (row order)."""
         return self.y0 + (np.arange(self.ny) + 0.5) * self.dy
 
 
@@ -97,14 +100,17 @@ class LoadGrid(_Lattice):
     # --- geometry -------------------------------------------------------------
     @property
     def shape(self) -> tuple[int, int]:
+        """(ny, nx): rows south to north, columns west to east."""
         return self.pressure.shape
 
     @property
     def ny(self) -> int:
+        """Number of rows (y)."""
         return self.pressure.shape[0]
 
     @property
     def nx(self) -> int:
+        """Number of columns (x)."""
         return self.pressure.shape[1]
 
     @property
@@ -184,9 +190,11 @@ class GridSpec(_Lattice):
 
     @property
     def shape(self) -> tuple[int, int]:
+        """(ny, nx) of arrays on this lattice."""
         return (int(self.ny), int(self.nx))
 
     def zeros(self) -> np.ndarray:
+        """A float array of zeros on this lattice (shape ``(ny, nx)``)."""
         return np.zeros(self.shape)
 
     def load_grid(self, pressure) -> LoadGrid:

@@ -62,8 +62,32 @@ def stress(site: Site, grid, xyz: np.ndarray, client=None) -> np.ndarray:
 
 
 def compute(site: Site, progress=silent, client=None) -> RunResults:
-    """Every number of a run, in SI; nothing is written. `client`: a Dask client to
-    spread the point and slice work over (results equal the serial path)."""
+    """Every number of a run, in SI; nothing is written.
+
+    Parameters
+    ----------
+    site : Site
+        From :func:`fillstress.site.load_site`.
+    progress : progress factory, optional
+        See :mod:`fillstress.progress`; silent by default.
+    client : distributed.Client, optional
+        Spread the point and slice work over Dask workers (results equal the serial path).
+
+    Returns
+    -------
+    RunResults
+        ``points`` (every receptor point with ``dsz`` in kPa and, with a soil profile,
+        ``sigma_v0``, ``stress_ratio``, ``settlement`` in m), ``slices`` (plan grids),
+        ``buildings``/``pipes`` checks, ``time_curves`` and ``convergence``.
+
+    Examples
+    --------
+    >>> from fillstress.examples import example_site
+    >>> res = compute(load_site(example_site("preload_surcharge")))
+    >>> centre = res.points[res.points["point_id"] == "BH-01-d4"]
+    >>> round(float(centre["dsz"].iloc[0]), 1)     # kPa at 2 m below the pad centre
+    104.3
+    """
     t0 = time.perf_counter()
     grid = site.load_grid()
     pts = site.points.copy()
@@ -258,7 +282,33 @@ def run_site_file(path, out=None, *, overwrite=False, report=True, progress=sile
                   workers=None, scheduler=None) -> "RunSummary":
     """Load a site file, compute, and write a complete results folder.
 
-    `out` defaults to ``results-<site file stem>`` beside the current folder.
+    Parameters
+    ----------
+    path : path-like
+        The site file (TOML).
+    out : path-like, optional
+        Results folder; default ``results-<site file stem>`` in the current folder. An
+        existing folder is refused unless `overwrite`, and then replaced only once the new
+        one is complete.
+    report : bool
+        Also write ``report.html`` and ``scene.html``.
+    progress : progress factory, optional
+    workers, scheduler : int or str, optional
+        Run on a local Dask cluster of `workers` processes or on the scheduler at
+        `scheduler`.
+
+    Returns
+    -------
+    RunSummary
+
+    Examples
+    --------
+    >>> import tempfile, pathlib
+    >>> from fillstress.examples import example_site
+    >>> out = pathlib.Path(tempfile.mkdtemp()) / "res"
+    >>> summary = run_site_file(example_site("preload_surcharge"), out, report=False)
+    >>> (out / "manifest.json").is_file(), (out / "boreholes_points.csv").is_file()
+    (True, True)
     """
     from .io.atomic import ResultsFolder
     from .estimate_run import check_fits
@@ -326,7 +376,15 @@ class CheckReport:
 
 
 def check_site_file(path) -> CheckReport:
-    """Validate a site file and describe the run without computing it."""
+    """Validate a site file and describe the run without computing it.
+
+    Examples
+    --------
+    >>> from fillstress.examples import example_site
+    >>> report = check_site_file(example_site("stockpile_yard"))
+    >>> [row[0] for row in report.tables()[0][2]]
+    ['ore_east', 'coal_west', 'aggregate_north']
+    """
     return CheckReport(load_site(path))
 
 
