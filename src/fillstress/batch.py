@@ -137,7 +137,7 @@ def envelope_points(frames: dict[str, pd.DataFrame]) -> pd.DataFrame:
 
 def run_batch(site_path, variants_path, out, *, overwrite=False, report=False,
               progress=silent, workers=None, scheduler=None):
-    """Run every variant of a site into ``out/<name>/`` and write the envelope.
+    r"""Run every variant of a site into ``out/<name>/`` and write the envelope.
 
     Parameters
     ----------
