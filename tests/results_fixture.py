@@ -177,6 +177,19 @@ def _borehole(thickness):
     return df, [feat], summary
 
 
+def _settlement_time(tables):
+    """Curves at the borehole and each building: final settlement × (1 − e^(−t/400 d)),
+    an invented, plausible shape (not a consolidation solution)."""
+    days = np.r_[0.0, np.geomspace(1.0, 20000.0, 40)]
+    rows = []
+    for kind in ("boreholes", "buildings"):
+        for rec in tables[kind].to_dict("records"):
+            final = rec["settlement_max_mm"]
+            rows += [{"receptor_id": rec["receptor_id"], "days": d,
+                      "settlement_mm": final * (1.0 - np.exp(-d / 400.0))} for d in days]
+    return pd.DataFrame(rows)
+
+
 def _write_cube(path, x, y, dsz, thickness):
     import xarray as xr
     sv = np.maximum(9.0 * np.asarray(DEPTHS), 1.0)[:, None, None]
@@ -267,6 +280,7 @@ def write_results_folder(folder) -> FixtureTruth:
         _point_geojson(folder / f"{kind}_points.geojson", pts)
         tables[kind].to_csv(folder / f"{kind}_summary.csv", index=False)
     _write_vtk(folder, x, y, dsz, thickness, b_feats, p_feats, h_feats)
+    _settlement_time(tables).to_csv(folder / "settlement_time.csv", index=False)
 
     (folder / "summary.json").write_text(json.dumps(_summary_json(bodies, tables), indent=1))
     outputs = {p.relative_to(folder).as_posix(): _sha256(p)

@@ -44,6 +44,7 @@ class _Page(HTMLParser):
         self.tags, self.sections, self.images, self.links = [], {}, [], []
         self.text, self._heading_for = [], None
         self.flagged_rows = 0
+        self.flagged_receptors = 0
 
     def handle_starttag(self, tag, attrs):
         attrs = dict(attrs)
@@ -57,6 +58,8 @@ class _Page(HTMLParser):
             self.links.append((tag, attrs))
         if tag == "tr" and "flagged" in (attrs.get("class") or ""):
             self.flagged_rows += 1
+        if tag == "th" and "flagged" in (attrs.get("class") or ""):
+            self.flagged_receptors += 1
 
     def handle_data(self, data):
         self.text.append(data)
@@ -73,8 +76,11 @@ def test_report_has_every_section(page):
 
 def test_images_are_embedded_pngs(page, truth):
     _, parsed = page
-    # 2 plan slices + 2 building profiles + 1 borehole + 1 pipe in the fixture
-    assert len(parsed.images) == len(truth.depths) + len(truth.building_ids) + 2
+    # 2 plan slices + 2 building profiles + 1 borehole + 1 pipe in the fixture, and one
+    # settlement-time curve per receptor id in settlement_time.csv
+    curves = pd.read_csv(truth.path / "settlement_time.csv")["receptor_id"].nunique()
+    assert curves == len(truth.building_ids) + 1
+    assert len(parsed.images) == len(truth.depths) + len(truth.building_ids) + 2 + curves
     for src in parsed.images:
         assert src.startswith("data:image/png;base64,")
         assert base64.b64decode(src.split(",", 1)[1])[:8] == b"\x89PNG\r\n\x1a\n"
@@ -105,7 +111,12 @@ def test_flags_and_values_in_tables(page, truth):
         for value in df["dsz_max_kPa"]:
             assert _fmt(value) in text
     assert flagged >= 1                               # the fixture has a flagged building
-    assert parsed.flagged_rows == flagged
+    assert parsed.flagged_receptors == flagged        # receptor tables: one column each
+    findings = text.split('class="findings"', 1)[1].split("</div>", 1)[0]
+    assert "Limits reached" in findings
+    df = pd.read_csv(truth.path / "buildings_summary.csv", keep_default_na=False)
+    for rid in df.loc[df["flag"].astype(str).str.strip() != "", "receptor_id"]:
+        assert esc(rid) in findings
 
 
 def test_inputs_convergence_provenance_cautions(page, truth):

@@ -201,8 +201,9 @@ class _SceneBuilder:
             surf = self.frame.surface(f, np.full(f.values.shape, -f.depth))
             surf.point_data[self.bar_title] = f.values.ravel(order="F")
             visible = bool(depth is None or np.isclose(f.depth, depth))
-            part = surf.threshold(floor, scalars=self.bar_title, method="upper") \
-                if self.slice_floor > 0 else surf
+            # all_scalars: a cell is kept only when all its corners reach the floor
+            part = surf.threshold(floor, scalars=self.bar_title, method="upper",
+                                  all_scalars=True) if self.slice_floor > 0 else surf
             actors = [self.plotter.add_mesh(surf.outline(), color="gray", line_width=1)]
             if part.n_points:
                 actors.append(self.plotter.add_mesh(
