@@ -185,7 +185,9 @@ def test_standalone_html_scene_draws_in_chromium(truth, tmp_path):
     assert _distinct_colours(img) > 200
     assert np.any(img < 240, axis=2).mean() > 0.08   # slices cut at 2 %: white around them
     _, viridis_fraction = _values_from_viridis(img[::2, ::2], 0.0, 1.0, tol=12)
-    assert viridis_fraction > 0.05                     # the slices are drawn, not just a frame
+    # The slices are drawn, not just a frame: the scalar bar alone is ~1.2 % of the image,
+    # the slices seen through the translucent fill and buildings add ~2.5 % more.
+    assert viridis_fraction > 0.025
 
 
 def test_export_default_path(truth, tmp_path):

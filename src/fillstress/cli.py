@@ -100,7 +100,8 @@ def _parser() -> argparse.ArgumentParser:
     c.add_argument("results", type=Path, help="results folder of a run")
     c.add_argument("--png", type=Path, help="render offscreen to this PNG instead of a window")
     c.add_argument("--html", type=Path, help="write a standalone HTML scene instead")
-    c.add_argument("--exaggeration", type=float, default=1.0, help="vertical exaggeration")
+    c.add_argument("--exaggeration", type=float, default=None,
+                   help="vertical exaggeration (default: chosen from the site's proportions)")
     c.add_argument("--quantity", default="dsz", help="dsz, stress_ratio or settlement")
 
     c = command("report", _report, "Write the HTML engineering report of a results folder.",

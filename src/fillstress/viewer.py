@@ -9,6 +9,9 @@ z = ground − d, and z is multiplied by the vertical exaggeration.
 """
 from __future__ import annotations
 
+import contextlib
+import os
+
 from pathlib import Path
 
 import numpy as np
@@ -474,6 +477,26 @@ def render_png(results_dir, path, *, camera="iso", window_size=(1200, 900),
     return path
 
 
+@contextlib.contextmanager
+def _offline_trame():
+    """Keep the export offline and quiet. The standalone scene uses vtk.js only, but trame's
+    WebAssembly view module, set up on first use, would try to download VTK's WebAssembly
+    build unless pointed at a local folder (an empty one will do)."""
+    import io
+    import tempfile
+    with tempfile.TemporaryDirectory() as empty:
+        before = os.environ.get("VTK_WASM_DIR_OVERRIDE")
+        os.environ["VTK_WASM_DIR_OVERRIDE"] = empty
+        try:
+            with contextlib.redirect_stdout(io.StringIO()):
+                yield
+        finally:
+            if before is None:
+                os.environ.pop("VTK_WASM_DIR_OVERRIDE", None)
+            else:
+                os.environ["VTK_WASM_DIR_OVERRIDE"] = before
+
+
 def export_scene_html(results_dir, path=None, *, exaggeration: float | None = None,
                       quantity: str = "dsz") -> Path:
     """Write the scene (every slice shown) as one self-contained HTML file.
@@ -494,7 +517,8 @@ def export_scene_html(results_dir, path=None, *, exaggeration: float | None = No
     path = Path(results_dir) / "scene.html" if path is None else Path(path)
     tmp = path.with_name(f".{path.name}.partial.html")
     try:
-        plotter.trame.export_html(str(tmp))
+        with _offline_trame():
+            plotter.trame.export_html(str(tmp))
     except ImportError as exc:  # the optional scene packages are missing
         raise InputError(f"needs the 'scene' extra (trame, trame-vtk, trame-pyvista, "
                          f"nest_asyncio2): {exc}", argument="path") from None

@@ -296,7 +296,7 @@ def _write_summary_json(res, folder, assumptions, cautions) -> None:
         "bodies": json.loads(tables.labelled_table(bodies_table(site), site.units,
                                                    EXTRA_QUANTITIES).to_json(orient="records")),
         "soil": _soil_rows(site),
-        "convergence": res.convergence,
+        "convergence": _convergence_out(res),
         "receptors": {name: json.loads(tables.labelled_table(
             kind_summary(res, kind).drop(columns=["x_at_max", "y_at_max"]), site.units,
             _quantities(kind_summary(res, kind))).to_json(orient="records"))
@@ -307,6 +307,15 @@ def _write_summary_json(res, folder, assumptions, cautions) -> None:
     }
     write_atomic(folder.path("summary.json"),
                  lambda p: p.write_text(json.dumps(data, indent=2, default=_json_default)))
+
+
+def _convergence_out(res) -> dict:
+    """The convergence check with its cell sizes in the site's length unit."""
+    c, u = dict(res.convergence), res.site.units
+    for key in ("cell", "fine_cell"):
+        if key in c:
+            c[f"{key}_{u.length}"] = u.length_out(c.pop(key))
+    return c
 
 
 def _json_default(v):
