@@ -14,6 +14,8 @@ Examples
 """
 from __future__ import annotations
 
+import os
+
 from contextlib import contextmanager
 from typing import NamedTuple
 
@@ -57,8 +59,15 @@ def connect(scheduler):
     if isinstance(scheduler, bool) or not isinstance(scheduler, (int, np.integer)) or scheduler < 1:
         raise InputError(f"must be a scheduler address or a number of workers >= 1, got {scheduler!r}",
                          argument="scheduler")
-    cluster = LocalCluster(n_workers=int(scheduler), threads_per_worker=1, processes=True,
-                           dashboard_address=":0")
+    # Each worker is one process with one Dask thread; its numba kernels share the
+    # machine's cores with the other workers instead of each taking all of them.
+    n = int(scheduler)
+    numba_threads = max(1, (os.cpu_count() or 1) // n)
+    import dask
+    with dask.config.set({"distributed.nanny.pre-spawn-environ.NUMBA_NUM_THREADS":
+                          str(numba_threads)}):
+        cluster = LocalCluster(n_workers=n, threads_per_worker=1, processes=True,
+                               dashboard_address=":0")
     client = Client(cluster)
     try:
         yield client
