@@ -106,9 +106,7 @@ def tiled_under_cap(cells: int, cap_gb: float) -> list[str]:
 
 
 def dask_beside_serial(cells: int, n_points: int) -> list[str]:
-    from distributed import Client, LocalCluster
-
-    from fillstress.distributed import distributed_points
+    from fillstress.distributed import connect, distributed_points
     from fillstress.solve.auto import stress_at_points
     grid = invented_site(cells)
     pts = points_on(grid, n_points)
@@ -116,12 +114,13 @@ def dask_beside_serial(cells: int, n_points: int) -> list[str]:
     serial = stress_at_points(grid, pts, algorithm="far")
     rows = [f"| serial (numba threads) | {time.perf_counter() - t0:.2f} s | — |"]
     for workers in (1, 2):
-        with LocalCluster(n_workers=workers, threads_per_worker=1, processes=True,
-                          dashboard_address=":0") as cluster, Client(cluster) as client:
+        with connect(workers) as client:       # as `fillstress run --workers N` does
             distributed_points(grid, pts[:100], client=client, algorithm="far")  # warm workers
             t0 = time.perf_counter()
             out = distributed_points(grid, pts, client=client, algorithm="far", chunk_size=2000)
-            rows.append(f"| Dask, {workers} worker(s) × 1 thread | {time.perf_counter() - t0:.2f} s "
+            rows.append(f"| Dask, {workers} worker(s) × 1 thread, "
+                        f"{max(1, (os.cpu_count() or 1) // workers)} numba thread(s) | "
+                        f"{time.perf_counter() - t0:.2f} s "
                         f"| {'identical' if np.array_equal(out, serial) else 'DIFFERENT'} |")
     return [f"### Dask: {n_points} points, far field, {grid.pressure.size} cells", "",
             "| run | time | values vs serial |", "|---|---|---|", *rows, ""]
