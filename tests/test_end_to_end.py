@@ -225,3 +225,17 @@ def test_plan_grid_spacing_takes_every_kth_cell_centre(tmp_path):
     toml.write_text(bad)
     with pytest.raises(Exception, match="whole multiple of the cell size 2 m"):
         load_site(toml)
+
+
+def test_vector_layer_without_any_crs_is_refused(tmp_path, capsys):
+    site = _copy_site(tmp_path)
+    text = site.read_text().replace('crs = "EPSG:32632"\n', "")
+    site.write_text(text)
+    geo = site.parent / "pile_toes.geojson"
+    import json
+    data = json.loads(geo.read_text())
+    data.pop("crs", None)
+    geo.write_text(json.dumps(data))
+    assert main(["check", str(site)]) == 2
+    err = capsys.readouterr().err
+    assert "states no CRS" in err and "pile_toes.geojson" in err

@@ -233,7 +233,8 @@ def _read_vector(ctx: _Context, path: Path, id_field: str, where, geom_type: str
 def _to_site(ctx: _Context, frame, path):
     layer_crs = frame.crs
     if layer_crs is None and ctx.site_crs is None:
-        return frame.geometry.values
+        raise InputError("the layer states no CRS and neither does the site; add "
+                         "crs = \"EPSG:...\" to [site]", file=path)
     try:
         return crsmod.to_site(np.asarray(frame.geometry.values, dtype=object),
                               layer_crs, ctx.site_crs, argument="crs")
