@@ -239,3 +239,36 @@ def test_vector_layer_without_any_crs_is_refused(tmp_path, capsys):
     assert main(["check", str(site)]) == 2
     err = capsys.readouterr().err
     assert "states no CRS" in err and "pile_toes.geojson" in err
+
+
+def test_excavation_beside_the_fill_gives_heave_warning_not_a_crash(tmp_path, capsys):
+    """A basement dig next to the preload: points where unloading exceeds σ'v0 get no
+    settlement and a warning; everything else is computed."""
+    site = _copy_site(tmp_path, "preload_surcharge")
+    site.write_text(site.read_text() + """
+[bodies.basement_dig]
+kind = "footprint"
+outline = [[452160.0, 218290.0], [452180.0, 218290.0], [452180.0, 218310.0], [452160.0, 218310.0]]
+height = 3.0
+unit_weight = 19.0
+excavation = true
+
+[[boreholes]]
+id = "BH-04"
+x = 452170.0
+y = 218300.0
+""")
+    out = tmp_path / "out"
+    assert main(["run", str(site), "-o", str(out), "--no-report"]) == 0
+    printed = capsys.readouterr().out
+    assert "warning:" in printed and "heave" in printed
+    pts = pd.read_csv(out / "boreholes_points.csv")
+    first = pts.groupby("receptor_id").head(1).set_index("receptor_id")
+    assert np.isnan(first.loc["BH-04", "settlement_mm"])
+    assert first.loc["BH-01", "settlement_mm"] > 100
+    assert (pts.loc[pts["receptor_id"] == "BH-04", "dsz_kPa"] < 0).any()
+    summary = json.loads((out / "summary.json").read_text())
+    assert any("heave" in w for w in summary["warnings"])
+    from fillstress.report import write_report
+    html = write_report(out).read_text()
+    assert "Warnings of this run" in html and "heave" in html

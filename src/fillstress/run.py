@@ -46,6 +46,7 @@ class RunResults:
     convergence: dict = field(default_factory=dict)
     timings: dict = field(default_factory=dict)
     client: object = None                            # Dask client while computing
+    warnings: list = field(default_factory=list)     # shown by the command and the summary
 
 
 def stress(site: Site, grid, xyz: np.ndarray, client=None) -> np.ndarray:
@@ -212,10 +213,23 @@ def _settlement_results(res: RunResults) -> None:
         xyz = np.column_stack([np.repeat(sub["x"].to_numpy(), len(z)),
                                np.repeat(sub["y"].to_numpy(), len(z)),
                                np.tile(z, len(sub))])
+        s0 = soil.sigma_v0_eff(z)
         for s, g in enumerate(stage_grids):
             dsz = stress(site, g, xyz, res.client).reshape(len(sub), len(z))
-            per_stage[idx, s] = st.consolidation_settlement(soil, z, h, dsz)
-            by_layer_stage.setdefault(depth, []).append(st.settlement_by_layer(soil, z, h, dsz))
+            # Unloading beyond σ'v0 (a deep excavation) leaves 1-D consolidation: those
+            # points get no settlement and a warning, the others are computed as usual.
+            tension = np.any(s0 + dsz <= 0, axis=1)
+            if tension.any():
+                res.warnings.append(
+                    f"stage {site.stages[s]}: unloading exceeds σ'v0 below "
+                    f"{', '.join(sub['point_id'][tension].astype(str)[:5])}"
+                    f"{' …' if tension.sum() > 5 else ''}; no settlement there (heave)")
+            safe = np.where(tension[:, None], 0.0, dsz)
+            per_stage[idx, s] = np.where(tension, np.nan,
+                                         st.consolidation_settlement(soil, z, h, safe))
+            layers = st.settlement_by_layer(soil, z, h, safe)
+            layers[tension] = np.nan
+            by_layer_stage.setdefault(depth, []).append(layers)
         by_layer_stage[depth] = (idx, np.stack(by_layer_stage[depth], axis=1))  # (N, S, L)
     targets = targets.assign(settlement=per_stage[:, -1])
     for s, k in enumerate(site.stages):
@@ -234,13 +248,18 @@ def _structure_checks(res: RunResults, targets: pd.DataFrame) -> None:
     s_cfg = res.site.config.get("settlement") or {}
     limits = {k: s_cfg[k] for k in ("limit_no_cracking", "limit_first_cracking",
                                     "limit_structural_damage") if s_cfg.get(k) is not None}
+    targets = targets[targets["settlement"].notna()]     # points in heave have none
     for b in res.site.receptors.get("buildings", []):
         g = targets[targets["receptor_id"] == b["id"]]
+        if len(g) < 2:
+            continue
         res.buildings.append(building_settlement(
             b["id"], g[["x", "y"]].to_numpy(), g["settlement"].to_numpy(),
             point_ids=g["point_id"].tolist(), limits=_limit_names(limits)))
     for pipe in res.site.receptors.get("pipes", []):
         g = targets[targets["receptor_id"] == pipe["id"]].sort_values("chainage")
+        if len(g) < 2:
+            continue
         res.pipes.append(pipe_settlement(pipe["id"], g["chainage"].to_numpy(),
                                          g["settlement"].to_numpy(), g["dsz"].to_numpy(),
                                          pipe["differential_length"]))
@@ -270,7 +289,7 @@ def _time_curves(res: RunResults, targets, by_layer_stage) -> None:
     wanted = targets["role"].isin(["centroid", "borehole"]).to_numpy()
     for depth, (idx, layers) in by_layer_stage.items():
         for local, row in enumerate(idx):
-            if not wanted[row]:
+            if not wanted[row] or np.isnan(layers[local]).any():
                 continue
             inc = st.stage_increments(layers[local])
             curve = st.settlement_time_curve(inc, starts, years, cv, hdr)
@@ -358,6 +377,7 @@ class RunSummary:
                          f"{u.length_out(c['fine_cell']):g} {u.length}) "
                          f"changes Δσz by at most {100 * c['max_relative_change']:.2f} % "
                          f"(at {c['at_point']})")
+        lines += [f"warning: {w}" for w in r.warnings]
         lines.append(f"results written to {self.folder}")
         lines.append(CAUTIONS.split(";")[0] + ".")
         return lines

@@ -302,6 +302,7 @@ def _write_summary_json(res, folder, assumptions, cautions) -> None:
             _quantities(kind_summary(res, kind))).to_json(orient="records"))
             for kind, name in KIND_FILES.items()
             if (res.points["receptor_kind"] == kind).any()},
+        "warnings": res.warnings,
         "timings_s": res.timings,
         "assumptions": assumptions, "cautions": cautions,
     }

@@ -392,6 +392,14 @@ class _Report:
                     "</div>")
         return ""
 
+    def warnings(self) -> str:
+        """Warnings of the run (e.g. points in heave below an excavation), at the top."""
+        items = _text_list(self.f.summary.get("warnings"))
+        if not items:
+            return ""
+        return ('<div class="findings"><strong>Warnings of this run</strong><ul>'
+                + "".join(f"<li>{esc(t)}</li>" for t in items) + "</ul></div>")
+
     # --- page ----------------------------------------------------------------
     def page(self) -> str:
         bodies = {"site": self.site, "inputs": self.inputs, "method": self.method,
@@ -410,7 +418,8 @@ class _Report:
         return ("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
                 f"<title>{esc(title)}</title><style>{CSS}</style></head><body>"
                 f"<h1>Vertical stress below fills: {esc(title)}</h1>"
-                + top + self.findings() + "".join(sections) + "</body></html>\n")
+                + top + self.findings() + self.warnings() + "".join(sections)
+                + "</body></html>\n")
 
 
 def _flag_text(kind: str, rec: dict, flag_cols, units: UnitLabels) -> str:
