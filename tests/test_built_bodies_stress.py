@@ -1,12 +1,11 @@
 """Stress below fill bodies built by the geometry builders, against independent results."""
 import math
 
-import numpy as np
 import pytest
 import shapely
 from scipy import integrate
 
-from fillstress import LoadGrid, vertical_stress
+from fillstress import vertical_stress
 from fillstress.grid import GridSpec
 from fillstress.shapes.embankment import embankment_thickness
 from fillstress.shapes.stockpile import pile_thickness

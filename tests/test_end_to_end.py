@@ -2,7 +2,6 @@
 folder; every output opens with its reader and agrees with an in-process computation."""
 import json
 import shutil
-from pathlib import Path
 
 import numpy as np
 import pandas as pd

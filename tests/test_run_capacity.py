@@ -3,7 +3,6 @@ numbers; plan slices over the cap are computed in tiles with the same values."""
 import shutil
 
 import numpy as np
-import pytest
 
 from fillstress.cli import main
 from fillstress.estimate_run import run_estimates, slices_need_tiles

@@ -173,7 +173,7 @@ def run_batch(site_path, variants_path, out, *, overwrite=False, report=False,
     """
     from .io.atomic import ResultsFolder
     from .io.tables import write_table_csv
-    from .run import RunSummary, compute, slug
+    from .run import RunSummary, compute
     from .site import load_site
     from .writers import _quantities, write_all
     from .run import ASSUMPTIONS, CAUTIONS

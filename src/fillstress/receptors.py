@@ -18,7 +18,7 @@ from typing import Callable
 import numpy as np
 import pandas as pd
 import shapely
-from shapely.geometry import LineString, Point, Polygon
+from shapely.geometry import LineString, Polygon
 
 from ._validate import depths_array, finite, finite_array, positive
 from .errors import InputError

@@ -5,7 +5,6 @@ both inside a results-folder transaction. `check_site_file` shows what a run wou
 """
 from __future__ import annotations
 
-import json
 import re
 import time
 from dataclasses import dataclass, field

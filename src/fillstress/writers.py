@@ -8,7 +8,6 @@ international foot). The VTK writers know no CRS, so their coordinates are pre-s
 from __future__ import annotations
 
 import json
-from dataclasses import replace
 
 import geopandas as gpd
 import numpy as np
