@@ -53,4 +53,14 @@ class InputError(FillstressError, ValueError):
 
 
 class CapacityError(FillstressError):
-    """A computation would exceed the memory cap; raised before allocating."""
+    """A computation would exceed the memory cap; raised before allocating.
+
+    Examples
+    --------
+    >>> from fillstress.estimate import Estimate, check_capacity
+    >>> try:
+    ...     check_capacity(Estimate("slices", 3e9, 1.0, ""), 1e9, hint="use tiles")
+    ... except CapacityError as exc:
+    ...     print(exc)
+    slices needs 3.0 GB, cap is 1.0 GB; use tiles
+    """
