@@ -227,17 +227,19 @@ def test_plan_grid_spacing_takes_every_kth_cell_centre(tmp_path):
 
 
 def test_vector_layer_without_any_crs_is_refused(tmp_path, capsys):
+    """A shapefile without .prj on a site that states no CRS: nothing says where it is."""
+    import geopandas as gpd
     site = _copy_site(tmp_path)
-    text = site.read_text().replace('crs = "EPSG:32632"\n', "")
+    toes = gpd.read_file(site.parent / "pile_toes.geojson").set_crs(None, allow_override=True)
+    with pytest.warns(UserWarning, match="crs"):     # pyogrio: no projection written
+        toes.to_file(site.parent / "pile_toes.shp")
+    assert not (site.parent / "pile_toes.prj").exists()
+    text = site.read_text().replace('crs = "EPSG:32632"\n', "").replace(
+        "pile_toes.geojson", "pile_toes.shp")
     site.write_text(text)
-    geo = site.parent / "pile_toes.geojson"
-    import json
-    data = json.loads(geo.read_text())
-    data.pop("crs", None)
-    geo.write_text(json.dumps(data))
     assert main(["check", str(site)]) == 2
     err = capsys.readouterr().err
-    assert "states no CRS" in err and "pile_toes.geojson" in err
+    assert "states no CRS" in err and "pile_toes.shp" in err
 
 
 def test_excavation_beside_the_fill_gives_heave_warning_not_a_crash(tmp_path, capsys):
@@ -271,3 +273,14 @@ y = 218300.0
     from fillstress.report import write_report
     html = write_report(out).read_text()
     assert "Warnings of this run" in html and "heave" in html
+
+
+def test_projected_geojson_without_crs_member_is_not_taken_as_degrees(tmp_path, capsys):
+    site = _copy_site(tmp_path)
+    geo = site.parent / "buildings.geojson"
+    data = json.loads(geo.read_text())
+    data.pop("crs")                      # RFC 7946: then the coordinates are WGS 84
+    geo.write_text(json.dumps(data))
+    assert main(["check", str(site)]) == 2
+    err = capsys.readouterr().err
+    assert "cannot be degrees" in err and "buildings.geojson" in err

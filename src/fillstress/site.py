@@ -209,6 +209,7 @@ def _read_vector(ctx: _Context, path: Path, id_field: str, where, geom_type: str
         raise InputError(f"cannot read vector file ({exc})", file=path) from None
     if frame.empty:
         raise InputError("the layer has no features", file=path)
+    _check_degrees(frame, path)
     if where is not None:
         if id_field not in frame.columns:
             raise InputError(f"no attribute {id_field!r} to select {where!r} with; attributes: "
@@ -228,6 +229,19 @@ def _read_vector(ctx: _Context, path: Path, id_field: str, where, geom_type: str
     frame = frame.copy()
     frame["geometry"] = _to_site(ctx, frame, path)
     return frame
+
+
+def _check_degrees(frame, path) -> None:
+    """A layer read as longitude/latitude must hold degrees. GeoJSON without a "crs"
+    member is WGS 84 by definition (RFC 7946), so projected coordinates written without
+    one would otherwise be taken as degrees."""
+    if frame.crs is None or not frame.crs.is_geographic:
+        return
+    xmin, ymin, xmax, ymax = frame.total_bounds
+    if min(xmin, ymin) < -180 or xmax > 180 or ymax > 90 or ymin < -90:
+        raise InputError(f"coordinates up to {max(abs(xmax), abs(ymax)):.0f} cannot be "
+                         f"degrees of {frame.crs.name}; if they are projected, state the "
+                         "CRS in the file (for GeoJSON a \"crs\" member) ", file=path)
 
 
 def _to_site(ctx: _Context, frame, path):
