@@ -16,7 +16,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ._validate import positive
+from ._validate import finite, positive
 from .errors import InputError
 from .report.folder import QUANTITIES, PlanField, ResultsFolder
 
@@ -383,10 +383,7 @@ def build_scene(results_dir, *, exaggeration: float | None = None, quantity: str
 
 def _share(value, name: str) -> float:
     """A number from 0 to 1, or InputError naming the argument."""
-    try:
-        v = float(value)
-    except (TypeError, ValueError):
-        raise InputError(f"must be a number from 0 to 1, got {value!r}", argument=name) from None
+    v = finite(value, name)
     if not 0.0 <= v <= 1.0:
         raise InputError(f"must be from 0 to 1, got {v:g}", argument=name)
     return v
