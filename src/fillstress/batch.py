@@ -16,14 +16,14 @@ from __future__ import annotations
 import copy
 import difflib
 import math
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 from pathlib import Path
 
-import numpy as np
 import pandas as pd
 
 from .errors import InputError
 from .progress import silent
+from .site import scaled_body
 
 VARIANT_KEYS = ("name", "unit_weight_factor", "height_factor", "water_table", "method",
                 "poisson")
@@ -96,7 +96,7 @@ def apply_variant(site, v: Variant):
     out = copy.copy(site)
     out.body_factors = (site.body_factors[0] * v.unit_weight_factor,
                         site.body_factors[1] * v.height_factor)
-    out.bodies = [_scaled_body(b, v) for b in site.bodies]
+    out.bodies = [scaled_body(b, v.unit_weight_factor, v.height_factor) for b in site.bodies]
     if v.method is not None:
         out.method = v.method
     if v.method == "boussinesq":
@@ -111,12 +111,6 @@ def apply_variant(site, v: Variant):
         out.soil = SoilProfile(site.soil.layers, v.water_table, site.soil.rigid_base_m,
                                site.soil.gamma_w)
     return out
-
-
-def _scaled_body(b, v: Variant):
-    peak = None if b.max_height_m is None else b.max_height_m * v.height_factor
-    return replace(b, unit_weight=b.unit_weight * v.unit_weight_factor,
-                   thickness=np.asarray(b.thickness) * v.height_factor, max_height_m=peak)
 
 
 def envelope_points(frames: dict[str, pd.DataFrame]) -> pd.DataFrame:

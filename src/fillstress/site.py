@@ -44,7 +44,9 @@ class Site:
     points: pd.DataFrame             # every receptor sample point
     receptors: dict                  # kind → list of dicts (id, geometry, attributes)
     plan_grids: list = field(default_factory=list)
+    cut_reports: dict = field(default_factory=dict)  # body → surfaces.CutReport
     body_factors: tuple = (1.0, 1.0)  # (unit weight, thickness) scale of a batch variant
+    context: object = field(default=None, repr=False)  # what rebuilding the bodies needs
 
     @property
     def path(self) -> Path:
@@ -67,13 +69,9 @@ class Site:
 
     def rebuild_bodies(self, spec: GridSpec) -> list:
         """The same bodies rasterised on another lattice (the convergence check)."""
-        from dataclasses import replace
         gamma, height = self.body_factors
-        bodies = [_build_body(self._ctx, name, raw, spec)
-                  for name, raw in self.config["bodies"].items()]
-        return [replace(b, unit_weight=b.unit_weight * gamma, thickness=b.thickness * height,
-                        max_height_m=None if b.max_height_m is None else b.max_height_m * height)
-                for b in bodies]
+        return [scaled_body(_build_body(self.context, name, raw, spec)[0], gamma, height)
+                for name, raw in self.config["bodies"].items()]
 
     def fill_thickness(self, stage: int | None = None) -> np.ndarray:
         stage = self.stages[-1] if stage is None else stage
@@ -86,6 +84,16 @@ class Site:
             return None
         gx, gy = np.meshgrid(self.spec.x_centres, self.spec.y_centres)
         return self.ground(gx, gy)
+
+
+def scaled_body(body, unit_weight_factor: float = 1.0, height_factor: float = 1.0):
+    """`body` with its unit weight and thickness scaled (batch variants)."""
+    from dataclasses import replace
+    if unit_weight_factor == 1.0 and height_factor == 1.0:
+        return body
+    peak = None if body.max_height_m is None else body.max_height_m * height_factor
+    return replace(body, unit_weight=body.unit_weight * unit_weight_factor,
+                   thickness=np.asarray(body.thickness) * height_factor, max_height_m=peak)
 
 
 @contextmanager
@@ -102,16 +110,33 @@ def _located(cfg: SiteConfig, where: str):
 
 @dataclass
 class _Context:
+    """What building the bodies needs, kept so they can be rebuilt on another lattice
+    without reading any file again."""
+
     cfg: SiteConfig
     site_crs: tuple | None          # (pyproj.CRS, factor) or None
     factor: float
-    ground: object
+    ground: object = None
+    outlines: dict = field(default_factory=dict)     # body → plan polygon (grid extent)
+    lines: dict = field(default_factory=dict)        # embankment → centreline
+    footprints: dict = field(default_factory=dict)   # body → footprint frame with heights
+    surfaces: dict = field(default_factory=dict)     # (path, name) → surface
 
     def xy(self, coords) -> np.ndarray:
         """Inline site-file coordinates (CRS units) → internal metres."""
         arr = np.asarray(coords, dtype=float)
         arr[:, :2] *= self.factor
         return arr
+
+    def surface(self, path: Path, surface_name=None):
+        """A surface file, read once."""
+        key = (Path(path), surface_name)
+        if key not in self.surfaces:
+            from .shapes.surfaces import read_surface
+            self.surfaces[key] = read_surface(path, site_crs=self.site_crs,
+                                              z_to_m=self.cfg.units.length_to_m,
+                                              surface_name=surface_name)
+        return self.surfaces[key]
 
 
 def load_site(path) -> Site:
@@ -132,23 +157,22 @@ def build_site(cfg: SiteConfig) -> Site:
     with _located(cfg, "site.crs"):
         site_crs = crsmod.site_crs(s["crs"]) if s.get("crs") else None
     factor = site_crs[1] if site_crs else 1.0
-    ctx = _Context(cfg, site_crs, factor, None)
-    ctx.cut_reports = {}
+    ctx = _Context(cfg, site_crs, factor)
     ctx.ground = _ground(ctx)
-    geoms = {name: _body_outline(ctx, name, raw) for name, raw in cfg["bodies"].items()}
+    ctx.outlines = {name: _body_outline(ctx, name, raw) for name, raw in cfg["bodies"].items()}
     receptors = _receptors(ctx)
-    spec = _analysis_grid(ctx, geoms, receptors)
-    ctx.outlines = geoms
-    bodies = [_build_body(ctx, name, raw, spec) for name, raw in cfg["bodies"].items()]
+    spec = _analysis_grid(ctx, ctx.outlines, receptors)
+    built = {name: _build_body(ctx, name, raw, spec) for name, raw in cfg["bodies"].items()}
     grid = cfg.get("grid") or {}
-    site = Site(cfg, s["name"], s.get("description") or "", cfg.units,
-                site_crs[0] if site_crs else None, factor, spec, bodies,
+    return Site(cfg, s["name"], s.get("description") or "", cfg.units,
+                site_crs[0] if site_crs else None, factor, spec,
+                [body for body, _ in built.values()],
                 grid.get("method", "boussinesq"),
                 grid.get("poisson") if grid.get("method") == "westergaard" else None,
                 ctx.ground, _soil(cfg), _points(ctx, receptors), receptors,
-                _plan_grids(ctx, spec))
-    site._ctx = ctx
-    return site
+                _plan_grids(ctx, spec),
+                cut_reports={n: cut for n, (_, cut) in built.items() if cut is not None},
+                context=ctx)
 
 
 # --- ground ---------------------------------------------------------------------------
@@ -164,14 +188,7 @@ def _ground(ctx: _Context):
         z = g["elevation"]
         return lambda x, y: np.full(np.shape(x), z, dtype=float)
     with _located(ctx.cfg, f"ground.{given[0]}"):
-        surface = _read_surface(ctx, g[given[0]], g.get("surface_name"))
-    return surface.sample
-
-
-def _read_surface(ctx: _Context, path: Path, surface_name=None):
-    from .shapes.surfaces import read_surface
-    return read_surface(path, site_crs=ctx.site_crs, z_to_m=ctx.cfg.units.length_to_m,
-                        surface_name=surface_name)
+        return ctx.surface(g[given[0]], g.get("surface_name")).sample
 
 
 # --- bodies ---------------------------------------------------------------------------
@@ -210,13 +227,7 @@ def _read_vector(ctx: _Context, path: Path, id_field: str, where, geom_type: str
     if frame.empty:
         raise InputError("the layer has no features", file=path)
     _check_degrees(frame, path)
-    if where is not None:
-        if id_field not in frame.columns:
-            raise InputError(f"no attribute {id_field!r} to select {where!r} with; attributes: "
-                             f"{', '.join(map(str, frame.columns))}", file=path)
-        frame = frame[frame[id_field].astype(str) == str(where)]
-        if frame.empty:
-            raise InputError(f"no feature with {id_field} = {where!r}", file=path)
+    frame = _select(frame, id_field, where, path)
     kinds = set(frame.geometry.geom_type)
     if not kinds <= {geom_type, "Multi" + geom_type}:
         raise InputError(f"expected {geom_type} features, found {', '.join(sorted(kinds))}",
@@ -228,6 +239,19 @@ def _read_vector(ctx: _Context, path: Path, id_field: str, where, geom_type: str
                          f"({reason})", file=path)
     frame = frame.copy()
     frame["geometry"] = _to_site(ctx, frame, path)
+    return frame
+
+
+def _select(frame, id_field: str, where, path):
+    """The features of `frame` whose `id_field` equals `where` (all when None)."""
+    if where is None:
+        return frame
+    if id_field not in frame.columns:
+        raise InputError(f"no attribute {id_field!r} to select {where!r} with; attributes: "
+                         f"{', '.join(map(str, frame.columns))}", file=path)
+    frame = frame[frame[id_field].astype(str) == str(where)]
+    if frame.empty:
+        raise InputError(f"no feature with {id_field} = {where!r}", file=path)
     return frame
 
 
@@ -262,17 +286,26 @@ def _body_outline(ctx: _Context, name: str, raw: dict):
     kind = raw["kind"]
     if kind == "surfaces":
         with _located(ctx.cfg, f"{where}.design"):
-            design = _read_surface(ctx, raw["design"])
-        return shapely.box(*design.bounds)
+            return shapely.box(*ctx.surface(raw["design"]).bounds)
     if kind == "embankment":
-        line = _outline_from(ctx, raw, where, line=True)
+        line = ctx.lines[name] = _outline_from(ctx, raw, where, line=True)
         reach = _embankment_reach(raw)
         return line.buffer(reach, cap_style="flat").union(
             shapely.buffer(shapely.points(list(line.coords)[::len(line.coords) - 1]), reach))
-    geom = _outline_from(ctx, raw, where)
-    if kind == "footprint" and raw.get("file") is not None and raw.get("height_field"):
-        pass  # heights are read when the body is built
-    return geom
+    if kind == "footprint" and raw.get("file") is not None and raw.get("height") is None:
+        frame = ctx.footprints[name] = _footprint_frame(ctx, raw)
+        return shapely.union_all(frame.geometry.values)
+    return _outline_from(ctx, raw, where)
+
+
+def _footprint_frame(ctx: _Context, raw: dict):
+    """Footprints with their heights (attribute or vertex z) from a vector file."""
+    from .shapes.footprints import read_footprints
+    with _located(ctx.cfg, "file"):
+        frame = read_footprints(raw["file"], raw.get("height_field"),
+                                target_crs=ctx.site_crs or None,
+                                height_to_m=ctx.cfg.units.length_to_m)
+    return _select(frame, raw.get("id_field") or "id", raw.get("where"), raw["file"])
 
 
 def _embankment_reach(raw: dict) -> float:
@@ -283,14 +316,16 @@ def _embankment_reach(raw: dict) -> float:
 
 
 def _build_body(ctx: _Context, name: str, raw: dict, spec: GridSpec):
+    """(Body on `spec`, its surfaces.CutReport or None)."""
     from .shapes import bodies as bd
     where = f"bodies.{name}"
     with _located(ctx.cfg, where):
-        thickness = _BUILDERS[raw["kind"]](ctx, name, raw, spec)
+        thickness, cut = _BUILDERS[raw["kind"]](ctx, name, raw, spec)
         area, peak = _exact_size(ctx, name, raw)
-        return bd.Body(name=name, kind=raw["kind"], unit_weight=raw["unit_weight"],
+        body = bd.Body(name=name, kind=raw["kind"], unit_weight=raw["unit_weight"],
                        stage=raw["stage"], thickness=thickness, spec=spec,
                        excavation=raw["excavation"], footprint_area_m2=area, max_height_m=peak)
+    return body, cut
 
 
 def _exact_size(ctx, name, raw) -> tuple[float | None, float | None]:
@@ -313,48 +348,44 @@ def _exact_size(ctx, name, raw) -> tuple[float | None, float | None]:
 def _pile(ctx, name, raw, spec):
     from .shapes.stockpile import pile_thickness
     return pile_thickness(ctx.outlines[name], raw["repose_angle"], spec,
-                          crest_height=raw.get("crest_height"))
+                          crest_height=raw.get("crest_height")), None
 
 
 def _footprint(ctx, name, raw, spec):
     from .shapes import footprints as fp
-    if raw.get("file") is not None and raw.get("height") is None:
-        frame = fp.read_footprints(raw["file"], raw.get("height_field"),
-                                   target_crs=ctx.site_crs or None,
-                                   height_to_m=ctx.cfg.units.length_to_m)
-        if raw.get("where") is not None:
-            frame = frame[frame[raw.get("id_field") or "id"].astype(str) == str(raw["where"])]
+    if name in ctx.footprints:
+        frame = ctx.footprints[name]
         total = spec.zeros()
         for geom, h, sloping in zip(frame.geometry, frame.height_m, frame.sloping_top):
             total += (fp.sloping_footprint_thickness(geom, spec) if sloping
                       else fp.footprint_thickness(geom, h, spec))
-        return total
+        return total, None
     geom = ctx.outlines[name]
     if raw.get("sloping_top"):
-        return fp.sloping_footprint_thickness(geom, spec)
+        return fp.sloping_footprint_thickness(geom, spec), None
     if raw.get("height") is None:
         raise InputError("needs height (or height_field with file, or sloping_top = true "
                          "with z on every vertex)", argument="height")
-    return fp.footprint_thickness(geom, raw["height"], spec)
+    return fp.footprint_thickness(geom, raw["height"], spec), None
 
 
 def _embankment(ctx, name, raw, spec):
     from .shapes.embankment import embankment_thickness
-    line = _outline_from(ctx, raw, f"bodies.{name}", line=True)
+    line = ctx.lines[name]
     chain, heights = np.array(raw["heights"]).T
     end = raw.get("end_slope") or raw["side_slope"]
     return embankment_thickness(
         line, spec, crest_width=raw["crest_width"], side_slope=raw["side_slope"],
         heights=heights, chainages=chain,
         start_slope="vertical" if raw["start_end"] == "vertical" else end,
-        end_slope="vertical" if raw["finish_end"] == "vertical" else end)
+        end_slope="vertical" if raw["finish_end"] == "vertical" else end), None
 
 
 def _surfaces(ctx, name, raw, spec):
     from .shapes.surfaces import fill_from_surfaces
-    design = _read_surface(ctx, raw["design"])
+    design = ctx.surface(raw["design"])
     if raw.get("existing") is not None:
-        existing = _read_surface(ctx, raw["existing"])
+        existing = ctx.surface(raw["existing"])
     elif ctx.ground is not None:
         existing = ctx.ground
     else:
@@ -363,10 +394,10 @@ def _surfaces(ctx, name, raw, spec):
     if report.area_compared <= 0:
         raise InputError("the design and existing surfaces do not overlap inside the grid",
                          argument="design")
-    ctx.cut_reports[name] = report      # the cut is reported even where it is ignored
-    return thickness
+    return thickness, report            # the cut is reported even where it is ignored
 
 
+# Each builder returns (cell-average thickness on spec, surfaces.CutReport or None).
 _BUILDERS = {"pile": _pile, "footprint": _footprint, "embankment": _embankment,
              "surfaces": _surfaces}
 
@@ -393,12 +424,17 @@ def _analysis_grid(ctx: _Context, outlines: dict, receptors: dict) -> GridSpec:
 
 
 def _feature_size(geom) -> float:
-    """A plan size of a body: its area over half its perimeter (a rectangle's harmonic width)."""
+    """A plan size of a body: twice its area over its perimeter (≈ the width of a long
+    strip; half the harmonic mean of a rectangle's sides)."""
     return 2 * geom.area / max(geom.length, 1e-9)
 
 
 def _shallowest_depth(ctx, receptors) -> float:
-    depths = [r["depth"] for items in receptors.values() for r in items if r.get("depth")]
+    """Shallowest receptor depth below ground. Depth 0 is left out: at the surface the
+    stress is the cell's own pressure, whatever the cell size. Pipes may have one depth a
+    vertex."""
+    depths = [d for items in receptors.values() for r in items
+              for d in np.atleast_1d(r.get("depth") or 0.0) if d > 0]
     return min(depths) if depths else 1.0
 
 
@@ -467,23 +503,23 @@ def _receptor_items(ctx, table, raw, where) -> list[dict]:
         xy = ctx.xy(raw[key])
         geoms = [(raw["id"], LineString(xy) if line else Polygon(xy), {})]
     elif raw.get("file") is not None:
-        frame = _read_vector(ctx, raw["file"], raw["id_field"], None,
-                             "LineString" if line else "Polygon")
-        if raw["id_field"] not in frame.columns:
-            raise InputError(f"no id attribute {raw['id_field']!r}", file=raw["file"])
-        geoms = [(str(r[raw["id_field"]]), r.geometry, r) for _, r in frame.iterrows()]
+        def to_site(frame):
+            _check_degrees(frame, raw["file"])
+            return frame.set_geometry(list(_to_site(ctx, frame, raw["file"])))
+        frame = rc.read_receptor_layer(
+            raw["file"], RECEPTOR_TABLES[table], id_field=raw["id_field"],
+            required_fields=[raw["depth_field"]] if raw.get("depth_field") else (),
+            to_site_crs=to_site)
+        geoms = [(r["receptor_id"], r.geometry, r) for _, r in frame.iterrows()]
     else:
         raise InputError(f"needs {key} = [[x, y], ...] or file = \"...\"",
                          file=ctx.cfg.path, key=where)
     items = []
     for rid, geom, attrs in geoms:
         item = dict(raw)
-        if raw.get("depth_field"):
-            f = raw["depth_field"]
-            if f not in attrs:
-                raise InputError(f"no attribute {f!r}", file=raw["file"])
+        if raw.get("depth_field"):          # read_receptor_layer checked it is filled
             item["foundation_depth" if not line else "crown_depth"] = (
-                float(attrs[f]) * ctx.cfg.units.length_to_m)
+                float(attrs[raw["depth_field"]]) * ctx.cfg.units.length_to_m)
         if geom.geom_type.startswith("Multi"):
             geom = max(geom.geoms, key=lambda g: g.area if not line else g.length)
         item.update(id=rid, geometry=geom)

@@ -42,7 +42,7 @@ def _vtk_slice(site, da):
 def bodies_table(site) -> pd.DataFrame:
     """One row per body; surface-difference bodies also give the cut found and the area
     where both surfaces were compared."""
-    cuts = site._ctx.cut_reports if hasattr(site, "_ctx") else {}
+    cuts = site.cut_reports
     rows = []
     for b in site.bodies:
         cut = cuts.get(b.name)
