@@ -4,7 +4,8 @@ import pyproj
 import pytest
 import shapely
 
-from fillstress.crs import from_site, layer_and_site, metric_twin, site_crs, to_site
+from fillstress.crs import (check_degrees, from_site, layer_and_site, metric_twin, site_crs,
+                            to_site)
 from fillstress.errors import InputError
 from fillstress.units import FOOT, US_SURVEY_FOOT
 
@@ -80,3 +81,29 @@ def test_layer_without_crs():
         layer_and_site(None, None, file="pts.csv")
     layer, (site, f) = layer_and_site("EPSG:2229", None)
     assert site.equals(layer) and f == pytest.approx(US_SURVEY_FOOT)
+
+
+def test_projected_numbers_said_to_be_degrees_are_refused():
+    """RFC 7946: GeoJSON without a "crs" member is WGS 84, so UTM metres arrive as "degrees";
+    pyproj would turn them into infinities instead of refusing them."""
+    utm = shapely.box(583900.0, 6641200.0, 583950.0, 6641260.0)   # invented pad, UTM 32N
+    x, y = pyproj.Transformer.from_crs("EPSG:4326", "EPSG:32632", always_xy=True).transform(
+        583900.0, 6641200.0)
+    assert not np.isfinite(x) or not np.isfinite(y)               # the silent failure
+    with pytest.raises(InputError, match="pads.geojson: .*cannot be longitude/latitude"):
+        to_site(utm, "EPSG:4326", "EPSG:32632", file="pads.geojson")
+    with pytest.raises(InputError, match="argument crs: .*x = 583900"):
+        check_degrees(np.array([[10.5, 59.9], [583900.0, 6641200.0]]), "EPSG:4326",
+                      argument="crs")
+    with pytest.raises(InputError, match="y = 91"):               # latitude beyond the pole
+        check_degrees((10.0, 91.0), "EPSG:4326")
+    with pytest.raises(InputError, match="cannot be longitude"):  # also before the site hint
+        to_site(utm, "EPSG:4326", None)
+
+
+def test_degrees_in_range_and_projected_layers_pass_the_check():
+    check_degrees(np.array([[-179.9, -89.9], [359.0, 89.9]]), "EPSG:4326")  # 0…360 longitudes
+    check_degrees(shapely.box(583900.0, 6641200.0, 583950.0, 6641260.0), "EPSG:32632")
+    check_degrees((583900.0, 6641200.0), None)
+    x, y = to_site((10.5, 59.9), "EPSG:4326", "EPSG:32632", file="pads.geojson")
+    assert np.isfinite([x, y]).all()

@@ -350,3 +350,15 @@ def test_summarise_refuses_missing_values():
         summarise(pts, "dsz")
     with pytest.raises(InputError, match="missing column"):
         summarise(pts.drop(columns="depth"), "dsz")
+
+
+def test_read_layer_refuses_projected_geojson_without_crs_member(tmp_path):
+    import json
+    frame = gpd.GeoDataFrame({"id": ["Mill"]}, geometry=[box(583900, 6641200, 583920, 6641215)],
+                             crs="EPSG:32632")
+    path = _write(tmp_path, "b.geojson", frame)
+    data = json.loads(path.read_text())
+    data.pop("crs", None)                # RFC 7946: read as WGS 84 degrees
+    path.write_text(json.dumps(data))
+    with pytest.raises(InputError, match="b.geojson: .*cannot be longitude/latitude"):
+        read_receptor_layer(path, "building")

@@ -175,3 +175,18 @@ def test_read_footprints_geographic_layer_suggests_utm(tmp_path):
         read_footprints(path)
     got = read_footprints(path, target_crs="EPSG:32632")  # reprojected when a site CRS is given
     assert got.area[0] == pytest.approx(pad.to_crs(32632).area[0], rel=1e-9)
+
+
+@pytest.mark.parametrize("target", [None, "EPSG:32632"])
+def test_read_footprints_refuses_projected_geojson_without_crs_member(tmp_path, target):
+    pad = geopandas.GeoDataFrame({"height": [2.0]},
+                                 geometry=[shapely.box(583900.0, 6641200.0, 583950.0, 6641260.0)],
+                                 crs="EPSG:32632")
+    path = _write(tmp_path, "pad.geojson", pad)
+    data = json.loads(path.read_text())
+    data.pop("crs", None)                # RFC 7946: the file is then WGS 84 degrees
+    path.write_text(json.dumps(data))
+    assert geopandas.read_file(path).crs.to_epsg() == 4326
+    with pytest.raises(InputError, match="cannot be longitude/latitude") as err:
+        read_footprints(path, target_crs=target)
+    assert "pad.geojson" in str(err.value)

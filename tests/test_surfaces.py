@@ -145,6 +145,17 @@ def test_geotiff_errors(tmp_path):
     assert read_raster_surface(tmp_path / "nocrs.tif", SITE).sample(1.5, 1.5) == 1.0
 
 
+
+def test_surfaces_said_to_be_in_degrees_with_projected_numbers_are_refused(tmp_path):
+    t = Affine(10.0, 0, 500000.0, 0, -10.0, 6000040.0)          # UTM metres…
+    _write_tif(tmp_path / "dem.tif", np.ones((4, 5)), t, crs="EPSG:4326")   # …tagged degrees
+    with pytest.raises(InputError, match="dem.tif: .*cannot be longitude/latitude"):
+        read_raster_surface(tmp_path / "dem.tif", SITE)
+    path = tmp_path / "pts.csv"
+    path.write_text("x,y,z\n500000,6000000,1\n500030,6000000,1\n500000,6000020,1\n")
+    with pytest.raises(InputError, match="pts.csv: .*cannot be longitude/latitude"):
+        read_survey_points(path, SITE, crs="EPSG:4326")
+
 @pytest.mark.parametrize("text", [
     "Point,Easting,Northing,Elevation\n1,0,0,5\n2,30,0,8\n3,0,20,5\n4,30,20,8\n",
     "# Fenwick levee survey\n0 0 5\n30 0 8\n0 20 5\n30 20 8\n0 0 5\n",

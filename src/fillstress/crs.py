@@ -133,12 +133,16 @@ def _layer_centre_lonlat(geom_or_xy, crs: pyproj.CRS):
 
 
 def _as_xy_array(geom_or_xy) -> np.ndarray:
-    if isinstance(geom_or_xy, shapely.Geometry) or (
-            isinstance(geom_or_xy, np.ndarray) and geom_or_xy.dtype == object):
+    """(N, 2) x, y of a geometry, an array of geometries (numpy or geopandas), an (x, y)
+    pair or an (N, 2|3) array."""
+    if isinstance(geom_or_xy, shapely.Geometry):
         return shapely.get_coordinates(geom_or_xy)
     if isinstance(geom_or_xy, tuple) and len(geom_or_xy) == 2:
         return np.column_stack([np.ravel(geom_or_xy[0]), np.ravel(geom_or_xy[1])])
-    return np.asarray(geom_or_xy, dtype=float).reshape(-1, np.shape(geom_or_xy)[-1])[:, :2]
+    arr = np.asarray(geom_or_xy)
+    if arr.dtype == object:
+        return shapely.get_coordinates(arr)
+    return arr.astype(float).reshape(-1, arr.shape[-1])[:, :2]
 
 
 def _xy_columns(func):
@@ -171,7 +175,54 @@ def _apply(geom_or_xy, func, argument):
     return arr
 
 
-def to_site(geom_or_xy, from_crs, site, *, argument: str = "geometry"):
+def check_degrees(geom_or_xy, crs_like, *, file=None, argument: str = "geometry") -> None:
+    """Refuse coordinates that cannot be longitude/latitude in a geographic CRS.
+
+    A GeoJSON file without a ``crs`` member is WGS 84 by definition (RFC 7946), so
+    projected coordinates saved without one are read as degrees, and pyproj turns them
+    into infinities. Longitudes beyond ±360° or latitudes beyond ±90° are refused; a
+    projected (or missing) `crs_like` is not checked. Small local coordinates that happen
+    to fit the ranges cannot be told from degrees and pass.
+
+    Parameters
+    ----------
+    geom_or_xy : shapely geometry (or array of them), (x, y) pair, or (N, 2|3) array
+        Coordinates in `crs_like`, x = longitude, y = latitude.
+    crs_like : CRS-like or None
+        The CRS the coordinates are said to be in.
+    file, argument : optional
+        Where the coordinates came from, for the error message (`file` wins).
+
+    Examples
+    --------
+    >>> check_degrees((10.5, 59.9), "EPSG:4326")
+    >>> check_degrees((583914.1, 6641224.9), "EPSG:4326", file="toes.geojson")
+    Traceback (most recent call last):
+    ...
+    fillstress.errors.InputError: toes.geojson: coordinates reach x = 583914, y = 6641225, which cannot be longitude/latitude in WGS 84; if they are projected, state the file's CRS (a GeoJSON file without a "crs" member is read as WGS 84, RFC 7946)
+    """
+    if crs_like is None:
+        return
+    crs = _horizontal(as_crs(crs_like, argument))
+    if not crs.is_geographic:
+        return
+    xy = _as_xy_array(geom_or_xy)
+    xy = xy[np.all(np.isfinite(xy), axis=1)]
+    if not len(xy):
+        return
+    worst = np.abs(xy).max(axis=0)
+    if worst[0] <= 360.0 and worst[1] <= 90.0:
+        return
+    k = int(np.argmax(np.abs(xy[:, 0]) > 360.0) if worst[0] > 360.0
+            else np.argmax(np.abs(xy[:, 1]) > 90.0))
+    where = {"file": file} if file is not None else {"argument": argument}
+    raise InputError(f"coordinates reach x = {xy[k, 0]:.0f}, y = {xy[k, 1]:.0f}, which cannot "
+                     f"be longitude/latitude in {crs.name}; if they are projected, state the "
+                     "file's CRS (a GeoJSON file without a \"crs\" member is read as WGS 84, "
+                     "RFC 7946)", **where)
+
+
+def to_site(geom_or_xy, from_crs, site, *, argument: str = "geometry", file=None):
     """Bring a layer into internal site coordinates (metres in the site projection).
 
     Parameters
@@ -185,10 +236,18 @@ def to_site(geom_or_xy, from_crs, site, *, argument: str = "geometry"):
         projected CRS to use (a layer without a CRS needs the site to state one).
     argument : str
         Name used in error messages.
+    file : str or path-like, optional
+        The file the layer came from, named in error messages instead of `argument`.
 
     Returns
     -------
     The same kind of object as `geom_or_xy`, in metres.
+
+    Raises
+    ------
+    InputError
+        Also when `from_crs` is geographic but the coordinates cannot be degrees
+        (:func:`check_degrees`).
 
     Examples
     --------
@@ -196,15 +255,17 @@ def to_site(geom_or_xy, from_crs, site, *, argument: str = "geometry"):
     >>> round(x, 1), round(y, 1)
     (583914.1, 6641224.9)
     """
+    named = {"file": file} if file is not None else {"argument": argument}
+    check_degrees(geom_or_xy, from_crs, file=file, argument=argument)
     if site is None:
         if from_crs is None:
             raise InputError("the layer has no CRS and the site states none; state the "
-                             "site CRS", argument=argument)
+                             "site CRS", **named)
         layer = as_crs(from_crs, argument)
         where = _layer_centre_lonlat(geom_or_xy, layer)
         hint = suggest_projected(*where) if where else layer.to_string()
         raise InputError(f"the layer is in {layer.to_string()} but the site states no CRS; "
-                         f"state a projected site CRS, e.g. {hint}", argument=argument)
+                         f"state a projected site CRS, e.g. {hint}", **named)
     crs, factor = _resolve_site(site)
     layer = crs if from_crs is None else _horizontal(as_crs(from_crs, argument))
     transformer = None if layer.equals(crs) else pyproj.Transformer.from_crs(

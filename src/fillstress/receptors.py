@@ -20,6 +20,7 @@ import pandas as pd
 import shapely
 from shapely.geometry import LineString, Polygon
 
+from . import crs as crsmod
 from ._validate import depths_array, finite, finite_array, positive
 from .errors import InputError
 
@@ -467,6 +468,7 @@ def read_receptor_layer(path, kind: str, *, id_field: str = "id", required_field
     dup = ids[ids.duplicated()]
     if len(dup):
         raise InputError(f"duplicate receptor id {dup.iloc[0]!r}", file=path, key=id_field)
+    crsmod.check_degrees(frame.geometry.values, frame.crs, file=path)
     frame = frame.assign(receptor_id=ids.to_numpy())
     frame = frame[["receptor_id"] + [c for c in frame.columns if c != "receptor_id"]]
     return to_site_crs(frame) if to_site_crs is not None else frame

@@ -172,6 +172,6 @@ def read_landxml_surface(path, site_crs=None, *, surface_name=None, crs=None,
     if not factor > 0:
         raise InputError(f"must be positive, got {z_to_m!r}", argument="z_to_m")
     layer, site = crsmod.layer_and_site(_file_crs(root) or crs, site_crs, file=path)
-    points = crsmod.to_site(points, layer, site)
+    points = crsmod.to_site(points, layer, site, file=path)
     points[:, 2] *= factor
     return TinSurface(points, tris, crs=crsmod.metric_twin(site[0]), source=str(path))

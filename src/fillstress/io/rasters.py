@@ -71,6 +71,9 @@ def read_raster_surface(path, site_crs=None, *, crs=None, band: int = 1,
                          "north-up first", file=path)
     if not np.isfinite(z).any():
         raise InputError("holds only nodata (no elevation anywhere)", file=path)
+    rows, cols = z.shape
+    corners = np.array([[t.c, t.f], [t.c + cols * t.a, t.f + rows * t.e]])
+    crsmod.check_degrees(corners, file_crs or crs, file=path)
     layer, site = crsmod.layer_and_site(file_crs or crs, site_crs, file=path)
     return _surface(z * factor, t, layer, site, str(path))
 

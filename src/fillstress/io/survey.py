@@ -136,6 +136,6 @@ def read_survey_points(path, site_crs=None, *, crs=None, z_to_m: float = 1.0) ->
     if len(points) < 3:
         raise InputError(f"needs at least 3 distinct points, got {len(points)}", file=path)
     layer, site = crsmod.layer_and_site(crs, site_crs, file=path)
-    points = crsmod.to_site(points, layer, site)
+    points = crsmod.to_site(points, layer, site, file=path)
     points[:, 2] *= factor
     return TinSurface.from_points(points, crs=crsmod.metric_twin(site[0]), source=str(path))

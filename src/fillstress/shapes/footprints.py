@@ -171,7 +171,7 @@ def read_footprints(path, height_field: str | None = None, crs=None, target_crs=
     out = gdf.copy()
     out["height_m"] = heights
     out["sloping_top"] = field is None
-    out = out.set_geometry(crsmod.to_site(geoms, source, site), crs=None)
+    out = out.set_geometry(crsmod.to_site(geoms, source, site, file=path), crs=None)
     return out.set_crs(crsmod.metric_twin(site[0]), allow_override=True)
 
 
@@ -216,6 +216,7 @@ def _own_crs_as_site(gdf, source, path):
     from .. import crs as crsmod
     source = crsmod.as_crs(source, "crs")
     if source.is_geographic:
+        crsmod.check_degrees(gdf.geometry.values, source, file=path)  # before the hint uses them
         xmin, ymin, xmax, ymax = gdf.total_bounds
         to_lonlat = pyproj.Transformer.from_crs(source, "EPSG:4326", always_xy=True)
         lonlat = to_lonlat.transform((xmin + xmax) / 2, (ymin + ymax) / 2)
