@@ -182,6 +182,23 @@ def test_geotiff_slices_are_read_north_up(truth, tmp_path):
     np.testing.assert_allclose(fill.values, truth.thickness, rtol=1e-6)
 
 
+def test_each_file_is_read_once(truth, tmp_path, monkeypatch):
+    """The report asks for the cube from several sections: it is read from disk once."""
+    import rasterio
+    import xarray as xr
+    opened = []
+    for module, name in ((xr, "open_dataset"), (rasterio, "open"), (pd, "read_csv")):
+        original = getattr(module, name)
+        monkeypatch.setattr(module, name, lambda path, *a, _f=original, **k:
+                            opened.append(str(path)) or _f(path, *a, **k))
+    copy = tmp_path / "copy"
+    shutil.copytree(truth.path, copy)
+    (copy / "fill_thickness.tif").unlink()        # the fill then comes from the cube too
+    write_report(copy, tmp_path / "report.html")
+    assert opened and len(opened) == len(set(opened)), sorted(opened)
+    assert sum(p.endswith("stress_cube.nc") for p in opened) == 1
+
+
 def test_missing_manifest(tmp_path):
     with pytest.raises(InputError, match="manifest.json: is missing"):
         ResultsFolder(tmp_path)

@@ -141,6 +141,14 @@ class ResultsFolder:
         self.manifest = _read_json(self.path / "manifest.json", required=True)
         self.summary = _read_json(self.path / "summary.json", required=False)
         self.units = self._read_units()
+        self._read_once: dict = {}
+
+    def _once(self, key: str, read):
+        """`read()` the first time `key` is asked for, the kept result after: the report and
+        the scene ask for the stress cube and the fill raster from several places."""
+        if key not in self._read_once:
+            self._read_once[key] = read()
+        return self._read_once[key]
 
     def _read_units(self) -> UnitLabels:
         units = self.manifest.get("units")
@@ -211,6 +219,10 @@ class ResultsFolder:
     # --- rasters and the stress cube ---------------------------------------------
     def raster(self, relpath: str, quantity: str, units: str) -> PlanField | None:
         """A north-up GeoTIFF as a PlanField (nodata → NaN), or None when absent."""
+        return self._once(f"raster:{relpath}:{quantity}:{units}",
+                          lambda: self._read_raster(relpath, quantity, units))
+
+    def _read_raster(self, relpath: str, quantity: str, units: str) -> PlanField | None:
         import rasterio
         path = self.path / relpath
         if not path.is_file():
@@ -244,7 +256,10 @@ class ResultsFolder:
         return self.raster("ground_elevation.tif", "ground_elevation", self.units.length)
 
     def cube(self):
-        """The stress cube as an xarray Dataset (loaded into memory), or None."""
+        """The stress cube as an xarray Dataset (loaded into memory, read once), or None."""
+        return self._once("cube", self._read_cube)
+
+    def _read_cube(self):
         import xarray as xr
         path = self.path / "stress_cube.nc"
         if not path.is_file():
@@ -298,20 +313,6 @@ class ResultsFolder:
             f = self.raster(f"slices/{path.name}", "dsz", units)
             out.append(PlanField("dsz", m["grid"], float(m["depth"]), f.x, f.y, f.values, units))
         return out
-
-    def available_quantities(self) -> list[str]:
-        """Quantities present on plan slices or as a point column, in QUANTITIES order."""
-        cube = self.cube()
-        names = set(cube.data_vars) if cube is not None else set()
-        found = []
-        for q, unit_key in QUANTITIES.items():
-            col = self.units.suffixed(q, unit_key)
-            in_cube = any(_grid_of(v, q) is not None for v in names)
-            in_points = any(df is not None and col in df.columns
-                            for df in self.point_tables().values())
-            if in_cube or in_points or (q == "dsz" and self.plan_slices("dsz")):
-                found.append(q)
-        return found
 
 
 def _quantity_unit_key(quantity: str) -> str | None:
