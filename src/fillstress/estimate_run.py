@@ -32,9 +32,14 @@ def settlement_points(site) -> int:
     return total * len(site.stages)
 
 
-def _pad_cells(site, plan) -> tuple[int, int]:
+def plan_pad(site, plan) -> float:
+    """Padding (m) the analysis grid's slices need to cover a plan grid's extent."""
     gx0, gy0, gx1, gy1 = site.spec.extent
-    pad = max(0.0, gx0 - plan.xmin, gy0 - plan.ymin, plan.xmax - gx1, plan.ymax - gy1)
+    return max(0.0, gx0 - plan.xmin, gy0 - plan.ymin, plan.xmax - gx1, plan.ymax - gy1)
+
+
+def _pad_cells(site, plan) -> tuple[int, int]:
+    pad = plan_pad(site, plan)
     return (math.ceil(pad / site.spec.dx), math.ceil(pad / site.spec.dy))
 
 

@@ -44,7 +44,6 @@ class RunResults:
     time_curves: dict = field(default_factory=dict)  # receptor_id → (years, settlement m)
     convergence: dict = field(default_factory=dict)
     timings: dict = field(default_factory=dict)
-    client: object = None                            # Dask client while computing
     warnings: list = field(default_factory=list)     # shown by the command and the summary
 
 
@@ -95,14 +94,14 @@ def compute(site: Site, progress=silent, client=None) -> RunResults:
     with progress("computing", steps) as bar:
         pts["dsz"] = stress(site, grid, pts[["x", "y", "depth"]].to_numpy(float), client)
         bar.advance()
-        res = RunResults(site, grid, pts, client=client)
+        res = RunResults(site, grid, pts)
         for plan in site.plan_grids:
             res.slices[plan.name] = _plan_slices(site, grid, plan, client)
             bar.advance()
         if site.soil is not None:
             _soil_results(res)
             bar.advance()
-            _settlement_results(res)
+            _settlement_results(res, client)
             bar.advance()
         if _conv_steps(site):
             res.convergence = convergence_check(site, pts, client)
@@ -120,10 +119,8 @@ def _conv_steps(site: Site) -> int:
 def _plan_slices(site: Site, grid, plan, client=None):
     """FFT slices on the cell centres of the analysis grid, cut to the plan extent."""
     from .solve import stress_slices
-    xmin, ymin, xmax, ymax = plan.xmin, plan.ymin, plan.xmax, plan.ymax
-    gx0, gy0, gx1, gy1 = grid.extent
-    pad = max(0.0, gx0 - xmin, gy0 - ymin, xmax - gx1, ymax - gy1)
-    from .estimate_run import memory_cap, slices_need_tiles
+    from .estimate_run import memory_cap, plan_pad, slices_need_tiles
+    pad = plan_pad(site, plan)
     cap = memory_cap(site) if slices_need_tiles(site, plan) else None
     if client is not None:
         from .distributed import distributed_slices
@@ -137,7 +134,7 @@ def _plan_slices(site: Site, grid, plan, client=None):
         da = stress_slices(grid, plan.depths, method=site.method, poisson=site.poisson,
                            pad=pad)
     step = max(1, round(plan.spacing / site.spec.dx))
-    return da.sel(x=slice(xmin, xmax), y=slice(ymin, ymax)).isel(
+    return da.sel(x=slice(plan.xmin, plan.xmax), y=slice(plan.ymin, plan.ymax)).isel(
         x=slice(None, None, step), y=slice(None, None, step))
 
 
@@ -197,7 +194,7 @@ def _settlement_points(points: pd.DataFrame) -> pd.DataFrame:
     return pd.concat([keep, holes])
 
 
-def _settlement_results(res: RunResults) -> None:
+def _settlement_results(res: RunResults, client=None) -> None:
     from . import settlement as st
     site, soil = res.site, res.site.soil
     targets = _settlement_points(res.points)
@@ -214,7 +211,7 @@ def _settlement_results(res: RunResults) -> None:
                                np.tile(z, len(sub))])
         s0 = soil.sigma_v0_eff(z)
         for s, g in enumerate(stage_grids):
-            dsz = stress(site, g, xyz, res.client).reshape(len(sub), len(z))
+            dsz = stress(site, g, xyz, client).reshape(len(sub), len(z))
             # Unloading beyond σ'v0 (a deep excavation) leaves 1-D consolidation: those
             # points get no settlement and a warning, the others are computed as usual.
             tension = np.any(s0 + dsz <= 0, axis=1)
@@ -223,11 +220,9 @@ def _settlement_results(res: RunResults) -> None:
                     f"stage {site.stages[s]}: unloading exceeds σ'v0 below "
                     f"{', '.join(sub['point_id'][tension].astype(str)[:5])}"
                     f"{' …' if tension.sum() > 5 else ''}; no settlement there (heave)")
-            safe = np.where(tension[:, None], 0.0, dsz)
-            per_stage[idx, s] = np.where(tension, np.nan,
-                                         st.consolidation_settlement(soil, z, h, safe))
-            layers = st.settlement_by_layer(soil, z, h, safe)
+            layers = st.settlement_by_layer(soil, z, h, np.where(tension[:, None], 0.0, dsz))
             layers[tension] = np.nan
+            per_stage[idx, s] = layers.sum(axis=1)       # rows sum to the total settlement
             by_layer_stage.setdefault(depth, []).append(layers)
         by_layer_stage[depth] = (idx, np.stack(by_layer_stage[depth], axis=1))  # (N, S, L)
     targets = targets.assign(settlement=per_stage[:, -1])
@@ -276,14 +271,17 @@ def _time_curves(res: RunResults, targets, by_layer_stage) -> None:
     """Settlement–time curves at each borehole and building centroid (stages in days)."""
     from . import settlement as st
     site = res.site
-    days = (site.config.get("settlement") or {}).get("stage_days") or [0.0]
-    if len(days) < len(site.stages):
-        days = list(days) + [days[-1]] * (len(site.stages) - len(days))
-    try:
-        cv, hdr = st.time_parameters(site.soil, no_cv="immediate")
-    except InputError:
+    if not any(L.compressible and L.cv_m2_per_yr for L in site.soil.layers):
+        res.warnings.append("no compressible layer has cv: no settlement–time curves")
         return
-    starts = np.asarray(days[:len(site.stages)], float) / 365.25
+    days = list((site.config.get("settlement") or {}).get("stage_days") or [0.0])
+    if len(days) != len(site.stages):
+        res.warnings.append(f"[settlement] stage_days gives {len(days)} start time(s) for "
+                            f"{len(site.stages)} stage(s); missing stages start with the "
+                            "last given, extra times are ignored")
+        days = (days + [days[-1]] * len(site.stages))[:len(site.stages)]
+    cv, hdr = st.time_parameters(site.soil, no_cv="immediate")
+    starts = np.asarray(days, float) / 365.25
     years = np.unique(np.r_[0.0, np.geomspace(1 / 365.25, 50.0, 120), starts])
     wanted = targets["role"].isin(["centroid", "borehole"]).to_numpy()
     for depth, (idx, layers) in by_layer_stage.items():
@@ -340,7 +338,6 @@ def run_site_file(path, out=None, *, overwrite=False, report=True, progress=sile
         from .distributed import connect
         with connect(scheduler or workers) as client:
             res = compute(site, progress, client)
-        res.client = None
     else:
         res = compute(site, progress)
     with folder:
