@@ -140,3 +140,18 @@ def test_outputs_are_computed_not_passed(tmp_path):
         write_manifest(tmp_path, settings={}, outputs={})
     with pytest.raises(InputError, match="does not exist"):
         write_manifest(tmp_path / "none", settings={})
+
+
+def test_unusable_crs_is_refused_alike_by_every_writer():
+    """The manifest, the NetCDF cube and the GeoTIFF CRS all parse through fillstress.crs."""
+    from fillstress.io.geotiff import rasterio_crs
+    from fillstress.io.netcdf import stress_dataset
+
+    da = xr.DataArray(np.zeros((1, 1, 1)), dims=SLICE_DIMS,
+                      coords={"depth": [1.0], "y": [0.0], "x": [0.0]})
+    for call in (lambda crs: build_manifest(settings={}, crs=crs),
+                 lambda crs: stress_dataset({"plan": da}, crs=crs),
+                 rasterio_crs):
+        for bad in ("EPSG:0", object()):
+            with pytest.raises(InputError, match="argument crs: is not a coordinate reference"):
+                call(bad)

@@ -21,13 +21,10 @@ def rasterio_crs(crs):
     """A rasterio CRS from anything pyproj understands (None stays None)."""
     if crs is None:
         return None
-    from pyproj import CRS
-    from pyproj.exceptions import CRSError
     from rasterio.crs import CRS as RioCRS
-    try:
-        return RioCRS.from_wkt(CRS.from_user_input(crs).to_wkt())
-    except CRSError as exc:
-        raise InputError(f"is not a usable CRS ({exc})", argument="crs") from None
+
+    from ..crs import as_crs
+    return RioCRS.from_wkt(as_crs(crs, "crs").to_wkt())
 
 
 def north_up(array: np.ndarray) -> np.ndarray:

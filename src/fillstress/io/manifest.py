@@ -81,12 +81,8 @@ def _text(value, name: str):
 def _crs_wkt(crs):
     if crs is None:
         return None
-    from pyproj import CRS
-    from pyproj.exceptions import CRSError
-    try:
-        return CRS.from_user_input(crs).to_wkt()
-    except CRSError as exc:
-        raise InputError(f"is not a usable CRS ({exc})", argument="crs") from None
+    from ..crs import as_crs  # pyproj loads only when a writer needs it
+    return as_crs(crs, "crs").to_wkt()
 
 
 def _plan_label(crs, units: UnitSystem) -> str:

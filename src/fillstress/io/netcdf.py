@@ -121,12 +121,8 @@ def stress_dataset(slices: Mapping, *, grid: GridSpec | None = None, fill_thickn
 def _crs_attrs(crs) -> dict:
     if crs is None:
         return {"crs_wkt": ""}
-    from pyproj import CRS
-    from pyproj.exceptions import CRSError
-    try:
-        wkt = CRS.from_user_input(crs).to_wkt()
-    except CRSError as exc:
-        raise InputError(f"is not a usable CRS ({exc})", argument="crs") from None
+    from ..crs import as_crs
+    wkt = as_crs(crs, "crs").to_wkt()
     return {"crs_wkt": wkt, "spatial_ref": wkt}
 
 
