@@ -70,3 +70,14 @@ def test_bad_sizes_are_refused():
         estimate_points((10, 10), 5, algorithm="guess")
     with pytest.raises(InputError, match="argument memory_cap"):
         check_capacity(estimate_slices((10, 10), 1), -5)
+
+
+def test_pad_cells_that_are_not_a_pair_are_refused():
+    # a bare number once reached a generator over an int and raised TypeError
+    for call in (lambda: estimate_slices((10, 10), 1, pad_cells=3),
+                 lambda: largest_tile((10, 10), 1, 1e9, pad_cells=(1, 2, 3)),
+                 lambda: estimate_slices((10, 10), 1, pad_cells=(1, -1))):
+        with pytest.raises(InputError) as info:
+            call()
+        assert info.value.argument == "pad_cells"
+    assert estimate_slices((10, 10), 1, pad_cells=(np.int64(2), 0)).bytes > 0

@@ -14,6 +14,14 @@ from fillstress.solve.direct import node_weights
 METHODS = [("boussinesq", None), ("westergaard", 0.0), ("westergaard", 0.35)]
 
 
+def assert_each_refused(cases):
+    """Every (call, argument) pair raises InputError naming that argument."""
+    for call, argument in cases:
+        with pytest.raises(InputError) as info:
+            call()
+        assert info.value.argument == argument
+
+
 def random_grid(seed, ny=9, nx=13, dx=0.7, dy=1.1):
     rng = np.random.default_rng(seed)
     p = rng.uniform(-20.0, 120.0, (ny, nx))
@@ -95,10 +103,7 @@ def test_vertical_stress_rejects_bad_input():
         (lambda: vertical_stress(grid, ok, chunk=2.5), "chunk"),
         (lambda: vertical_stress(grid, ok, kernel="fast"), "kernel"),
     ]
-    for call, argument in cases:
-        with pytest.raises(InputError) as info:
-            call()
-        assert info.value.argument == argument
+    assert_each_refused(cases)
 
 
 def test_mutated_grid_is_rechecked():
@@ -205,10 +210,7 @@ def test_slice_inputs_are_validated():
         (lambda: slice_at_depth([[1.0]], 1.0, 1.0, 1.0, pad_cells=(1, -1)), "pad_cells"),
         (lambda: slice_at_depth([[1.0]], 1.0, 1.0, 1.0, pad_cells=3), "pad_cells"),
     ]
-    for call, argument in cases:
-        with pytest.raises(InputError) as info:
-            call()
-        assert info.value.argument == argument
+    assert_each_refused(cases)
 
 
 def test_workers_do_not_change_the_slice():
@@ -240,3 +242,22 @@ def test_slice_plan_reused_across_depths_matches_stress_slices():
         plan.at_depth(-1.0)
     with pytest.raises(InputError, match="method"):
         SlicePlan(grid.pressure, 1.0, 1.0, "elastic")
+
+
+def test_whole_number_arguments_share_one_rule():
+    # bools and integral floats are refused everywhere; numpy integers are accepted
+    from fillstress.solve import stress_at_points
+    from fillstress.solve.farfield import build_pyramid
+    grid = random_grid(15)
+    ok = [[0.0, 0.0, 1.0]]
+    assert_each_refused([
+        (lambda: vertical_stress(grid, ok, chunk=True), "chunk"),
+        (lambda: stress_at_points(grid, ok, chunk_size=2.0), "chunk_size"),
+        (lambda: stress_slices(grid, [1.0], workers=True), "workers"),
+        (lambda: build_pyramid(grid, order=9), "order"),
+        (lambda: build_pyramid(grid, order=-1), "order"),
+    ])
+    whole = vertical_stress(grid, ok)
+    np.testing.assert_array_equal(vertical_stress(grid, ok, chunk=np.int64(1)), whole)
+    np.testing.assert_array_equal(stress_at_points(grid, ok, chunk_size=np.int32(1),
+                                                   algorithm="direct"), whole)

@@ -25,10 +25,10 @@ import xarray as xr
 from ._validate import points_array
 from .errors import InputError
 from .progress import silent
-from .solve.auto import _chunk, choose_algorithm, point_evaluator
-from .solve.direct import _checked_grid
-from .solve.slices import slice_at_depth
-from .solve.tiled import assemble, prepare_tiled, run_tile, slice_setup
+from .solve._checks import checked_grid, points_per_chunk, whole_number
+from .solve.auto import DEFAULT_CHUNK, choose_algorithm, point_evaluator
+from .solve.slices import slice_at_depth, slice_setup
+from .solve.tiled import assemble, prepare_tiled, run_tile
 
 DEFAULT_RETRIES = 2
 
@@ -84,12 +84,6 @@ def _client(client):
     return client
 
 
-def _retries(retries) -> int:
-    if isinstance(retries, bool) or not isinstance(retries, (int, np.integer)) or retries < 0:
-        raise InputError(f"must be a whole number >= 0, got {retries!r}", argument="retries")
-    return int(retries)
-
-
 def _gather(client, futures, label, progress):
     """Results in submission order, advancing the progress bar as tasks finish."""
     from distributed import as_completed
@@ -109,13 +103,14 @@ def distributed_points(grid, points, method="boussinesq", poisson=None, *, clien
     evaluator (with the far-field pyramid, if chosen) is sent to the workers once.
     """
     client = _client(client)
-    grid = _checked_grid(grid)
+    retries = whole_number(retries, "retries", minimum=0)
+    grid = checked_grid(grid)
     pts = points_array(points)
-    step = _chunk(chunk_size)
+    step = points_per_chunk(chunk_size, "chunk_size", DEFAULT_CHUNK)
     chosen = choose_algorithm(grid, pts.shape[0], algorithm)
     evaluate = point_evaluator(grid, method, poisson, algorithm=chosen, tol=tol, floor=floor)
     shared = client.scatter(evaluate, broadcast=True)
-    futures = [client.submit(_apply, shared, pts[s:s + step], retries=_retries(retries), pure=False)
+    futures = [client.submit(_apply, shared, pts[s:s + step], retries=retries, pure=False)
                for s in range(0, pts.shape[0], step)]
     parts = _gather(client, futures, f"stress at points ({chosen}, Dask)", progress)
     return np.concatenate(parts) if parts else np.zeros(0)
@@ -135,7 +130,7 @@ def distributed_slices(grid, depths, method="boussinesq", poisson=None, *, clien
     or :func:`fillstress.solve.tiled.tiled_slices` (tiled).
     """
     client = _client(client)
-    retries = _retries(retries)
+    retries = whole_number(retries, "retries", minimum=0)
     if tile is not None or memory_cap is not None:
         jobs, frame = prepare_tiled(grid, depths, method, poisson, offset=offset, pad=pad,
                                     memory_cap=memory_cap, tile=tile)
@@ -181,7 +176,8 @@ def map_variants(fn, variants, client=None, *, retries=DEFAULT_RETRIES, progress
                 bar.advance()
         return out
     client = _client(client)
-    futures = [client.submit(fn, v, retries=_retries(retries), pure=False) for v in variants]
+    retries = whole_number(retries, "retries", minimum=0)
+    futures = [client.submit(fn, v, retries=retries, pure=False) for v in variants]
     return _gather(client, futures, "variants (Dask)", progress)
 
 

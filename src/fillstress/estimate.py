@@ -14,6 +14,7 @@ import scipy.fft
 
 from ._validate import positive
 from .errors import CapacityError, InputError
+from .solve._checks import whole_number, whole_pair
 
 # Throughputs on the development machine (2 cores, both threads), common practice to
 # keep such constants beside the code that uses them; refreshed by benchmarks/bench_scale.py.
@@ -63,21 +64,12 @@ def format_bytes(n: float) -> str:
     return f"{int(n)} B"
 
 
-def _count(value, name: str, minimum: int = 0) -> int:
-    if isinstance(value, bool) or not isinstance(value, int) and not hasattr(value, "__index__"):
-        raise InputError(f"must be a whole number, got {value!r}", argument=name)
-    value = int(value)
-    if value < minimum:
-        raise InputError(f"must be >= {minimum}, got {value}", argument=name)
-    return value
-
-
 def _shape(shape, name: str = "shape") -> tuple[int, int]:
-    try:
-        ny, nx = shape
-    except (TypeError, ValueError):
-        raise InputError(f"must be (ny, nx), got {shape!r}", argument=name) from None
-    return _count(ny, name, 1), _count(nx, name, 1)
+    return whole_pair(shape, name, minimum=1, meaning="(ny, nx), whole numbers >= 1")
+
+
+def _pad(pad_cells) -> tuple[int, int]:
+    return whole_pair(pad_cells, "pad_cells", meaning="(pad_x, pad_y) whole cells >= 0")
 
 
 def _fft_seconds(n: int) -> float:
@@ -129,8 +121,8 @@ def estimate_slices(shape, n_depths: int, *, pad_cells=(0, 0), tile=None) -> Est
     True
     """
     ny, nx = _shape(shape)
-    n_depths = _count(n_depths, "n_depths", 1)
-    pad_x, pad_y = (_count(v, "pad_cells") for v in pad_cells)
+    n_depths = whole_number(n_depths, "n_depths", minimum=1)
+    pad_x, pad_y = _pad(pad_cells)
     my, mx = ny + 2 * pad_y, nx + 2 * pad_x
     output = _FLOAT * n_depths * my * mx
     if tile is None:
@@ -166,7 +158,7 @@ def estimate_points(shape, n_points: int, *, algorithm: str = "direct", order: i
     True
     """
     ny, nx = _shape(shape)
-    n_points = _count(n_points, "n_points")
+    n_points = whole_number(n_points, "n_points")
     cells, nodes = ny * nx, (ny + 1) * (nx + 1)
     point_arrays = n_points * (3 + 1 + 1) * _FLOAT
     if algorithm == "direct":
@@ -226,8 +218,8 @@ def largest_tile(shape, n_depths: int, memory_cap, *, pad_cells=(0, 0)) -> tuple
     """
     ny, nx = _shape(shape)
     cap = positive(memory_cap, "memory_cap")
-    pad_x, pad_y = (_count(v, "pad_cells") for v in pad_cells)
-    output = Estimate("slices-tiled", _FLOAT * _count(n_depths, "n_depths", 1)
+    pad_x, pad_y = _pad(pad_cells)
+    output = Estimate("slices-tiled", _FLOAT * whole_number(n_depths, "n_depths", minimum=1)
                       * (ny + 2 * pad_y) * (nx + 2 * pad_x), 0.0, "output only")
     check_capacity(output, cap, hint="the output alone does not fit: fewer depths or a coarser cell")
     parts = 1  # halve the tile side until the working set fits

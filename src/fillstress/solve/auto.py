@@ -13,7 +13,8 @@ from .._validate import points_array
 from ..errors import InputError
 from ..kernels import resolve_method
 from ..progress import silent
-from .direct import _checked_grid, node_weights, vertical_stress
+from ._checks import checked_grid, points_per_chunk
+from .direct import node_weights, vertical_stress
 from .farfield import DEFAULT_ORDER, _accuracy, build_pyramid, evaluate_pyramid
 
 # About 1 s of direct summation on the 2-core development machine (see estimate.py);
@@ -53,15 +54,6 @@ def choose_algorithm(grid, n_points: int, algorithm: str = "auto") -> str:
     return "direct" if direct_work(grid, n_points) <= DIRECT_WORK_LIMIT else "far"
 
 
-def _chunk(chunk_size) -> int:
-    if chunk_size is None:
-        return DEFAULT_CHUNK
-    if isinstance(chunk_size, bool) or not isinstance(chunk_size, (int, np.integer)) or chunk_size < 1:
-        raise InputError(f"must be a positive whole number of points, got {chunk_size!r}",
-                         argument="chunk_size")
-    return int(chunk_size)
-
-
 def point_evaluator(grid, method="boussinesq", poisson=None, *, algorithm="direct",
                     tol=1e-3, floor=0.01, order=DEFAULT_ORDER):
     """A picklable callable ``f(points) -> Δσz`` for one algorithm (no choice made here).
@@ -75,7 +67,7 @@ def point_evaluator(grid, method="boussinesq", poisson=None, *, algorithm="direc
     >>> f(np.array([[1.0, 1.0, 0.0]])).round(9).tolist()
     [100.0]
     """
-    grid = _checked_grid(grid)
+    grid = checked_grid(grid)
     spec = resolve_method(method, poisson)
     if algorithm == "direct":
         return _Direct(grid, spec.method, spec.poisson)
@@ -134,9 +126,9 @@ def stress_at_points(grid, points, method="boussinesq", poisson=None, *, algorit
     >>> bool(np.all(np.abs(a - b) <= 1e-3 * np.maximum(np.abs(a), 1.0))), a.round(2).tolist()
     (True, [17.52, 100.0])
     """
-    grid = _checked_grid(grid)
+    grid = checked_grid(grid)
     pts = points_array(points)
-    step = _chunk(chunk_size)
+    step = points_per_chunk(chunk_size, "chunk_size", DEFAULT_CHUNK)
     chosen = choose_algorithm(grid, pts.shape[0], algorithm)
     evaluate = point_evaluator(grid, method, poisson, algorithm=chosen, tol=tol, floor=floor,
                                order=order)

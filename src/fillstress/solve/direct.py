@@ -18,10 +18,11 @@ import math
 import numba
 import numpy as np
 
-from .._validate import finite_array, points_array, positive
+from .._validate import points_array
 from ..errors import InputError
 from ..grid import LoadGrid
 from ..kernels import KernelSpec, boussinesq, corner_angle, resolve_method, westergaard
+from ._checks import checked_grid, points_per_chunk
 
 INV_2PI = boussinesq.INV_2PI
 
@@ -111,26 +112,6 @@ def _cell_kernel(points, x_nodes, y_nodes, pressure, is_westergaard, eta, out):
         out[p] = total
 
 
-def _checked_grid(grid) -> LoadGrid:
-    """Re-check a LoadGrid (its pressure array is mutable after construction)."""
-    if not isinstance(grid, LoadGrid):
-        raise InputError(f"must be a fillstress.LoadGrid, got {type(grid).__name__}",
-                         argument="grid")
-    finite_array(grid.pressure, "grid.pressure", ndim=2)
-    positive(grid.dx, "grid.dx")
-    positive(grid.dy, "grid.dy")
-    return grid
-
-
-def _chunk_size(chunk, n_points: int) -> int:
-    if chunk is None:
-        return max(n_points, 1)
-    if isinstance(chunk, bool) or not isinstance(chunk, (int, np.integer)) or chunk < 1:
-        raise InputError(f"must be a positive whole number of points, got {chunk!r}",
-                         argument="chunk")
-    return int(chunk)
-
-
 def node_coordinates(grid: LoadGrid) -> tuple[np.ndarray, np.ndarray]:
     """x of the nx+1 node columns and y of the ny+1 node rows of `grid` (m).
 
@@ -197,10 +178,10 @@ def vertical_stress(grid, points, method="boussinesq", poisson=None, *, chunk=No
     >>> vertical_stress(g, [[0, 0, 2.0], [1, 1, 0.0], [1, 0, 0.0]]).round(2).tolist()
     [17.52, 100.0, 50.0]
     """
-    grid = _checked_grid(grid)
+    grid = checked_grid(grid)
     pts = points_array(points)
     spec = resolve_method(method, poisson)
-    step = _chunk_size(chunk, pts.shape[0])
+    step = points_per_chunk(chunk, "chunk", max(pts.shape[0], 1))
     if kernel == "nodes":
         return _run_node_kernel(grid, pts, spec, step)
     if kernel == "cells":

@@ -34,7 +34,7 @@ from .._validate import points_array, positive
 from ..errors import InputError
 from ..grid import LoadGrid
 from ..kernels import KernelSpec, boussinesq, resolve_method, westergaard
-from .direct import _checked_grid
+from ._checks import checked_grid, whole_number
 
 DEFAULT_ORDER = 4
 _MAX_RETRIES = 6
@@ -255,11 +255,9 @@ def build_pyramid(grid, method="boussinesq", poisson=None, *, order: int = DEFAU
     >>> pyr.levels, pyr.centre[-1].tolist(), float(pyr.mass_abs[-1])
     (3, [2.0, 2.0], 16.0)
     """
-    grid = _checked_grid(grid)
+    grid = checked_grid(grid)
     spec = resolve_method(method, poisson)
-    if isinstance(order, bool) or not isinstance(order, (int, np.integer)) or not 0 <= order <= 8:
-        raise InputError(f"must be a whole number from 0 to 8, got {order!r}", argument="order")
-    order = int(order)
+    order = whole_number(order, "order", minimum=0, maximum=8)
     _, power = _kernel_power(spec)
     terms, factors = _term_table(order, power)
     idx = _moment_index(order)

@@ -23,7 +23,7 @@ import xarray as xr
 from .._validate import depths_array, finite, finite_array, positive
 from ..errors import InputError
 from ..kernels import boussinesq, corner_angle, resolve_method
-from .direct import _checked_grid
+from ._checks import checked_grid, fft_workers, offset_pair, whole_pair
 
 INV_2PI = boussinesq.INV_2PI
 
@@ -79,9 +79,9 @@ class SlicePlan:
         if pressure.size == 0:
             raise InputError("must have at least one cell", argument="pressure")
         dx, dy = positive(dx, "dx"), positive(dy, "dy")
-        offset = _offset(offset)
-        pad_x, pad_y = _pad_cells(pad_cells)
-        workers = _workers(workers)
+        offset = offset_pair(offset)
+        pad_x, pad_y = whole_pair(pad_cells, "pad_cells", meaning="(pad_x, pad_y) whole cells >= 0")
+        workers = fft_workers(workers)
         spec = resolve_method(method, poisson)
         ny, nx = pressure.shape
         self.spec, self.workers, self.shape_in = spec, workers, (ny, nx)
@@ -112,35 +112,6 @@ class SlicePlan:
         ny, nx = self.shape_in
         my, mx = self.shape_out
         return full[ny - 1:ny - 1 + my, nx - 1:nx - 1 + mx].copy()
-
-
-def _offset(offset) -> tuple[float, float]:
-    arr = finite_array(offset, "offset")
-    if arr.shape != (2,):
-        raise InputError(f"must be (ox, oy) in metres, got shape {arr.shape}", argument="offset")
-    return float(arr[0]), float(arr[1])
-
-
-def _workers(workers):
-    if workers is None:
-        return None
-    if isinstance(workers, bool) or not isinstance(workers, (int, np.integer)) or workers < 1:
-        raise InputError(f"must be None or a positive number of threads, got {workers!r}",
-                         argument="workers")
-    return int(workers)
-
-
-def _pad_cells(pad_cells) -> tuple[int, int]:
-    try:
-        px, py = pad_cells
-    except (TypeError, ValueError):
-        raise InputError(f"must be (pad_x, pad_y) whole cells, got {pad_cells!r}",
-                         argument="pad_cells") from None
-    for v in (px, py):
-        if isinstance(v, bool) or not isinstance(v, (int, np.integer)) or v < 0:
-            raise InputError(f"must be whole numbers of cells >= 0, got {pad_cells!r}",
-                             argument="pad_cells")
-    return int(px), int(py)
 
 
 def slice_at_depth(pressure, dx, dy, depth, method="boussinesq", poisson=None, *,
@@ -217,28 +188,76 @@ def stress_slices(grid, depths, method="boussinesq", poisson=None, *, offset=(0.
     >>> s.dims, s.shape, float(s.x[0]), round(float(s.sel(depth=0.0, x=11.0, y=21.0)), 9)
     (('depth', 'y', 'x'), (2, 3, 3), 9.0, 50.0)
     """
-    grid = _checked_grid(grid)
+    grid, frame = slice_setup(grid, depths, method, poisson, offset=offset, pad=pad)
+    plan = SlicePlan(grid.pressure, grid.dx, grid.dy, method, poisson, offset=frame["offset"],
+                     pad_cells=frame["pad_cells"], workers=workers)
+    values = np.empty((frame["depth"].size,) + plan.shape_out)
+    for k, depth in enumerate(frame["depth"]):
+        values[k] = plan.at_depth(depth)
+    return slice_array(values, frame)
+
+
+def slice_lattice(grid, pad_cells, offset) -> tuple[np.ndarray, np.ndarray]:
+    """x and y (m) of the slice samples: cell centres + offset, `pad_cells` beyond the grid.
+
+    Examples
+    --------
+    >>> from fillstress import LoadGrid
+    >>> x, y = slice_lattice(LoadGrid(np.ones((1, 2)), 10.0, 0.0, 1.0, 1.0), (1, 0), (0.25, 0.0))
+    >>> x.tolist(), y.tolist()
+    ([9.75, 10.75, 11.75, 12.75], [0.5])
+    """
+    pad_x, pad_y = pad_cells
+    x = grid.x0 + (np.arange(grid.nx + 2 * pad_x) - pad_x + 0.5) * grid.dx + offset[0]
+    y = grid.y0 + (np.arange(grid.ny + 2 * pad_y) - pad_y + 0.5) * grid.dy + offset[1]
+    return x, y
+
+
+def slice_setup(grid, depths, method="boussinesq", poisson=None, *, offset=(0.0, 0.0), pad=0.0):
+    """Validate the arguments of a slice run (:func:`stress_slices` and its tiled and Dask
+    variants) and lay out its sample lattice.
+
+    Returns ``(grid, frame)`` where `frame` holds ``depth``, ``x``, ``y`` (sample
+    coordinates, m), ``spec``, ``offset`` and ``pad_cells`` (`pad` rounded up to whole
+    cells).
+
+    Examples
+    --------
+    >>> from fillstress import LoadGrid
+    >>> _, frame = slice_setup(LoadGrid(np.ones((2, 2)), 0, 0, 1, 1), [1.0], pad=1.0)
+    >>> frame["x"].tolist(), frame["pad_cells"]
+    ([-0.5, 0.5, 1.5, 2.5], (1, 1))
+    """
+    grid = checked_grid(grid)
     z = depths_array(depths)
     spec = resolve_method(method, poisson)
-    ox, oy = _offset(offset)
-    workers = _workers(workers)
+    ox, oy = offset_pair(offset)
     pad = finite(pad, "pad")
     if pad < 0:
         raise InputError(f"must be >= 0 m, got {pad!r}", argument="pad")
-    pad_x = int(math.ceil(round(pad / grid.dx, 9)))
-    pad_y = int(math.ceil(round(pad / grid.dy, 9)))
-    plan = SlicePlan(grid.pressure, grid.dx, grid.dy, method, poisson, offset=(ox, oy),
-                     pad_cells=(pad_x, pad_y), workers=workers)
-    my, mx = plan.shape_out
-    values = np.empty((z.size, my, mx))
-    for k, depth in enumerate(z):
-        values[k] = plan.at_depth(depth)
-    x = grid.x0 + (np.arange(mx) - pad_x + 0.5) * grid.dx + ox
-    y = grid.y0 + (np.arange(my) - pad_y + 0.5) * grid.dy + oy
+    pad_cells = (int(math.ceil(round(pad / grid.dx, 9))), int(math.ceil(round(pad / grid.dy, 9))))
+    x, y = slice_lattice(grid, pad_cells, (ox, oy))
+    return grid, {"depth": z, "y": y, "x": x, "spec": spec, "offset": (ox, oy),
+                  "pad_cells": pad_cells}
+
+
+def slice_array(values: np.ndarray, frame) -> xr.DataArray:
+    """Δσz values of shape (depth, y, x) as the DataArray :func:`stress_slices` returns,
+    with the coordinates and attributes of `frame` (from :func:`slice_setup`).
+
+    Examples
+    --------
+    >>> from fillstress import LoadGrid
+    >>> _, frame = slice_setup(LoadGrid(np.ones((1, 1)), 0, 0, 1, 1), [2.0])
+    >>> slice_array(np.zeros((1, 1, 1)), frame).attrs["units"]
+    'kPa'
+    """
+    spec = frame["spec"]
     attrs = {"units": "kPa", "long_name": "vertical stress increase (delta sigma z)",
              "method": spec.method,
              "poisson": spec.poisson if spec.poisson is not None else "not used"}
     return xr.DataArray(values, dims=("depth", "y", "x"),
-                        coords={"depth": ("depth", z, {"units": "m"}),
-                                "y": ("y", y, {"units": "m"}), "x": ("x", x, {"units": "m"})},
+                        coords={"depth": ("depth", frame["depth"], {"units": "m"}),
+                                "y": ("y", frame["y"], {"units": "m"}),
+                                "x": ("x", frame["x"], {"units": "m"})},
                         name="dsz", attrs=attrs)

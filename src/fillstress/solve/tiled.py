@@ -9,19 +9,17 @@ working set is one pair of tiles instead of the whole padded grid.
 """
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 
 import numpy as np
 import xarray as xr
 
-from .._validate import depths_array, finite
 from ..errors import InputError
 from ..estimate import check_capacity, estimate_slices, largest_tile
-from ..kernels import KernelSpec, resolve_method
+from ..kernels import KernelSpec
 from ..progress import silent
-from .direct import _checked_grid
-from .slices import SlicePlan, _offset, _workers
+from ._checks import fft_workers, whole_pair
+from .slices import SlicePlan, slice_array, slice_setup
 
 
 @dataclass(frozen=True)
@@ -52,6 +50,7 @@ def run_tile(job: TileJob) -> np.ndarray:
 
     Examples
     --------
+    >>> from fillstress.kernels import resolve_method
     >>> job = make_jobs(np.full((4, 4), 10.0), 1.0, 1.0, [1.0], resolve_method(), (2, 2))[0]
     >>> run_tile(job).shape
     (1, 2, 2)
@@ -91,6 +90,7 @@ def make_jobs(pressure, dx, dy, depths, spec: KernelSpec, tile, *, pad_cells=(0,
 
     Examples
     --------
+    >>> from fillstress.kernels import resolve_method
     >>> len(make_jobs(np.ones((5, 4)), 1.0, 1.0, [0.0], resolve_method(), (2, 2)))
     6
     """
@@ -105,57 +105,13 @@ def make_jobs(pressure, dx, dy, depths, spec: KernelSpec, tile, *, pad_cells=(0,
             for j0 in range(0, my, tile[0]) for i0 in range(0, mx, tile[1])]
 
 
-def _tile_arg(tile) -> tuple[int, int]:
-    try:
-        ty, tx = tile
-    except (TypeError, ValueError):
-        raise InputError(f"must be (rows, columns) of cells, got {tile!r}", argument="tile") from None
-    for v in (ty, tx):
-        if isinstance(v, bool) or not isinstance(v, (int, np.integer)) or v < 1:
-            raise InputError(f"must be positive whole numbers of cells, got {tile!r}", argument="tile")
-    return int(ty), int(tx)
-
-
-def slice_lattice(grid, pad_cells, offset) -> tuple[np.ndarray, np.ndarray]:
-    """x and y (m) of the slice samples: cell centres + offset, `pad_cells` beyond the grid."""
-    pad_x, pad_y = pad_cells
-    x = grid.x0 + (np.arange(grid.nx + 2 * pad_x) - pad_x + 0.5) * grid.dx + offset[0]
-    y = grid.y0 + (np.arange(grid.ny + 2 * pad_y) - pad_y + 0.5) * grid.dy + offset[1]
-    return x, y
-
-
-def slice_setup(grid, depths, method="boussinesq", poisson=None, *, offset=(0.0, 0.0), pad=0.0):
-    """Validate the arguments of a slice run, as :func:`~fillstress.solve.slices.stress_slices` does.
-
-    Returns ``(grid, frame)`` where `frame` holds ``depth``, ``x``, ``y`` (sample
-    coordinates, m), ``spec``, ``offset`` and ``pad_cells``.
-
-    Examples
-    --------
-    >>> from fillstress import LoadGrid
-    >>> _, frame = slice_setup(LoadGrid(np.ones((2, 2)), 0, 0, 1, 1), [1.0], pad=1.0)
-    >>> frame["x"].tolist(), frame["pad_cells"]
-    ([-0.5, 0.5, 1.5, 2.5], (1, 1))
-    """
-    grid = _checked_grid(grid)
-    z = depths_array(depths)
-    spec = resolve_method(method, poisson)
-    ox, oy = _offset(offset)
-    pad = finite(pad, "pad")
-    if pad < 0:
-        raise InputError(f"must be >= 0 m, got {pad!r}", argument="pad")
-    pad_cells = (int(math.ceil(round(pad / grid.dx, 9))), int(math.ceil(round(pad / grid.dy, 9))))
-    x, y = slice_lattice(grid, pad_cells, (ox, oy))
-    return grid, {"depth": z, "y": y, "x": x, "spec": spec, "offset": (ox, oy),
-                  "pad_cells": pad_cells}
-
-
 def prepare_tiled(grid, depths, method="boussinesq", poisson=None, *, offset=(0.0, 0.0),
                   pad=0.0, memory_cap=None, tile=None, workers=None):
     """Validate a tiled slice run, check it against the cap and cut it into jobs.
 
     Returns ``(jobs, frame)``: the :class:`TileJob` list and the frame of
-    :func:`slice_setup` for :func:`assemble`.  Nothing of the output size is allocated.
+    :func:`~fillstress.solve.slices.slice_setup` for :func:`assemble`.  Nothing of the
+    output size is allocated.
     Used by :func:`tiled_slices` and :func:`fillstress.distributed.distributed_slices`.
 
     Examples
@@ -171,11 +127,12 @@ def prepare_tiled(grid, depths, method="boussinesq", poisson=None, *, offset=(0.
         if memory_cap is None:
             raise InputError("give a tile size or a memory cap in bytes", argument="tile/memory_cap")
         tile = largest_tile(grid.shape, z.size, memory_cap, pad_cells=pad_cells)
-    tile = _tile_arg(tile)
+    tile = whole_pair(tile, "tile", minimum=1,
+                      meaning="(rows, columns), positive whole numbers of cells")
     est = estimate_slices(grid.shape, z.size, pad_cells=pad_cells, tile=tile)
     check_capacity(est, memory_cap, hint="smaller tiles, fewer depths or a coarser cell")
     jobs = make_jobs(grid.pressure, grid.dx, grid.dy, z, frame["spec"], tile,
-                     pad_cells=pad_cells, offset=frame["offset"], workers=_workers(workers))
+                     pad_cells=pad_cells, offset=frame["offset"], workers=fft_workers(workers))
     return jobs, frame
 
 
@@ -189,15 +146,7 @@ def assemble(jobs, results, frame) -> xr.DataArray:
     values = np.empty((frame["depth"].size, frame["y"].size, frame["x"].size))
     for job, part in zip(jobs, results):
         values[:, job.j0:job.j1, job.i0:job.i1] = part
-    spec = frame["spec"]
-    attrs = {"units": "kPa", "long_name": "vertical stress increase (delta sigma z)",
-             "method": spec.method,
-             "poisson": spec.poisson if spec.poisson is not None else "not used"}
-    return xr.DataArray(values, dims=("depth", "y", "x"),
-                        coords={"depth": ("depth", frame["depth"], {"units": "m"}),
-                                "y": ("y", frame["y"], {"units": "m"}),
-                                "x": ("x", frame["x"], {"units": "m"})},
-                        name="dsz", attrs=attrs)
+    return slice_array(values, frame)
 
 
 def tiled_slices(grid, depths, method="boussinesq", poisson=None, *, offset=(0.0, 0.0),
@@ -240,5 +189,4 @@ def tiled_slices(grid, depths, method="boussinesq", poisson=None, *, offset=(0.0
         return assemble(jobs, tiles(), frame)
 
 
-__all__ = ["tiled_slices", "make_jobs", "run_tile", "TileJob", "prepare_tiled", "assemble",
-           "slice_lattice"]
+__all__ = ["tiled_slices", "make_jobs", "run_tile", "TileJob", "prepare_tiled", "assemble"]
