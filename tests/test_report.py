@@ -216,6 +216,14 @@ def test_missing_unit_labels(tmp_path):
         ResultsFolder(tmp_path)
 
 
+def test_unknown_unit_system(tmp_path):
+    units = {"system": "imperial", "length": "m", "pressure": "kPa", "unit_weight": "kN/m3",
+             "settlement": "mm"}
+    (tmp_path / "manifest.json").write_text(json.dumps({"units": units}))
+    with pytest.raises(InputError, match=r"\[units.system\] unknown unit system 'imperial'"):
+        ResultsFolder(tmp_path)
+
+
 def test_missing_column_is_named(truth, tmp_path):
     copy = tmp_path / "copy"
     shutil.copytree(truth.path, copy)

@@ -162,6 +162,36 @@ def test_quantity_missing_from_folder(truth, tmp_path):
         viewer.build_scene(copy, quantity="settlement")
 
 
+def test_plan_in_another_unit_than_depth_is_scaled(truth, tmp_path):
+    """An SI site in a US-survey-foot CRS: x_ftUS, y_ftUS columns (docs/results-folder.md)
+    are read and drawn in metres, like the depths, so the scene keeps its proportions."""
+    import json
+    from pyproj import CRS
+    from fillstress.units import US_SURVEY_FOOT
+    copy = tmp_path / "copy"
+    shutil.copytree(truth.path, copy)
+    manifest = json.loads((copy / "manifest.json").read_text())
+    manifest["units"]["plan"] = "ftUS"
+    manifest["crs"] = CRS.from_epsg(2263).to_wkt()     # NAD83 / New York Long Island (ftUS)
+    (copy / "manifest.json").write_text(json.dumps(manifest))
+    x_m, depth_m = [], []
+    for p in copy.glob("*_points.csv"):
+        df = pd.read_csv(p)
+        x_m.append(df["x_m"].to_numpy())
+        depth_m.append(df["depth_m"].to_numpy())
+        for axis in ("x", "y"):
+            df[f"{axis}_ftUS"] = df.pop(f"{axis}_m") / US_SURVEY_FOOT
+        df.to_csv(p, index=False)
+    plotter = viewer.build_scene(copy, layers=("points",), exaggeration=1.0)
+    try:
+        xmin, xmax, _, _, zmin, _ = plotter.bounds
+    finally:
+        plotter.close()
+    x_m, depth_m = np.concatenate(x_m), np.concatenate(depth_m)
+    assert xmax - xmin == pytest.approx(np.ptp(x_m), rel=1e-6)
+    assert zmin == pytest.approx(-depth_m.max(), rel=1e-6)
+
+
 def _chromium_screenshot(html_path, png_path, profile):
     if not os.path.exists(CHROMIUM):
         pytest.fail(f"{CHROMIUM} is required (apt-get install -y chromium)")

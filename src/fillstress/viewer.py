@@ -5,7 +5,9 @@ docs/results-folder.md) through :class:`fillstress.report.folder.ResultsFolder`.
 Scene axes: x east and y north relative to a local origin (the analysis grid's
 south-west corner, so large projected coordinates keep full precision in VTK's
 float32 rendering), z up; a point at depth d below the existing ground sits at
-z = ground − d, and z is multiplied by the vertical exaggeration.
+z = ground − d, and z is multiplied by the vertical exaggeration. All three scene axes
+are in the site length unit: plan coordinates in another CRS unit (an SI site in a
+US-survey-foot CRS) are scaled to it, so the scene is not stretched.
 """
 from __future__ import annotations
 
@@ -44,6 +46,7 @@ class _Frame:
         if x0 is None or y0 is None:
             x0, y0 = (fill.x[0], fill.y[0]) if fill is not None else (0.0, 0.0)
         self.x0, self.y0 = float(x0), float(y0)
+        self.plan_to_length = folder.plan_to_length
         self.exaggeration = exaggeration
         self._ground = folder.ground_elevation()
         self.z_ref = float(np.nanmin(self._ground.values)) if self._has_ground() else 0.0
@@ -65,10 +68,12 @@ class _Frame:
         return interp(np.stack([yc.ravel(), xc.ravel()], axis=1)).reshape(x.shape) - self.z_ref
 
     def points(self, x, y, height) -> np.ndarray:
-        """(N, 3) scene points for site x, y at `height` above the existing ground."""
+        """(N, 3) scene points for site x, y (plan unit) at `height` (length unit) above
+        the existing ground, all three in the length unit."""
         x, y, height = np.broadcast_arrays(*(np.asarray(a, float) for a in (x, y, height)))
         z = (self.ground(x, y) + height) * self.exaggeration
-        return np.column_stack([x.ravel() - self.x0, y.ravel() - self.y0, z.ravel()])
+        k = self.plan_to_length
+        return np.column_stack([(x.ravel() - self.x0) * k, (y.ravel() - self.y0) * k, z.ravel()])
 
     def surface(self, f: PlanField, height: np.ndarray):
         """A pyvista StructuredGrid over the centres of `f` at `height` above ground."""
@@ -115,8 +120,8 @@ def _point_values(folder: ResultsFolder, quantity: str):
         col = folder.optional_column(df, quantity, QUANTITIES[quantity])
         if df is None or col is None or df.empty:
             continue
-        xs = folder.column(df, "x", "length", name=f"{kind}_points")
-        ys = folder.column(df, "y", "length", name=f"{kind}_points")
+        xs = folder.column(df, "x", "plan_suffix", name=f"{kind}_points")
+        ys = folder.column(df, "y", "plan_suffix", name=f"{kind}_points")
         ds = folder.column(df, "depth", "length", name=f"{kind}_points")
         rows.append(df[[xs, ys, ds, col]].to_numpy(float))
     data = np.concatenate(rows) if rows else np.zeros((0, 4))
@@ -153,8 +158,10 @@ class _SceneBuilder:
         self.slice_actors: list[tuple[float, object]] = []
         fill = folder.fill_thickness()
         self.fill = fill
-        # Plan size of the site, to size the schematic parts (building height, borehole).
-        span = (np.ptp(fill.x) + np.ptp(fill.y)) / 2 if fill is not None else 0.0
+        # Plan size of the site (length unit), to size the schematic parts (building
+        # height, borehole) and to choose the exaggeration.
+        span = (np.ptp(fill.x) + np.ptp(fill.y)) / 2 * folder.plan_to_length \
+            if fill is not None else 0.0
         self.span = span if span > 0 else 10.0
         self.slices = folder.plan_slices(quantity) if quantity in ("dsz", "stress_ratio",
                                                                    "settlement") else []

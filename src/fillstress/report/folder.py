@@ -16,6 +16,8 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import InputError
+from ..io.tables import plan_unit
+from ..units import SYSTEMS
 
 #: Quantities that can be shown on plan slices and at sample points; value = unit key.
 QUANTITIES = {"dsz": "pressure", "stress_ratio": None, "settlement": "settlement",
@@ -28,14 +30,19 @@ _SLICE_NAME = re.compile(r"^(?P<q>dsz)_(?P<grid>.+)_z(?P<depth>[0-9]+(?:\.[0-9]+
 class UnitLabels:
     """Unit labels of one results folder, as written in column suffixes.
 
-    ``plan`` is the unit of plan coordinates (the site CRS's axis unit, e.g. ``ftUS``);
-    it defaults to the length label.
+    ``plan`` is the exact unit of plan coordinates (the site CRS's axis unit, e.g.
+    ``ftUS``); ``plan_suffix`` is the suffix of their ``x_``/``y_`` columns, which is the
+    length label when the CRS unit is of that kind (docs/results-folder.md). Both default
+    to the length label.
 
     Examples
     --------
     >>> u = UnitLabels("m", "kPa", "kN/m3", "mm")
     >>> u.suffixed("dsz", "pressure"), u.suffixed("stress_ratio", None), u.plan
     ('dsz_kPa', 'stress_ratio', 'm')
+    >>> UnitLabels("m", "kPa", "kN/m3", "mm", plan="ftUS", plan_suffix="ftUS").suffixed(
+    ...     "x", "plan_suffix")
+    'x_ftUS'
     """
 
     length: str
@@ -43,10 +50,12 @@ class UnitLabels:
     unit_weight: str
     settlement: str
     plan: str = ""
+    plan_suffix: str = ""
 
     def __post_init__(self):
-        if not self.plan:
-            object.__setattr__(self, "plan", self.length)
+        for name in ("plan", "plan_suffix"):
+            if not getattr(self, name):
+                object.__setattr__(self, name, self.length)
 
     def label(self, unit_key: str | None) -> str:
         """The label for a unit key ('length', 'pressure', ...), '' for dimensionless."""
@@ -128,10 +137,10 @@ class ResultsFolder:
     --------
     >>> import tempfile, json, pathlib
     >>> d = pathlib.Path(tempfile.mkdtemp())
-    >>> _ = (d / "manifest.json").write_text(json.dumps({"units": {
+    >>> _ = (d / "manifest.json").write_text(json.dumps({"units": {"system": "SI",
     ...     "length": "m", "pressure": "kPa", "unit_weight": "kN/m3", "settlement": "mm"}}))
-    >>> ResultsFolder(d).units.pressure
-    'kPa'
+    >>> ResultsFolder(d).units.pressure, ResultsFolder(d).plan_to_length
+    ('kPa', 1.0)
     """
 
     def __init__(self, path):
@@ -151,17 +160,30 @@ class ResultsFolder:
         return self._read_once[key]
 
     def _read_units(self) -> UnitLabels:
+        manifest = self.path / "manifest.json"
         units = self.manifest.get("units")
         if not isinstance(units, dict):
-            raise InputError("must be an object of unit labels", file=self.path / "manifest.json",
-                             key="units")
-        missing = [k for k in _UNIT_KEYS if not isinstance(units.get(k), str)]
+            raise InputError("must be an object of unit labels", file=manifest, key="units")
+        missing = [k for k in (*_UNIT_KEYS, "system") if not isinstance(units.get(k), str)]
         if missing:
-            raise InputError(f"lacks label(s) {', '.join(missing)}",
-                             file=self.path / "manifest.json", key="units")
+            raise InputError(f"lacks label(s) {', '.join(missing)}", file=manifest, key="units")
+        if units["system"] not in SYSTEMS:
+            raise InputError(f"unknown unit system {units['system']!r}; expected "
+                             f"{' or '.join(SYSTEMS)}", file=manifest, key="units.system")
+        self.unit_system = SYSTEMS[units["system"]]
+        # The writer's own rule (io.tables.plan_unit) gives the x_/y_ suffix and the
+        # metres per plan unit of this folder's CRS.
+        try:
+            suffix, metres = plan_unit(self.manifest.get("crs") or None, self.unit_system)
+        except InputError as exc:
+            raise InputError(f"is not a usable CRS ({exc.reason})", file=manifest,
+                             key="crs") from None
+        #: Site lengths per plan-coordinate unit (1 unless the CRS unit differs).
+        self.plan_to_length = metres / self.unit_system.length_to_m
         plan = units.get("plan")
         return UnitLabels(*(units[k] for k in _UNIT_KEYS),
-                          plan=plan if isinstance(plan, str) and plan else units["length"])
+                          plan=plan if isinstance(plan, str) and plan else units["length"],
+                          plan_suffix=suffix)
 
     # --- tables ----------------------------------------------------------------
     def table(self, name: str):
