@@ -90,14 +90,14 @@ def test_projected_numbers_said_to_be_degrees_are_refused():
     x, y = pyproj.Transformer.from_crs("EPSG:4326", "EPSG:32632", always_xy=True).transform(
         583900.0, 6641200.0)
     assert not np.isfinite(x) or not np.isfinite(y)               # the silent failure
-    with pytest.raises(InputError, match="pads.geojson: .*cannot be longitude/latitude"):
+    with pytest.raises(InputError, match="pads.geojson: .*cannot be degrees"):
         to_site(utm, "EPSG:4326", "EPSG:32632", file="pads.geojson")
     with pytest.raises(InputError, match="argument crs: .*x = 583900"):
         check_degrees(np.array([[10.5, 59.9], [583900.0, 6641200.0]]), "EPSG:4326",
                       argument="crs")
     with pytest.raises(InputError, match="y = 91"):               # latitude beyond the pole
         check_degrees((10.0, 91.0), "EPSG:4326")
-    with pytest.raises(InputError, match="cannot be longitude"):  # also before the site hint
+    with pytest.raises(InputError, match="cannot be degrees"):  # also before the site hint
         to_site(utm, "EPSG:4326", None)
 
 

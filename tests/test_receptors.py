@@ -360,5 +360,5 @@ def test_read_layer_refuses_projected_geojson_without_crs_member(tmp_path):
     data = json.loads(path.read_text())
     data.pop("crs", None)                # RFC 7946: read as WGS 84 degrees
     path.write_text(json.dumps(data))
-    with pytest.raises(InputError, match="b.geojson: .*cannot be longitude/latitude"):
+    with pytest.raises(InputError, match="b.geojson: .*cannot be degrees"):
         read_receptor_layer(path, "building")

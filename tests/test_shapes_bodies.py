@@ -187,6 +187,6 @@ def test_read_footprints_refuses_projected_geojson_without_crs_member(tmp_path, 
     data.pop("crs", None)                # RFC 7946: the file is then WGS 84 degrees
     path.write_text(json.dumps(data))
     assert geopandas.read_file(path).crs.to_epsg() == 4326
-    with pytest.raises(InputError, match="cannot be longitude/latitude") as err:
+    with pytest.raises(InputError, match="cannot be degrees") as err:
         read_footprints(path, target_crs=target)
     assert "pad.geojson" in str(err.value)

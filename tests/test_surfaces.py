@@ -149,11 +149,11 @@ def test_geotiff_errors(tmp_path):
 def test_surfaces_said_to_be_in_degrees_with_projected_numbers_are_refused(tmp_path):
     t = Affine(10.0, 0, 500000.0, 0, -10.0, 6000040.0)          # UTM metres…
     _write_tif(tmp_path / "dem.tif", np.ones((4, 5)), t, crs="EPSG:4326")   # …tagged degrees
-    with pytest.raises(InputError, match="dem.tif: .*cannot be longitude/latitude"):
+    with pytest.raises(InputError, match="dem.tif: .*cannot be degrees"):
         read_raster_surface(tmp_path / "dem.tif", SITE)
     path = tmp_path / "pts.csv"
     path.write_text("x,y,z\n500000,6000000,1\n500030,6000000,1\n500000,6000020,1\n")
-    with pytest.raises(InputError, match="pts.csv: .*cannot be longitude/latitude"):
+    with pytest.raises(InputError, match="pts.csv: .*cannot be degrees"):
         read_survey_points(path, SITE, crs="EPSG:4326")
 
 @pytest.mark.parametrize("text", [

@@ -199,7 +199,7 @@ def check_degrees(geom_or_xy, crs_like, *, file=None, argument: str = "geometry"
     >>> check_degrees((583914.1, 6641224.9), "EPSG:4326", file="toes.geojson")
     Traceback (most recent call last):
     ...
-    fillstress.errors.InputError: toes.geojson: coordinates reach x = 583914, y = 6641225, which cannot be longitude/latitude in WGS 84; if they are projected, state the file's CRS (a GeoJSON file without a "crs" member is read as WGS 84, RFC 7946)
+    fillstress.errors.InputError: toes.geojson: coordinates reach x = 583914, y = 6641225, which cannot be degrees (longitude, latitude) of WGS 84; if they are projected, state the file's CRS (a GeoJSON file without a "crs" member is read as WGS 84, RFC 7946)
     """
     if crs_like is None:
         return
@@ -217,9 +217,9 @@ def check_degrees(geom_or_xy, crs_like, *, file=None, argument: str = "geometry"
             else np.argmax(np.abs(xy[:, 1]) > 90.0))
     where = {"file": file} if file is not None else {"argument": argument}
     raise InputError(f"coordinates reach x = {xy[k, 0]:.0f}, y = {xy[k, 1]:.0f}, which cannot "
-                     f"be longitude/latitude in {crs.name}; if they are projected, state the "
-                     "file's CRS (a GeoJSON file without a \"crs\" member is read as WGS 84, "
-                     "RFC 7946)", **where)
+                     f"be degrees (longitude, latitude) of {crs.name}; if they are projected, "
+                     "state the file's CRS (a GeoJSON file without a \"crs\" member is read as "
+                     "WGS 84, RFC 7946)", **where)
 
 
 def to_site(geom_or_xy, from_crs, site, *, argument: str = "geometry", file=None):
