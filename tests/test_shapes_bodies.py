@@ -190,3 +190,11 @@ def test_read_footprints_refuses_projected_geojson_without_crs_member(tmp_path, 
     with pytest.raises(InputError, match="cannot be degrees") as err:
         read_footprints(path, target_crs=target)
     assert "pad.geojson" in str(err.value)
+
+
+@pytest.mark.parametrize("factor", [0.0, -1.0, float("nan"), "ft"])
+def test_read_footprints_bad_height_unit_is_refused(tmp_path, factor):
+    path = _write(tmp_path, "pads.geojson", geopandas.GeoDataFrame(
+        {"height": [2.0]}, geometry=[shapely.box(0, 0, 4, 4)], crs="EPSG:32632"))
+    with pytest.raises(InputError, match="argument height_to_m: must be"):
+        read_footprints(path, height_to_m=factor)

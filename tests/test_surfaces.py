@@ -243,3 +243,12 @@ def test_landxml_units_and_errors(tmp_path):
     with pytest.raises(InputError, match="unknown point") as err:
         read_landxml_surface(bad, SITE)
     assert "bad.xml" in str(err.value)
+
+
+@pytest.mark.parametrize("z_to_m", ["feet", float("inf"), 0.0, -0.3048])
+def test_landxml_bad_z_to_m_is_refused_even_when_the_file_declares_units(tmp_path, z_to_m):
+    path = tmp_path / "grade.xml"
+    path.write_text(LANDXML.format(ns="http://www.landxml.org/schema/LandXML-1.2",
+                                   system="Metric", unit="meter"))
+    with pytest.raises(InputError, match="argument z_to_m: must be"):
+        read_landxml_surface(path, SITE, z_to_m=z_to_m)

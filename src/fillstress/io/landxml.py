@@ -14,6 +14,7 @@ import xml.etree.ElementTree as ET
 import numpy as np
 
 from .. import crs as crsmod
+from .._validate import positive
 from ..errors import InputError
 from ..shapes.surfaces import TinSurface
 from ..units import FOOT, US_SURVEY_FOOT
@@ -163,14 +164,13 @@ def read_landxml_surface(path, site_crs=None, *, surface_name=None, crs=None,
     >>> float(s.sample(5.0, 2.0))   # x = easting 5, y = northing 2
     11.0
     """
+    given = 1.0 if z_to_m is None else positive(z_to_m, "z_to_m")
     if not os.path.exists(path):
         raise InputError("file not found", file=path)
     root = _parse(path)
     points, tris = _tin(_pick_surface(root, surface_name, path), path)
     declared = _units(root, path)
-    factor = declared if declared is not None else (1.0 if z_to_m is None else float(z_to_m))
-    if not factor > 0:
-        raise InputError(f"must be positive, got {z_to_m!r}", argument="z_to_m")
+    factor = given if declared is None else declared
     layer, site = crsmod.layer_and_site(_file_crs(root) or crs, site_crs, file=path)
     points = crsmod.to_site(points, layer, site, file=path)
     points[:, 2] *= factor

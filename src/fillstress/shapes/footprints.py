@@ -13,7 +13,7 @@ import os
 import numpy as np
 import shapely
 
-from .._validate import finite
+from .._validate import finite, positive
 from ..errors import InputError
 from ..grid import GridSpec
 from .coverage import check_polygonal, check_spec, coverage_fraction, tin_cell_average
@@ -151,7 +151,7 @@ def read_footprints(path, height_field: str | None = None, crs=None, target_crs=
     (2.5, 50.0)
     """
     from .. import crs as crsmod
-    factor = _positive_factor(height_to_m)
+    factor = positive(height_to_m, "height_to_m")
     gdf = _read_layer(path)
     source = _layer_crs(gdf, crs, target_crs, path)
     if target_crs is None:
@@ -173,13 +173,6 @@ def read_footprints(path, height_field: str | None = None, crs=None, target_crs=
     out["sloping_top"] = field is None
     out = out.set_geometry(crsmod.to_site(geoms, source, site, file=path), crs=None)
     return out.set_crs(crsmod.metric_twin(site[0]), allow_override=True)
-
-
-def _positive_factor(value) -> float:
-    v = finite(value, "height_to_m")
-    if v <= 0:
-        raise InputError(f"must be positive, got {value!r}", argument="height_to_m")
-    return v
 
 
 def _read_layer(path):
