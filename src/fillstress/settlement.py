@@ -23,7 +23,7 @@ from typing import Callable
 import numpy as np
 from scipy.optimize import brentq
 
-from ._validate import finite_array, positive
+from ._validate import finite, finite_array, positive
 from .errors import InputError
 from .soil import SoilLayer, SoilProfile
 
@@ -103,12 +103,9 @@ def sublayers(profile: SoilProfile, top_depth: float = 0.0,
 
 
 def _non_negative(value, name: str) -> float:
-    try:
-        v = float(value)
-    except (TypeError, ValueError):
-        raise InputError(f"must be a number, got {value!r}", argument=name) from None
-    if not math.isfinite(v) or v < 0:
-        raise InputError(f"must be a finite depth >= 0 m, got {value!r}", argument=name)
+    v = finite(value, name)
+    if v < 0:
+        raise InputError(f"must be a depth >= 0 m, got {value!r}", argument=name)
     return v
 
 

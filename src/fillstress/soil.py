@@ -25,7 +25,7 @@ from typing import Sequence
 
 import numpy as np
 
-from ._validate import finite_array, positive
+from ._validate import finite, finite_array, positive
 from .errors import InputError
 
 DRAINAGE_KINDS = ("double", "single", "single-top", "single-bottom")
@@ -234,7 +234,7 @@ class SoilProfile:
                  rigid_base_m: float | None = None, gamma_w: float = 9.81):
         self.layers = tuple(layers)
         self._check_layers()
-        self.gamma_w = self._positive_argument(gamma_w, "gamma_w")
+        self.gamma_w = positive(gamma_w, "gamma_w")
         self.water_table_m = self._water_table(water_table_m)
         self.rigid_base_m = self._rigid_base(rigid_base_m)
         self._build_stress_table()
@@ -242,10 +242,6 @@ class SoilProfile:
         self._check_preconsolidation()
 
     # --- validation -------------------------------------------------------------------
-    @staticmethod
-    def _positive_argument(value, name: str) -> float:
-        return positive(value, name)
-
     def _check_layers(self) -> None:
         if not self.layers:
             raise InputError("a soil profile needs at least one layer", argument="layers")
@@ -272,12 +268,7 @@ class SoilProfile:
                                    f"{above.bottom_m:g} m")
 
     def _water_table(self, value) -> float:
-        try:
-            v = float(value)
-        except (TypeError, ValueError):
-            raise InputError(f"must be a depth in m, got {value!r}", argument="water_table_m") from None
-        if not math.isfinite(v):
-            raise InputError(f"must be finite, got {value!r}", argument="water_table_m")
+        v = finite(value, "water_table_m")
         if v < 0:
             raise InputError(f"water above the ground surface is not supported (depth {v:g} m); "
                              "give a depth >= 0", argument="water_table_m")
@@ -286,7 +277,7 @@ class SoilProfile:
     def _rigid_base(self, value) -> float:
         if value is None:
             return self.bottom_m
-        v = self._positive_argument(value, "rigid_base_m")
+        v = positive(value, "rigid_base_m")
         if v > self.bottom_m + _BOUNDARY_TOL_M:
             raise InputError(f"rigid base at {v:g} m is below the last layer (bottom "
                              f"{self.bottom_m:g} m); extend the layers down to it", argument="rigid_base_m")
