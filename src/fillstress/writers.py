@@ -94,25 +94,21 @@ def pipe_summary(res) -> pd.DataFrame:
 EXTRA_QUANTITIES = {"chainage_at_max": "length", "differential_length": "length",
                     "differential_from": "length", "differential_to": "length",
                     "gradient_max": None, "influence_depth": "length", "fraction": None,
-                    "x_at_max": "length", "y_at_max": "length", "depth_at_max": "length",
-                    "elevation": "length", "cut_volume": "volume",
-                    "compared_area": "area"}
+                    "depth_at_max": "length", "elevation": "length", "cut_volume": "volume",
+                    "compared_area": "area", "stress_ratio_max": None}
 
 
 def stress_summary(points: pd.DataFrame) -> pd.DataFrame:
-    """Per receptor: the largest Δσz and where it occurs (SI)."""
-    rows = []
-    for rid, g in points.groupby("receptor_id", sort=False):
-        k = g["dsz"].idxmax()
-        row = {"receptor_id": rid, "n_points": len(g), "dsz_max": g.at[k, "dsz"],
-               "x_at_max": g.at[k, "x"], "y_at_max": g.at[k, "y"],
-               "depth_at_max": g.at[k, "depth"]}
-        if "settlement" in g and g["settlement"].notna().any():
-            row["settlement_max"] = float(np.nanmax(g["settlement"]))
-        if "stress_ratio" in g:
-            row["stress_ratio_max"] = float(np.nanmax(g["stress_ratio"])) if g["stress_ratio"].notna().any() else np.nan
-        rows.append(row)
-    return pd.DataFrame(rows)
+    """Per receptor: the largest Δσz and the point, x, y, depth where it occurs (SI), and
+    the largest settlement and stress ratio where they were computed."""
+    from .receptors import summarise
+    out = summarise(points, "dsz").drop(columns="receptor_kind").rename(
+        columns={"point_id": "point_at_max", "depth": "depth_at_max"})
+    by = points.groupby("receptor_id", sort=False)
+    for col in ("settlement", "stress_ratio"):
+        if col in points:            # pandas max skips NaN (profile points, heave)
+            out[f"{col}_max"] = by[col].max().reindex(out["receptor_id"]).to_numpy()
+    return out
 
 
 def kind_summary(res, kind: str) -> pd.DataFrame:
@@ -129,13 +125,9 @@ def kind_summary(res, kind: str) -> pd.DataFrame:
 
 
 # --- writing --------------------------------------------------------------------------
-def _q():
-    return {**EXTRA_QUANTITIES, "stress_ratio_max": None}
-
-
 def _quantities(frame: pd.DataFrame) -> dict:
     """Quantity of every numeric column: names carry it (settlement_*, *_at_max, …)."""
-    q = dict(_q())
+    q = dict(EXTRA_QUANTITIES)
     for c in frame.columns:
         if c in q or c in tables.DEFAULT_QUANTITIES:
             continue
@@ -187,7 +179,7 @@ def _write_tables(res, folder) -> None:
         tables.write_table_csv(folder.path(f"{name}_points.csv"), pts, u, q, crs=site.crs)
         tables.write_points_geojson(folder.path(f"{name}_points.geojson"), pts, u,
                                     crs=site.crs, quantities=q)
-        summary = kind_summary(res, kind).rename(columns={"x_at_max": "x", "y_at_max": "y"})
+        summary = kind_summary(res, kind)
         tables.write_table_csv(folder.path(f"{name}_summary.csv"), summary, u,
                                _quantities(summary), crs=site.crs)
         _write_geometry(res, folder, kind, name)
@@ -296,17 +288,24 @@ def _write_summary_json(res, folder, assumptions, cautions) -> None:
                                                    EXTRA_QUANTITIES).to_json(orient="records")),
         "soil": _soil_rows(site),
         "convergence": _convergence_out(res),
-        "receptors": {name: json.loads(tables.labelled_table(
-            kind_summary(res, kind).drop(columns=["x_at_max", "y_at_max"]), site.units,
-            _quantities(kind_summary(res, kind))).to_json(orient="records"))
-            for kind, name in KIND_FILES.items()
-            if (res.points["receptor_kind"] == kind).any()},
+        "receptors": _receptor_json(res),
         "warnings": res.warnings,
         "timings_s": res.timings,
         "assumptions": assumptions, "cautions": cautions,
     }
     write_atomic(folder.path("summary.json"),
                  lambda p: p.write_text(json.dumps(data, indent=2, default=_json_default)))
+
+
+def _receptor_json(res) -> dict:
+    """Per kind, the receptor summaries in output units (plan coordinates in the CSVs)."""
+    out = {}
+    for kind, name in KIND_FILES.items():
+        if (res.points["receptor_kind"] == kind).any():
+            summary = kind_summary(res, kind).drop(columns=["x", "y"])
+            out[name] = json.loads(tables.labelled_table(
+                summary, res.site.units, _quantities(summary)).to_json(orient="records"))
+    return out
 
 
 def _convergence_out(res) -> dict:
@@ -360,9 +359,10 @@ def _settings(site) -> dict:
 # --- console tables -------------------------------------------------------------------
 def body_rows(site):
     u = site.units
-    rows = [[b.name, b.kind, b.stage, u.unit_weight_si(1) and b.unit_weight / u.unit_weight_to_kn_m3,
-             b.volume / u.length_to_m ** 3, b.footprint_area / u.length_to_m ** 2,
-             u.length_out(b.max_height), tables.to_output_units(b.total_load, u, "force")]
+    out = tables.to_output_units
+    rows = [[b.name, b.kind, b.stage, out(b.unit_weight, u, "unit_weight"),
+             out(b.volume, u, "volume"), out(b.footprint_area, u, "area"),
+             out(b.max_height, u, "length"), out(b.total_load, u, "force")]
             for b in site.bodies]
     force = tables.unit_label(u, "force")
     return ("Fill bodies", ["body", "kind", "stage", f"γ ({u.unit_weight})",
