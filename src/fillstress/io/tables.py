@@ -45,7 +45,11 @@ def crs_unit_label(crs) -> str:
     ('ftUS', 'm')
     """
     from ..crs import site_crs
-    name = site_crs(crs, argument="crs")[0].axis_info[0].unit_name
+    return _axis_label(site_crs(crs, argument="crs")[0])
+
+
+def _axis_label(crs) -> str:
+    name = crs.axis_info[0].unit_name
     return _CRS_UNIT_LABELS.get(name, name.replace(" ", "_"))
 
 
@@ -71,8 +75,8 @@ def plan_unit(crs, units: UnitSystem = SI) -> tuple[str, float]:
     if crs is None:
         return units.length, units.length_to_m
     from ..crs import site_crs
-    factor = site_crs(crs, argument="crs")[1]
-    label = crs_unit_label(crs)
+    parsed, factor = site_crs(crs, argument="crs")
+    label = _axis_label(parsed)
     same_kind = {"m": ("m",), "ft": ("ft", "ftUS")}.get(units.length, ())
     return (units.length if label in same_kind else label), factor
 
@@ -160,8 +164,11 @@ def labelled_table(table: pd.DataFrame, units: UnitSystem,
         values = column.to_numpy(dtype=float)
         if np.any(np.isinf(values)):
             raise InputError(f"column {name!r} holds infinite values", argument="table")
-        label = name if q is None else f"{name}_{unit_label(units, q, crs)}"
-        out[label] = to_output_units(values, units, q, crs)
+        if q is None:
+            out[name] = values
+            continue
+        suffix, si_per_unit = _unit(units, q, crs)
+        out[f"{name}_{suffix}"] = values / si_per_unit
     return pd.DataFrame(out, index=table.index)
 
 
