@@ -222,6 +222,13 @@ def test_unknown_unit_system(tmp_path):
     (tmp_path / "manifest.json").write_text(json.dumps({"units": units}))
     with pytest.raises(InputError, match=r"\[units.system\] unknown unit system 'imperial'"):
         ResultsFolder(tmp_path)
+    (tmp_path / "manifest.json").write_text(json.dumps({"units": {**units, "system": "US"}}))
+    with pytest.raises(InputError, match=r"system 'US' does not match the labels.*SI"):
+        ResultsFolder(tmp_path)
+    units["pressure"] = "psi"
+    (tmp_path / "manifest.json").write_text(json.dumps({"units": {**units, "system": "SI"}}))
+    with pytest.raises(InputError, match=r"\[units\] labels m, psi.*not those of a unit system"):
+        ResultsFolder(tmp_path)
 
 
 def test_missing_column_is_named(truth, tmp_path):

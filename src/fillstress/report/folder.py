@@ -10,14 +10,14 @@ from __future__ import annotations
 
 import json
 import re
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 import numpy as np
 
 from ..errors import InputError
 from ..io.tables import plan_unit
-from ..units import SYSTEMS
+from ..units import SYSTEMS, UnitSystem
 
 #: Quantities that can be shown on plan slices and at sample points; value = unit key.
 QUANTITIES = {"dsz": "pressure", "stress_ratio": None, "settlement": "settlement",
@@ -56,6 +56,21 @@ class UnitLabels:
         for name in ("plan", "plan_suffix"):
             if not getattr(self, name):
                 object.__setattr__(self, name, self.length)
+
+    @property
+    def system(self) -> UnitSystem:
+        """The unit system (:data:`fillstress.units.SYSTEMS`) these labels are those of.
+
+        >>> UnitLabels("ft", "psf", "pcf", "in").system.name
+        'US'
+        """
+        for system in SYSTEMS.values():
+            if (system.length, system.pressure, system.unit_weight, system.settlement) == (
+                    self.length, self.pressure, self.unit_weight, self.settlement):
+                return system
+        raise InputError(f"labels {self.length}, {self.pressure}, {self.unit_weight}, "
+                         f"{self.settlement} are not those of a unit system "
+                         f"({', '.join(SYSTEMS)})", key="units")
 
     def label(self, unit_key: str | None) -> str:
         """The label for a unit key ('length', 'pressure', ...), '' for dimensionless."""
@@ -170,20 +185,26 @@ class ResultsFolder:
         if units["system"] not in SYSTEMS:
             raise InputError(f"unknown unit system {units['system']!r}; expected "
                              f"{' or '.join(SYSTEMS)}", file=manifest, key="units.system")
-        self.unit_system = SYSTEMS[units["system"]]
+        plan = units.get("plan")
+        labels = UnitLabels(*(units[k] for k in _UNIT_KEYS),
+                            plan=plan if isinstance(plan, str) and plan else units["length"])
+        try:
+            system = labels.system
+        except InputError as exc:
+            raise InputError(exc.reason, file=manifest, key="units") from None
+        if units["system"] != system.name:
+            raise InputError(f"system {units['system']!r} does not match the labels, which are "
+                             f"those of {system.name}", file=manifest, key="units.system")
         # The writer's own rule (io.tables.plan_unit) gives the x_/y_ suffix and the
         # metres per plan unit of this folder's CRS.
         try:
-            suffix, metres = plan_unit(self.manifest.get("crs") or None, self.unit_system)
+            suffix, metres = plan_unit(self.manifest.get("crs") or None, system)
         except InputError as exc:
             raise InputError(f"is not a usable CRS ({exc.reason})", file=manifest,
                              key="crs") from None
         #: Site lengths per plan-coordinate unit (1 unless the CRS unit differs).
-        self.plan_to_length = metres / self.unit_system.length_to_m
-        plan = units.get("plan")
-        return UnitLabels(*(units[k] for k in _UNIT_KEYS),
-                          plan=plan if isinstance(plan, str) and plan else units["length"],
-                          plan_suffix=suffix)
+        self.plan_to_length = metres / system.length_to_m
+        return replace(labels, plan_suffix=suffix)
 
     # --- tables ----------------------------------------------------------------
     def table(self, name: str):

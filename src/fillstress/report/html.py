@@ -14,7 +14,6 @@ from pathlib import Path
 
 import numpy as np
 
-from ..units import FOOT
 from . import figures
 from .folder import ResultsFolder, UnitLabels
 from .labels import heading, unit_text
@@ -120,11 +119,6 @@ def _text_list(value) -> list[str]:
     return [str(value)]
 
 
-def _metres_per_length(units: UnitLabels) -> float | None:
-    """Metres in one site length unit, for the few values the folder keeps in metres."""
-    return {"m": 1.0, "ft": FOOT}.get(units.length)
-
-
 #: Site keys shown elsewhere in the report (the run settings), not in the site table.
 _SITE_KEYS_SHOWN_ELSEWHERE = {"name", "units", "method", "poisson", "cell", "stages"}
 _PARTIAL_NAME = re.compile(r"^\.(?P<name>.+)\.partial-[0-9A-Za-z]+$")
@@ -157,13 +151,11 @@ class _Report:
         self.buildings = folder.features("buildings")
         self.pipes = folder.features("pipes")
         self.boreholes = folder.features("boreholes")
-        self.to_m = _metres_per_length(self.u)
+        self.to_m = self.u.system.length_to_m       # for the few values kept in metres
 
     # --- helpers ---------------------------------------------------------------
     def _length(self, metres) -> str:
         """A length kept in metres by the folder, as text in the site length unit."""
-        if self.to_m is None:
-            return f"{plain(metres)} m"
         values = metres if isinstance(metres, list) else [metres]
         return ", ".join(f"{plain(float(v) / self.to_m)}" for v in values) + f" {self.u.length}"
 

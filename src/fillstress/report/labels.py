@@ -6,7 +6,12 @@ in brackets (``max Δσz (psf)``, ``volume (ft³)``), so every header states its
 """
 from __future__ import annotations
 
+from ..io.tables import unit_label
 from .folder import UnitLabels
+
+#: Quantities whose labels can end a column name (the writer's labels, io.tables).
+_SUFFIXED_QUANTITIES = ("length", "area", "volume", "pressure", "unit_weight", "settlement",
+                        "force")
 
 #: Unit labels as printed (superscripts; the survey foot spelled out).
 UNIT_TEXT = {"m2": "m²", "m3": "m³", "ft2": "ft²", "ft3": "ft³", "kN/m3": "kN/m³",
@@ -47,9 +52,8 @@ def unit_text(label: str) -> str:
 
 
 def _unit_labels(units: UnitLabels) -> list[str]:
-    force = "kN" if units.pressure == "kPa" else "kip"
-    labels = {units.unit_weight, units.pressure, units.settlement, units.length,
-              units.length + "2", units.length + "3", units.plan, force, "days"}
+    labels = {unit_label(units.system, q) for q in _SUFFIXED_QUANTITIES}
+    labels |= {units.plan, units.plan_suffix, "days"}
     return sorted(labels, key=len, reverse=True)       # longest first: "_mm" before "_m"
 
 
