@@ -21,11 +21,6 @@ BJERRUM_1963_LIMITS = {
     "panel_wall_cracking": 1.0 / 300.0,  # first cracking of panel walls expected
     "structural_damage": 1.0 / 150.0,    # structural damage of general buildings expected
 }
-LIMIT_DESCRIPTIONS = {
-    "no_cracking": "limit where no cracking is acceptable (Bjerrum 1963)",
-    "panel_wall_cracking": "first cracking of panel walls (Bjerrum 1963)",
-    "structural_damage": "structural damage to general buildings (Bjerrum 1963)",
-}
 _COLLINEAR_RATIO = 1e-9
 
 
