@@ -232,13 +232,14 @@ def _summary_json(bodies, tables):
                  "prepared_for": "Quillmere Harbour Board <b>draft</b>"},
         "bodies": bodies.to_dict("records"),
         "receptors": {kind: df.to_dict("records") for kind, df in tables.items()},
-        "soil_profile": {"water_table_depth_m": 0.0, "layers": [
-            {"name": "soft grey clay", "top_depth_m": 0.0, "bottom_depth_m": 9.0,
-             "unit_weight_kN/m3": 19.0, "Cc": 0.42, "e0": 1.35},
-            {"name": "dense sand", "top_depth_m": 9.0, "bottom_depth_m": 20.0,
-             "unit_weight_kN/m3": 20.5, "E_kPa": 60000.0}]},
-        "convergence": {"grid": "plan", "cell_m": 2.0, "refined_cell_m": 1.0,
-                        "max_change_percent": 0.8, "tolerance_percent": 2.0, "passed": True},
+        # as the writer puts them (writers._soil_rows, run.convergence_check)
+        "soil": [{"name": "soft grey clay", "top_m": 0.0, "bottom_m": 9.0, "model": "index",
+                  "unit_weight_kN/m3": 19.0},
+                 {"name": "dense sand", "top_m": 9.0, "bottom_m": 20.0, "model": "modulus",
+                  "unit_weight_kN/m3": 20.5}],
+        "convergence": {"points_compared": 58, "max_relative_change": 0.008,
+                        "at_point": "BH-Q7-02", "threshold_fraction_of_qmax": 0.01,
+                        "cell_m": 2.0, "fine_cell_m": 1.0},
     }
 
 

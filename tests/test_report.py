@@ -125,13 +125,16 @@ def test_inputs_convergence_provenance_cautions(page, truth):
     bodies = pd.read_csv(truth.path / "bodies.csv")
     for col in ("volume_m3", "footprint_area_m2", "max_height_m", "total_load_kN"):
         assert _fmt(bodies[col][0]) in body
-    assert "soft grey clay" in body                   # soil profile from summary.json
+    assert "soft grey clay" in body                   # soil layers from summary.json
     manifest = json.loads((truth.path / "manifest.json").read_text())
     for sha in manifest["inputs"].values():
         assert sha in body
     assert manifest["version"] in body and manifest["created"] in body
     conv = json.loads((truth.path / "summary.json").read_text())["convergence"]
-    assert _fmt(conv["max_change_percent"]) in body
+    assert _fmt(conv["max_relative_change"]) in body
+    assert (f"Halving the cell size from {conv['cell_m']:g} m to {conv['fine_cell_m']:g} m "
+            f"changes Δσz at the sample points by at most "
+            f"{100 * conv['max_relative_change']:.2f} % (at point {conv['at_point']})") in body
     assert "licensed geotechnical engineer" in body
     assert "Local codes and regulations govern" in body
     assert "Westergaard" in body and "superposition" in body
@@ -146,7 +149,7 @@ def test_default_path_and_missing_parts(truth, tmp_path):
     copy = tmp_path / "copy"
     shutil.copytree(truth.path, copy)
     summary = json.loads((copy / "summary.json").read_text())
-    del summary["convergence"], summary["soil_profile"]
+    del summary["convergence"], summary["soil"]
     (copy / "summary.json").write_text(json.dumps(summary))
     path = write_report(copy)
     assert path == copy / "report.html"

@@ -12,8 +12,6 @@ import re
 from datetime import datetime, timezone
 from pathlib import Path
 
-import numpy as np
-
 from . import figures
 from .folder import ResultsFolder, UnitLabels
 from .labels import heading, unit_text
@@ -164,20 +162,15 @@ class _Report:
         return site if isinstance(site, dict) else {}
 
     def _settings_rows(self) -> list[tuple[str, object]]:
-        settings = self.f.manifest.get("settings") or {}
-        if not isinstance(settings, dict) or not settings:
-            settings = {k: v for k, v in self._site().items() if k in _SITE_KEYS_SHOWN_ELSEWHERE
-                        and k != "name"}
+        settings = self.f.manifest.get("settings")
         rows = []
-        for key, value in settings.items():
+        for key, value in (settings.items() if isinstance(settings, dict) else ()):
             if is_missing(value) or isinstance(value, dict) or key == "units":
                 continue          # Poisson's ratio is for Westergaard only; units: site table
             if key == "method":
                 value = str(value).capitalize()
             if key.endswith("_m") and not isinstance(value, (bool, str)):
                 rows.append((heading(key[:-2], self.u), self._length(value)))
-            elif key == "cell" and not isinstance(value, (bool, str)):   # site units
-                rows.append((heading("cell", self.u), f"{plain(value)} {self.u.length}"))
             else:
                 rows.append((heading(key, self.u), value))
         return rows
@@ -205,7 +198,7 @@ class _Report:
             parts.append("<h3>Fill bodies</h3>" + frame_table(bodies, self.u))
         else:
             parts.append('<p class="note">No bodies.csv in this results folder.</p>')
-        soil = self.f.summary.get("soil_profile") or self.f.summary.get("soil")
+        soil = self.f.summary.get("soil")
         if soil:
             parts.append("<h3>Soil profile</h3>" + json_block(soil, 4, self.u))
         else:
@@ -218,7 +211,7 @@ class _Report:
     def method(self) -> str:
         given = _text_list(self.f.manifest.get("assumptions"))
         parts = [f"<p>{esc(t)}</p>" for t in METHOD_TEXT]
-        method = (self.f.manifest.get("settings") or {}).get("method") or self._site().get("method")
+        method = (self.f.manifest.get("settings") or {}).get("method")
         if method:
             parts.append(f"<p>Solution used for this run: <strong>"
                          f"{esc(str(method).capitalize())}</strong>.</p>")
@@ -341,9 +334,8 @@ class _Report:
         conv = self.f.summary.get("convergence")
         if not conv:
             return '<p class="note">No convergence check in this results folder.</p>'
-        text = _convergence_text(conv, self)
-        shown = {k: v for k, v in conv.items() if k not in ("cell", "fine_cell")}
-        return (f"<p>{esc(text)}</p>" if text else "") + json_block(shown, 4, self.u)
+        text = _convergence_text(conv, self.u)
+        return (f"<p>{esc(text)}</p>" if text else "") + json_block(conv, 4, self.u)
 
     def provenance(self) -> str:
         m = self.f.manifest
@@ -424,17 +416,22 @@ def _flag_text(kind: str, rec: dict, flag_cols, units: UnitLabels) -> str:
     return f"{kind.rstrip('s')} {rec.get('receptor_id', '')}: " + "; ".join(others)
 
 
-def _convergence_text(conv: dict, report: _Report) -> str:
-    """The grid-halving check in words, cell sizes in the site length unit."""
+def _convergence_text(conv: dict, u: UnitLabels) -> str:
+    """The grid-halving check (run.convergence_check) in words, cells in the site unit.
+
+    Examples
+    --------
+    >>> _convergence_text({"max_relative_change": 0.0125, "cell_ft": 4.0, "fine_cell_ft": 2.0},
+    ...                   UnitLabels("ft", "psf", "pcf", "in"))
+    'Halving the cell size from 4 ft to 2 ft changes Δσz at the sample points by at most 1.25 %.'
+    """
     change = conv.get("max_relative_change")
-    if change is None:
-        change = conv.get("max_change_percent")
-        change = None if change is None else float(change) / 100.0
-    cells = _convergence_cells(conv, report)
-    if change is None or cells is None:
+    cells = conv.get(f"cell_{u.length}"), conv.get(f"fine_cell_{u.length}")
+    if change is None or None in cells:
         return ""
-    text = (f"Halving the cell size from {cells[0]} to {cells[1]} changes Δσz at the "
-            f"sample points by at most {100 * float(change):.2f} %")
+    text = (f"Halving the cell size from {plain(cells[0])} {u.length} to {plain(cells[1])} "
+            f"{u.length} changes Δσz at the sample points by at most "
+            f"{100 * float(change):.2f} %")
     if conv.get("at_point"):
         text += f" (at point {conv['at_point']})"
     if conv.get("points_compared") is not None and conv.get("threshold_fraction_of_qmax"):
@@ -442,29 +439,6 @@ def _convergence_text(conv: dict, report: _Report) -> str:
                  f"{100 * float(conv['threshold_fraction_of_qmax']):g} % of the largest "
                  "surface pressure")
     return text + "."
-
-
-def _convergence_cells(conv: dict, report: _Report):
-    """(coarse, fine) cell sizes as text, or None when their unit cannot be told."""
-    u = report.u
-    for suffix in (u.length, "m"):
-        a, b = conv.get(f"cell_{suffix}"), conv.get(f"refined_cell_{suffix}",
-                                                     conv.get(f"fine_cell_{suffix}"))
-        if a is not None and b is not None:
-            if suffix == u.length:
-                return f"{plain(a)} {u.length}", f"{plain(b)} {u.length}"
-            return report._length(a), report._length(b)
-    a, b = conv.get("cell"), conv.get("fine_cell")
-    if a is None or b is None:
-        return None
-    # A bare "cell" carries no unit: it is in metres when it equals the run's cell_m,
-    # in site units when it equals the site's cell.
-    cell_m = (report.f.manifest.get("settings") or {}).get("cell_m")
-    if cell_m is not None and np.isclose(float(a), float(cell_m)):
-        return report._length(a), report._length(b)
-    if report._site().get("cell") is not None and np.isclose(float(a), float(report._site()["cell"])):
-        return f"{plain(a)} {u.length}", f"{plain(b)} {u.length}"
-    return None
 
 
 def _site_title(folder: ResultsFolder) -> str:
