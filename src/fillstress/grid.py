@@ -32,6 +32,13 @@ class _Lattice:
         """y of the cell centres (m), south to north (row order)."""
         return self.y0 + (np.arange(self.ny) + 0.5) * self.dy
 
+    def same_lattice(self, other) -> bool:
+        """True when `other` (a LoadGrid or GridSpec) has the same origin, cell size and
+        shape."""
+        return (self.shape == other.shape and np.isclose(self.x0, other.x0)
+                and np.isclose(self.y0, other.y0) and np.isclose(self.dx, other.dx)
+                and np.isclose(self.dy, other.dy))
+
 
 @dataclass(frozen=True, eq=False)
 class LoadGrid(_Lattice):
@@ -118,11 +125,6 @@ class LoadGrid(_Lattice):
         """Sum of pressure × cell area, kN."""
         return float(self.pressure.sum() * self.cell_area)
 
-    def same_lattice(self, other: "LoadGrid") -> bool:
-        """True when `other` has the same origin, cell size and shape."""
-        return (self.shape == other.shape and np.isclose(self.x0, other.x0)
-                and np.isclose(self.y0, other.y0) and np.isclose(self.dx, other.dx)
-                and np.isclose(self.dy, other.dy))
 
     def with_pressure(self, pressure) -> "LoadGrid":
         """A grid on the same lattice with new pressures."""

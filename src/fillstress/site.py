@@ -226,7 +226,6 @@ def _read_vector(ctx: _Context, path: Path, id_field: str, where, geom_type: str
         raise InputError(f"cannot read vector file ({exc})", file=path) from None
     if frame.empty:
         raise InputError("the layer has no features", file=path)
-    _check_degrees(frame, path)
     frame = _select(frame, id_field, where, path)
     kinds = set(frame.geometry.geom_type)
     if not kinds <= {geom_type, "Multi" + geom_type}:
@@ -255,29 +254,14 @@ def _select(frame, id_field: str, where, path):
     return frame
 
 
-def _check_degrees(frame, path) -> None:
-    """A layer read as longitude/latitude must hold degrees. GeoJSON without a "crs"
-    member is WGS 84 by definition (RFC 7946), so projected coordinates written without
-    one would otherwise be taken as degrees."""
-    if frame.crs is None or not frame.crs.is_geographic:
-        return
-    xmin, ymin, xmax, ymax = frame.total_bounds
-    if min(xmin, ymin) < -180 or xmax > 180 or ymax > 90 or ymin < -90:
-        raise InputError(f"coordinates up to {max(abs(xmax), abs(ymax)):.0f} cannot be "
-                         f"degrees of {frame.crs.name}; if they are projected, state the "
-                         "CRS in the file (for GeoJSON a \"crs\" member) ", file=path)
-
-
 def _to_site(ctx: _Context, frame, path):
     layer_crs = frame.crs
     if layer_crs is None and ctx.site_crs is None:
         raise InputError("the layer states no CRS and neither does the site; add "
                          "crs = \"EPSG:...\" to [site]", file=path)
-    try:
-        return crsmod.to_site(np.asarray(frame.geometry.values, dtype=object),
-                              layer_crs, ctx.site_crs, argument="crs")
-    except InputError as exc:
-        raise InputError(exc.reason, file=path) from None
+    # to_site also refuses "degrees" that cannot be (GeoJSON without a crs member)
+    return crsmod.to_site(np.asarray(frame.geometry.values, dtype=object),
+                          layer_crs, ctx.site_crs, argument="crs", file=path)
 
 
 def _body_outline(ctx: _Context, name: str, raw: dict):
@@ -504,7 +488,6 @@ def _receptor_items(ctx, table, raw, where) -> list[dict]:
         geoms = [(raw["id"], LineString(xy) if line else Polygon(xy), {})]
     elif raw.get("file") is not None:
         def to_site(frame):
-            _check_degrees(frame, raw["file"])
             return frame.set_geometry(list(_to_site(ctx, frame, raw["file"])))
         frame = rc.read_receptor_layer(
             raw["file"], RECEPTOR_TABLES[table], id_field=raw["id_field"],

@@ -23,11 +23,6 @@ from ..grid import GridSpec
 from .coverage import check_spec
 
 
-def _same_lattice(a: GridSpec, b: GridSpec) -> bool:
-    return (a.shape == b.shape and np.isclose(a.x0, b.x0) and np.isclose(a.y0, b.y0)
-            and np.isclose(a.dx, b.dx) and np.isclose(a.dy, b.dy))
-
-
 @dataclass(frozen=True, eq=False)
 class Body:
     """One fill (or excavation) body as a cell-average thickness grid.
@@ -151,7 +146,7 @@ def stage_pressure(bodies, spec: GridSpec, stage: int) -> np.ndarray:
         if not isinstance(body, Body):
             raise InputError(f"item {k} is a {type(body).__name__}, not a Body",
                              argument="bodies")
-        if not _same_lattice(body.spec, spec):
+        if not body.spec.same_lattice(spec):
             raise InputError(f"body {body.name!r} lives on another grid", argument="bodies")
         if body.stage <= stage:
             total += body.pressure
