@@ -156,7 +156,9 @@ def test_default_path_and_missing_parts(truth, tmp_path):
     text = path.read_text(encoding="utf-8")
     assert "No convergence check in this results folder" in text
     assert "No soil profile" in text
-    assert not list(copy.glob(".report.html.partial"))
+    assert not list(copy.glob(".*report.html*"))       # no temporary left
+    with pytest.raises(InputError, match="no_such_folder: folder does not exist"):
+        write_report(copy, copy / "no_such_folder" / "report.html")
 
 
 # --- the reader ---------------------------------------------------------------

@@ -60,7 +60,7 @@ def test_full_render_is_not_blank(truth, tmp_path):
     non_white = np.any(img < 245, axis=2).mean()
     assert non_white > 0.1          # slices cut below 2 % of the range leave white around them
     assert _distinct_colours(img) > 500
-    assert not path.with_name(".scene.png.partial.png").exists()
+    assert [p.name for p in tmp_path.iterdir()] == ["scene.png"]     # no temporary left
 
 
 def test_colour_range_is_the_data_range(truth):
@@ -225,6 +225,9 @@ def test_export_default_path(truth, tmp_path):
     shutil.copytree(truth.path, copy)
     assert viewer.export_scene_html(copy) == copy / "scene.html"
     assert (copy / "scene.html").stat().st_size > 10_000
+    assert not [p.name for p in copy.iterdir() if p.name.startswith(".")]   # no temporary
+    with pytest.raises(InputError, match="folder does not exist"):
+        viewer.render_png(copy, tmp_path / "no_such_folder" / "view.png")
 
 
 def test_slice_floor_cuts_low_values(truth, tmp_path):

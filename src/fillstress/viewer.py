@@ -20,6 +20,7 @@ import numpy as np
 
 from ._validate import finite, positive
 from .errors import InputError
+from .io.atomic import write_atomic
 from .report.folder import QUANTITIES, PlanField, ResultsFolder
 
 #: Perceptually uniform colour maps (matplotlib's viridis family), one per quantity.
@@ -472,13 +473,9 @@ def render_png(results_dir, path, *, camera="iso", window_size=(1200, 900),
         else:
             plotter.camera_position = camera
         plotter.reset_camera()
-        path = Path(path)
-        tmp = path.with_name(f".{path.name}.partial.png")
-        plotter.screenshot(str(tmp))
-        tmp.replace(path)
+        return write_atomic(path, lambda tmp: plotter.screenshot(str(tmp)))
     finally:
         plotter.close()
-    return path
 
 
 @contextlib.contextmanager
@@ -519,14 +516,11 @@ def export_scene_html(results_dir, path=None, *, exaggeration: float | None = No
     plotter = build_scene(results_dir, exaggeration=exaggeration, quantity=quantity,
                           off_screen=True)
     path = Path(results_dir) / "scene.html" if path is None else Path(path)
-    tmp = path.with_name(f".{path.name}.partial.html")
     try:
         with _offline_trame():
-            plotter.trame.export_html(str(tmp))
+            return write_atomic(path, lambda tmp: plotter.trame.export_html(str(tmp)))
     except ImportError as exc:  # the optional scene packages are missing
         raise InputError(f"needs the 'scene' extra (trame, trame-vtk, trame-pyvista, "
                          f"nest_asyncio2): {exc}", argument="path") from None
     finally:
         plotter.close()
-    tmp.replace(path)
-    return path

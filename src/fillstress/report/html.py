@@ -12,6 +12,7 @@ import re
 from datetime import datetime, timezone
 from pathlib import Path
 
+from ..io.atomic import write_atomic
 from . import figures
 from .folder import ResultsFolder, UnitLabels
 from .labels import heading, unit_text
@@ -497,7 +498,4 @@ def write_report(results_dir, path=None) -> Path:
     folder = ResultsFolder(results_dir)
     text = _Report(folder).page()
     path = folder.path / "report.html" if path is None else Path(path)
-    tmp = path.with_name(f".{path.name}.partial")
-    tmp.write_text(text, encoding="utf-8")
-    tmp.replace(path)
-    return path
+    return write_atomic(path, lambda tmp: tmp.write_text(text, encoding="utf-8"))
