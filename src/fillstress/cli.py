@@ -33,10 +33,7 @@ def main(argv=None) -> int:
     console = Console(quiet=getattr(args, "quiet", False))
     try:
         return args.func(args, console) or 0
-    except InputError as exc:
-        console.error(str(exc))
-        return 2
-    except FillstressError as exc:
+    except FillstressError as exc:        # bad input (InputError) or over the memory cap
         console.error(str(exc))
         return 2
     except KeyboardInterrupt:

@@ -9,6 +9,8 @@ from rich.markup import escape
 from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn, TimeRemainingColumn
 from rich.table import Table
 
+from .progress import silent
+
 
 class Console:
     def __init__(self, quiet: bool = False):
@@ -27,9 +29,9 @@ class Console:
 
     @contextmanager
     def progress(self, label: str, total: int):
-        if self.quiet or not sys.stderr.isatty() and total <= 1:
-            from .progress import _Silent
-            yield _Silent()
+        if self.quiet:
+            with silent(label, total) as bar:
+                yield bar
             return
         with Progress(TextColumn("{task.description:<34}"), BarColumn(),
                       TextColumn("{task.completed}/{task.total}"), TimeElapsedColumn(),
@@ -46,8 +48,10 @@ class Console:
         if self.quiet:
             return
         t = Table(title=title, title_justify="left", show_lines=False)
-        for c in columns:
-            t.add_column(c, justify="right" if c[:1].islower() is False else "left")
+        for k, c in enumerate(columns):
+            numeric = rows and all(isinstance(r[k], (int, float)) and not isinstance(r[k], bool)
+                                   for r in rows)
+            t.add_column(c, justify="right" if numeric else "left")
         for r in rows:
             t.add_row(*[escape(_fmt(v)) for v in r])
         self.out.print(t)
