@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import math
 import os
 import resource
 import subprocess
@@ -82,7 +83,66 @@ def bench_slice(args) -> list[tuple[str, str, str]]:
     stress_slices(LoadGrid(np.ones((8, 8)), 0, 0, 1, 1), [1.0])      # compiled code warm
     t = best_time(lambda: stress_slices(grid, [5.0], workers=args.workers), args.repeat)
     return [(f"FFT slice, {n}x{n} grid at {n}x{n} points, 1 depth", f"{t:.3f} s",
-             "target <= 1 s")]
+             "target <= 1 s"), slice_accuracy()]
+
+
+def slice_accuracy() -> tuple[str, str, str]:
+    """Largest |FFT slice − direct sum| over 3 depths of a ragged 60 × 80 fill padded by
+    20 cells, as a share of the largest pressure (docs/method-engine.md, FFT slices)."""
+    ragged = fills(80)["ragged"]
+    grid = ragged.with_pressure(ragged.pressure[:60])
+    worst = 0.0
+    for z in (0.5, 5.0, 40.0):
+        s = stress_slices(grid, [z], pad=20.0)
+        xx, yy = np.meshgrid(s.x.values, s.y.values)
+        direct = vertical_stress(grid, np.column_stack([xx.ravel(), yy.ravel(),
+                                                        np.full(xx.size, z)]))
+        worst = max(worst, float(np.abs(s.values[0].ravel() - direct).max()))
+    return ("FFT slice vs direct sum, 60x80 fill, pad 20 cells, depths 0.5/5/40 m",
+            f"{worst / grid.pressure.max():.1e} of max p", "absolute error")
+
+
+def bench_arctangent(args) -> list[tuple[str, str, str]]:
+    """ns per call of the arctangent the kernels need, atan2(y, c) for c > 0, three ways
+    (docs/performance.md, "Arctangent"): numba's math.atan2, and math.atan and the
+    kernels' fast_atan on y·(1/c) with 1/c computed beforehand, as the kernels do once
+    per point.  One thread, the same 10^6 arguments, the best of --repeat runs."""
+    import numba
+    from fillstress.kernels import fast_atan
+
+    @numba.njit
+    def with_atan2(y, c, inv_c):
+        total = 0.0
+        for k in range(y.size):
+            total += math.atan2(y[k], c[k])
+        return total
+
+    @numba.njit
+    def with_atan(y, c, inv_c):
+        total = 0.0
+        for k in range(y.size):
+            total += math.atan(y[k] * inv_c[k])
+        return total
+
+    @numba.njit
+    def with_fast_atan(y, c, inv_c):
+        total = 0.0
+        for k in range(y.size):
+            total += fast_atan(y[k] * inv_c[k])
+        return total
+
+    rng = np.random.default_rng(3)
+    y = rng.standard_normal(1_000_000) * 10.0
+    c = rng.uniform(0.01, 10.0, y.size)
+    inv_c = 1.0 / c
+    rows = []
+    for name, fn in (("math.atan2(y, c)", with_atan2), ("math.atan(y/c)", with_atan),
+                     ("fast_atan(y/c)", with_fast_atan)):
+        fn(y[:2], c[:2], inv_c[:2])                                 # compiled
+        t = best_time(lambda: fn(y, c, inv_c), args.repeat)
+        rows.append((f"arctangent, {name}, {y.size} calls", f"{t / y.size * 1e9:.1f} ns",
+                     "per call"))
+    return rows
 
 
 def memory_child(n: int, n_depths: int, workers) -> dict:
@@ -132,7 +192,7 @@ def main(argv=None) -> None:
     if args.memory_child:
         print(json.dumps(memory_child(args.slice_size, args.depths, args.workers)))
         return
-    rows = bench_direct(args) + bench_slice(args)
+    rows = bench_direct(args) + bench_slice(args) + bench_arctangent(args)
     if not args.skip_memory:
         rows += bench_memory(args)
     print("| case | result | note |\n|---|---|---|")

@@ -18,7 +18,9 @@ import time
 import numpy as np
 
 from fillstress import LoadGrid
-from fillstress.estimate import estimate_points, estimate_slices, format_bytes
+from fillstress.estimate import (FFT_FLOPS_PER_SECOND, estimate_points, estimate_slices,
+                                 format_bytes, largest_tile)
+from fillstress.solve.auto import direct_work
 from fillstress.solve.direct import vertical_stress
 from fillstress.solve.farfield import build_pyramid, evaluate_pyramid
 from fillstress.solve.tiled import tiled_slices
@@ -46,24 +48,28 @@ def points_on(grid: LoadGrid, n: int, seed: int = 8) -> np.ndarray:
                             rng.uniform(0.0, 40.0, n)])
 
 
+def timed(fn, *args, **kwargs):
+    """(fn(*args, **kwargs), wall-clock seconds)."""
+    t0 = time.perf_counter()
+    result = fn(*args, **kwargs)
+    return result, time.perf_counter() - t0
+
+
 def far_vs_direct(cells: int, n_points: int, subset: int) -> list[str]:
     grid = invented_site(cells)
     pts = points_on(grid, n_points)
     evaluate_pyramid(build_pyramid(LoadGrid(np.ones((4, 4)), 0, 0, 1, 1)), pts[:2])  # compile
     vertical_stress(LoadGrid(np.ones((2, 2)), 0, 0, 1, 1), pts[:2])
-    t0 = time.perf_counter()
-    pyr = build_pyramid(grid)
-    t_build = time.perf_counter() - t0
-    t0 = time.perf_counter()
-    far, bound, work = evaluate_pyramid(pyr, pts, return_work=True)
-    t_far = time.perf_counter() - t0
-    sub = pts[:subset]
-    t0 = time.perf_counter()
-    exact = vertical_stress(grid, sub)
-    t_sub = time.perf_counter() - t0
+    pyr, t_build = timed(build_pyramid, grid)
+    (far, bound, work), t_far = timed(evaluate_pyramid, pyr, pts, return_work=True)
+    exact, t_sub = timed(vertical_stress, grid, pts[:subset])
     floor = 0.01 * np.abs(grid.pressure).max()
-    rel = np.abs(far[:subset] - exact) / np.maximum(np.abs(exact), floor)
+    err = np.abs(far[:subset] - exact)
+    rel = err / np.maximum(np.abs(exact), floor)
+    # how far below its certified bound the actual error stays (docs/method-farfield.md)
+    slack = bound[:subset][err > 0] / err[err > 0]
     extrapolated = t_sub * n_points / subset
+    corners = subset * direct_work(grid, 1)
     return [
         f"### Far field: {n_points} points on {grid.ny} × {grid.nx} = {grid.pressure.size} cells",
         "",
@@ -82,7 +88,20 @@ def far_vs_direct(cells: int, n_points: int, subset: int) -> list[str]:
         f"{estimate_points(grid.shape, n_points, algorithm='far').seconds:.0f} s far, "
         f"{estimate_points(grid.shape, n_points).seconds:.0f} s direct (all nodes).",
         "",
+        f"Certified bound / actual error on the subset: {_span(slack)}.",
+        "",
+        f"Rates for the constants in src/fillstress/estimate.py: CORNERS_PER_SECOND "
+        f"{corners / t_sub:.2g} (direct, {corners} corner evaluations), "
+        f"FAR_SECONDS_PER_POINT {t_far / n_points:.2g}.",
+        "",
     ]
+
+
+def _span(values) -> str:
+    if values.size == 0:
+        return "no point with a non-zero error"
+    lo, med, hi = np.percentile(values, [0, 50, 100])
+    return f"{lo:.3g} to {hi:.3g} (median {med:.3g}, {values.size} points)"
 
 
 def tiled_under_cap(cells: int, cap_gb: float) -> list[str]:
@@ -90,9 +109,9 @@ def tiled_under_cap(cells: int, cap_gb: float) -> list[str]:
     depths = [1.0, 3.0, 6.0, 12.0, 24.0]
     est_whole = estimate_slices(grid.shape, len(depths))
     before = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss * 1024
-    t0 = time.perf_counter()
-    s = tiled_slices(grid, depths, memory_cap=cap_gb * 1e9)
-    elapsed = time.perf_counter() - t0
+    s, elapsed = timed(tiled_slices, grid, depths, memory_cap=cap_gb * 1e9)
+    tile = largest_tile(grid.shape, len(depths), cap_gb * 1e9)
+    est_tiled = estimate_slices(grid.shape, len(depths), tile=tile)
     peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss * 1024
     return [
         f"### Tiled slices: {grid.pressure.size} cells, {len(depths)} depths, cap {cap_gb:g} GB",
@@ -100,7 +119,9 @@ def tiled_under_cap(cells: int, cap_gb: float) -> list[str]:
         f"Untiled would need {format_bytes(est_whole.bytes)}.  Tiled run: {elapsed:.1f} s, "
         f"peak resident memory of the process {format_bytes(peak)} "
         f"(before the run {format_bytes(before)}, grid itself {format_bytes(grid.pressure.nbytes)}); "
-        f"max Δσz {float(s.max()):.1f} kPa.",
+        f"max Δσz {float(s.max()):.1f} kPa.  Estimate said {est_tiled.seconds:.0f} s "
+        f"(tiles of {tile[0]} × {tile[1]}), so FFT_FLOPS_PER_SECOND in estimate.py would be "
+        f"{FFT_FLOPS_PER_SECOND * est_tiled.seconds / elapsed:.2g} on this machine.",
         "",
     ]
 
@@ -110,17 +131,16 @@ def dask_beside_serial(cells: int, n_points: int) -> list[str]:
     from fillstress.solve.auto import stress_at_points
     grid = invented_site(cells)
     pts = points_on(grid, n_points)
-    t0 = time.perf_counter()
-    serial = stress_at_points(grid, pts, algorithm="far")
-    rows = [f"| serial (numba threads) | {time.perf_counter() - t0:.2f} s | — |"]
+    serial, t_serial = timed(stress_at_points, grid, pts, algorithm="far")
+    rows = [f"| serial (numba threads) | {t_serial:.2f} s | — |"]
     for workers in (1, 2):
         with connect(workers) as client:       # as `fillstress run --workers N` does
             distributed_points(grid, pts[:100], client=client, algorithm="far")  # warm workers
-            t0 = time.perf_counter()
-            out = distributed_points(grid, pts, client=client, algorithm="far", chunk_size=2000)
+            out, t_dask = timed(distributed_points, grid, pts, client=client, algorithm="far",
+                                chunk_size=2000)
             rows.append(f"| Dask, {workers} worker(s) × 1 thread, "
                         f"{max(1, (os.cpu_count() or 1) // workers)} numba thread(s) | "
-                        f"{time.perf_counter() - t0:.2f} s "
+                        f"{t_dask:.2f} s "
                         f"| {'identical' if np.array_equal(out, serial) else 'DIFFERENT'} |")
     return [f"### Dask: {n_points} points, far field, {grid.pressure.size} cells", "",
             "| run | time | values vs serial |", "|---|---|---|", *rows, ""]

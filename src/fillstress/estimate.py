@@ -17,7 +17,8 @@ from .errors import CapacityError, InputError
 from .solve._checks import whole_number, whole_pair
 
 # Throughputs on the development machine (2 cores, both threads), common practice to
-# keep such constants beside the code that uses them; refreshed by benchmarks/bench_scale.py.
+# keep such constants beside the code that uses them.  benchmarks/bench_scale.py prints
+# the measured value of each ("Rates for the constants ..." and "Estimate said ...").
 CORNERS_PER_SECOND = 6.0e7       # node-kernel corner evaluations, direct summation
 FAR_SECONDS_PER_POINT = 6.0e-5   # far-field walk at the default accuracy, per point
 FFT_FLOPS_PER_SECOND = 1.5e9     # scipy.fft real transforms, 5 n log2 n flops each

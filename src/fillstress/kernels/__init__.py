@@ -88,8 +88,10 @@ def resolve_method(method="boussinesq", poisson=None) -> KernelSpec:
 
 # Arctangent by range reduction and a rational approximation, after the Cephes library
 # (Moshier 1989, "Methods and Programs for Mathematical Functions").  Coefficients recalled
-# from memory; tests hold it to libm's atan within 4e-16 relative.  It is ~2x faster than
-# math.atan2 in numba and the corner sums spend most of their time in the arctangent.
+# from memory; tests hold it to libm's atan within 4e-16 relative.  The corner sums spend
+# most of their time in the arctangent; the one-argument form on y·(1/c) is what beats
+# math.atan2, and this function is measured beside math.atan by benchmarks/bench_engine.py
+# (docs/performance.md, "Arctangent").
 _ATAN_P = (-8.750608600031904122785e-1, -1.615753718733365076637e1, -7.500855792314704667340e1,
            -1.228866684490136173410e2, -6.485021904942025371773e1)
 _ATAN_Q = (2.485846490142306297962e1, 1.650270098316988542046e2, 4.328810604912902668951e2,
