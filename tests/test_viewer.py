@@ -147,6 +147,8 @@ def test_other_quantities(truth):
     ({"quantity": "pore_pressure"}, "quantity"),
     ({"layers": ("fill", "clouds")}, "layers"),
     ({"slice_floor": 1.5}, "slice_floor"),
+    ({"depth": "deep"}, "depth"),
+    ({"depth": float("nan")}, "depth"),
 ])
 def test_bad_arguments(truth, kwargs, needle):
     with pytest.raises(InputError, match=needle):

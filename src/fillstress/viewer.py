@@ -21,7 +21,7 @@ import numpy as np
 from ._validate import finite, positive
 from .errors import InputError
 from .io.atomic import write_atomic
-from .report.folder import QUANTITIES, PlanField, ResultsFolder
+from .report.folder import QUANTITIES, PlanField, ResultsFolder, quantity_unit_key
 
 #: Perceptually uniform colour maps (matplotlib's viridis family), one per quantity.
 COLOUR_MAPS = {"dsz": "viridis", "stress_ratio": "plasma", "settlement": "magma",
@@ -164,8 +164,7 @@ class _SceneBuilder:
         span = (np.ptp(fill.x) + np.ptp(fill.y)) / 2 * folder.plan_to_length \
             if fill is not None else 0.0
         self.span = span if span > 0 else 10.0
-        self.slices = folder.plan_slices(quantity) if quantity in ("dsz", "stress_ratio",
-                                                                   "settlement") else []
+        self.slices = folder.plan_slices(quantity)
         self.point_data = _point_values(folder, quantity)
         if not self.slices and self.point_data.size == 0:
             raise InputError(f"the results folder has no {quantity!r} on slices or points",
@@ -361,9 +360,9 @@ def build_scene(results_dir, *, exaggeration: float | None = None, quantity: str
     if exaggeration is not None:
         exaggeration = positive(exaggeration, "exaggeration")
     slice_floor = _share(slice_floor, "slice_floor")
-    if quantity not in QUANTITIES:
-        raise InputError(f"unknown quantity {quantity!r}; choose one of {', '.join(QUANTITIES)}",
-                         argument="quantity")
+    quantity_unit_key(quantity)
+    if depth is not None:
+        depth = finite(depth, "depth")
     layers = _validated_layers(layers)
     plotter = _new_plotter(off_screen, window_size)
     frame = _Frame(folder, 1.0)

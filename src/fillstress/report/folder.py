@@ -329,7 +329,7 @@ class ResultsFolder:
         Read from ``stress_cube.nc`` (variables ``<quantity>_<grid>``); Δσz falls back to
         ``slices/dsz_<grid>_z<depth><len>.tif`` when there is no cube.
         """
-        unit_key = _quantity_unit_key(quantity)
+        unit_key = quantity_unit_key(quantity)
         units = self.units.label(unit_key)
         cube = self.cube()
         slices = []
@@ -358,7 +358,12 @@ class ResultsFolder:
         return out
 
 
-def _quantity_unit_key(quantity: str) -> str | None:
+def quantity_unit_key(quantity: str) -> str | None:
+    """Unit key of a quantity of :data:`QUANTITIES`, or InputError naming `quantity`.
+
+    >>> quantity_unit_key("dsz"), quantity_unit_key("stress_ratio")
+    ('pressure', None)
+    """
     if quantity not in QUANTITIES:
         raise InputError(f"unknown quantity {quantity!r}; choose one of {', '.join(QUANTITIES)}",
                          argument="quantity")
