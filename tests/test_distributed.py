@@ -49,6 +49,14 @@ def test_points_on_dask_equal_the_serial_path(client, algorithm):
     np.testing.assert_array_equal(spread, serial)
 
 
+def test_far_field_order_reaches_the_workers(client):
+    grid, pts = _grid(), _points(120)
+    serial = stress_at_points(grid, pts, algorithm="far", order=1, tol=1e-2)
+    spread = distributed_points(grid, pts, client=client, algorithm="far", order=1, tol=1e-2)
+    np.testing.assert_array_equal(spread, serial)
+    assert not np.array_equal(serial, stress_at_points(grid, pts, algorithm="far", tol=1e-2))
+
+
 def test_slices_on_dask_equal_the_serial_path(client):
     grid = _grid()
     serial = stress_slices(grid, [0.0, 1.0, 6.0], pad=3.0, offset=(0.2, 0.0))

@@ -15,8 +15,8 @@ Examples
 from __future__ import annotations
 
 import os
-
 from contextlib import contextmanager
+from dataclasses import replace
 from typing import NamedTuple
 
 import numpy as np
@@ -27,6 +27,7 @@ from .errors import InputError
 from .progress import silent
 from .solve._checks import checked_grid, points_per_chunk, whole_number
 from .solve.auto import DEFAULT_CHUNK, choose_algorithm, point_evaluator
+from .solve.farfield import DEFAULT_ORDER
 from .solve.slices import slice_at_depth, slice_setup
 from .solve.tiled import assemble, prepare_tiled, run_tile
 
@@ -96,7 +97,8 @@ def _gather(client, futures, label, progress):
 
 def distributed_points(grid, points, method="boussinesq", poisson=None, *, client,
                        algorithm="auto", chunk_size=None, tol=1e-3, floor=0.01,
-                       retries=DEFAULT_RETRIES, progress=None) -> np.ndarray:
+                       order=DEFAULT_ORDER, retries=DEFAULT_RETRIES,
+                       progress=None) -> np.ndarray:
     """Δσz (kPa) at points, chunks evaluated on Dask workers.
 
     Same arguments and values as :func:`fillstress.solve.auto.stress_at_points`; the
@@ -108,7 +110,8 @@ def distributed_points(grid, points, method="boussinesq", poisson=None, *, clien
     pts = points_array(points)
     step = points_per_chunk(chunk_size, "chunk_size", DEFAULT_CHUNK)
     chosen = choose_algorithm(grid, pts.shape[0], algorithm)
-    evaluate = point_evaluator(grid, method, poisson, algorithm=chosen, tol=tol, floor=floor)
+    evaluate = point_evaluator(grid, method, poisson, algorithm=chosen, tol=tol, floor=floor,
+                               order=order)
     shared = client.scatter(evaluate, broadcast=True)
     futures = [client.submit(_apply, shared, pts[s:s + step], retries=retries, pure=False)
                for s in range(0, pts.shape[0], step)]
@@ -118,6 +121,10 @@ def distributed_points(grid, points, method="boussinesq", poisson=None, *, clien
 
 def _apply(evaluate, part):
     return evaluate(part)
+
+
+def _run_tile_with(job, loads):
+    return run_tile(replace(job, loads=loads))
 
 
 def distributed_slices(grid, depths, method="boussinesq", poisson=None, *, client,
@@ -134,7 +141,11 @@ def distributed_slices(grid, depths, method="boussinesq", poisson=None, *, clien
     if tile is not None or memory_cap is not None:
         jobs, frame = prepare_tiled(grid, depths, method, poisson, offset=offset, pad=pad,
                                     memory_cap=memory_cap, tile=tile)
-        futures = [client.submit(run_tile, job, retries=retries, pure=False) for job in jobs]
+        # every job holds the same load tiles (the whole grid): send them to each worker
+        # once instead of inside every task
+        [loads] = client.scatter([jobs[0].loads], broadcast=True)
+        futures = [client.submit(_run_tile_with, replace(job, loads=()), loads,
+                                 retries=retries, pure=False) for job in jobs]
         parts = _gather(client, futures, "stress slices (tiles, Dask)", progress)
         return assemble(jobs, parts, frame)
     grid, frame = slice_setup(grid, depths, method, poisson, offset=offset, pad=pad)
