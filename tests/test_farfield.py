@@ -110,6 +110,17 @@ def test_tail_bound_is_above_the_series_tail(order, power):
         assert tail <= tail_bound(theta, order, power) <= 5 * tail
 
 
+@pytest.mark.parametrize("order, power", [(0, 5), (4, 5), (4, 3), (8, 3)])
+def test_walk_tail_equals_tail_bound(order, power):
+    # the compiled walk certifies with _tail; it must be the tested tail_bound
+    from fillstress.solve.farfield import _tail
+    first = float(math.comb(order + power, power - 1))
+    ratio = (order + 1 + power) / (order + 2)
+    for theta in (0.0, 1e-3, 0.2, theta_limit(order, power), 0.99):
+        assert _tail(theta, order, first, ratio) == pytest.approx(
+            float(tail_bound(theta, order, power)), rel=1e-14)
+
+
 def test_bad_accuracy_arguments_are_refused():
     grid = LoadGrid([[1.0]], 0, 0, 1, 1)
     with pytest.raises(InputError, match="argument tol"):

@@ -296,7 +296,8 @@ def build_pyramid(grid, method="boussinesq", poisson=None, *, order: int = DEFAU
 
 # --- the walk --------------------------------------------------------------------------
 @numba.njit(cache=True)
-def _tail(theta, order, power, first_coef, ratio_coef):
+def _tail(theta, order, first_coef, ratio_coef):
+    # tail_bound in the walk: first_coef = C(p+k, k-1), ratio_coef = (p+1+k)/(p+2)
     ratio = 1.0 - theta * ratio_coef
     if ratio <= 0.0:
         return math.inf
@@ -366,7 +367,7 @@ def _walk(px, py, z, delta, pressure, x0, y0, dx, dy, nbx, nby, offset, centre, 
             r = math.sqrt(r2)
             theta = h / r
             rk = r * r2 if power == 3 else r * r2 * r2  # R^k for k = 3 or 5
-            err = amp * c_pow * m_abs / rk * _tail(theta, order, power, first_coef, ratio_coef)
+            err = amp * c_pow * m_abs / rk * _tail(theta, order, first_coef, ratio_coef)
             if err <= delta:
                 if lev == 0:
                     series = q * _expansion(dxp, dyp, r2, cell_weights, terms,
