@@ -2,7 +2,8 @@
 
 US customary units in a US-survey-foot CRS, a house that exceeds its settlement limits,
 a pipe, a borehole and settlement-time curves. The site is computed once per module
-(about 10 s); expected values are read back from the run's own files.
+(10–15 s on a 2-core machine: `pytest --durations=3 tests/test_report_real.py`); expected
+values are read back from the run's own files.
 """
 from __future__ import annotations
 
