@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import math
+import operator
 
 import numpy as np
 
@@ -65,3 +66,56 @@ def depths_array(depths, name: str = "depths") -> np.ndarray:
     if np.any(arr < 0):
         raise InputError(f"depths must be >= 0, got minimum {arr.min():g}", argument=name)
     return arr
+
+
+def whole_number(value, name: str, *, minimum: int | None = 0, maximum: int | None = None,
+                 meaning: str | None = None) -> int:
+    """`value` as an int in ``minimum..maximum`` (None: unbounded); bools and floats
+    (even 2.0) are refused; numpy integers are accepted.
+
+    `meaning` replaces the default wording ("a whole number >= 1") in the message.
+
+    Examples
+    --------
+    >>> whole_number(3, "chunk", minimum=1)
+    3
+    >>> whole_number(2.5, "chunk", minimum=1)
+    Traceback (most recent call last):
+    ...
+    fillstress.errors.InputError: argument chunk: must be a whole number >= 1, got 2.5
+    """
+    number = None
+    if not isinstance(value, bool) and hasattr(value, "__index__"):
+        number = operator.index(value)
+        if (minimum is not None and number < minimum) or (maximum is not None
+                                                            and number > maximum):
+            number = None
+    if number is None:
+        if meaning is None:
+            meaning = ("a whole number" if minimum is None and maximum is None
+                       else f"a whole number >= {minimum}" if maximum is None
+                       else f"a whole number from {minimum} to {maximum}")
+        raise InputError(f"must be {meaning}, got {value!r}", argument=name)
+    return number
+
+
+def whole_pair(value, name: str, *, minimum: int = 0, meaning: str) -> tuple[int, int]:
+    """Two whole numbers >= `minimum` (a pad, a tile or a shape).
+
+    Examples
+    --------
+    >>> whole_pair((2, 0), "pad_cells", meaning="(pad_x, pad_y) whole cells >= 0")
+    (2, 0)
+    >>> whole_pair(3, "pad_cells", meaning="(pad_x, pad_y) whole cells >= 0")
+    Traceback (most recent call last):
+    ...
+    fillstress.errors.InputError: argument pad_cells: must be (pad_x, pad_y) whole cells >= 0, got 3
+    """
+    try:
+        first, second = value
+    except (TypeError, ValueError):
+        raise InputError(f"must be {meaning}, got {value!r}", argument=name) from None
+    for v in (first, second):
+        if isinstance(v, bool) or not hasattr(v, "__index__") or operator.index(v) < minimum:
+            raise InputError(f"must be {meaning}, got {value!r}", argument=name)
+    return operator.index(first), operator.index(second)

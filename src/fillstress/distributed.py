@@ -25,7 +25,8 @@ import xarray as xr
 from ._validate import points_array
 from .errors import InputError
 from .progress import silent
-from .solve._checks import checked_grid, points_per_chunk, whole_number
+from ._validate import whole_number
+from .solve._checks import checked_grid, points_per_chunk
 from .solve.auto import DEFAULT_CHUNK, choose_algorithm, point_evaluator
 from .solve.farfield import DEFAULT_ORDER
 from .solve.slices import slice_at_depth, slice_setup

@@ -14,7 +14,7 @@ import scipy.fft
 
 from ._validate import positive
 from .errors import CapacityError, InputError
-from .solve._checks import whole_number, whole_pair
+from ._validate import whole_number, whole_pair
 
 # Throughputs on the development machine (2 cores, both threads), common practice to
 # keep such constants beside the code that uses them.  benchmarks/bench_scale.py prints

@@ -17,7 +17,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .._validate import finite_array, positive
+from .._validate import finite_array, positive, whole_number
 from ..errors import InputError
 from ..grid import GridSpec
 from .coverage import check_spec
@@ -70,9 +70,7 @@ class Body:
             raise InputError("must be a non-empty string", argument="name")
         check_spec(self.spec)
         object.__setattr__(self, "unit_weight", positive(self.unit_weight, "unit_weight"))
-        if isinstance(self.stage, bool) or not isinstance(self.stage, (int, np.integer)) \
-                or self.stage < 0:
-            raise InputError(f"must be an integer >= 0, got {self.stage!r}", argument="stage")
+        whole_number(self.stage, "stage", meaning="an integer >= 0")
         t = finite_array(self.thickness, "thickness", ndim=2)
         if t.shape != self.spec.shape:
             raise InputError(f"has shape {t.shape} but the grid is {self.spec.shape}",
@@ -139,8 +137,7 @@ def stage_pressure(bodies, spec: GridSpec, stage: int) -> np.ndarray:
     ([[20.0]], [[56.0]])
     """
     check_spec(spec)
-    if isinstance(stage, bool) or not isinstance(stage, (int, np.integer)):
-        raise InputError(f"must be an integer, got {stage!r}", argument="stage")
+    whole_number(stage, "stage", minimum=None, meaning="an integer")
     total = spec.zeros()
     for k, body in enumerate(bodies):
         if not isinstance(body, Body):
@@ -203,6 +200,5 @@ def refine(spec: GridSpec, factor: int = 2) -> GridSpec:
     (8, 6)
     """
     check_spec(spec)
-    if isinstance(factor, bool) or not isinstance(factor, (int, np.integer)) or factor < 2:
-        raise InputError(f"must be an integer >= 2, got {factor!r}", argument="factor")
-    return spec.refined(int(factor))
+    factor = whole_number(factor, "factor", minimum=2, meaning="an integer >= 2")
+    return spec.refined(factor)

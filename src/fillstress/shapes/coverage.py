@@ -29,6 +29,7 @@ from typing import Callable
 import numpy as np
 import shapely
 
+from .._validate import whole_number
 from ..errors import InputError
 from ..grid import GridSpec
 
@@ -47,11 +48,8 @@ def check_spec(spec, argument: str = "spec") -> GridSpec:
 
 def check_samples(samples, argument: str = "samples") -> int:
     """Sub-samples per cell side: an integer 1…16."""
-    if isinstance(samples, bool) or not isinstance(samples, (int, np.integer)) \
-            or not 1 <= int(samples) <= _MAX_SAMPLES:
-        raise InputError(f"must be an integer from 1 to {_MAX_SAMPLES}, got {samples!r}",
-                         argument=argument)
-    return int(samples)
+    return whole_number(samples, argument, minimum=1, maximum=_MAX_SAMPLES,
+                        meaning=f"an integer from 1 to {_MAX_SAMPLES}")
 
 
 def check_polygonal(geometry, argument: str = "geometry"):

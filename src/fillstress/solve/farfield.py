@@ -34,7 +34,8 @@ from .._validate import points_array, positive
 from ..errors import InputError
 from ..grid import LoadGrid
 from ..kernels import KernelSpec, boussinesq, resolve_method, westergaard
-from ._checks import checked_grid, whole_number
+from .._validate import whole_number
+from ._checks import checked_grid
 
 DEFAULT_ORDER = 4
 _MAX_RETRIES = 6

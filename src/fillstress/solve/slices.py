@@ -23,7 +23,8 @@ import xarray as xr
 from .._validate import depths_array, finite, finite_array, positive
 from ..errors import InputError
 from ..kernels import boussinesq, corner_angle, resolve_method
-from ._checks import checked_grid, fft_workers, offset_pair, whole_pair
+from .._validate import whole_pair
+from ._checks import checked_grid, fft_workers, offset_pair
 
 INV_2PI = boussinesq.INV_2PI
 

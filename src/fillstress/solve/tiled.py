@@ -18,7 +18,8 @@ from ..errors import InputError
 from ..estimate import check_capacity, estimate_slices, largest_tile
 from ..kernels import KernelSpec
 from ..progress import silent
-from ._checks import fft_workers, whole_pair
+from .._validate import whole_pair
+from ._checks import fft_workers
 from .slices import SlicePlan, slice_array, slice_setup
 
 
