@@ -144,12 +144,14 @@ def estimate_slices(shape, n_depths: int, *, pad_cells=(0, 0), tile=None) -> Est
                     f"at most {pairs} tile pairs")
 
 
-def estimate_points(shape, n_points: int, *, algorithm: str = "direct", order: int = 4) -> Estimate:
+def estimate_points(shape, n_points: int, *, algorithm: str = "direct", order: int = 4,
+                    active_nodes: int | None = None) -> Estimate:
     """Estimate Δσz at `n_points` points below an (ny, nx) grid.
 
-    ``algorithm="direct"`` counts every grid node for every point (an upper bound:
-    nodes inside uniform fill are skipped); ``"far"`` the block pyramid and a
-    per-point walk.
+    ``algorithm="direct"`` counts `active_nodes` corner evaluations a point — the grid
+    nodes with a non-zero weight, when the caller knows them (``solve.auto.direct_work``
+    counts them) — or every grid node (an upper bound: nodes inside uniform fill are
+    skipped); ``"far"`` the block pyramid and a per-point walk.
 
     Examples
     --------
@@ -165,7 +167,8 @@ def estimate_points(shape, n_points: int, *, algorithm: str = "direct", order: i
     if algorithm == "direct":
         # node weights, padded pressure, compressed rows (int64 column + float value)
         memory = _FLOAT * nodes + _FLOAT * (ny + 2) * (nx + 2) + 16 * nodes + point_arrays
-        seconds = n_points * nodes / CORNERS_PER_SECOND
+        evaluated = nodes if active_nodes is None else whole_number(active_nodes, "active_nodes")
+        seconds = n_points * evaluated / CORNERS_PER_SECOND
         return Estimate("points-direct", memory, seconds,
                         f"{cells} cells, {n_points} points, direct summation")
     if algorithm == "far":

@@ -46,17 +46,25 @@ def _pad_cells(site, plan) -> tuple[int, int]:
 def run_estimates(site) -> list[Estimate]:
     """One estimate per kind of work: receptor points, settlement columns, the
     convergence check (a grid of half the cell size) and each plan grid's slices."""
-    from .solve.auto import choose_algorithm
+    from .solve.auto import choose_algorithm, direct_work
     shape, grid = site.spec.shape, site.load_grid()
+    active = direct_work(grid, 1)          # nodes with a non-zero weight
     out = []
-    for label, n, g_shape in (("receptor points", len(site.points), shape),
-                              ("settlement columns", settlement_points(site), shape),
-                              ("convergence check", len(site.points),
-                               (2 * shape[0], 2 * shape[1]))):
+    for label, n, g_shape, nodes in (
+            ("receptor points", len(site.points), shape, active),
+            ("settlement columns", settlement_points(site), shape, active),
+            # half-size cells: about twice the weighted nodes along the fill's edges,
+            # four times where the fill varies everywhere; take the upper bound
+            ("convergence check", len(site.points), (2 * shape[0], 2 * shape[1]), 4 * active)):
         if n:
             algorithm = choose_algorithm(grid, n)
-            e = estimate_points(g_shape, n, algorithm=algorithm)
+            e = estimate_points(g_shape, n, algorithm=algorithm, active_nodes=nodes)
             out.append(Estimate(label, e.bytes, e.seconds, e.detail))
+    if len(site.points) and site.context is not None:
+        # the check rebuilds every body on 4× the cells: scale the measured first build
+        out.append(Estimate("bodies on half cells", 4 * grid.pressure.nbytes,
+                            4 * site.context.build_seconds,
+                            f"4 × the {site.context.build_seconds:.2g} s the bodies took"))
     for plan in site.plan_grids:
         e = estimate_slices(shape, len(plan.depths), pad_cells=_pad_cells(site, plan))
         out.append(Estimate(f"plan grid {plan.name}", e.bytes, e.seconds, e.detail))

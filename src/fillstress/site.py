@@ -5,6 +5,7 @@ Data flow: sitefile.read_site_file → build_site → Site (used by run.py).
 """
 from __future__ import annotations
 
+import time
 from contextlib import contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -121,6 +122,7 @@ class _Context:
     lines: dict = field(default_factory=dict)        # embankment → centreline
     footprints: dict = field(default_factory=dict)   # body → footprint frame with heights
     surfaces: dict = field(default_factory=dict)     # (path, name) → surface
+    build_seconds: float = 0.0                       # time taken to rasterise the bodies
 
     def xy(self, coords) -> np.ndarray:
         """Inline site-file coordinates (CRS units) → internal metres."""
@@ -162,7 +164,9 @@ def build_site(cfg: SiteConfig) -> Site:
     ctx.outlines = {name: _body_outline(ctx, name, raw) for name, raw in cfg["bodies"].items()}
     receptors = _receptors(ctx)
     spec = _analysis_grid(ctx, ctx.outlines, receptors)
+    t0 = time.perf_counter()
     built = {name: _build_body(ctx, name, raw, spec) for name, raw in cfg["bodies"].items()}
+    ctx.build_seconds = time.perf_counter() - t0     # for the run estimate
     grid = cfg.get("grid") or {}
     return Site(cfg, s["name"], s.get("description") or "", cfg.units,
                 site_crs[0] if site_crs else None, factor, spec,
