@@ -22,12 +22,10 @@ from typing import NamedTuple
 import numpy as np
 import xarray as xr
 
-from ._validate import points_array
+from ._validate import whole_number
 from .errors import InputError
 from .progress import silent
-from ._validate import whole_number
-from .solve._checks import checked_grid, points_per_chunk
-from .solve.auto import DEFAULT_CHUNK, choose_algorithm, point_evaluator
+from .solve.auto import prepare
 from .solve.farfield import DEFAULT_ORDER
 from .solve.slices import slice_at_depth, slice_setup
 from .solve.tiled import assemble, prepare_tiled, run_tile
@@ -107,12 +105,9 @@ def distributed_points(grid, points, method="boussinesq", poisson=None, *, clien
     """
     client = _client(client)
     retries = whole_number(retries, "retries", minimum=0)
-    grid = checked_grid(grid)
-    pts = points_array(points)
-    step = points_per_chunk(chunk_size, "chunk_size", DEFAULT_CHUNK)
-    chosen = choose_algorithm(grid, pts.shape[0], algorithm)
-    evaluate = point_evaluator(grid, method, poisson, algorithm=chosen, tol=tol, floor=floor,
-                               order=order)
+    pts, step, chosen, evaluate = prepare(grid, points, method, poisson, algorithm=algorithm,
+                                          chunk_size=chunk_size, tol=tol, floor=floor,
+                                          order=order)
     shared = client.scatter(evaluate, broadcast=True)
     futures = [client.submit(_apply, shared, pts[s:s + step], retries=retries, pure=False)
                for s in range(0, pts.shape[0], step)]

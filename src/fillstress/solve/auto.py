@@ -126,12 +126,9 @@ def stress_at_points(grid, points, method="boussinesq", poisson=None, *, algorit
     >>> bool(np.all(np.abs(a - b) <= 1e-3 * np.maximum(np.abs(a), 1.0))), a.round(2).tolist()
     (True, [17.52, 100.0])
     """
-    grid = checked_grid(grid)
-    pts = points_array(points)
-    step = points_per_chunk(chunk_size, "chunk_size", DEFAULT_CHUNK)
-    chosen = choose_algorithm(grid, pts.shape[0], algorithm)
-    evaluate = point_evaluator(grid, method, poisson, algorithm=chosen, tol=tol, floor=floor,
-                               order=order)
+    pts, step, chosen, evaluate = prepare(grid, points, method, poisson, algorithm=algorithm,
+                                          chunk_size=chunk_size, tol=tol, floor=floor,
+                                          order=order)
     out = np.empty(pts.shape[0])
     factory = progress or silent
     with factory(f"stress at points ({chosen})", pts.shape[0]) as bar:
@@ -144,3 +141,16 @@ def stress_at_points(grid, points, method="boussinesq", poisson=None, *, algorit
 
 __all__ = ["stress_at_points", "choose_algorithm", "direct_work", "point_evaluator",
            "DIRECT_WORK_LIMIT", "ALGORITHMS"]
+
+
+def prepare(grid, points, method="boussinesq", poisson=None, *, algorithm="auto",
+            chunk_size=None, tol=1e-3, floor=0.01, order=DEFAULT_ORDER):
+    """Checked points, chunk size, the chosen algorithm and its evaluator: what the serial
+    and the Dask point paths share."""
+    grid = checked_grid(grid)
+    pts = points_array(points)
+    step = points_per_chunk(chunk_size, "chunk_size", DEFAULT_CHUNK)
+    chosen = choose_algorithm(grid, pts.shape[0], algorithm)
+    evaluate = point_evaluator(grid, method, poisson, algorithm=chosen, tol=tol, floor=floor,
+                               order=order)
+    return pts, step, chosen, evaluate
