@@ -18,7 +18,7 @@ import time
 import numpy as np
 
 from fillstress import LoadGrid
-from fillstress.estimate import (FFT_FLOPS_PER_SECOND, estimate_points, estimate_slices,
+from fillstress.solve.cost import (FFT_FLOPS_PER_SECOND, estimate_points, estimate_slices,
                                  format_bytes, largest_tile)
 from fillstress.solve.auto import direct_work
 from fillstress.solve.direct import vertical_stress
@@ -90,7 +90,7 @@ def far_vs_direct(cells: int, n_points: int, subset: int) -> list[str]:
         "",
         f"Certified bound / actual error on the subset: {_span(slack)}.",
         "",
-        f"Rates for the constants in src/fillstress/estimate.py: CORNERS_PER_SECOND "
+        f"Rates for the constants in src/fillstress/solve/cost.py: CORNERS_PER_SECOND "
         f"{corners / t_sub:.2g} (direct, {corners} corner evaluations), "
         f"FAR_SECONDS_PER_POINT {t_far / n_points:.2g}.",
         "",
@@ -120,14 +120,14 @@ def tiled_under_cap(cells: int, cap_gb: float) -> list[str]:
         f"peak resident memory of the process {format_bytes(peak)} "
         f"(before the run {format_bytes(before)}, grid itself {format_bytes(grid.pressure.nbytes)}); "
         f"max Δσz {float(s.max()):.1f} kPa.  Estimate said {est_tiled.seconds:.0f} s "
-        f"(tiles of {tile[0]} × {tile[1]}), so FFT_FLOPS_PER_SECOND in estimate.py would be "
+        f"(tiles of {tile[0]} × {tile[1]}), so FFT_FLOPS_PER_SECOND in solve/cost.py would be "
         f"{FFT_FLOPS_PER_SECOND * est_tiled.seconds / elapsed:.2g} on this machine.",
         "",
     ]
 
 
 def dask_beside_serial(cells: int, n_points: int) -> list[str]:
-    from fillstress.distributed import connect, distributed_points
+    from fillstress.solve.distributed import connect, distributed_points
     from fillstress.solve.auto import stress_at_points
     grid = invented_site(cells)
     pts = points_on(grid, n_points)

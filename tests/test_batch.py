@@ -3,12 +3,12 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from fillstress.batch import apply_variant, read_variants, Variant
+from fillstress.run.batch import apply_variant, read_variants, Variant
 from fillstress.cli import main
 from fillstress.errors import InputError
 from fillstress.examples import example_site
-from fillstress.run import compute
-from fillstress.site import load_site
+from fillstress.run.compute import compute
+from fillstress.site.build import load_site
 from fillstress.units import SI
 
 VARIANTS = """

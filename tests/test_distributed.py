@@ -12,7 +12,7 @@ import xarray as xr
 from distributed import Client, LocalCluster
 
 from fillstress import InputError, LoadGrid
-from fillstress.distributed import (distributed_points, distributed_slices, envelope,
+from fillstress.solve.distributed import (distributed_points, distributed_slices, envelope,
                                     map_variants)
 from fillstress.solve.auto import stress_at_points
 from fillstress.solve.slices import stress_slices

@@ -1,7 +1,7 @@
 """Generated documentation must match what its generator writes now."""
 from pathlib import Path
 
-from fillstress.schema_doc import site_reference
+from fillstress.site.schema_doc import site_reference
 
 DOCS = Path(__file__).resolve().parents[1] / "docs"
 
@@ -13,7 +13,7 @@ def test_site_file_reference_is_current():
 
 
 def test_reference_lists_every_schema_key():
-    from fillstress import schema
+    from fillstress.site import schema
     text = site_reference()
     for table in schema.TABLES:
         for name in table.all_key_names():

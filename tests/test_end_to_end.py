@@ -9,7 +9,7 @@ import pytest
 
 from fillstress.cli import main
 from fillstress.examples import example_site, list_examples
-from fillstress.site import load_site
+from fillstress.site.build import load_site
 from fillstress.solve import vertical_stress
 
 SITES = ["stockpile_yard", "bridge_approach", "preload_surcharge"]
@@ -126,7 +126,7 @@ def test_failed_run_leaves_previous_results_intact(tmp_path, monkeypatch):
     assert main(["run", str(site), "-o", str(out), "--quiet", "--no-report"]) == 0
     before = {p.relative_to(out): p.read_bytes() for p in out.rglob("*") if p.is_file()}
 
-    from fillstress import writers
+    from fillstress.run import files as writers
 
     def boom(*args, **kwargs):
         raise RuntimeError("disk pulled out mid-run")
@@ -210,7 +210,7 @@ def test_plan_grid_spacing_takes_every_kth_cell_centre(tmp_path):
     toml.write_text(toml.read_text().replace('name = "pad"', 'name = "pad"\nspacing = 6.0'))
     coarse = load_site(toml)
     fine = load_site(example_site("preload_surcharge"))
-    from fillstress.run import compute
+    from fillstress.run.compute import compute
     a = compute(fine).slices["pad"]
     b = compute(coarse).slices["pad"]
     np.testing.assert_array_equal(b.values, a.values[:, ::3, ::3])

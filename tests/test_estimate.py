@@ -6,7 +6,7 @@ import pytest
 import scipy.fft
 
 from fillstress import CapacityError, InputError, LoadGrid
-from fillstress.estimate import (check_capacity, estimate_points, estimate_slices,
+from fillstress.solve.cost import (check_capacity, estimate_points, estimate_slices,
                                  fft_working_bytes, format_bytes, largest_tile)
 from fillstress.solve.farfield import build_pyramid, pyramid_blocks
 from fillstress.solve.slices import SlicePlan

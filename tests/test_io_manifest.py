@@ -18,7 +18,7 @@ from fillstress.io import (ResultsFolder, build_manifest, sha256_file, write_geo
                            write_manifest, write_points_geojson, write_stress_cube,
                            write_table_csv)
 from fillstress.io.netcdf import SLICE_DIMS
-from fillstress.receptors import building_points, summarise
+from fillstress.site.receptors import building_points, summarise
 from fillstress.units import SI, US
 
 
@@ -114,8 +114,8 @@ def test_manifest_lists_every_output_and_checksums_hold_after_commit(tmp_path):
 
 
 def test_report_reader_understands_the_written_folder(tmp_path):
-    """Contract check: the report's reader (fillstress.report.folder) reads our files."""
-    from fillstress.report.folder import ResultsFolder as Reader
+    """Contract check: the report's reader (fillstress.io.results) reads our files."""
+    from fillstress.io.results import ResultsFolder as Reader
 
     with ResultsFolder(tmp_path / "run") as out:
         pts, slab, grid = _invented_run(out, SI)

@@ -11,7 +11,7 @@ from shapely.geometry import LineString, box
 from fillstress import InputError
 from fillstress.io.tables import (crs_unit_label, labelled_table, plan_unit, unit_label, write_geojson,
                                   write_points_geojson, write_table_csv)
-from fillstress.receptors import borehole_points, pipe_points
+from fillstress.site.receptors import borehole_points, pipe_points
 from fillstress.units import SI, US
 
 # Exact by definition: international foot 0.3048 m and pound 0.45359237 kg (1959

@@ -14,7 +14,7 @@ from fillstress.grid import GridSpec
 from fillstress.io.netcdf import SLICE_DIMS
 from fillstress.io.vtk import (write_boreholes, write_buildings, write_fill_surface,
                                write_pipes, write_stress_grid)
-from fillstress.receptors import borehole_points, pipe_points
+from fillstress.site.receptors import borehole_points, pipe_points
 from fillstress.units import US
 
 GRID = GridSpec(50.0, 80.0, 2.0, 4.0, nx=4, ny=3)

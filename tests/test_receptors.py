@@ -13,7 +13,7 @@ from hypothesis import given, settings, strategies as st
 from shapely.geometry import LineString, Point, Polygon, box
 
 from fillstress import InputError
-from fillstress.receptors import (POINT_COLUMNS, borehole_points, building_points,
+from fillstress.site.receptors import (POINT_COLUMNS, borehole_points, building_points,
                                   depth_from_elevation, pipe_points, plan_grid,
                                   read_receptor_layer, summarise)
 

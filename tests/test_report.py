@@ -16,7 +16,7 @@ import pytest
 
 from fillstress.errors import InputError
 from fillstress.report import write_report
-from fillstress.report.folder import ResultsFolder
+from fillstress.io.results import ResultsFolder
 from fillstress.report.html import SECTIONS, _fmt, esc
 from results_fixture import NASTY_ID, write_results_folder
 

@@ -21,7 +21,7 @@ from fillstress import viewer
 from fillstress.examples import example_site
 from fillstress.report import write_report
 from fillstress.report.html import SECTIONS
-from fillstress.run import run_site_file
+from fillstress.run.compute import run_site_file
 from fillstress.units import FOOT
 
 

@@ -5,10 +5,10 @@ import shutil
 import numpy as np
 
 from fillstress.cli import main
-from fillstress.estimate_run import run_estimates, slices_need_tiles
+from fillstress.run.plan import run_estimates, slices_need_tiles
 from fillstress.examples import example_site
-from fillstress.run import compute
-from fillstress.site import load_site
+from fillstress.run.compute import compute
+from fillstress.site.build import load_site
 
 
 def _site_with_cap(tmp_path, cap_gb):

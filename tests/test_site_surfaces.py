@@ -7,7 +7,7 @@ import rasterio
 from affine import Affine
 
 from fillstress.cli import main
-from fillstress.site import load_site
+from fillstress.site.build import load_site
 
 CRS = "EPSG:32633"
 X0, Y0 = 400_000.0, 5_500_000.0

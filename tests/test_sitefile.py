@@ -2,7 +2,7 @@
 import pytest
 
 from fillstress.errors import InputError
-from fillstress.sitefile import read_site_file
+from fillstress.site.config import read_site_file
 from fillstress.units import FOOT, PCF_KN_M3
 
 BASE = """
@@ -40,7 +40,7 @@ def test_us_units_converted_exactly(tmp_path):
     assert body["height"] == pytest.approx(3.0 * FOOT)
     assert body["unit_weight"] == pytest.approx(120.0 * PCF_KN_M3)
     assert body["unit_weight"] == pytest.approx(18.850, abs=1e-3)  # 120 pcf ≈ 18.85 kN/m³
-    # plan coordinates stay in CRS units here; site.py scales them by the CRS axis factor
+    # plan coordinates stay in CRS units here; site/build.py scales them by the CRS axis factor
     assert cfg["bodies"]["pad"]["outline"][1][0] == 30.0
 
 

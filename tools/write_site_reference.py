@@ -4,7 +4,7 @@
 """
 from pathlib import Path
 
-from fillstress.schema_doc import site_reference
+from fillstress.site.schema_doc import site_reference
 
 TARGET = Path(__file__).resolve().parents[1] / "docs" / "site-file.md"
 

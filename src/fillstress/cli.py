@@ -119,7 +119,7 @@ def _run_options(c):
 
 
 def _run(args, console):
-    from .run import run_site_file
+    from .run.compute import run_site_file
     summary = run_site_file(args.site, args.out, overwrite=args.overwrite,
                             report=not args.no_report, progress=console.progress,
                             workers=args.workers, scheduler=args.scheduler)
@@ -127,7 +127,7 @@ def _run(args, console):
 
 
 def _batch(args, console):
-    from .batch import run_batch
+    from .run.batch import run_batch
     summaries, envelope = run_batch(args.site, args.variants, args.out,
                                     overwrite=args.overwrite, report=not args.no_report,
                                     progress=console.progress, workers=args.workers,
@@ -140,7 +140,7 @@ def _batch(args, console):
 
 
 def _check(args, console):
-    from .run import check_site_file
+    from .run.compute import check_site_file
     console.check(check_site_file(args.site))
 
 
@@ -154,7 +154,7 @@ def _example(args, console):
 
 
 def _point(args, console):
-    from .run import stress_at_points
+    from .run.compute import stress_at_points
     if len(args.xyz) % 3:
         raise InputError(f"needs x y depth triples, got {len(args.xyz)} numbers", argument="xyz")
     console.points(stress_at_points(args.site, args.xyz, stage=args.stage))

@@ -57,7 +57,7 @@ class CapacityError(FillstressError):
 
     Examples
     --------
-    >>> from fillstress.estimate import Estimate, check_capacity
+    >>> from fillstress.solve.cost import Estimate, check_capacity
     >>> try:
     ...     check_capacity(Estimate("slices", 3e9, 1.0, ""), 1e9, hint="use tiles")
     ... except CapacityError as exc:

@@ -1,7 +1,7 @@
 """3D scene of one results folder: fill, receptors and horizontal slices of Δσz.
 
 The scene is built only from the documented results-folder files (see
-docs/results-folder.md) through :class:`fillstress.report.folder.ResultsFolder`.
+docs/results-folder.md) through :class:`fillstress.io.results.ResultsFolder`.
 Scene axes: x east and y north relative to a local origin (the analysis grid's
 south-west corner, so large projected coordinates keep full precision in VTK's
 float32 rendering), z up; a point at depth d below the existing ground sits at
@@ -21,7 +21,7 @@ import numpy as np
 from ._validate import finite, positive
 from .errors import InputError
 from .io.atomic import write_atomic
-from .report.folder import QUANTITIES, PlanField, ResultsFolder, quantity_unit_key
+from .io.results import QUANTITIES, PlanField, ResultsFolder, quantity_unit_key
 
 #: Perceptually uniform colour maps (matplotlib's viridis family), one per quantity.
 COLOUR_MAPS = {"dsz": "viridis", "stress_ratio": "plasma", "settlement": "magma",

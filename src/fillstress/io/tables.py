@@ -239,7 +239,7 @@ def write_points_geojson(path, points: pd.DataFrame, units: UnitSystem, *, crs=N
     Examples
     --------
     >>> import tempfile, os, geopandas as gpd
-    >>> from fillstress.receptors import borehole_points
+    >>> from fillstress.site.receptors import borehole_points
     >>> from fillstress.units import SI
     >>> f = os.path.join(tempfile.mkdtemp(), "borehole_points.geojson")
     >>> _ = write_points_geojson(f, borehole_points("BH1", 500, 600, 0, 1, 1), SI,

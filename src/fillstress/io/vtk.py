@@ -223,7 +223,7 @@ def polylines_mesh(points: pd.DataFrame, order_by: str, units: UnitSystem = SI):
 
     Examples
     --------
-    >>> from fillstress.receptors import borehole_points
+    >>> from fillstress.site.receptors import borehole_points
     >>> m = polylines_mesh(borehole_points("BH1", 3, 4, 0, 6, 2), "depth")
     >>> m.n_lines, m.points[:, 2].tolist()
     (1, [-0.0, -2.0, -4.0, -6.0])
@@ -257,11 +257,11 @@ def polylines_mesh(points: pd.DataFrame, order_by: str, units: UnitSystem = SI):
 
 
 def write_pipes(path, pipe_points: pd.DataFrame, units: UnitSystem = SI) -> os.PathLike:
-    """Pipes as polylines along their crown, from :func:`fillstress.receptors.pipe_points`."""
+    """Pipes as polylines along their crown, from :func:`fillstress.site.receptors.pipe_points`."""
     return _save(path, polylines_mesh(pipe_points, "chainage", units))
 
 
 def write_boreholes(path, borehole_points: pd.DataFrame,
                     units: UnitSystem = SI) -> os.PathLike:
-    """Boreholes as vertical polylines, from :func:`fillstress.receptors.borehole_points`."""
+    """Boreholes as vertical polylines, from :func:`fillstress.site.receptors.borehole_points`."""
     return _save(path, polylines_mesh(borehole_points, "depth", units))

@@ -8,7 +8,7 @@ import io
 
 import numpy as np
 
-from .folder import Feature, PlanField
+from ..io.results import Feature, PlanField
 
 PLAN_CMAP = "viridis"   # perceptually uniform
 DPI = 110

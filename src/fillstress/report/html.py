@@ -14,7 +14,7 @@ from pathlib import Path
 
 from ..io.atomic import write_atomic
 from . import figures
-from .folder import ResultsFolder, UnitLabels
+from ..io.results import ResultsFolder, UnitLabels
 from .labels import heading, unit_text
 from .tables import (_fmt, esc, frame_table, html_table, is_flag_column, is_flag_set,
                      is_missing, json_block, key_value_table, plain, receptor_flagged,

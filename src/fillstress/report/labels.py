@@ -7,7 +7,7 @@ in brackets (``max Δσz (psf)``, ``volume (ft³)``), so every header states its
 from __future__ import annotations
 
 from ..io.tables import unit_label
-from .folder import UnitLabels
+from ..io.results import UnitLabels
 
 #: Quantities whose labels can end a column name (the writer's labels, io.tables).
 _SUFFIXED_QUANTITIES = ("length", "area", "volume", "pressure", "unit_weight", "settlement",

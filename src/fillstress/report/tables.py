@@ -10,7 +10,7 @@ import math
 
 import numpy as np
 
-from .folder import UnitLabels
+from ..io.results import UnitLabels
 from .labels import heading, split_unit
 
 #: Receptors per table in the receptor summaries (one column each), so tables fit a page.

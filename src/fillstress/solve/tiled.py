@@ -15,7 +15,7 @@ import numpy as np
 import xarray as xr
 
 from ..errors import InputError
-from ..estimate import check_capacity, estimate_slices, largest_tile
+from .cost import check_capacity, estimate_slices, largest_tile
 from ..kernels import KernelSpec
 from ..progress import silent
 from .._validate import whole_pair
@@ -113,7 +113,7 @@ def prepare_tiled(grid, depths, method="boussinesq", poisson=None, *, offset=(0.
     Returns ``(jobs, frame)``: the :class:`TileJob` list and the frame of
     :func:`~fillstress.solve.slices.slice_setup` for :func:`assemble`.  Nothing of the
     output size is allocated.
-    Used by :func:`tiled_slices` and :func:`fillstress.distributed.distributed_slices`.
+    Used by :func:`tiled_slices` and :func:`fillstress.solve.distributed.distributed_slices`.
 
     Examples
     --------

@@ -22,13 +22,13 @@ from typing import NamedTuple
 import numpy as np
 import xarray as xr
 
-from ._validate import whole_number
-from .errors import InputError
-from .progress import silent
-from .solve.auto import prepare
-from .solve.farfield import DEFAULT_ORDER
-from .solve.slices import slice_at_depth, slice_setup
-from .solve.tiled import assemble, prepare_tiled, run_tile
+from .._validate import whole_number
+from ..errors import InputError
+from ..progress import silent
+from .auto import prepare
+from .farfield import DEFAULT_ORDER
+from .slices import slice_at_depth, slice_setup
+from .tiled import assemble, prepare_tiled, run_tile
 
 DEFAULT_RETRIES = 2
 

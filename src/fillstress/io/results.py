@@ -16,7 +16,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import InputError
-from ..io.tables import plan_unit
+from .tables import plan_unit
 from ..units import SYSTEMS, UnitSystem
 
 #: Quantities that can be shown on plan slices and at sample points; value = unit key.

@@ -1,13 +1,13 @@
 """What a run of a site will compute and what it will cost, before computing anything.
 
-The figures come from fillstress.estimate (sizes of the arrays the solvers allocate and
+The figures come from fillstress.solve.cost (sizes of the arrays the solvers allocate and
 throughputs measured on a 2-core machine); this module only counts the site's work.
 """
 from __future__ import annotations
 
 import math
 
-from .estimate import Estimate, check_capacity, estimate_points, estimate_slices, format_bytes
+from ..solve.cost import Estimate, check_capacity, estimate_points, estimate_slices, format_bytes
 
 DEFAULT_CAP_FRACTION = 0.6
 
@@ -25,7 +25,7 @@ def settlement_points(site) -> int:
     """Sample points of the settlement columns (every sublayer, every stage)."""
     if site.soil is None:
         return 0
-    from .settlement import sublayers
+    from ..settlement import sublayers
     settle = site.points[site.points["role"] != "profile"]
     total = sum(len(g) * len(sublayers(site.soil, top_depth=float(d))[0])
                 for d, g in settle.groupby("depth"))
@@ -46,7 +46,7 @@ def _pad_cells(site, plan) -> tuple[int, int]:
 def run_estimates(site) -> list[Estimate]:
     """One estimate per kind of work: receptor points, settlement columns, the
     convergence check (a grid of half the cell size) and each plan grid's slices."""
-    from .solve.auto import choose_algorithm, direct_work
+    from ..solve.auto import choose_algorithm, direct_work
     shape, grid = site.spec.shape, site.load_grid()
     active = direct_work(grid, 1)          # nodes with a non-zero weight
     out = []
@@ -73,7 +73,7 @@ def run_estimates(site) -> list[Estimate]:
 
 def check_fits(site) -> list[Estimate]:
     """Raise CapacityError, with the numbers, when point work cannot fit the memory cap.
-    Plan slices that do not fit are tiled instead (see run.py)."""
+    Plan slices that do not fit are tiled instead (see run/compute.py)."""
     cap = memory_cap(site)
     estimates = run_estimates(site)
     for e in estimates:

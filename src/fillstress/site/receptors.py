@@ -20,9 +20,9 @@ import pandas as pd
 import shapely
 from shapely.geometry import LineString, Polygon
 
-from . import crs as crsmod
-from ._validate import depths_array, finite, finite_array, positive
-from .errors import InputError
+from .. import crs as crsmod
+from .._validate import depths_array, finite, finite_array, positive
+from ..errors import InputError
 
 POINT_COLUMNS = ["receptor_kind", "receptor_id", "point_id", "role", "x", "y", "depth", "chainage"]
 KINDS = ("building", "pipe", "borehole")

@@ -1,7 +1,7 @@
 """The site model: a validated site file turned into fill bodies on one analysis grid,
 a soil profile and receptor sample points, all in internal metres.
 
-Data flow: sitefile.read_site_file → build_site → Site (used by run.py).
+Data flow: site.config.read_site_file → build_site → Site (used by run.compute).
 """
 from __future__ import annotations
 
@@ -15,12 +15,12 @@ import pandas as pd
 import shapely
 from shapely.geometry import LineString, Point, Polygon
 
-from . import crs as crsmod
+from .. import crs as crsmod
 from . import receptors as rc
-from .errors import InputError
-from .grid import GridSpec, LoadGrid
-from .sitefile import SiteConfig, read_site_file
-from .units import UnitSystem
+from ..errors import InputError
+from ..grid import GridSpec, LoadGrid
+from .config import SiteConfig, read_site_file
+from ..units import UnitSystem
 
 # Receptor kinds: the site-file table and the point-table kind.
 RECEPTOR_TABLES = {"buildings": "building", "pipes": "pipe", "boreholes": "borehole"}
@@ -59,7 +59,7 @@ class Site:
 
     def load_grid(self, stage: int | None = None, spec: GridSpec | None = None) -> LoadGrid:
         """Surface pressure (kPa) of all bodies up to `stage` (default: the last)."""
-        from .shapes.bodies import stage_pressure
+        from ..shapes.bodies import stage_pressure
         stage = self.stages[-1] if stage is None else stage
         if stage not in self.stages:
             raise InputError(f"no construction stage {stage}; stages are {self.stages}",
@@ -134,7 +134,7 @@ class _Context:
         """A surface file, read once."""
         key = (Path(path), surface_name)
         if key not in self.surfaces:
-            from .shapes.surfaces import read_surface
+            from ..shapes.surfaces import read_surface
             self.surfaces[key] = read_surface(path, site_crs=self.site_crs,
                                               z_to_m=self.cfg.units.length_to_m,
                                               surface_name=surface_name)
@@ -288,7 +288,7 @@ def _body_outline(ctx: _Context, name: str, raw: dict):
 
 def _footprint_frame(ctx: _Context, raw: dict):
     """Footprints with their heights (attribute or vertex z) from a vector file."""
-    from .shapes.footprints import read_footprints
+    from ..shapes.footprints import read_footprints
     with _located(ctx.cfg, "file"):
         frame = read_footprints(raw["file"], raw.get("height_field"),
                                 target_crs=ctx.site_crs or None,
@@ -305,7 +305,7 @@ def _embankment_reach(raw: dict) -> float:
 
 def _build_body(ctx: _Context, name: str, raw: dict, spec: GridSpec):
     """(Body on `spec`, its surfaces.CutReport or None)."""
-    from .shapes import bodies as bd
+    from ..shapes import bodies as bd
     where = f"bodies.{name}"
     with _located(ctx.cfg, where):
         thickness, cut = _BUILDERS[raw["kind"]](ctx, name, raw, spec)
@@ -334,13 +334,13 @@ def _exact_size(ctx, name, raw) -> tuple[float | None, float | None]:
 
 
 def _pile(ctx, name, raw, spec):
-    from .shapes.stockpile import pile_thickness
+    from ..shapes.stockpile import pile_thickness
     return pile_thickness(ctx.outlines[name], raw["repose_angle"], spec,
                           crest_height=raw.get("crest_height")), None
 
 
 def _footprint(ctx, name, raw, spec):
-    from .shapes import footprints as fp
+    from ..shapes import footprints as fp
     if name in ctx.footprints:
         frame = ctx.footprints[name]
         total = spec.zeros()
@@ -358,7 +358,7 @@ def _footprint(ctx, name, raw, spec):
 
 
 def _embankment(ctx, name, raw, spec):
-    from .shapes.embankment import embankment_thickness
+    from ..shapes.embankment import embankment_thickness
     line = ctx.lines[name]
     chain, heights = np.array(raw["heights"]).T
     end = raw.get("end_slope") or raw["side_slope"]
@@ -370,7 +370,7 @@ def _embankment(ctx, name, raw, spec):
 
 
 def _surfaces(ctx, name, raw, spec):
-    from .shapes.surfaces import fill_from_surfaces
+    from ..shapes.surfaces import fill_from_surfaces
     design = ctx.surface(raw["design"])
     if raw.get("existing") is not None:
         existing = ctx.surface(raw["existing"])
@@ -401,7 +401,7 @@ def _analysis_grid(ctx: _Context, outlines: dict, receptors: dict) -> GridSpec:
             bounds = np.r_[np.minimum(bounds[:2], b[:2]), np.maximum(bounds[2:], b[2:])]
     cell = grid.get("cell")
     if cell is None:
-        from .shapes.bodies import default_cell_size
+        from ..shapes.bodies import default_cell_size
         smallest = min(min(_feature_size(g) for g in outlines.values()), 1e9)
         shallowest = _shallowest_depth(ctx, receptors)
         cell = default_cell_size(smallest, shallowest)
@@ -434,7 +434,7 @@ def _soil(cfg: SiteConfig):
     s = cfg.get("soil")
     if not s:
         return None
-    from .soil import SoilLayer, SoilProfile
+    from ..soil import SoilLayer, SoilProfile
     layers = []
     for i, L in enumerate(s["layers"]):
         with _located(cfg, f"soil.layers[{i}]"):

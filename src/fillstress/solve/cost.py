@@ -12,9 +12,9 @@ from dataclasses import dataclass
 
 import scipy.fft
 
-from ._validate import positive
-from .errors import CapacityError, InputError
-from ._validate import whole_number, whole_pair
+from .._validate import positive
+from ..errors import CapacityError, InputError
+from .._validate import whole_number, whole_pair
 
 # Throughputs on the development machine (2 cores, both threads), common practice to
 # keep such constants beside the code that uses them.  benchmarks/bench_scale.py prints
@@ -172,7 +172,7 @@ def estimate_points(shape, n_points: int, *, algorithm: str = "direct", order: i
         return Estimate("points-direct", memory, seconds,
                         f"{cells} cells, {n_points} points, direct summation")
     if algorithm == "far":
-        from .solve.farfield import pyramid_blocks
+        from .farfield import pyramid_blocks
         n_mom = (order + 1) * (order + 2) // 2
         n_terms = sum(n - 2 * m + 1 for n in range(order + 1) for m in range(n // 2 + 1))
         blocks = pyramid_blocks(nx, ny)

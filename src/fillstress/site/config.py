@@ -1,7 +1,7 @@
 """Read and validate a site file (TOML) against the schema; convert every number to SI.
 
 The result is a plain nested dict of validated values (`SiteConfig`), with paths
-resolved relative to the site file. Building the model from it is `site.py`'s job.
+resolved relative to the site file. Building the model from it is `site/build.py`'s job.
 """
 from __future__ import annotations
 
@@ -12,8 +12,8 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from . import schema
-from .errors import InputError
-from .units import UnitSystem, unit_system
+from ..errors import InputError
+from ..units import UnitSystem, unit_system
 
 _ANGLE_OK = {schema.ANGLE, schema.NONE}
 
@@ -233,7 +233,7 @@ class _Validator:
         if pairs:
             # [chainage, height]: both lengths
             return [[self.units.length_si(a), self.units.length_si(b)] for a, b in out]
-        # x, y stay in CRS units (site.py scales them by the CRS axis factor); z is a length
+        # x, y stay in CRS units (site/build.py scales them by the CRS axis factor); z is a length
         return [[float(p[0]), float(p[1])] + [self.units.length_si(c) for c in p[2:]]
                 for p in out]
 

@@ -13,10 +13,10 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from . import __version__
-from .errors import InputError
-from .progress import silent
-from .site import Site, load_site
+from .. import __version__
+from ..errors import InputError
+from ..progress import silent
+from ..site.build import Site, load_site
 
 ASSUMPTIONS = (
     "Vertical stress increase from linear elasticity: a homogeneous, isotropic, linear-elastic "
@@ -51,11 +51,11 @@ def stress(site: Site, grid, xyz: np.ndarray, client=None) -> np.ndarray:
     """Δσz (kPa) at (N, 3) points for a load grid, with the site's method: direct
     summation, or the far-field method for very large problems (solve.auto), on Dask
     workers when a client is given."""
-    from .solve.auto import stress_at_points as serial
+    from ..solve.auto import stress_at_points as serial
     if len(xyz) == 0:
         return np.zeros(0)
     if client is not None:
-        from .distributed import distributed_points
+        from ..solve.distributed import distributed_points
         return distributed_points(grid, xyz, site.method, site.poisson, client=client)
     return serial(grid, xyz, site.method, site.poisson)
 
@@ -66,7 +66,7 @@ def compute(site: Site, progress=silent, client=None) -> RunResults:
     Parameters
     ----------
     site : Site
-        From :func:`fillstress.site.load_site`.
+        From :func:`fillstress.site.build.load_site`.
     progress : progress factory, optional
         See :mod:`fillstress.progress`; silent by default.
     client : distributed.Client, optional
@@ -118,16 +118,16 @@ def _conv_steps(site: Site) -> int:
 
 def _plan_slices(site: Site, grid, plan, client=None):
     """FFT slices on the cell centres of the analysis grid, cut to the plan extent."""
-    from .solve import stress_slices
-    from .estimate_run import memory_cap, plan_pad, slices_need_tiles
+    from ..solve import stress_slices
+    from .plan import memory_cap, plan_pad, slices_need_tiles
     pad = plan_pad(site, plan)
     cap = memory_cap(site) if slices_need_tiles(site, plan) else None
     if client is not None:
-        from .distributed import distributed_slices
+        from ..solve.distributed import distributed_slices
         da = distributed_slices(grid, plan.depths, site.method, site.poisson, client=client,
                                 pad=pad, memory_cap=cap)
     elif cap is not None:
-        from .solve.tiled import tiled_slices
+        from ..solve.tiled import tiled_slices
         da = tiled_slices(grid, plan.depths, site.method, site.poisson, pad=pad,
                           memory_cap=cap)
     else:
@@ -167,7 +167,7 @@ def _soil_results(res: RunResults) -> None:
     with np.errstate(divide="ignore", invalid="ignore"):
         p["stress_ratio"] = np.where(p["sigma_v0"] > 0, p["dsz"] / p["sigma_v0"], np.nan)
     fraction = res.site.config["soil"]["influence_fraction"]
-    from .settlement import influence_depth
+    from ..settlement import influence_depth
     for rid, g in p[p["role"].isin(["profile", "borehole"])].groupby("receptor_id", sort=False):
         g = g[g["sigma_v0"].notna()].sort_values("depth")
         if len(g) < 2:
@@ -195,7 +195,7 @@ def _settlement_points(points: pd.DataFrame) -> pd.DataFrame:
 
 
 def _settlement_results(res: RunResults, client=None) -> None:
-    from . import settlement as st
+    from .. import settlement as st
     site, soil = res.site, res.site.soil
     targets = _settlement_points(res.points)
     stage_grids = [site.load_grid(k) for k in site.stages]
@@ -238,7 +238,7 @@ def _settlement_results(res: RunResults, client=None) -> None:
 
 
 def _structure_checks(res: RunResults, targets: pd.DataFrame) -> None:
-    from .structures import building_settlement, pipe_settlement
+    from ..structures import building_settlement, pipe_settlement
     s_cfg = res.site.config.get("settlement") or {}
     limits = {k: s_cfg[k] for k in ("limit_no_cracking", "limit_first_cracking",
                                     "limit_structural_damage") if s_cfg.get(k) is not None}
@@ -261,7 +261,7 @@ def _structure_checks(res: RunResults, targets: pd.DataFrame) -> None:
 
 def _limit_names(limits: dict) -> dict:
     """Site-file limit keys → the Bjerrum (1963) limit names of structures.py."""
-    from .structures import BJERRUM_1963_LIMITS
+    from ..structures import BJERRUM_1963_LIMITS
     keys = {"limit_no_cracking": "no_cracking", "limit_first_cracking": "panel_wall_cracking",
             "limit_structural_damage": "structural_damage"}
     return {**BJERRUM_1963_LIMITS, **{keys[k]: v for k, v in limits.items()}}
@@ -269,7 +269,7 @@ def _limit_names(limits: dict) -> dict:
 
 def _time_curves(res: RunResults, targets, by_layer_stage) -> None:
     """Settlement–time curves at each borehole and building centroid (stages in days)."""
-    from . import settlement as st
+    from .. import settlement as st
     site = res.site
     if not any(L.compressible and L.cv_m2_per_yr for L in site.soil.layers):
         res.warnings.append("no compressible layer has cv: no settlement–time curves")
@@ -326,8 +326,8 @@ def run_site_file(path, out=None, *, overwrite=False, report=True, progress=sile
     >>> (out / "manifest.json").is_file(), (out / "boreholes_points.csv").is_file()
     (True, True)
     """
-    from .io.atomic import ResultsFolder
-    from .estimate_run import check_fits
+    from ..io.atomic import ResultsFolder
+    from .plan import check_fits
     site = load_site(path)
     out = Path(out) if out else Path(f"results-{Path(path).stem}")
     folder = ResultsFolder(out, overwrite=overwrite)      # refuses an existing folder now
@@ -335,7 +335,7 @@ def run_site_file(path, out=None, *, overwrite=False, report=True, progress=sile
     if workers and scheduler:
         raise InputError("give --workers or --scheduler, not both", argument="--workers")
     if workers or scheduler:
-        from .distributed import connect
+        from ..solve.distributed import connect
         with connect(scheduler or workers) as client:
             res = compute(site, progress, client)
     else:
@@ -348,7 +348,7 @@ def run_site_file(path, out=None, *, overwrite=False, report=True, progress=sile
 
 
 def write_results(res: RunResults, folder, *, report=True, progress=silent) -> None:
-    from . import writers
+    from . import files as writers
     writers.write_all(res, folder, report=report, progress=progress,
                       assumptions=ASSUMPTIONS, cautions=CAUTIONS, version=__version__)
 
@@ -360,7 +360,7 @@ class RunSummary:
     folder: Path
 
     def tables(self):
-        from .writers import summary_tables
+        from .files import summary_tables
         return summary_tables(self.results)
 
     def closing_lines(self):
@@ -384,7 +384,7 @@ class CheckReport:
     site: Site
 
     def tables(self):
-        from .writers import body_rows, check_rows
+        from .files import body_rows, check_rows
         return [body_rows(self.site), check_rows(self.site)]
 
     def closing_lines(self):

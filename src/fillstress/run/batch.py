@@ -21,9 +21,9 @@ from pathlib import Path
 
 import pandas as pd
 
-from .errors import InputError
-from .progress import silent
-from .site import scaled_body
+from ..errors import InputError
+from ..progress import silent
+from ..site.build import scaled_body
 
 VARIANT_KEYS = ("name", "unit_weight_factor", "height_factor", "water_table", "method",
                 "poisson")
@@ -43,7 +43,7 @@ class Variant:
 
 def read_variants(path, units) -> list[Variant]:
     """Read and validate a variants file; lengths are converted with the site's units."""
-    from .sitefile import read_toml
+    from ..site.config import read_toml
     path = Path(path)
     raw = read_toml(path, "variants file")
     items = raw.get("variants")
@@ -107,7 +107,7 @@ def apply_variant(site, v: Variant):
         if site.soil is None:
             raise InputError("water_table needs a [soil] table in the site file",
                              argument=f"variant {v.name}")
-        from .soil import SoilProfile
+        from ..soil import SoilProfile
         out.soil = SoilProfile(site.soil.layers, v.water_table, site.soil.rigid_base_m,
                                site.soil.gamma_w)
     return out
@@ -143,7 +143,7 @@ def run_batch(site_path, variants_path, out, *, overwrite=False, report=False,
     report : bool
         Write each variant's report and scene too (off by default: batches are big).
     progress, workers, scheduler
-        As for :func:`fillstress.run.run_site_file`; with Dask, whole variants run on
+        As for :func:`fillstress.run.compute.run_site_file`; with Dask, whole variants run on
         the workers.
 
     Returns
@@ -165,13 +165,13 @@ def run_batch(site_path, variants_path, out, *, overwrite=False, report=False,
     >>> set(env["variant_of_max_dsz"])
     {'b'}
     """
-    from .io.atomic import ResultsFolder
-    from .io.tables import write_table_csv
-    from .run import RunSummary, compute
-    from .site import load_site
-    from .writers import _quantities, write_all
-    from .run import ASSUMPTIONS, CAUTIONS
-    from . import __version__
+    from ..io.atomic import ResultsFolder
+    from ..io.tables import write_table_csv
+    from .compute import RunSummary, compute
+    from ..site.build import load_site
+    from .files import _quantities, write_all
+    from .compute import ASSUMPTIONS, CAUTIONS
+    from .. import __version__
 
     site = load_site(site_path)
     variants = read_variants(variants_path, site.units)
@@ -180,7 +180,7 @@ def run_batch(site_path, variants_path, out, *, overwrite=False, report=False,
     sites = [apply_variant(site, v) for v in variants]
 
     if workers or scheduler:
-        from .distributed import connect, map_variants
+        from ..solve.distributed import connect, map_variants
         with connect(scheduler or workers) as client:     # whole variants on the workers
             results = map_variants(compute, sites, client, progress=progress)
     else:
@@ -193,7 +193,7 @@ def run_batch(site_path, variants_path, out, *, overwrite=False, report=False,
         env = envelope_points({v.name: r.points for v, r in zip(variants, results)})
         write_table_csv(folder.path("envelope_points.csv"), env, site.units,
                         {**_quantities(env), "variant_of_max_dsz": None}, crs=site.crs)
-        from .io.manifest import write_manifest
+        from ..io.manifest import write_manifest
         write_manifest(folder, settings={"variants": [vars(v) for v in variants]},
                        units=site.units, inputs=site.config.input_files() + [Path(variants_path)],
                        site_file=site.path, crs=site.crs, grid=site.spec,

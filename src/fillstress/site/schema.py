@@ -1,6 +1,6 @@
 """The site-file schema: every table and key, its type, unit, default and meaning.
 
-One declaration serves three readers: the validator (`site.py`), the generated
+One declaration serves three readers: the validator (`site/build.py`), the generated
 site-file reference (`docs/site-file.md`, written by `tools/write_site_reference.py`) and
 the error messages that suggest the nearest valid key.
 """
@@ -8,7 +8,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
-# Unit kinds a key can carry; site.py converts each to SI with the site's unit system.
+# Unit kinds a key can carry; site/build.py converts each to SI with the site's unit system.
 # COORD: plan coordinates in the units of the site CRS (metres, international or US survey
 # feet), converted with the CRS's own axis factor, not with the unit system's length.
 LENGTH, PRESSURE, UNIT_WEIGHT, ANGLE, INV_PRESSURE, CV, COORD, NONE = (

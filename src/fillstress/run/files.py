@@ -13,10 +13,10 @@ import geopandas as gpd
 import numpy as np
 import pandas as pd
 
-from .grid import GridSpec
-from .io import geotiff, manifest, netcdf, tables, vtk
-from .io.atomic import write_atomic
-from .progress import silent
+from ..grid import GridSpec
+from ..io import geotiff, manifest, netcdf, tables, vtk
+from ..io.atomic import write_atomic
+from ..progress import silent
 
 KIND_FILES = {"building": "buildings", "pipe": "pipes", "borehole": "boreholes"}
 
@@ -101,7 +101,7 @@ EXTRA_QUANTITIES = {"chainage_at_max": "length", "differential_length": "length"
 def stress_summary(points: pd.DataFrame) -> pd.DataFrame:
     """Per receptor: the largest Δσz and the point, x, y, depth where it occurs (SI), and
     the largest settlement and stress ratio where they were computed."""
-    from .receptors import summarise
+    from ..site.receptors import summarise
     out = summarise(points, "dsz").drop(columns="receptor_kind").rename(
         columns={"point_id": "point_at_max", "depth": "depth_at_max"})
     by = points.groupby("receptor_id", sort=False)
@@ -336,8 +336,8 @@ def _soil_rows(site) -> list[dict]:
 
 
 def _write_report_and_scene(folder, bar) -> None:
-    from .report import write_report
-    from .viewer import export_scene_html
+    from ..report import write_report
+    from ..viewer import export_scene_html
     write_report(folder.root, folder.path("report.html"))
     bar.advance()
     export_scene_html(folder.root, folder.path("scene.html"))
@@ -371,7 +371,7 @@ def body_rows(site):
 
 
 def check_rows(site):
-    from .estimate_run import describe_run
+    from .plan import describe_run
     return ("What a run computes", ["item", "value"], describe_run(site))
 
 
