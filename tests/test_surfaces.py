@@ -252,3 +252,56 @@ def test_landxml_bad_z_to_m_is_refused_even_when_the_file_declares_units(tmp_pat
                                    system="Metric", unit="meter"))
     with pytest.raises(InputError, match="argument z_to_m: must be"):
         read_landxml_surface(path, SITE, z_to_m=z_to_m)
+
+
+def _strip_survey(cx, cy):
+    """A surveyed strip 300 ft wide along a 40° arc of radius 5,000 ft about (cx, cy): cross
+    sections every 50 ft of arc, points every 25 ft across, jittered as a field crew's
+    would be; z a plane so the TIN reproduces it exactly."""
+    rng = np.random.default_rng(20)
+    theta = np.arange(0, np.radians(40), 50 / 5000)
+    radius = 5000 + np.arange(-150, 151, 25.0)
+    t, r = np.meshgrid(theta, radius)
+    r = r + rng.uniform(-3, 3, r.shape)
+    x, y = cx + r * np.cos(t), cy + r * np.sin(t)
+    return np.c_[x.ravel(), y.ravel(), 500 + 0.01 * (x - cx).ravel() - 0.004 * (y - cy).ravel()]
+
+
+@pytest.mark.parametrize("centre", [(3_000_000.0, 10_000_000.0), (20_000.0, 30_000.0)])
+def test_strip_survey_at_state_plane_coordinates(tmp_path, centre):
+    """A curved strip survey in EPSG:2277 (Texas Central, US survey feet) at state-plane
+    magnitudes triangulates like the same points shifted near the origin: the plane is
+    reproduced over the strip, and the land inside the curve (never surveyed) is NaN."""
+    points = _strip_survey(*centre)
+    path = tmp_path / "strip.csv"
+    np.savetxt(path, points, delimiter=",", header="x,y,z", comments="", fmt="%.4f")
+    surface = read_survey_points(path, "EPSG:2277", z_to_m=0.3048)
+    foot = 1200 / 3937
+    t = np.radians(np.linspace(2, 38, 50))
+    for r, covered in ((5000.0, True), (5120.0, True), (4700.0, False), (4000.0, False)):
+        x, y = centre[0] + r * np.cos(t), centre[1] + r * np.sin(t)
+        z = surface.sample(x * foot, y * foot) / 0.3048
+        if covered:
+            plane = 500 + 0.01 * (x - centre[0]) - 0.004 * (y - centre[1])
+            np.testing.assert_allclose(z, plane, atol=1e-6)
+        else:
+            assert np.isnan(z).all(), f"r = {r} ft is outside the strip"
+
+
+@pytest.mark.parametrize("centre, foot", [((0.0, 0.0), 0.3048),
+                                          ((20_000.0, 30_000.0), 1200 / 3937),
+                                          ((3_000_000.0, 10_000_000.0), 1200 / 3937)])
+def test_regular_cross_sections_on_a_curve_triangulate(centre, foot):
+    """Cross sections of 13 points on exact radii of a 5,000 ft curve: the convex hull's
+    thin triangles along the inside of the curve once made the TIN invalid for some
+    offsets and foot definitions; the surveyed area alone is now triangulated."""
+    t, w = np.meshgrid(np.linspace(0, 0.9, 600), np.linspace(-150, 150, 13))
+    x, y = centre[0] + (5000 + w) * np.cos(t), centre[1] + (5000 + w) * np.sin(t)
+    surface = TinSurface(np.c_[x.ravel() * foot, y.ravel() * foot, np.full(x.size, 150.0)])
+    mid = np.linspace(0.01, 0.89, 40)
+    inside = surface.sample((centre[0] + 5000 * np.cos(mid)) * foot,
+                            (centre[1] + 5000 * np.sin(mid)) * foot)
+    np.testing.assert_allclose(inside, 150.0, rtol=1e-12)
+    chord = surface.sample((centre[0] + 4700 * np.cos(mid)) * foot,
+                           (centre[1] + 4700 * np.sin(mid)) * foot)
+    assert np.isnan(chord).all()   # inside the curve, between the chord and the strip

@@ -69,7 +69,7 @@ def adjacent_pairs(xy) -> np.ndarray:
         order = np.argsort(centred @ axis, kind="stable")
         edges = np.column_stack([order[:-1], order[1:]])
     else:
-        tri = Delaunay(pts).simplices
+        tri = Delaunay(pts - pts.min(axis=0)).simplices   # local origin: state-plane digits
         edges = np.concatenate([tri[:, [0, 1]], tri[:, [1, 2]], tri[:, [0, 2]]])
     edges = np.sort(edges, axis=1)
     return np.unique(edges, axis=0)

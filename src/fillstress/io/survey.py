@@ -2,8 +2,9 @@
 
 Accepted text: CSV (comma, semicolon or tab) or whitespace-separated columns, with a
 header naming the columns or, without a header, exactly three columns x y z. Lines
-starting with ``#`` are comments. The points are triangulated by Delaunay (scipy/Qhull);
-the surface is NaN outside their convex hull.
+starting with ``#`` are comments. The points are triangulated over the surveyed area
+(:func:`fillstress.shapes.surfaces.survey_triangles`: Delaunay, less the outer triangles
+whose longest edge exceeds 5 times the median edge); the surface is NaN outside it.
 """
 from __future__ import annotations
 
@@ -98,7 +99,7 @@ def _drop_repeats(points: np.ndarray, path) -> np.ndarray:
 
 
 def read_survey_points(path, site_crs=None, *, crs=None, z_to_m: float = 1.0) -> TinSurface:
-    """Read survey points and return their Delaunay TIN in internal site metres.
+    """Read survey points and return their TIN in internal site metres.
 
     Parameters
     ----------

@@ -38,8 +38,8 @@ class TinSurface:
     points : array_like, shape (N, 3)
         x, y (internal metres) and z (m) of the vertices.
     triangles : array_like of int, shape (T, 3), optional
-        Vertex indices of each triangle; a Delaunay triangulation of the points
-        (scipy, Qhull) when omitted, so the surface then covers their convex hull.
+        Vertex indices of each triangle; when omitted, the surveyed area of the points
+        (:func:`survey_triangles`: Delaunay, less the outer triangles that bridge gaps).
     crs : pyproj.CRS, optional
         Site CRS of the coordinates.
     source : str, optional
@@ -62,7 +62,13 @@ class TinSurface:
             raise InputError(f"needs at least 3 points (x, y, z), got shape {pts.shape}", **where)
         if not np.all(np.isfinite(pts)):
             raise InputError("has NaN or infinite coordinates", **where)
-        tri = _delaunay(pts, where) if triangles is None else np.asarray(triangles, dtype=int)
+        # Triangulate and locate in coordinates relative to a local origin: at state-plane
+        # magnitudes (1e6-1e7) the absolute values leave too few digits for the
+        # orientation tests of the triangulation and the point location.
+        self.origin = (float(pts[:, 0].min()), float(pts[:, 1].min()))
+        local = pts - [self.origin[0], self.origin[1], 0.0]
+        tri = survey_triangles(local, where) if triangles is None \
+            else np.asarray(triangles, dtype=int)
         if tri.ndim != 2 or tri.shape[1] != 3 or len(tri) == 0:
             raise InputError(f"needs at least one triangle, got shape {tri.shape}", **where)
         if tri.min() < 0 or tri.max() >= len(pts):
@@ -70,8 +76,8 @@ class TinSurface:
         if np.any((tri[:, 0] == tri[:, 1]) | (tri[:, 1] == tri[:, 2]) | (tri[:, 0] == tri[:, 2])):
             raise InputError("a triangle uses the same point twice", **where)
         try:
-            self._tri = Triangulation(pts[:, 0], pts[:, 1], tri)
-            self._interp = LinearTriInterpolator(self._tri, pts[:, 2])
+            self._tri = Triangulation(local[:, 0], local[:, 1], tri)
+            self._interp = LinearTriInterpolator(self._tri, local[:, 2])
             self._tri.get_trifinder()
         except (ValueError, RuntimeError) as exc:
             raise InputError(f"is not a valid triangulation ({exc})", **where) from None
@@ -82,26 +88,71 @@ class TinSurface:
 
     @classmethod
     def from_points(cls, points, crs=None, source=None) -> "TinSurface":
-        """A Delaunay TIN of scattered survey points (NaN outside their convex hull)."""
+        """A TIN of scattered survey points over their surveyed area (`survey_triangles`)."""
         return cls(points, None, crs, source)
 
     def sample(self, x, y) -> np.ndarray:
         """Elevation (m) at (x, y), NaN off the surface."""
         x = np.asarray(x, dtype=float)
-        z = self._interp(x.ravel(), np.asarray(y, dtype=float).ravel())
+        z = self._interp(x.ravel() - self.origin[0],
+                         np.asarray(y, dtype=float).ravel() - self.origin[1])
         return np.ma.filled(z.astype(float), np.nan).reshape(x.shape)
 
 
-def _delaunay(pts, where) -> np.ndarray:
+#: A boundary triangle whose longest edge exceeds this multiple of the median edge of the
+#: Delaunay triangulation bridges a gap outside the survey and is dropped (common practice
+#: for concave outlines; the multiple is this project's choice).
+GAP_EDGE_FACTOR = 5.0
+
+
+def survey_triangles(pts, where=None) -> np.ndarray:
+    """Triangles over the surveyed area of scattered points (coordinates near the origin).
+
+    The Delaunay triangulation (scipy, Qhull) covers the convex hull; along a curved
+    strip that includes the land inside the curve, which nobody surveyed. Rule: triangles
+    of no area are dropped, then, repeatedly from the outside in, every triangle on the
+    boundary whose longest edge is more than ``GAP_EDGE_FACTOR`` (5) times the median
+    edge length. Gaps inside the survey (a triangle with no boundary edge) stay filled.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> arc = np.linspace(0, np.pi / 2, 100)       # a quarter ring 20 wide, radius 1000
+    >>> pts = np.r_[np.c_[1000 * np.cos(arc), 1000 * np.sin(arc)],
+    ...             np.c_[1020 * np.cos(arc), 1020 * np.sin(arc)]]
+    >>> tri = survey_triangles(np.c_[pts, np.zeros(200)])
+    >>> bool(np.all(np.hypot(*pts[tri].mean(axis=1).T) > 990))   # none inside the curve
+    True
+    """
     from scipy.spatial import Delaunay, QhullError
-    xy = pts[:, :2]
+    where = where or {"argument": "points"}
+    xy = np.asarray(pts, dtype=float)[:, :2]
     if len(np.unique(xy, axis=0)) < len(xy):
         raise InputError("has two points at the same x, y", **where)
     try:
-        return Delaunay(xy).simplices
+        dt = Delaunay(xy)
     except QhullError:
         raise InputError("points are all on one line; they do not span a surface",
                          **where) from None
+    tri, neighbours = dt.simplices, dt.neighbors
+    corners = xy[tri]
+    edges = np.linalg.norm(corners - np.roll(corners, -1, axis=1), axis=2)   # (T, 3)
+    longest = edges.max(axis=1)
+    a, b, c = corners[:, 0], corners[:, 1], corners[:, 2]
+    area = 0.5 * np.abs((b[:, 0] - a[:, 0]) * (c[:, 1] - a[:, 1])
+                        - (c[:, 0] - a[:, 0]) * (b[:, 1] - a[:, 1]))
+    keep = area > 1e-10 * longest**2
+    too_long = longest > GAP_EDGE_FACTOR * np.median(edges)
+    while True:
+        gone = np.r_[keep, False][neighbours] == False  # noqa: E712 (index -1 = outside)
+        drop = keep & too_long & gone.any(axis=1)
+        if not drop.any():
+            break
+        keep &= ~drop
+    if not keep.any():
+        raise InputError("points do not span a surface (every triangle is degenerate or "
+                         "bridges a gap)", **where)
+    return tri[keep]
 
 
 class RasterSurface:

@@ -103,7 +103,9 @@ GROUND = Table("ground", "The existing ground surface, used to turn elevations i
                "and to draw the fill in 3D. Give at most one source.", (
     Key("elevation", "float", "A flat existing ground at this elevation.", unit=LENGTH),
     Key("raster", "path", "GeoTIFF of existing ground elevation.", example='"existing.tif"'),
-    Key("points", "path", "Survey points (x, y, z) as CSV or whitespace text, triangulated.",
+    Key("points", "path", "Survey points (x, y, z) as CSV or whitespace text, triangulated "
+        "over the surveyed area: outer triangles with an edge over 5 × the median edge "
+        "(gaps, the inside of a curve) are left out.",
         example='"existing_survey.csv"'),
     Key("landxml", "path", "LandXML file with a TIN surface of the existing ground."),
     Key("surface_name", "str", "Which surface of a LandXML file to use (default: the first)."),
