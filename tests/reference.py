@@ -69,3 +69,25 @@ def westergaard_point(r, z, poisson=0.0):
     """Westergaard (1938): Δσz/Q = ηz / (2π (η²z² + r²)^(3/2))."""
     c = eta(poisson) * z
     return c / (2.0 * np.pi * (c * c + r * r) ** 1.5)
+
+
+def terzaghi_average_degree(tv, terms: int = 200):
+    """Terzaghi (1925) average degree of consolidation, uniform initial excess pore pressure:
+    U = 1 − Σ_{m=0}^{terms−1} 2/M² exp(−M² Tv), M = π(2m+1)/2 (written out, no shortcut)."""
+    tv = np.asarray(tv, dtype=float)
+    total = np.zeros_like(tv)
+    for m in range(terms):
+        big_m = np.pi * (2 * m + 1) / 2.0
+        total = total + 2.0 / big_m**2 * np.exp(-big_m**2 * tv)
+    return 1.0 - total
+
+
+def terzaghi_excess_pore_pressure(z_over_h, tv, terms: int = 200):
+    """Terzaghi (1925) isochrone u/u0 at Z = z/H_dr (z from a drained face):
+    Σ 2/M sin(M Z) exp(−M² Tv), M = π(2m+1)/2."""
+    z = np.asarray(z_over_h, dtype=float)
+    total = np.zeros(np.broadcast(z, np.asarray(tv)).shape)
+    for m in range(terms):
+        big_m = np.pi * (2 * m + 1) / 2.0
+        total = total + 2.0 / big_m * np.sin(big_m * z) * np.exp(-big_m**2 * np.asarray(tv))
+    return total
