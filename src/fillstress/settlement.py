@@ -128,7 +128,8 @@ def _check_sublayer_arrays(profile, z_mid, h, dsz):
 
 
 def _sublayer_parameters(profile: SoilProfile, z: np.ndarray) -> dict[str, np.ndarray]:
-    """Per-sublayer arrays: kind flags, indices, e0, σ'0, σ'p (>= σ'0) and linear compliance."""
+    """Per-sublayer arrays: kind flags, indices, e0, σ'0, σ'p (>= σ'0) and linear compliances
+    for loading and for unloading/reloading."""
     idx = profile.layer_index(z)
     layers = [profile.layers[i] for i in idx]
     s0 = profile.sigma_v0_eff(z)
@@ -138,8 +139,10 @@ def _sublayer_parameters(profile: SoilProfile, z: np.ndarray) -> dict[str, np.nd
     e0 = np.array([lay.e0 if lay.kind == "index" else 0.0 for lay in layers])
     sp_given = np.array([_preconsolidation(lay, s) for lay, s in zip(layers, s0)])
     compliance = np.array([_linear_compliance(lay) for lay in layers])
+    unload = np.array([1.0 / lay.unloading_modulus_kpa if lay.unloading_modulus_kpa else c
+                       for lay, c in zip(layers, compliance)])
     return {"layer": idx, "is_index": is_index, "cc": cc, "cr": cr, "e0": e0, "s0": s0,
-            "sp": np.maximum(sp_given, s0), "compliance": compliance}
+            "sp": np.maximum(sp_given, s0), "compliance": compliance, "unload": unload}
 
 
 def _preconsolidation(layer: SoilLayer, s0: float) -> float:
@@ -157,10 +160,116 @@ def _linear_compliance(layer: SoilLayer) -> float:
     return 0.0
 
 
+@dataclass(frozen=True)
+class StressPath:
+    """Settlement of each sublayer along a sequence of load states (stress history).
+
+    Attributes (shapes (N, S, K): points, states, sublayers): ``settlement`` m after each
+    state; ``sigma`` the effective stress σ' = σ'0 + Δσz; ``sigma_max`` the largest effective
+    stress so far, at least σ'p (σ'0 for linear layers); ``strain`` = settlement / h.
+    ``s0``, ``sp`` (K,): σ'0 and σ'p at the sublayer mid-depths.
+    """
+
+    settlement: np.ndarray
+    sigma: np.ndarray
+    sigma_max: np.ndarray
+    strain: np.ndarray
+    s0: np.ndarray
+    sp: np.ndarray
+    is_index: np.ndarray
+
+    def branch(self, state: int = -1) -> np.ndarray:
+        """Which part of the e–log σ' path each sublayer is on after `state`, shape (N, K):
+        ``"recompression (Cr)"``, ``"virgin (Cc)"``, ``"unloaded on Cr after Cc"``,
+        ``"reloading (Cr)"``, ``"unloading (Cr) heave"``, or ``"linear"`` (mv/M layers)."""
+        sig, smax = self.sigma[:, state], self.sigma_max[:, state]
+        below_max = sig < smax * (1 - 1e-9)
+        beyond_p = smax > self.sp * (1 + 1e-9)
+        heave = sig < self.s0 * (1 - 1e-9)
+        out = np.where(beyond_p, np.where(below_max, "unloaded on Cr after Cc", "virgin (Cc)"),
+                       np.where(heave, "unloading (Cr) heave",
+                                np.where(below_max, "reloading (Cr)", "recompression (Cr)")))
+        return np.where(self.is_index[None, :], out, "linear")
+
+
+def stress_path(profile: SoilProfile, z_mid, h, dsz_states) -> StressPath:
+    """Settlement through a sequence of load states, each sublayer keeping its stress history.
+
+    Each sublayer keeps its largest past effective stress σ'm (at least σ'p). Loading beyond
+    σ'm follows the virgin line (Cc), unloading and reloading below it the recompression line
+    (Cr): Terzaghi's e–log σ' model with the loading and unloading branches as in standard
+    texts (e.g. Holtz & Kovacs, An Introduction to Geotechnical Engineering). The settlement
+    in a state depends only on its σ' and the σ'm reached before, so with
+    ``C(σ) = Cr·log10(min(σ, σ'p)/σ'0) + Cc·log10(max(σ, σ'p)/σ'p)``
+
+        s = h/(1+e0) · [C(σ'm) − Cr·log10(σ'm/σ')]
+
+    and for linear layers ``s = h·[mv·(σ'm − σ'0) − mv_ur·(σ'm − σ')]`` with the unloading
+    compliance mv_ur = 1/M_ur (default: the loading value). A surcharge removed after full
+    consolidation thus leaves the permanent-load settlement of the virgin line minus the Cr
+    rebound.
+
+    Parameters
+    ----------
+    profile : SoilProfile
+    z_mid, h : array_like, shape (K,)
+        Sublayer mid-depths and thicknesses (m).
+    dsz_states : array_like, shape (N, S, K) or (S, K)
+        Δσz (kPa) with the loads of each successive state in place (negative: unloading).
+
+    Examples
+    --------
+    One NC sublayer, 1 m at 5 m, σ'0 = 50 kPa: load to 150, unload to 100 and reload to 200
+    (hand calculation on the e–log σ' path, Cc = 0.5, Cr = 0.05, e0 = 1):
+
+    >>> from fillstress.soil import SoilLayer, SoilProfile
+    >>> p = SoilProfile([SoilLayer("c", 0, 10, 10.0, cc=0.5, cr=0.05, e0=1.0, ocr=1.0)],
+    ...                 water_table_m=20)
+    >>> r = stress_path(p, [5.0], [1.0], [[100.0], [50.0], [150.0]])
+    >>> r.settlement[0, :, 0].round(4).tolist()   # 0.25·log 3; − 0.025·log 1.5; 0.25·log 4
+    [0.1193, 0.1149, 0.1505]
+    >>> r.branch(1).tolist()
+    [['unloaded on Cr after Cc']]
+    """
+    z = np.atleast_1d(finite_array(z_mid, "z_mid"))
+    d = finite_array(dsz_states, "dsz_states")
+    if d.ndim == 2:
+        d = d[None]
+    if d.ndim != 3 or d.shape[2] != z.size:
+        raise InputError(f"must have shape (N points, S states, K={z.size} sublayers), got "
+                         f"{d.shape}", argument="dsz_states")
+    z, hh, _ = _check_sublayer_arrays(profile, z, h, d[:, 0])
+    par = _sublayer_parameters(profile, z)
+    sig = par["s0"] + d
+    compressible = par["is_index"] | (par["compliance"] > 0)
+    bad = (sig <= 0) & compressible
+    if np.any(bad):
+        n, st, k = np.argwhere(bad)[0]
+        raise InputError(f"unloading of {-d[n, st, k]:.4g} kPa at depth {z[k]:g} m (point {n}, "
+                         f"state {st}) exceeds the effective stress {par['s0'][k]:.4g} kPa there; "
+                         "the soil would be at zero effective stress (heave or removal), "
+                         "outside 1-D consolidation", argument="dsz_states")
+    smax = np.maximum.accumulate(np.maximum(sig, par["s0"]), axis=1)
+    idx = par["is_index"]
+    safe = np.where(idx, sig, 1.0)
+    safe_max = np.where(idx, smax, 1.0)
+    sp, s0 = np.where(idx, par["sp"], 1.0), np.where(idx, par["s0"], 1.0)
+    virgin = (par["cr"] * np.log10(np.minimum(safe_max, sp) / s0)
+              + par["cc"] * np.log10(np.maximum(safe_max, sp) / sp))
+    strain_index = (virgin - par["cr"] * np.log10(safe_max / safe)) / (1.0 + par["e0"])
+    strain_linear = par["compliance"] * (smax - par["s0"]) - par["unload"] * (smax - sig)
+    strain = np.where(idx, strain_index, strain_linear)
+    return StressPath(settlement=strain * hh, sigma=sig,
+                      sigma_max=np.maximum(smax, np.where(idx, par["sp"], 0.0)),
+                      strain=strain, s0=par["s0"], sp=np.where(idx, par["sp"], par["s0"]),
+                      is_index=idx)
+
+
 def sublayer_settlement(profile: SoilProfile, z_mid, h, dsz) -> np.ndarray:
     """Settlement (m) of each sublayer at each plan point, shape (N, K).
 
     Same inputs as `consolidation_settlement`; positive is downward, negative is heave.
+    One load state of `stress_path`.
 
     Examples
     --------
@@ -170,24 +279,10 @@ def sublayer_settlement(profile: SoilProfile, z_mid, h, dsz) -> np.ndarray:
     [[0.02, 0.012]]
     """
     z, hh, d = _check_sublayer_arrays(profile, z_mid, h, dsz)
-    par = _sublayer_parameters(profile, z)
-    s1 = par["s0"] + d
-    compressible = par["is_index"] | (par["compliance"] > 0)
-    bad = (s1 <= 0) & compressible
-    if np.any(bad):
-        n, k = np.argwhere(bad)[0]
-        raise InputError(f"unloading of {-d[n, k]:.4g} kPa at depth {z[k]:g} m (point {n}) exceeds "
-                         f"the effective stress {par['s0'][k]:.4g} kPa there; the soil would be "
-                         "at zero effective stress (heave or removal), outside 1-D consolidation",
-                         argument="dsz")
-    linear = hh * par["compliance"] * d
-    safe_s1 = np.where(par["is_index"], s1, 1.0)
-    sp = np.where(par["is_index"], par["sp"], 1.0)
-    s0 = np.where(par["is_index"], par["s0"], 1.0)
-    log_law = (par["cr"] * np.log10(np.minimum(safe_s1, sp) / s0)
-               + par["cc"] * np.log10(np.maximum(safe_s1, sp) / sp))
-    index = hh / (1.0 + par["e0"]) * log_law
-    return np.where(par["is_index"], index, linear)
+    try:
+        return stress_path(profile, z, hh, d[:, None, :]).settlement[:, 0]
+    except InputError as err:
+        raise InputError(str(err.reason).replace(", state 0", ""), argument="dsz") from None
 
 
 def consolidation_settlement(profile: SoilProfile, z_mid, h, dsz) -> np.ndarray:
@@ -482,27 +577,95 @@ def stage_increments(final_after_stage) -> np.ndarray:
     return np.diff(arr, axis=-2, prepend=0.0)
 
 
-def settlement_time_curve(stage_settlements, stage_times, times, cv, drainage_path_m) -> np.ndarray:
-    """Consolidation settlement (m) versus time for loads placed in stages.
+_RAMP_NODES, _RAMP_WEIGHTS = np.polynomial.legendre.leggauss(48)
 
-    Each stage's settlement increment consolidates from that stage's start time by
-    Terzaghi's 1-D average degree of consolidation of its layer, and the increments add:
-    ``s(t) = Σ_stages Σ_layers Δs_sl · U(cv_l·(t − t_s)/H_l²)``. Approximations: each
-    stage is placed instantly at its start time; superposition is exact for a linear soil
-    with constant cv and an approximation for the e–log σ' law (the increments come from the
-    nonlinear final settlements, see `stage_increments`); U assumes a uniform initial excess
-    pore pressure over each layer.
+
+def _instant_degree(t: np.ndarray, vertical_rate: np.ndarray, radial_rate: np.ndarray) -> np.ndarray:
+    """U after an instant load at t = 0, vertical (Terzaghi) and radial (drains) flow
+    combined by Carrillo (1942): 1 − U = (1 − Uv)·exp(−λ·t). Rates broadcast against t."""
+    t = np.maximum(t, 0.0)
+    with np.errstate(invalid="ignore"):
+        tv = vertical_rate * t
+    tv = np.where(t > 0, tv, 0.0)                                   # inf·0 → not started
+    finite_tv = np.where(np.isinf(tv), 0.0, tv)
+    uv = np.where(np.isinf(tv), 1.0, degree_of_consolidation(finite_tv))
+    return 1.0 - (1.0 - uv) * np.exp(-radial_rate * t)
+
+
+def ramp_degree(t, duration, vertical_rate, radial_rate=0.0) -> np.ndarray:
+    """Average degree of consolidation under a load rising linearly from 0 at t = 0 to its
+    full value at t = `duration`, relative to the full load's final settlement.
+
+    Superposition of instant increments (Duhamel's integral, exact for linear consolidation;
+    for Terzaghi's equation it is Olson's (1977) ramp-loading solution):
+    ``U(t) = (1/tc)·∫ U_inst(t − τ) dτ over 0 <= τ <= min(t, tc)``, integrated by
+    Gauss–Legendre quadrature in w = sqrt(t − τ), which removes the √t start of U_inst.
+
+    Parameters
+    ----------
+    t : array_like
+        Time since the start of loading, years.
+    duration : float
+        Build (ramp) duration tc, years; 0 is an instant load.
+    vertical_rate : array_like
+        cv/H_dr² (1/year; inf = drains at once), broadcast against `t`.
+    radial_rate : array_like
+        8·ch/(de²·μ) of vertical drains (1/year; 0 = none), see `fillstress.drains`.
+
+    Examples
+    --------
+    Olson (1977): at the end of construction, Tc = 1, U = 1 − (2/Tc)·Σ (1/M⁴)(1 − e^(−M²Tc)):
+
+    >>> round(float(ramp_degree(1.0, 1.0, 1.0)), 4)
+    0.6945
+    >>> float(ramp_degree(0.5, 0.0, 1.0)) == degree_of_consolidation(0.5)
+    True
+    """
+    t = finite_array(t, "t")
+    tc = finite(duration, "duration")
+    if tc < 0:
+        raise InputError(f"must be >= 0 years, got {duration!r}", argument="duration")
+    vr = np.asarray(vertical_rate, dtype=float)
+    hr = np.asarray(radial_rate, dtype=float)
+    if tc == 0.0:
+        return _instant_degree(t, vr, hr)
+    t = np.maximum(t, 0.0)
+    lo = np.sqrt(np.maximum(t - tc, 0.0))[..., None]
+    hi = np.sqrt(t)[..., None]
+    w = 0.5 * (hi + lo) + 0.5 * (hi - lo) * _RAMP_NODES            # (..., nodes)
+    u = _instant_degree(w**2, vr[..., None], hr[..., None])
+    integral = 0.5 * (hi - lo)[..., 0] * np.sum(_RAMP_WEIGHTS * u * 2.0 * w, axis=-1)
+    return integral / tc
+
+
+def settlement_time_curve(stage_settlements, stage_times, times, cv, drainage_path_m, *,
+                          durations=None, radial_rate=None) -> np.ndarray:
+    """Consolidation settlement (m) versus time for loads placed (or removed) in stages.
+
+    Each stage's settlement increment consolidates from that stage's start time, the load
+    rising linearly over its build duration (`ramp_degree`; instant when 0), with the
+    average degree of consolidation of its layer (or sublayer), and the increments add:
+    ``s(t) = Σ_stages Σ_layers Δs_sl · U_l(t − t_s)``. Approximations: superposition is exact
+    for a linear soil with constant cv and an approximation for the e–log σ' law (the
+    increments come from the nonlinear settlements along the stress path, see
+    `stage_increments`); unloading (rebound) increments swell at the same rate; U assumes a
+    uniform initial excess pore pressure over each layer.
 
     Parameters
     ----------
     stage_settlements : array_like, shape (..., S, L) or (S,)
         Final settlement increment (m) of each stage in each layer; (S,) is one layer.
     stage_times : array_like, shape (S,)
-        Time (years) each stage is placed, non-decreasing.
+        Time (years) each stage starts, non-decreasing.
     times : array_like, shape (T,)
         Times (years) at which to report settlement.
     cv, drainage_path_m : array_like, shape (L,) or scalar
         Coefficient of consolidation (m²/year; inf = immediate) and drainage path (m).
+    durations : array_like, shape (S,), optional
+        Build duration of each stage, years (default 0: placed instantly).
+    radial_rate : array_like, shape (L,), optional
+        Radial consolidation rate 8·ch/(de²·μ) (1/year) of vertical drains, combined by
+        Carrillo (1942); 0 where no drains reach.
 
     Returns
     -------
@@ -529,17 +692,96 @@ def settlement_time_curve(stage_settlements, stage_times, times, cv, drainage_pa
                          argument="stage_times")
     if np.any(np.diff(t_stage) < 0):
         raise InputError("stage start times must be non-decreasing", argument="stage_times")
+    build = np.zeros(n_stage) if durations is None else np.atleast_1d(finite_array(durations, "durations"))
+    if build.shape != (n_stage,) or np.any(build < 0):
+        raise InputError(f"must be one duration >= 0 per stage ({n_stage}), got {build.tolist()}",
+                         argument="durations")
     t = np.atleast_1d(finite_array(times, "times"))
     if t.ndim != 1:
         raise InputError(f"must be 1-D, got shape {t.shape}", argument="times")
     cv_arr = _per_layer(cv, "cv", n_layer, allow_inf=True)
     h_arr = _per_layer(drainage_path_m, "drainage_path_m", n_layer, allow_inf=False)
-    elapsed = np.maximum(t[None, :] - t_stage[:, None], 0.0)             # (S, T)
-    with np.errstate(invalid="ignore"):
-        tv = cv_arr[None, :, None] * elapsed[:, None, :] / h_arr[None, :, None] ** 2
-    tv = np.where(elapsed[:, None, :] > 0, tv, 0.0)                     # inf·0 → not started
-    u = np.where(np.isinf(tv), 1.0, degree_of_consolidation(np.where(np.isinf(tv), 0.0, tv)))
+    radial = np.zeros(n_layer) if radial_rate is None else np.broadcast_to(
+        finite_array(radial_rate, "radial_rate"), (n_layer,))
+    if np.any(radial < 0):
+        raise InputError("radial consolidation rates must be >= 0", argument="radial_rate")
+    vertical = (cv_arr / h_arr**2)[:, None]
+    u = np.stack([ramp_degree(t[None, :] - ts, d, vertical, radial[:, None])
+                  for ts, d in zip(t_stage, build)])                    # (S, L, T)
     return np.einsum("...sl,slt->...t", inc, u)
+
+
+def time_to_fraction(curve: Callable[[np.ndarray], np.ndarray], fraction: float,
+                     final: float, t_max: float) -> float:
+    """Earliest time (years) at which ``curve(t)`` reaches `fraction` × `final` (brentq).
+
+    `curve` maps an array of times to settlements; NaN when it does not get there by
+    `t_max`. Used for t50, t90, t95 and the earliest surcharge removal day.
+
+    Examples
+    --------
+    >>> f = lambda t: 0.3 * (1 - np.exp(-np.asarray(t)))
+    >>> round(time_to_fraction(f, 0.5, 0.3, 50.0), 4)         # ln 2
+    0.6931
+    """
+    target = float(fraction) * float(final)
+    grid = np.concatenate([[0.0], np.geomspace(1e-6 * t_max, t_max, 400)])
+    values = np.asarray(curve(grid), dtype=float) - target
+    reached = np.nonzero(values >= 0)[0]
+    if final == 0 or reached.size == 0:
+        return math.nan
+    k = int(reached[0])
+    if k == 0:
+        return 0.0
+    return brentq(lambda x: float(np.asarray(curve(np.array([x])))[0]) - target,
+                  grid[k - 1], grid[k], xtol=1e-9 * t_max)
+
+
+# --- secondary compression ------------------------------------------------------------
+def secondary_strain_index(layer: SoilLayer, primary_strain) -> np.ndarray:
+    """Cα/(1+e_p): strain per log cycle of time after primary consolidation.
+
+    e_p = e0 − (1+e0)·ε_primary is the void ratio at the end of primary consolidation; a
+    layer given ``c_alpha_eps`` uses it as stated (already divided by 1+e0).
+
+    Examples
+    --------
+    >>> clay = SoilLayer("c", 0, 5, 16, cc=0.6, cr=0.06, e0=1.5, ocr=1, c_alpha=0.03)
+    >>> round(float(secondary_strain_index(clay, 0.1)), 5)     # e_p = 1.25: 0.03/2.25
+    0.01333
+    """
+    eps = np.asarray(finite_array(primary_strain, "primary_strain"))
+    if layer.c_alpha_eps is not None:
+        return np.full(eps.shape, layer.c_alpha_eps)
+    if layer.c_alpha is None:
+        return np.zeros(eps.shape)
+    e_p = layer.e0 - (1.0 + layer.e0) * eps
+    if np.any(e_p <= 0):
+        raise InputError(f"primary strain {eps.max():.3g} leaves no void ratio (e0 = "
+                         f"{layer.e0:g}) in layer {layer.name!r}", argument="primary_strain")
+    return layer.c_alpha / (1.0 + e_p)
+
+
+def secondary_compression(strain_index, thickness, t, tp) -> np.ndarray:
+    """Secondary compression S = Cα/(1+e_p) · H · log10(t/tp) for t > tp, else 0.
+
+    Parameters: `strain_index` Cα/(1+e_p); `thickness` H (m); `t` time and `tp` end of
+    primary consolidation, both measured from the start of loading, same unit.
+
+    Examples
+    --------
+    >>> round(float(secondary_compression(0.01, 4.0, 20.0, 2.0)), 3)     # 0.01·4·log10(10)
+    0.04
+    >>> float(secondary_compression(0.01, 4.0, 1.0, 2.0))
+    0.0
+    """
+    ca = finite_array(strain_index, "strain_index")
+    h = finite_array(thickness, "thickness")
+    tt = finite_array(t, "t")
+    t_p = finite_array(tp, "tp")
+    if np.any(t_p <= 0):
+        raise InputError("the end of primary consolidation tp must be > 0", argument="tp")
+    return ca * h * np.log10(np.maximum(tt, t_p) / t_p)
 
 
 def _per_layer(value, name: str, n_layer: int, *, allow_inf: bool) -> np.ndarray:

@@ -16,6 +16,12 @@ A layer's compressibility is given in exactly one of four ways (its ``kind``):
     constrained (oedometer) modulus ``modulus_kpa`` (kPa), settlement h·Δσ/M;
 ``"incompressible"``
     ``incompressible=True``: the layer carries load but does not settle (rock, dense gravel).
+
+Beyond primary loading a layer may carry: an unloading/reloading modulus (``mv``/``modulus``
+layers; index layers unload and reload on ``cr``), a secondary compression index (``c_alpha``
+with ``e0``, or ``c_alpha_eps`` = Cα/(1+e0) directly) with a reduced ratio after surcharging,
+a horizontal coefficient of consolidation ``ch_m2_per_yr`` for vertical drains, and a stated
+end of primary consolidation ``end_of_primary_yr``.
 """
 from __future__ import annotations
 
@@ -81,6 +87,22 @@ class SoilLayer:
         True for a layer that does not settle.
     cv_m2_per_yr : float, optional
         Coefficient of consolidation (m²/year) for the time rate.
+    unloading_modulus_kpa : float, optional
+        Constrained modulus (kPa) for unloading and reloading below the largest past
+        effective stress, ``"mv"`` and ``"modulus"`` layers; default the loading value.
+    c_alpha, c_alpha_eps : float, optional
+        Secondary compression: Cα = Δe per log cycle of time (index layers; divided by
+        1 + e_p, the void ratio at the end of primary consolidation), or Cα/(1+e0) directly
+        (any compressible layer). At most one.
+    c_alpha_ratio_surcharged : float
+        Cα'/Cα (0 < ratio <= 1) where the layer ends below its largest past effective stress
+        (after a surcharge is removed); a user value following Mesri's Cα/Cc concept. Default 1.
+    ch_m2_per_yr : float, optional
+        Horizontal coefficient of consolidation (m²/year) for radial flow to vertical drains;
+        default `cv_m2_per_yr`.
+    end_of_primary_yr : float, optional
+        Time (years after loading) of the end of primary consolidation for secondary
+        compression; default the time at which the layer reaches U = 95 %.
     drainage : str
         ``"double"`` (drains at top and bottom) or ``"single"`` (one face drains;
         ``"single-top"``/``"single-bottom"`` say which, and give the same average degree of
@@ -110,6 +132,12 @@ class SoilLayer:
     incompressible: bool = False
     cv_m2_per_yr: float | None = None
     drainage: str = "double"
+    unloading_modulus_kpa: float | None = None
+    c_alpha: float | None = None
+    c_alpha_eps: float | None = None
+    c_alpha_ratio_surcharged: float = 1.0
+    ch_m2_per_yr: float | None = None
+    end_of_primary_yr: float | None = None
 
     def __post_init__(self):
         name = str(self.name)
@@ -136,6 +164,28 @@ class SoilLayer:
         if self.drainage not in DRAINAGE_KINDS:
             raise _layer_error(name, "drainage", f"must be one of {', '.join(DRAINAGE_KINDS)}; "
                                f"got {self.drainage!r}")
+        self._check_time_effects(name)
+
+    def _check_time_effects(self, name: str) -> None:
+        """Unloading modulus, secondary compression and radial consolidation parameters."""
+        for key in ("unloading_modulus_kpa", "c_alpha", "c_alpha_eps", "ch_m2_per_yr",
+                    "end_of_primary_yr"):
+            object.__setattr__(self, key, _number(name, key, getattr(self, key), minimum=0.0))
+        if self.unloading_modulus_kpa is not None and self._kind not in ("mv", "modulus"):
+            raise _layer_error(name, "unloading_modulus_kpa", "applies to mv and modulus layers; "
+                               "index layers unload and reload on cr")
+        if self.c_alpha is not None and self.c_alpha_eps is not None:
+            raise _layer_error(name, "c_alpha", "give c_alpha or c_alpha_eps, not both")
+        if self.c_alpha is not None and self._kind != "index":
+            raise _layer_error(name, "c_alpha", "needs the void ratio of an index layer (cc, cr, "
+                               "e0); give c_alpha_eps = Cα/(1+e0) for an mv or modulus layer")
+        if (self.c_alpha is not None or self.c_alpha_eps is not None) and not self.compressible:
+            raise _layer_error(name, "c_alpha", "an incompressible layer has no secondary compression")
+        ratio = _number(name, "c_alpha_ratio_surcharged", self.c_alpha_ratio_surcharged, minimum=0.0)
+        if ratio > 1.0:
+            raise _layer_error(name, "c_alpha_ratio_surcharged", f"Cα'/Cα must lie in (0, 1], "
+                               f"got {ratio:g}: a surcharge does not raise the secondary rate")
+        object.__setattr__(self, "c_alpha_ratio_surcharged", ratio)
 
     def _check_compressibility(self, name: str) -> None:
         given = {"index": [k for k in _INDEX_KEYS if getattr(self, k) is not None],
@@ -201,6 +251,15 @@ class SoilLayer:
     @property
     def double_drained(self) -> bool:
         return self.drainage == "double"
+
+    @property
+    def ch(self) -> float | None:
+        """Horizontal coefficient of consolidation, m²/year (default cv)."""
+        return self.cv_m2_per_yr if self.ch_m2_per_yr is None else self.ch_m2_per_yr
+
+    @property
+    def has_secondary(self) -> bool:
+        return self.c_alpha is not None or self.c_alpha_eps is not None
 
 
 class SoilProfile:
