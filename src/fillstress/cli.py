@@ -8,7 +8,7 @@ import argparse
 import sys
 from pathlib import Path
 
-from . import __version__
+from ._version import __version__
 from .errors import FillstressError, InputError
 
 EPILOG = """\
@@ -154,10 +154,10 @@ def _example(args, console):
 
 
 def _point(args, console):
-    from .run.compute import stress_at_points
+    from .run.point import point_stresses
     if len(args.xyz) % 3:
         raise InputError(f"needs x y depth triples, got {len(args.xyz)} numbers", argument="xyz")
-    console.points(stress_at_points(args.site, args.xyz, stage=args.stage))
+    console.points(point_stresses(args.site, args.xyz, stage=args.stage))
 
 
 def _view(args, console):

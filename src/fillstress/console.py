@@ -1,15 +1,22 @@
-"""What the command prints: errors, progress bars and summary tables (rich)."""
+"""What the command prints: errors, progress bars and every table it shows (rich).
+
+The tables are built here from the run's typed results, in the site's output units.
+"""
 from __future__ import annotations
 
 import sys
 from contextlib import contextmanager
 
+import numpy as np
 from rich.console import Console as _RichConsole
 from rich.markup import escape
 from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn, TimeRemainingColumn
 from rich.table import Table
 
+from .io import tables
 from .progress import silent
+from .run.compute import CAUTIONS
+from .run.files import KIND_FILES, kind_summary
 
 
 class Console:
@@ -62,21 +69,86 @@ class Console:
                 self.out.print(escape(line))
 
     def summary(self, summary) -> None:
-        for block in summary.tables():
+        """A finished run (run.compute.RunSummary): bodies, receptors, closing lines."""
+        for block in summary_tables(summary.results):
             self.table(*block)
-        self.lines(summary.closing_lines())
+        self.lines(closing_lines(summary))
 
     def check(self, report) -> None:
-        for block in report.tables():
-            self.table(*block)
-        self.lines(report.closing_lines())
+        """What a run would compute (run.compute.CheckReport)."""
+        self.table(*body_rows(report.site))
+        self.table("What a run computes", ["item", "value"], report.plan)
+        self.lines(["site file is valid; nothing was computed or written"])
 
     def points(self, result) -> None:
-        self.table(*result)
+        """Δσz at command-line points (run.point.PointStresses), in site units."""
+        self.table(*point_rows(result))
 
     def examples(self, items) -> None:
         self.table("Bundled sample sites", ["name", "what it shows"], items)
         self.lines(["run one with: fillstress example NAME"])
+
+
+# --- tables ---------------------------------------------------------------------------
+def body_rows(site):
+    u = site.units
+    out = tables.to_output_units
+    rows = [[b.name, b.kind, b.stage, out(b.unit_weight, u, "unit_weight"),
+             out(b.volume, u, "volume"), out(b.footprint_area, u, "area"),
+             out(b.max_height, u, "length"), out(b.total_load, u, "force")]
+            for b in site.bodies]
+    force = tables.unit_label(u, "force")
+    return ("Fill bodies", ["body", "kind", "stage", f"γ ({u.unit_weight})",
+                            f"volume ({u.length}³)", f"footprint ({u.length}²)",
+                            f"max height ({u.length})", f"load ({force})"], rows)
+
+
+def summary_tables(res):
+    site, u = res.site, res.site.units
+    out = [body_rows(site)]
+    rows = []
+    for kind in KIND_FILES:
+        pts = res.points[res.points["receptor_kind"] == kind]
+        if pts.empty:
+            continue
+        s = kind_summary(res, kind)
+        for _, r in s.iterrows():
+            row = [kind, r["receptor_id"], u.pressure_out(r["dsz_max"]),
+                   u.length_out(r["depth_at_max"])]
+            if site.soil is not None:
+                row += [u.settlement_out(r.get("settlement_max", np.nan))
+                        if "settlement_max" in r else np.nan,
+                        r.get("angular_distortion", np.nan), r.get("worst_limit_reached", "")]
+            rows.append(row)
+    cols = ["kind", "receptor", f"max Δσz ({u.pressure})", f"at depth ({u.length})"]
+    if site.soil is not None:
+        cols += [f"max settlement ({u.settlement})", "angular distortion", "limit reached"]
+    out.append(("Receptors", cols, rows))
+    return out
+
+
+def closing_lines(summary) -> list[str]:
+    r = summary.results
+    lines = []
+    if r.convergence:
+        c = r.convergence
+        u = r.site.units
+        lines.append(f"convergence: halving the cell ({u.length_out(c['cell']):g} → "
+                     f"{u.length_out(c['fine_cell']):g} {u.length}) "
+                     f"changes Δσz by at most {100 * c['max_relative_change']:.2f} % "
+                     f"(at {c['at_point']})")
+    lines += [f"warning: {w}" for w in r.warnings]
+    lines.append(f"results written to {summary.folder}")
+    lines.append(CAUTIONS.split(";")[0] + ".")
+    return lines
+
+
+def point_rows(result):
+    site, u = result.site, result.site.units
+    rows = [[f"{a:.2f}", f"{b:.2f}", f"{c:.2f}", f"{u.pressure_out(d):.2f}"]
+            for (a, b, c), d in zip(result.xyz, result.dsz)]
+    return (f"Δσz, {site.name} (stage {result.stage}, {site.method})",
+            ["x", "y", f"depth ({u.length})", f"Δσz ({u.pressure})"], rows)
 
 
 def _fmt(v) -> str:

@@ -16,6 +16,7 @@ from typing import Iterable, Mapping
 
 import numpy as np
 
+from .._version import __version__
 from ..errors import InputError
 from ..grid import GridSpec
 from ..units import SI, UnitSystem
@@ -131,8 +132,6 @@ def build_manifest(*, settings: Mapping, units: UnitSystem = SI, inputs: Iterabl
     >>> m["created"], m["units"]["pressure"], m["grid"]["ny"]
     ('2024-05-01T12:00:00+00:00', 'kPa', 3)
     """
-    from .. import __version__
-
     crs = crs if crs is not None else getattr(grid, "crs", None)
     created = created or _dt.datetime.now(_dt.timezone.utc)
     if created.tzinfo is None:

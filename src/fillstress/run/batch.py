@@ -21,9 +21,18 @@ from pathlib import Path
 
 import pandas as pd
 
+from .._version import __version__
 from ..errors import InputError
+from ..io.atomic import ResultsFolder
+from ..io.manifest import write_manifest
+from ..io.tables import write_table_csv
 from ..progress import silent
-from ..site.build import scaled_body
+from ..site.build import load_site, scaled_body
+from ..site.config import read_toml
+from ..soil import SoilProfile
+from ..solve.distributed import connect, map_variants
+from .compute import ASSUMPTIONS, CAUTIONS, RunSummary, compute
+from .files import column_quantities, write_all
 
 VARIANT_KEYS = ("name", "unit_weight_factor", "height_factor", "water_table", "method",
                 "poisson")
@@ -43,7 +52,6 @@ class Variant:
 
 def read_variants(path, units) -> list[Variant]:
     """Read and validate a variants file; lengths are converted with the site's units."""
-    from ..site.config import read_toml
     path = Path(path)
     raw = read_toml(path, "variants file")
     items = raw.get("variants")
@@ -107,7 +115,6 @@ def apply_variant(site, v: Variant):
         if site.soil is None:
             raise InputError("water_table needs a [soil] table in the site file",
                              argument=f"variant {v.name}")
-        from ..soil import SoilProfile
         out.soil = SoilProfile(site.soil.layers, v.water_table, site.soil.rigid_base_m,
                                site.soil.gamma_w)
     return out
@@ -165,14 +172,6 @@ def run_batch(site_path, variants_path, out, *, overwrite=False, report=False,
     >>> set(env["variant_of_max_dsz"])
     {'b'}
     """
-    from ..io.atomic import ResultsFolder
-    from ..io.tables import write_table_csv
-    from .compute import RunSummary, compute
-    from ..site.build import load_site
-    from .files import _quantities, write_all
-    from .compute import ASSUMPTIONS, CAUTIONS
-    from .. import __version__
-
     site = load_site(site_path)
     variants = read_variants(variants_path, site.units)
     out = Path(out) if out else Path(f"results-{Path(site_path).stem}-batch")
@@ -180,7 +179,6 @@ def run_batch(site_path, variants_path, out, *, overwrite=False, report=False,
     sites = [apply_variant(site, v) for v in variants]
 
     if workers or scheduler:
-        from ..solve.distributed import connect, map_variants
         with connect(scheduler or workers) as client:     # whole variants on the workers
             results = map_variants(compute, sites, client, progress=progress)
     else:
@@ -192,8 +190,7 @@ def run_batch(site_path, variants_path, out, *, overwrite=False, report=False,
                       version=__version__)
         env = envelope_points({v.name: r.points for v, r in zip(variants, results)})
         write_table_csv(folder.path("envelope_points.csv"), env, site.units,
-                        {**_quantities(env), "variant_of_max_dsz": None}, crs=site.crs)
-        from ..io.manifest import write_manifest
+                        {**column_quantities(env), "variant_of_max_dsz": None}, crs=site.crs)
         write_manifest(folder, settings={"variants": [vars(v) for v in variants]},
                        units=site.units, inputs=site.config.input_files() + [Path(variants_path)],
                        site_file=site.path, crs=site.crs, grid=site.spec,

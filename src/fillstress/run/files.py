@@ -1,5 +1,5 @@
-"""Write a run's results into its results folder (docs/results-folder.md), and the tables
-the command prints. Values are SI inside; the io writers convert to the site's units.
+"""Write a run's results into its results folder (docs/results-folder.md), and build its
+result tables. Values are SI inside; the io writers convert to the site's units.
 
 Plan coordinates are written in site-CRS units: the io writers take internal metres and
 the site CRS and scale x, y by the CRS's own axis unit (the US survey foot is not the
@@ -125,7 +125,7 @@ def kind_summary(res, kind: str) -> pd.DataFrame:
 
 
 # --- writing --------------------------------------------------------------------------
-def _quantities(frame: pd.DataFrame) -> dict:
+def column_quantities(frame: pd.DataFrame) -> dict:
     """Quantity of every numeric column: names carry it (settlement_*, *_at_max, …)."""
     q = dict(EXTRA_QUANTITIES)
     for c in frame.columns:
@@ -170,18 +170,18 @@ def write_all(res, folder, *, report=True, progress=silent, assumptions="", caut
 def _write_tables(res, folder) -> None:
     site, u = res.site, res.site.units
     bodies = bodies_table(site)
-    tables.write_table_csv(folder.path("bodies.csv"), bodies, u, _quantities(bodies))
+    tables.write_table_csv(folder.path("bodies.csv"), bodies, u, column_quantities(bodies))
     for kind, name in KIND_FILES.items():
         pts = res.points[res.points["receptor_kind"] == kind]
         if pts.empty:
             continue
-        q = _quantities(pts)
+        q = column_quantities(pts)
         tables.write_table_csv(folder.path(f"{name}_points.csv"), pts, u, q, crs=site.crs)
         tables.write_points_geojson(folder.path(f"{name}_points.geojson"), pts, u,
                                     crs=site.crs, quantities=q)
         summary = kind_summary(res, kind)
         tables.write_table_csv(folder.path(f"{name}_summary.csv"), summary, u,
-                               _quantities(summary), crs=site.crs)
+                               column_quantities(summary), crs=site.crs)
         _write_geometry(res, folder, kind, name)
     if res.time_curves:
         rows = [{"receptor_id": rid, "days": d, "settlement": s}
@@ -304,7 +304,7 @@ def _receptor_json(res) -> dict:
         if (res.points["receptor_kind"] == kind).any():
             summary = kind_summary(res, kind).drop(columns=["x", "y"])
             out[name] = json.loads(tables.labelled_table(
-                summary, res.site.units, _quantities(summary)).to_json(orient="records"))
+                summary, res.site.units, column_quantities(summary)).to_json(orient="records"))
     return out
 
 
@@ -354,46 +354,3 @@ def _settings(site) -> dict:
             "margin_m": grid.get("margin"), "stages": site.stages,
             "convergence_check": grid.get("convergence_check", True),
             "units": site.units.name}
-
-
-# --- console tables -------------------------------------------------------------------
-def body_rows(site):
-    u = site.units
-    out = tables.to_output_units
-    rows = [[b.name, b.kind, b.stage, out(b.unit_weight, u, "unit_weight"),
-             out(b.volume, u, "volume"), out(b.footprint_area, u, "area"),
-             out(b.max_height, u, "length"), out(b.total_load, u, "force")]
-            for b in site.bodies]
-    force = tables.unit_label(u, "force")
-    return ("Fill bodies", ["body", "kind", "stage", f"γ ({u.unit_weight})",
-                            f"volume ({u.length}³)", f"footprint ({u.length}²)",
-                            f"max height ({u.length})", f"load ({force})"], rows)
-
-
-def check_rows(site):
-    from .plan import describe_run
-    return ("What a run computes", ["item", "value"], describe_run(site))
-
-
-def summary_tables(res):
-    site, u = res.site, res.site.units
-    out = [body_rows(site)]
-    rows = []
-    for kind in KIND_FILES:
-        pts = res.points[res.points["receptor_kind"] == kind]
-        if pts.empty:
-            continue
-        s = kind_summary(res, kind)
-        for _, r in s.iterrows():
-            row = [kind, r["receptor_id"], u.pressure_out(r["dsz_max"]),
-                   u.length_out(r["depth_at_max"])]
-            if site.soil is not None:
-                row += [u.settlement_out(r.get("settlement_max", np.nan))
-                        if "settlement_max" in r else np.nan,
-                        r.get("angular_distortion", np.nan), r.get("worst_limit_reached", "")]
-            rows.append(row)
-    cols = ["kind", "receptor", f"max Δσz ({u.pressure})", f"at depth ({u.length})"]
-    if site.soil is not None:
-        cols += [f"max settlement ({u.settlement})", "angular distortion", "limit reached"]
-    out.append(("Receptors", cols, rows))
-    return out
