@@ -19,6 +19,18 @@ def _tree(root):
     return out
 
 
+MANIFEST = '{"program": "fillstress"}'
+
+
+def _earlier_results(folder, **files):
+    """A finished results folder of an earlier run (its manifest names fillstress)."""
+    folder.mkdir()
+    (folder / "manifest.json").write_text(MANIFEST)
+    for name, text in files.items():
+        (folder / name).write_text(text)
+    return folder
+
+
 # --- write_atomic ----------------------------------------------------------------------
 def test_write_atomic_replaces_a_file(tmp_path):
     target = tmp_path / "bodies.csv"
@@ -88,8 +100,7 @@ def test_a_file_in_the_way_is_refused_even_with_overwrite(tmp_path):
 
 @pytest.mark.parametrize("name, overwrite", [("run", True), ("fresh", False)])
 def test_failure_midway_keeps_earlier_results_and_no_partial(tmp_path, name, overwrite):
-    (tmp_path / "run").mkdir()
-    (tmp_path / "run" / "bodies.csv").write_text("earlier")
+    _earlier_results(tmp_path / "run", **{"bodies.csv": "earlier"})
     before = _tree(tmp_path)
     with pytest.raises(ZeroDivisionError):
         with ResultsFolder(tmp_path / name, overwrite=overwrite) as out:
@@ -99,8 +110,7 @@ def test_failure_midway_keeps_earlier_results_and_no_partial(tmp_path, name, ove
 
 
 def test_overwrite_swaps_only_when_complete_and_leaves_no_backup(tmp_path):
-    (tmp_path / "run").mkdir()
-    (tmp_path / "run" / "stale.csv").write_text("old")
+    _earlier_results(tmp_path / "run", **{"stale.csv": "old"})
     with ResultsFolder(tmp_path / "run", overwrite=True) as out:
         write_atomic(out.path("bodies.csv"), lambda p: p.write_text("new"))
         assert (tmp_path / "run" / "stale.csv").read_text() == "old"  # still there meanwhile
@@ -108,8 +118,7 @@ def test_overwrite_swaps_only_when_complete_and_leaves_no_backup(tmp_path):
 
 
 def test_failed_final_rename_puts_the_old_folder_back(tmp_path, monkeypatch):
-    (tmp_path / "run").mkdir()
-    (tmp_path / "run" / "bodies.csv").write_text("earlier")
+    _earlier_results(tmp_path / "run", **{"bodies.csv": "earlier"})
     before = _tree(tmp_path)
     real_rename = os.rename
     calls = []

@@ -6,10 +6,11 @@ from __future__ import annotations
 
 import argparse
 import sys
+import warnings
 from pathlib import Path
 
 from ._version import __version__
-from .errors import FillstressError, InputError
+from .errors import FillstressError, FillstressWarning, InputError
 
 EPILOG = """\
 examples:
@@ -32,7 +33,8 @@ def main(argv=None) -> int:
     from .console import Console
     console = Console(quiet=getattr(args, "quiet", False))
     try:
-        return args.func(args, console) or 0
+        with _warnings_to(console):
+            return args.func(args, console) or 0
     except FillstressError as exc:        # bad input (InputError) or over the memory cap
         console.error(str(exc))
         return 2
@@ -45,6 +47,26 @@ def main(argv=None) -> int:
         console.error(f"internal error ({type(exc).__name__}: {exc}); "
                       "rerun with --debug for the traceback and please report it")
         return 1
+
+
+class _warnings_to(warnings.catch_warnings):
+    """Print fillstress warnings as one console line each; others as Python prints them."""
+
+    def __init__(self, console):
+        super().__init__()
+        self.console = console
+
+    def __enter__(self):
+        super().__enter__()
+        default = warnings.showwarning
+        warnings.simplefilter("always", FillstressWarning)
+
+        def show(message, category, *args, **kwargs):
+            if issubclass(category, FillstressWarning):
+                self.console.warning(str(message))
+            else:
+                default(message, category, *args, **kwargs)
+        warnings.showwarning = show
 
 
 def _parser() -> argparse.ArgumentParser:

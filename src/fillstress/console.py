@@ -30,6 +30,10 @@ class Console:
     def error(self, message: str) -> None:
         self.err.print(f"[bold red]fillstress: error:[/] {escape(message)}", soft_wrap=True)
 
+    def warning(self, message: str) -> None:
+        if not self.quiet:
+            self.err.print(f"[yellow]fillstress: warning:[/] {escape(message)}", soft_wrap=True)
+
     def wrote(self, path) -> None:
         if not self.quiet:
             self.out.print(f"wrote {escape(str(path))}")

@@ -64,3 +64,9 @@ class CapacityError(FillstressError):
     ...     print(exc)
     slices needs 3.0 GB, cap is 1.0 GB; use tiles
     """
+
+
+class FillstressWarning(UserWarning):
+    """Something the engineer should know that does not stop the work (a recovered folder,
+    a grid far larger than the loads, an implausible value). The command prints each as
+    one ``fillstress: warning:`` line on stderr."""

@@ -180,3 +180,54 @@ def write_manifest(folder, **fields) -> Path:
     text = json.dumps(manifest, indent=2, ensure_ascii=False, allow_nan=False) + "\n"
     return write_atomic(root / MANIFEST_NAME,
                         lambda tmp: tmp.write_text(text, encoding="utf-8"))
+
+
+def _read_manifest(root: Path) -> dict:
+    path = root / MANIFEST_NAME
+    if not path.is_file():
+        raise InputError("not a fillstress results folder (no manifest.json)", file=root)
+    try:
+        return json.loads(path.read_text(encoding="utf-8"))
+    except ValueError as exc:
+        raise InputError(f"is not valid JSON ({exc.msg} at line {exc.lineno})",
+                         file=path) from None
+
+
+def refresh_checksums(folder, relpaths: Iterable[str]) -> Path:
+    """Record the current SHA-256 of files rewritten in a finished results folder (the
+    report rewritten by ``fillstress report``) so the folder still verifies.
+
+    Examples
+    --------
+    >>> import tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp())
+    >>> _ = (d / "report.html").write_text("first")
+    >>> _ = write_manifest(d, settings={})
+    >>> _ = (d / "report.html").write_text("second")
+    >>> verify_folder(d)
+    ['report.html: checksum differs from manifest.json']
+    >>> _ = refresh_checksums(d, ["report.html"])
+    >>> verify_folder(d)
+    []
+    """
+    root = Path(os.fspath(folder))
+    manifest = _read_manifest(root)
+    outputs = dict(manifest.get("outputs") or {})
+    for rel in relpaths:
+        outputs[rel] = sha256_file(root / rel)
+    manifest["outputs"] = dict(sorted(outputs.items()))
+    text = json.dumps(manifest, indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+    return write_atomic(root / MANIFEST_NAME, lambda tmp: tmp.write_text(text, encoding="utf-8"))
+
+
+def verify_folder(folder) -> list[str]:
+    """Differences between a results folder and its manifest: files missing, changed or not
+    listed. An empty list means the folder is complete and unaltered."""
+    root = Path(os.fspath(folder))
+    listed = _read_manifest(root).get("outputs") or {}
+    found = output_checksums(root)
+    problems = [f"{rel}: missing" for rel in listed if rel not in found]
+    problems += [f"{rel}: checksum differs from manifest.json" for rel, sha in listed.items()
+                 if rel in found and found[rel] != sha]
+    problems += [f"{rel}: not listed in manifest.json" for rel in found if rel not in listed]
+    return problems

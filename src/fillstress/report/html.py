@@ -8,6 +8,7 @@ their unit in the site's unit system (:mod:`fillstress.report.labels`).
 from __future__ import annotations
 
 import base64
+import os
 import re
 from datetime import datetime, timezone
 from pathlib import Path
@@ -498,4 +499,13 @@ def write_report(results_dir, path=None) -> Path:
     folder = ResultsFolder(results_dir)
     text = _Report(folder).page()
     path = folder.path / "report.html" if path is None else Path(path)
-    return write_atomic(path, lambda tmp: tmp.write_text(text, encoding="utf-8"))
+    write_atomic(path, lambda tmp: tmp.write_text(text, encoding="utf-8"))
+    _record_in_manifest(folder.path, path)
+    return path
+
+
+def _record_in_manifest(root: Path, path: Path) -> None:
+    """A report written into its results folder gets its new checksum in the manifest."""
+    from ..io.manifest import refresh_checksums
+    if Path(os.path.realpath(path)).parent == Path(os.path.realpath(root)):
+        refresh_checksums(root, [path.name])

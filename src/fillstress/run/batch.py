@@ -175,7 +175,8 @@ def run_batch(site_path, variants_path, out, *, overwrite=False, report=False,
     site = load_site(site_path)
     variants = read_variants(variants_path, site.units)
     out = Path(out) if out else Path(f"results-{Path(site_path).stem}-batch")
-    folder = ResultsFolder(out, overwrite=overwrite)
+    folder = ResultsFolder(out, overwrite=overwrite,
+                           protect=site.config.input_files() + [Path(variants_path)])
     sites = [apply_variant(site, v) for v in variants]
 
     if workers or scheduler:

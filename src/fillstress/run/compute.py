@@ -191,7 +191,8 @@ def run_site_file(path, out=None, *, overwrite=False, report=True, progress=sile
     """
     site = load_site(path)
     out = Path(out) if out else Path(f"results-{Path(path).stem}")
-    folder = ResultsFolder(out, overwrite=overwrite)      # refuses an existing folder now
+    # refuses now an existing folder, one that is not a results folder or holds an input
+    folder = ResultsFolder(out, overwrite=overwrite, protect=site.config.input_files())
     check_fits(site)                                      # refuses, with numbers, before work
     if workers and scheduler:
         raise InputError("give --workers or --scheduler, not both", argument="--workers")
