@@ -9,7 +9,8 @@ import shapely
 
 from fillstress.errors import InputError
 from fillstress.grid import GridSpec
-from fillstress.shapes.bodies import Body, default_cell_size, refine, stage_pressure
+from fillstress.shapes.bodies import (MAX_DEFAULT_CELLS, Body, choose_cell, refine,
+                                     stage_pressure)
 from fillstress.shapes.footprints import footprint_thickness, read_footprints
 
 SPEC = GridSpec(0.0, 0.0, 1.0, 1.0, 10, 8)
@@ -72,14 +73,46 @@ def test_body_and_stage_errors():
     (0.3, 0.05, 0.1),      # lower bound
 ])
 def test_default_cell_size(feature, depth, expected):
-    assert default_cell_size(feature, depth) == expected
+    assert choose_cell(feature, depth).cell_m == expected
+
+
+FOOT = 0.3048
+
+
+@pytest.mark.parametrize("feature_ft, depth_ft, expected_ft, rule", [
+    (100.0, 13.1, 5.0, "depth rule"),    # 6.55 ft → 5 ft, not 2 m = 6.56 ft
+    (30.0, None, 2.5, "feature rule"),   # 3 ft → 2.5 ft
+    (120.0, 1.0, 0.5, "depth rule"),     # 0.5 ft exactly
+    (2.0, 0.2, 0.5, "depth rule: half the shallowest receptor depth (0.2 ft), held to the "
+                    "smallest"),         # 0.1 ft, bounded below by 0.1 m → 0.5 ft
+])
+def test_default_cell_is_a_round_number_of_feet_on_a_feet_site(feature_ft, depth_ft,
+                                                                expected_ft, rule):
+    choice = choose_cell(feature_ft * FOOT, depth_ft and depth_ft * FOOT, unit_m=FOOT,
+                         unit="ft")
+    assert choice.cell_m / FOOT == pytest.approx(expected_ft, rel=1e-12)
+    assert choice.rule.startswith(rule)
+
+
+def test_default_cell_is_coarsened_to_bound_the_cells_of_a_long_grid():
+    """A 3-mile corridor's bounding box (16,000 × 9,000 ft) with a 1 ft pipe cover: the
+    depth rule's 0.5 ft would give 576 million cells; the work bound takes the round
+    number of feet next above sqrt(area / MAX_DEFAULT_CELLS) = 8.5 ft, i.e. 10 ft."""
+    area = 16_000 * 9_000 * FOOT**2
+    choice = choose_cell(60 * FOOT, 1.0 * FOOT, area_m2=area, unit_m=FOOT, unit="ft")
+    assert choice.cell_m / FOOT == pytest.approx(10.0)
+    assert area / choice.cell_m**2 <= MAX_DEFAULT_CELLS
+    assert choice.rule.startswith("work bound") and "576,000,000 cells" in choice.rule
+    small = choose_cell(60 * FOOT, 1.0 * FOOT, area_m2=400 * 300 * FOOT**2, unit_m=FOOT,
+                        unit="ft")
+    assert small.cell_m / FOOT == pytest.approx(0.5) and small.rule.startswith("depth")
 
 
 def test_default_cell_size_and_refine_errors():
     with pytest.raises(InputError, match="smallest_feature_m"):
-        default_cell_size(0.0, 2.0)
+        choose_cell(0.0, 2.0)
     with pytest.raises(InputError, match="shallowest_depth_m"):
-        default_cell_size(10.0, -1.0)
+        choose_cell(10.0, -1.0)
     assert refine(SPEC, 4).shape == (32, 40)
     with pytest.raises(InputError, match="factor"):
         refine(SPEC, 1)

@@ -82,7 +82,8 @@ class Console:
         """What a run would compute (run.compute.CheckReport)."""
         self.table(*body_rows(report.site))
         self.table("What a run computes", ["item", "value"], report.plan)
-        self.lines(["site file is valid; nothing was computed or written"])
+        self.lines([f"warning: {w}" for w in report.site.warnings]
+                   + ["site file is valid; nothing was computed or written"])
 
     def points(self, result) -> None:
         """Δσz at command-line points (run.point.PointStresses), in site units."""

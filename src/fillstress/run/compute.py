@@ -98,7 +98,7 @@ def compute(site: Site, progress=silent, client=None) -> RunResults:
     with progress("computing", steps) as bar:
         pts["dsz"] = stress(site, grid, pts[["x", "y", "depth"]].to_numpy(float), client)
         bar.advance()
-        res = RunResults(site, grid, pts)
+        res = RunResults(site, grid, pts, warnings=list(site.warnings))
         for plan in site.plan_grids:
             res.slices[plan.name] = _plan_slices(site, grid, plan, client)
             bar.advance()

@@ -218,7 +218,7 @@ def _write_rasters(res, folder) -> None:
                           crs=site.crs)
     ground = site.ground_elevation_grid()
     if ground is not None:
-        geotiff.write_geotiff(folder.path("ground_elevation.tif"), np.nan_to_num(ground), spec,
+        geotiff.write_geotiff(folder.path("ground_elevation.tif"), ground, spec,  # NaN = no data
                               quantity="length", units=u, description="existing ground",
                               crs=site.crs)
     for name, da in res.slices.items():
@@ -254,7 +254,7 @@ def _write_vtk(res, folder) -> None:
     k = _coord_scale(site)
     s = site.spec
     scaled = GridSpec(s.x0 * k, s.y0 * k, s.dx * k, s.dy * k, s.nx, s.ny, site.crs)
-    ground = site.ground_elevation_grid()
+    ground = site.ground_elevation_grid(filled=True)
     vtk.write_fill_surface(folder.path("vtk/fill_surface.vtp"), site.fill_thickness(), scaled,
                            ground=ground, units=u)
     for name, da in res.slices.items():

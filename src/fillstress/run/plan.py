@@ -101,6 +101,7 @@ def describe_run(site) -> list[list]:
         ["method", site.method + (f", ν = {site.poisson:g}" if site.poisson is not None else "")],
         ["analysis grid", f"{site.spec.nx} × {site.spec.ny} cells of "
                           f"{u.length_out(site.spec.dx):g} {u.length} ({loaded:,} loaded)"],
+        ["cell size rule", site.context.cell_rule if site.context else "given"],
         ["construction stages", ", ".join(map(str, site.stages))],
         ["receptor points", ", ".join(f"{n} {k}" for k, n in kinds.items()) or "none"],
         ["soil profile", "none" if site.soil is None else

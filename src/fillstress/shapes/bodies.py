@@ -152,17 +152,45 @@ def stage_pressure(bodies, spec: GridSpec, stage: int) -> np.ndarray:
 
 _NICE = (1.0, 2.0, 2.5, 5.0)
 MIN_CELL_M, MAX_CELL_M = 0.1, 20.0
+#: Most cells a default grid may have: the bound on the work of a run with defaults
+#: (grid arrays, FFT slices and body rasterising scale with it). This project's choice:
+#: 2 million cells keep a default run's slices and bodies within seconds to a minute on a
+#: 2-core machine; a finer cell is one `[grid] cell` away.
+MAX_DEFAULT_CELLS = 2_000_000
 
 
-def default_cell_size(smallest_feature_m: float, shallowest_depth_m: float | None) -> float:
-    """A starting cell size (m): ``min(feature / 10, depth / 2)`` rounded down to 1-2-2.5-5.
+@dataclass(frozen=True)
+class CellChoice:
+    """A default cell size (m) and the rule that chose it, in words for `check`."""
+
+    cell_m: float
+    rule: str
+
+
+def _nice(size_units: float, up: bool) -> float:
+    """The 1-2-2.5-5 × 10^k number next below (or above, with `up`) `size_units`."""
+    decade = 10.0 ** math.floor(math.log10(size_units) + 1e-12)
+    steps = [m * decade for m in _NICE + (10.0,)]
+    if up:
+        return min(v for v in steps if v >= size_units * (1 - 1e-12))
+    return max(v for v in steps if v <= size_units * (1 + 1e-12))
+
+
+def choose_cell(smallest_feature_m: float, shallowest_depth_m: float | None = None, *,
+                area_m2: float | None = None, unit_m: float = 1.0,
+                unit: str = "m") -> CellChoice:
+    """A default cell: ``min(feature / 10, depth / 2)``, coarsened to bound the work.
 
     Rationale (this project's rule of thumb, not a published criterion): ten cells across
     the narrowest fill feature (crest, berm, pile toe) resolve its outline and slopes;
     the Boussinesq influence at depth z smooths the surface load over a width of order z,
     so cells no larger than z/2 make the cell-average load indistinguishable at the
-    shallowest depth of interest. The result is bounded to 0.1…20 m. The run then checks
-    convergence on a grid refined by :func:`refine`; that check is done elsewhere.
+    shallowest depth of interest. That size is rounded down to a 1-2-2.5-5 number *in the
+    site's length unit* (`unit_m` metres), so a feet site gets 2.5 ft, never 0.1 m. When
+    the grid's `area_m2` would then hold more than ``MAX_DEFAULT_CELLS``, the cell is
+    the round number next above ``sqrt(area / MAX_DEFAULT_CELLS)`` instead (a long
+    corridor's bounding box). The result is bounded to about 0.1…20 m. The run checks
+    convergence on a grid of half the cell.
 
     Parameters
     ----------
@@ -170,22 +198,42 @@ def default_cell_size(smallest_feature_m: float, shallowest_depth_m: float | Non
         Narrowest plan dimension of any body (m), > 0.
     shallowest_depth_m : float or None
         Shallowest depth (m) where stress is wanted, > 0; None to use the feature rule only.
+    area_m2 : float, optional
+        Plan area of the analysis grid (m²); None for no work bound.
+    unit_m, unit : float, str
+        The site's length unit in metres and its label.
 
     Examples
     --------
-    >>> default_cell_size(30.0, 4.0)
+    >>> choose_cell(30.0, 4.0).cell_m
     2.0
-    >>> default_cell_size(8.0, None)
-    0.5
+    >>> c = choose_cell(30.0, 4.0, unit_m=0.3048, unit="ft")
+    >>> round(c.cell_m / 0.3048, 9), c.rule
+    (5.0, 'depth rule: half the shallowest receptor depth (13.1 ft), rounded down')
+    >>> choose_cell(30.0, 4.0, area_m2=5000.0 * 2000.0).cell_m    # 10 km² of grid
+    2.5
     """
     feature = positive(smallest_feature_m, "smallest_feature_m")
-    size = feature / 10.0
+    unit_m = positive(unit_m, "unit_m")
+    size, rule = feature / 10.0, (f"feature rule: a tenth of the narrowest body "
+                                  f"({feature / unit_m:.3g} {unit})")
     if shallowest_depth_m is not None:
-        size = min(size, positive(shallowest_depth_m, "shallowest_depth_m") / 2.0)
-    size = min(max(size, MIN_CELL_M), MAX_CELL_M)
-    decade = 10.0 ** math.floor(math.log10(size) + 1e-12)
-    nice = max(m for m in _NICE if m * decade <= size * (1 + 1e-12))
-    return max(nice * decade, MIN_CELL_M)
+        depth = positive(shallowest_depth_m, "shallowest_depth_m")
+        if depth / 2.0 < size:
+            size, rule = depth / 2.0, (f"depth rule: half the shallowest receptor depth "
+                                       f"({depth / unit_m:.3g} {unit})")
+    lo, hi = _nice(MIN_CELL_M / unit_m, up=True), _nice(MAX_CELL_M / unit_m, up=False)
+    rounded = _nice(size / unit_m, up=False)
+    cell = min(max(rounded, lo), hi)
+    rule += (", rounded down" if cell == rounded else
+             f", held to the {'smallest' if cell == lo else 'largest'} default cell")
+    if area_m2 is not None and area_m2 / (cell * unit_m) ** 2 > MAX_DEFAULT_CELLS:
+        bound = min(_nice(math.sqrt(area_m2 / MAX_DEFAULT_CELLS) / unit_m, up=True), hi)
+        rule = (f"work bound: at most {MAX_DEFAULT_CELLS:,} cells over the grid "
+                f"(the {rule.split(':')[0]} gave {cell:g} {unit}, "
+                f"{area_m2 / (cell * unit_m) ** 2:,.0f} cells)")
+        cell = bound
+    return CellChoice(cell * unit_m, rule)
 
 
 def refine(spec: GridSpec, factor: int = 2) -> GridSpec:

@@ -91,6 +91,28 @@ class TinSurface:
         """A TIN of scattered survey points over their surveyed area (`survey_triangles`)."""
         return cls(points, None, crs, source)
 
+    def columns_in_band(self, x, y_low: float, y_high: float) -> np.ndarray:
+        """Which of the positions `x` (1-D) may lie on a triangle within the band
+        y_low…y_high: False is certain to be off the surface (outside every triangle's
+        bounding box), so a caller can skip sampling there."""
+        if not hasattr(self, "_tri_boxes"):
+            c = self.points[self.triangles][:, :, :2]
+            self._tri_boxes = np.c_[c.min(axis=1), c.max(axis=1)]   # xmin ymin xmax ymax
+        b = self._tri_boxes
+        near = b[(b[:, 1] <= y_high) & (b[:, 3] >= y_low)]
+        x = np.asarray(x, dtype=float)
+        if near.size == 0:
+            return np.zeros(x.shape, bool)
+        order = np.argsort(x)
+        start = np.searchsorted(x[order], near[:, 0], side="left")
+        stop = np.searchsorted(x[order], near[:, 2], side="right")
+        count = np.zeros(x.size + 1, int)
+        np.add.at(count, start, 1)
+        np.add.at(count, stop, -1)
+        out = np.empty(x.size, bool)
+        out[order] = np.cumsum(count[:-1]) > 0
+        return out
+
     def sample(self, x, y) -> np.ndarray:
         """Elevation (m) at (x, y), NaN off the surface."""
         x = np.asarray(x, dtype=float)
@@ -233,7 +255,9 @@ class CutReport:
     """Where the design is above (fill) or below (cut) the existing ground.
 
     Volumes in m³ and areas in m², from the sub-cell samples; ``area_compared`` is where
-    both surfaces have data inside the grid.
+    both surfaces have data inside the grid, ``area_design_only`` where the design has
+    data and the existing ground has none (no fill is counted there); ``missing_at`` is
+    one such sample point (x, y), or None.
     """
 
     volume_fill: float
@@ -242,6 +266,8 @@ class CutReport:
     area_cut: float
     area_compared: float
     cut: str
+    area_design_only: float = 0.0
+    missing_at: tuple | None = None
 
 
 class FunctionSurface:
@@ -288,6 +314,8 @@ def _check_same_crs(design, existing, spec) -> None:
     named = [(n, c) for n, c in (("design", design.crs), ("existing", existing.crs),
                                   ("spec", spec.crs)) if c is not None]
     for (n1, c1), (n2, c2) in zip(named, named[1:]):
+        if c1 is c2 or c1 == c2:      # the usual case, without pyproj's slow lookups
+            continue
         a, b = _comparable(c1), _comparable(c2)
         if not a.equals(b):
             raise InputError(f"{n1} is in {a.name!r} but {n2} is in {b.name!r}; read both "
@@ -379,10 +407,16 @@ def fill_from_surfaces(design, existing, spec: GridSpec, *, cut: str = "ignore",
     thickness = spec.zeros()
     sums = np.zeros(5)  # fill volume, cut volume, fill count, cut count, compared count
     sub_area = spec.cell_area / samples**2
+    design_only, missing_at = 0, None
     for j in range(spec.ny):
         x, y = _row_samples(spec, j, samples)
-        diff = design.sample(x, y) - existing.sample(x, y)
+        top, base = _sample_where_design(design, existing, x, y)
+        diff = top - base
         valid = np.isfinite(diff)
+        gap = np.isfinite(top) & ~np.isfinite(base)
+        if gap.any():
+            design_only += gap.sum()
+            missing_at = missing_at or (float(x[gap][0]), float(y[gap][0]))
         diff = np.where(valid, diff, 0.0)
         diff[np.abs(diff) < 1e-9] = 0.0
         load = diff if cut == "unload" else np.maximum(diff, 0.0)
@@ -393,8 +427,22 @@ def fill_from_surfaces(design, existing, spec: GridSpec, *, cut: str = "ignore",
         raise InputError("there is no point inside the grid where both surfaces have data",
                          argument="existing")
     report = CutReport(float(sums[0]), float(sums[1]), float(sums[2] * sub_area),
-                       float(sums[3] * sub_area), float(sums[4] * sub_area), cut)
+                       float(sums[3] * sub_area), float(sums[4] * sub_area), cut,
+                       float(design_only * sub_area), missing_at)
     return thickness, report
+
+
+def _sample_where_design(design, existing, x, y):
+    """Both surfaces at the samples of one row of cells, sampling only the columns the
+    design can cover (a long curved ribbon leaves most of a row off the design TIN)."""
+    top = np.full(x.shape, np.nan)
+    base = np.full(x.shape, np.nan)
+    band = getattr(design, "columns_in_band", None)
+    cols = np.ones(x.shape[1], bool) if band is None else band(x[0], y[0, 0], y[-1, 0])
+    if cols.any():
+        top[:, cols] = design.sample(x[:, cols], y[:, cols])
+        base[:, cols] = existing.sample(x[:, cols], y[:, cols])
+    return top, base
 
 
 def resample_to_grid(surface, spec: GridSpec, *, samples: int = 4) -> np.ndarray:

@@ -20,6 +20,7 @@ from . import receptors as rc
 from ..errors import InputError
 from ..grid import GridSpec, LoadGrid
 from .config import SiteConfig, read_site_file
+from .ground_use import check_body_ground, depths_from_elevations
 from ..units import UnitSystem
 
 # Receptor kinds: the site-file table and the point-table kind.
@@ -48,6 +49,11 @@ class Site:
     cut_reports: dict = field(default_factory=dict)  # body → surfaces.CutReport
     body_factors: tuple = (1.0, 1.0)  # (unit weight, thickness) scale of a batch variant
     context: object = field(default=None, repr=False)  # what rebuilding the bodies needs
+
+    @property
+    def warnings(self) -> list:
+        """What building the site found doubtful (shown by check and by a run)."""
+        return self.context.warnings if self.context is not None else []
 
     @property
     def path(self) -> Path:
@@ -79,12 +85,20 @@ class Site:
         return sum((b.sign * b.thickness for b in self.bodies if b.stage <= stage),
                    self.spec.zeros())
 
-    def ground_elevation_grid(self):
-        """Existing ground elevation at the cell centres (m), or None without [ground]."""
+    def ground_elevation_grid(self, filled: bool = False):
+        """Existing ground elevation at the cell centres (m), or None without [ground];
+        NaN where the ground has no data, or with `filled` the nearest cell's value there
+        (for drawing only: nothing is computed where the ground is missing)."""
         if self.ground is None:
             return None
         gx, gy = np.meshgrid(self.spec.x_centres, self.spec.y_centres)
-        return self.ground(gx, gy)
+        z = self.ground(gx, gy)
+        gap = ~np.isfinite(z)
+        if filled and gap.any() and not gap.all():
+            from scipy.ndimage import distance_transform_edt
+            nearest = distance_transform_edt(gap, return_distances=False, return_indices=True)
+            z = z[tuple(nearest)]
+        return z
 
 
 def scaled_body(body, unit_weight_factor: float = 1.0, height_factor: float = 1.0):
@@ -123,6 +137,9 @@ class _Context:
     footprints: dict = field(default_factory=dict)   # body → footprint frame with heights
     surfaces: dict = field(default_factory=dict)     # (path, name) → surface
     build_seconds: float = 0.0                       # time taken to rasterise the bodies
+    cell_rule: str = ""                              # why the cell is the size it is
+    ground_source: str = ""                          # "[ground] points 'survey.csv'"
+    warnings: list = field(default_factory=list)     # found while building, for check
 
     def xy(self, coords) -> np.ndarray:
         """Inline site-file coordinates (CRS units) → internal metres."""
@@ -191,6 +208,7 @@ def _ground(ctx: _Context):
     if given[0] == "elevation":
         z = g["elevation"]
         return lambda x, y: np.full(np.shape(x), z, dtype=float)
+    ctx.ground_source = f"ground.{given[0]} '{Path(g[given[0]]).name}'"
     with _located(ctx.cfg, f"ground.{given[0]}"):
         return ctx.surface(g[given[0]], g.get("surface_name")).sample
 
@@ -379,6 +397,8 @@ def _surfaces(ctx, name, raw, spec):
     else:
         raise InputError("needs existing = \"...\" or a [ground] table", argument="existing")
     thickness, report = fill_from_surfaces(design, existing, spec, cut=raw["cut"])
+    if raw.get("existing") is None:
+        check_body_ground(ctx, name, report)
     if report.area_compared <= 0:
         raise InputError("the design and existing surfaces do not overlap inside the grid",
                          argument="design")
@@ -399,13 +419,17 @@ def _analysis_grid(ctx: _Context, outlines: dict, receptors: dict) -> GridSpec:
         for r in items:
             b = r["geometry"].bounds
             bounds = np.r_[np.minimum(bounds[:2], b[:2]), np.maximum(bounds[2:], b[2:])]
-    cell = grid.get("cell")
-    if cell is None:
-        from ..shapes.bodies import default_cell_size
-        smallest = min(min(_feature_size(g) for g in outlines.values()), 1e9)
-        shallowest = _shallowest_depth(ctx, receptors)
-        cell = default_cell_size(smallest, shallowest)
     margin = grid.get("margin", 10.0)
+    cell = grid.get("cell")
+    ctx.cell_rule = "given in [grid] cell"
+    if cell is None:
+        from ..shapes.bodies import choose_cell
+        smallest = min(min(_feature_size(g) for g in outlines.values()), 1e9)
+        width, height = bounds[2:] - bounds[:2] + 2 * margin
+        u = ctx.cfg.units
+        choice = choose_cell(smallest, _shallowest_depth(ctx, receptors),
+                             area_m2=width * height, unit_m=u.length_to_m, unit=u.length)
+        cell, ctx.cell_rule = choice.cell_m, choice.rule
     with _located(ctx.cfg, "grid"):
         return GridSpec.covering(bounds, cell, margin=margin,
                                  crs=crsmod.metric_twin(ctx.site_crs[0]) if ctx.site_crs else None)
@@ -459,7 +483,8 @@ def _level(ctx: _Context, raw: dict, where: str, geom, depth_key: str, elevation
         c = geom.centroid
         with _located(ctx.cfg, f"{where}.{elevation_key}"):
             elev = np.atleast_1d(raw[elevation_key])[0]
-            return float(rc.depth_from_elevation(c.x, c.y, elev, ctx.ground))
+            return float(depths_from_elevations(ctx, (c.x, c.y), elev,
+                                                f"{where}.{elevation_key}", "foundation")[0])
     return None
 
 
@@ -542,7 +567,8 @@ def _pipe_crown_depth(ctx, item, where):
             raise InputError(f"give one invert elevation or one per vertex ({len(xy)})",
                              file=ctx.cfg.path, key=f"{where}.invert_elevation")
         with _located(ctx.cfg, f"{where}.invert_elevation"):
-            depths = rc.depth_from_elevation(xy[:, 0], xy[:, 1], elev + d, ctx.ground)
+            depths = depths_from_elevations(ctx, xy[:, :2], elev, f"{where}.invert_elevation",
+                                            "pipe crown", above=d)
         return np.broadcast_to(depths, len(xy)).tolist()
     raise InputError("needs crown_depth, invert_depth, invert_elevation or depth_field",
                      file=ctx.cfg.path, key=where)

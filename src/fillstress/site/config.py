@@ -154,6 +154,7 @@ class _Validator:
         if table.variants and kind not in table.variants:
             self.fail(f"{where}.kind", f"must be one of {', '.join(table.variants)}, got {kind!r}")
         keys = table.keys_for(kind)
+        raw = self._spelled(raw, keys, where)
         valid = [k.name for k in keys] + (["layers"] if table is schema.SOIL else [])
         _reject_unknown(raw, valid, self.path, where)
         out = {}
@@ -164,6 +165,17 @@ class _Validator:
                 self.fail(f"{where}.{key.name}", "required key is missing")
             else:
                 out[key.name] = key.default  # defaults are declared in SI
+        return out
+
+    def _spelled(self, raw: dict, keys, where: str) -> dict:
+        """`raw` with other accepted spellings of a key (centerline, stations) renamed."""
+        out = dict(raw)
+        for key in keys:
+            for alias in key.aliases:
+                if alias in out:
+                    if key.name in out:
+                        self.fail(f"{where}.{alias}", f"give {key.name} or {alias}, not both")
+                    out[key.name] = out.pop(alias)
         return out
 
     def value(self, v, key: schema.Key, where: str):

@@ -37,6 +37,7 @@ class Key:
     example: str = ""
     minimum: float | None = None
     exclusive_minimum: bool = False
+    aliases: tuple = ()          # other accepted spellings (US: centerline, stations)
 
 
 @dataclass(frozen=True)
@@ -61,7 +62,7 @@ class Table:
         return self.keys + tuple(self.variants.get(kind, ()))
 
     def all_key_names(self) -> list[str]:
-        names = [k.name for k in self.keys]
+        names = [k.name for k in self.keys] + [a for k in self.keys for a in k.aliases]
         for extra in self.variants.values():
             names += [k.name for k in extra if k.name not in names]
         return names
@@ -143,7 +144,7 @@ BODY_VARIANTS = {
     ),
     "embankment": (
         Key("centreline", "xy", "Centreline as a list of [x, y] vertices in site CRS units, in chainage order.",
-            example="[[0, 0], [80, 0], [140, 30]]"),
+            example="[[0, 0], [80, 0], [140, 30]]", aliases=("centerline",)),
         Key("file", "path", "Vector file with the centreline (a LineString)."),
         Key("where", "str", "Select the feature of `file` whose `id_field` equals this value."),
         Key("id_field", "str", "Attribute of `file` used by `where`.", default="id"),

@@ -39,6 +39,8 @@ def _rows(keys) -> list[str]:
             meaning += " One of: " + ", ".join(f"`{c}`" for c in k.choices) + "."
         if k.example:
             meaning += f" Example: `{k.name} = {k.example}`."
+        if k.aliases:
+            meaning += " Also spelled " + ", ".join(f"`{a}`" for a in k.aliases) + "."
         rows.append(f"| `{k.name}` | {k.kind} | {_unit(k)} | {_default(k)} | {meaning} |")
     return rows
 
