@@ -1,9 +1,22 @@
-"""What settlement means for buildings and pipes: differential settlement, angular
-distortion against Bjerrum's (1963) limits, and differential settlement along pipes.
+"""What settlement means for buildings and pipes: tilt, relative rotation (angular
+distortion) and deflection ratio as defined by Burland & Wroth (1974), checked against the
+limits of Bjerrum (1963) and Skempton & MacDonald (1956); differential settlement, angular
+change and curvature along pipes.
 
-Inputs are plain arrays in SI units (m, kPa) with one value per sample point, as produced
-from the receptors' sample points; results are frozen dataclasses with an ``as_row()``
-giving a flat dict (column names carry SI unit suffixes) for CSV writers.
+Definitions (Burland & Wroth 1974), settlement s positive down:
+
+- tilt ω: the rigid-body rotation of the whole building, here the slope of the least-squares
+  plane through its settlement points (reported apart, not a distortion);
+- rotation θ of the line joining two points, and the relative rotation (angular distortion)
+  β = θ − ω, the rotation of that line relative to the tilt; along a wall with the plane's
+  slope ω_w in the wall's direction, β_i = (s_j − s_i)/L_ij − ω_w for neighbouring points;
+- relative deflection Δ: the largest displacement of the wall's settlement profile from the
+  straight line joining its ends (positive: sagging, the middle settles more), and the
+  deflection ratio Δ/L with L the wall length.
+
+Inputs are plain arrays in SI units (m, kPa) with one value per sample point; results are
+frozen dataclasses with an ``as_row()`` giving a flat dict (column names carry SI unit
+suffixes) for CSV writers.
 """
 from __future__ import annotations
 
@@ -21,7 +34,15 @@ BJERRUM_1963_LIMITS = {
     "panel_wall_cracking": 1.0 / 300.0,  # first cracking of panel walls expected
     "structural_damage": 1.0 / 150.0,    # structural damage of general buildings expected
 }
+# Skempton & MacDonald (1956), angular distortion limits from observed damage (as reproduced
+# in standard foundation texts; recalled from memory).
+SKEMPTON_MACDONALD_1956_LIMITS = {
+    "sm_cracking": 1.0 / 300.0,          # cracking of panel walls and partitions
+    "sm_structural_damage": 1.0 / 150.0,  # structural damage
+}
+DEFAULT_LIMITS = {**BJERRUM_1963_LIMITS, **SKEMPTON_MACDONALD_1956_LIMITS}
 _COLLINEAR_RATIO = 1e-9
+_ON_WALL_M = 1e-6
 
 
 # --- adjacency ------------------------------------------------------------------------
@@ -92,15 +113,45 @@ def _check_pairs(pairs, n: int) -> np.ndarray:
 
 # --- buildings ------------------------------------------------------------------------
 @dataclass(frozen=True)
+class WallDistortion:
+    """Burland & Wroth (1974) measures along one wall line (SI units; ratios dimensionless).
+
+    ``tilt_along`` is the building's tilt ω in the wall's direction (start → end);
+    ``relative_rotation`` the largest |β| between neighbouring points, between
+    ``rotation_points``; ``relative_deflection_m`` Δ (positive sagging, negative hogging)
+    and ``deflection_ratio`` Δ/L.
+    """
+
+    wall: str
+    length_m: float
+    n_points: int
+    tilt_along: float
+    relative_rotation: float
+    rotation_points: tuple[str, str] | None
+    relative_deflection_m: float
+    deflection_ratio: float
+
+    def as_row(self) -> dict:
+        a, b = self.rotation_points or ("", "")
+        return {"wall": self.wall, "length_m": self.length_m, "n_points": self.n_points,
+                "tilt_along": self.tilt_along, "relative_rotation": self.relative_rotation,
+                "rotation_point_a": a, "rotation_point_b": b,
+                "relative_deflection_m": self.relative_deflection_m,
+                "deflection_ratio": self.deflection_ratio}
+
+
+@dataclass(frozen=True)
 class BuildingSettlement:
     """Settlement summary of one building (SI units: m; distortions are dimensionless).
 
-    ``angular_distortion`` is the largest |Δs| / distance over adjacent point pairs, found
-    between ``distortion_points`` ``distortion_span_m`` apart; with ``tilt_removed`` the
-    best-fit plane (rigid tilt) was subtracted first. ``tilt`` is the slope of that plane.
-    ``exceeded`` lists the limits reached (distortion >= limit), most severe first,
-    ``worst_limit`` the most severe (largest) of them ("" when none); ``limits_checked``
-    names every limit tried.
+    ``angular_distortion`` is the largest relative rotation β (Burland & Wroth 1974: the
+    rotation between neighbouring points less the rigid-body tilt), found between
+    ``distortion_points`` ``distortion_span_m`` apart: along the wall lines when ``walls``
+    are given, else over neighbouring point pairs. ``tilt`` is the slope of the best-fit
+    plane (rigid-body tilt ω), reported apart. ``deflection_ratio`` is the largest |Δ/L| over
+    the walls (signed: + sagging). ``exceeded`` lists the limits reached (β >= limit), most
+    severe first, ``worst_limit`` the most severe (largest) of them ("" when none);
+    ``limits_checked`` names every limit tried.
     """
 
     receptor_id: str
@@ -112,10 +163,11 @@ class BuildingSettlement:
     distortion_points: tuple[str, str] | None
     distortion_span_m: float
     tilt: float
-    tilt_removed: bool
     exceeded: tuple[str, ...]
     worst_limit: str
     limits_checked: tuple[str, ...] = ()
+    walls: tuple[WallDistortion, ...] = ()
+    deflection_ratio: float = float("nan")
 
     def as_row(self) -> dict:
         """A flat dict for one CSV row; limits appear as ``exceeds_<name>`` booleans."""
@@ -125,7 +177,7 @@ class BuildingSettlement:
                "differential_m": self.differential_m, "angular_distortion": self.angular_distortion,
                "distortion_point_a": a, "distortion_point_b": b,
                "distortion_span_m": self.distortion_span_m, "tilt": self.tilt,
-               "tilt_removed": self.tilt_removed, "worst_limit": self.worst_limit}
+               "deflection_ratio": self.deflection_ratio, "worst_limit": self.worst_limit}
         row.update({f"exceeds_{name}": name in self.exceeded for name in self.limits_checked})
         return row
 
@@ -151,15 +203,96 @@ def _best_fit_slope(xy: np.ndarray, s: np.ndarray) -> tuple[np.ndarray, np.ndarr
 
 def _limits(limits) -> dict[str, float]:
     if limits is None:
-        return dict(BJERRUM_1963_LIMITS)
+        return dict(DEFAULT_LIMITS)
     if not isinstance(limits, dict) or not limits:
         raise InputError("must be a non-empty dict of name → angular distortion limit", argument="limits")
     return {str(k): positive(v, f"limits[{k!r}]") for k, v in limits.items()}
 
 
+def wall_lines(outline, xy) -> list[np.ndarray]:
+    """Indices of the points on each edge of a footprint outline, in order along the edge.
+
+    Parameters
+    ----------
+    outline : array_like, shape (V, 2)
+        Exterior ring vertices in order (the closing repeat optional).
+    xy : array_like, shape (N, 2)
+        Sample points; those within a micrometre of an edge belong to it (corners to both).
+
+    Examples
+    --------
+    >>> wall_lines([[0, 0], [10, 0], [10, 5], [0, 5]],
+    ...            [[0, 0], [10, 0], [10, 5], [0, 5], [5, 0], [5, 2]])[0].tolist()
+    [0, 4, 1]
+    """
+    ring = _plan_points(outline)
+    if len(ring) > 1 and np.allclose(ring[0], ring[-1]):
+        ring = ring[:-1]
+    pts = _plan_points(xy)
+    walls = []
+    for a, b in zip(ring, np.roll(ring, -1, axis=0)):
+        edge = b - a
+        length = float(np.hypot(*edge))
+        if length <= _ON_WALL_M:
+            continue
+        along = (pts - a) @ edge / length
+        off = np.abs((pts - a) @ np.array([-edge[1], edge[0]]) / length)
+        on = np.nonzero((off <= _ON_WALL_M) & (along >= -_ON_WALL_M) & (along <= length + _ON_WALL_M))[0]
+        walls.append(on[np.argsort(along[on], kind="stable")])
+    return walls
+
+
+def wall_distortion(name, xy, settlement, gradient, point_ids=None) -> WallDistortion:
+    """Tilt along, relative rotation β and deflection ratio Δ/L of one wall line.
+
+    Parameters
+    ----------
+    name : str
+    xy : array_like, shape (N, 2), N >= 2
+        Points in order along the wall (first and last are its ends).
+    settlement : array_like, shape (N,)
+    gradient : array_like, shape (2,)
+        (ds/dx, ds/dy) of the building's best-fit plane (its rigid-body tilt).
+
+    Examples
+    --------
+    A 20 m wall sagging 10 mm in the middle on an untilted building: Δ/L = 1/2000,
+    β = 0.01/10 = 1/1000 on each half.
+
+    >>> w = wall_distortion("north", [[0, 0], [10, 0], [20, 0]], [0.02, 0.03, 0.02], [0, 0])
+    >>> round(1 / w.relative_rotation), round(1 / w.deflection_ratio)
+    (1000, 2000)
+    """
+    pts = _plan_points(xy)
+    s = np.atleast_1d(finite_array(settlement, "settlement"))
+    if pts.shape[0] < 2 or s.shape != (pts.shape[0],):
+        raise InputError(f"a wall needs >= 2 points with one settlement each, got {pts.shape[0]} "
+                         f"points and {s.size} values", argument="settlement")
+    ids = [str(i) for i in range(s.size)] if point_ids is None else [str(p) for p in point_ids]
+    g = np.asarray(gradient, dtype=float)
+    chord = pts[-1] - pts[0]
+    length = float(np.hypot(*chord))
+    if length <= 0:
+        raise InputError(f"wall {name!r} has zero length", argument="xy")
+    step = np.diff(pts, axis=0)
+    span = np.hypot(*step.T)
+    if np.any(span <= 0):
+        raise InputError(f"wall {name!r} has two points at one position", argument="xy")
+    beta = np.diff(s) / span - step @ g / span
+    k = int(np.argmax(np.abs(beta)))
+    along = (pts - pts[0]) @ chord / length
+    deviation = s - (s[0] + (s[-1] - s[0]) * along / length)
+    j = int(np.argmax(np.abs(deviation)))
+    return WallDistortion(
+        wall=str(name), length_m=length, n_points=int(s.size),
+        tilt_along=float(chord @ g / length), relative_rotation=float(abs(beta[k])),
+        rotation_points=(ids[k], ids[k + 1]), relative_deflection_m=float(deviation[j]),
+        deflection_ratio=float(deviation[j] / length))
+
+
 def building_settlement(receptor_id, xy, settlement, point_ids=None, pairs=None,
-                        limits: dict | None = None, remove_tilt: bool = False) -> BuildingSettlement:
-    """Maximum, minimum and differential settlement and the largest angular distortion.
+                        limits: dict | None = None, outline=None) -> BuildingSettlement:
+    """Settlement range, tilt, relative rotation (angular distortion) and deflection ratio.
 
     Parameters
     ----------
@@ -171,20 +304,23 @@ def building_settlement(receptor_id, xy, settlement, point_ids=None, pairs=None,
     point_ids : sequence of str, optional
         Names of the points for the report; default "0", "1", …
     pairs : array_like of int, shape (P, 2), optional
-        Adjacent point pairs; default the Delaunay edges (`adjacent_pairs`).
+        Neighbouring point pairs for β when no `outline` is given; default the Delaunay edges
+        (`adjacent_pairs`).
     limits : dict, optional
-        Name → limiting angular distortion; default `BJERRUM_1963_LIMITS`.
-    remove_tilt : bool
-        Subtract the best-fit plane (rigid-body tilt) before computing distortion, as in
-        Bjerrum's relative rotation; default False (tilt counts: conservative).
+        Name → limiting angular distortion; default Bjerrum (1963) and Skempton & MacDonald
+        (1956), `DEFAULT_LIMITS`.
+    outline : array_like, shape (V, 2), optional
+        Footprint exterior ring: β and Δ/L are then taken along each wall line (the points
+        on each edge, `wall_lines`), as Burland & Wroth (1974) define them.
 
     Examples
     --------
-    A 20 m wall whose far end settles 50 mm more: distortion 0.05 / 20 = 1/400.
+    A rigidly tilting building has no distortion, only tilt (1/400 here):
 
-    >>> r = building_settlement("shed", [[0, 0], [10, 0], [20, 0]], [0.010, 0.035, 0.060])
-    >>> round(1 / r.angular_distortion), r.worst_limit, round(r.differential_m, 3)
-    (400, 'no_cracking', 0.05)
+    >>> r = building_settlement("shed", [[0, 0], [20, 0], [20, 10], [0, 10]],
+    ...                         [0.01, 0.06, 0.06, 0.01])
+    >>> round(r.angular_distortion, 12), round(1 / r.tilt)
+    (0.0, 400)
     """
     pts = _plan_points(xy)
     s = np.atleast_1d(finite_array(settlement, "settlement"))
@@ -195,23 +331,33 @@ def building_settlement(receptor_id, xy, settlement, point_ids=None, pairs=None,
     if len(ids) != s.size:
         raise InputError(f"must name each of the {s.size} points, got {len(ids)}", argument="point_ids")
     lim = _limits(limits)
-    edges = adjacent_pairs(pts) if pairs is None else _check_pairs(pairs, s.size)
     residual, gradient = _best_fit_slope(pts, s)
-    values = residual if remove_tilt else s
-    distortion, worst_pair, span = _largest_distortion(pts, values, edges)
+    walls = ()
+    if outline is not None:
+        lines = [w for w in wall_lines(outline, pts) if w.size >= 2]
+        walls = tuple(wall_distortion(f"{ids[w[0]]}–{ids[w[-1]]}", pts[w], s[w], gradient,
+                                      [ids[i] for i in w]) for w in lines)
+        edges = np.array([(a, b) for w in lines for a, b in zip(w[:-1], w[1:])], dtype=int).reshape(-1, 2)
+    else:
+        edges = adjacent_pairs(pts) if pairs is None else _check_pairs(pairs, s.size)
+    distortion, worst_pair, span = _largest_distortion(pts, residual, edges)
     exceeded = tuple(name for name, v in sorted(lim.items(), key=lambda kv: kv[1], reverse=True)
                      if distortion >= v * (1 - 1e-12))      # reached, allowing for rounding
     worst = max(exceeded, key=lambda name: lim[name]) if exceeded else ""
+    deflection = max((w.deflection_ratio for w in walls), key=abs, default=float("nan"))
     return BuildingSettlement(
         receptor_id=str(receptor_id), n_points=int(s.size),
         settlement_max_m=float(s.max()), settlement_min_m=float(s.min()),
         differential_m=float(s.max() - s.min()), angular_distortion=distortion,
         distortion_points=None if worst_pair is None else (ids[worst_pair[0]], ids[worst_pair[1]]),
-        distortion_span_m=span, tilt=float(np.hypot(*gradient)), tilt_removed=bool(remove_tilt),
-        exceeded=exceeded, worst_limit=worst, limits_checked=tuple(lim))
+        distortion_span_m=span, tilt=float(np.hypot(*gradient)),
+        exceeded=exceeded, worst_limit=worst, limits_checked=tuple(lim), walls=walls,
+        deflection_ratio=float(deflection))
 
 
 def _largest_distortion(pts, values, edges):
+    """Largest |Δ residual| / distance over `edges`: the relative rotation β = θ − ω, since
+    the residuals from the tilt plane differ from s by exactly ω's share of each pair."""
     if edges.shape[0] == 0:
         return 0.0, None, 0.0
     length = np.hypot(*(pts[edges[:, 1]] - pts[edges[:, 0]]).T)
@@ -232,7 +378,10 @@ class PipeSettlement:
     ``chainage_m`` and ``settlement_m`` are the profile sorted by chainage.
     ``differential_max_m`` is the largest |s_i − s_j| over point pairs at most
     ``differential_length_m`` apart in chainage, between chainages ``differential_between_m``.
-    ``gradient_max`` is the largest |Δs| / Δchainage between consecutive points.
+    ``gradient_max`` is the largest |Δs| / Δchainage between consecutive points;
+    ``angular_change_max`` the largest change of that slope at a point (rad), and
+    ``curvature_max_per_m`` the largest |d²s/dx²| (second difference on the chainages), at
+    ``chainage_at_curvature_max_m`` (NaN for fewer than three points).
     """
 
     receptor_id: str
@@ -248,6 +397,9 @@ class PipeSettlement:
     gradient_max: float
     dsz_crown_max_kpa: float
     chainage_at_dsz_max_m: float
+    angular_change_max: float = float("nan")
+    curvature_max_per_m: float = float("nan")
+    chainage_at_curvature_max_m: float = float("nan")
 
     def as_row(self) -> dict:
         """A flat dict for one CSV row (the profile arrays left out)."""
@@ -259,7 +411,12 @@ class PipeSettlement:
                 "differential_max_m": self.differential_max_m,
                 "differential_from_chainage_m": a, "differential_to_chainage_m": b,
                 "gradient_max": self.gradient_max, "dsz_crown_max_kPa": self.dsz_crown_max_kpa,
-                "chainage_at_dsz_max_m": self.chainage_at_dsz_max_m}
+                "chainage_at_dsz_max_m": self.chainage_at_dsz_max_m,
+                "angular_change_max": self.angular_change_max,
+                "curvature_max_per_m": self.curvature_max_per_m,
+                "chainage_at_curvature_max_m": self.chainage_at_curvature_max_m,
+                "curvature_radius_min_m": (1.0 / self.curvature_max_per_m
+                                           if self.curvature_max_per_m > 0 else float("inf"))}
 
     def profile_rows(self) -> list[dict]:
         """One dict per point along the pipe: chainage and settlement."""
@@ -329,6 +486,8 @@ def pipe_settlement(receptor_id, chainage, settlement, dsz_crown, length_m) -> P
     >>> r = pipe_settlement("main", [10, 0, 5], [0.03, 0.01, 0.02], [40, 10, 25], 5.0)
     >>> r.chainage_m.tolist(), round(r.differential_max_m, 3), r.dsz_crown_max_kpa
     ([0.0, 5.0, 10.0], 0.01, 40.0)
+    >>> r.curvature_max_per_m                       # a straight settlement profile
+    0.0
     """
     ch = np.atleast_1d(finite_array(chainage, "chainage"))
     s = np.atleast_1d(finite_array(settlement, "settlement"))
@@ -348,10 +507,25 @@ def pipe_settlement(receptor_id, chainage, settlement, dsz_crown, length_m) -> P
     diff, pair = largest_differential_within(ch, s, length) if ch.size > 1 else (0.0, None)
     gradient = float(np.max(np.abs(np.diff(s)) / np.diff(ch))) if ch.size > 1 else 0.0
     k_max, k_q = int(np.argmax(s)), int(np.argmax(q))
+    bend = _bending(ch, s)
     return PipeSettlement(
         receptor_id=str(receptor_id), n_points=int(ch.size), chainage_m=ch, settlement_m=s,
         settlement_max_m=float(s[k_max]), chainage_at_max_m=float(ch[k_max]),
         settlement_min_m=float(s.min()), differential_length_m=length,
         differential_max_m=diff,
         differential_between_m=None if pair is None else (float(ch[pair[0]]), float(ch[pair[1]])),
-        gradient_max=gradient, dsz_crown_max_kpa=float(q[k_q]), chainage_at_dsz_max_m=float(ch[k_q]))
+        gradient_max=gradient, dsz_crown_max_kpa=float(q[k_q]), chainage_at_dsz_max_m=float(ch[k_q]),
+        **bend)
+
+
+def _bending(ch: np.ndarray, s: np.ndarray) -> dict:
+    """Largest angular change between neighbouring segments and the largest curvature."""
+    if ch.size < 3:
+        return {}
+    slope = np.diff(s) / np.diff(ch)
+    change = np.diff(slope)
+    curvature = 2.0 * change / (ch[2:] - ch[:-2])
+    k = int(np.argmax(np.abs(curvature)))
+    return {"angular_change_max": float(np.max(np.abs(change))),
+            "curvature_max_per_m": float(abs(curvature[k])),
+            "chainage_at_curvature_max_m": float(ch[k + 1])}

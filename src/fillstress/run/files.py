@@ -60,13 +60,16 @@ def bodies_table(site) -> pd.DataFrame:
 BUILDING_COLUMNS = {"receptor_id": "receptor_id", "n_points": "n_points",
                     "settlement_max": "settlement_max_m", "settlement_min": "settlement_min_m",
                     "differential_settlement": "differential_m",
-                    "angular_distortion": "angular_distortion"}
+                    "angular_distortion": "angular_distortion", "tilt": "tilt",
+                    "deflection_ratio": "deflection_ratio"}
 PIPE_COLUMNS = {"receptor_id": "receptor_id", "n_points": "n_points",
                 "settlement_max": "settlement_max_m", "chainage_at_max": "chainage_at_max_m",
                 "differential_length": "differential_length_m",
                 "differential_settlement": "differential_max_m",
                 "differential_from": "differential_from_chainage_m",
-                "differential_to": "differential_to_chainage_m", "gradient_max": "gradient_max"}
+                "differential_to": "differential_to_chainage_m", "gradient_max": "gradient_max",
+                "angular_change_max": "angular_change_max",
+                "curvature_radius_min": "curvature_radius_min_m"}
 
 
 def _renamed(items, columns: dict, extra=lambda row: {}) -> pd.DataFrame:
@@ -95,7 +98,9 @@ EXTRA_QUANTITIES = {"chainage_at_max": "length", "differential_length": "length"
                     "differential_from": "length", "differential_to": "length",
                     "gradient_max": None, "influence_depth": "length", "fraction": None,
                     "depth_at_max": "length", "elevation": "length", "cut_volume": "volume",
-                    "compared_area": "area", "stress_ratio_max": None}
+                    "compared_area": "area", "stress_ratio_max": None, "tilt": None,
+                    "deflection_ratio": None, "angular_change_max": None,
+                    "curvature_radius_min": "length"}
 
 
 def stress_summary(points: pd.DataFrame) -> pd.DataFrame:

@@ -8,7 +8,7 @@ import pandas as pd
 
 from .. import settlement as st
 from ..settlement import influence_depth
-from ..structures import BJERRUM_1963_LIMITS, building_settlement, pipe_settlement
+from ..structures import DEFAULT_LIMITS, building_settlement, pipe_settlement
 
 
 def soil_results(res) -> None:
@@ -104,7 +104,8 @@ def _structure_checks(res, targets: pd.DataFrame) -> None:
             continue
         res.buildings.append(building_settlement(
             b["id"], g[["x", "y"]].to_numpy(), g["settlement"].to_numpy(),
-            point_ids=g["point_id"].tolist(), limits=_limit_names(limits)))
+            point_ids=g["point_id"].tolist(), limits=_limit_names(limits),
+            outline=np.asarray(b["geometry"].exterior.coords)))
     for pipe in res.site.receptors.get("pipes", []):
         g = targets[targets["receptor_id"] == pipe["id"]].sort_values("chainage")
         if len(g) < 2:
@@ -115,10 +116,11 @@ def _structure_checks(res, targets: pd.DataFrame) -> None:
 
 
 def _limit_names(limits: dict) -> dict:
-    """Site-file limit keys → the Bjerrum (1963) limit names of structures.py."""
+    """Site-file limit keys → the Bjerrum (1963) limit names of structures.py, with the
+    Skempton & MacDonald (1956) limits beside them."""
     keys = {"limit_no_cracking": "no_cracking", "limit_first_cracking": "panel_wall_cracking",
             "limit_structural_damage": "structural_damage"}
-    return {**BJERRUM_1963_LIMITS, **{keys[k]: v for k, v in limits.items()}}
+    return {**DEFAULT_LIMITS, **{keys[k]: v for k, v in limits.items()}}
 
 
 def _time_curves(res, targets, by_layer_stage) -> None:

@@ -590,7 +590,8 @@ def _sample(table: str, r: dict) -> pd.DataFrame:
         depths = np.arange(r["depth"] + r["profile_step"], r["profile_bottom"] + 1e-9,
                            r["profile_step"])
         return rc.building_points(r["id"], r["geometry"], r["depth"],
-                                  interior_spacing=r["interior_spacing"], profile_depths=depths)
+                                  interior_spacing=r["interior_spacing"], profile_depths=depths,
+                                  wall_spacing=r.get("wall_spacing"))
     if table == "pipes":
         return rc.pipe_points(r["id"], r["geometry"], r["depth"], spacing=r["spacing"],
                               diameter=r.get("diameter") or 0.0)

@@ -97,12 +97,25 @@ def _checked_footprint(footprint) -> Polygon:
     return footprint
 
 
+def _wall_points(corners: np.ndarray, spacing: float | None) -> np.ndarray:
+    """Points along each exterior edge, corners excluded: the midpoint, or with `spacing`
+    the edge divided into equal steps no longer than it (wall lines for distortion)."""
+    out = []
+    for a, b in zip(corners, np.roll(corners, -1, axis=0)):
+        steps = 2 if spacing is None else max(1, int(math.ceil(np.hypot(*(b - a)) / spacing - 1e-9)))
+        f = np.arange(1, steps) / steps
+        out.append(a + f[:, None] * (b - a))
+    return np.vstack(out) if out else np.empty((0, 2))
+
+
 def building_points(receptor_id, footprint: Polygon, foundation_depth: float, *,
-                    interior_spacing: float | None = None, profile_depths=()) -> pd.DataFrame:
+                    interior_spacing: float | None = None, profile_depths=(),
+                    wall_spacing: float | None = None) -> pd.DataFrame:
     """Sample a building footprint into stress points at its foundation level.
 
-    Points, in this order: the exterior-ring vertices (role ``corner``, ids ``-c1…``), the
-    midpoint of every exterior edge (``edge``, ``-e1…``), the centroid (``centroid``, ``-m``;
+    Points, in this order: the exterior-ring vertices (role ``corner``, ids ``-c1…``), points
+    along every exterior edge (``edge``, ``-e1…``: the midpoint, or with `wall_spacing`
+    equal steps no longer than it, for the wall lines of the distortion check), the centroid (``centroid``, ``-m``;
     a representative interior point when the centroid falls outside the footprint), an
     interior lattice of pitch `interior_spacing` centred on the bounding box and clipped to
     the footprint (``interior``, ``-i1…``; nodes on the boundary or at the centroid are
@@ -121,6 +134,8 @@ def building_points(receptor_id, footprint: Polygon, foundation_depth: float, *,
         Pitch (m) of the interior lattice; no interior points when omitted.
     profile_depths : sequence of float, optional
         Depths (m below ground) of the profile points; each must be >= `foundation_depth`.
+    wall_spacing : float, optional
+        Largest step (m) between points along each wall; default one midpoint per edge.
 
     Returns
     -------
@@ -136,12 +151,14 @@ def building_points(receptor_id, footprint: Polygon, foundation_depth: float, *,
     {'corner': 4, 'edge': 4, 'interior': 4, 'profile': 2, 'centroid': 1}
     >>> pts.loc[pts.role == "profile", ["point_id", "x", "y", "depth"]].values.tolist()
     [['B1-p1', 5.0, 5.0, 3.0], ['B1-p2', 5.0, 5.0, 6.0]]
+    >>> int((building_points("B1", box(0, 0, 10, 10), 1.5, wall_spacing=2).role == "edge").sum())
+    16
     """
     rid = _receptor_id(receptor_id)
     poly = _checked_footprint(footprint)
     base = _depth(foundation_depth, "foundation_depth")
     corners = _ring_vertices(poly)
-    mids = 0.5 * (corners + np.roll(corners, -1, axis=0))
+    mids = _wall_points(corners, None if wall_spacing is None else positive(wall_spacing, "wall_spacing"))
     centre = poly.centroid if poly.contains(poly.centroid) else poly.representative_point()
     centre_xy = np.array([[centre.x, centre.y]])
     interior = np.empty((0, 2))

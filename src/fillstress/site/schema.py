@@ -215,6 +215,9 @@ BUILDINGS = Table("buildings", "Buildings to check, each an [[buildings]] entry:
     Key("depth_field", "str", "Attribute of `file` with each foundation depth."),
     Key("interior_spacing", "float", "Spacing of the interior grid of points.", unit=LENGTH,
         default=5.0, **_POS),
+    Key("wall_spacing", "float", "Largest step between points along each wall, for the "
+        "relative rotation and deflection ratio of each wall line (Burland & Wroth 1974).",
+        unit=LENGTH, default=2.0, **_POS),
     Key("profile_step", "float", "Step of the vertical profile below the centroid.",
         unit=LENGTH, default=1.0, **_POS),
     Key("profile_bottom", "float", "Depth of the bottom of the vertical profile.",
