@@ -196,6 +196,7 @@ def _write_cube(path, x, y, dsz, thickness):
     ds = xr.Dataset(
         {"dsz_plan": (("depth", "y", "x"), dsz, {"units": "kPa", "long_name": "vertical stress increase"}),
          "stress_ratio_plan": (("depth", "y", "x"), dsz / sv, {"units": "1"}),
+         "sigma_v0_plan": (("depth",), sv[:, 0, 0], {"units": "kPa"}),
          "fill_thickness": (("y", "x"), thickness, {"units": "m"})},
         coords={"depth": ("depth", np.array(DEPTHS), {"units": "m"}),
                 "y": ("y", y, {"units": "m"}), "x": ("x", x, {"units": "m"})},

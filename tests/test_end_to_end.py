@@ -35,6 +35,24 @@ def test_every_sample_site_is_listed_with_a_readme():
 
 
 @pytest.mark.parametrize("name", SITES)
+def test_scene_page_is_small_named_and_has_every_quantity(runs, name):
+    """scene.html stays under 5 MB, carries the site's name in its title, and the cube's
+    σ'v0 profile gives σ'v0 and Δσz / σ'v0 slices (every sample site has a soil profile)."""
+    import html as html_lib
+    import re
+    from fillstress.report.folder import ResultsFolder
+    folder = runs[name]
+    page = (folder / "scene.html").read_text(encoding="utf-8")
+    assert (folder / "scene.html").stat().st_size <= 5_000_000
+    site = json.loads((folder / "summary.json").read_text())["site"]["name"]
+    title = html_lib.unescape(re.search(r"<title>(.*?)</title>", page).group(1))
+    assert title.startswith(site)
+    results = ResultsFolder(folder)
+    for quantity in ("sigma_v0", "stress_ratio"):
+        assert len(results.plan_slices(quantity)) == len(results.plan_slices("dsz"))
+
+
+@pytest.mark.parametrize("name", SITES)
 def test_outputs_exist_and_open(runs, name):
     import geopandas as gpd
     import pyvista as pv

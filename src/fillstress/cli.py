@@ -121,13 +121,28 @@ def _parser() -> argparse.ArgumentParser:
     c.add_argument("--html", type=Path, help="write a standalone HTML scene instead")
     c.add_argument("--exaggeration", type=float, default=None,
                    help="vertical exaggeration (default: chosen from the site's proportions)")
-    c.add_argument("--quantity", default="dsz", help="dsz, stress_ratio or settlement")
+    _view_options(c)
 
     c = command("report", _report, "Write the HTML engineering report of a results folder.",
                 "fillstress report results -o job-report.html")
     c.add_argument("results", type=Path, help="results folder of a run")
     c.add_argument("-o", "--output", type=Path, help="report file (default results/report.html)")
     return p
+
+
+def _view_options(c):
+    from .report.folder import QUANTITIES
+    from .viewer import CAMERAS, LAYERS
+    c.add_argument("--quantity", default="dsz", choices=list(QUANTITIES),
+                   help="quantity coloured on the slices and points (default dsz)")
+    c.add_argument("--depth", type=float, default=None,
+                   help="show only the slice at this depth (site length unit)")
+    c.add_argument("--layers", default=",".join(LAYERS),
+                   help=f"comma-separated parts to draw (default {','.join(LAYERS)})")
+    c.add_argument("--camera", default="iso", choices=CAMERAS,
+                   help="PNG view: iso (from the south-west), xy (plan), xz, yz")
+    c.add_argument("--colour-range", nargs=2, type=float, metavar=("LOW", "HIGH"), default=None,
+                   help="colour range in the quantity's unit (default: 0 to a robust top)")
 
 
 def _run_options(c):
@@ -185,15 +200,15 @@ def _point(args, console):
 def _view(args, console):
     from . import viewer
     _require_results(args.results)
+    common = dict(exaggeration=args.exaggeration, quantity=args.quantity, colour_range=args.colour_range,
+                  layers=[name.strip() for name in args.layers.split(",") if name.strip()])
     if args.html:
-        viewer.export_scene_html(args.results, args.html)
-        console.wrote(args.html)
+        console.wrote(viewer.export_scene_html(args.results, args.html, **common))
     elif args.png:
-        viewer.render_png(args.results, args.png, exaggeration=args.exaggeration,
-                          quantity=args.quantity)
-        console.wrote(args.png)
+        console.wrote(viewer.render_png(args.results, args.png, camera=args.camera,
+                                        depth=args.depth, **common))
     else:
-        viewer.show(args.results, exaggeration=args.exaggeration, quantity=args.quantity)
+        viewer.show(args.results, depth=args.depth, **common)
 
 
 def _report(args, console):

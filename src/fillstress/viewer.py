@@ -11,9 +11,8 @@ US-survey-foot CRS) are scaled to it, so the scene is not stretched.
 """
 from __future__ import annotations
 
-import contextlib
 import os
-
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
@@ -23,18 +22,68 @@ from .errors import InputError
 from .io.atomic import write_atomic
 from .io.results import QUANTITIES, PlanField, ResultsFolder, quantity_unit_key
 
-#: Perceptually uniform colour maps (matplotlib's viridis family), one per quantity.
-COLOUR_MAPS = {"dsz": "viridis", "stress_ratio": "plasma", "settlement": "magma",
-               "sigma_v0": "viridis", "fill_thickness": "cividis"}
+#: Colour maps (matplotlib's perceptually uniform family), one per quantity, each with the
+#: share of its dark end left out so the lowest values still read against white and black
+#: text (magma's first tenth is near black).
+COLOUR_MAPS = {"dsz": ("viridis", 0.0), "stress_ratio": ("plasma", 0.0),
+               "settlement": ("magma", 0.2), "sigma_v0": ("cividis", 0.0),
+               "fill_thickness": ("cividis", 0.0)}
 LAYERS = ("fill", "slices", "points", "buildings", "pipes", "boreholes")
+#: Receptor kinds: their geometry layer and the table prefix of their sample points.
+RECEPTOR_KINDS = ("buildings", "pipes", "boreholes")
 #: Round vertical exaggerations the automatic choice picks from.
 NICE_EXAGGERATIONS = (1.0, 1.5, 2.0, 2.5, 3.0, 4.0, 5.0, 6.0, 8.0, 10.0, 15.0, 20.0, 30.0, 50.0)
 #: The automatic exaggeration makes the scene's height about this share of its plan size.
 HEIGHT_SHARE = 0.35
+#: Share of the finite slice values (or of the point values when there are no slices)
+#: below the top of the automatic colour range: one spike cell or one borehole top does
+#: not wash out every other colour.
+ROBUST_PERCENTILE = 99.5
 FILL_COLOUR = "burlywood"    # earth; kept out of the colour maps so fill never reads as stress
-# Plain-Latin titles: VTK's built-in fonts lack the Greek letters.
-QUANTITY_TITLES = {"dsz": "stress increase", "stress_ratio": "dsz / s'v0",
-                   "settlement": "settlement", "sigma_v0": "s'v0"}
+#: Titles with the Greek letters (drawn with matplotlib's DejaVu Sans, which has them),
+#: and plain-Latin ones for when that font file is missing (VTK's own fonts lack them).
+QUANTITY_TITLES = {"dsz": "Δσz", "stress_ratio": "Δσz / σ′v0", "settlement": "settlement",
+                   "sigma_v0": "σ′v0"}
+LATIN_TITLES = {"dsz": "stress increase dsz", "stress_ratio": "dsz / s'v0",
+                "settlement": "settlement", "sigma_v0": "s'v0 (initial effective)"}
+QUANTITY_WORDS = {"dsz": "vertical stress increase", "stress_ratio": "stress ratio",
+                  "settlement": "settlement", "sigma_v0": "initial effective vertical stress"}
+CAUTION = ("For checking by a licensed geotechnical engineer; local codes govern. "
+           "Homogeneous elastic half-space, flexible load, superposition.")
+KEYS_HELP = ("h  show or hide this list\n"
+             "left drag  rotate    shift + left drag  pan    wheel  zoom\n"
+             "r  re-frame    v  isometric view    w / s  wireframe / surface\n"
+             "q  close the window")
+
+
+def colour_table(quantity: str, n: int = 256) -> np.ndarray:
+    """(n, 3) RGB bytes of the colour map of `quantity` (:data:`COLOUR_MAPS`).
+
+    >>> colour_table("settlement")[0].tolist() != [0, 0, 4]      # not magma's near black
+    True
+    """
+    from matplotlib import colormaps
+    name, cut = COLOUR_MAPS[quantity]
+    rgb = colormaps[name](np.linspace(cut, 1.0, n))[:, :3]
+    return np.round(rgb * 255).astype(np.uint8)
+
+
+def _colour_map(quantity: str):
+    from matplotlib.colors import ListedColormap
+    name, cut = COLOUR_MAPS[quantity]
+    return name if cut == 0 else ListedColormap(colour_table(quantity) / 255.0)
+
+
+def font_file() -> str | None:
+    """A TrueType font with the Greek letters (matplotlib's DejaVu Sans), or None."""
+    import matplotlib
+    path = Path(matplotlib.get_data_path()) / "fonts" / "ttf" / "DejaVuSans.ttf"
+    return str(path) if path.is_file() else None
+
+
+def quantity_title(quantity: str) -> str:
+    """Short title of a quantity: Greek where the font has it, plain Latin otherwise."""
+    return (QUANTITY_TITLES if font_file() else LATIN_TITLES)[quantity]
 
 
 class _Frame:
@@ -84,49 +133,340 @@ class _Frame:
         return pv.StructuredGrid(*(pts[:, k].reshape(xx.shape) for k in range(3)))
 
 
-class _ActorGroup:
-    """The actors of one slice (surface, frame, depth label), shown and hidden together."""
+@dataclass(eq=False)
+class Part:
+    """One drawable piece of the scene, kept apart from any renderer: the desktop window,
+    the PNGs and the browser page (:mod:`fillstress.scene_page`) draw the same parts.
 
-    def __init__(self, actors):
-        self.actors = actors
+    ``kind`` is "mesh" (a surface in one colour), "grid" (a StructuredGrid coloured by
+    ``values``), "lines", "points" (sample points coloured by ``values``, with a hover
+    text each) or "labels" (``texts`` at the mesh points). ``layer`` is a :data:`LAYERS`
+    name or "frame" (outline, E/N ticks, north arrow, scale bar: always drawn).
+    """
 
-    def SetVisibility(self, visible: bool) -> None:  # noqa: N802 (VTK's spelling)
-        for actor in self.actors:
-            actor.SetVisibility(bool(visible))
-
-    def GetVisibility(self) -> bool:  # noqa: N802
-        return bool(self.actors[0].GetVisibility())
-
-
-def _quantity_range(slices, point_values) -> tuple[float, float]:
-    """Common colour range of slices and point values of one quantity."""
-    lows, highs = [], []
-    for f in slices:
-        lo, hi = f.value_range()
-        lows.append(lo)
-        highs.append(hi)
-    if point_values.size:
-        lows.append(float(point_values.min()))
-        highs.append(float(point_values.max()))
-    if not lows:
-        return (0.0, 1.0)
-    lo, hi = min(lows), max(highs)
-    return (lo, hi) if hi > lo else (lo, lo + 1.0)
+    layer: str
+    kind: str
+    mesh: object
+    color: str = "black"
+    opacity: float = 1.0
+    values: np.ndarray | None = None
+    depth: float | None = None
+    texts: tuple = ()
+    group: str = ""
+    line_width: float = 1.0
 
 
-def _point_values(folder: ResultsFolder, quantity: str):
-    """x, y, depth and value of every sample point that carries `quantity`."""
-    rows = []
+@dataclass(eq=False)
+class Scene:
+    """Everything drawn for one results folder and quantity, in scene coordinates."""
+
+    folder: ResultsFolder
+    frame: _Frame
+    quantity: str
+    clim: tuple
+    exaggeration: float
+    parts: list
+    span: float
+    robust: bool              # clim is the automatic robust range (not user-set)
+    data_max: float
+
+    @property
+    def slice_depths(self) -> list[float]:
+        return sorted({p.depth for p in self.parts if p.depth is not None})
+
+    @property
+    def unit(self) -> str:
+        return self.folder.units.label(QUANTITIES[self.quantity])
+
+    @property
+    def bar_title(self) -> str:
+        title = quantity_title(self.quantity)
+        return f"{title} ({self.unit})" if self.unit else title
+
+    @property
+    def site_name(self) -> str:
+        site = self.folder.summary.get("site") or {}
+        return str(site.get("name") or self.folder.path.name)
+
+    @property
+    def stage_text(self) -> str:
+        stages = (self.folder.manifest.get("settings") or {}).get("stages") or []
+        return f"after stage {stages[-1]} (final)" if len(stages) > 1 else "final fill"
+
+    @property
+    def date(self) -> str:
+        return str(self.folder.manifest.get("created") or "")[:10]
+
+    def title(self) -> str:
+        """"<site> — <quantity> (<unit>) — <stage>"."""
+        return f"{self.site_name} — {QUANTITY_WORDS[self.quantity]} {self.bar_title} — {self.stage_text}"
+
+    def caption(self, exaggeration: float | None = None, depth: float | None = None) -> str:
+        """Origin, units, exaggeration, the slice shown and how the colours are scaled."""
+        from .report.labels import unit_text
+        u, plan = self.folder.units.length, unit_text(self.folder.units.plan)
+        exaggeration = self.exaggeration if exaggeration is None else exaggeration
+        lines = [f"E, N in {plan} (grid north of the site CRS); depths in {u} below existing ground; "
+                 f"vertical exaggeration {exaggeration:g}"]
+        if depth is not None:
+            lines.append(f"slice shown: {depth:g} {u} deep")
+        lo, hi = self.clim
+        scale = (f"colours {_fmt(lo)} to {_fmt(hi)} {self.unit}".rstrip())
+        if self.robust and self.data_max > hi:
+            scale += f" (top colour from {_fmt(hi)} up; max {_fmt(self.data_max)})"
+        lines.append(scale)
+        return "\n".join(lines)
+
+
+def _fmt(v: float) -> str:
+    return f"{v:.0f}" if abs(v) >= 100 else f"{v:.3g}"
+
+
+def _nice_step(extent: float, ticks: int = 5) -> float:
+    """A 1, 2 or 5 × 10ⁿ step giving about `ticks` steps over `extent`.
+
+    >>> _nice_step(211.0), _nice_step(0.9), _nice_step(4300.0)
+    (50.0, 0.2, 1000.0)
+    """
+    raw = max(float(extent), 1e-9) / ticks
+    power = 10.0 ** np.floor(np.log10(raw))
+    for m in (1.0, 2.0, 5.0, 10.0):
+        if raw <= m * power * 1.5:
+            return m * power
+    return 10.0 * power
+
+
+def _colour_range(slices, point_values, colour_range) -> tuple[tuple, bool, float]:
+    """(colour range, whether automatic, data maximum) of one quantity.
+
+    Automatic: from 0 (or the minimum when negative) to the :data:`ROBUST_PERCENTILE`
+    of the slice values, or to the 95th percentile of the point values when there are no
+    slices (points cluster where the load is, a slice covers the plan evenly).
+    """
+    values = (np.concatenate([f.values[np.isfinite(f.values)].ravel() for f in slices])
+              if slices else point_values[np.isfinite(point_values)])
+    top = float(values.max()) if values.size else 1.0
+    if colour_range is not None:
+        try:
+            lo, hi = (finite(v, "colour_range") for v in colour_range)
+        except (TypeError, ValueError):
+            raise InputError("needs two numbers, low and high", argument="colour_range") from None
+        if not hi > lo:
+            raise InputError(f"needs low < high, got {lo:g}, {hi:g}", argument="colour_range")
+        return (lo, hi), False, top
+    if values.size == 0:
+        return (0.0, 1.0), True, top
+    lo = min(float(values.min()), 0.0)
+    hi = float(np.percentile(values, ROBUST_PERCENTILE if slices else 95.0))
+    if not hi > lo:
+        hi = top if top > lo else lo + 1.0
+    return (lo, hi), True, top
+
+
+def _point_rows(folder: ResultsFolder, quantity: str) -> list[tuple[str, np.ndarray, list]]:
+    """(kind, (n, 4) x y depth value, hover texts) for every points table with `quantity`."""
+    from .report.labels import unit_text
+    out = []
+    u = folder.units
+    shown = [(q, folder.units.label(QUANTITIES[q])) for q in ("dsz", "sigma_v0", "stress_ratio",
+                                                              "settlement")]
     for kind, df in folder.point_tables().items():
-        col = folder.optional_column(df, quantity, QUANTITIES[quantity])
-        if df is None or col is None or df.empty:
+        col = folder.optional_column(df, quantity, QUANTITIES[quantity]) if df is not None else None
+        if col is None or df.empty:
             continue
         xs = folder.column(df, "x", "plan_suffix", name=f"{kind}_points")
         ys = folder.column(df, "y", "plan_suffix", name=f"{kind}_points")
         ds = folder.column(df, "depth", "length", name=f"{kind}_points")
-        rows.append(df[[xs, ys, ds, col]].to_numpy(float))
-    data = np.concatenate(rows) if rows else np.zeros((0, 4))
-    return data[np.all(np.isfinite(data), axis=1)]
+        data = df[[xs, ys, ds, col]].to_numpy(float)
+        keep = np.all(np.isfinite(data), axis=1)
+        texts = []
+        for _, row in df[keep].iterrows():
+            parts = [f"{row.get('receptor_kind', kind)} {row.get('receptor_id', '')}, "
+                     f"point {row.get('point_id', '')}, {row[ds]:g} {u.length} deep"]
+            for q, unit in shown:
+                c = folder.optional_column(df, q, QUANTITIES[q])
+                if c is not None and np.isfinite(row[c]):
+                    parts.append(f"{QUANTITY_TITLES[q]} {_fmt(float(row[c]))} {unit_text(unit)}".rstrip())
+            texts.append("; ".join(parts))
+        out.append((kind, data[keep], texts))
+    return out
+
+
+class _PartsBuilder:
+    """The parts of one results folder, quantity and exaggeration."""
+
+    def __init__(self, folder: ResultsFolder, frame: _Frame, quantity: str):
+        self.folder, self.frame, self.quantity = folder, frame, quantity
+        self.parts: list[Part] = []
+        self.fill = folder.fill_thickness()
+        self.slices = folder.plan_slices(quantity)
+        self.point_rows = _point_rows(folder, quantity)
+        if not self.slices and not self.point_rows:
+            raise InputError(f"the results folder has no {quantity!r} on slices or points",
+                             argument="quantity")
+        fields = [f for f in [self.fill, *self.slices] if f is not None]
+        k = folder.plan_to_length
+        self.box = (min(f.x[0] for f in fields) - frame.x0, max(f.x[-1] for f in fields) - frame.x0,
+                    min(f.y[0] for f in fields) - frame.y0, max(f.y[-1] for f in fields) - frame.y0)
+        self.box = tuple(v * k for v in self.box)
+        span = (self.box[1] - self.box[0] + self.box[3] - self.box[2]) / 2
+        self.span = span if span > 0 else 10.0
+
+    def point_values(self) -> np.ndarray:
+        return np.concatenate([d for _, d, _ in self.point_rows]) if self.point_rows \
+            else np.zeros((0, 4))
+
+    def height(self) -> float:
+        """Fill height plus the deepest slice or sample point (length unit)."""
+        top = float(np.nanmax(self.fill.values)) if self.fill is not None else 0.0
+        depths = [f.depth for f in self.slices] + list(self.point_values()[:, 2])
+        return max(top, 0.0) + max(depths, default=0.0)
+
+    def add(self, layer, kind, mesh, **style) -> None:
+        self.parts.append(Part(layer, kind, mesh, **style))
+
+    def add_fill(self):
+        """The fill surface in one earth colour, lit so its shape shows; ground outline."""
+        if self.fill is None:
+            return
+        t = np.where(np.isfinite(self.fill.values), self.fill.values, 0.0)
+        surf = self.frame.surface(self.fill, t)
+        if np.any(t > 0):
+            self.add("fill", "grid", surf, color=FILL_COLOUR, opacity=0.4,
+                     values=np.where(t > 1e-9, 1.0, np.nan).ravel(order="F"))
+        self.add("frame", "lines", surf.outline(), color="dimgray")
+
+    def add_slices(self):
+        """Each slice with its outline and its depth written at a corner."""
+        import pyvista as pv
+        u = self.folder.units.length
+        for k, f in enumerate(self.slices):
+            surf = self.frame.surface(f, np.full(f.values.shape, -f.depth))
+            self.add("slices", "grid", surf, values=f.values.ravel(order="F"), depth=f.depth)
+            self.add("slices", "lines", surf.outline(), color="gray", depth=f.depth)
+            # Labels on the four corners in turn, so closely spaced depths do not overlap.
+            cx, cy = ((f.x[-1], f.y[0]), (f.x[0], f.y[0]), (f.x[-1], f.y[-1]), (f.x[0], f.y[-1]))[k % 4]
+            self.add("slices", "labels", pv.PolyData(self.frame.points(cx, cy, -f.depth)),
+                     texts=(f"{f.depth:g} {u}",), depth=f.depth)
+
+    def add_points(self):
+        import pyvista as pv
+        for kind, data, texts in self.point_rows:
+            x, y, d, v = data.T
+            self.add("points", "points", pv.PolyData(self.frame.points(x, y, -d)), values=v,
+                     texts=tuple(texts), group=kind)
+
+    def add_buildings(self):
+        import pyvista as pv
+        depth_col = self.folder.units.suffixed("foundation_depth", "length")
+        height_col = self.folder.units.suffixed("height", "length")
+        for feat in self.folder.features("buildings"):
+            depth = float(feat.properties.get(depth_col) or 0.0)
+            # Building height is not in the results contract: drawn schematically.
+            height = float(feat.properties.get(height_col) or 0.04 * self.span)
+            for poly in getattr(feat.geometry, "geoms", [feat.geometry]):
+                if poly.geom_type != "Polygon":
+                    continue
+                ring = np.asarray(poly.exterior.coords)[:-1]
+                base = self.frame.points(ring[:, 0], ring[:, 1], -depth)
+                face = pv.PolyData(base, faces=np.r_[len(base), np.arange(len(base))])
+                top = (depth + height) * self.frame.exaggeration
+                block = face.extrude((0.0, 0.0, top), capping=True)
+                self.add("buildings", "mesh", block, color="lightgray", opacity=0.6)
+                self.add("buildings", "lines", block.extract_feature_edges(), color="black")
+
+    def add_pipes(self):
+        import pyvista as pv
+        depth_col = self.folder.units.suffixed("depth", "length")
+        dia_col = self.folder.units.suffixed("diameter", "length")
+        for feat in self.folder.features("pipes"):
+            radius = float(feat.properties.get(dia_col) or 0.02 * self.span) / 2.0
+            crown = float(feat.properties.get(depth_col) or 0.0)
+            for line in getattr(feat.geometry, "geoms", [feat.geometry]):
+                xy = np.asarray(line.coords)[:, :2]
+                if len(xy) < 2:
+                    continue
+                pts = self.frame.points(xy[:, 0], xy[:, 1], -(crown + radius))
+                tube = pv.lines_from_points(pts).tube(radius=radius * self.frame.exaggeration ** 0.5)
+                self.add("pipes", "mesh", tube, color="darkorange")
+
+    def add_boreholes(self):
+        import pyvista as pv
+        top_col = self.folder.units.suffixed("top_depth", "length")
+        bottom_col = self.folder.units.suffixed("bottom_depth", "length")
+        for feat in self.folder.features("boreholes"):
+            x, y = feat.geometry.centroid.x, feat.geometry.centroid.y
+            top = float(feat.properties.get(top_col) or 0.0)
+            bottom = float(feat.properties.get(bottom_col) or 0.0)
+            if bottom <= top:
+                continue
+            a, b = self.frame.points([x, x], [y, y], [-top, -bottom])
+            self.add("boreholes", "mesh", pv.Line(a, b).tube(radius=0.006 * self.span),
+                     color="black")
+
+    def add_map_furniture(self):
+        """E and N ticks with site coordinates, a scale bar and a north arrow, on the lowest
+        ground level around the plan box."""
+        import pyvista as pv
+        from .report.labels import unit_text
+        x0, x1, y0, y1 = self.box
+        s, k = self.span, self.folder.plan_to_length
+        plan, length = unit_text(self.folder.units.plan), self.folder.units.length
+        segments, anchors, texts = [], [], []
+
+        def ticks(lo, hi, origin):
+            step = _nice_step((hi - lo) / k)
+            first = np.ceil((origin + lo / k) / step) * step
+            return [(v, (v - origin) * k) for v in np.arange(first, origin + hi / k + 1e-9, step)]
+        for east, sx in ticks(x0, x1, self.frame.x0):
+            segments.append(((sx, y0, 0), (sx, y0 - 0.02 * s, 0)))
+            anchors.append((sx, y0 - 0.045 * s, 0))
+            texts.append(f"{east:.0f}")
+        for north, sy in ticks(y0, y1, self.frame.y0):
+            segments.append(((x0, sy, 0), (x0 - 0.02 * s, sy, 0)))
+            anchors.append((x0 - 0.08 * s, sy, 0))
+            texts.append(f"{north:.0f}")
+        anchors += [(x1 + 0.06 * s, y0 - 0.045 * s, 0), (x0 - 0.08 * s, y1 + 0.05 * s, 0)]
+        texts += [f"E ({plan})", f"N ({plan})"]
+        # Scale bar: a round length of about a quarter of the plan width.
+        bar = _nice_step((x1 - x0) * 0.25, 1)
+        yb = y0 - 0.1 * s
+        segments += [((x0, yb, 0), (x0 + bar, yb, 0)), ((x0, yb - 0.01 * s, 0), (x0, yb + 0.01 * s, 0)),
+                     ((x0 + bar, yb - 0.01 * s, 0), (x0 + bar, yb + 0.01 * s, 0))]
+        anchors.append((x0 + bar / 2, yb - 0.03 * s, 0))
+        texts.append(f"{bar:g} {length}")
+        lines = pv.PolyData(np.array([p for seg in segments for p in seg], float),
+                            lines=np.hstack([[2, 2 * i, 2 * i + 1] for i in range(len(segments))]))
+        self.add("frame", "lines", lines, line_width=2.0)
+        # North arrow (grid north, the CRS's y axis) beyond the north-east corner.
+        ax, ay, n = x1 + 0.08 * s, y1 - 0.12 * s, 0.1 * s
+        arrow = pv.PolyData(np.array([(ax - 0.03 * s, ay, 0), (ax, ay + n, 0), (ax + 0.03 * s, ay, 0),
+                                      (ax, ay + 0.3 * n, 0)], float), faces=[4, 0, 3, 2, 1])
+        self.add("frame", "mesh", arrow.triangulate(), color="black")
+        anchors.append((ax, ay + n + 0.04 * s, 0))
+        texts.append("N")
+        self.add("frame", "labels", pv.PolyData(np.array(anchors, float)), texts=tuple(texts))
+
+
+def scene_parts(results_dir, *, exaggeration: float | None = None, quantity: str = "dsz",
+                layers=LAYERS, colour_range=None) -> Scene:
+    """The parts of the scene of a results folder (see :func:`build_scene`)."""
+    folder = ResultsFolder(results_dir)
+    if exaggeration is not None:
+        exaggeration = positive(exaggeration, "exaggeration")
+    quantity_unit_key(quantity)
+    layers = _validated_layers(layers)
+    frame = _Frame(folder, 1.0)
+    builder = _PartsBuilder(folder, frame, quantity)
+    if exaggeration is None:
+        exaggeration = auto_exaggeration(builder.span, builder.height())
+    frame.exaggeration = exaggeration
+    crange, robust, top = _colour_range(builder.slices, builder.point_values()[:, 3], colour_range)
+    for name in layers:
+        getattr(builder, f"add_{name}")()
+    builder.add_map_furniture()
+    return Scene(folder, frame, quantity, crange, exaggeration, builder.parts, builder.span,
+                 robust, top)
 
 
 def auto_exaggeration(plan_size: float, height: float) -> float:
@@ -149,162 +489,44 @@ def auto_exaggeration(plan_size: float, height: float) -> float:
     return fitting[-1] if fitting else 1.0
 
 
-class _SceneBuilder:
-    """Adds each layer of one results folder to a pyvista Plotter."""
+class _ActorGroup:
+    """The actors of one slice (surface, frame, depth label), shown and hidden together."""
 
-    def __init__(self, folder: ResultsFolder, plotter, frame: _Frame, quantity: str,
-                 slice_floor: float = 0.0):
-        self.folder, self.plotter, self.frame, self.quantity = folder, plotter, frame, quantity
-        self.slice_floor = slice_floor
-        self.slice_actors: list[tuple[float, object]] = []
-        fill = folder.fill_thickness()
-        self.fill = fill
-        # Plan size of the site (length unit), to size the schematic parts (building
-        # height, borehole) and to choose the exaggeration.
-        span = (np.ptp(fill.x) + np.ptp(fill.y)) / 2 * folder.plan_to_length \
-            if fill is not None else 0.0
-        self.span = span if span > 0 else 10.0
-        self.slices = folder.plan_slices(quantity)
-        self.point_data = _point_values(folder, quantity)
-        if not self.slices and self.point_data.size == 0:
-            raise InputError(f"the results folder has no {quantity!r} on slices or points",
-                             argument="quantity")
-        self.clim = _quantity_range(self.slices, self.point_data[:, 3])
-        if self.clim[0] >= 0.0:
-            self.clim = (0.0, self.clim[1])        # a bar from zero reads as "none to most"
-        unit = folder.units.label(QUANTITIES[quantity])
-        self.bar_title = f"{QUANTITY_TITLES[quantity]} ({unit})" if unit else QUANTITY_TITLES[quantity]
+    def __init__(self, actors):
+        self.actors = actors
 
-    def height(self) -> float:
-        """Fill height plus the deepest slice or sample point (length unit)."""
-        top = float(np.nanmax(self.fill.values)) if self.fill is not None else 0.0
-        depths = [f.depth for f in self.slices] + list(self.point_data[:, 2])
-        return max(top, 0.0) + max(depths, default=0.0)
+    def SetVisibility(self, visible: bool) -> None:  # noqa: N802 (VTK's spelling)
+        for actor in self.actors:
+            actor.SetVisibility(bool(visible))
 
-    def _mesh_kwargs(self):
-        fmt = "%.0f" if self.clim[1] - self.clim[0] >= 50 else "%.3g"
-        return dict(cmap=COLOUR_MAPS[self.quantity], clim=self.clim, scalar_bar_args={
-            "title": self.bar_title, "vertical": True, "fmt": fmt, "n_labels": 5,
-            "position_x": 0.86, "position_y": 0.1, "height": 0.6},
-            lighting=False)  # unlit, so the colours read exactly against the scalar bar
-
-    def add_fill(self):
-        """The fill surface in one earth colour, lit so its shape shows; ground outline."""
-        if self.fill is None:
-            return
-        t = np.where(np.isfinite(self.fill.values), self.fill.values, 0.0)
-        surf = self.frame.surface(self.fill, t)
-        surf.point_data["thickness"] = t.ravel(order="F")
-        loaded = surf.threshold(1e-9, scalars="thickness", method="upper") if np.any(t > 0) else None
-        if loaded is not None and loaded.n_points:
-            self.plotter.add_mesh(loaded.extract_surface(algorithm="dataset_surface"),
-                                  color=FILL_COLOUR, opacity=0.4, smooth_shading=True)
-        self.plotter.add_mesh(surf.outline(), color="dimgray", line_width=1)
-
-    def add_slices(self, depth):
-        """Each slice, cut below `slice_floor` × the colour maximum, framed and labelled."""
-        import pyvista as pv
-        floor = self.clim[0] + self.slice_floor * (self.clim[1] - self.clim[0])
-        u = self.folder.units.length
-        shown = 0
-        for k, f in enumerate(self.slices):
-            surf = self.frame.surface(f, np.full(f.values.shape, -f.depth))
-            surf.point_data[self.bar_title] = f.values.ravel(order="F")
-            visible = bool(depth is None or np.isclose(f.depth, depth))
-            # all_scalars: a cell is kept only when all its corners reach the floor
-            part = surf.threshold(floor, scalars=self.bar_title, method="upper",
-                                  all_scalars=True) if self.slice_floor > 0 else surf
-            actors = [self.plotter.add_mesh(surf.outline(), color="gray", line_width=1)]
-            if part.n_points:
-                actors.append(self.plotter.add_mesh(
-                    part, scalars=self.bar_title,
-                    **({"nan_opacity": 0.0} if self.slice_floor == 0 else {}),
-                    show_scalar_bar=shown == 0, **self._mesh_kwargs()))
-                shown += 1
-            # Labels on the four corners in turn, so closely spaced depths do not overlap.
-            cx, cy = ((f.x[-1], f.y[0]), (f.x[0], f.y[0]), (f.x[-1], f.y[-1]), (f.x[0], f.y[-1]))[k % 4]
-            corner = self.frame.points(cx, cy, -f.depth)
-            actors.append(self.plotter.add_point_labels(
-                pv.PolyData(corner), [f"{f.depth:g} {u}"], font_size=11, show_points=False,
-                shape_opacity=0.6, always_visible=True))
-            group = _ActorGroup(actors)
-            group.SetVisibility(visible)
-            self.slice_actors.append((f.depth, group))
-        if depth is not None and not any(np.isclose(d, depth) for d, _ in self.slice_actors):
-            have = ", ".join(f"{d:g}" for d in self.slice_depths())
-            raise InputError(f"no slice at depth {depth:g}; the folder has {have}", argument="depth")
-
-    def slice_depths(self) -> list[float]:
-        return sorted({d for d, _ in self.slice_actors})
-
-    def add_points(self):
-        import pyvista as pv
-        if self.point_data.size == 0:
-            return
-        x, y, d, v = self.point_data.T
-        cloud = pv.PolyData(self.frame.points(x, y, -d))
-        cloud.point_data[self.bar_title] = v
-        self.plotter.add_mesh(cloud, scalars=self.bar_title, render_points_as_spheres=True,
-                              point_size=9, show_scalar_bar=not self.slices, **self._mesh_kwargs())
-
-    def add_buildings(self):
-        import pyvista as pv
-        depth_col = self.folder.units.suffixed("foundation_depth", "length")
-        height_col = self.folder.units.suffixed("height", "length")
-        for feat in self.folder.features("buildings"):
-            depth = float(feat.properties.get(depth_col) or 0.0)
-            # Building height is not in the results contract: drawn schematically.
-            height = float(feat.properties.get(height_col) or 0.04 * self.span)
-            for poly in getattr(feat.geometry, "geoms", [feat.geometry]):
-                if poly.geom_type != "Polygon":
-                    continue
-                ring = np.asarray(poly.exterior.coords)[:-1]
-                base = self.frame.points(ring[:, 0], ring[:, 1], -depth)
-                face = pv.PolyData(base, faces=np.r_[len(base), np.arange(len(base))])
-                top = (depth + height) * self.frame.exaggeration
-                block = face.extrude((0.0, 0.0, top), capping=True)
-                self.plotter.add_mesh(block, color="lightgray", opacity=0.6, show_edges=True,
-                                      edge_color="black")
-
-    def add_pipes(self):
-        import pyvista as pv
-        depth_col = self.folder.units.suffixed("depth", "length")
-        dia_col = self.folder.units.suffixed("diameter", "length")
-        for feat in self.folder.features("pipes"):
-            radius = float(feat.properties.get(dia_col) or 0.02 * self.span) / 2.0
-            crown = float(feat.properties.get(depth_col) or 0.0)
-            for line in getattr(feat.geometry, "geoms", [feat.geometry]):
-                xy = np.asarray(line.coords)[:, :2]
-                if len(xy) < 2:
-                    continue
-                pts = self.frame.points(xy[:, 0], xy[:, 1], -(crown + radius))
-                tube = pv.lines_from_points(pts).tube(radius=radius * self.frame.exaggeration ** 0.5)
-                self.plotter.add_mesh(tube, color="darkorange")
-
-    def add_boreholes(self):
-        import pyvista as pv
-        top_col = self.folder.units.suffixed("top_depth", "length")
-        bottom_col = self.folder.units.suffixed("bottom_depth", "length")
-        for feat in self.folder.features("boreholes"):
-            x, y = feat.geometry.centroid.x, feat.geometry.centroid.y
-            top = float(feat.properties.get(top_col) or 0.0)
-            bottom = float(feat.properties.get(bottom_col) or 0.0)
-            if bottom <= top:
-                continue
-            a, b = self.frame.points([x, x], [y, y], [-top, -bottom])
-            self.plotter.add_mesh(pv.Line(a, b).tube(radius=0.006 * self.span), color="black")
+    def GetVisibility(self) -> bool:  # noqa: N802
+        return bool(self.actors[0].GetVisibility())
 
 
-def _new_plotter(off_screen: bool, window_size):
+def headless() -> bool:
+    """True on a Linux or BSD machine with no X or Wayland display to open a window on."""
+    import sys
+    return sys.platform.startswith(("linux", "freebsd")) and not (
+        os.environ.get("DISPLAY") or os.environ.get("WAYLAND_DISPLAY"))
+
+
+def _new_plotter(off_screen: bool, window_size, title: str):
     import pyvista as pv
-    plotter = pv.Plotter(off_screen=off_screen, window_size=list(window_size))
+    if off_screen and headless():
+        # VTK tries X first and warns "bad X server connection" before rendering through
+        # EGL; the render is right, the warning is noise (-q must be quiet).
+        import vtk
+        vtk.vtkLogger.SetStderrVerbosity(vtk.vtkLogger.VERBOSITY_ERROR)
+    plotter = pv.Plotter(off_screen=off_screen, window_size=list(window_size), title=title)
+    plotter.ren_win.SetWindowName(title)      # not the library's default name
     plotter.set_background("white")
-    plotter.add_axes(color="black")
+    plotter.add_axes(color="black", xlabel="E", ylabel="N", zlabel="up",
+                     viewport=(0.0, 0.14, 0.12, 0.3))   # above the sliders
     return plotter
 
 
 def _validated_layers(layers) -> tuple[str, ...]:
-    layers = tuple(layers)
+    layers = (layers,) if isinstance(layers, str) else tuple(layers)
     unknown = [name for name in layers if name not in LAYERS]
     if unknown:
         raise InputError(f"unknown layer(s) {unknown}; choose from {', '.join(LAYERS)}",
@@ -312,9 +534,109 @@ def _validated_layers(layers) -> tuple[str, ...]:
     return layers
 
 
+class _Drawer:
+    """Adds the parts of a :class:`Scene` to a pyvista Plotter."""
+
+    def __init__(self, scene: Scene, plotter, slice_floor: float):
+        self.scene, self.plotter, self.slice_floor = scene, plotter, slice_floor
+        self.slice_actors: dict[float, list] = {}
+        self.bar_shown = False
+        self.font = font_file()
+
+    def _mesh_kwargs(self):
+        lo, hi = self.scene.clim
+        fmt = "%.0f" if hi - lo >= 50 else "%.3g"
+        bar = {"title": self.scene.bar_title, "vertical": True, "fmt": fmt, "n_labels": 5,
+               "position_x": 0.86, "position_y": 0.22, "height": 0.55, "color": "black",
+               "title_font_size": 16, "label_font_size": 13}
+        return dict(cmap=_colour_map(self.scene.quantity), clim=self.scene.clim,
+                    scalar_bar_args=bar, show_scalar_bar=not self.bar_shown,
+                    lighting=False)  # unlit, so the colours read exactly against the scalar bar
+
+    def draw(self, part: Part):
+        method = getattr(self, f"_{part.kind}")
+        actor = method(part)
+        if part.depth is not None and actor is not None:
+            self.slice_actors.setdefault(part.depth, []).append(actor)
+
+    def _mesh(self, p: Part):
+        return self.plotter.add_mesh(p.mesh, color=p.color, opacity=p.opacity,
+                                     smooth_shading=True)
+
+    def _lines(self, p: Part):
+        return self.plotter.add_mesh(p.mesh, color=p.color, line_width=p.line_width)
+
+    def _grid(self, p: Part):
+        mesh = p.mesh.copy()
+        if p.layer == "fill":
+            mesh.point_data["loaded"] = p.values
+            part = mesh.threshold(0.5, scalars="loaded", method="upper")
+            return self.plotter.add_mesh(part.extract_surface(algorithm="dataset_surface"),
+                                         color=p.color, opacity=p.opacity, smooth_shading=True)
+        title = self.scene.bar_title
+        mesh.point_data[title] = p.values
+        lo, hi = self.scene.clim
+        if self.slice_floor > 0:
+            # all_scalars: a cell is kept only when all its corners reach the floor
+            mesh = mesh.threshold(lo + self.slice_floor * (hi - lo), scalars=title,
+                                  method="upper", all_scalars=True)
+        if not mesh.n_points:
+            return None
+        actor = self.plotter.add_mesh(mesh, scalars=title, nan_opacity=0.0,
+                                      **self._mesh_kwargs())
+        self._bar_drawn()
+        return actor
+
+    def _points(self, p: Part):
+        title = self.scene.bar_title
+        mesh = p.mesh.copy()
+        mesh.point_data[title] = p.values
+        actor = self.plotter.add_mesh(mesh, scalars=title, render_points_as_spheres=True,
+                                      point_size=9, **self._mesh_kwargs())
+        self._bar_drawn()
+        return actor
+
+    def _bar_drawn(self):
+        if self.bar_shown or not self.font:
+            self.bar_shown = True
+            return
+        import vtk
+        self.bar_shown = True
+        for bar in self.plotter.scalar_bars.values():
+            prop = bar.GetTitleTextProperty()
+            prop.SetFontFamily(vtk.VTK_FONT_FILE)
+            prop.SetFontFile(self.font)
+
+    def _labels(self, p: Part):
+        return self.plotter.add_point_labels(p.mesh, list(p.texts), font_size=11,
+                                             show_points=False, shape_opacity=0.0,
+                                             bold=False, always_visible=True,
+                                             text_color="black")
+
+    def text(self, text: str, x: float, y: float, size: float, name: str, top: bool = True):
+        """`text` at viewport fraction x, y (its top-left corner when `top`), `size` in
+        points for a 900-pixel-high window, scaled to the window."""
+        height = self.plotter.window_size[1]
+        actor = self.plotter.add_text(text, position=(x, y), viewport=True, color="black",
+                                      font_size=max(6, round(size * height / 900)), name=name,
+                                      font_file=self.font)
+        if top:
+            actor.GetTextProperty().SetVerticalJustificationToTop()
+        return actor
+
+    def texts(self, caption: str):
+        self.text(self.scene.title(), 0.01, 0.99, 11, "title")
+        self.caption(caption)
+        self.text(CAUTION.replace("govern. ", "govern.\n"), 0.01, 0.01, 7.5, "caution", top=False)
+
+    def caption(self, caption: str):
+        self.text(caption, 0.01, 0.95, 7.5, "caption")
+
+
 def build_scene(results_dir, *, exaggeration: float | None = None, quantity: str = "dsz",
                 depth: float | None = None, layers=LAYERS, interactive: bool = False,
-                off_screen: bool = True, window_size=(1200, 900), slice_floor: float = 0.02):
+                off_screen: bool = True, window_size=(1200, 900), slice_floor: float = 0.02,
+                colour_range=None):
     """Build the 3D scene of a results folder as a pyvista Plotter.
 
     Parameters
@@ -331,9 +653,9 @@ def build_scene(results_dir, *, exaggeration: float | None = None, quantity: str
     layers : iterable of str
         Parts to draw, a subset of :data:`LAYERS`.
     interactive : bool
-        Add a depth slider and an exaggeration slider (desktop use).
+        Add a depth slider, an exaggeration slider and the key list on ``h`` (desktop use).
     off_screen : bool
-        Create the plotter off screen (for screenshots and HTML export).
+        Create the plotter off screen (for screenshots).
     window_size : (int, int)
         Render window size in pixels.
     slice_floor : float
@@ -341,13 +663,16 @@ def build_scene(results_dir, *, exaggeration: float | None = None, quantity: str
         slices beneath show through around the loaded area; 0 draws whole slices.
         Slices stay opaque (VTK's offscreen translucency sorting is unreliable), so
         their pixels are exactly colour-map colours.
+    colour_range : (float, float), optional
+        Colour range (quantity unit); default from zero to a robust top
+        (:data:`ROBUST_PERCENTILE`), values above it drawn in the top colour.
 
     Returns
     -------
     pyvista.Plotter
         The plotter. Attributes ``fillstress_clim`` (colour range of `quantity`),
-        ``fillstress_exaggeration``, ``fillstress_slice_depths`` and
-        ``fillstress_slice_actors`` ((depth, actor group) pairs).
+        ``fillstress_exaggeration``, ``fillstress_slice_depths``,
+        ``fillstress_slice_actors`` ((depth, actor group) pairs) and ``fillstress_scene``.
 
     Examples
     --------
@@ -356,35 +681,32 @@ def build_scene(results_dir, *, exaggeration: float | None = None, quantity: str
     ...
     fillstress.errors.InputError: argument results_dir: is not a results folder (no such directory)
     """
-    folder = ResultsFolder(results_dir)
-    if exaggeration is not None:
-        exaggeration = positive(exaggeration, "exaggeration")
     slice_floor = _share(slice_floor, "slice_floor")
-    quantity_unit_key(quantity)
     if depth is not None:
         depth = finite(depth, "depth")
-    layers = _validated_layers(layers)
-    plotter = _new_plotter(off_screen, window_size)
-    frame = _Frame(folder, 1.0)
-    builder = _SceneBuilder(folder, plotter, frame, quantity, slice_floor)
-    if exaggeration is None:
-        exaggeration = auto_exaggeration(builder.span, builder.height())
-    frame.exaggeration = exaggeration
-    for name in layers:
-        if name == "slices":
-            builder.add_slices(depth)
-        else:
-            getattr(builder, f"add_{name}")()
+    scene = scene_parts(results_dir, exaggeration=exaggeration, quantity=quantity,
+                        layers=layers, colour_range=colour_range)
+    depths = scene.slice_depths
+    if depth is not None and "slices" in _validated_layers(layers) \
+            and not any(np.isclose(d, depth) for d in depths):
+        have = ", ".join(f"{d:g}" for d in depths) or "no slices"
+        raise InputError(f"no slice at depth {depth:g}; the folder has {have}", argument="depth")
+    plotter = _new_plotter(off_screen, window_size, f"fillstress — {scene.site_name}")
+    drawer = _Drawer(scene, plotter, slice_floor)
+    for part in scene.parts:
+        drawer.draw(part)
+    groups = [(d, _ActorGroup(a)) for d, a in sorted(drawer.slice_actors.items())]
+    for d, group in groups:
+        group.SetVisibility(depth is None or np.isclose(d, depth))
     import pyvista as pv
-    pv.set_new_attribute(plotter, "fillstress_clim", builder.clim)
-    pv.set_new_attribute(plotter, "fillstress_exaggeration", exaggeration)
-    pv.set_new_attribute(plotter, "fillstress_slice_depths", builder.slice_depths())
-    pv.set_new_attribute(plotter, "fillstress_slice_actors", list(builder.slice_actors))
-    plotter.add_text(_caption(folder, builder, exaggeration), position="upper_left",
-                     font_size=9, color="black")
-    plotter.view_isometric()
+    for name, value in (("clim", scene.clim), ("exaggeration", scene.exaggeration),
+                        ("slice_depths", depths), ("slice_actors", groups), ("scene", scene)):
+        pv.set_new_attribute(plotter, f"fillstress_{name}", value)
+    shown = depth if depth is not None else (depths[0] if interactive and depths else None)
+    drawer.texts(scene.caption(depth=shown))
+    _set_camera(plotter, "iso")
     if interactive:
-        _add_sliders(plotter, builder, exaggeration)
+        _Controls(plotter, scene, drawer, groups).add()
     return plotter
 
 
@@ -396,41 +718,65 @@ def _share(value, name: str) -> float:
     return v
 
 
-def _caption(folder: ResultsFolder, builder: _SceneBuilder, exaggeration: float) -> str:
-    from .report.labels import unit_text
-    u, plan = folder.units.length, unit_text(folder.units.plan)
-    lines = [f"origin E {builder.frame.x0:.2f}, N {builder.frame.y0:.2f} {plan}; "
-             f"depths in {u}; vertical exaggeration {exaggeration:g}"]
-    if builder.slices and builder.slice_floor > 0:
-        lines.append(f"slices show {QUANTITY_TITLES[builder.quantity]} from "
-                     f"{builder.slice_floor:.0%} of the colour range up")
-    return "\n".join(lines)
+class _Controls:
+    """Desktop controls: depth slider in depth units, exaggeration slider, key list."""
+
+    def __init__(self, plotter, scene: Scene, drawer: _Drawer, groups):
+        self.plotter, self.scene, self.drawer, self.groups = plotter, scene, drawer, groups
+        self.depths = [d for d, _ in groups]
+        self.depth = self.depths[0] if self.depths else None
+        self.exaggeration = scene.exaggeration
+        self.help_shown = False
+
+    def add(self):
+        u = self.scene.folder.units.length
+        bottom = {"color": "black", "title_height": 0.02, "style": "modern"}
+        if len(self.depths) > 1:
+            self.choose_depth(self.depth)
+            self.plotter.add_slider_widget(
+                self.choose_depth, [self.depths[0], self.depths[-1]], value=self.depth,
+                title=f"slice depth ({u})", pointa=(0.04, 0.1), pointb=(0.38, 0.1),
+                fmt="%.2f", **bottom)
+        self.plotter.add_slider_widget(
+            self.stretch, [1.0, max(10.0, 2.0 * self.exaggeration)], value=self.exaggeration,
+            title="vertical exaggeration", pointa=(0.45, 0.1), pointb=(0.8, 0.1), fmt="%.1f",
+            **bottom)
+        self.plotter.add_key_event("h", self.toggle_help)
+        self.drawer.text("h: keys", 0.93, 0.95, 7.5, "keys_hint")
+
+    def nearest(self, value: float) -> float:
+        return min(self.depths, key=lambda d: abs(d - value))
+
+    def choose_depth(self, value):
+        """Show the slice nearest `value` (the slider snaps to the slice depths)."""
+        self.depth = self.nearest(float(value))
+        for d, group in self.groups:
+            group.SetVisibility(bool(np.isclose(d, self.depth)))
+        for widget in self.plotter.widgets.slider_widgets[:1]:
+            rep = widget.GetRepresentation()
+            if len(self.depths) > 1 and not np.isclose(rep.GetValue(), self.depth):
+                rep.SetValue(self.depth)
+        self._recaption()
+
+    def stretch(self, value):
+        """Scale z to exaggeration `value`, re-frame the camera, update the caption."""
+        self.exaggeration = float(value)
+        self.plotter.set_scale(zscale=self.exaggeration / self.scene.exaggeration)
+        self.plotter.reset_camera()
+        self._recaption()
+
+    def _recaption(self):
+        self.drawer.caption(self.scene.caption(self.exaggeration, self.depth))
+
+    def toggle_help(self):
+        self.help_shown = not self.help_shown
+        self.drawer.text(KEYS_HELP if self.help_shown else "", 0.45, 0.9, 8, "keys")
 
 
-def _add_sliders(plotter, builder: _SceneBuilder, exaggeration: float):
-    """Depth slider choosing the slice shown, and a vertical exaggeration slider."""
-    depths = builder.slice_depths()
-    u = builder.folder.units.length
-    if len(depths) > 1:
-        def choose(value):
-            k = int(round(value))
-            for d, actor in builder.slice_actors:
-                actor.SetVisibility(bool(np.isclose(d, depths[k])))
-            plotter.add_text(f"slice depth {depths[k]:g} {u}", position="lower_left",
-                             font_size=10, color="black", name="depth_label")
-        plotter.add_slider_widget(choose, [0, len(depths) - 1], value=0, title="slice",
-                                  pointa=(0.55, 0.08), pointb=(0.9, 0.08), fmt="%.0f",
-                                  color="black")
-
-    def stretch(value):
-        plotter.set_scale(zscale=value / exaggeration)
-    plotter.add_slider_widget(stretch, [1.0, max(10.0, 2.0 * exaggeration)], value=exaggeration,
-                              title="exaggeration", pointa=(0.55, 0.92), pointb=(0.9, 0.92),
-                              fmt="%.1f", color="black")
-
-
-def show(results_dir, *, exaggeration: float | None = None, quantity: str = "dsz") -> None:
-    """Open the interactive scene in a desktop window (depth and exaggeration sliders).
+def show(results_dir, *, exaggeration: float | None = None, quantity: str = "dsz",
+         depth: float | None = None, layers=LAYERS, colour_range=None) -> None:
+    """Open the interactive scene in a desktop window (depth and exaggeration sliders,
+    ``h`` lists the keys).
 
     Examples
     --------
@@ -439,21 +785,64 @@ def show(results_dir, *, exaggeration: float | None = None, quantity: str = "dsz
     ...
     fillstress.errors.InputError: argument results_dir: is not a results folder (no such directory)
     """
-    plotter = build_scene(results_dir, exaggeration=exaggeration, quantity=quantity,
-                          interactive=True, off_screen=False)
-    plotter.show()
+    folder = ResultsFolder(results_dir)
+    if headless():
+        raise InputError("no display to open a window on; render with --png FILE or "
+                         "--html FILE instead", argument="view")
+    plotter = build_scene(folder.path, exaggeration=exaggeration, quantity=quantity,
+                          depth=depth, layers=layers, colour_range=colour_range, interactive=True,
+                          off_screen=False)
+    plotter.show(title=f"fillstress — {plotter.fillstress_scene.site_name}")
+
+
+CAMERAS = ("iso", "xy", "xz", "yz")
+
+
+def _camera(camera):
+    """A named view (:data:`CAMERAS`) or a pyvista camera position, checked."""
+    if isinstance(camera, str):
+        if camera not in CAMERAS:
+            raise InputError(f"unknown camera {camera!r}; choose from {', '.join(CAMERAS)} "
+                             "or give [position, focal point, view up]", argument="camera")
+        return camera
+    try:
+        position = np.asarray(camera, float)
+    except (TypeError, ValueError):
+        position = np.zeros(0)
+    if position.shape != (3, 3) or not np.all(np.isfinite(position)):
+        raise InputError("must be a view name or three (x, y, z) points: position, focal "
+                         "point, view up", argument="camera")
+    return [tuple(row) for row in position]
+
+
+def _writable(path) -> Path:
+    """`path` when its folder exists: checked before the work, not after."""
+    path = Path(path)
+    if not path.parent.is_dir():
+        raise InputError("folder does not exist", file=path.parent)
+    return path
+
+
+def _set_camera(plotter, camera) -> None:
+    """"iso" looks from the south-west and above, so east runs to the right as on a map."""
+    if camera == "iso":
+        plotter.view_vector((-1.0, -1.6, 1.3), viewup=(0.0, 0.0, 1.0))
+    else:
+        plotter.camera_position = camera
+    plotter.reset_camera()
 
 
 def render_png(results_dir, path, *, camera="iso", window_size=(1200, 900),
                exaggeration: float | None = None, quantity: str = "dsz",
-               depth: float | None = None, layers=LAYERS, slice_floor: float = 0.02) -> Path:
+               depth: float | None = None, layers=LAYERS, slice_floor: float = 0.02,
+               colour_range=None) -> Path:
     """Render the scene off screen to a PNG file and return its path.
 
     Parameters
     ----------
     camera : str or list
-        A pyvista camera position: "iso", "xy" (plan from above), "xz", "yz", or
-        ``[(position), (focal point), (view up)]`` in scene coordinates.
+        A view: "iso", "xy" (plan from above), "xz" (looking north), "yz" (looking
+        west), or ``[(position), (focal point), (view up)]`` in scene coordinates.
     Other parameters are those of :func:`build_scene`.
 
     Examples
@@ -463,47 +852,28 @@ def render_png(results_dir, path, *, camera="iso", window_size=(1200, 900),
     ...
     fillstress.errors.InputError: argument results_dir: is not a results folder (no such directory)
     """
+    ResultsFolder(results_dir)
+    path = _writable(path)
+    camera = _camera(camera)
     plotter = build_scene(results_dir, exaggeration=exaggeration, quantity=quantity,
                           depth=depth, layers=layers, off_screen=True, window_size=window_size,
-                          slice_floor=slice_floor)
+                          slice_floor=slice_floor, colour_range=colour_range)
     try:
-        if camera == "iso":
-            plotter.view_isometric()
-        else:
-            plotter.camera_position = camera
-        plotter.reset_camera()
+        _set_camera(plotter, camera)
         return write_atomic(path, lambda tmp: plotter.screenshot(str(tmp)))
     finally:
         plotter.close()
 
 
-@contextlib.contextmanager
-def _offline_trame():
-    """Keep the export offline and quiet. The standalone scene uses vtk.js only, but trame's
-    WebAssembly view module, set up on first use, would try to download VTK's WebAssembly
-    build unless pointed at a local folder (an empty one will do)."""
-    import io
-    import tempfile
-    with tempfile.TemporaryDirectory() as empty:
-        before = os.environ.get("VTK_WASM_DIR_OVERRIDE")
-        os.environ["VTK_WASM_DIR_OVERRIDE"] = empty
-        try:
-            with contextlib.redirect_stdout(io.StringIO()):
-                yield
-        finally:
-            if before is None:
-                os.environ.pop("VTK_WASM_DIR_OVERRIDE", None)
-            else:
-                os.environ["VTK_WASM_DIR_OVERRIDE"] = before
-
-
 def export_scene_html(results_dir, path=None, *, exaggeration: float | None = None,
-                      quantity: str = "dsz") -> Path:
-    """Write the scene (every slice shown) as one self-contained HTML file.
+                      quantity: str = "dsz", layers=LAYERS, colour_range=None) -> Path:
+    """Write the scene as one self-contained HTML page (:mod:`fillstress.scene_page`).
 
-    The file embeds vtk.js and the meshes and loads nothing from the network.
-    Default path: ``<results_dir>/scene.html``. Needs trame, trame-vtk,
-    trame-pyvista and nest_asyncio2 (the ``scene`` extra).
+    The page draws with the browser's WebGL, its script and data inline: it loads
+    nothing from the network. It has a depth control showing one slice at a time,
+    toggles for the fill, the slices and each receptor kind, a legend with units, a north
+    arrow, a scale, the site's name and date and the cautions; hovering a sample point
+    shows its values. Default path: ``<results_dir>/scene.html``.
 
     Examples
     --------
@@ -512,14 +882,9 @@ def export_scene_html(results_dir, path=None, *, exaggeration: float | None = No
     ...
     fillstress.errors.InputError: argument results_dir: is not a results folder (no such directory)
     """
-    plotter = build_scene(results_dir, exaggeration=exaggeration, quantity=quantity,
-                          off_screen=True)
-    path = Path(results_dir) / "scene.html" if path is None else Path(path)
-    try:
-        with _offline_trame():
-            return write_atomic(path, lambda tmp: plotter.trame.export_html(str(tmp)))
-    except ImportError as exc:  # the optional scene packages are missing
-        raise InputError(f"needs the 'scene' extra (trame, trame-vtk, trame-pyvista, "
-                         f"nest_asyncio2): {exc}", argument="path") from None
-    finally:
-        plotter.close()
+    from .scene_page import page_html
+    ResultsFolder(results_dir)
+    path = _writable(Path(results_dir) / "scene.html" if path is None else path)
+    html = page_html(scene_parts(results_dir, exaggeration=exaggeration, quantity=quantity,
+                                 layers=layers, colour_range=colour_range))
+    return write_atomic(path, lambda tmp: Path(tmp).write_text(html, encoding="utf-8"))

@@ -2,7 +2,9 @@
 
 Each plan grid ``<g>`` becomes a variable ``dsz_<g>`` on its own dimensions
 ``(depth_<g>, y_<g>, x_<g>)`` (grids need not share nodes); the fill thickness is
-``fill_thickness (y, x)`` on the analysis-grid cell centres. Values and depths are in the
+``fill_thickness (y, x)`` on the analysis-grid cell centres. Where the site has a soil
+profile, ``sigma_v0_<g> (depth_<g>)`` holds σ'v0 at each slice depth (the same over the
+plan: depths are below the existing ground; NaN below the stated profile). Values and depths are in the
 output unit system, plan coordinates in the site CRS's unit (internal metres scaled by its
 axis factor); the CRS is carried CF-style in a ``crs`` variable (``crs_wkt``).
 """
@@ -57,7 +59,7 @@ def _length_coord(values_m, units, name: str, axis: str, crs) -> tuple:
 
 
 def stress_dataset(slices: Mapping, *, grid: GridSpec | None = None, fill_thickness=None,
-                   units: UnitSystem = SI, crs=None):
+                   units: UnitSystem = SI, crs=None, sigma_v0: Mapping | None = None):
     """Build (without writing) the cube as an :class:`xarray.Dataset` in output units.
 
     Parameters
@@ -73,6 +75,8 @@ def stress_dataset(slices: Mapping, *, grid: GridSpec | None = None, fill_thickn
         Output unit system.
     crs : optional
         Coordinate reference system of x and y.
+    sigma_v0 : mapping of str to array_like, optional
+        Plan-grid name → σ'v0 (kPa) at each of that grid's slice depths.
 
     Examples
     --------
@@ -99,6 +103,10 @@ def stress_dataset(slices: Mapping, *, grid: GridSpec | None = None, fill_thickn
                                                           "pressure"),
                                     {"units": p_label, "grid_mapping": "crs",
                                      "long_name": f"vertical stress increase, plan grid {name}"})
+        if sigma_v0 is not None and name in sigma_v0:
+            variables[f"sigma_v0_{name}"] = (dims[:1], _depth_profile(sigma_v0[name], da, units),
+                                             {"units": p_label, "long_name": "effective vertical "
+                                              f"stress before the fill, plan grid {name}"})
     if fill_thickness is not None:
         if not isinstance(grid, GridSpec):
             raise InputError("a GridSpec is needed to place fill_thickness", argument="grid")
@@ -118,6 +126,14 @@ def stress_dataset(slices: Mapping, *, grid: GridSpec | None = None, fill_thickn
     return ds
 
 
+def _depth_profile(values, da, units) -> np.ndarray:
+    v = np.asarray(values, float)
+    if v.shape != (da.sizes["depth"],) or np.any(np.isinf(v)):
+        raise InputError(f"needs one finite value or NaN per slice depth, got shape {v.shape}",
+                         argument="sigma_v0")
+    return to_output_units(v, units, "pressure")
+
+
 def _crs_attrs(crs) -> dict:
     if crs is None:
         return {"crs_wkt": ""}
@@ -127,7 +143,8 @@ def _crs_attrs(crs) -> dict:
 
 
 def write_stress_cube(path, slices: Mapping, *, grid: GridSpec | None = None,
-                      fill_thickness=None, units: UnitSystem = SI, crs=None) -> os.PathLike:
+                      fill_thickness=None, units: UnitSystem = SI, crs=None,
+                      sigma_v0: Mapping | None = None) -> os.PathLike:
     """Write :func:`stress_dataset` to NetCDF-4 (engine h5netcdf), atomically.
 
     Examples
@@ -142,5 +159,6 @@ def write_stress_cube(path, slices: Mapping, *, grid: GridSpec | None = None,
     ...     round(float(ds["dsz_plan"][0, 0, 0]), 6), float(ds["depth_plan"][0])
     (1000.0, 10.0)
     """
-    ds = stress_dataset(slices, grid=grid, fill_thickness=fill_thickness, units=units, crs=crs)
+    ds = stress_dataset(slices, grid=grid, fill_thickness=fill_thickness, units=units, crs=crs,
+                        sigma_v0=sigma_v0)
     return write_atomic(path, lambda tmp: ds.to_netcdf(tmp, engine="h5netcdf"))

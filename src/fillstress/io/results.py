@@ -326,19 +326,21 @@ class ResultsFolder:
     def plan_slices(self, quantity: str = "dsz") -> list[PlanField]:
         """Every horizontal slice of `quantity`, sorted by plan grid then depth.
 
-        Read from ``stress_cube.nc`` (variables ``<quantity>_<grid>``); Δσz falls back to
-        ``slices/dsz_<grid>_z<depth><len>.tif`` when there is no cube.
+        Read from ``stress_cube.nc`` (variables ``<quantity>_<grid>``); σ'v0 and the
+        stress ratio also come from the per-depth profile ``sigma_v0_<grid>`` beside
+        ``dsz_<grid>``; Δσz falls back to ``slices/dsz_<grid>_z<depth><len>.tif`` when there
+        is no cube.
         """
         unit_key = quantity_unit_key(quantity)
         units = self.units.label(unit_key)
         cube = self.cube()
         slices = []
         if cube is not None:
-            for var in sorted(cube.data_vars):
-                grid = _grid_of(var, quantity)
-                da = cube[var]
-                if grid is None or da.ndim != 3:
-                    continue
+            stacks = {g: cube[v] for v in sorted(cube.data_vars)
+                      if (g := _grid_of(v, quantity)) is not None and cube[v].ndim == 3}
+            if not stacks and quantity in ("sigma_v0", "stress_ratio"):
+                stacks = _from_sigma_profile(cube, quantity)
+            for grid, da in stacks.items():
                 depths = np.asarray(da[da.dims[0]].values, float)
                 for k in np.argsort(depths):
                     slices.append(self._plan_from_array(da.isel({da.dims[0]: int(k)}), quantity,
@@ -368,6 +370,23 @@ def quantity_unit_key(quantity: str) -> str | None:
         raise InputError(f"unknown quantity {quantity!r}; choose one of {', '.join(QUANTITIES)}",
                          argument="quantity")
     return QUANTITIES[quantity]
+
+
+def _from_sigma_profile(cube, quantity: str) -> dict:
+    """σ'v0 or Δσz / σ'v0 slice stacks from ``dsz_<g>`` and the profile ``sigma_v0_<g>``."""
+    out = {}
+    for var in sorted(cube.data_vars):
+        grid = _grid_of(var, "dsz")
+        profile = cube.get(f"sigma_v0_{grid}") if grid is not None else None
+        if profile is None or profile.ndim != 1 or cube[var].ndim != 3:
+            continue
+        dsz = cube[var]
+        sigma = profile.broadcast_like(dsz).transpose(*dsz.dims)
+        if quantity == "sigma_v0":
+            out[grid] = sigma
+        else:
+            out[grid] = dsz / sigma.where(sigma > 0)
+    return out
 
 
 def _grid_of(var: str, quantity: str) -> str | None:

@@ -249,7 +249,20 @@ def _write_cube(res, folder) -> None:
         return
     netcdf.write_stress_cube(folder.path("stress_cube.nc"), res.slices, grid=site.spec,
                              fill_thickness=site.fill_thickness(), units=site.units,
-                             crs=site.crs)
+                             crs=site.crs, sigma_v0=_slice_sigma_v0(site, res.slices))
+
+
+def _slice_sigma_v0(site, slices) -> dict | None:
+    """σ'v0 (kPa) at every slice depth of each plan grid, NaN below the stated profile."""
+    if site.soil is None:
+        return None
+    out = {}
+    for name, da in slices.items():
+        depth = np.asarray(da["depth"].values, float)
+        inside = depth <= site.soil.bottom_m
+        out[name] = np.where(inside, site.soil.sigma_v0_eff(np.minimum(depth, site.soil.bottom_m)),
+                             np.nan)
+    return out
 
 
 def _write_vtk(res, folder) -> None:
