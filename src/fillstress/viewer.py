@@ -229,7 +229,7 @@ def _nice_step(extent: float, ticks: int = 5) -> float:
     (50.0, 0.2, 1000.0)
     """
     raw = max(float(extent), 1e-9) / ticks
-    power = 10.0 ** np.floor(np.log10(raw))
+    power = 10.0 ** float(np.floor(np.log10(raw)))
     for m in (1.0, 2.0, 5.0, 10.0):
         if raw <= m * power * 1.5:
             return m * power
