@@ -40,7 +40,7 @@ def test_scene_page_is_small_named_and_has_every_quantity(runs, name):
     σ'v0 profile gives σ'v0 and Δσz / σ'v0 slices (every sample site has a soil profile)."""
     import html as html_lib
     import re
-    from fillstress.report.folder import ResultsFolder
+    from fillstress.io.results import ResultsFolder
     folder = runs[name]
     page = (folder / "scene.html").read_text(encoding="utf-8")
     assert (folder / "scene.html").stat().st_size <= 5_000_000

@@ -212,7 +212,7 @@ def test_sigma_v0_and_ratio_slices_from_the_depth_profile(truth, tmp_path):
     """σ'v0 slices come from the cube's per-depth profile; the stress ratio is Δσz over it
     when the cube holds no ratio of its own."""
     import xarray as xr
-    from fillstress.report.folder import ResultsFolder
+    from fillstress.io.results import ResultsFolder
     copy = tmp_path / "copy"
     shutil.copytree(truth.path, copy)
     with xr.open_dataset(copy / "stress_cube.nc") as ds:

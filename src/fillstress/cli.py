@@ -131,7 +131,7 @@ def _parser() -> argparse.ArgumentParser:
 
 
 def _view_options(c):
-    from .report.folder import QUANTITIES
+    from .io.results import QUANTITIES
     from .viewer import CAMERAS, LAYERS
     c.add_argument("--quantity", default="dsz", choices=list(QUANTITIES),
                    help="quantity coloured on the slices and points (default dsz)")
