@@ -15,6 +15,7 @@ import pytest
 from browser import CHROMIUM, Browser
 from fillstress import viewer
 from fillstress.scene_page import colour_index
+from guide_images import keep
 from results_fixture import NASTY_ID, write_results_folder
 
 
@@ -96,7 +97,9 @@ def test_depth_control_changes_the_pixels_and_the_label(page):
     browser.evaluate("window.fillstressScene.setDepth(1)")
     deep = _view_pixels(browser)
     text = browser.evaluate("document.getElementById('depthText').textContent")
+    keep(browser.screenshot(), "scene_page_6m.png")
     browser.evaluate("window.fillstressScene.setDepth(0)")
+    keep(browser.screenshot(), "scene_page_2m.png")
     assert text == "6 m below existing ground"
     changed = np.any(np.abs(shallow - deep) > 30, axis=2).mean()
     assert changed > 0.02
@@ -148,6 +151,7 @@ def test_hover_shows_a_receptor_and_its_values(page, truth):
         if text:
             break
     assert browser.evaluate("getComputedStyle(document.getElementById('tip')).display") == "block"
+    keep(browser.screenshot(), "scene_page_hover.png")
     assert "Δσz" in text and "kPa" in text and "deep" in text
     ids = [NASTY_ID, *truth.building_ids, truth.pipe_id, truth.borehole_id]
     assert any(i in text for i in ids)                    # text from inputs shown literally

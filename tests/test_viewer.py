@@ -16,6 +16,7 @@ from PIL import Image
 
 from fillstress import viewer
 from fillstress.errors import InputError
+from guide_images import keep
 from results_fixture import write_results_folder
 
 @pytest.fixture(scope="module")
@@ -158,6 +159,7 @@ def test_exaggeration_slider_reframes_and_recaptions(truth):
             inside.append(-1 <= px <= 601 and -1 <= py <= 451)
     finally:
         plotter.close()
+    keep(img, "window_exaggeration_9.png")
     assert "vertical exaggeration 9" in caption
     assert all(inside)                 # re-framed: the stretched scene stays in the window
     assert _distinct_colours(img) > 200

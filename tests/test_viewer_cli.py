@@ -13,6 +13,7 @@ from PIL import Image
 
 from fillstress import viewer
 from fillstress.cli import main
+from guide_images import keep
 from results_fixture import write_results_folder
 
 SRC = str(Path(__file__).resolve().parents[1] / "src")
@@ -40,6 +41,7 @@ def test_options_reach_the_picture(truth, tmp_path):
     assert main(["view", str(truth.path), "--png", str(out), "--camera", "xy",
                  "--layers", "slices", "--depth", "6", "--colour-range", "0", "100"]) == 0
     img = np.asarray(Image.open(out).convert("RGB")).astype(int)
+    keep(out, "view_plan_6m.png")
     h, w, _ = img.shape
     body = img[int(0.12 * h):int(0.88 * h), :int(0.8 * w)]
     from matplotlib import colormaps
@@ -103,3 +105,4 @@ def test_headless_render_prints_nothing_on_stderr(truth, tmp_path):
     assert proc.returncode == 0, proc.stderr
     assert "bad X server" not in proc.stderr and proc.stderr.strip() == ""
     assert out.stat().st_size > 10_000
+    keep(out, "view_stress_ratio.png")
