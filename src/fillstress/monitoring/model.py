@@ -23,6 +23,7 @@ from scipy import optimize, stats
 from .. import settlement as st
 from .._validate import finite_array
 from ..errors import InputError
+from ..io.readings import Placement
 from ..soil import SoilProfile
 
 _DAYS_PER_YEAR = 365.25
@@ -59,15 +60,6 @@ def scaled_profile(profile: SoilProfile, f_c: float = 1.0, f_cv: float = 1.0) ->
             lay = replace(lay, **change)
         layers.append(lay)
     return SoilProfile(layers, profile.water_table_m, profile.rigid_base_m, profile.gamma_w)
-
-
-@dataclass(frozen=True)
-class Placement:
-    """`fraction` of the design load of stage `stage` placed on `day` (days after day 0)."""
-
-    stage: int
-    day: float
-    fraction: float = 1.0
 
 
 def stage_loads(site) -> dict:
@@ -194,7 +186,8 @@ class FactorFit:
 
 def relative_settlement(model: PointModel, rows, days, baseline_days, f_c, f_cv) -> np.ndarray:
     """Model settlement at (row, day) pairs measured from each row's baseline day."""
-    out = np.empty(len(days))
+    rows, days = np.asarray(rows, int), np.asarray(days, float)
+    out = np.empty(days.size)
     for r in np.unique(rows):
         at = rows == r
         curve = model.select([r]).settlement(np.r_[baseline_days[r], days[at]], f_c, f_cv)[0]
