@@ -97,3 +97,11 @@ def test_piezometer_starts_at_the_stress_increase_and_dissipates(site):
     u = pz.excess([10.0, 119.0, 121.0, 2000.0, 20000.0])[0]
     assert u[0] > u[1] and u[2] > u[1] and u[2] > u[3] > u[4] and u[4] < 0.01 * u[2]
     assert pz.excess([2000.0], f_cv=2.0)[0, 0] < u[3]
+
+
+def test_early_readings_do_not_pretend_to_separate_the_factors(model):
+    # U < 30 %: settlement grows as f_c·√f_cv, so the cv factor is barely bounded.
+    rows, days, meas, base = fit_data(model, 0.8, 2.0, noise=0.004, days=np.arange(5.0, 90.0, 7.0))
+    fit = fit_factors(model, rows, days, meas, base)
+    width = fit.f_cv_ci[1] - fit.f_cv_ci[0]
+    assert not fit.identifiable or width > 1.0

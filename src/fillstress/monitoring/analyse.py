@@ -207,7 +207,9 @@ def _attr(obj, name):
 
 
 def _ci(fit, name, k):
-    return math.nan if fit is None else float(getattr(fit, name)[k])
+    """An interval end; NaN when there is no fit or the readings cannot bound it."""
+    value = math.nan if fit is None else float(getattr(fit, name)[k])
+    return value if math.isfinite(value) else math.nan
 
 
 def _first_day(fn, start: float, horizon_days: float = 200 * DAYS_PER_YEAR) -> float:
@@ -327,6 +329,11 @@ def _cautions(res: MonitoringResults) -> list[str]:
                            "design fill; the prediction uses that fraction of its load.")
         for k in {p.stage for p in res.design} - set(placed):
             out.append(f"Stage {k} is not in the construction record: not placed yet.")
+    if res.site_fit is not None and not res.site_fit.identifiable:
+        out.append("Site fit: the readings cannot separate compressibility from cv (early in "
+                   "consolidation settlement grows as f_c·√f_cv); the revised forecast is not "
+                   "determined by them. Wait for readings past U ≈ 30–50 % or fix one factor "
+                   "from laboratory or field tests.")
     last_load = max(p.day for p in res.placements)
     for row in res.instruments.itertuples():
         if row.baseline_day > min(p.day for p in res.placements):

@@ -31,7 +31,10 @@ class MonitorSummary:
     def closing_lines(self):
         r = self.results
         lines = []
-        if r.site_fit is not None:
+        if r.site_fit is not None and not r.site_fit.identifiable:
+            lines.append("site fit: the readings do not separate compressibility from cv; "
+                         "the forecast is not determined by them (see the cautions)")
+        elif r.site_fit is not None:
             f = r.site_fit
             lines.append(f"site fit: compressibility × {f.f_c:.2f} ({f.f_c_ci[0]:.2f} … "
                          f"{f.f_c_ci[1]:.2f}), cv × {f.f_cv:.2f} ({f.f_cv_ci[0]:.2f} … "

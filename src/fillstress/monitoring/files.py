@@ -63,7 +63,7 @@ def write_monitoring(res, folder, *, report: bool = True, inputs=(), day0=None) 
     table("curves.csv", _curves(res))
     table("asaoka.csv", _asaoka_points(res))
     summary = _summary(res, day0)
-    text = json.dumps(summary, indent=2, ensure_ascii=False, default=_json) + "\n"
+    text = json.dumps(summary, indent=2, ensure_ascii=False, default=_json, allow_nan=False) + "\n"
     write_atomic(folder.path("monitoring.json"), lambda p: p.write_text(text, encoding="utf-8"))
     pictures = _pictures(res)
     for name, png in pictures.items():
@@ -99,8 +99,10 @@ def _asaoka_points(res) -> pd.DataFrame:
 def _fit_json(fit) -> dict | None:
     if fit is None:
         return None
-    return {"f_c": fit.f_c, "f_c_95": list(fit.f_c_ci), "f_cv": fit.f_cv,
-            "f_cv_95": list(fit.f_cv_ci), "rms_m": fit.rms, "readings": fit.n,
+    def finite(pair):
+        return [float(v) if math.isfinite(v) else None for v in pair]
+    return {"f_c": fit.f_c, "f_c_95": finite(fit.f_c_ci), "f_cv": fit.f_cv,
+            "f_cv_95": finite(fit.f_cv_ci), "rms_m": fit.rms, "readings": fit.n,
             "identifiable": fit.identifiable}
 
 

@@ -18,8 +18,10 @@ def _day(v) -> str:
 
 
 def _interval(mid, low, high) -> str:
-    if any(isinstance(v, float) and math.isnan(v) for v in (mid, low, high)):
+    if isinstance(mid, float) and math.isnan(mid):
         return ""
+    if not all(math.isfinite(v) for v in (low, high)):
+        return f"{mid:.2f} (interval not determined)"
     return f"{mid:.2f} ({low:.2f} … {high:.2f})"
 
 
