@@ -230,11 +230,14 @@ def _report(args, console):
 
 def _monitor(args, console):
     from .monitoring.command import monitor_site_file
-    console.summary(monitor_site_file(
+    summary = monitor_site_file(
         args.site, args.readings, args.out, day0=args.day0, construction=args.construction,
         target_degree=args.target_degree, residual_limit=args.residual_limit,
         design_life_years=args.design_life, overwrite=args.overwrite,
-        report=not args.no_report))
+        report=not args.no_report)
+    for block in summary.tables():
+        console.table(*block)
+    console.lines(summary.closing_lines())
 
 
 def _require_results(folder: Path):

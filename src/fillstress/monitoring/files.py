@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import json
 import math
+import re
 
 import numpy as np
 import pandas as pd
@@ -14,7 +15,6 @@ import pandas as pd
 from ..io import manifest
 from ..io.atomic import write_atomic
 from ..io.tables import plan_unit, write_table_csv
-from ..run.compute import slug
 
 ASSUMPTIONS = (
     "Readings are compared with the project's own prediction: Δσz from linear elasticity "
@@ -166,3 +166,14 @@ def _pictures(res) -> dict:
                 name, days, predicted, revised, (g["day"], g["measured_excess"]),
                 unit=site.units.pressure, scale=pscale)
     return out
+
+
+def slug(text: str) -> str:
+    """An instrument id as a safe file-name part.
+
+    Examples
+    --------
+    >>> slug("EX-01/A1"), slug("../")
+    ('EX-01_A1', 'instrument')
+    """
+    return re.sub(r"[^A-Za-z0-9_-]+", "_", str(text)).strip("_") or "instrument"

@@ -5,6 +5,7 @@ import math
 
 from ..report import monitoring as page_parts
 from ..report.tables import html_table, plain
+from .files import slug
 
 
 def _mm(res, v) -> str:
@@ -76,7 +77,6 @@ def _comparison(res, pictures) -> str:
         out += page_parts.image(pictures["plates_map.png"],
                                 "Settlement plates coloured by measured ÷ predicted at the last reading")
     for r in res.instruments.itertuples():
-        from ..run.compute import slug
         key = f"instrument_{slug(r.instrument)}.png"
         if key in pictures:
             out += page_parts.image(pictures[key], f"{r.instrument}: readings, design "
@@ -95,7 +95,6 @@ def _back(res, pictures) -> str:
                       f"Asaoka ultimate ({u})",
                       "Asaoka cv (m²/year)", f"hyperbolic ultimate ({u})", "f_c (95 %)",
                       "f_cv (95 %)", f"fit RMS ({u})"], rows)
-    from ..run.compute import slug
     for name in res.asaoka:
         out += page_parts.image(pictures[f"asaoka_{slug(name)}.png"],
                                 f"{name}: Asaoka plot (residuals in asaoka.csv)")
@@ -131,7 +130,6 @@ def _piezometers(res, pictures) -> str:
     out = html_table(["piezometer", "depth (m)", "last reading (day)",
                       f"measured excess ({unit})", f"predicted ({unit})",
                       f"revised cv ({unit})", "hydrostatic datum"], rows)
-    from ..run.compute import slug
     for name in res.piezometer_curves:
         out += page_parts.image(pictures[f"piezometer_{slug(name)}.png"],
                                 f"{name}: excess pore pressure against the predicted dissipation")
