@@ -66,9 +66,25 @@ def test_forecast_days_are_consistent(monitored):
     assert ins["day_residual_limit"].notna().all()
 
 
+def test_site_file_monitoring_table_names_the_files(tmp_path):
+    # [monitoring] of the sample gives readings, construction and day 0
+    s = monitor_site_file(SAMPLE / "site.toml", None, tmp_path / "m", report=False)
+    assert s.results.recorded and s.results.readings.path.name == "readings.csv"
+    assert not any("No construction record" in c for c in s.results.cautions)
+
+
+def without_monitoring_table(folder):
+    """A copy of the sample whose site file has no [monitoring] table."""
+    shutil.copytree(SAMPLE, folder)
+    site = folder / "site.toml"
+    site.write_text(site.read_text().split("[monitoring]")[0])
+    return site
+
+
 def test_without_a_construction_record_says_so(tmp_path):
-    s = monitor_site_file(SAMPLE / "site.toml", SAMPLE / "readings.csv", tmp_path / "m",
-                          day0=DAY0, report=False)
+    site = without_monitoring_table(tmp_path / "plain")
+    s = monitor_site_file(site, SAMPLE / "readings.csv", tmp_path / "m", day0=DAY0,
+                          report=False)
     assert any("No construction record" in c for c in s.results.cautions)
 
 
@@ -90,9 +106,11 @@ def test_cli_bad_readings_one_line_exit_2_nothing_lost(tmp_path, capsys):
                  "--day0", DAY0, "-o", str(out)])
     assert code == 2 and "exists" in capsys.readouterr().err
     assert (out / "keep.txt").read_text() == "earlier"
-    code = main(["monitor", str(SAMPLE / "site.toml"), str(SAMPLE / "readings.csv"),
-                 "-o", str(tmp_path / "x")])
+    plain = without_monitoring_table(tmp_path / "plain")
+    code = main(["monitor", str(plain), str(SAMPLE / "readings.csv"), "-o", str(tmp_path / "x")])
     assert code == 2 and "day 0" in capsys.readouterr().err
+    code = main(["monitor", str(plain), "-o", str(tmp_path / "x")])
+    assert code == 2 and "argument readings: missing" in capsys.readouterr().err
     code = main(["monitor", str(SAMPLE / "site.toml"), str(SAMPLE / "readings.csv"), "--day0",
                  "03/03/2025", "-o", str(tmp_path / "x")])
     assert code == 2 and "argument day0" in capsys.readouterr().err

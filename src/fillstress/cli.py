@@ -135,7 +135,8 @@ def _parser() -> argparse.ArgumentParser:
                 "fillstress monitor site.toml readings.csv --day0 2025-03-03 "
                 "--construction construction.csv -o monitoring --residual-limit 25")
     c.add_argument("site", type=Path, help="site file (TOML)")
-    c.add_argument("readings", type=Path, help="readings CSV (plates, extensometers, piezometers)")
+    c.add_argument("readings", type=Path, nargs="?", default=None,
+                   help="readings CSV (default: [monitoring] readings of the site file)")
     from .monitoring.options import add_options
     add_options(c)
     return p

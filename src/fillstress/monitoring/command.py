@@ -53,7 +53,8 @@ def monitor_site_file(site_path, readings_path, out=None, *, day0=None, construc
     Parameters
     ----------
     site_path, readings_path : path-like
-        The site file (TOML) and the readings CSV (io.readings).
+        The site file (TOML) and the readings CSV (io.readings); without `readings_path`,
+        `day0` or `construction`, the site file's ``[monitoring]`` table gives them.
     out : path-like, optional
         Folder; default ``monitor-<site file stem>``; an existing one is refused unless
         `overwrite`, and replaced only when the new one is complete.
@@ -86,7 +87,13 @@ def monitor_site_file(site_path, readings_path, out=None, *, day0=None, construc
     site = load_site(site_path)
     out = Path(out) if out else Path(f"monitor-{Path(site_path).stem}")
     folder = ResultsFolder(out, overwrite=overwrite)
-    day0 = parse_day0(day0)
+    stated = site.config.get("monitoring") or {}
+    readings_path = readings_path or stated.get("readings")
+    if readings_path is None:
+        raise InputError("missing: give the readings file, or [monitoring] readings in the "
+                         "site file", argument="readings")
+    construction = construction or stated.get("construction")
+    day0 = parse_day0(day0 or stated.get("day0"))
     limit = None
     if residual_limit is not None:
         try:
