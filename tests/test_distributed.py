@@ -127,3 +127,22 @@ def test_envelope_refuses_mismatched_variants():
         envelope([pd.DataFrame({"id": ["a"], "v": [1.0]}), pd.DataFrame({"id": ["b"], "v": [2.0]})])
     with pytest.raises(InputError, match="at least one"):
         envelope([])
+
+
+def _die_always(value):
+    os._exit(1)
+
+
+def test_fillstress_cluster_retries_a_killed_worker_then_fails_in_one_line(tmp_path):
+    from fillstress.errors import ClusterError
+    from fillstress.solve.distributed import ALLOWED_FAILURES, connect
+    marker = str(tmp_path / "died-once")
+    with pytest.raises(ClusterError) as err:
+        with connect(2) as c:
+            # a worker killed mid-run: its task runs again on a fresh worker
+            assert map_variants(_die_once, [(marker, v) for v in range(4)], client=c) == \
+                [0, 10, 20, 30]
+            assert os.path.exists(marker)
+            map_variants(_die_always, [1], client=c)   # kills every worker it reaches
+    assert f"lost a worker {ALLOWED_FAILURES} times" in str(err.value)
+    assert "\n" not in str(err.value)

@@ -1,4 +1,5 @@
-"""docs/validation.md and docs/api.md must be what their generators write now."""
+"""docs/validation.md, docs/api.md and docs/reliability.md must be what their generators
+write now."""
 from __future__ import annotations
 
 import importlib.util
@@ -27,6 +28,7 @@ def _first_difference(committed: str, fresh: str) -> str:
 @pytest.mark.parametrize("tool, builder, doc", [
     ("write_validation_table", "validation_table", "validation.md"),
     ("write_api_reference", "api_reference", "api.md"),
+    ("write_reliability_table", "reliability_table", "reliability.md"),
 ])
 def test_generated_doc_is_current(tool, builder, doc):
     module = _tool(tool)

@@ -119,3 +119,34 @@ def whole_pair(value, name: str, *, minimum: int = 0, meaning: str) -> tuple[int
         if isinstance(v, bool) or not hasattr(v, "__index__") or operator.index(v) < minimum:
             raise InputError(f"must be {meaning}, got {value!r}", argument=name)
     return operator.index(first), operator.index(second)
+
+
+def regular_file(path, *, what: str = "file", **where):
+    """`path` as a Path when it names a regular file (symlinks followed); else InputError
+    naming `where` (file=, key= or argument=). Refuses folders, FIFOs, devices such as
+    /dev/zero and symlink loops before anything opens them (a FIFO would block a read,
+    a device would never end one).
+
+    Examples
+    --------
+    >>> regular_file("/dev/null", key="ground.points")
+    Traceback (most recent call last):
+    ...
+    fillstress.errors.InputError: [ground.points] /dev/null is a device, not a regular file
+    """
+    import os
+    import stat
+    from pathlib import Path
+    path = Path(os.fspath(path))
+    try:
+        mode = os.stat(path).st_mode
+    except FileNotFoundError:
+        raise InputError(f"{what} not found: {path}", **where) from None
+    except OSError as exc:          # ELOOP, EACCES, ENAMETOOLONG…
+        raise InputError(f"{path} cannot be opened ({exc.strerror or exc})", **where) from None
+    if stat.S_ISREG(mode):
+        return path
+    kind = ("a folder" if stat.S_ISDIR(mode) else "a named pipe (FIFO)" if stat.S_ISFIFO(mode)
+            else "a device" if stat.S_ISCHR(mode) or stat.S_ISBLK(mode)
+            else "a socket" if stat.S_ISSOCK(mode) else "not a file")
+    raise InputError(f"{path} is {kind}, not a regular file", **where)

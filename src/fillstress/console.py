@@ -24,8 +24,9 @@ class Console:
         self.quiet = quiet
         # Piped output (logs, CI) gets a wide table instead of rich's 80-column default.
         wide = None if sys.stdout.isatty() else 140
-        self.out = _RichConsole(highlight=False, width=wide)
-        self.err = _RichConsole(stderr=True, highlight=False)
+        # emoji off: input text such as "pad:x:.geojson" is printed as written
+        self.out = _RichConsole(highlight=False, width=wide, emoji=False)
+        self.err = _RichConsole(stderr=True, highlight=False, emoji=False)
 
     def error(self, message: str) -> None:
         self.err.print(f"[bold red]fillstress: error:[/] {escape(message)}", soft_wrap=True)

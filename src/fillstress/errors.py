@@ -66,6 +66,10 @@ class CapacityError(FillstressError):
     """
 
 
+class ClusterError(FillstressError):
+    """A Dask cluster died or lost its workers past the retries; nothing was written."""
+
+
 class FillstressWarning(UserWarning):
     """Something the engineer should know that does not stop the work (a recovered folder,
     a grid far larger than the loads, an implausible value). The command prints each as

@@ -183,6 +183,7 @@ class ResultsFolder:
         if _within(Path(os.path.realpath(os.getcwd())), real):
             raise InputError("is the current folder or holds it; choose another results "
                              "folder", file=self.final)
+        _writable_parent(self.final)
         if not (self.final.exists() or self.final.is_symlink()):
             return
         if self.final.is_symlink() or not self.final.is_dir():
@@ -194,8 +195,12 @@ class ResultsFolder:
             raise InputError(NOT_RESULTS_MESSAGE, file=self.final)
 
     def __enter__(self) -> "ResultsFolder":
-        self.final.parent.mkdir(parents=True, exist_ok=True)
-        self.root.mkdir()
+        try:
+            self.final.parent.mkdir(parents=True, exist_ok=True)
+            self.root.mkdir()
+        except OSError as exc:          # read-only or full disk, no permission
+            raise InputError(f"cannot create the results folder here "
+                             f"({exc.strerror or exc})", file=self.final.parent) from None
         self._lock = _hold_lock(self.root / LOCK_NAME)
         self._open = True
         return self
@@ -250,6 +255,20 @@ class ResultsFolder:
             raise
         _fsync_dir(self.final.parent)
         shutil.rmtree(backup, ignore_errors=True)
+
+
+def _writable_parent(final: Path) -> None:
+    """Refuse, before any work, a results folder that cannot be created where it is asked."""
+    parent = final.parent
+    while not parent.exists() and parent != parent.parent:
+        parent = parent.parent
+    probe = parent / f".fillstress-probe-{uuid.uuid4().hex[:12]}"
+    try:                                # a real write: root, read-only mounts, quotas
+        probe.mkdir()
+        probe.rmdir()
+    except OSError as exc:
+        raise InputError(f"cannot create the results folder here "
+                         f"({exc.strerror or exc})", file=parent) from None
 
 
 def _between_renames() -> None:

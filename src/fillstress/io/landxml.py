@@ -71,7 +71,8 @@ def _numbers(text, count, what, path):
     except ValueError:
         values = []
     if len(values) != count:
-        raise InputError(f"{what} must hold {count} numbers, got {text!r}", file=path)
+        raise InputError(f"{what} must hold {count} numbers, got {len(parts)} item(s)",
+                         file=path)
     return values
 
 
@@ -90,16 +91,16 @@ def _tin(surface, path):
         ids[pid] = len(points)
         points.append((e, n, z))  # LandXML order is northing easting elevation
     tris = []
-    for f in ([] if faces is None else _children(faces, "F")):
+    for k, f in enumerate([] if faces is None else _children(faces, "F"), start=1):
         if f.get("i") == "1":
             continue
         refs = (f.text or "").split()
         if len(refs) != 3:
-            raise InputError(f"face {f.text!r} must name 3 points", file=path)
+            raise InputError(f"face {k} must name 3 points, names {len(refs)}", file=path)
         try:
             tris.append([ids[r] for r in refs])
-        except KeyError as exc:
-            raise InputError(f"face {f.text!r} refers to unknown point {exc.args[0]}",
+        except KeyError:
+            raise InputError(f"face {k} refers to an unknown point (no P element has its id)",
                              file=path) from None
     if not tris:
         raise InputError("surface has no visible Faces/F triangles", file=path)

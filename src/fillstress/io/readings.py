@@ -64,11 +64,11 @@ class Readings:
 
 @dataclass(frozen=True)
 class Placement:
-    """`fraction` of the design load of stage `stage` placed on `day` (days after day 0)."""
+    """One placement of the construction record: `fraction` of stage `stage` on `day`."""
 
     stage: int
     day: float
-    fraction: float = 1.0
+    fraction: float
 
 
 class _Rows:

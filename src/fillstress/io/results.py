@@ -9,14 +9,16 @@ the same convention as :class:`fillstress.grid.LoadGrid`.
 from __future__ import annotations
 
 import json
+import os
 import re
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 import numpy as np
 
+from .._validate import regular_file
 from ..errors import InputError
-from .tables import plan_unit
+from .tables import plan_unit, restored
 from ..units import SYSTEMS, UnitSystem
 
 #: Quantities that can be shown on plan slices and at sample points; value = unit key.
@@ -119,8 +121,21 @@ class Feature:
     properties: dict = field(default_factory=dict)
 
 
-def _read_json(path: Path, *, required: bool) -> dict:
-    if not path.is_file():
+def own_file(folder: Path, path: Path) -> Path | None:
+    """`path` when it is a regular file of `folder` itself, None when absent; InputError
+    when it is a link leading outside the folder or not a regular file (a report or a
+    view shows only what the run wrote)."""
+    if not (path.exists() or path.is_symlink()):
+        return None
+    real, root = Path(os.path.realpath(path)), Path(os.path.realpath(folder))
+    if root not in real.parents:
+        raise InputError("leads outside the results folder (a link); the report and view "
+                         "read only the folder's own files", file=path)
+    return regular_file(path, file=path)
+
+
+def _read_json(folder: Path, path: Path, *, required: bool) -> dict:
+    if own_file(folder, path) is None:
         if required:
             raise InputError("is missing from the results folder", file=path)
         return {}
@@ -162,8 +177,8 @@ class ResultsFolder:
         self.path = Path(path)
         if not self.path.is_dir():
             raise InputError("is not a results folder (no such directory)", argument="results_dir")
-        self.manifest = _read_json(self.path / "manifest.json", required=True)
-        self.summary = _read_json(self.path / "summary.json", required=False)
+        self.manifest = _read_json(self.path, self.path / "manifest.json", required=True)
+        self.summary = _read_json(self.path, self.path / "summary.json", required=False)
         self.units = self._read_units()
         self._read_once: dict = {}
 
@@ -211,11 +226,12 @@ class ResultsFolder:
         """The CSV ``<name>.csv`` as a pandas DataFrame, or None when absent."""
         import pandas as pd
         path = self.path / f"{name}.csv"
-        if not path.is_file():
+        if own_file(self.path, path) is None:
             return None
         try:
-            return pd.read_csv(path, dtype={"receptor_id": str, "point_id": str, "body": str},
-                               keep_default_na=False, na_values=[""])
+            return restored(pd.read_csv(path, dtype={"receptor_id": str, "point_id": str,
+                                                     "body": str},
+                                        keep_default_na=False, na_values=[""]))
         except (pd.errors.ParserError, UnicodeDecodeError) as exc:
             raise InputError(f"cannot be read as CSV ({exc})", file=path) from None
 
@@ -248,7 +264,7 @@ class ResultsFolder:
         """Features of ``<name>.geojson`` (empty list when the file is absent)."""
         import shapely.geometry
         path = self.path / f"{name}.geojson"
-        data = _read_json(path, required=False)
+        data = _read_json(self.path, path, required=False)
         feats = []
         for k, feat in enumerate(data.get("features", [])):
             try:
@@ -268,7 +284,7 @@ class ResultsFolder:
     def _read_raster(self, relpath: str, quantity: str, units: str) -> PlanField | None:
         import rasterio
         path = self.path / relpath
-        if not path.is_file():
+        if own_file(self.path, path) is None:
             return None
         try:
             with rasterio.open(path) as src:
@@ -305,7 +321,7 @@ class ResultsFolder:
     def _read_cube(self):
         import xarray as xr
         path = self.path / "stress_cube.nc"
-        if not path.is_file():
+        if own_file(self.path, path) is None:
             return None
         try:
             with xr.open_dataset(path) as ds:

@@ -44,8 +44,9 @@ def _columns(header: list[str], path) -> list[int]:
     for axis, aliases in COLUMN_NAMES.items():
         hits = [k for k, n in enumerate(names) if n in aliases]
         if len(hits) != 1:
-            raise InputError(f"header {header} needs exactly one {axis} column "
-                             f"(one of {list(aliases)})", file=path)
+            # the header is not echoed: the file may not be a survey at all
+            raise InputError(f"the header (first line) needs exactly one {axis} column, "
+                             f"named one of {', '.join(aliases)}; found {len(hits)}", file=path)
         found.append(hits[0])
     return found
 
@@ -77,8 +78,8 @@ def parse_survey_text(text: str, path="points") -> np.ndarray:
         try:
             out[n] = [float(tokens[c]) for c in cols]
         except (IndexError, ValueError):
-            raise InputError(f"line {line_no} is not a point ({' '.join(tokens)!r})",
-                             file=path) from None
+            raise InputError(f"line {line_no} is not a point (needs a number in each of "
+                             f"the x, y, z columns)", file=path) from None
     bad = np.flatnonzero(~np.all(np.isfinite(out), axis=1))
     if bad.size:
         raise InputError(f"point {bad[0] + 1} has a NaN or infinite value", file=path)

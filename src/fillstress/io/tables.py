@@ -9,6 +9,7 @@ the CRS's coordinates; see :func:`plan_unit` for their suffix.
 from __future__ import annotations
 
 import os
+from pathlib import Path
 from typing import Mapping
 
 import numpy as np
@@ -186,8 +187,47 @@ def write_table_csv(path, table: pd.DataFrame, units: UnitSystem,
     >>> open(f).read().splitlines()
     ['receptor_id,chainage_m', 'P1,2.5']
     """
-    labelled = labelled_table(table, units, quantities, crs=crs)
+    labelled = neutralised(labelled_table(table, units, quantities, crs=crs))
     return write_atomic(path, lambda tmp: labelled.to_csv(tmp, index=False))
+
+
+#: A spreadsheet runs a cell beginning with one of these as a formula (OWASP, "CSV
+#: Injection"): such text cells are written with a leading apostrophe.
+FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
+
+
+def neutralised(table: pd.DataFrame) -> pd.DataFrame:
+    """`table` with text cells that a spreadsheet would run as a formula prefixed by ``'``
+    (OWASP guidance on CSV injection); numeric columns are left as numbers.
+
+    >>> t = neutralised(pd.DataFrame({"id": ["=1+2", "B-1", "-x"], "v": [-1.0, 2.0, 3.0]}))
+    >>> t["id"].tolist(), t["v"].tolist()
+    (["'=1+2", 'B-1', "'-x"], [-1.0, 2.0, 3.0])
+    """
+    out = table.copy()
+    for col in out.columns:
+        if _text_column(out[col]):
+            out[col] = [f"'{v}" if isinstance(v, str) and v.startswith(FORMULA_STARTS) else v
+                        for v in out[col]]
+    return out
+
+
+def _text_column(column: pd.Series) -> bool:
+    return column.dtype == object or pd.api.types.is_string_dtype(column)
+
+
+def restored(table: pd.DataFrame) -> pd.DataFrame:
+    """The inverse of :func:`neutralised`, for readers of fillstress's own CSV files.
+
+    >>> restored(neutralised(pd.DataFrame({"id": ["=1+2", "'quoted"]})))["id"].tolist()
+    ['=1+2', "'quoted"]
+    """
+    out = table.copy()
+    for col in out.columns:
+        if _text_column(out[col]):
+            out[col] = [v[1:] if isinstance(v, str) and v.startswith("'")
+                        and v[1:].startswith(FORMULA_STARTS) else v for v in out[col]]
+    return out
 
 
 def _pyproj_crs(crs):
@@ -227,7 +267,9 @@ def write_geojson(path, frame, units: UnitSystem, *, crs=None,
     attrs = labelled_table(pd.DataFrame(frame.drop(columns=frame.geometry.name)), units,
                            quantities, crs=site)
     out = gpd.GeoDataFrame(attrs, geometry=geometry, crs=site)
-    return write_atomic(path, lambda tmp: out.to_file(tmp, driver="GeoJSON"))
+    # the layer is named after the final file, not the temporary one (same bytes every run)
+    layer = Path(os.fspath(path)).name.removesuffix(".geojson")
+    return write_atomic(path, lambda tmp: out.to_file(tmp, driver="GeoJSON", layer=layer))
 
 
 def write_points_geojson(path, points: pd.DataFrame, units: UnitSystem, *, crs=None,

@@ -105,6 +105,10 @@ def stress_grid_mesh(dsz, units: UnitSystem = SI):
                               _length(-depth[order], units))
     mesh.point_data["dsz"] = to_output_units(values, units, "pressure").ravel()
     mesh.field_data["units"] = _units_note(units)
+    # unnamed coordinate arrays are written under their memory address: name them
+    for axis, coords in zip("xyz", (mesh.GetXCoordinates(), mesh.GetYCoordinates(),
+                                    mesh.GetZCoordinates())):
+        coords.SetName(axis)
     return mesh
 
 
@@ -180,7 +184,7 @@ def buildings_mesh(buildings, units: UnitSystem = SI):
     pts = np.vstack(all_points)
     mesh = pv.PolyData(np.column_stack([_length(pts[:, 0], units), _length(pts[:, 1], units),
                                         _length(pts[:, 2], units)]), faces=all_faces)
-    mesh.cell_data["receptor_id"] = np.array(ids)
+    mesh.cell_data["receptor_id"] = _ascii_ids(ids)
     mesh.cell_data["foundation_depth"] = _length(depths, units)
     mesh = mesh.clean()  # merge the duplicated corner points of neighbouring faces
     mesh.field_data["units"] = _units_note(units)
@@ -210,6 +214,16 @@ def write_buildings(path, buildings, units: UnitSystem = SI) -> os.PathLike:
 
 
 # --- pipes and boreholes as polylines --------------------------------------------------
+def _ascii_ids(ids) -> np.ndarray:
+    """VTK string arrays hold ASCII only: other characters of an id are written as Python
+    escapes (``Bohrloch-Ü`` → ``Bohrloch-\\xdc``); the CSV and GeoJSON files keep them.
+
+    >>> print(*_ascii_ids(["B1", "Bohrloch-Ü"]))
+    B1 Bohrloch-\\xdc
+    """
+    return np.array([str(i).encode("ascii", "backslashreplace").decode("ascii") for i in ids])
+
+
 def _require_columns(table, columns, name):
     missing = [c for c in columns if c not in getattr(table, "columns", [])]
     if missing:
@@ -251,7 +265,7 @@ def polylines_mesh(points: pd.DataFrame, order_by: str, units: UnitSystem = SI):
     if "dsz" in ordered:
         mesh.point_data["dsz"] = to_output_units(ordered["dsz"].to_numpy(float), units,
                                                  "pressure")
-    mesh.cell_data["receptor_id"] = np.array(ids)
+    mesh.cell_data["receptor_id"] = _ascii_ids(ids)
     mesh.field_data["units"] = _units_note(units)
     return mesh
 

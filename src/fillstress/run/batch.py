@@ -31,7 +31,8 @@ from ..site.build import load_site, scaled_body
 from ..site.config import read_toml
 from ..soil import SoilProfile
 from ..solve.distributed import connect, map_variants
-from .compute import ASSUMPTIONS, CAUTIONS, RunSummary, compute
+from .compute import ASSUMPTIONS, CAUTIONS, RunSummary, cluster_choice, compute
+from .plan import validate_run
 from .files import column_quantities, write_all
 
 VARIANT_KEYS = ("name", "unit_weight_factor", "height_factor", "water_table", "method",
@@ -178,12 +179,15 @@ def run_batch(site_path, variants_path, out, *, overwrite=False, report=False,
     folder = ResultsFolder(out, overwrite=overwrite,
                            protect=site.config.input_files() + [Path(variants_path)])
     sites = [apply_variant(site, v) for v in variants]
-
-    if workers or scheduler:
-        with connect(scheduler or workers) as client:     # whole variants on the workers
+    notes = validate_run(site)
+    cluster = cluster_choice(workers, scheduler, notes)
+    if cluster:
+        with connect(cluster) as client:                   # whole variants on the workers
             results = map_variants(compute, sites, client, progress=progress)
     else:
         results = [compute(s, progress) for s in sites]
+    for res in results:
+        res.warnings[:0] = notes
     with folder:
         for v, res in zip(variants, results):
             sub = _SubFolder(folder, v.name)

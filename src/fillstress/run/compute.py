@@ -6,6 +6,7 @@ both inside a results-folder transaction. `check_site_file` shows what a run wou
 from __future__ import annotations
 
 import time
+import warnings
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -13,7 +14,7 @@ import numpy as np
 import pandas as pd
 
 from .._version import __version__
-from ..errors import InputError
+from ..errors import FillstressWarning, InputError
 from ..io.atomic import ResultsFolder
 from ..progress import silent
 from ..site.build import Site, load_site
@@ -22,7 +23,7 @@ from ..solve.auto import stress_at_points
 from ..solve.distributed import connect, distributed_points, distributed_slices
 from ..solve.tiled import tiled_slices
 from . import files, settle
-from .plan import check_fits, describe_run, memory_cap, plan_pad, slices_need_tiles
+from .plan import describe_run, memory_cap, plan_pad, slices_need_tiles, validate_run
 
 ASSUMPTIONS = (
     "Vertical stress increase from linear elasticity: a homogeneous, isotropic, linear-elastic "
@@ -193,14 +194,14 @@ def run_site_file(path, out=None, *, overwrite=False, report=True, progress=sile
     out = Path(out) if out else Path(f"results-{Path(path).stem}")
     # refuses now an existing folder, one that is not a results folder or holds an input
     folder = ResultsFolder(out, overwrite=overwrite, protect=site.config.input_files())
-    check_fits(site)                                      # refuses, with numbers, before work
-    if workers and scheduler:
-        raise InputError("give --workers or --scheduler, not both", argument="--workers")
-    if workers or scheduler:
-        with connect(scheduler or workers) as client:
+    notes = validate_run(site)                            # refuses, with numbers, before work
+    cluster = cluster_choice(workers, scheduler, notes)
+    if cluster:
+        with connect(cluster) as client:
             res = compute(site, progress, client)
     else:
         res = compute(site, progress)
+    res.warnings[:0] = notes
     with folder:
         t0 = time.perf_counter()
         write_results(res, folder, report=report, progress=progress)
@@ -243,4 +244,23 @@ def check_site_file(path) -> CheckReport:
     ['site', 'Kestrel Quay ore yard']
     """
     site = load_site(path)
+    for note in validate_run(site):
+        warnings.warn(note, FillstressWarning, stacklevel=2)
     return CheckReport(site, describe_run(site))
+
+
+def cluster_choice(workers, scheduler, notes: list):
+    """What to hand solve.distributed.connect: a scheduler address, a number of local
+    workers, or None for a run without Dask (``--workers 0``, with a note saying so)."""
+    if workers is not None and scheduler:
+        raise InputError("give --workers or --scheduler, not both", argument="--workers")
+    if workers is not None:
+        if isinstance(workers, bool) or not isinstance(workers, int) or workers < 0:
+            raise InputError(f"must be a whole number of workers >= 1, got {workers!r}",
+                             argument="--workers")
+        if workers == 0:
+            notes.append("--workers 0 starts no Dask cluster; the run is computed in this "
+                         "process (give 1 or more workers to use Dask)")
+            return None
+        return workers
+    return scheduler or None

@@ -118,6 +118,10 @@ def stress_summary(points: pd.DataFrame) -> pd.DataFrame:
 
 def kind_summary(res, kind: str) -> pd.DataFrame:
     pts = res.points[res.points["receptor_kind"] == kind]
+    if kind == "building":
+        # the building's Δσz is the one over its footprint at the foundation; the
+        # vertical profile below it (role "profile") is in the points table
+        pts = pts[pts["role"] != "profile"]
     summary = stress_summary(pts)
     extra = {"building": building_summary, "pipe": pipe_summary}.get(kind)
     if extra is not None and (res.buildings if kind == "building" else res.pipes):
@@ -167,7 +171,7 @@ def write_all(res, folder, *, report=True, progress=silent, assumptions="", caut
             # finished results folder, manifest included; the final manifest then
             # checksums them too.
             manifest.write_manifest(folder, **fields)
-            _write_report_and_scene(folder, bar)
+            _write_report_and_scene(folder, bar, site)
         manifest.write_manifest(folder, **fields)
         bar.advance()
 
@@ -353,12 +357,15 @@ def _soil_rows(site) -> list[dict]:
             for L in site.soil.layers]
 
 
-def _write_report_and_scene(folder, bar) -> None:
-    from ..report import write_report
-    from ..viewer import export_scene_html
-    write_report(folder.root, folder.path("report.html"))
+def _write_report_and_scene(folder, bar, site) -> None:
+    """The report and the scene, each unless the site file's [outputs] turns it off."""
+    if _output(site, "report"):
+        from ..report import write_report
+        write_report(folder.root, folder.path("report.html"))
     bar.advance()
-    export_scene_html(folder.root, folder.path("scene.html"))
+    if _output(site, "scene"):
+        from ..viewer import export_scene_html
+        export_scene_html(folder.root, folder.path("scene.html"))
     bar.advance()
 
 

@@ -7,14 +7,17 @@ from __future__ import annotations
 
 import math
 
-from ..solve.cost import Estimate, check_capacity, estimate_points, estimate_slices, format_bytes
+from ..solve.cost import (Estimate, check_capacity, estimate_grid, estimate_points,
+                          estimate_slices, format_bytes)
 
 DEFAULT_CAP_FRACTION = 0.6
 
 
 def memory_cap(site) -> float:
-    """Bytes a run may use: [grid] memory_cap (GB) or 60 % of the machine's memory."""
-    gb = (site.config.get("grid") or {}).get("memory_cap")
+    """Bytes a run may use: [grid] memory_cap (GB) or 60 % of the machine's memory.
+    `site` is a Site or the SiteConfig it is built from."""
+    config = getattr(site, "config", site)
+    gb = (config.get("grid") or {}).get("memory_cap")
     if gb is not None:
         return gb * 1e9
     import psutil
@@ -114,3 +117,76 @@ def describe_run(site) -> list[list]:
     rows.append(["estimated total", f"about {sum(e.seconds for e in estimates):.2g} s on a "
                  f"2-core machine; memory cap {format_bytes(cap)}"])
     return rows
+
+
+GRID_HINT = ("use a larger [grid] cell or a smaller margin, or check the coordinates of the "
+             "bodies and receptors (CRS, units, a typing error)")
+
+
+def check_grid(config, spec, n_bodies: int) -> Estimate:
+    """Refuse (CapacityError: the grid size, the memory it needs, the cap) an analysis grid
+    whose bodies cannot be rasterised within the memory cap; called with the grid worked
+    out from the bounds, before any body is rasterised."""
+    u = config.units
+    e = estimate_grid(spec.shape, n_bodies, f"{u.length_out(spec.dx):.3g} {u.length}")
+    return check_capacity(e, memory_cap(config), hint=GRID_HINT)
+
+
+#: Above this a fill height is taken for a unit or typing error (common practice: the
+#: highest earth and rockfill dams are about 300 m).
+PLAUSIBLE_FILL_M = 300.0
+#: A grid this many times the cells the fill loads, and this large, is worth a warning.
+FAR_GRID_RATIO, FAR_GRID_CELLS = 100, 2_000_000
+
+
+def site_warnings(site) -> list[str]:
+    """What a run of `site` should tell the engineer before it starts (check and run)."""
+    u, out = site.units, []
+    for body in site.bodies:
+        if body.max_height_m is not None and body.max_height_m > PLAUSIBLE_FILL_M:
+            out.append(f"[bodies.{body.name}] fill {u.length_out(body.max_height_m):g} "
+                       f"{u.length} high, higher than any earth fill built (about "
+                       f"{u.length_out(PLAUSIBLE_FILL_M):g} {u.length}); a unit or typing "
+                       "error?")
+    cells = site.spec.nx * site.spec.ny
+    loaded = max(1, int((site.load_grid().pressure != 0).sum()))
+    if cells > FAR_GRID_CELLS and cells > FAR_GRID_RATIO * loaded:
+        out.append(f"the analysis grid has {site.spec.nx:,} × {site.spec.ny:,} cells, "
+                   f"{cells / loaded:,.0f} times the {loaded:,} the fill loads; a body or "
+                   "receptor far from the others (a coordinate typing error, another CRS?) "
+                   "makes it large")
+    out += _ground_gaps(site)
+    days = (site.config.get("settlement") or {}).get("stage_days")
+    if site.soil is not None and days and len(days) != len(site.stages):
+        out.append(f"[settlement.stage_days] gives {len(days)} start time(s) for "
+                   f"{len(site.stages)} stage(s); missing stages start with the last given, "
+                   "extra times are ignored")
+    return out
+
+
+def validate_run(site) -> list[str]:
+    """The one validation `check` and `run` share: refuse what cannot fit the memory cap
+    (CapacityError, with the numbers), and return the warnings of :func:`site_warnings`."""
+    check_fits(site)
+    return site_warnings(site)
+
+
+def _ground_gaps(site) -> list[str]:
+    """Surfaces bodies whose existing ground has no data under part of the design: no fill
+    is counted there, which the engineer must know (a nodata hole, a raster too small)."""
+    out, u = [], site.units
+    for name, report in (site.cut_reports or {}).items():
+        if not report.area_design_only:
+            continue
+        raw = site.config["bodies"][name]
+        ground = site.config.get("ground") or {}
+        source = raw.get("existing") or next(
+            (ground[k] for k in ("raster", "points", "landxml") if ground.get(k)), None)
+        where = (f" (first at x = {report.missing_at[0] / site.metres_per_unit:.1f}, "
+                 f"y = {report.missing_at[1] / site.metres_per_unit:.1f})"
+                 if report.missing_at else "")
+        area = report.area_design_only / u.length_to_m ** 2
+        out.append(f"[bodies.{name}] the existing ground {source or ''} has no data under "
+                   f"{area:,.0f} {u.length}² of the design surface{where}; no fill is "
+                   "counted there".replace("  ", " "))
+    return out

@@ -130,11 +130,8 @@ def _time_curves(res, targets, by_layer_stage) -> None:
         res.warnings.append("no compressible layer has cv: no settlement–time curves")
         return
     days = list((site.config.get("settlement") or {}).get("stage_days") or [0.0])
-    if len(days) != len(site.stages):
-        res.warnings.append(f"[settlement] stage_days gives {len(days)} start time(s) for "
-                            f"{len(site.stages)} stage(s); missing stages start with the "
-                            "last given, extra times are ignored")
-        days = (days + [days[-1]] * len(site.stages))[:len(site.stages)]
+    # a count that differs from the stages is warned of before the run (plan.site_warnings)
+    days = (days + [days[-1]] * len(site.stages))[:len(site.stages)]
     cv, hdr = st.time_parameters(site.soil, no_cv="immediate")
     starts = np.asarray(days, float) / 365.25
     years = np.unique(np.r_[0.0, np.geomspace(1 / 365.25, 50.0, 120), starts])

@@ -22,6 +22,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from .._validate import finite
 from ..errors import InputError
 from ..grid import GridSpec
 from .coverage import check_samples, check_spec
@@ -363,7 +364,7 @@ def _row_samples(spec, j, samples):
 
 
 def fill_from_surfaces(design, existing, spec: GridSpec, *, cut: str = "ignore",
-                       samples: int = 4) -> tuple[np.ndarray, CutReport]:
+                       samples: int = 4, tolerance: float = 0.0) -> tuple[np.ndarray, CutReport]:
     """Cell-average fill thickness (m) = design surface − existing ground.
 
     Parameters
@@ -377,6 +378,9 @@ def fill_from_surfaces(design, existing, spec: GridSpec, *, cut: str = "ignore",
         "unload" keeps the negative thickness (soil removed, negative load).
     samples : int
         Sample points per cell side.
+    tolerance : float
+        Differences between the surfaces smaller than this (m) are numerical noise of two
+        surveys of the same ground: neither loaded nor counted as fill or cut.
 
     Returns
     -------
@@ -404,6 +408,10 @@ def fill_from_surfaces(design, existing, spec: GridSpec, *, cut: str = "ignore",
                          f"{tuple(existing.bounds)} do not overlap", argument="existing")
     if _overlap(both, spec.extent) is None:
         raise InputError("the surfaces do not overlap the analysis grid", argument="spec")
+    noise = finite(tolerance, "tolerance")
+    if noise < 0:
+        raise InputError(f"must be >= 0 m, got {noise:g}", argument="tolerance")
+    noise = max(noise, 1e-9)
     thickness = spec.zeros()
     sums = np.zeros(5)  # fill volume, cut volume, fill count, cut count, compared count
     sub_area = spec.cell_area / samples**2
@@ -418,7 +426,7 @@ def fill_from_surfaces(design, existing, spec: GridSpec, *, cut: str = "ignore",
             design_only += gap.sum()
             missing_at = missing_at or (float(x[gap][0]), float(y[gap][0]))
         diff = np.where(valid, diff, 0.0)
-        diff[np.abs(diff) < 1e-9] = 0.0
+        diff[np.abs(diff) < noise] = 0.0
         load = diff if cut == "unload" else np.maximum(diff, 0.0)
         thickness[j] = load.reshape(samples, spec.nx, samples).mean(axis=(0, 2))
         sums += [np.maximum(diff, 0).sum() * sub_area, np.maximum(-diff, 0).sum() * sub_area,

@@ -5,6 +5,7 @@ Data flow: site.config.read_site_file → build_site → Site (used by run.compu
 """
 from __future__ import annotations
 
+import re
 import time
 from contextlib import contextmanager
 from dataclasses import dataclass, field
@@ -119,8 +120,28 @@ def _located(cfg: SiteConfig, where: str):
     except InputError as exc:
         if exc.file and exc.file != str(cfg.path):
             raise                     # already names its own data file
-        key = where if not exc.argument else f"{where} ({exc.argument})"
-        raise InputError(exc.reason, file=cfg.path, key=key) from None
+        name = _ARGUMENT_KEYS.get(exc.argument) or site_words(exc.argument or "")
+        key = f"{where}.{name}" if name else where
+        raise InputError(site_words(exc.reason), file=cfg.path, key=key) from None
+
+
+#: Library arguments whose site-file key has another name.
+_ARGUMENT_KEYS = {"receptor_id": "id"}
+#: Library argument names carry their unit (sigma_p_kpa); the site file's keys do not.
+_UNIT_SUFFIX = re.compile(r"\b([a-z][a-z0-9]*(?:_[a-z0-9]+)*?)_(?:kpa|per_kpa|m2_per_yr|kn_m3|"
+                          r"deg|m)\b")
+
+
+def site_words(text: str) -> str:
+    """A library message in the site file's words: unit-suffixed argument names become the
+    site-file keys (``sigma_p_kpa`` → ``sigma_p``, ``rigid_base_m`` → ``rigid_base``), and
+    the layer option the site file cannot state is not offered.
+
+    >>> site_words("give cc, cr, e0 with sigma_p_kpa or ocr; or mv_per_kpa; or "
+    ...            "modulus_kpa; or incompressible = true")
+    'give cc, cr, e0 with sigma_p or ocr; or mv; or modulus'
+    """
+    return _UNIT_SUFFIX.sub(r"\1", text.replace("; or incompressible = true", ""))
 
 
 @dataclass
@@ -173,6 +194,7 @@ def load_site(path) -> Site:
 
 def build_site(cfg: SiteConfig) -> Site:
     s = cfg["site"]
+    _check_method(cfg)
     with _located(cfg, "site.crs"):
         site_crs = crsmod.site_crs(s["crs"]) if s.get("crs") else None
     factor = site_crs[1] if site_crs else 1.0
@@ -181,6 +203,8 @@ def build_site(cfg: SiteConfig) -> Site:
     ctx.outlines = {name: _body_outline(ctx, name, raw) for name, raw in cfg["bodies"].items()}
     receptors = _receptors(ctx)
     spec = _analysis_grid(ctx, ctx.outlines, receptors)
+    from ..run.plan import check_grid
+    check_grid(cfg, spec, len(cfg["bodies"]))         # refused before rasterising
     t0 = time.perf_counter()
     built = {name: _build_body(ctx, name, raw, spec) for name, raw in cfg["bodies"].items()}
     ctx.build_seconds = time.perf_counter() - t0     # for the run estimate
@@ -194,6 +218,15 @@ def build_site(cfg: SiteConfig) -> Site:
                 _plan_grids(ctx, spec),
                 cut_reports={n: cut for n, (_, cut) in built.items() if cut is not None},
                 context=ctx)
+
+
+def _check_method(cfg: SiteConfig) -> None:
+    """Westergaard's solution needs 0 ≤ ν < 0.5: refused here for check and run alike."""
+    grid = cfg.get("grid") or {}
+    nu = grid.get("poisson")
+    if grid.get("method") == "westergaard" and nu is not None and not 0.0 <= nu < 0.5:
+        raise InputError(f"must be 0 ≤ ν < 0.5 for the Westergaard method, got {nu:g}",
+                         file=cfg.path, key="grid.poisson")
 
 
 # --- ground ---------------------------------------------------------------------------
@@ -296,8 +329,10 @@ def _body_outline(ctx: _Context, name: str, raw: dict):
     if kind == "embankment":
         line = ctx.lines[name] = _outline_from(ctx, raw, where, line=True)
         reach = _embankment_reach(raw)
-        return line.buffer(reach, cap_style="flat").union(
-            shapely.buffer(shapely.points(list(line.coords)[::len(line.coords) - 1]), reach))
+        ends = shapely.buffer(shapely.points(list(line.coords)[::len(line.coords) - 1]), reach)
+        # one polygon: the strip and both end discs (a union with the array of discs
+        # would give an array, which the grid's union with other bodies cannot take)
+        return shapely.union_all([line.buffer(reach, cap_style="flat"), *ends])
     if kind == "footprint" and raw.get("file") is not None and raw.get("height") is None:
         frame = ctx.footprints[name] = _footprint_frame(ctx, raw)
         return shapely.union_all(frame.geometry.values)
@@ -396,7 +431,8 @@ def _surfaces(ctx, name, raw, spec):
         existing = ctx.ground
     else:
         raise InputError("needs existing = \"...\" or a [ground] table", argument="existing")
-    thickness, report = fill_from_surfaces(design, existing, spec, cut=raw["cut"])
+    thickness, report = fill_from_surfaces(design, existing, spec, cut=raw["cut"],
+                                           tolerance=raw["fill_tolerance"])
     if raw.get("existing") is None:
         check_body_ground(ctx, name, report)
     if report.area_compared <= 0:
@@ -578,7 +614,7 @@ def _points(ctx: _Context, receptors: dict) -> pd.DataFrame:
     frames = []
     for table, items in receptors.items():
         for k, r in enumerate(items):
-            with _located(ctx.cfg, f"{table} '{r['id']}'"):
+            with _located(ctx.cfg, f"{table}[{k}]"):
                 frames.append(_sample(table, r))
     if not frames:
         return pd.DataFrame(columns=rc.POINT_COLUMNS)

@@ -7,11 +7,13 @@ from __future__ import annotations
 
 import difflib
 import math
+import os
 import tomllib
 from dataclasses import dataclass
 from pathlib import Path
 
 from . import schema
+from .._validate import regular_file
 from ..errors import InputError
 from ..units import UnitSystem, unit_system
 
@@ -77,9 +79,7 @@ def read_site_file(path) -> SiteConfig:
 
 def read_toml(path: Path, what: str) -> dict:
     """Parse a TOML file, with one-line errors naming it (`what`: "site file", ...)."""
-    path = Path(path)
-    if not path.is_file():
-        raise InputError(f"{what} not found", file=path)
+    path = regular_file(path, what=what)
     try:
         return tomllib.loads(path.read_text(encoding="utf-8"))
     except tomllib.TOMLDecodeError as exc:
@@ -195,9 +195,8 @@ class _Validator:
         if kind == "path":
             if not isinstance(v, str) or not v:
                 self.fail(where, f"must be a file path, got {v!r}")
-            p = (self.path.parent / v).resolve()
-            if not p.exists():
-                self.fail(where, f"file not found: {p}")
+            p = Path(os.path.abspath(self.path.parent / v))
+            regular_file(p, file=self.path, key=where)
             return p
         if kind in ("float", "int"):
             return self._si(self.number(v, key, where, integer=(kind == "int")), key)

@@ -166,6 +166,10 @@ BODY_VARIANTS = {
             "or LandXML. Default: the [ground] surface."),
         Key("cut", "str", "Where the design is below existing ground: ignore the cut, or treat "
             "it as unloading.", default="ignore", choices=("ignore", "unload")),
+        Key("fill_tolerance", "float", "Differences between the design and existing surfaces "
+            "smaller than this are numerical noise of two surveys of the same ground: not "
+            "loaded and not counted as fill or cut. Default 1 mm.", unit=LENGTH,
+            default=0.001, **_NONNEG),
     ),
 }
 BODIES = Table("bodies", "Fill bodies, one table each under a name of your choice, e.g. "
@@ -282,16 +286,6 @@ OUTPUTS = Table("outputs", "Which files a run writes besides the point tables an
     Key("scene", "bool", "The standalone HTML 3D scene.", default=True),
 ))
 
-MONITORING = Table("monitoring", "Field readings for `fillstress monitor` (readings against "
-                   "the prediction); the command line may give or override each.", (
-    Key("readings", "path", "Readings CSV: settlement plates and markers, extensometer "
-        "anchors, piezometers (docs/guide.md, during construction).", example='"readings.csv"'),
-    Key("construction", "path", "Construction record CSV (stage, date or day, placed): the "
-        "fill as actually placed.", example='"construction.csv"'),
-    Key("day0", "str", "Calendar date (YYYY-MM-DD) of the site's day 0, from which "
-        "stage_days and the readings' days count.", example='"2025-03-03"'),
-))
-
 TABLES: tuple[Table, ...] = (SITE, GRID, GROUND, BODIES, SOIL, LAYER, BUILDINGS, PIPES,
-                             BOREHOLES, PLAN_GRIDS, SETTLEMENT, OUTPUTS, MONITORING)
+                             BOREHOLES, PLAN_GRIDS, SETTLEMENT, OUTPUTS)
 TOP_LEVEL = {t.name: t for t in TABLES if "." not in t.name}

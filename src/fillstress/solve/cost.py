@@ -59,7 +59,7 @@ def format_bytes(n: float) -> str:
     >>> format_bytes(31.2e9), format_bytes(2048), format_bytes(12)
     ('31.2 GB', '2.0 kB', '12 B')
     """
-    for unit, size in (("TB", 1e12), ("GB", 1e9), ("MB", 1e6), ("kB", 1e3)):
+    for unit, size in (("PB", 1e15), ("TB", 1e12), ("GB", 1e9), ("MB", 1e6), ("kB", 1e3)):
         if n >= size:
             return f"{n / size:.1f} {unit}"
     return f"{int(n)} B"
@@ -239,3 +239,31 @@ def largest_tile(shape, n_depths: int, memory_cap, *, pad_cells=(0, 0)) -> tuple
 
 __all__ = ["Estimate", "estimate_slices", "estimate_points", "check_capacity",
            "largest_tile", "fft_working_bytes", "format_bytes"]
+
+
+#: Grid-sized float arrays a site build holds at once besides one per body: the load
+#: grid, the coverage fractions and the rasteriser's index and mask arrays.
+GRID_ARRAYS = 4
+
+
+def estimate_grid(shape, n_bodies: int, cell_label: str = "") -> Estimate:
+    """Memory to rasterise `n_bodies` fill bodies on an analysis grid of `shape` (ny, nx):
+    one float array per body plus :data:`GRID_ARRAYS`. Known from the bounds alone, so a
+    grid that cannot fit is refused before any array is made.
+
+    Examples
+    --------
+    >>> e = estimate_grid((12_000_000, 20_000_000), 1, "1e-06 m")
+    >>> e.operation
+    'the analysis grid (20,000,000 × 12,000,000 cells of 1e-06 m)'
+    >>> format_bytes(e.bytes)
+    '9.6 PB'
+    """
+    ny, nx = (int(v) for v in shape)
+    if ny < 1 or nx < 1:
+        raise InputError(f"must be (ny, nx) >= 1, got {shape!r}", argument="shape")
+    of = f" of {cell_label}" if cell_label else ""
+    cells = float(ny) * float(nx)
+    return Estimate(f"the analysis grid ({nx:,} × {ny:,} cells{of})",
+                    cells * _FLOAT * (n_bodies + GRID_ARRAYS), cells * 1e-8,
+                    f"{cells:.3g} cells × {n_bodies + GRID_ARRAYS} arrays")

@@ -23,7 +23,7 @@ import numpy as np
 import xarray as xr
 
 from .._validate import whole_number
-from ..errors import InputError
+from ..errors import ClusterError, InputError
 from ..progress import silent
 from .auto import prepare
 from .farfield import DEFAULT_ORDER
@@ -31,6 +31,13 @@ from .slices import slice_at_depth, slice_setup
 from .tiled import assemble, prepare_tiled, run_tile
 
 DEFAULT_RETRIES = 2
+#: Seconds to reach a scheduler (or a local cluster's) before giving up with one line.
+SCHEDULER_TIMEOUT_S = 10
+#: Times a task may lose its worker before the run fails (Dask's default is 3).
+ALLOWED_FAILURES = 3
+#: Each local worker may use this share of the machine's memory; Dask pauses a worker at
+#: 80 % of it and restarts one at 95 % instead of letting the machine swap.
+WORKER_MEMORY = "auto"
 
 
 @contextmanager
@@ -50,9 +57,16 @@ def connect(scheduler):
     """
     from distributed import Client, LocalCluster
     if isinstance(scheduler, str) and scheduler.strip():
-        client = Client(scheduler.strip())
+        address = scheduler.strip()
         try:
-            yield client
+            client = Client(address, timeout=SCHEDULER_TIMEOUT_S)
+        except (OSError, TimeoutError, ValueError) as exc:
+            raise InputError(f"cannot reach the Dask scheduler at {address} within "
+                             f"{SCHEDULER_TIMEOUT_S:g} s ({type(exc).__name__})",
+                             argument="--scheduler") from None
+        try:
+            with _cluster_failures(f"the Dask cluster at {address}"):
+                yield client
         finally:
             client.close()
         return
@@ -65,15 +79,44 @@ def connect(scheduler):
     numba_threads = max(1, (os.cpu_count() or 1) // n)
     import dask
     with dask.config.set({"distributed.nanny.pre-spawn-environ.NUMBA_NUM_THREADS":
-                          str(numba_threads)}):
-        cluster = LocalCluster(n_workers=n, threads_per_worker=1, processes=True,
-                               dashboard_address=":0")
+                          str(numba_threads),
+                          # a worker lost mid-run is replaced and its tasks run again, at
+                          # most this many times, then the run fails with one line
+                          "distributed.scheduler.allowed-failures": ALLOWED_FAILURES,
+                          "distributed.comm.timeouts.connect": f"{SCHEDULER_TIMEOUT_S}s"}):
+        try:
+            cluster = LocalCluster(n_workers=n, threads_per_worker=1, processes=True,
+                                   dashboard_address=":0", memory_limit=WORKER_MEMORY,
+                                   silence_logs=50)
+        except Exception as exc:        # ports, processes, memory: the cluster did not start
+            raise InputError(f"the local Dask cluster of {n} workers did not start "
+                             f"({type(exc).__name__}: {exc})", argument="--workers") from None
     client = Client(cluster)
     try:
-        yield client
+        with _cluster_failures(f"the local Dask cluster of {n} workers"):
+            yield client
     finally:
         client.close()
         cluster.close()
+
+
+@contextmanager
+def _cluster_failures(what: str):
+    """A cluster that loses its workers past the retries, or its scheduler, ends the run
+    with one line (ClusterError) instead of Dask's tracebacks."""
+    from distributed import KilledWorker
+    from distributed.comm import CommClosedError
+    from concurrent.futures import CancelledError
+    try:
+        yield
+    except KilledWorker as exc:
+        raise ClusterError(f"{what} lost a worker {ALLOWED_FAILURES} times on one task "
+                           f"({exc.args[0] if exc.args else 'KilledWorker'}); the run "
+                           "stopped and nothing was written: use fewer --workers or run "
+                           "without Dask") from None
+    except (CancelledError, CommClosedError) as exc:
+        raise ClusterError(f"{what} stopped answering ({type(exc).__name__}); the run "
+                           "stopped and nothing was written") from None
 
 
 def _client(client):
