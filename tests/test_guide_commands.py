@@ -99,6 +99,8 @@ def _prepare(folder: Path) -> None:
     for name in SITE_FILE_NAMES:
         shutil.copy2(sample / "site.toml", folder / name)
     (folder / "variants.toml").write_text(VARIANTS_TOML, encoding="utf-8")
+    # the guide's monitoring walk-through copies the preload sample (with its readings)
+    shutil.copytree(example_site("preload_surcharge").parent, folder / "preload")
 
 
 def _run(argv: list[str]) -> tuple[int, str]:

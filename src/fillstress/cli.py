@@ -21,6 +21,8 @@ examples:
   fillstress point site.toml 120 45 3.5        Δσz at x=120, y=45, depth 3.5 (site units)
   fillstress view results --png view.png       render the 3D view to a PNG (or open a window)
   fillstress report results                    (re)write results/report.html
+  fillstress monitor site.toml readings.csv --day0 2025-03-03 -o monitoring
+                                               readings against the prediction, revised forecast
 """
 
 
@@ -135,6 +137,16 @@ def _parser() -> argparse.ArgumentParser:
                 "fillstress report results -o job-report.html")
     c.add_argument("results", type=Path, help="results folder of a run")
     c.add_argument("-o", "--output", type=Path, help="report file (default results/report.html)")
+
+    c = command("monitor", _monitor, "Compare field readings with the site's prediction: "
+                "back-analysis, fitted parameters and a revised forecast, into a folder.",
+                "fillstress monitor site.toml readings.csv --day0 2025-03-03 "
+                "--construction construction.csv -o monitoring --residual-limit 25")
+    c.add_argument("site", type=Path, help="site file (TOML)")
+    c.add_argument("readings", type=Path, nargs="?", default=None,
+                   help="readings CSV (default: [monitoring] readings of the site file)")
+    from .monitoring.options import add_options
+    add_options(c)
     return p
 
 
@@ -223,6 +235,18 @@ def _report(args, console):
     from .report import write_report
     _require_results(args.results)
     console.wrote(write_report(args.results, args.output))
+
+
+def _monitor(args, console):
+    from .monitoring.command import monitor_site_file
+    summary = monitor_site_file(
+        args.site, args.readings, args.out, day0=args.day0, construction=args.construction,
+        target_degree=args.target_degree, residual_limit=args.residual_limit,
+        design_life_years=args.design_life, overwrite=args.overwrite,
+        report=not args.no_report)
+    for block in summary.tables():
+        console.table(*block)
+    console.lines(summary.closing_lines())
 
 
 def _require_results(folder: Path):

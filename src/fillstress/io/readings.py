@@ -64,11 +64,11 @@ class Readings:
 
 @dataclass(frozen=True)
 class Placement:
-    """One placement of the construction record: `fraction` of stage `stage` on `day`."""
+    """`fraction` of the design load of stage `stage` placed on `day` (days after day 0)."""
 
     stage: int
     day: float
-    fraction: float
+    fraction: float = 1.0
 
 
 class _Rows:

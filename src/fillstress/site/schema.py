@@ -286,6 +286,16 @@ OUTPUTS = Table("outputs", "Which files a run writes besides the point tables an
     Key("scene", "bool", "The standalone HTML 3D scene.", default=True),
 ))
 
+MONITORING = Table("monitoring", "Field readings for `fillstress monitor` (readings against "
+                   "the prediction); the command line may give or override each.", (
+    Key("readings", "path", "Readings CSV: settlement plates and markers, extensometer "
+        "anchors, piezometers (docs/guide.md, during construction).", example='"readings.csv"'),
+    Key("construction", "path", "Construction record CSV (stage, date or day, placed): the "
+        "fill as actually placed.", example='"construction.csv"'),
+    Key("day0", "str", "Calendar date (YYYY-MM-DD) of the site's day 0, from which "
+        "stage_days and the readings' days count.", example='"2025-03-03"'),
+))
+
 TABLES: tuple[Table, ...] = (SITE, GRID, GROUND, BODIES, SOIL, LAYER, BUILDINGS, PIPES,
-                             BOREHOLES, PLAN_GRIDS, SETTLEMENT, OUTPUTS)
+                             BOREHOLES, PLAN_GRIDS, SETTLEMENT, OUTPUTS, MONITORING)
 TOP_LEVEL = {t.name: t for t in TABLES if "." not in t.name}
