@@ -197,7 +197,7 @@ def run_batch(site_path, variants_path, out, *, overwrite=False, report=False,
         write_table_csv(folder.path("envelope_points.csv"), env, site.units,
                         {**column_quantities(env), "variant_of_max_dsz": None}, crs=site.crs)
         write_manifest(folder, settings={"variants": [vars(v) for v in variants]},
-                       units=site.units, inputs=site.config.input_files() + [Path(variants_path)],
+                       units=site.units, inputs=[*site.input_files, Path(variants_path)],
                        site_file=site.path, crs=site.crs, grid=site.spec,
                        assumptions=ASSUMPTIONS, cautions=CAUTIONS)
     return [RunSummary(r, out / v.name) for v, r in zip(variants, results)], env

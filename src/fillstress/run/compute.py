@@ -117,8 +117,7 @@ def compute(site: Site, progress=silent, client=None) -> RunResults:
 
 
 def _conv_steps(site: Site) -> int:
-    return int(bool((site.config.get("grid") or {}).get("convergence_check", True))
-               and len(site.points) > 0)
+    return int(site.settings.convergence_check and len(site.points) > 0)
 
 
 def _plan_slices(site: Site, grid, plan, client=None):

@@ -163,7 +163,7 @@ def write_all(res, folder, *, report=True, progress=silent, assumptions="", caut
         _write_summary_json(res, folder, assumptions, cautions)
         bar.advance()
         fields = dict(settings=_settings(site), units=site.units,
-                      inputs=site.config.input_files(), site_file=site.path,
+                      inputs=list(site.input_files), site_file=site.path,
                       crs=site.crs, grid=site.spec, assumptions=assumptions,
                       cautions=cautions)
         if report:
@@ -201,16 +201,16 @@ def _write_tables(res, folder) -> None:
 
 def _write_geometry(res, folder, kind, name) -> None:
     site = res.site
-    items = site.receptors.get(name, [])
+    items = site.receptors.by_table()[name]
     if kind == "building":
-        attrs = [{"receptor_id": r["id"], "foundation_depth": r["depth"]} for r in items]
+        attrs = [{"receptor_id": r.id, "foundation_depth": r.depth} for r in items]
     elif kind == "pipe":
-        attrs = [{"receptor_id": r["id"], "depth": float(np.max(r["depth"])),
-                  "diameter": r.get("diameter") or 0.0} for r in items]
+        attrs = [{"receptor_id": r.id, "depth": float(np.max(r.depth)),
+                  "diameter": r.diameter} for r in items]
     else:
-        attrs = [{"receptor_id": r["id"], "top_depth": r["top"], "bottom_depth": r["bottom"]}
+        attrs = [{"receptor_id": r.id, "top_depth": r.top, "bottom_depth": r.bottom}
                  for r in items]
-    frame = gpd.GeoDataFrame(attrs, geometry=[r["geometry"] for r in items])
+    frame = gpd.GeoDataFrame(attrs, geometry=[r.geometry for r in items])
     tables.write_geojson(folder.path(f"{name}.geojson"), frame, site.units, crs=site.crs)
 
 
@@ -282,11 +282,11 @@ def _write_vtk(res, folder) -> None:
     for name, da in res.slices.items():
         vtk.write_stress_grid(folder.path(f"vtk/stress_{name}.vtr"), _vtk_slice(site, da), u)
     pts = _vtk_points(site, res.points)
-    b = site.receptors.get("buildings", [])
+    b = site.receptors.buildings
     if b:
-        frame = gpd.GeoDataFrame({"receptor_id": [r["id"] for r in b],
-                                  "foundation_depth": [r["depth"] for r in b]},
-                                 geometry=[_scale_geom(r["geometry"], k) for r in b])
+        frame = gpd.GeoDataFrame({"receptor_id": [r.id for r in b],
+                                  "foundation_depth": [r.depth for r in b]},
+                                 geometry=[_scale_geom(r.geometry, k) for r in b])
         vtk.write_buildings(folder.path("vtk/buildings.vtp"), frame, u)
     if (pts["receptor_kind"] == "pipe").any():
         vtk.write_pipes(folder.path("vtk/pipes.vtp"), pts[pts["receptor_kind"] == "pipe"], u)
@@ -370,12 +370,11 @@ def _write_report_and_scene(folder, bar, site) -> None:
 
 
 def _output(site, key) -> bool:
-    return (site.config.get("outputs") or {}).get(key, True) is not False
+    return getattr(site.settings, key)
 
 
 def _settings(site) -> dict:
-    grid = site.config.get("grid") or {}
     return {"method": site.method, "poisson": site.poisson, "cell_m": site.spec.dx,
-            "margin_m": grid.get("margin"), "stages": site.stages,
-            "convergence_check": grid.get("convergence_check", True),
+            "margin_m": site.settings.margin, "stages": site.stages,
+            "convergence_check": site.settings.convergence_check,
             "units": site.units.name}

@@ -7,21 +7,13 @@ from __future__ import annotations
 
 import math
 
-from ..solve.cost import (Estimate, check_capacity, estimate_grid, estimate_points,
-                          estimate_slices, format_bytes)
-
-DEFAULT_CAP_FRACTION = 0.6
+from ..solve.cost import (Estimate, check_capacity, estimate_points, estimate_slices,
+                          format_bytes, memory_cap_bytes)
 
 
 def memory_cap(site) -> float:
-    """Bytes a run may use: [grid] memory_cap (GB) or 60 % of the machine's memory.
-    `site` is a Site or the SiteConfig it is built from."""
-    config = getattr(site, "config", site)
-    gb = (config.get("grid") or {}).get("memory_cap")
-    if gb is not None:
-        return gb * 1e9
-    import psutil
-    return DEFAULT_CAP_FRACTION * psutil.virtual_memory().total
+    """Bytes a run may use: [grid] memory_cap (GB) or a share of the machine's memory."""
+    return memory_cap_bytes(site.settings.memory_cap_gb)
 
 
 def settlement_points(site) -> int:
@@ -63,11 +55,11 @@ def run_estimates(site) -> list[Estimate]:
             algorithm = choose_algorithm(grid, n)
             e = estimate_points(g_shape, n, algorithm=algorithm, active_nodes=nodes)
             out.append(Estimate(label, e.bytes, e.seconds, e.detail))
-    if len(site.points) and site.context is not None:
+    if len(site.points) and site.build_seconds:
         # the check rebuilds every body on 4× the cells: scale the measured first build
         out.append(Estimate("bodies on half cells", 4 * grid.pressure.nbytes,
-                            4 * site.context.build_seconds,
-                            f"4 × the {site.context.build_seconds:.2g} s the bodies took"))
+                            4 * site.build_seconds,
+                            f"4 × the {site.build_seconds:.2g} s the bodies took"))
     for plan in site.plan_grids:
         e = estimate_slices(shape, len(plan.depths), pad_cells=_pad_cells(site, plan))
         out.append(Estimate(f"plan grid {plan.name}", e.bytes, e.seconds, e.detail))
@@ -104,7 +96,7 @@ def describe_run(site) -> list[list]:
         ["method", site.method + (f", ν = {site.poisson:g}" if site.poisson is not None else "")],
         ["analysis grid", f"{site.spec.nx} × {site.spec.ny} cells of "
                           f"{u.length_out(site.spec.dx):g} {u.length} ({loaded:,} loaded)"],
-        ["cell size rule", site.context.cell_rule if site.context else "given"],
+        ["cell size rule", site.cell_rule],
         ["construction stages", ", ".join(map(str, site.stages))],
         ["receptor points", ", ".join(f"{n} {k}" for k, n in kinds.items()) or "none"],
         ["soil profile", "none" if site.soil is None else
@@ -117,19 +109,6 @@ def describe_run(site) -> list[list]:
     rows.append(["estimated total", f"about {sum(e.seconds for e in estimates):.2g} s on a "
                  f"2-core machine; memory cap {format_bytes(cap)}"])
     return rows
-
-
-GRID_HINT = ("use a larger [grid] cell or a smaller margin, or check the coordinates of the "
-             "bodies and receptors (CRS, units, a typing error)")
-
-
-def check_grid(config, spec, n_bodies: int) -> Estimate:
-    """Refuse (CapacityError: the grid size, the memory it needs, the cap) an analysis grid
-    whose bodies cannot be rasterised within the memory cap; called with the grid worked
-    out from the bounds, before any body is rasterised."""
-    u = config.units
-    e = estimate_grid(spec.shape, n_bodies, f"{u.length_out(spec.dx):.3g} {u.length}")
-    return check_capacity(e, memory_cap(config), hint=GRID_HINT)
 
 
 #: Above this a fill height is taken for a unit or typing error (common practice: the
@@ -156,7 +135,7 @@ def site_warnings(site) -> list[str]:
                    "receptor far from the others (a coordinate typing error, another CRS?) "
                    "makes it large")
     out += _ground_gaps(site)
-    days = (site.config.get("settlement") or {}).get("stage_days")
+    days = site.settings.stage_days
     if site.soil is not None and days and len(days) != len(site.stages):
         out.append(f"[settlement.stage_days] gives {len(days)} start time(s) for "
                    f"{len(site.stages)} stage(s); missing stages start with the last given, "

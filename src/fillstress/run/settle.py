@@ -22,7 +22,7 @@ def soil_results(res) -> None:
     p["sigma_v0"] = sigma
     with np.errstate(divide="ignore", invalid="ignore"):
         p["stress_ratio"] = np.where(p["sigma_v0"] > 0, p["dsz"] / p["sigma_v0"], np.nan)
-    fraction = res.site.config["soil"]["influence_fraction"]
+    fraction = res.site.settings.influence_fraction
     for rid, g in p[p["role"].isin(["profile", "borehole"])].groupby("receptor_id", sort=False):
         g = g[g["sigma_v0"].notna()].sort_values("depth")
         if len(g) < 2:
@@ -94,33 +94,23 @@ def settlement_results(res, evaluate) -> None:
 
 
 def _structure_checks(res, targets: pd.DataFrame) -> None:
-    s_cfg = res.site.config.get("settlement") or {}
-    limits = {k: s_cfg[k] for k in ("limit_no_cracking", "limit_first_cracking",
-                                    "limit_structural_damage") if s_cfg.get(k) is not None}
+    limits = {**DEFAULT_LIMITS, **res.site.settings.distortion_limits}
     targets = targets[targets["settlement"].notna()]     # points in heave have none
-    for b in res.site.receptors.get("buildings", []):
-        g = targets[targets["receptor_id"] == b["id"]]
+    for b in res.site.receptors.buildings:
+        g = targets[targets["receptor_id"] == b.id]
         if len(g) < 2:
             continue
         res.buildings.append(building_settlement(
-            b["id"], g[["x", "y"]].to_numpy(), g["settlement"].to_numpy(),
-            point_ids=g["point_id"].tolist(), limits=_limit_names(limits),
-            outline=np.asarray(b["geometry"].exterior.coords)))
-    for pipe in res.site.receptors.get("pipes", []):
-        g = targets[targets["receptor_id"] == pipe["id"]].sort_values("chainage")
+            b.id, g[["x", "y"]].to_numpy(), g["settlement"].to_numpy(),
+            point_ids=g["point_id"].tolist(), limits=limits,
+            outline=np.asarray(b.geometry.exterior.coords)))
+    for pipe in res.site.receptors.pipes:
+        g = targets[targets["receptor_id"] == pipe.id].sort_values("chainage")
         if len(g) < 2:
             continue
-        res.pipes.append(pipe_settlement(pipe["id"], g["chainage"].to_numpy(),
+        res.pipes.append(pipe_settlement(pipe.id, g["chainage"].to_numpy(),
                                          g["settlement"].to_numpy(), g["dsz"].to_numpy(),
-                                         pipe["differential_length"]))
-
-
-def _limit_names(limits: dict) -> dict:
-    """Site-file limit keys → the Bjerrum (1963) limit names of structures.py, with the
-    Skempton & MacDonald (1956) limits beside them."""
-    keys = {"limit_no_cracking": "no_cracking", "limit_first_cracking": "panel_wall_cracking",
-            "limit_structural_damage": "structural_damage"}
-    return {**DEFAULT_LIMITS, **{keys[k]: v for k, v in limits.items()}}
+                                         pipe.differential_length))
 
 
 def _time_curves(res, targets, by_layer_stage) -> None:
@@ -129,7 +119,7 @@ def _time_curves(res, targets, by_layer_stage) -> None:
     if not any(L.compressible and L.cv_m2_per_yr for L in site.soil.layers):
         res.warnings.append("no compressible layer has cv: no settlement–time curves")
         return
-    days = list((site.config.get("settlement") or {}).get("stage_days") or [0.0])
+    days = list(site.settings.stage_days or [0.0])
     # a count that differs from the stages is warned of before the run (plan.site_warnings)
     days = (days + [days[-1]] * len(site.stages))[:len(site.stages)]
     cv, hdr = st.time_parameters(site.soil, no_cv="immediate")

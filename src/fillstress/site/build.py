@@ -8,57 +8,87 @@ from __future__ import annotations
 import re
 import time
 from contextlib import contextmanager
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
+from typing import Callable
 
 import numpy as np
 import pandas as pd
 import shapely
+from pyproj import CRS
+from scipy.ndimage import distance_transform_edt
 from shapely.geometry import LineString, Point, Polygon
 
 from .. import crs as crsmod
-from . import receptors as rc
 from ..errors import InputError
 from ..grid import GridSpec, LoadGrid
+from ..shapes import footprints as fp
+from ..shapes.bodies import Body, choose_cell, stage_pressure
+from ..shapes.embankment import embankment_thickness
+from ..shapes.footprints import read_footprints
+from ..shapes.stockpile import pile_thickness
+from ..shapes.surfaces import CutReport, fill_from_surfaces, read_surface
+from ..soil import SoilLayer, SoilProfile
+from ..solve.cost import check_capacity, estimate_grid, memory_cap_bytes
+from ..units import UnitSystem
+from . import receptors as rc
 from .config import SiteConfig, read_site_file
 from .ground_use import check_body_ground, depths_from_elevations
-from ..units import UnitSystem
+from .receptors import Borehole, Building, Pipe, PlanGrid, Receptors
 
 # Receptor kinds: the site-file table and the point-table kind.
 RECEPTOR_TABLES = {"buildings": "building", "pipes": "pipe", "boreholes": "borehole"}
 
 
+# Site-file distortion limit keys → the Bjerrum (1963) limit names of structures.py.
+LIMIT_KEYS = {"limit_no_cracking": "no_cracking", "limit_first_cracking": "panel_wall_cracking",
+              "limit_structural_damage": "structural_damage"}
+
+
+@dataclass(frozen=True)
+class RunSettings:
+    """How a run is done and which files it writes ([grid], [soil], [settlement],
+    [outputs] of the site file, in SI)."""
+
+    convergence_check: bool = True
+    margin: float | None = None              # [grid] margin as given (m); None: the default
+    memory_cap_gb: float | None = None       # None: a share of the machine's memory
+    influence_fraction: float = 0.10         # of σ'v0, for the influence depth
+    stage_days: tuple[float, ...] | None = None   # start of each stage, days after stage 1
+    distortion_limits: dict = field(default_factory=dict)  # structures.py name → limit given
+    geotiff: bool = True
+    netcdf: bool = True
+    vtk: bool = True
+
+
 @dataclass
 class Site:
-    """Everything a run needs, in SI and internal metres (site CRS coordinates × factor)."""
+    """Everything a run needs, in SI and internal metres (site CRS coordinates × factor).
+    Nothing after the build reads the site file's raw tables: later stages take these."""
 
-    config: SiteConfig
+    path: Path                       # the site file
     name: str
     description: str
     units: UnitSystem
-    crs: object                      # pyproj.CRS or None
+    crs: CRS | None                  # the site CRS as stated (None: no CRS given)
     metres_per_unit: float           # site-CRS unit → metres (1, 0.3048, 1200/3937)
     spec: GridSpec
-    bodies: list                     # shapes.bodies.Body
+    bodies: list[Body]
     method: str
     poisson: float | None
-    ground: object                   # callable z(x, y) in metres, or None
-    soil: object                     # soil.SoilProfile or None
+    ground: Callable[[np.ndarray, np.ndarray], np.ndarray] | None   # z(x, y) in metres
+    soil: SoilProfile | None
     points: pd.DataFrame             # every receptor sample point
-    receptors: dict                  # kind → list of dicts (id, geometry, attributes)
-    plan_grids: list = field(default_factory=list)
-    cut_reports: dict = field(default_factory=dict)  # body → surfaces.CutReport
-    body_factors: tuple = (1.0, 1.0)  # (unit weight, thickness) scale of a batch variant
-    context: object = field(default=None, repr=False)  # what rebuilding the bodies needs
-
-    @property
-    def warnings(self) -> list:
-        """What building the site found doubtful (shown by check and by a run)."""
-        return self.context.warnings if self.context is not None else []
-
-    @property
-    def path(self) -> Path:
-        return self.config.path
+    receptors: Receptors
+    settings: RunSettings
+    input_files: tuple[Path, ...] = ()                 # every file the site refers to
+    plan_grids: list[PlanGrid] = field(default_factory=list)
+    cut_reports: dict[str, CutReport] = field(default_factory=dict)   # body → its cut
+    body_factors: tuple[float, float] = (1.0, 1.0)  # (unit weight, thickness) of a variant
+    build_seconds: float = 0.0                      # time the bodies took to rasterise
+    cell_rule: str = "given"                        # why the cell is the size it is
+    warnings: list[str] = field(default_factory=list)  # what the build found doubtful
+    context: _Context | None = field(default=None, repr=False)  # to rebuild the bodies
 
     @property
     def stages(self) -> list[int]:
@@ -66,7 +96,6 @@ class Site:
 
     def load_grid(self, stage: int | None = None, spec: GridSpec | None = None) -> LoadGrid:
         """Surface pressure (kPa) of all bodies up to `stage` (default: the last)."""
-        from ..shapes.bodies import stage_pressure
         stage = self.stages[-1] if stage is None else stage
         if stage not in self.stages:
             raise InputError(f"no construction stage {stage}; stages are {self.stages}",
@@ -79,7 +108,7 @@ class Site:
         """The same bodies rasterised on another lattice (the convergence check)."""
         gamma, height = self.body_factors
         return [scaled_body(_build_body(self.context, name, raw, spec)[0], gamma, height)
-                for name, raw in self.config["bodies"].items()]
+                for name, raw in self.context.cfg["bodies"].items()]
 
     def fill_thickness(self, stage: int | None = None) -> np.ndarray:
         stage = self.stages[-1] if stage is None else stage
@@ -96,7 +125,6 @@ class Site:
         z = self.ground(gx, gy)
         gap = ~np.isfinite(z)
         if filled and gap.any() and not gap.all():
-            from scipy.ndimage import distance_transform_edt
             nearest = distance_transform_edt(gap, return_distances=False, return_indices=True)
             z = z[tuple(nearest)]
         return z
@@ -104,7 +132,6 @@ class Site:
 
 def scaled_body(body, unit_weight_factor: float = 1.0, height_factor: float = 1.0):
     """`body` with its unit weight and thickness scaled (batch variants)."""
-    from dataclasses import replace
     if unit_weight_factor == 1.0 and height_factor == 1.0:
         return body
     peak = None if body.max_height_m is None else body.max_height_m * height_factor
@@ -172,7 +199,6 @@ class _Context:
         """A surface file, read once."""
         key = (Path(path), surface_name)
         if key not in self.surfaces:
-            from ..shapes.surfaces import read_surface
             self.surfaces[key] = read_surface(path, site_crs=self.site_crs,
                                               z_to_m=self.cfg.units.length_to_m,
                                               surface_name=surface_name)
@@ -203,21 +229,34 @@ def build_site(cfg: SiteConfig) -> Site:
     ctx.outlines = {name: _body_outline(ctx, name, raw) for name, raw in cfg["bodies"].items()}
     receptors = _receptors(ctx)
     spec = _analysis_grid(ctx, ctx.outlines, receptors)
-    from ..run.plan import check_grid
-    check_grid(cfg, spec, len(cfg["bodies"]))         # refused before rasterising
+    _check_grid(cfg, spec, len(cfg["bodies"]))        # refused before rasterising
     t0 = time.perf_counter()
     built = {name: _build_body(ctx, name, raw, spec) for name, raw in cfg["bodies"].items()}
     ctx.build_seconds = time.perf_counter() - t0     # for the run estimate
     grid = cfg.get("grid") or {}
-    return Site(cfg, s["name"], s.get("description") or "", cfg.units,
+    return Site(cfg.path, s["name"], s.get("description") or "", cfg.units,
                 site_crs[0] if site_crs else None, factor, spec,
                 [body for body, _ in built.values()],
                 grid.get("method", "boussinesq"),
                 grid.get("poisson") if grid.get("method") == "westergaard" else None,
-                ctx.ground, _soil(cfg), _points(ctx, receptors), receptors,
-                _plan_grids(ctx, spec),
+                ctx.ground, _soil(cfg), _points(ctx, receptors), receptors, _settings(cfg),
+                input_files=tuple(cfg.input_files()), plan_grids=_plan_grids(ctx, spec),
                 cut_reports={n: cut for n, (_, cut) in built.items() if cut is not None},
-                context=ctx)
+                build_seconds=ctx.build_seconds, cell_rule=ctx.cell_rule,
+                warnings=ctx.warnings, context=ctx)
+
+
+def _settings(cfg: SiteConfig) -> RunSettings:
+    grid, soil = cfg.get("grid") or {}, cfg.get("soil") or {}
+    settle, outputs = cfg.get("settlement") or {}, cfg.get("outputs") or {}
+    return RunSettings(
+        convergence_check=bool(grid.get("convergence_check", True)),
+        margin=grid.get("margin"), memory_cap_gb=grid.get("memory_cap"),
+        influence_fraction=soil.get("influence_fraction", 0.10),
+        stage_days=tuple(settle["stage_days"]) if settle.get("stage_days") else None,
+        distortion_limits={name: settle[key] for key, name in LIMIT_KEYS.items()
+                           if settle.get(key) is not None},
+        **{k: outputs.get(k, True) is not False for k in ("geotiff", "netcdf", "vtk")})
 
 
 def _check_method(cfg: SiteConfig) -> None:
@@ -341,7 +380,6 @@ def _body_outline(ctx: _Context, name: str, raw: dict):
 
 def _footprint_frame(ctx: _Context, raw: dict):
     """Footprints with their heights (attribute or vertex z) from a vector file."""
-    from ..shapes.footprints import read_footprints
     with _located(ctx.cfg, "file"):
         frame = read_footprints(raw["file"], raw.get("height_field"),
                                 target_crs=ctx.site_crs or None,
@@ -358,12 +396,11 @@ def _embankment_reach(raw: dict) -> float:
 
 def _build_body(ctx: _Context, name: str, raw: dict, spec: GridSpec):
     """(Body on `spec`, its surfaces.CutReport or None)."""
-    from ..shapes import bodies as bd
     where = f"bodies.{name}"
     with _located(ctx.cfg, where):
         thickness, cut = _BUILDERS[raw["kind"]](ctx, name, raw, spec)
         area, peak = _exact_size(ctx, name, raw)
-        body = bd.Body(name=name, kind=raw["kind"], unit_weight=raw["unit_weight"],
+        body = Body(name=name, kind=raw["kind"], unit_weight=raw["unit_weight"],
                        stage=raw["stage"], thickness=thickness, spec=spec,
                        excavation=raw["excavation"], footprint_area_m2=area, max_height_m=peak)
     return body, cut
@@ -387,13 +424,11 @@ def _exact_size(ctx, name, raw) -> tuple[float | None, float | None]:
 
 
 def _pile(ctx, name, raw, spec):
-    from ..shapes.stockpile import pile_thickness
     return pile_thickness(ctx.outlines[name], raw["repose_angle"], spec,
                           crest_height=raw.get("crest_height")), None
 
 
 def _footprint(ctx, name, raw, spec):
-    from ..shapes import footprints as fp
     if name in ctx.footprints:
         frame = ctx.footprints[name]
         total = spec.zeros()
@@ -411,7 +446,6 @@ def _footprint(ctx, name, raw, spec):
 
 
 def _embankment(ctx, name, raw, spec):
-    from ..shapes.embankment import embankment_thickness
     line = ctx.lines[name]
     chain, heights = np.array(raw["heights"]).T
     end = raw.get("end_slope") or raw["side_slope"]
@@ -423,7 +457,6 @@ def _embankment(ctx, name, raw, spec):
 
 
 def _surfaces(ctx, name, raw, spec):
-    from ..shapes.surfaces import fill_from_surfaces
     design = ctx.surface(raw["design"])
     if raw.get("existing") is not None:
         existing = ctx.surface(raw["existing"])
@@ -447,19 +480,17 @@ _BUILDERS = {"pile": _pile, "footprint": _footprint, "embankment": _embankment,
 
 
 # --- grid -----------------------------------------------------------------------------
-def _analysis_grid(ctx: _Context, outlines: dict, receptors: dict) -> GridSpec:
+def _analysis_grid(ctx: _Context, outlines: dict, receptors: Receptors) -> GridSpec:
     grid = ctx.cfg.get("grid") or {}
     fills = shapely.union_all(list(outlines.values()))
     bounds = np.array(fills.bounds)
-    for items in receptors.values():
-        for r in items:
-            b = r["geometry"].bounds
-            bounds = np.r_[np.minimum(bounds[:2], b[:2]), np.maximum(bounds[2:], b[2:])]
+    for r in receptors:
+        b = r.geometry.bounds
+        bounds = np.r_[np.minimum(bounds[:2], b[:2]), np.maximum(bounds[2:], b[2:])]
     margin = grid.get("margin", 10.0)
     cell = grid.get("cell")
     ctx.cell_rule = "given in [grid] cell"
     if cell is None:
-        from ..shapes.bodies import choose_cell
         smallest = min(min(_feature_size(g) for g in outlines.values()), 1e9)
         width, height = bounds[2:] - bounds[:2] + 2 * margin
         u = ctx.cfg.units
@@ -469,6 +500,20 @@ def _analysis_grid(ctx: _Context, outlines: dict, receptors: dict) -> GridSpec:
     with _located(ctx.cfg, "grid"):
         return GridSpec.covering(bounds, cell, margin=margin,
                                  crs=crsmod.metric_twin(ctx.site_crs[0]) if ctx.site_crs else None)
+
+
+GRID_HINT = ("use a larger [grid] cell or a smaller margin, or check the coordinates of the "
+             "bodies and receptors (CRS, units, a typing error)")
+
+
+def _check_grid(cfg: SiteConfig, spec: GridSpec, n_bodies: int) -> None:
+    """Refuse (CapacityError: the grid size, the memory it needs, the cap) an analysis grid
+    whose bodies cannot be rasterised within the memory cap; called with the grid worked
+    out from the bounds, before any body is rasterised."""
+    u = cfg.units
+    e = estimate_grid(spec.shape, n_bodies, f"{u.length_out(spec.dx):.3g} {u.length}")
+    cap = memory_cap_bytes((cfg.get("grid") or {}).get("memory_cap"))
+    check_capacity(e, cap, hint=GRID_HINT)
 
 
 def _feature_size(geom) -> float:
@@ -481,8 +526,7 @@ def _shallowest_depth(ctx, receptors) -> float:
     """Shallowest receptor depth below ground. Depth 0 is left out: at the surface the
     stress is the cell's own pressure, whatever the cell size. Pipes may have one depth a
     vertex."""
-    depths = [d for items in receptors.values() for r in items
-              for d in np.atleast_1d(r.get("depth") or 0.0) if d > 0]
+    depths = [d for r in receptors for d in np.atleast_1d(r.depth) if d > 0]
     return min(depths) if depths else 1.0
 
 
@@ -494,7 +538,6 @@ def _soil(cfg: SiteConfig):
     s = cfg.get("soil")
     if not s:
         return None
-    from ..soil import SoilLayer, SoilProfile
     layers = []
     for i, L in enumerate(s["layers"]):
         with _located(cfg, f"soil.layers[{i}]"):
@@ -524,26 +567,25 @@ def _level(ctx: _Context, raw: dict, where: str, geom, depth_key: str, elevation
     return None
 
 
-def _receptors(ctx: _Context) -> dict:
+def _receptors(ctx: _Context) -> Receptors:
     out = {}
     for table in RECEPTOR_TABLES:
         items = []
         for i, raw in enumerate(ctx.cfg.get(table) or []):
             items += _receptor_items(ctx, table, raw, f"{table}[{i}]")
-        ids = [r["id"] for r in items]
+        ids = [r.id for r in items]
         dup = {x for x in ids if ids.count(x) > 1}
         if dup:
             raise InputError(f"receptor ids must be unique; repeated: {', '.join(sorted(dup))}",
                              file=ctx.cfg.path, key=table)
-        out[table] = items
-    return out
+        out[table] = tuple(items)
+    return Receptors(**out)
 
 
-def _receptor_items(ctx, table, raw, where) -> list[dict]:
+def _receptor_items(ctx, table, raw, where) -> list:
     if table == "boreholes":
         geom = Point(raw["x"] * ctx.factor, raw["y"] * ctx.factor)
-        return [{"id": raw["id"], "geometry": geom, "top": raw["top"], "bottom": raw["bottom"],
-                 "step": raw["step"], "depth": raw["top"]}]
+        return [Borehole(raw["id"], geom, raw["top"], raw["bottom"], raw["step"])]
     line = table == "pipes"
     key = "line" if line else "outline"
     if raw.get(key) is not None:
@@ -568,18 +610,19 @@ def _receptor_items(ctx, table, raw, where) -> list[dict]:
         if raw.get("depth_field"):          # read_receptor_layer checked it is filled
             item["foundation_depth" if not line else "crown_depth"] = (
                 float(attrs[raw["depth_field"]]) * ctx.cfg.units.length_to_m)
-        if geom.geom_type.startswith("Multi"):
-            geom = max(geom.geoms, key=lambda g: g.area if not line else g.length)
         item.update(id=rid, geometry=geom)
         if line:
-            item["depth"] = _pipe_crown_depth(ctx, item, where)
-        else:
-            item["depth"] = _level(ctx, item, where, geom, "foundation_depth",
-                                   "foundation_elevation")
-            if item["depth"] is None:
-                raise InputError("needs foundation_depth, foundation_elevation or depth_field",
-                                 file=ctx.cfg.path, key=where)
-        items.append(item)
+            items.append(Pipe(rid, geom, _pipe_crown_depth(ctx, item, where),
+                              item.get("diameter") or 0.0, item["spacing"],
+                              item["differential_length"]))
+            continue
+        depth = _level(ctx, item, where, geom, "foundation_depth", "foundation_elevation")
+        if depth is None:
+            raise InputError("needs foundation_depth, foundation_elevation or depth_field",
+                             file=ctx.cfg.path, key=where)
+        items.append(Building(rid, geom, depth, item["interior_spacing"],
+                              item["profile_step"], item["profile_bottom"],
+                              item.get("wall_spacing")))
     return items
 
 
@@ -610,29 +653,15 @@ def _pipe_crown_depth(ctx, item, where):
                      file=ctx.cfg.path, key=where)
 
 
-def _points(ctx: _Context, receptors: dict) -> pd.DataFrame:
+def _points(ctx: _Context, receptors: Receptors) -> pd.DataFrame:
     frames = []
-    for table, items in receptors.items():
+    for table, items in receptors.by_table().items():
         for k, r in enumerate(items):
             with _located(ctx.cfg, f"{table}[{k}]"):
-                frames.append(_sample(table, r))
+                frames.append(r.points())
     if not frames:
         return pd.DataFrame(columns=rc.POINT_COLUMNS)
     return pd.concat(frames, ignore_index=True)
-
-
-def _sample(table: str, r: dict) -> pd.DataFrame:
-    if table == "buildings":
-        depths = np.arange(r["depth"] + r["profile_step"], r["profile_bottom"] + 1e-9,
-                           r["profile_step"])
-        return rc.building_points(r["id"], r["geometry"], r["depth"],
-                                  interior_spacing=r["interior_spacing"], profile_depths=depths,
-                                  wall_spacing=r.get("wall_spacing"))
-    if table == "pipes":
-        return rc.pipe_points(r["id"], r["geometry"], r["depth"], spacing=r["spacing"],
-                              diameter=r.get("diameter") or 0.0)
-    p = r["geometry"]
-    return rc.borehole_points(r["id"], p.x, p.y, r["top"], r["bottom"], r["step"])
 
 
 def _plan_grids(ctx: _Context, spec: GridSpec) -> list:

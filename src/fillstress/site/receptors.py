@@ -18,7 +18,7 @@ from typing import Callable
 import numpy as np
 import pandas as pd
 import shapely
-from shapely.geometry import LineString, Polygon
+from shapely.geometry import LineString, Point, Polygon
 
 from .. import crs as crsmod
 from .._validate import depths_array, finite, finite_array, positive
@@ -347,6 +347,80 @@ class PlanGrid:
     @property
     def ny(self) -> int:
         return int(math.floor((self.ymax - self.ymin) / self.spacing + 1e-9)) + 1
+
+
+# --- the receptors of a site model (internal metres, SI) -------------------------------
+@dataclass(frozen=True)
+class Building:
+    """A building: its footprint, foundation depth and how it is sampled."""
+
+    id: str
+    geometry: Polygon
+    depth: float                     # foundation depth below the existing ground (m)
+    interior_spacing: float
+    profile_step: float
+    profile_bottom: float
+    wall_spacing: float | None = None  # spacing of the points along each wall (m)
+
+    def points(self) -> pd.DataFrame:
+        depths = np.arange(self.depth + self.profile_step, self.profile_bottom + 1e-9,
+                           self.profile_step)
+        return building_points(self.id, self.geometry, self.depth,
+                               interior_spacing=self.interior_spacing, profile_depths=depths,
+                               wall_spacing=self.wall_spacing)
+
+
+@dataclass(frozen=True)
+class Pipe:
+    """A buried pipe: its route (in chainage order), crown depth and sampling."""
+
+    id: str
+    geometry: LineString
+    depth: float | list              # crown depth (m): one value or one a vertex
+    diameter: float
+    spacing: float
+    differential_length: float       # length of the largest differential settlement (m)
+
+    def points(self) -> pd.DataFrame:
+        return pipe_points(self.id, self.geometry, self.depth, spacing=self.spacing,
+                           diameter=self.diameter)
+
+
+@dataclass(frozen=True)
+class Borehole:
+    """A vertical profile of points from `top` to `bottom` depth in steps of `step`."""
+
+    id: str
+    geometry: Point
+    top: float
+    bottom: float
+    step: float
+
+    @property
+    def depth(self) -> float:
+        """The shallowest point (for choosing the cell size)."""
+        return self.top
+
+    def points(self) -> pd.DataFrame:
+        return borehole_points(self.id, self.geometry.x, self.geometry.y, self.top,
+                               self.bottom, self.step)
+
+
+@dataclass(frozen=True)
+class Receptors:
+    """The receptors of a site, by kind."""
+
+    buildings: tuple[Building, ...] = ()
+    pipes: tuple[Pipe, ...] = ()
+    boreholes: tuple[Borehole, ...] = ()
+
+    def by_table(self) -> dict[str, tuple]:
+        """Site-file table name → its receptors."""
+        return {"buildings": self.buildings, "pipes": self.pipes, "boreholes": self.boreholes}
+
+    def __iter__(self):
+        for items in self.by_table().values():
+            yield from items
 
 
 def plan_grid(extent, spacing: float, depths, *, name: str = "plan") -> PlanGrid:

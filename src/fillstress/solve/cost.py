@@ -51,6 +51,18 @@ class Estimate:
         return f"{self.operation}: {format_bytes(self.bytes)}, about {self.seconds:.3g} s ({self.detail})"
 
 
+#: Share of the machine's memory a run may use when no cap is given.
+DEFAULT_CAP_FRACTION = 0.6
+
+
+def memory_cap_bytes(gb: float | None = None) -> float:
+    """Bytes a run may use: `gb` (10⁹ bytes) or 60 % of the machine's memory."""
+    if gb is not None:
+        return gb * 1e9
+    import psutil
+    return DEFAULT_CAP_FRACTION * psutil.virtual_memory().total
+
+
 def format_bytes(n: float) -> str:
     """Bytes in decimal units with one decimal.
 
