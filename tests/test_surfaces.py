@@ -12,7 +12,8 @@ from fillstress.io.landxml import read_landxml_surface
 from fillstress.io.rasters import read_raster_surface
 from fillstress.io.survey import read_survey_points
 from fillstress.shapes.surfaces import (RasterSurface, TinSurface, fill_from_surfaces,
-                                        read_surface, resample_to_grid)
+                                        resample_to_grid)
+from fillstress.io.surfaces import read_surface
 
 SITE = "EPSG:32632"
 

@@ -49,7 +49,7 @@ API = [
                      "fillstress.shapes.footprints.read_footprints",
                      "fillstress.shapes.stockpile.pile_thickness",
                      "fillstress.shapes.embankment.embankment_thickness",
-                     "fillstress.shapes.surfaces.read_surface",
+                     "fillstress.io.surfaces.read_surface",
                      "fillstress.shapes.surfaces.fill_from_surfaces",
                      "fillstress.shapes.bodies.Body"]),
     ("Errors", ["fillstress.errors.InputError", "fillstress.errors.CapacityError"]),

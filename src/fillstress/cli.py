@@ -12,6 +12,9 @@ from pathlib import Path
 from ._version import __version__
 from .errors import FillstressError, FillstressWarning, InputError
 
+# Each subcommand imports its part of the library when it runs, so `fillstress --help`
+# and a mistyped command answer at once.
+
 EPILOG = """\
 examples:
   fillstress example stockpile_yard            run a bundled sample site into ./results-stockpile_yard

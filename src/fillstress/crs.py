@@ -23,8 +23,10 @@ from __future__ import annotations
 import numpy as np
 import pyproj
 import shapely
+from pyproj.aoi import AreaOfInterest
 from pyproj.crs import ProjectedCRS
 from pyproj.crs.coordinate_system import Cartesian2DCS
+from pyproj.database import query_utm_crs_info
 
 from .errors import InputError
 
@@ -61,8 +63,6 @@ def suggest_projected(lon: float, lat: float) -> str:
     >>> suggest_projected(10.5, 59.9)
     'EPSG:32632 (WGS 84 / UTM zone 32N)'
     """
-    from pyproj.aoi import AreaOfInterest
-    from pyproj.database import query_utm_crs_info
     hits = query_utm_crs_info(datum_name="WGS 84",
                               area_of_interest=AreaOfInterest(lon, lat, lon, lat))
     if not hits:

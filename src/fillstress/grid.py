@@ -4,6 +4,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
+from affine import Affine
 
 from ._validate import finite, finite_array, positive
 from .errors import InputError
@@ -210,5 +211,4 @@ class GridSpec(_Lattice):
 
     def rasterio_transform(self):
         """Affine transform of a north-up raster of this lattice (row 0 = northern row)."""
-        from affine import Affine
         return Affine(self.dx, 0.0, self.x0, 0.0, -self.dy, self.y0 + self.ny * self.dy)

@@ -54,6 +54,10 @@ SI = UnitSystem("SI", "m", "kPa", "kN/m3", "mm", 1.0, 1.0, 1.0, 1e-3)
 US = UnitSystem("US", "ft", "psf", "pcf", "in", FOOT, PSF_KPA, PCF_KN_M3, FOOT / 12.0)
 SYSTEMS = {"SI": SI, "US": US}
 
+#: Unit labels as printed (superscripts; the survey foot spelled out).
+UNIT_TEXT = {"m2": "m²", "m3": "m³", "ft2": "ft²", "ft3": "ft³", "kN/m3": "kN/m³",
+             "ftUS": "US survey ft"}
+
 
 def unit_system(name: str) -> UnitSystem:
     """Look up 'SI' or 'US' (customary: ft, psf, pcf, in)."""
@@ -61,3 +65,14 @@ def unit_system(name: str) -> UnitSystem:
         return SYSTEMS[str(name).upper()]
     except KeyError:
         raise InputError(f"unknown unit system {name!r}; use 'SI' or 'US'", argument="units") from None
+
+
+def unit_text(label: str) -> str:
+    """A unit label as printed.
+
+    Examples
+    --------
+    >>> unit_text("ft3"), unit_text("kN/m3"), unit_text("psf")
+    ('ft³', 'kN/m³', 'psf')
+    """
+    return UNIT_TEXT.get(label, label)

@@ -12,15 +12,22 @@ US-survey-foot CRS) are scaled to it, so the scene is not stretched.
 from __future__ import annotations
 
 import os
+import sys
 from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
+from scipy.interpolate import RegularGridInterpolator
 
 from ._validate import finite, positive
 from .errors import InputError
 from .io.atomic import write_atomic
 from .io.results import QUANTITIES, PlanField, ResultsFolder, quantity_unit_key
+from .scene_page import page_html
+from .units import unit_text
+
+# pyvista (VTK) and matplotlib are imported inside the functions that use them: they are
+# slow to load and most commands never need them.
 
 #: Colour maps (matplotlib's perceptually uniform family), one per quantity, each with the
 #: share of its dark end left out so the lowest values still read against white and black
@@ -109,7 +116,6 @@ class _Frame:
         x, y = np.broadcast_arrays(np.asarray(x, float), np.asarray(y, float))
         if not self._has_ground():
             return np.zeros(x.shape)
-        from scipy.interpolate import RegularGridInterpolator
         g = self._ground
         values = np.where(np.isfinite(g.values), g.values, self.z_ref)
         interp = RegularGridInterpolator((g.y, g.x), values, bounds_error=False, fill_value=None)
@@ -203,7 +209,6 @@ class Scene:
 
     def caption(self, exaggeration: float | None = None, depth: float | None = None) -> str:
         """Origin, units, exaggeration, the slice shown and how the colours are scaled."""
-        from .report.labels import unit_text
         u, plan = self.folder.units.length, unit_text(self.folder.units.plan)
         exaggeration = self.exaggeration if exaggeration is None else exaggeration
         lines = [f"E, N in {plan} (grid north of the site CRS); depths in {u} below existing ground; "
@@ -265,7 +270,6 @@ def _colour_range(slices, point_values, colour_range) -> tuple[tuple, bool, floa
 
 def _point_rows(folder: ResultsFolder, quantity: str) -> list[tuple[str, np.ndarray, list]]:
     """(kind, (n, 4) x y depth value, hover texts) for every points table with `quantity`."""
-    from .report.labels import unit_text
     out = []
     u = folder.units
     shown = [(q, folder.units.label(QUANTITIES[q])) for q in ("dsz", "sigma_v0", "stress_ratio",
@@ -408,7 +412,6 @@ class _PartsBuilder:
         """E and N ticks with site coordinates, a scale bar and a north arrow, on the lowest
         ground level around the plan box."""
         import pyvista as pv
-        from .report.labels import unit_text
         x0, x1, y0, y1 = self.box
         s, k = self.span, self.folder.plan_to_length
         plan, length = unit_text(self.folder.units.plan), self.folder.units.length
@@ -505,7 +508,6 @@ class _ActorGroup:
 
 def headless() -> bool:
     """True on a Linux or BSD machine with no X or Wayland display to open a window on."""
-    import sys
     return sys.platform.startswith(("linux", "freebsd")) and not (
         os.environ.get("DISPLAY") or os.environ.get("WAYLAND_DISPLAY"))
 
@@ -882,7 +884,6 @@ def export_scene_html(results_dir, path=None, *, exaggeration: float | None = No
     ...
     fillstress.errors.InputError: argument results_dir: is not a results folder (no such directory)
     """
-    from .scene_page import page_html
     ResultsFolder(results_dir)
     path = _writable(Path(results_dir) / "scene.html" if path is None else path)
     html = page_html(scene_parts(results_dir, exaggeration=exaggeration, quantity=quantity,

@@ -9,12 +9,17 @@ from __future__ import annotations
 import os
 
 import numpy as np
+from affine import Affine
 
+from ..crs import as_crs
 from ..errors import InputError
 from ..grid import GridSpec
 from ..units import SI, UnitSystem
 from .atomic import write_atomic
 from .tables import plan_unit, to_output_units, unit_label
+
+# rasterio (GDAL) is imported inside the functions that use it: it is slow to load and
+# most commands never need it.
 
 
 def rasterio_crs(crs):
@@ -23,7 +28,6 @@ def rasterio_crs(crs):
         return None
     from rasterio.crs import CRS as RioCRS
 
-    from ..crs import as_crs
     return RioCRS.from_wkt(as_crs(crs, "crs").to_wkt())
 
 
@@ -47,7 +51,6 @@ def crs_transform(grid: GridSpec, crs=None):
     >>> round(t.a, 5), round(t.c, 2), round(t.f, 5)
     (9.99998, 9999.98, 9.99998)
     """
-    from affine import Affine
 
     f = plan_unit(crs)[1] if crs is not None else 1.0
     top = grid.y0 + grid.ny * grid.dy

@@ -17,6 +17,7 @@ from typing import Iterable, Mapping
 import numpy as np
 
 from .._version import __version__
+from ..crs import as_crs
 from ..errors import InputError
 from ..grid import GridSpec
 from ..units import SI, UnitSystem
@@ -82,7 +83,6 @@ def _text(value, name: str):
 def _crs_wkt(crs):
     if crs is None:
         return None
-    from ..crs import as_crs  # pyproj loads only when a writer needs it
     return as_crs(crs, "crs").to_wkt()
 
 

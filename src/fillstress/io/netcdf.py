@@ -15,7 +15,9 @@ import re
 from typing import Mapping
 
 import numpy as np
+import xarray as xr
 
+from ..crs import as_crs
 from ..errors import InputError
 from ..grid import GridSpec
 from ..units import SI, UnitSystem
@@ -27,7 +29,6 @@ SLICE_DIMS = ("depth", "y", "x")
 
 
 def _checked_slice(name: str, da):
-    import xarray as xr
 
     if not isinstance(name, str) or not _NAME.match(name):
         raise InputError(f"plan grid name must be letters, digits, '_' or '-', got {name!r}",
@@ -87,7 +88,6 @@ def stress_dataset(slices: Mapping, *, grid: GridSpec | None = None, fill_thickn
     >>> dict(ds["dsz_plan"].sizes), ds["dsz_plan"].attrs["units"]
     ({'depth_plan': 1, 'y_plan': 2, 'x_plan': 3}, 'kPa')
     """
-    import xarray as xr
 
     if not slices:
         raise InputError("needs at least one plan grid", argument="slices")
@@ -137,7 +137,6 @@ def _depth_profile(values, da, units) -> np.ndarray:
 def _crs_attrs(crs) -> dict:
     if crs is None:
         return {"crs_wkt": ""}
-    from ..crs import as_crs
     wkt = as_crs(crs, "crs").to_wkt()
     return {"crs_wkt": wkt, "spatial_ref": wkt}
 

@@ -10,11 +10,15 @@ from __future__ import annotations
 import os
 
 import numpy as np
+import pyproj
 
 from .. import crs as crsmod
 from .._validate import positive
 from ..errors import InputError
 from ..shapes.surfaces import RasterSurface
+
+# rasterio (GDAL) is imported inside the functions that use it: it is slow to load and
+# most commands never need it.
 
 
 def read_raster_surface(path, site_crs=None, *, crs=None, band: int = 1,
@@ -79,7 +83,6 @@ def read_raster_surface(path, site_crs=None, *, crs=None, band: int = 1,
 
 
 def _surface(z, t, layer, site, source) -> RasterSurface:
-    import pyproj
     site_crs, f = site
     twin = crsmod.metric_twin(site_crs)
     if layer.equals(site_crs):

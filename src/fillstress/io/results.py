@@ -15,11 +15,17 @@ from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 import numpy as np
+import pandas as pd
+import shapely.geometry
+import xarray as xr
 
 from .._validate import regular_file
 from ..errors import InputError
 from .tables import plan_unit, restored
 from ..units import SYSTEMS, UnitSystem
+
+# rasterio (GDAL) is imported inside the functions that use it: it is slow to load and
+# most commands never need it.
 
 #: Quantities that can be shown on plan slices and at sample points; value = unit key.
 QUANTITIES = {"dsz": "pressure", "stress_ratio": None, "settlement": "settlement",
@@ -224,7 +230,6 @@ class ResultsFolder:
     # --- tables ----------------------------------------------------------------
     def table(self, name: str):
         """The CSV ``<name>.csv`` as a pandas DataFrame, or None when absent."""
-        import pandas as pd
         path = self.path / f"{name}.csv"
         if own_file(self.path, path) is None:
             return None
@@ -262,7 +267,6 @@ class ResultsFolder:
     # --- vectors ---------------------------------------------------------------
     def features(self, name: str) -> list[Feature]:
         """Features of ``<name>.geojson`` (empty list when the file is absent)."""
-        import shapely.geometry
         path = self.path / f"{name}.geojson"
         data = _read_json(self.path, path, required=False)
         feats = []
@@ -319,7 +323,6 @@ class ResultsFolder:
         return self._once("cube", self._read_cube)
 
     def _read_cube(self):
-        import xarray as xr
         path = self.path / "stress_cube.nc"
         if own_file(self.path, path) is None:
             return None

@@ -14,10 +14,15 @@ from typing import Mapping
 
 import numpy as np
 import pandas as pd
+import shapely
 
+from ..crs import as_crs, site_crs
 from ..errors import InputError
 from ..units import FOOT, PSF_KPA, SI, UnitSystem
 from .atomic import write_atomic
+
+# geopandas (GDAL) is imported inside the functions that use it: it is slow to load and
+# most commands never need it.
 
 # Which physical quantity a column holds; None = dimensionless or a count. "plan" is a
 # plan coordinate: written in the site CRS's own unit (see plan_unit), not the unit system's.
@@ -45,7 +50,6 @@ def crs_unit_label(crs) -> str:
     >>> crs_unit_label("EPSG:2263"), crs_unit_label("EPSG:32633")
     ('ftUS', 'm')
     """
-    from ..crs import site_crs
     return _axis_label(site_crs(crs, argument="crs")[0])
 
 
@@ -75,7 +79,6 @@ def plan_unit(crs, units: UnitSystem = SI) -> tuple[str, float]:
     """
     if crs is None:
         return units.length, units.length_to_m
-    from ..crs import site_crs
     parsed, factor = site_crs(crs, argument="crs")
     label = _axis_label(parsed)
     same_kind = {"m": ("m",), "ft": ("ft", "ftUS")}.get(units.length, ())
@@ -233,7 +236,6 @@ def restored(table: pd.DataFrame) -> pd.DataFrame:
 def _pyproj_crs(crs):
     if crs is None:
         return None
-    from ..crs import as_crs
     return as_crs(crs, "crs")
 
 
@@ -257,7 +259,6 @@ def write_geojson(path, frame, units: UnitSystem, *, crs=None,
     ['receptor_id', 'foundation_depth_m', 'geometry']
     """
     import geopandas as gpd
-    import shapely
 
     if not isinstance(frame, gpd.GeoDataFrame):
         raise InputError(f"must be a GeoDataFrame, got {type(frame).__name__}", argument="frame")

@@ -22,6 +22,9 @@ from .atomic import write_atomic
 from .netcdf import SLICE_DIMS
 from .tables import to_output_units, unit_label
 
+# pyvista (VTK) is imported inside the functions that use it: it is slow to load and
+# most commands never need it.
+
 
 def _units_note(units: UnitSystem) -> np.ndarray:
     return np.array([f"length={unit_label(units, 'length')}",

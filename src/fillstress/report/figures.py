@@ -10,6 +10,9 @@ import numpy as np
 
 from ..io.results import Feature, PlanField
 
+# matplotlib is imported inside the functions that use it: it is slow to load and
+# most commands never need it.
+
 PLAN_CMAP = "viridis"   # perceptually uniform
 DPI = 110
 

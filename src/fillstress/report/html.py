@@ -13,13 +13,26 @@ import re
 from datetime import datetime, timezone
 from pathlib import Path
 
+from pyproj import CRS
+
 from ..io.atomic import write_atomic
-from . import figures
 from ..io.results import ResultsFolder, UnitLabels
+from . import figures
 from .labels import heading, unit_text
-from .tables import (_fmt, esc, frame_table, html_table, is_flag_column, is_flag_set,
-                     is_missing, json_block, key_value_table, plain, receptor_flagged,
-                     receptor_table)
+from .tables import (
+    _fmt,
+    esc,
+    frame_table,
+    html_table,
+    is_flag_column,
+    is_flag_set,
+    is_missing,
+    json_block,
+    key_value_table,
+    plain,
+    receptor_flagged,
+    receptor_table,
+)
 
 __all__ = ["SECTIONS", "write_report", "esc", "html_table", "frame_table", "json_block",
            "is_flag_column", "_fmt"]
@@ -454,7 +467,6 @@ def _crs_name(wkt) -> str:
     if not wkt:
         return "not given"
     try:
-        from pyproj import CRS
         crs = CRS.from_user_input(wkt)
         code = crs.to_epsg()
         return f"{crs.name} (EPSG:{code})" if code else crs.name

@@ -6,16 +6,13 @@ in brackets (``max Δσz (psf)``, ``volume (ft³)``), so every header states its
 """
 from __future__ import annotations
 
-from ..io.tables import unit_label
 from ..io.results import UnitLabels
+from ..io.tables import unit_label
+from ..units import unit_text
 
 #: Quantities whose labels can end a column name (the writer's labels, io.tables).
 _SUFFIXED_QUANTITIES = ("length", "area", "volume", "pressure", "unit_weight", "settlement",
                         "force")
-
-#: Unit labels as printed (superscripts; the survey foot spelled out).
-UNIT_TEXT = {"m2": "m²", "m3": "m³", "ft2": "ft²", "ft3": "ft³", "kN/m3": "kN/m³",
-             "ftUS": "US survey ft"}
 
 #: Column bases (name without the unit suffix) and the words shown for them.
 BASE_WORDS = {
@@ -38,17 +35,6 @@ BASE_WORDS = {
     "poisson": "Poisson's ratio", "convergence_check": "convergence check",
     "units": "unit system", "foundation_depth": "foundation depth",
 }
-
-
-def unit_text(label: str) -> str:
-    """A unit label as printed.
-
-    Examples
-    --------
-    >>> unit_text("ft3"), unit_text("kN/m3"), unit_text("psf")
-    ('ft³', 'kN/m³', 'psf')
-    """
-    return UNIT_TEXT.get(label, label)
 
 
 def _unit_labels(units: UnitLabels) -> list[str]:

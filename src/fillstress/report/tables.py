@@ -6,6 +6,7 @@ before it reaches the page.
 from __future__ import annotations
 
 import html
+import json
 import math
 
 import numpy as np
@@ -56,7 +57,6 @@ def plain(value) -> str:
     if isinstance(value, (list, tuple)):
         return ", ".join(plain(v) for v in value)
     if isinstance(value, dict):
-        import json
         return json.dumps(value, ensure_ascii=False)
     return str(value)
 

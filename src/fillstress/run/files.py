@@ -12,11 +12,15 @@ import json
 import geopandas as gpd
 import numpy as np
 import pandas as pd
+import shapely
 
 from ..grid import GridSpec
 from ..io import geotiff, manifest, netcdf, tables, vtk
 from ..io.atomic import write_atomic
 from ..progress import silent
+from ..report import write_report
+from ..site.receptors import summarise
+from ..viewer import export_scene_html
 
 KIND_FILES = {"building": "buildings", "pipe": "pipes", "borehole": "boreholes"}
 
@@ -106,7 +110,6 @@ EXTRA_QUANTITIES = {"chainage_at_max": "length", "differential_length": "length"
 def stress_summary(points: pd.DataFrame) -> pd.DataFrame:
     """Per receptor: the largest Δσz and the point, x, y, depth where it occurs (SI), and
     the largest settlement and stress ratio where they were computed."""
-    from ..site.receptors import summarise
     out = summarise(points, "dsz").drop(columns="receptor_kind").rename(
         columns={"point_id": "point_at_max", "depth": "depth_at_max"})
     by = points.groupby("receptor_id", sort=False)
@@ -296,7 +299,6 @@ def _write_vtk(res, folder) -> None:
 
 
 def _scale_geom(geom, k):
-    import shapely
     return shapely.transform(geom, lambda c: c * k)
 
 
@@ -360,11 +362,9 @@ def _soil_rows(site) -> list[dict]:
 def _write_report_and_scene(folder, bar, site) -> None:
     """The report and the scene, each unless the site file's [outputs] turns it off."""
     if _output(site, "report"):
-        from ..report import write_report
         write_report(folder.root, folder.path("report.html"))
     bar.advance()
     if _output(site, "scene"):
-        from ..viewer import export_scene_html
         export_scene_html(folder.root, folder.path("scene.html"))
     bar.advance()
 

@@ -7,6 +7,8 @@ from __future__ import annotations
 
 import math
 
+from ..settlement import sublayers
+from ..solve.auto import choose_algorithm, direct_work
 from ..solve.cost import (Estimate, check_capacity, estimate_points, estimate_slices,
                           format_bytes, memory_cap_bytes)
 
@@ -20,7 +22,6 @@ def settlement_points(site) -> int:
     """Sample points of the settlement columns (every sublayer, every stage)."""
     if site.soil is None:
         return 0
-    from ..settlement import sublayers
     settle = site.points[site.points["role"] != "profile"]
     total = sum(len(g) * len(sublayers(site.soil, top_depth=float(d))[0])
                 for d, g in settle.groupby("depth"))
@@ -41,7 +42,6 @@ def _pad_cells(site, plan) -> tuple[int, int]:
 def run_estimates(site) -> list[Estimate]:
     """One estimate per kind of work: receptor points, settlement columns, the
     convergence check (a grid of half the cell size) and each plan grid's slices."""
-    from ..solve.auto import choose_algorithm, direct_work
     shape, grid = site.spec.shape, site.load_grid()
     active = direct_work(grid, 1)          # nodes with a non-zero weight
     out = []

@@ -11,12 +11,17 @@ from __future__ import annotations
 import os
 
 import numpy as np
+import pyproj
 import shapely
 
+from .. import crs as crsmod
 from .._validate import finite, positive
 from ..errors import InputError
 from ..grid import GridSpec
 from .coverage import check_polygonal, check_spec, coverage_fraction, tin_cell_average
+
+# geopandas (GDAL) is imported inside the functions that use it: it is slow to load and
+# most commands never need it.
 
 #: Attribute names tried, in order, when no height field is named.
 DEFAULT_HEIGHT_FIELDS = ("height_m", "height")
@@ -150,7 +155,6 @@ def read_footprints(path, height_field: str | None = None, crs=None, target_crs=
     >>> float(gdf.height_m[0]), float(gdf.geometry[0].area)
     (2.5, 50.0)
     """
-    from .. import crs as crsmod
     factor = positive(height_to_m, "height_to_m")
     gdf = _read_layer(path)
     source = _layer_crs(gdf, crs, target_crs, path)
@@ -190,7 +194,6 @@ def _read_layer(path):
 
 
 def _layer_crs(gdf, crs, target_crs, path):
-    from .. import crs as crsmod
     if gdf.crs is not None:
         return gdf.crs
     if crs is not None:
@@ -204,9 +207,7 @@ def _layer_crs(gdf, crs, target_crs, path):
 
 def _own_crs_as_site(gdf, source, path):
     """With no site CRS the layer's own CRS is used; it must be projected."""
-    import pyproj
 
-    from .. import crs as crsmod
     source = crsmod.as_crs(source, "crs")
     if source.is_geographic:
         crsmod.check_degrees(gdf.geometry.values, source, file=path)  # before the hint uses them

@@ -9,7 +9,7 @@ A *surface* is any object with
 
 Two are provided: :class:`TinSurface` (triangles, linear on each; from survey points or
 LandXML) and :class:`RasterSurface` (grid, bilinear between pixel centres; from GeoTIFF).
-The readers live in :mod:`fillstress.io`.
+The readers live in :mod:`fillstress.io` (:func:`fillstress.io.surfaces.read_surface`).
 
 Cell averages are taken by a ``samples × samples`` midpoint rule in every cell. Where
 either surface has no data at a sample point there is no fill there (the point counts
@@ -17,15 +17,19 @@ as zero thickness), and the points compared are reported.
 """
 from __future__ import annotations
 
-import os
 from dataclasses import dataclass
 
 import numpy as np
+from scipy.spatial import Delaunay, QhullError
 
+from .. import crs as crsmod
 from .._validate import finite
 from ..errors import InputError
 from ..grid import GridSpec
 from .coverage import check_samples, check_spec
+
+# matplotlib (its triangulation) is imported inside the functions that use it: it is slow to load and
+# most commands never need it.
 
 CUT_MODES = ("ignore", "unload")
 
@@ -147,7 +151,6 @@ def survey_triangles(pts, where=None) -> np.ndarray:
     >>> bool(np.all(np.hypot(*pts[tri].mean(axis=1).T) > 990))   # none inside the curve
     True
     """
-    from scipy.spatial import Delaunay, QhullError
     where = where or {"argument": "points"}
     xy = np.asarray(pts, dtype=float)[:, :2]
     if len(np.unique(xy, axis=0)) < len(xy):
@@ -303,7 +306,6 @@ def check_surface(surface, argument: str):
 
 def _comparable(crs_like):
     """CRS in metre form, so a foot site CRS and its metre twin compare equal."""
-    from .. import crs as crsmod
     c = crsmod.as_crs(crs_like)
     try:
         return crsmod.metric_twin(c)
@@ -321,34 +323,6 @@ def _check_same_crs(design, existing, spec) -> None:
         if not a.equals(b):
             raise InputError(f"{n1} is in {a.name!r} but {n2} is in {b.name!r}; read both "
                              "into the site CRS", argument=n2)
-
-
-def read_surface(path, site_crs=None, *, z_to_m: float = 1.0, surface_name=None, crs=None):
-    """Read a surface file, choosing the reader by its suffix.
-
-    ``.tif``/``.tiff`` → GeoTIFF (:func:`fillstress.io.rasters.read_raster_surface`),
-    ``.xml``/``.landxml`` → LandXML (:func:`fillstress.io.landxml.read_landxml_surface`;
-    `z_to_m` only when the file declares no units), anything else → survey points
-    (:func:`fillstress.io.survey.read_survey_points`).
-
-    Examples
-    --------
-    >>> import tempfile, os
-    >>> f = os.path.join(tempfile.mkdtemp(), "pts.txt")
-    >>> _ = open(f, "w").write("0 0 1\\n10 0 1\\n0 10 1\\n")
-    >>> read_surface(f, "EPSG:32632").bounds
-    (0.0, 0.0, 10.0, 10.0)
-    """
-    suffix = os.path.splitext(str(path))[1].lower()
-    if suffix in (".tif", ".tiff"):
-        from ..io.rasters import read_raster_surface
-        return read_raster_surface(path, site_crs, crs=crs, z_to_m=z_to_m)
-    if suffix in (".xml", ".landxml"):
-        from ..io.landxml import read_landxml_surface
-        return read_landxml_surface(path, site_crs, surface_name=surface_name, crs=crs,
-                                    z_to_m=z_to_m)
-    from ..io.survey import read_survey_points
-    return read_survey_points(path, site_crs, crs=crs, z_to_m=z_to_m)
 
 
 def _overlap(a, b):

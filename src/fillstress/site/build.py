@@ -22,12 +22,13 @@ from shapely.geometry import LineString, Point, Polygon
 from .. import crs as crsmod
 from ..errors import InputError
 from ..grid import GridSpec, LoadGrid
+from ..io.surfaces import read_surface
 from ..shapes import footprints as fp
 from ..shapes.bodies import Body, choose_cell, stage_pressure
 from ..shapes.embankment import embankment_thickness
 from ..shapes.footprints import read_footprints
 from ..shapes.stockpile import pile_thickness
-from ..shapes.surfaces import CutReport, fill_from_surfaces, read_surface
+from ..shapes.surfaces import CutReport, fill_from_surfaces
 from ..soil import SoilLayer, SoilProfile
 from ..solve.cost import check_capacity, estimate_grid, memory_cap_bytes
 from ..units import UnitSystem
@@ -59,6 +60,8 @@ class RunSettings:
     geotiff: bool = True
     netcdf: bool = True
     vtk: bool = True
+    report: bool = True
+    scene: bool = True
 
 
 @dataclass
@@ -256,7 +259,8 @@ def _settings(cfg: SiteConfig) -> RunSettings:
         stage_days=tuple(settle["stage_days"]) if settle.get("stage_days") else None,
         distortion_limits={name: settle[key] for key, name in LIMIT_KEYS.items()
                            if settle.get(key) is not None},
-        **{k: outputs.get(k, True) is not False for k in ("geotiff", "netcdf", "vtk")})
+        **{k: outputs.get(k, True) is not False for k in ("geotiff", "netcdf", "vtk", "report",
+                                                             "scene")})
 
 
 def _check_method(cfg: SiteConfig) -> None:

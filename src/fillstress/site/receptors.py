@@ -24,6 +24,9 @@ from .. import crs as crsmod
 from .._validate import depths_array, finite, finite_array, positive
 from ..errors import InputError
 
+# geopandas and pyogrio (GDAL) is imported inside the functions that use it: it is slow to load and
+# most commands never need it.
+
 POINT_COLUMNS = ["receptor_kind", "receptor_id", "point_id", "role", "x", "y", "depth", "chainage"]
 KINDS = ("building", "pipe", "borehole")
 # Two sample points closer than this (m) are the same point.

@@ -10,11 +10,12 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
+import psutil
 import scipy.fft
 
-from .._validate import positive
+from .._validate import positive, whole_number, whole_pair
 from ..errors import CapacityError, InputError
-from .._validate import whole_number, whole_pair
+from .farfield import pyramid_blocks
 
 # Throughputs on the development machine (2 cores, both threads), common practice to
 # keep such constants beside the code that uses them.  benchmarks/bench_scale.py prints
@@ -59,7 +60,6 @@ def memory_cap_bytes(gb: float | None = None) -> float:
     """Bytes a run may use: `gb` (10⁹ bytes) or 60 % of the machine's memory."""
     if gb is not None:
         return gb * 1e9
-    import psutil
     return DEFAULT_CAP_FRACTION * psutil.virtual_memory().total
 
 
@@ -184,7 +184,6 @@ def estimate_points(shape, n_points: int, *, algorithm: str = "direct", order: i
         return Estimate("points-direct", memory, seconds,
                         f"{cells} cells, {n_points} points, direct summation")
     if algorithm == "far":
-        from .farfield import pyramid_blocks
         n_mom = (order + 1) * (order + 2) // 2
         n_terms = sum(n - 2 * m + 1 for n in range(order + 1) for m in range(n // 2 + 1))
         blocks = pyramid_blocks(nx, ny)

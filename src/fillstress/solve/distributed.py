@@ -20,6 +20,7 @@ from dataclasses import replace
 from typing import NamedTuple
 
 import numpy as np
+import pandas as pd
 import xarray as xr
 
 from .._validate import whole_number
@@ -29,6 +30,9 @@ from .auto import prepare
 from .farfield import DEFAULT_ORDER
 from .slices import slice_at_depth, slice_setup
 from .tiled import assemble, prepare_tiled, run_tile
+
+# dask and distributed (an optional part) is imported inside the functions that use it: it is slow to load and
+# most commands never need it.
 
 DEFAULT_RETRIES = 2
 #: Seconds to reach a scheduler (or a local cluster's) before giving up with one line.
@@ -277,7 +281,6 @@ def _envelope_xarray(items):
 
 
 def _envelope_pandas(items):
-    import pandas as pd
     first = items[0]
     for other in items[1:]:
         if type(other) is not type(first) or not other.index.equals(first.index) or (
