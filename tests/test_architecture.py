@@ -140,3 +140,19 @@ def test_the_checker_sees_a_cycle_and_a_back_edge():
     assert layer("grid") < layer("solve.direct") < layer("cli")
     with pytest.raises(AssertionError):
         layer("nowhere")
+
+
+def test_module_exports_are_public_and_plain_python():
+    """No module-level __all__ names a private symbol or a numba-compiled internal."""
+    import importlib
+
+    from numba.core.dispatcher import Dispatcher
+
+    wrong = []
+    for name in graph():
+        module = importlib.import_module("fillstress" + (f".{name}" if name else ""))
+        for item in getattr(module, "__all__", ()):
+            obj = getattr(module, item)             # also fails for a name that is not there
+            if (item.startswith("_") and item != "__version__") or isinstance(obj, Dispatcher):
+                wrong.append(f"fillstress.{name}: {item}")
+    assert not wrong, "exports that are private or numba internals: " + ", ".join(wrong)

@@ -12,7 +12,7 @@ import pytest
 
 from fillstress.cli import main
 from fillstress.errors import FillstressWarning, InputError
-from fillstress.io.atomic import ResultsFolder, recover_stranded, write_atomic
+from fillstress.io.atomic import ResultsWriter, recover_stranded, write_atomic
 from fillstress.io.manifest import verify_folder
 from tiny_site import tree_hashes, write_site
 
@@ -93,7 +93,7 @@ def _killed(tmp_path, where: str) -> None:
     code = textwrap.dedent(f"""
         import os, sys
         from fillstress.io import atomic
-        out = atomic.ResultsFolder(sys.argv[1], overwrite=True)
+        out = atomic.ResultsWriter(sys.argv[1], overwrite=True)
         if {where!r} == "between renames":
             atomic._between_renames = lambda: os._exit(9)
         with out:
@@ -117,7 +117,7 @@ def test_killed_commit_is_recovered_by_the_next_run(tmp_path, where):
     assert stranded == ([".run.old", ".run.partial"] if where == "between renames"
                         else [".run.partial"])
     with pytest.warns(FillstressWarning) as said:
-        folder = ResultsFolder(tmp_path / "run", overwrite=True)
+        folder = ResultsWriter(tmp_path / "run", overwrite=True)
     assert [p.name for p in tmp_path.iterdir()] == ["run"]
     assert tree_hashes(tmp_path / "run") == before
     assert len(folder.recovered) == len(said) == len(stranded)
@@ -138,7 +138,7 @@ def test_next_run_from_the_command_line_says_what_it_recovered(tmp_path, capsys)
 
 def test_a_live_runs_folder_is_left_alone(tmp_path):
     _earlier(tmp_path / "run")
-    with ResultsFolder(tmp_path / "run", overwrite=True) as first:
+    with ResultsWriter(tmp_path / "run", overwrite=True) as first:
         write_atomic(first.path("bodies.csv"), lambda p: p.write_text("first"))
         assert recover_stranded(tmp_path / "run") == []
         assert first.root.is_dir()
@@ -156,7 +156,7 @@ def test_old_folder_left_after_a_finished_commit_is_removed(tmp_path):
 
 def test_an_empty_folder_may_be_overwritten(tmp_path):
     (tmp_path / "run").mkdir()
-    with ResultsFolder(tmp_path / "run", overwrite=True) as out:
+    with ResultsWriter(tmp_path / "run", overwrite=True) as out:
         write_atomic(out.path("a.txt"), lambda p: p.write_text("1"))
     assert (tmp_path / "run" / "a.txt").read_text() == "1"
 
@@ -165,4 +165,4 @@ def test_symlinked_results_folder_is_refused(tmp_path):
     _earlier(tmp_path / "real")
     (tmp_path / "link").symlink_to(tmp_path / "real")
     with pytest.raises(InputError, match="not a folder"):
-        ResultsFolder(tmp_path / "link", overwrite=True)
+        ResultsWriter(tmp_path / "link", overwrite=True)

@@ -66,8 +66,9 @@ def test_rounding_place_follows_the_tolerance_not_the_value():
 def test_api_reference_covers_the_public_api():
     module = _tool("write_api_reference")
     text = module.api_reference()
-    for _, names in module.API:
-        for dotted in names:
-            assert f"### `{dotted}`" in text
+    import fillstress
+    for name in fillstress.__all__:           # every public name, and only those
+        assert (f"### `fillstress.{name}`" in text) == (name != "__version__"), name
+    assert text.count("\n### `") == len(fillstress.__all__) - 1
     assert " at 0x" not in text                       # no memory addresses from reprs
     assert "vertical_stress(grid, points, method='boussinesq'" in text

@@ -7,7 +7,7 @@ import pytest
 
 from fillstress import InputError
 from fillstress.io import atomic
-from fillstress.io.atomic import EXISTS_MESSAGE, ResultsFolder, write_atomic
+from fillstress.io.atomic import EXISTS_MESSAGE, ResultsWriter, write_atomic
 
 
 def _tree(root):
@@ -70,9 +70,9 @@ def test_missing_folder_is_an_input_error(tmp_path):
         write_atomic(tmp_path / "nope" / "x.txt", lambda p: p.write_text("x"))
 
 
-# --- ResultsFolder ---------------------------------------------------------------------
+# --- ResultsWriter ---------------------------------------------------------------------
 def test_commit_renames_the_partial_folder_into_place(tmp_path):
-    with ResultsFolder(tmp_path / "run") as out:
+    with ResultsWriter(tmp_path / "run") as out:
         write_atomic(out.path("slices/dsz_plan_z02.00m.tif"), lambda p: p.write_text("t"))
         write_atomic(out.path("manifest.json"), lambda p: p.write_text("{}"))
         assert out.root.parent == tmp_path and out.root.name.startswith(".run.partial-")
@@ -87,7 +87,7 @@ def test_existing_folder_is_refused_before_any_work(tmp_path):
     (tmp_path / "run" / "old.csv").write_text("keep")
     before = _tree(tmp_path)
     with pytest.raises(InputError) as err:
-        ResultsFolder(tmp_path / "run")
+        ResultsWriter(tmp_path / "run")
     assert EXISTS_MESSAGE in str(err.value) and str(tmp_path / "run") in str(err.value)
     assert _tree(tmp_path) == before  # refused at construction: no partial folder made
 
@@ -95,7 +95,7 @@ def test_existing_folder_is_refused_before_any_work(tmp_path):
 def test_a_file_in_the_way_is_refused_even_with_overwrite(tmp_path):
     (tmp_path / "run").write_text("not a folder")
     with pytest.raises(InputError, match="not a folder"):
-        ResultsFolder(tmp_path / "run", overwrite=True)
+        ResultsWriter(tmp_path / "run", overwrite=True)
 
 
 @pytest.mark.parametrize("name, overwrite", [("run", True), ("fresh", False)])
@@ -103,7 +103,7 @@ def test_failure_midway_keeps_earlier_results_and_no_partial(tmp_path, name, ove
     _earlier_results(tmp_path / "run", **{"bodies.csv": "earlier"})
     before = _tree(tmp_path)
     with pytest.raises(ZeroDivisionError):
-        with ResultsFolder(tmp_path / name, overwrite=overwrite) as out:
+        with ResultsWriter(tmp_path / name, overwrite=overwrite) as out:
             write_atomic(out.path("bodies.csv"), lambda p: p.write_text("new"))
             1 / 0  # the solver fails after some files were written
     assert _tree(tmp_path) == before
@@ -111,7 +111,7 @@ def test_failure_midway_keeps_earlier_results_and_no_partial(tmp_path, name, ove
 
 def test_overwrite_swaps_only_when_complete_and_leaves_no_backup(tmp_path):
     _earlier_results(tmp_path / "run", **{"stale.csv": "old"})
-    with ResultsFolder(tmp_path / "run", overwrite=True) as out:
+    with ResultsWriter(tmp_path / "run", overwrite=True) as out:
         write_atomic(out.path("bodies.csv"), lambda p: p.write_text("new"))
         assert (tmp_path / "run" / "stale.csv").read_text() == "old"  # still there meanwhile
     assert _tree(tmp_path) == {"run": None, "run/bodies.csv": "new"}
@@ -131,7 +131,7 @@ def test_failed_final_rename_puts_the_old_folder_back(tmp_path, monkeypatch):
 
     monkeypatch.setattr(atomic.os, "rename", flaky_rename)
     with pytest.raises(OSError, match="simulated"):
-        with ResultsFolder(tmp_path / "run", overwrite=True) as out:
+        with ResultsWriter(tmp_path / "run", overwrite=True) as out:
             write_atomic(out.path("bodies.csv"), lambda p: p.write_text("new"))
     assert calls[0][0] == "run" and calls[0][1].startswith(".run.old-")
     assert _tree(tmp_path) == before
@@ -139,7 +139,7 @@ def test_failed_final_rename_puts_the_old_folder_back(tmp_path, monkeypatch):
 
 def test_folder_created_by_someone_else_meanwhile_is_not_replaced(tmp_path):
     with pytest.raises(InputError, match="results folder exists"):
-        with ResultsFolder(tmp_path / "run") as out:
+        with ResultsWriter(tmp_path / "run") as out:
             write_atomic(out.path("a.txt"), lambda p: p.write_text("mine"))
             (tmp_path / "run").mkdir()
             (tmp_path / "run" / "theirs.txt").write_text("theirs")
@@ -149,12 +149,12 @@ def test_folder_created_by_someone_else_meanwhile_is_not_replaced(tmp_path):
 @pytest.mark.parametrize("bad", ["../escape.txt", "/abs/x.txt", "", "a/../../b"])
 def test_paths_must_stay_inside(tmp_path, bad):
     with pytest.raises(InputError):
-        with ResultsFolder(tmp_path / "run") as out:
+        with ResultsWriter(tmp_path / "run") as out:
             out.path(bad)
     assert not list(tmp_path.iterdir())
 
 
 def test_parent_folder_is_created(tmp_path):
-    with ResultsFolder(tmp_path / "jobs" / "2031" / "run") as out:
+    with ResultsWriter(tmp_path / "jobs" / "2031" / "run") as out:
         write_atomic(out.path("x.txt"), lambda p: p.write_text("1"))
     assert (tmp_path / "jobs" / "2031" / "run" / "x.txt").read_text() == "1"

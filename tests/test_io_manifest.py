@@ -14,7 +14,7 @@ from shapely.geometry import box
 import fillstress
 from fillstress import InputError
 from fillstress.grid import GridSpec
-from fillstress.io import (ResultsFolder, build_manifest, sha256_file, write_geotiff,
+from fillstress.io import (ResultsWriter, build_manifest, sha256_file, write_geotiff,
                            write_manifest, write_points_geojson, write_stress_cube,
                            write_table_csv)
 from fillstress.io.netcdf import SLICE_DIMS
@@ -79,7 +79,7 @@ def test_naive_time_is_refused():
         build_manifest(settings={}, created=dt.datetime(2031, 1, 1))
 
 
-def _invented_run(out: ResultsFolder, units):
+def _invented_run(out: ResultsWriter, units):
     """A small results folder: a building's points, a slice raster and the cube."""
     grid = GridSpec(640.0, 310.0, 2.0, 2.0, nx=6, ny=4, crs="EPSG:32633")
     pts = building_points("Ropewalk", box(642, 312, 650, 316), 1.0, profile_depths=[3.0])
@@ -102,7 +102,7 @@ def _invented_run(out: ResultsFolder, units):
 
 
 def test_manifest_lists_every_output_and_checksums_hold_after_commit(tmp_path):
-    with ResultsFolder(tmp_path / "run") as out:
+    with ResultsWriter(tmp_path / "run") as out:
         _invented_run(out, SI)
     run = tmp_path / "run"
     manifest = json.loads((run / "manifest.json").read_text())
@@ -117,7 +117,7 @@ def test_report_reader_understands_the_written_folder(tmp_path):
     """Contract check: the report's reader (fillstress.io.results) reads our files."""
     from fillstress.io.results import ResultsFolder as Reader
 
-    with ResultsFolder(tmp_path / "run") as out:
+    with ResultsWriter(tmp_path / "run") as out:
         pts, slab, grid = _invented_run(out, SI)
     folder = Reader(tmp_path / "run")
     assert folder.units.pressure == "kPa"

@@ -17,7 +17,8 @@ import pytest
 from fillstress.errors import InputError
 from fillstress.report import write_report
 from fillstress.io.results import ResultsFolder
-from fillstress.report.html import SECTIONS, _fmt, esc
+from fillstress.report.html import SECTIONS, esc
+from fillstress.report.tables import _fmt
 from results_fixture import NASTY_ID, write_results_folder
 
 

@@ -1,4 +1,4 @@
-"""Write docs/api.md from the numpy docstrings of the public API.
+"""Write docs/api.md from the numpy docstrings of the public API (fillstress.__all__).
 
     python tools/write_api_reference.py
 
@@ -18,42 +18,39 @@ ROOT = Path(__file__).resolve().parents[1]
 TARGET = ROOT / "docs" / "api.md"
 COMMAND = "python tools/write_api_reference.py"
 
-# (section title, [dotted names]) in reading order.
-API = [
-    ("Load model", ["fillstress.LoadGrid", "fillstress.grid.GridSpec"]),
-    ("Stress", ["fillstress.vertical_stress", "fillstress.stress_slices",
-                "fillstress.solve.auto.stress_at_points"]),
-    ("Site files and runs", ["fillstress.site.build.load_site", "fillstress.run.compute.compute",
-                             "fillstress.run.compute.run_site_file", "fillstress.run.compute.check_site_file",
-                             "fillstress.run.batch.run_batch"]),
-    ("Soil", ["fillstress.soil.SoilLayer", "fillstress.soil.SoilProfile"]),
-    ("Settlement", ["fillstress.settlement.sublayers",
-                    "fillstress.settlement.consolidation_settlement",
-                    "fillstress.settlement.settlement_by_layer",
-                    "fillstress.settlement.converged_settlement",
-                    "fillstress.settlement.degree_of_consolidation",
-                    "fillstress.settlement.time_factor", "fillstress.settlement.time_to_degree",
-                    "fillstress.settlement.settlement_time_curve",
-                    "fillstress.settlement.stress_path", "fillstress.settlement.ramp_degree",
-                    "fillstress.settlement.secondary_compression",
-                    "fillstress.settlement.time_to_fraction",
-                    "fillstress.settlement.influence_depth"]),
-    ("Vertical drains", ["fillstress.drains.VerticalDrains", "fillstress.drains.hansbo_mu",
-                         "fillstress.drains.barron_f", "fillstress.drains.spacing_for_degree"]),
-    ("Structures", ["fillstress.structures.building_settlement",
-                    "fillstress.structures.pipe_settlement"]),
-    ("Receptors", ["fillstress.site.receptors.building_points", "fillstress.site.receptors.pipe_points",
-                   "fillstress.site.receptors.borehole_points", "fillstress.site.receptors.plan_grid"]),
-    ("Fill bodies", ["fillstress.shapes.footprints.footprint_thickness",
-                     "fillstress.shapes.footprints.sloping_footprint_thickness",
-                     "fillstress.shapes.footprints.read_footprints",
-                     "fillstress.shapes.stockpile.pile_thickness",
-                     "fillstress.shapes.embankment.embankment_thickness",
-                     "fillstress.io.surfaces.read_surface",
-                     "fillstress.shapes.surfaces.fill_from_surfaces",
-                     "fillstress.shapes.bodies.Body"]),
-    ("Errors", ["fillstress.errors.InputError", "fillstress.errors.CapacityError"]),
+# The reference documents exactly fillstress.__all__ (the public API), each name in the
+# section of the module that defines it; a public name from no listed module is an error.
+SECTIONS = [
+    ("Load model", ("fillstress.grid",)),
+    ("Stress", ("fillstress.solve",)),
+    ("Site files and runs", ("fillstress.site.build", "fillstress.run")),
+    ("Soil", ("fillstress.soil",)),
+    ("Settlement", ("fillstress.settlement",)),
+    ("Structures", ("fillstress.structures",)),
+    ("Receptors", ("fillstress.site.receptors",)),
+    ("Fill bodies", ("fillstress.shapes", "fillstress.io.surfaces")),
+    ("Report", ("fillstress.report",)),
+    ("Errors", ("fillstress.errors",)),
 ]
+
+
+def public_api() -> list[tuple[str, list[str]]]:
+    """(section title, ["fillstress.NAME", ...]) for every name of fillstress.__all__."""
+    _import_package()
+    import fillstress
+    sections = {title: [] for title, _ in SECTIONS}
+    for name in fillstress.__all__:
+        if name == "__version__":
+            continue
+        module = getattr(fillstress, name).__module__
+        title = next((t for t, prefixes in SECTIONS
+                      if any(module == p or module.startswith(p + ".") for p in prefixes)), None)
+        if title is None:
+            raise SystemExit(f"fillstress.{name} (from {module}) has no section in "
+                             f"tools/write_api_reference.py SECTIONS")
+        sections[title].append(f"fillstress.{name}")
+    return [(title, names) for title, names in sections.items() if names]
+
 
 LIST_SECTIONS = {"Parameters", "Other Parameters", "Returns", "Yields", "Raises", "Warns",
                  "Attributes"}
@@ -254,13 +251,13 @@ def entry_markdown(dotted: str) -> list[str]:
 
 def api_reference() -> str:
     """The text of docs/api.md, generated now."""
-    _import_package()
+    api = public_api()
     lines = [HEADER, "## Contents", ""]
-    for title, names in API:
+    for title, names in api:
         anchors = ", ".join(f"`{n.rsplit('.', 1)[1]}`" for n in names)
         lines.append(f"- {title}: {anchors}")
     lines.append("")
-    for title, names in API:
+    for title, names in api:
         lines += [f"## {title}", ""]
         for dotted in names:
             lines += entry_markdown(dotted)

@@ -1,9 +1,49 @@
-"""fillstress: vertical stress increase and settlement below fills on an elastic half-space."""
+"""fillstress: vertical stress increase and settlement below fills on an elastic half-space.
+
+The public API is the names in ``__all__`` (documented in docs/api.md, generated from it).
+The load model, the solvers and the errors load with the package; the rest loads on first
+use, so ``import fillstress`` stays quick.
+"""
 from __future__ import annotations
 
-from .errors import CapacityError, FillstressError, InputError
-from .grid import LoadGrid
+import importlib
+
 from ._version import __version__
+from .errors import CapacityError, FillstressError, InputError
+from .grid import GridSpec, LoadGrid
 from .solve import stress_slices, vertical_stress
 
-__all__ = ["LoadGrid", "vertical_stress", "stress_slices", "InputError", "FillstressError", "CapacityError", "__version__"]
+# Public name → the module that defines it (loaded on first access).
+_LAZY = {
+    "stress_at_points": "solve.auto",
+    "load_site": "site.build", "Site": "site.build",
+    "compute": "run.compute", "run_site_file": "run.compute",
+    "check_site_file": "run.compute", "point_stresses": "run.point", "run_batch": "run.batch",
+    "SoilLayer": "soil", "SoilProfile": "soil",
+    **dict.fromkeys(["sublayers", "consolidation_settlement", "settlement_by_layer",
+                     "converged_settlement", "degree_of_consolidation", "time_factor",
+                     "time_to_degree", "settlement_time_curve", "influence_depth"], "settlement"),
+    "building_settlement": "structures", "pipe_settlement": "structures",
+    **dict.fromkeys(["building_points", "pipe_points", "borehole_points", "plan_grid"],
+                    "site.receptors"),
+    **dict.fromkeys(["footprint_thickness", "sloping_footprint_thickness", "read_footprints"],
+                    "shapes.footprints"),
+    "pile_thickness": "shapes.stockpile", "embankment_thickness": "shapes.embankment",
+    "fill_from_surfaces": "shapes.surfaces", "read_surface": "io.surfaces",
+    "Body": "shapes.bodies", "write_report": "report",
+}
+
+__all__ = ["LoadGrid", "GridSpec", "vertical_stress", "stress_slices", *_LAZY,
+           "FillstressError", "InputError", "CapacityError", "__version__"]
+
+
+def __getattr__(name: str):
+    if name not in _LAZY:
+        raise AttributeError(f"module 'fillstress' has no attribute {name!r}")
+    value = getattr(importlib.import_module(f".{_LAZY[name]}", __name__), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__() -> list[str]:
+    return sorted(set(globals()) | set(__all__))

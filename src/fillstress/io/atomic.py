@@ -122,13 +122,13 @@ def _within(path: Path, folder: Path) -> bool:
     return path == folder or folder in path.parents
 
 
-class ResultsFolder:
+class ResultsWriter:
     """Build a results folder as a hidden sibling and rename it into place when complete.
 
     Use as a context manager. On a clean exit the folder is committed; on any exception
     the partial folder is deleted and an earlier folder of the same name is untouched.
     A run killed at any moment (SIGKILL included) leaves either the earlier folder or a
-    hidden ``.<name>.partial-*`` / ``.<name>.old-*`` beside it; the next ResultsFolder of
+    hidden ``.<name>.partial-*`` / ``.<name>.old-*`` beside it; the next ResultsWriter of
     that name puts the earlier folder back, removes the unfinished one and says so (a
     :class:`~fillstress.errors.FillstressWarning`, also kept in ``recovered``).
 
@@ -149,15 +149,15 @@ class ResultsFolder:
     --------
     >>> import tempfile, pathlib
     >>> root = pathlib.Path(tempfile.mkdtemp())
-    >>> with ResultsFolder(root / "run1") as out:
+    >>> with ResultsWriter(root / "run1") as out:
     ...     _ = out.path("slices/a.txt").write_text("1")
     >>> sorted(p.relative_to(root).as_posix() for p in root.rglob("*"))
     ['run1', 'run1/slices', 'run1/slices/a.txt']
-    >>> ResultsFolder(root / "run1")  # doctest: +ELLIPSIS
+    >>> ResultsWriter(root / "run1")  # doctest: +ELLIPSIS
     Traceback (most recent call last):
     ...
     fillstress.errors.InputError: .../run1: results folder exists; pass --overwrite or choose another
-    >>> ResultsFolder(root / "run1", overwrite=True)  # doctest: +ELLIPSIS
+    >>> ResultsWriter(root / "run1", overwrite=True)  # doctest: +ELLIPSIS
     Traceback (most recent call last):
     ...
     fillstress.errors.InputError: .../run1: is not a fillstress results folder ...
@@ -194,7 +194,7 @@ class ResultsFolder:
         if not is_results_folder(self.final) and any(self.final.iterdir()):
             raise InputError(NOT_RESULTS_MESSAGE, file=self.final)
 
-    def __enter__(self) -> "ResultsFolder":
+    def __enter__(self) -> "ResultsWriter":
         try:
             self.final.parent.mkdir(parents=True, exist_ok=True)
             self.root.mkdir()
@@ -209,7 +209,7 @@ class ResultsFolder:
         """The path of `relative` (POSIX-style, e.g. ``"vtk/pipes.vtp"``) inside the folder
         being built; sub-folders are created. Write through :func:`write_atomic`."""
         if not self._open:
-            raise RuntimeError("ResultsFolder.path() is only valid inside the with-block")
+            raise RuntimeError("ResultsWriter.path() is only valid inside the with-block")
         rel = PurePosixPath(str(relative).replace(os.sep, "/"))
         if rel.is_absolute() or not rel.parts or ".." in rel.parts:
             raise InputError(f"must be a relative path inside the results folder, got "

@@ -21,7 +21,7 @@ from ..crs import as_crs
 from ..errors import InputError
 from ..grid import GridSpec
 from ..units import SI, UnitSystem
-from .atomic import ResultsFolder, write_atomic
+from .atomic import ResultsWriter, write_atomic
 from .tables import crs_unit_label, plan_unit
 
 MANIFEST_NAME = "manifest.json"
@@ -158,7 +158,7 @@ def build_manifest(*, settings: Mapping, units: UnitSystem = SI, inputs: Iterabl
 def write_manifest(folder, **fields) -> Path:
     """Checksum every file already in `folder`, then write ``folder/manifest.json``.
 
-    `folder` is a path or a :class:`~fillstress.io.atomic.ResultsFolder` (its folder being
+    `folder` is a path or a :class:`~fillstress.io.atomic.ResultsWriter` (its folder being
     assembled); `fields` are those of :func:`build_manifest` except ``outputs``.
 
     Examples
@@ -170,7 +170,7 @@ def write_manifest(folder, **fields) -> Path:
     >>> list(m["outputs"])
     ['bodies.csv']
     """
-    root = folder.root if isinstance(folder, ResultsFolder) else Path(os.fspath(folder))
+    root = folder.root if isinstance(folder, ResultsWriter) else Path(os.fspath(folder))
     if not root.is_dir():
         raise InputError("results folder does not exist", file=root)
     if "outputs" in fields:

@@ -234,5 +234,4 @@ def point_influence(radius, depth, method="boussinesq", poisson=None):
 
 
 __all__ = ["METHODS", "KernelSpec", "resolve_method", "rectangle_influence",
-           "point_influence", "shared_corner", "fast_atan", "corner_angle", "boussinesq",
-           "westergaard"]
+           "point_influence", "boussinesq", "westergaard"]

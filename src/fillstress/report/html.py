@@ -20,7 +20,6 @@ from ..io.results import ResultsFolder, UnitLabels
 from . import figures
 from .labels import heading, unit_text
 from .tables import (
-    _fmt,
     esc,
     frame_table,
     html_table,
@@ -35,7 +34,7 @@ from .tables import (
 )
 
 __all__ = ["SECTIONS", "write_report", "esc", "html_table", "frame_table", "json_block",
-           "is_flag_column", "_fmt"]
+           "is_flag_column"]
 
 SECTIONS = (
     ("site", "Site and job"),

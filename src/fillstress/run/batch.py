@@ -23,7 +23,7 @@ import pandas as pd
 
 from .._version import __version__
 from ..errors import InputError
-from ..io.atomic import ResultsFolder
+from ..io.atomic import ResultsWriter
 from ..io.manifest import write_manifest
 from ..io.tables import write_table_csv
 from ..progress import silent
@@ -176,7 +176,7 @@ def run_batch(site_path, variants_path, out, *, overwrite=False, report=False,
     site = load_site(site_path)
     variants = read_variants(variants_path, site.units)
     out = Path(out) if out else Path(f"results-{Path(site_path).stem}-batch")
-    folder = ResultsFolder(out, overwrite=overwrite,
+    folder = ResultsWriter(out, overwrite=overwrite,
                            protect=site.config.input_files() + [Path(variants_path)])
     sites = [apply_variant(site, v) for v in variants]
     notes = validate_run(site)
