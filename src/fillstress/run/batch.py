@@ -177,7 +177,7 @@ def run_batch(site_path, variants_path, out, *, overwrite=False, report=False,
     variants = read_variants(variants_path, site.units)
     out = Path(out) if out else Path(f"results-{Path(site_path).stem}-batch")
     folder = ResultsWriter(out, overwrite=overwrite,
-                           protect=site.config.input_files() + [Path(variants_path)])
+                           protect=[*site.input_files, Path(variants_path)])
     sites = [apply_variant(site, v) for v in variants]
     notes = validate_run(site)
     cluster = cluster_choice(workers, scheduler, notes)

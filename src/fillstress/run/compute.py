@@ -192,7 +192,7 @@ def run_site_file(path, out=None, *, overwrite=False, report=True, progress=sile
     site = load_site(path)
     out = Path(out) if out else Path(f"results-{Path(path).stem}")
     # refuses now an existing folder, one that is not a results folder or holds an input
-    folder = ResultsWriter(out, overwrite=overwrite, protect=site.config.input_files())
+    folder = ResultsWriter(out, overwrite=overwrite, protect=list(site.input_files))
     notes = validate_run(site)                            # refuses, with numbers, before work
     cluster = cluster_choice(workers, scheduler, notes)
     if cluster:
