@@ -40,3 +40,20 @@ def test_slices_over_the_cap_are_tiled_with_the_same_values(tmp_path):
     b = compute(capped).slices["pad"]
     np.testing.assert_allclose(b.values, a.values, rtol=0, atol=1e-10 * float(abs(a).max()))
     assert b.dims == a.dims and np.array_equal(b.x, a.x) and np.array_equal(b.y, a.y)
+
+
+def test_the_estimate_pads_the_slices_as_the_solver_does():
+    """Pad-to-cells is one rule: 2.1 m on 0.3 m cells is 7 cells (2.1 / 0.3 is
+    7.000000000000001 in floating point; a bare ceil gives 8)."""
+    from types import SimpleNamespace
+
+    from fillstress import LoadGrid
+    from fillstress.grid import GridSpec
+    from fillstress.run.plan import _pad_cells, plan_pad
+    from fillstress.solve.slices import slice_setup
+
+    site = SimpleNamespace(spec=GridSpec(0.0, 0.0, 0.3, 0.3, 10, 10))
+    plan = SimpleNamespace(xmin=-2.1, ymin=0.0, xmax=3.0, ymax=3.0)
+    grid = LoadGrid(np.ones((10, 10)), 0.0, 0.0, 0.3, 0.3)
+    solver = slice_setup(grid, [1.0], pad=plan_pad(site, plan))[1]["pad_cells"]
+    assert _pad_cells(site, plan) == solver == (7, 7)

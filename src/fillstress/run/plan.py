@@ -5,12 +5,11 @@ throughputs measured on a 2-core machine); this module only counts the site's wo
 """
 from __future__ import annotations
 
-import math
-
 from ..settlement import sublayers
 from ..solve.auto import choose_algorithm, direct_work
 from ..solve.cost import (Estimate, check_capacity, estimate_points, estimate_slices,
                           format_bytes, memory_cap_bytes)
+from ..solve.slices import pad_cells
 
 
 def memory_cap(site) -> float:
@@ -35,8 +34,7 @@ def plan_pad(site, plan) -> float:
 
 
 def _pad_cells(site, plan) -> tuple[int, int]:
-    pad = plan_pad(site, plan)
-    return (math.ceil(pad / site.spec.dx), math.ceil(pad / site.spec.dy))
+    return pad_cells(plan_pad(site, plan), site.spec.dx, site.spec.dy)
 
 
 def run_estimates(site) -> list[Estimate]:

@@ -214,6 +214,18 @@ def slice_lattice(grid, pad_cells, offset) -> tuple[np.ndarray, np.ndarray]:
     return x, y
 
 
+def pad_cells(pad: float, dx: float, dy: float) -> tuple[int, int]:
+    """Whole cells (x, y) that cover a padding of `pad` m: rounded up, except that a pad
+    within round-off of a whole number of cells is that number.
+
+    Examples
+    --------
+    >>> pad_cells(2.1, 0.3, 0.3), pad_cells(2.2, 0.3, 1.0)   # 2.1 / 0.3 = 7.000000000000001
+    ((7, 7), (8, 3))
+    """
+    return (int(math.ceil(round(pad / dx, 9))), int(math.ceil(round(pad / dy, 9))))
+
+
 def slice_setup(grid, depths, method="boussinesq", poisson=None, *, offset=(0.0, 0.0), pad=0.0):
     """Validate the arguments of a slice run (:func:`stress_slices` and its tiled and Dask
     variants) and lay out its sample lattice.
@@ -236,10 +248,10 @@ def slice_setup(grid, depths, method="boussinesq", poisson=None, *, offset=(0.0,
     pad = finite(pad, "pad")
     if pad < 0:
         raise InputError(f"must be >= 0 m, got {pad!r}", argument="pad")
-    pad_cells = (int(math.ceil(round(pad / grid.dx, 9))), int(math.ceil(round(pad / grid.dy, 9))))
-    x, y = slice_lattice(grid, pad_cells, (ox, oy))
+    cells = pad_cells(pad, grid.dx, grid.dy)
+    x, y = slice_lattice(grid, cells, (ox, oy))
     return grid, {"depth": z, "y": y, "x": x, "spec": spec, "offset": (ox, oy),
-                  "pad_cells": pad_cells}
+                  "pad_cells": cells}
 
 
 def slice_array(values: np.ndarray, frame) -> xr.DataArray:
