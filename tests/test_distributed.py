@@ -6,13 +6,12 @@ import sys
 
 import cloudpickle
 import numpy as np
-import pandas as pd
 import pytest
 import xarray as xr
 from distributed import Client, LocalCluster
 
 from fillstress import InputError, LoadGrid
-from fillstress.solve.distributed import (distributed_points, distributed_slices, envelope,
+from fillstress.solve.distributed import (distributed_points, distributed_slices,
                                     map_variants)
 from fillstress.solve.auto import stress_at_points
 from fillstress.solve.slices import stress_slices
@@ -101,32 +100,6 @@ def test_map_variants_serial_and_dask_agree(client):
     spread = map_variants(peak, [0.5, 1.0, 2.0], client=client)
     for a, b in zip(serial, spread):
         np.testing.assert_array_equal(a, b)
-    np.testing.assert_array_equal(envelope(spread), np.maximum.reduce(serial))
-
-
-def test_envelope_of_arrays_frames_and_cubes():
-    a = np.array([[1.0, -5.0], [2.0, 8.0]])
-    b = np.array([[3.0, -7.0], [0.0, 9.0]])
-    assert envelope([a, b]).tolist() == [[3.0, -5.0], [2.0, 9.0]]
-    cube = lambda v: xr.DataArray(v, dims=("y", "x"), coords={"y": [0, 1], "x": [0, 1]},  # noqa: E731
-                                  attrs={"units": "kPa"})
-    env = envelope([cube(a), cube(b)])
-    assert env.values.tolist() == [[3.0, -5.0], [2.0, 9.0]] and env.attrs["units"] == "kPa"
-    f1 = pd.DataFrame({"receptor_id": ["P1", "P2"], "dsz_kPa": [4.0, 1.0]})
-    f2 = pd.DataFrame({"receptor_id": ["P1", "P2"], "dsz_kPa": [2.0, 6.0]})
-    out = envelope([f1, f2])
-    assert out["receptor_id"].tolist() == ["P1", "P2"] and out["dsz_kPa"].tolist() == [4.0, 6.0]
-
-
-def test_envelope_refuses_mismatched_variants():
-    with pytest.raises(InputError, match="one shape"):
-        envelope([np.zeros(3), np.zeros(4)])
-    with pytest.raises(InputError, match="NaN"):
-        envelope([np.zeros(2), np.array([1.0, np.nan])])
-    with pytest.raises(InputError, match="differs"):
-        envelope([pd.DataFrame({"id": ["a"], "v": [1.0]}), pd.DataFrame({"id": ["b"], "v": [2.0]})])
-    with pytest.raises(InputError, match="at least one"):
-        envelope([])
 
 
 def _die_always(value):

@@ -30,9 +30,6 @@ from pyproj.database import query_utm_crs_info
 
 from .errors import InputError
 
-SiteCRS = tuple  # (pyproj.CRS, metres_per_unit)
-
-
 def as_crs(crs_like, argument: str = "crs") -> pyproj.CRS:
     """Parse anything pyproj accepts ('EPSG:32633', WKT, pyproj.CRS) or raise InputError.
 

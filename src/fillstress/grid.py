@@ -4,7 +4,6 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
-from affine import Affine
 
 from ._validate import finite, finite_array, positive
 from .errors import InputError
@@ -138,15 +137,6 @@ class LoadGrid(_Lattice):
             raise InputError("grids to add must share origin, cell size and shape", argument="other")
         return self.with_pressure(self.pressure + other.pressure)
 
-    def cropped(self) -> "LoadGrid":
-        """The smallest sub-grid holding every non-zero cell (one zero cell if all are zero)."""
-        rows = np.flatnonzero(np.any(self.pressure != 0, axis=1))
-        cols = np.flatnonzero(np.any(self.pressure != 0, axis=0))
-        if rows.size == 0:
-            return LoadGrid(np.zeros((1, 1)), self.x0, self.y0, self.dx, self.dy, self.crs)
-        j0, j1, i0, i1 = rows[0], rows[-1] + 1, cols[0], cols[-1] + 1
-        return LoadGrid(self.pressure[j0:j1, i0:i1], self.x0 + i0 * self.dx,
-                        self.y0 + j0 * self.dy, self.dx, self.dy, self.crs)
 
 
 @dataclass(frozen=True)
@@ -208,7 +198,3 @@ class GridSpec(_Lattice):
         """The same extent with cells `factor` times smaller (convergence checks)."""
         return GridSpec(self.x0, self.y0, self.dx / factor, self.dy / factor,
                         self.nx * factor, self.ny * factor, self.crs)
-
-    def rasterio_transform(self):
-        """Affine transform of a north-up raster of this lattice (row 0 = northern row)."""
-        return Affine(self.dx, 0.0, self.x0, 0.0, -self.dy, self.y0 + self.ny * self.dy)

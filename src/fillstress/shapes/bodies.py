@@ -107,10 +107,6 @@ class Body:
             return float(self.max_height_m)
         return float(np.abs(self.thickness).max())
 
-    def signed_thickness(self) -> np.ndarray:
-        """Thickness (m) with the sign of the load: negative for an excavation."""
-        return self.sign * self.thickness
-
     @property
     def pressure(self) -> np.ndarray:
         """Surface pressure (kPa) of this body: ±γ·t."""

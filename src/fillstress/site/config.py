@@ -17,8 +17,6 @@ from .._validate import regular_file
 from ..errors import InputError
 from ..units import UnitSystem, unit_system
 
-_ANGLE_OK = {schema.ANGLE, schema.NONE}
-
 
 @dataclass
 class SiteConfig:

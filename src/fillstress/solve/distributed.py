@@ -5,12 +5,6 @@ functions the serial path runs, on the same pieces, so the numbers are the same.
 worker lost mid-task is not fatal: the scheduler runs the task again elsewhere (Dask's
 ``distributed.scheduler.allowed-failures``, 3 by default), and ``retries`` re-runs tasks
 that raised.
-
-Examples
---------
->>> import numpy as np
->>> envelope([np.array([1.0, 5.0]), np.array([3.0, 2.0])]).tolist()
-[3.0, 5.0]
 """
 from __future__ import annotations
 
@@ -20,7 +14,6 @@ from dataclasses import replace
 from typing import NamedTuple
 
 import numpy as np
-import pandas as pd
 import xarray as xr
 
 from .._validate import whole_number
@@ -235,72 +228,5 @@ def map_variants(fn, variants, client=None, *, retries=DEFAULT_RETRIES, progress
     return _gather(client, futures, "variants (Dask)", progress)
 
 
-def envelope(frames_or_arrays):
-    """Element-wise maximum over variants: numpy arrays, xarray objects or pandas frames.
-
-    All items must have the same shape (and, for xarray and pandas, the same
-    coordinates / index and columns).  pandas columns that are not numeric (ids,
-    labels) must be equal in every variant and are kept as they are.
-
-    Examples
-    --------
-    >>> import pandas as pd
-    >>> a = pd.DataFrame({"receptor_id": ["B1", "B2"], "dsz_kPa": [10.0, 4.0]})
-    >>> b = pd.DataFrame({"receptor_id": ["B1", "B2"], "dsz_kPa": [7.0, 6.0]})
-    >>> envelope([a, b])["dsz_kPa"].tolist()
-    [10.0, 6.0]
-    """
-    items = list(frames_or_arrays)
-    if not items:
-        raise InputError("needs at least one variant", argument="frames_or_arrays")
-    first = items[0]
-    if isinstance(first, (xr.DataArray, xr.Dataset)):
-        return _envelope_xarray(items)
-    if hasattr(first, "select_dtypes") or type(first).__name__ == "Series":
-        return _envelope_pandas(items)
-    arrays = [np.asarray(a) for a in items]
-    if any(a.shape != arrays[0].shape for a in arrays):
-        raise InputError(f"all variants must have one shape, got {sorted({a.shape for a in arrays})}",
-                         argument="frames_or_arrays")
-    if any(np.isnan(a).any() for a in arrays if a.dtype.kind == "f"):
-        raise InputError("a variant holds NaN", argument="frames_or_arrays")
-    return np.maximum.reduce(arrays)
-
-
-def _envelope_xarray(items):
-    try:
-        aligned = xr.align(*items, join="exact")
-    except ValueError as exc:
-        raise InputError(f"variants must share coordinates ({exc})".splitlines()[0],
-                         argument="frames_or_arrays") from None
-    stacked = xr.concat(aligned, dim="variant")
-    if bool(stacked.isnull().any()) if isinstance(stacked, xr.DataArray) else any(
-            bool(v.isnull().any()) for v in stacked.data_vars.values()):
-        raise InputError("a variant holds NaN", argument="frames_or_arrays")
-    return stacked.max("variant", keep_attrs=True)
-
-
-def _envelope_pandas(items):
-    first = items[0]
-    for other in items[1:]:
-        if type(other) is not type(first) or not other.index.equals(first.index) or (
-                hasattr(first, "columns") and not other.columns.equals(first.columns)):
-            raise InputError("variants must share index and columns", argument="frames_or_arrays")
-    if isinstance(first, pd.Series):
-        return pd.concat(items, axis=1).max(axis=1, skipna=False).rename(first.name)
-    numeric = first.select_dtypes("number").columns
-    out = first.copy()
-    for col in first.columns:
-        if col in numeric:
-            values = pd.concat([f[col] for f in items], axis=1)
-            if values.isna().any().any():
-                raise InputError(f"a variant holds NaN in column {col!r}", argument="frames_or_arrays")
-            out[col] = values.max(axis=1)
-        elif not all(f[col].equals(first[col]) for f in items[1:]):
-            raise InputError(f"non-numeric column {col!r} differs between variants",
-                             argument="frames_or_arrays")
-    return out
-
-
-__all__ = ["connect", "distributed_points", "distributed_slices", "map_variants", "envelope",
+__all__ = ["connect", "distributed_points", "distributed_slices", "map_variants",
            "DEFAULT_RETRIES"]
