@@ -1,11 +1,13 @@
-"""Slow, obviously-correct numpy references for the stress engine (no numba).
+"""Slow, obviously-correct references for every fast path (no numba).
 
-Every fast path (numba node and cell kernels, FFT slices) is compared with these.
+Every fast path (numba node and cell kernels, FFT slices, tiles, Dask, cell coverage) is
+compared with these.
 The formulas are written out again here on purpose instead of importing the kernels.
 """
 from __future__ import annotations
 
 import numpy as np
+import shapely
 
 
 def eta(poisson: float) -> float:
@@ -91,3 +93,21 @@ def terzaghi_excess_pore_pressure(z_over_h, tv, terms: int = 200):
         big_m = np.pi * (2 * m + 1) / 2.0
         total = total + 2.0 / big_m * np.sin(big_m * z) * np.exp(-big_m**2 * np.asarray(tv))
     return total
+
+
+def coverage(geom, spec):
+    """Covered fraction of every cell: one shapely intersection per cell over the grid."""
+    out = spec.zeros()
+    for j in range(spec.ny):
+        for i in range(spec.nx):
+            x0, y0 = spec.x0 + i * spec.dx, spec.y0 + j * spec.dy
+            out[j, i] = shapely.box(x0, y0, x0 + spec.dx, y0 + spec.dy).intersection(geom).area
+    return out / spec.cell_area
+
+
+def slice_stress(grid, da, method="boussinesq", poisson=None):
+    """Δσz (kPa) at every node of a slice DataArray (depth, y, x), point by point."""
+    z, y, x = np.meshgrid(da["depth"].values, da["y"].values, da["x"].values, indexing="ij")
+    pts = np.column_stack([x.ravel(), y.ravel(), z.ravel()])
+    return grid_stress(grid.pressure, grid.x0, grid.y0, grid.dx, grid.dy, pts, method,
+                       poisson).reshape(z.shape)

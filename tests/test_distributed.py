@@ -10,6 +10,7 @@ import pytest
 import xarray as xr
 from distributed import Client, LocalCluster
 
+import reference
 from fillstress import InputError, LoadGrid
 from fillstress.solve.distributed import (distributed_points, distributed_slices,
                                     map_variants)
@@ -119,3 +120,18 @@ def test_fillstress_cluster_retries_a_killed_worker_then_fails_in_one_line(tmp_p
             map_variants(_die_always, [1], client=c)   # kills every worker it reaches
     assert f"lost a worker {ALLOWED_FAILURES} times" in str(err.value)
     assert "\n" not in str(err.value)
+
+
+def test_dask_points_and_slices_match_the_slow_reference(client):
+    grid = LoadGrid(_grid().pressure[:9, :11], 5000.0, 800.0, 1.5, 2.0)
+    rng = np.random.default_rng(13)
+    pts = np.column_stack([rng.uniform(4995, 5025, 40), rng.uniform(795, 825, 40),
+                           rng.uniform(0.1, 10.0, 40)])
+    got = distributed_points(grid, pts, "westergaard", 0.2, client=client, chunk_size=7)
+    want = reference.grid_stress(grid.pressure, grid.x0, grid.y0, grid.dx, grid.dy, pts,
+                                 "westergaard", 0.2)
+    np.testing.assert_allclose(got, want, rtol=1e-12, atol=1e-9)
+    for tile in (None, (4, 5)):          # one task per depth, or per tile
+        da = distributed_slices(grid, [0.5, 3.0], client=client, pad=2.0, tile=tile)
+        np.testing.assert_allclose(da.values, reference.slice_stress(grid, da), rtol=0,
+                                   atol=1e-9)

@@ -3,6 +3,7 @@ import numpy as np
 import pytest
 import shapely
 
+import reference
 from fillstress.errors import InputError
 from fillstress.grid import GridSpec
 from fillstress.shapes.coverage import cell_average, coverage_fraction, tin_cell_average
@@ -13,22 +14,12 @@ def _ring_with_hole():
     return shapely.Point(3.3, -1.7).buffer(9.0).difference(shapely.box(1.1, -3.2, 4.9, 0.4))
 
 
-def _reference_coverage(geom, spec):
-    """One shapely intersection per cell over the whole grid."""
-    out = spec.zeros()
-    for j in range(spec.ny):
-        for i in range(spec.nx):
-            x0, y0 = spec.x0 + i * spec.dx, spec.y0 + j * spec.dy
-            out[j, i] = shapely.box(x0, y0, x0 + spec.dx, y0 + spec.dy).intersection(geom).area
-    return out / spec.cell_area
-
-
 @pytest.mark.parametrize("cell", [0.9, 2.7])
 def test_coverage_matches_per_cell_loop_and_area(cell):
     geom = _ring_with_hole()
     spec = GridSpec.covering(geom.bounds, cell, margin=1.0)
     cov = coverage_fraction(geom, spec)
-    np.testing.assert_allclose(cov, _reference_coverage(geom, spec), atol=1e-12)
+    np.testing.assert_allclose(cov, reference.coverage(geom, spec), atol=1e-12)
     assert cov.sum() * spec.cell_area == pytest.approx(geom.area, rel=1e-12)
     assert cov.min() >= 0 and cov.max() <= 1
 
@@ -36,7 +27,7 @@ def test_coverage_matches_per_cell_loop_and_area(cell):
 def test_multipolygon_and_rectangular_cells():
     geom = shapely.MultiPolygon([shapely.box(0.2, 0.3, 3.1, 2.2), shapely.box(5.0, 4.0, 7.5, 6.4)])
     spec = GridSpec(0.0, 0.0, 0.7, 1.3, 12, 6)
-    np.testing.assert_allclose(coverage_fraction(geom, spec), _reference_coverage(geom, spec),
+    np.testing.assert_allclose(coverage_fraction(geom, spec), reference.coverage(geom, spec),
                                atol=1e-12)
 
 

@@ -6,9 +6,9 @@ import tracemalloc
 import numpy as np
 import pytest
 
+import reference
 from fillstress import CapacityError, InputError, LoadGrid
 from fillstress.progress import silent
-from fillstress.solve.direct import vertical_stress
 from fillstress.solve.slices import stress_slices
 from fillstress.solve.tiled import tiled_slices
 
@@ -35,12 +35,12 @@ def test_tiled_equals_untiled_to_roundoff(kwargs, tile):
     assert tiled.attrs == whole.attrs
 
 
-def test_tiled_slices_match_direct_summation_at_the_samples():
+@pytest.mark.parametrize("method, poisson", [("boussinesq", None), ("westergaard", 0.25)])
+def test_tiled_slices_match_the_slow_reference_at_the_samples(method, poisson):
     grid = _grid(5, 20, 24)
-    s = tiled_slices(grid, [2.5], pad=3.0, tile=(7, 9))
-    xx, yy = np.meshgrid(s.x.values, s.y.values)
-    pts = np.column_stack([xx.ravel(), yy.ravel(), np.full(xx.size, 2.5)])
-    np.testing.assert_allclose(s.values[0].ravel(), vertical_stress(grid, pts), atol=1e-9)
+    s = tiled_slices(grid, [0.7, 2.5], method, poisson, pad=3.0, tile=(7, 9))
+    np.testing.assert_allclose(s.values, reference.slice_stress(grid, s, method, poisson),
+                               rtol=0, atol=1e-9)
 
 
 def test_memory_cap_picks_tiles_and_counts_progress():
