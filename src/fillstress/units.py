@@ -15,11 +15,16 @@ US_SURVEY_FOOT = 1200.0 / 3937.0
 _LBF_KN = 0.45359237 * 9.80665 / 1000.0          # kN per pound-force
 PSF_KPA = _LBF_KN / FOOT**2                        # 0.0478802589...
 PCF_KN_M3 = _LBF_KN / FOOT**3                      # 0.1570874638...
+KIP_KN = 1000.0 * PSF_KPA * FOOT**2                # 1 kip = 1000 lbf; lbf = psf × ft²
+
+#: Physical quantities a value can carry; ``None`` elsewhere marks a dimensionless one.
+QUANTITIES = ("length", "area", "volume", "pressure", "unit_weight", "settlement", "force")
 
 
 @dataclass(frozen=True)
 class UnitSystem:
-    """Labels and factors to SI for one unit system; `to_si` multiplies."""
+    """Labels and factors to SI for one unit system. :meth:`unit` is the one unit table:
+    every conversion in the readers and writers goes through it."""
 
     name: str
     length: str
@@ -31,23 +36,54 @@ class UnitSystem:
     unit_weight_to_kn_m3: float
     settlement_to_m: float
 
+    def unit(self, quantity: str) -> tuple[str, float]:
+        """(label, SI value of one unit) of `quantity` in this system.
+
+        Examples
+        --------
+        >>> US.unit("volume"), SI.unit("force")
+        (('ft3', 0.028316846592000004), ('kN', 1.0))
+        """
+        L = self.length_to_m
+        table = {
+            "length": (self.length, L),
+            "area": (f"{self.length}2", L**2),
+            "volume": (f"{self.length}3", L**3),
+            "pressure": (self.pressure, self.pressure_to_kpa),
+            "unit_weight": (self.unit_weight, self.unit_weight_to_kn_m3),
+            "settlement": (self.settlement, self.settlement_to_m),
+            "force": ("kip", KIP_KN) if self.name == "US" else ("kN", 1.0),
+        }
+        if quantity not in table:
+            raise InputError(f"unknown quantity {quantity!r}; use one of {', '.join(table)}",
+                             argument="quantity")
+        return table[quantity]
+
+    def to_si(self, v, quantity: str):
+        """`v` given in this system's unit of `quantity` → SI."""
+        return v * self.unit(quantity)[1]
+
+    def out(self, v_si, quantity: str):
+        """SI `v_si` → this system's unit of `quantity`."""
+        return v_si / self.unit(quantity)[1]
+
     def length_si(self, v):
-        return v * self.length_to_m
+        return self.to_si(v, "length")
 
     def pressure_si(self, v):
-        return v * self.pressure_to_kpa
+        return self.to_si(v, "pressure")
 
     def unit_weight_si(self, v):
-        return v * self.unit_weight_to_kn_m3
+        return self.to_si(v, "unit_weight")
 
     def length_out(self, v_m):
-        return v_m / self.length_to_m
+        return self.out(v_m, "length")
 
     def pressure_out(self, v_kpa):
-        return v_kpa / self.pressure_to_kpa
+        return self.out(v_kpa, "pressure")
 
     def settlement_out(self, v_m):
-        return v_m / self.settlement_to_m
+        return self.out(v_m, "settlement")
 
 
 SI = UnitSystem("SI", "m", "kPa", "kN/m3", "mm", 1.0, 1.0, 1.0, 1e-3)

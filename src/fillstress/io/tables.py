@@ -18,7 +18,7 @@ import shapely
 
 from ..crs import as_crs, site_crs
 from ..errors import InputError
-from ..units import FOOT, PSF_KPA, SI, UnitSystem
+from ..units import QUANTITIES, SI, UnitSystem
 from .atomic import write_atomic
 
 # geopandas (GDAL) is imported inside the functions that use it: it is slow to load and
@@ -38,7 +38,6 @@ DEFAULT_QUANTITIES: dict[str, str | None] = {
     "total_load": "force",
     **dict.fromkeys(["n_points", "stress_ratio", "angular_distortion", "stage"], None),
 }
-_KIP_KN = 1000.0 * PSF_KPA * FOOT**2  # 1 kip = 1000 lbf; lbf = psf × ft²
 _CRS_UNIT_LABELS = {"metre": "m", "foot": "ft", "US survey foot": "ftUS"}
 
 
@@ -89,20 +88,10 @@ def _unit(units: UnitSystem, quantity: str, crs=None) -> tuple[str, float]:
     """(label, SI value of one output unit)."""
     if quantity == "plan":
         return plan_unit(crs, units)
-    L = units.length_to_m
-    table = {
-        "length": (units.length, L),
-        "area": (f"{units.length}2", L**2),
-        "volume": (f"{units.length}3", L**3),
-        "pressure": (units.pressure, units.pressure_to_kpa),
-        "unit_weight": (units.unit_weight, units.unit_weight_to_kn_m3),
-        "settlement": (units.settlement, units.settlement_to_m),
-        "force": ("kip", _KIP_KN) if units.name == "US" else ("kN", 1.0),
-    }
-    if quantity not in table:
+    if quantity not in QUANTITIES:
         raise InputError(f"unknown quantity {quantity!r}; use plan or one of "
-                         f"{', '.join(table)}", argument="quantities")
-    return table[quantity]
+                         f"{', '.join(QUANTITIES)}", argument="quantities")
+    return units.unit(quantity)
 
 
 def unit_label(units: UnitSystem, quantity: str, crs=None) -> str:
