@@ -298,7 +298,7 @@ def test_read_layer_errors(tmp_path):
         read_receptor_layer(tmp_path / "absent.geojson", "pipe")
     bad = tmp_path / "bad.geojson"
     bad.write_text("{not json")
-    with pytest.raises(InputError, match="cannot read"):
+    with pytest.raises(InputError, match="cannot be read"):
         read_receptor_layer(bad, "pipe")
     empty = tmp_path / "empty.geojson"
     empty.write_text('{"type": "FeatureCollection", "features": []}')

@@ -11,7 +11,8 @@ from fillstress.errors import InputError
 from fillstress.grid import GridSpec
 from fillstress.shapes.bodies import (MAX_DEFAULT_CELLS, Body, choose_cell, refine,
                                      stage_pressure)
-from fillstress.shapes.footprints import footprint_thickness, read_footprints
+from fillstress.io.footprints import read_footprints
+from fillstress.shapes.footprints import footprint_thickness
 
 SPEC = GridSpec(0.0, 0.0, 1.0, 1.0, 10, 8)
 
@@ -177,7 +178,7 @@ BOWTIE = [[0, 0], [10, 10], [10, 0], [0, 10], [0, 0]]
 
 @pytest.mark.parametrize("make, kwargs, message", [
     (lambda p: p / "missing.geojson", {}, "file not found"),
-    (lambda p: (p / "broken.geojson").write_text("{not json") or p / "broken.geojson", {},
+    (lambda p: (p / "broken.geojson").write_text("{not json") and p / "broken.geojson", {},
      "cannot be read"),
     (lambda p: _geojson(p, "nofeat.geojson", []), {}, "no features"),
     (lambda p: _geojson(p, "noh.geojson", [_feature(SQUARE, name="a")]), {},

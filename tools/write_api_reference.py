@@ -28,7 +28,7 @@ SECTIONS = [
     ("Settlement", ("fillstress.settlement",)),
     ("Structures", ("fillstress.structures",)),
     ("Receptors", ("fillstress.site.receptors",)),
-    ("Fill bodies", ("fillstress.shapes", "fillstress.io.surfaces")),
+    ("Fill bodies", ("fillstress.shapes", "fillstress.io.surfaces", "fillstress.io.footprints")),
     ("Report", ("fillstress.report",)),
     ("Errors", ("fillstress.errors",)),
 ]

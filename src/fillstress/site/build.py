@@ -22,11 +22,12 @@ from shapely.geometry import LineString, Point, Polygon
 from .. import crs as crsmod
 from ..errors import InputError
 from ..grid import GridSpec, LoadGrid
+from ..io.footprints import read_footprints
 from ..io.surfaces import read_surface
+from ..io.vectors import read_vector, select, to_site
 from ..shapes import footprints as fp
 from ..shapes.bodies import Body, choose_cell, stage_pressure
 from ..shapes.embankment import embankment_thickness
-from ..shapes.footprints import read_footprints
 from ..shapes.stockpile import pile_thickness
 from ..shapes.surfaces import CutReport, fill_from_surfaces
 from ..soil import SoilLayer, SoilProfile
@@ -317,49 +318,8 @@ def _outline_from(ctx: _Context, raw: dict, where: str, line: bool = False):
 
 
 def _read_vector(ctx: _Context, path: Path, id_field: str, where, geom_type: str):
-    import geopandas as gpd
-    try:
-        frame = gpd.read_file(path)
-    except Exception as exc:  # pyogrio raises several types for unreadable files
-        raise InputError(f"cannot read vector file ({exc})", file=path) from None
-    if frame.empty:
-        raise InputError("the layer has no features", file=path)
-    frame = _select(frame, id_field, where, path)
-    kinds = set(frame.geometry.geom_type)
-    if not kinds <= {geom_type, "Multi" + geom_type}:
-        raise InputError(f"expected {geom_type} features, found {', '.join(sorted(kinds))}",
-                         file=path)
-    bad = ~frame.geometry.is_valid
-    if bad.any():
-        reason = shapely.is_valid_reason(frame.geometry[bad].iloc[0])
-        raise InputError(f"{int(bad.sum())} invalid geometr{'y' if bad.sum() == 1 else 'ies'} "
-                         f"({reason})", file=path)
-    frame = frame.copy()
-    frame["geometry"] = _to_site(ctx, frame, path)
-    return frame
-
-
-def _select(frame, id_field: str, where, path):
-    """The features of `frame` whose `id_field` equals `where` (all when None)."""
-    if where is None:
-        return frame
-    if id_field not in frame.columns:
-        raise InputError(f"no attribute {id_field!r} to select {where!r} with; attributes: "
-                         f"{', '.join(map(str, frame.columns))}", file=path)
-    frame = frame[frame[id_field].astype(str) == str(where)]
-    if frame.empty:
-        raise InputError(f"no feature with {id_field} = {where!r}", file=path)
-    return frame
-
-
-def _to_site(ctx: _Context, frame, path):
-    layer_crs = frame.crs
-    if layer_crs is None and ctx.site_crs is None:
-        raise InputError("the layer states no CRS and neither does the site; add "
-                         "crs = \"EPSG:...\" to [site]", file=path)
-    # to_site also refuses "degrees" that cannot be (GeoJSON without a crs member)
-    return crsmod.to_site(np.asarray(frame.geometry.values, dtype=object),
-                          layer_crs, ctx.site_crs, argument="crs", file=path)
+    frame = select(read_vector(path, geom_type, what="fill outlines"), id_field, where, path)
+    return frame.set_geometry(list(to_site(frame, ctx.site_crs, path)))
 
 
 def _body_outline(ctx: _Context, name: str, raw: dict):
@@ -388,7 +348,7 @@ def _footprint_frame(ctx: _Context, raw: dict):
         frame = read_footprints(raw["file"], raw.get("height_field"),
                                 target_crs=ctx.site_crs or None,
                                 height_to_m=ctx.cfg.units.length_to_m)
-    return _select(frame, raw.get("id_field") or "id", raw.get("where"), raw["file"])
+    return select(frame, raw.get("id_field") or "id", raw.get("where"), raw["file"])
 
 
 def _embankment_reach(raw: dict) -> float:
@@ -598,12 +558,12 @@ def _receptor_items(ctx, table, raw, where) -> list:
         xy = ctx.xy(raw[key])
         geoms = [(raw["id"], LineString(xy) if line else Polygon(xy), {})]
     elif raw.get("file") is not None:
-        def to_site(frame):
-            return frame.set_geometry(list(_to_site(ctx, frame, raw["file"])))
+        def into_site(frame):
+            return frame.set_geometry(list(to_site(frame, ctx.site_crs, raw["file"])))
         frame = rc.read_receptor_layer(
             raw["file"], RECEPTOR_TABLES[table], id_field=raw["id_field"],
             required_fields=[raw["depth_field"]] if raw.get("depth_field") else (),
-            to_site_crs=to_site)
+            to_site_crs=into_site)
         geoms = [(r["receptor_id"], r.geometry, r) for _, r in frame.iterrows()]
     else:
         raise InputError(f"needs {key} = [[x, y], ...] or file = \"...\"",

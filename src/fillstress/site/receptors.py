@@ -23,9 +23,8 @@ from shapely.geometry import LineString, Point, Polygon
 from .. import crs as crsmod
 from .._validate import depths_array, finite, finite_array, positive
 from ..errors import InputError
+from ..io.vectors import read_vector
 
-# geopandas and pyogrio (GDAL) is imported inside the functions that use it: it is slow to load and
-# most commands never need it.
 
 POINT_COLUMNS = ["receptor_kind", "receptor_id", "point_id", "role", "x", "y", "depth", "chainage"]
 KINDS = ("building", "pipe", "borehole")
@@ -503,7 +502,7 @@ def depth_from_elevation(x, y, elevation, ground, *, name: str = "elevation") ->
 
 
 # --- reading receptor layers -----------------------------------------------------------
-_GEOMETRY = {"building": ("Polygon",), "pipe": ("LineString",), "borehole": ("Point",)}
+_GEOMETRY = {"building": "Polygon", "pipe": "LineString", "borehole": "Point"}
 
 
 def read_receptor_layer(path, kind: str, *, id_field: str = "id", required_fields=(),
@@ -541,21 +540,12 @@ def read_receptor_layer(path, kind: str, *, id_field: str = "id", required_field
     >>> read_receptor_layer(f, "borehole")["receptor_id"].tolist()
     ['BH1']
     """
-    import geopandas as gpd
-    import pyogrio
-
     if kind not in _GEOMETRY:
         raise InputError(f"must be one of {', '.join(KINDS)}, got {kind!r}", argument="kind")
     path = Path(os.fspath(path))
-    if not path.exists():
-        raise InputError("file not found", file=path)
-    try:
-        frame = gpd.read_file(path, layer=layer)
-    except (pyogrio.errors.DataSourceError, pyogrio.errors.DataLayerError, ValueError) as exc:
-        raise InputError(f"cannot read as a vector layer ({exc})", file=path) from None
-    if len(frame) == 0:
-        raise InputError(f"layer has no features; expected {kind} receptors", file=path)
-    _check_geometry(frame, kind, path)
+    # one outline or line a receptor: multi-part features are refused (split them)
+    frame = read_vector(path, _GEOMETRY[kind], parts=False, layer=layer,
+                        what=f"{kind} receptors")
     for field in (id_field, *required_fields):
         _check_field(frame, field, path)
     ids = frame[id_field].astype(str).str.strip()
@@ -566,18 +556,6 @@ def read_receptor_layer(path, kind: str, *, id_field: str = "id", required_field
     frame = frame.assign(receptor_id=ids.to_numpy())
     frame = frame[["receptor_id"] + [c for c in frame.columns if c != "receptor_id"]]
     return to_site_crs(frame) if to_site_crs is not None else frame
-
-
-def _check_geometry(frame, kind: str, path: Path) -> None:
-    missing = frame.geometry.isna() | frame.geometry.is_empty
-    if missing.any():
-        raise InputError(f"feature {int(np.flatnonzero(missing)[0])} has no geometry", file=path)
-    types = frame.geometry.geom_type
-    wrong = ~types.isin(_GEOMETRY[kind])
-    if wrong.any():
-        k = int(np.flatnonzero(wrong)[0])
-        raise InputError(f"feature {k} is a {types.iloc[k]}; {kind} receptors must be "
-                         f"{' or '.join(_GEOMETRY[kind])}", file=path)
 
 
 def _check_field(frame, field: str, path: Path) -> None:

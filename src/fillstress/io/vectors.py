@@ -1,0 +1,108 @@
+"""The one reader of vector layers (GeoJSON, GeoPackage, shapefile, … anything GDAL reads),
+for fill outlines, footprints and receptors alike, with one policy:
+
+* a missing file, an unreadable one and a layer without features are refused, naming the
+  file;
+* every feature needs a geometry of the expected kind; multi-part features (MultiPolygon,
+  MultiLineString) are accepted only where the caller allows parts (a fill body may be
+  several pads; a building or a pipe is one outline or one line);
+* polygons must be valid, and the first invalid feature is named with the reason;
+* :func:`to_site` takes the layer to internal site metres: a layer that states no CRS is
+  taken to be in the site CRS, and with neither stated it is refused.
+"""
+from __future__ import annotations
+
+import os
+from pathlib import Path
+
+import numpy as np
+import shapely
+
+from .. import crs as crsmod
+from ..errors import InputError
+
+# geopandas (GDAL) is imported inside the functions that use it: it is slow to load and
+# most commands never need it.
+
+def read_vector(path, geometry: str, *, parts: bool = True, layer=None, what: str = "features"):
+    """Read a vector layer and check its features (see the module docstring).
+
+    Parameters
+    ----------
+    path : path-like
+    geometry : {"Polygon", "LineString", "Point"}
+        The kind every feature must be.
+    parts : bool
+        Accept the multi-part form (``Multi<geometry>``) too.
+    layer : str or int, optional
+        Layer of a multi-layer file.
+    what : str
+        What the features are, for messages ("footprints", "pipe receptors").
+
+    Returns
+    -------
+    geopandas.GeoDataFrame
+        The layer as read: attributes, geometry and the layer's own CRS (or None).
+
+    Examples
+    --------
+    >>> import geopandas, shapely, tempfile, os
+    >>> f = os.path.join(tempfile.mkdtemp(), "pads.geojson")
+    >>> geopandas.GeoDataFrame({"id": ["a"]}, geometry=[shapely.box(0, 0, 4, 2)],
+    ...                        crs="EPSG:32632").to_file(f)
+    >>> read_vector(f, "Polygon").geometry.area.tolist()
+    [8.0]
+    >>> read_vector(f, "LineString", what="pipes")  # doctest: +ELLIPSIS
+    Traceback (most recent call last):
+    fillstress.errors.InputError: ...pads.geojson: feature 0 is a Polygon; pipes must be LineString or MultiLineString
+    """
+    import geopandas as gpd
+
+    path = Path(os.fspath(path))
+    if not path.exists():
+        raise InputError("file not found", file=path)
+    try:
+        frame = gpd.read_file(path, layer=layer)
+    except Exception as exc:  # pyogrio and fiona raise several types for unreadable data
+        raise InputError(f"cannot be read as a vector layer ({str(exc).splitlines()[0]})",
+                         file=path) from None
+    if len(frame) == 0:
+        raise InputError(f"the layer has no features; expected {what}", file=path)
+    allowed = {geometry, "Multi" + geometry} if parts else {geometry}
+    for k, geom in enumerate(frame.geometry.values):
+        if geom is None or geom.is_empty:
+            raise InputError(f"feature {k} has no geometry", file=path)
+        if geom.geom_type not in allowed:
+            raise InputError(f"feature {k} is a {geom.geom_type}; {what} must be "
+                             f"{' or '.join(sorted(allowed))}", file=path)
+        if geometry == "Polygon" and not shapely.is_valid(geom):
+            raise InputError(f"feature {k} is not a valid polygon "
+                             f"({shapely.is_valid_reason(geom)})", file=path)
+    return frame
+
+
+def select(frame, id_field: str, where, path):
+    """The features of `frame` whose `id_field` equals `where` (all when None)."""
+    if where is None:
+        return frame
+    if id_field not in frame.columns:
+        raise InputError(f"no attribute {id_field!r} to select {where!r} with; attributes: "
+                         f"{', '.join(map(str, frame.columns))}", file=path)
+    frame = frame[frame[id_field].astype(str) == str(where)]
+    if frame.empty:
+        raise InputError(f"no feature with {id_field} = {where!r}", file=path)
+    return frame
+
+
+def to_site(frame, site_crs, path) -> np.ndarray:
+    """The layer's geometries in internal site metres (object array).
+
+    `site_crs` is ``(pyproj.CRS, metres per unit)`` from :func:`fillstress.crs.site_crs`,
+    or None when the site states no CRS.
+    """
+    if frame.crs is None and site_crs is None:
+        raise InputError("the layer states no CRS and neither does the site; add "
+                         "crs = \"EPSG:...\" to [site]", file=path)
+    # crs.to_site also refuses "degrees" that cannot be (GeoJSON without a crs member)
+    return crsmod.to_site(np.asarray(frame.geometry.values, dtype=object), frame.crs, site_crs,
+                          argument="crs", file=path)
