@@ -13,7 +13,7 @@ import numpy as np
 import pytest
 
 from browser import CHROMIUM, Browser
-from fillstress import viewer
+from fillstress import scene_page, viewer
 from fillstress.scene_page import colour_index
 from guide_images import keep
 from results_fixture import NASTY_ID, write_results_folder
@@ -28,7 +28,7 @@ def truth(tmp_path_factory):
 def page(truth, tmp_path_factory):
     if not os.path.exists(CHROMIUM):
         pytest.fail(f"{CHROMIUM} is required (apt-get install -y chromium)")
-    html = viewer.export_scene_html(truth.path, tmp_path_factory.mktemp("html") / "scene.html",
+    html = scene_page.export_scene_html(truth.path, tmp_path_factory.mktemp("html") / "scene.html",
                                     exaggeration=2.0)
     browser = Browser(tmp_path_factory.mktemp("profile"))
     try:

@@ -14,7 +14,7 @@ import pytest
 from matplotlib import colormaps
 from PIL import Image
 
-from fillstress import viewer
+from fillstress import scene_page, viewer
 from fillstress.errors import InputError
 from guide_images import keep
 from results_fixture import write_results_folder
@@ -295,13 +295,13 @@ def test_plan_in_another_unit_than_depth_is_scaled(truth, tmp_path):
 def test_export_default_path(truth, tmp_path):
     copy = tmp_path / "copy"
     shutil.copytree(truth.path, copy)
-    assert viewer.export_scene_html(copy) == copy / "scene.html"
+    assert scene_page.export_scene_html(copy) == copy / "scene.html"
     assert (copy / "scene.html").stat().st_size > 10_000
     assert not [p.name for p in copy.iterdir() if p.name.startswith(".")]   # no temporary
     with pytest.raises(InputError, match="folder does not exist"):
         viewer.render_png(copy, tmp_path / "no_such_folder" / "view.png")
     with pytest.raises(InputError, match="folder does not exist"):
-        viewer.export_scene_html(copy, tmp_path / "no_such_folder" / "scene.html")
+        scene_page.export_scene_html(copy, tmp_path / "no_such_folder" / "scene.html")
 
 
 def test_slice_floor_cuts_low_values(truth, tmp_path):

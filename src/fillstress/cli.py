@@ -226,7 +226,8 @@ def _view(args, console):
     common = dict(exaggeration=args.exaggeration, quantity=args.quantity, colour_range=args.colour_range,
                   layers=[name.strip() for name in args.layers.split(",") if name.strip()])
     if args.html:
-        console.wrote(viewer.export_scene_html(args.results, args.html, **common))
+        from .scene_page import export_scene_html
+        console.wrote(export_scene_html(args.results, args.html, **common))
     elif args.png:
         console.wrote(viewer.render_png(args.results, args.png, camera=args.camera,
                                         depth=args.depth, **common))

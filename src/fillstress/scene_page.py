@@ -13,8 +13,16 @@ from __future__ import annotations
 import base64
 import html
 import json
+from pathlib import Path
 
 import numpy as np
+
+from .io.atomic import write_atomic
+from .io.results import ResultsFolder
+from .viewer import CAUTION, LAYERS, QUANTITY_WORDS, _fmt, colour_table, scene_parts
+from .viewer import _writable as writable
+
+# matplotlib is imported inside the functions that use it: it is slow to load.
 
 #: Colour-map entries; index 255 of a lattice node marks "no value" (hidden).
 N_COLOURS = 255
@@ -106,10 +114,8 @@ def _part_json(part, scene) -> dict:
 
 
 def _legend(scene) -> dict:
-    from .viewer import colour_table
     lo, hi = scene.clim
     ticks = np.linspace(lo, hi, 5)
-    from .viewer import _fmt
     note = ""
     if scene.robust and scene.data_max > hi:
         note = f"top colour: {_fmt(hi)} and above (max {_fmt(scene.data_max)})"
@@ -149,7 +155,6 @@ def _text(value) -> str:
 
 def page_html(scene) -> str:
     """The whole page for `scene` (a :class:`fillstress.viewer.Scene`)."""
-    from .viewer import CAUTION, QUANTITY_WORDS
     esc = html.escape
     notes = [_text(scene.folder.manifest.get(k)) for k in ("cautions", "assumptions")]
     heading = f"{scene.site_name} — {QUANTITY_WORDS[scene.quantity]} {scene.bar_title}"
@@ -485,3 +490,27 @@ const DATA = @@DATA@@;
 </body>
 </html>
 """
+
+
+def export_scene_html(results_dir, path=None, *, exaggeration: float | None = None,
+                      quantity: str = "dsz", layers=LAYERS, colour_range=None) -> Path:
+    """Write the scene as one self-contained HTML page .
+
+    The page draws with the browser's WebGL, its script and data inline: it loads
+    nothing from the network. It has a depth control showing one slice at a time,
+    toggles for the fill, the slices and each receptor kind, a legend with units, a north
+    arrow, a scale, the site's name and date and the cautions; hovering a sample point
+    shows its values. Default path: ``<results_dir>/scene.html``.
+
+    Examples
+    --------
+    >>> export_scene_html("/no/such/folder")
+    Traceback (most recent call last):
+    ...
+    fillstress.errors.InputError: argument results_dir: is not a results folder (no such directory)
+    """
+    ResultsFolder(results_dir)
+    path = writable(Path(results_dir) / "scene.html" if path is None else path)
+    html = page_html(scene_parts(results_dir, exaggeration=exaggeration, quantity=quantity,
+                                 layers=layers, colour_range=colour_range))
+    return write_atomic(path, lambda tmp: Path(tmp).write_text(html, encoding="utf-8"))

@@ -23,7 +23,6 @@ from ._validate import finite, positive
 from .errors import InputError
 from .io.atomic import write_atomic
 from .io.results import QUANTITIES, PlanField, ResultsFolder, quantity_unit_key
-from .scene_page import page_html
 from .units import unit_text
 
 # pyvista (VTK) and matplotlib are imported inside the functions that use them: they are
@@ -865,27 +864,3 @@ def render_png(results_dir, path, *, camera="iso", window_size=(1200, 900),
         return write_atomic(path, lambda tmp: plotter.screenshot(str(tmp)))
     finally:
         plotter.close()
-
-
-def export_scene_html(results_dir, path=None, *, exaggeration: float | None = None,
-                      quantity: str = "dsz", layers=LAYERS, colour_range=None) -> Path:
-    """Write the scene as one self-contained HTML page (:mod:`fillstress.scene_page`).
-
-    The page draws with the browser's WebGL, its script and data inline: it loads
-    nothing from the network. It has a depth control showing one slice at a time,
-    toggles for the fill, the slices and each receptor kind, a legend with units, a north
-    arrow, a scale, the site's name and date and the cautions; hovering a sample point
-    shows its values. Default path: ``<results_dir>/scene.html``.
-
-    Examples
-    --------
-    >>> export_scene_html("/no/such/folder")
-    Traceback (most recent call last):
-    ...
-    fillstress.errors.InputError: argument results_dir: is not a results folder (no such directory)
-    """
-    ResultsFolder(results_dir)
-    path = _writable(Path(results_dir) / "scene.html" if path is None else path)
-    html = page_html(scene_parts(results_dir, exaggeration=exaggeration, quantity=quantity,
-                                 layers=layers, colour_range=colour_range))
-    return write_atomic(path, lambda tmp: Path(tmp).write_text(html, encoding="utf-8"))

@@ -20,7 +20,7 @@ from ..io.atomic import write_atomic
 from ..progress import silent
 from ..report import write_report
 from ..site.receptors import summarise
-from ..viewer import export_scene_html
+from ..scene_page import export_scene_html
 
 KIND_FILES = {"building": "buildings", "pipe": "pipes", "borehole": "boreholes"}
 
