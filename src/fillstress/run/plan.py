@@ -155,10 +155,7 @@ def _ground_gaps(site) -> list[str]:
     for name, report in (site.cut_reports or {}).items():
         if not report.area_design_only:
             continue
-        raw = site.config["bodies"][name]
-        ground = site.config.get("ground") or {}
-        source = raw.get("existing") or next(
-            (ground[k] for k in ("raster", "points", "landxml") if ground.get(k)), None)
+        source = site.existing_surfaces.get(name)
         where = (f" (first at x = {report.missing_at[0] / site.metres_per_unit:.1f}, "
                  f"y = {report.missing_at[1] / site.metres_per_unit:.1f})"
                  if report.missing_at else "")

@@ -88,6 +88,7 @@ class Site:
     input_files: tuple[Path, ...] = ()                 # every file the site refers to
     plan_grids: list[PlanGrid] = field(default_factory=list)
     cut_reports: dict[str, CutReport] = field(default_factory=dict)   # body → its cut
+    existing_surfaces: dict[str, Path] = field(default_factory=dict)  # body → that file
     body_factors: tuple[float, float] = (1.0, 1.0)  # (unit weight, thickness) of a variant
     build_seconds: float = 0.0                      # time the bodies took to rasterise
     cell_rule: str = "given"                        # why the cell is the size it is
@@ -192,6 +193,7 @@ class _Context:
     cell_rule: str = ""                              # why the cell is the size it is
     ground_source: str = ""                          # "[ground] points 'survey.csv'"
     warnings: list = field(default_factory=list)     # found while building, for check
+    existing_surfaces: dict = field(default_factory=dict)  # surfaces body → existing file
 
     def xy(self, coords) -> np.ndarray:
         """Inline site-file coordinates (CRS units) → internal metres."""
@@ -246,6 +248,7 @@ def build_site(cfg: SiteConfig) -> Site:
                 ctx.ground, _soil(cfg), _points(ctx, receptors), receptors, _settings(cfg),
                 input_files=tuple(cfg.input_files()), plan_grids=_plan_grids(ctx, spec),
                 cut_reports={n: cut for n, (_, cut) in built.items() if cut is not None},
+                existing_surfaces=ctx.existing_surfaces,
                 build_seconds=ctx.build_seconds, cell_rule=ctx.cell_rule,
                 warnings=ctx.warnings, context=ctx)
 
@@ -424,7 +427,11 @@ def _surfaces(ctx, name, raw, spec):
     design = ctx.surface(raw["design"])
     if raw.get("existing") is not None:
         existing = ctx.surface(raw["existing"])
+        ctx.existing_surfaces[name] = raw["existing"]
     elif ctx.ground is not None:
+        ground = ctx.cfg.get("ground") or {}
+        ctx.existing_surfaces[name] = next(
+            (ground[k] for k in ("raster", "points", "landxml") if ground.get(k)), None)
         existing = ctx.ground
     else:
         raise InputError("needs existing = \"...\" or a [ground] table", argument="existing")
