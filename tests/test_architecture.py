@@ -20,11 +20,11 @@ LAYERS = [
     ["kernels"],
     ["solve"],
     ["shapes"],
-    ["soil", "settlement", "structures", "drains", "monitoring"],
+    ["soil", "settlement", "structures", "drains", "monitoring.backanalysis"],
     ["io"],
     ["site"],
     ["report", "viewer", "scene_page"],  # read a finished results folder only (io.results)
-    ["run"],               # writes the folder, then its report and scene
+    ["run", "monitoring"],  # write a folder (run, monitor), then its report and scene
     ["examples", "console"],
     ["cli", ""],           # "" is the package face, fillstress/__init__.py
 ]

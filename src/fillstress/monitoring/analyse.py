@@ -304,9 +304,9 @@ def _structures(res: MonitoringResults) -> None:
                                         point_ids=g["point_id"].tolist())
                 row[f"distortion_{name}"] = float(b.angular_distortion)
             elif kind == "pipe" and len(idx) >= 2:
-                spec = next(p for p in res.site.receptors.get("pipes", []) if p["id"] == rid)
+                spec = next(p for p in res.site.receptors.pipes if p.id == rid)
                 p = pipe_settlement(rid, g["chainage"].to_numpy(), s, np.zeros(len(idx)),
-                                    spec["differential_length"])
+                                    spec.differential_length)
                 row[f"differential_{name}"] = float(p.differential_max_m)
         rows.append(row)
     res.structures = pd.DataFrame.from_records(rows)

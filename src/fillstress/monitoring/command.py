@@ -79,21 +79,21 @@ def monitor_site_file(site_path, readings_path, out=None, *, day0=None, construc
     >>> (out / "manifest.json").is_file(), round(s.results.site_fit.f_c, 1)
     (True, 0.8)
     """
-    from ..io.atomic import ResultsFolder
+    from ..io.atomic import ResultsWriter
     from ..io.readings import parse_day0, read_construction, read_readings
     from ..site.build import load_site
     from .analyse import Settings, analyse
     from .files import write_monitoring
     site = load_site(site_path)
     out = Path(out) if out else Path(f"monitor-{Path(site_path).stem}")
-    folder = ResultsFolder(out, overwrite=overwrite)
-    stated = site.config.get("monitoring") or {}
-    readings_path = readings_path or stated.get("readings")
+    folder = ResultsWriter(out, overwrite=overwrite)
+    stated = site.settings
+    readings_path = readings_path or stated.readings
     if readings_path is None:
         raise InputError("missing: give the readings file, or [monitoring] readings in the "
                          "site file", argument="readings")
-    construction = construction or stated.get("construction")
-    day0 = parse_day0(day0 or stated.get("day0"))
+    construction = construction or stated.construction
+    day0 = parse_day0(day0 or stated.day0)
     limit = None
     if residual_limit is not None:
         try:

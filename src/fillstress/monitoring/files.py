@@ -1,13 +1,12 @@
 """The monitoring results folder: tables, pictures, report and manifest.
 
-Written inside an `io.atomic.ResultsFolder` (a hidden sibling renamed into place when
+Written inside an `io.atomic.ResultsWriter` (a hidden sibling renamed into place when
 complete), with a manifest that checksums every file, like a run's folder.
 """
 from __future__ import annotations
 
 import json
 import math
-import re
 
 import numpy as np
 import pandas as pd
@@ -15,19 +14,7 @@ import pandas as pd
 from ..io import manifest
 from ..io.atomic import write_atomic
 from ..io.tables import plan_unit, write_table_csv
-
-ASSUMPTIONS = (
-    "Readings are compared with the project's own prediction: Δσz from linear elasticity "
-    "(homogeneous elastic half-space, flexible fill, superposition), 1-D primary "
-    "consolidation (Terzaghi) of horizontal layers, each placement of fill instant on its "
-    "day. Back-analysis: Asaoka (1978) and the hyperbolic method of Tan (1971) on readings "
-    "after the last placement; the model fit scales compressibility and cv of every "
-    "consolidating layer by one factor each (least squares, 95 % intervals from the "
-    "Jacobian).")
-CAUTIONS = (
-    "Results are for checking by a licensed geotechnical engineer; local codes and "
-    "regulations govern. A forecast is only as good as the readings and the construction "
-    "record it is fitted to.")
+from .wording import ASSUMPTIONS, CAUTIONS, slug
 
 QUANTITIES = {
     **dict.fromkeys(["measured_last", "predicted_last", "asaoka_ultimate",
@@ -47,7 +34,7 @@ QUANTITIES = {
 
 
 def write_monitoring(res, folder, *, report: bool = True, inputs=(), day0=None) -> None:
-    """Write every file of the monitoring folder `folder` (a ResultsFolder being built)."""
+    """Write every file of the monitoring folder `folder` (a ResultsWriter being built)."""
     site = res.site
     u = site.units
 
@@ -73,7 +60,7 @@ def write_monitoring(res, folder, *, report: bool = True, inputs=(), day0=None) 
         html = monitoring_page(res, summary, pictures)
         write_atomic(folder.path("report.html"), lambda p: p.write_text(html, encoding="utf-8"))
     manifest.write_manifest(folder, settings=summary["settings"], units=u,
-                            inputs=[*site.config.input_files(), *inputs], site_file=site.path,
+                            inputs=[*site.input_files, *inputs], site_file=site.path,
                             crs=site.crs, grid=site.spec, assumptions=ASSUMPTIONS,
                             cautions=[CAUTIONS, *res.cautions])
 
@@ -166,14 +153,3 @@ def _pictures(res) -> dict:
                 name, days, predicted, revised, (g["day"], g["measured_excess"]),
                 unit=site.units.pressure, scale=pscale)
     return out
-
-
-def slug(text: str) -> str:
-    """An instrument id as a safe file-name part.
-
-    Examples
-    --------
-    >>> slug("EX-01/A1"), slug("../")
-    ('EX-01_A1', 'instrument')
-    """
-    return re.sub(r"[^A-Za-z0-9_-]+", "_", str(text)).strip("_") or "instrument"

@@ -75,7 +75,7 @@ def stage_loads(site) -> dict:
 
 def design_placements(site) -> list[Placement]:
     """The design: each stage placed whole on its ``[settlement] stage_days`` day."""
-    days = list((site.config.get("settlement") or {}).get("stage_days") or [0.0])
+    days = list(site.settings.stage_days or [0.0])
     days = (days + [days[-1]] * len(site.stages))[:len(site.stages)]
     return [Placement(k, float(d)) for k, d in zip(site.stages, days)]
 

@@ -5,7 +5,7 @@ import math
 
 from ..report import monitoring as page_parts
 from ..report.tables import html_table, plain
-from .files import slug
+from .wording import ASSUMPTIONS, CAUTIONS, slug
 
 
 def _mm(res, v) -> str:
@@ -47,7 +47,6 @@ def monitoring_page(res, summary: dict, pictures: dict) -> str:
         sections.append(("Piezometers", _piezometers(res, pictures)))
     if res.structures is not None:
         sections.append(("Buildings and pipes", _structures(res)))
-    from .files import ASSUMPTIONS, CAUTIONS
     sections.append(("Assumptions", page_parts.paragraph(ASSUMPTIONS)))
     return page_parts.page(f"Monitoring: {res.site.name}", head, sections,
                            [CAUTIONS, *res.cautions])

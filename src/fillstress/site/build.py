@@ -63,6 +63,9 @@ class RunSettings:
     vtk: bool = True
     report: bool = True
     scene: bool = True
+    readings: Path | None = None             # [monitoring]: readings CSV
+    construction: Path | None = None         # [monitoring]: construction record CSV
+    day0: str | None = None                  # [monitoring]: calendar date of day 0
 
 
 @dataclass
@@ -256,6 +259,7 @@ def build_site(cfg: SiteConfig) -> Site:
 def _settings(cfg: SiteConfig) -> RunSettings:
     grid, soil = cfg.get("grid") or {}, cfg.get("soil") or {}
     settle, outputs = cfg.get("settlement") or {}, cfg.get("outputs") or {}
+    monitoring = cfg.get("monitoring") or {}
     return RunSettings(
         convergence_check=bool(grid.get("convergence_check", True)),
         margin=grid.get("margin"), memory_cap_gb=grid.get("memory_cap"),
@@ -263,6 +267,7 @@ def _settings(cfg: SiteConfig) -> RunSettings:
         stage_days=tuple(settle["stage_days"]) if settle.get("stage_days") else None,
         distortion_limits={name: settle[key] for key, name in LIMIT_KEYS.items()
                            if settle.get(key) is not None},
+        **{k: monitoring.get(k) for k in ("readings", "construction", "day0")},
         **{k: outputs.get(k, True) is not False for k in ("geotiff", "netcdf", "vtk", "report",
                                                              "scene")})
 
