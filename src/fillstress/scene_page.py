@@ -123,6 +123,7 @@ def scene_data(scene) -> dict:
     x0, x1, y0, y1, z0, z1 = _bounds(scene)
     return {"parts": [_part_json(p, scene) for p in scene.parts],
             "legend": _legend(scene), "exaggeration": scene.exaggeration,
+            "surface": scene.quantity == "settlement",
             "depths": scene.slice_depths, "length": scene.folder.units.length,
             "bounds": [x0, x1, y0, y1, z0, z1]}
 
@@ -149,10 +150,10 @@ def _text(value) -> str:
 
 def page_html(scene) -> str:
     """The whole page for `scene` (a :class:`fillstress.viewer.Scene`)."""
-    from .viewer import CAUTION, QUANTITY_WORDS
+    from .viewer import CAUTION
     esc = html.escape
     notes = [_text(scene.folder.manifest.get(k)) for k in ("cautions", "assumptions")]
-    heading = f"{scene.site_name} — {QUANTITY_WORDS[scene.quantity]} {scene.bar_title}"
+    heading = f"{scene.site_name} — {scene.quantity_heading}"
     fields = {
         "TITLE": esc(f"{scene.site_name} — 3D scene — {scene.date}"),
         "HEADING": esc(heading),
@@ -258,8 +259,8 @@ const DATA = @@DATA@@;
   depthInput.max = Math.max(DATA.depths.length - 1, 0);
   depthInput.disabled = DATA.depths.length < 2;
   function showDepth() {
-    depthText.textContent = DATA.depths.length ?
-      DATA.depths[state.depth] + " " + DATA.length + " below existing ground" : "no slices";
+    depthText.textContent = !DATA.depths.length ? "no slices" : DATA.surface ?
+      "ground surface" : DATA.depths[state.depth] + " " + DATA.length + " below existing ground";
   }
   depthInput.addEventListener("input", () => { state.depth = +depthInput.value; showDepth(); draw(); });
   const exInput = document.getElementById("exaggeration"), exText = document.getElementById("exaggerationText");

@@ -199,7 +199,13 @@ class Scene:
 
     def title(self) -> str:
         """"<site> — <quantity> (<unit>) — <stage>"."""
-        return f"{self.site_name} — {QUANTITY_WORDS[self.quantity]} {self.bar_title} — {self.stage_text}"
+        return f"{self.site_name} — {self.quantity_heading} — {self.stage_text}"
+
+    @property
+    def quantity_heading(self) -> str:
+        """Words and symbol with unit, e.g. "vertical stress increase Δσz (kPa)"."""
+        words = QUANTITY_WORDS[self.quantity]
+        return self.bar_title if self.bar_title.startswith(words) else f"{words} {self.bar_title}"
 
     def caption(self, exaggeration: float | None = None, depth: float | None = None) -> str:
         """Origin, units, exaggeration, the slice shown and how the colours are scaled."""
@@ -209,7 +215,8 @@ class Scene:
         lines = [f"E, N in {plan} (grid north of the site CRS); depths in {u} below existing ground; "
                  f"vertical exaggeration {exaggeration:g}"]
         if depth is not None:
-            lines.append(f"slice shown: {depth:g} {u} deep")
+            lines.append("settlement at the ground surface" if self.quantity == "settlement"
+                         else f"slice shown: {depth:g} {u} deep")
         lo, hi = self.clim
         scale = (f"colours {_fmt(lo)} to {_fmt(hi)} {self.unit}".rstrip())
         if self.robust and self.data_max > hi:
@@ -346,8 +353,9 @@ class _PartsBuilder:
             self.add("slices", "lines", surf.outline(), color="gray", depth=f.depth)
             # Labels on the four corners in turn, so closely spaced depths do not overlap.
             cx, cy = ((f.x[-1], f.y[0]), (f.x[0], f.y[0]), (f.x[-1], f.y[-1]), (f.x[0], f.y[-1]))[k % 4]
+            label = "surface" if self.quantity == "settlement" else f"{f.depth:g} {u}"
             self.add("slices", "labels", pv.PolyData(self.frame.points(cx, cy, -f.depth)),
-                     texts=(f"{f.depth:g} {u}",), depth=f.depth)
+                     texts=(label,), depth=f.depth)
 
     def add_points(self):
         import pyvista as pv
@@ -424,9 +432,9 @@ class _PartsBuilder:
             texts.append(f"{east:.0f}")
         for north, sy in ticks(y0, y1, self.frame.y0):
             segments.append(((x0, sy, 0), (x0 - 0.02 * s, sy, 0)))
-            anchors.append((x0 - 0.08 * s, sy, 0))
+            anchors.append((x0 - 0.1 * s, sy, 0))
             texts.append(f"{north:.0f}")
-        anchors += [(x1 + 0.06 * s, y0 - 0.045 * s, 0), (x0 - 0.08 * s, y1 + 0.05 * s, 0)]
+        anchors += [(x1 + 0.06 * s, y0 - 0.045 * s, 0), (x0 - 0.1 * s, y1 + 0.05 * s, 0)]
         texts += [f"E ({plan})", f"N ({plan})"]
         # Scale bar: a round length of about a quarter of the plan width.
         bar = _nice_step((x1 - x0) * 0.25, 1)

@@ -253,7 +253,8 @@ def _write_cube(res, folder) -> None:
         return
     netcdf.write_stress_cube(folder.path("stress_cube.nc"), res.slices, grid=site.spec,
                              fill_thickness=site.fill_thickness(), units=site.units,
-                             crs=site.crs, sigma_v0=_slice_sigma_v0(site, res.slices))
+                             crs=site.crs, sigma_v0=_slice_sigma_v0(site, res.slices),
+                             settlement=res.plan_settlement)
 
 
 def _slice_sigma_v0(site, slices) -> dict | None:

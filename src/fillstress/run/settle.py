@@ -93,6 +93,30 @@ def settlement_results(res, evaluate) -> None:
     _time_curves(res, targets, by_layer_stage)
 
 
+def plan_settlement(site, slices_at) -> dict:
+    """Final settlement (m) at the ground surface over every plan grid.
+
+    Δσz of the final fill at the sublayer mid-depths of the whole profile comes from
+    ``slices_at(plan, depths)`` (FFT slices on the plan grid's nodes, dims depth, y, x) and
+    is summed through the layers by the rule the receptor points use; nodes where
+    unloading exceeds σ'v0 (heave) get NaN.
+    """
+    z, h = st.sublayers(site.soil, top_depth=0.0)
+    if len(z) == 0:
+        return {}
+    s0 = site.soil.sigma_v0_eff(z)
+    out = {}
+    for plan in site.plan_grids:
+        da = slices_at(plan, tuple(float(d) for d in z))
+        ny, nx = da.sizes["y"], da.sizes["x"]
+        dsz = np.moveaxis(np.asarray(da.values, float), 0, -1).reshape(-1, len(z))
+        tension = np.any(s0 + dsz <= 0, axis=1)
+        total = st.settlement_by_layer(site.soil, z, h, np.where(tension[:, None], 0.0, dsz)).sum(axis=1)
+        total[tension] = np.nan
+        out[plan.name] = da.isel(depth=0, drop=True).copy(data=total.reshape(ny, nx))
+    return out
+
+
 def _structure_checks(res, targets: pd.DataFrame) -> None:
     s_cfg = res.site.config.get("settlement") or {}
     limits = {k: s_cfg[k] for k in ("limit_no_cracking", "limit_first_cracking",
