@@ -311,11 +311,15 @@ class _PartsBuilder:
         if not self.slices and not self.point_rows:
             raise InputError(f"the results folder has no {quantity!r} on slices or points",
                              argument="quantity")
-        fields = [f for f in [self.fill, *self.slices] if f is not None]
+        # Plan box of everything drawn (scene coordinates): the map furniture goes round it.
+        xs = [a for f in [self.fill, *self.slices] if f is not None for a in (f.x[0], f.x[-1])]
+        ys = [a for f in [self.fill, *self.slices] if f is not None for a in (f.y[0], f.y[-1])]
+        points = self.point_values()
+        xs += list(points[:, 0])
+        ys += list(points[:, 1])
         k = folder.plan_to_length
-        self.box = (min(f.x[0] for f in fields) - frame.x0, max(f.x[-1] for f in fields) - frame.x0,
-                    min(f.y[0] for f in fields) - frame.y0, max(f.y[-1] for f in fields) - frame.y0)
-        self.box = tuple(v * k for v in self.box)
+        self.box = ((min(xs) - frame.x0) * k, (max(xs) - frame.x0) * k,
+                    (min(ys) - frame.y0) * k, (max(ys) - frame.y0) * k)
         span = (self.box[1] - self.box[0] + self.box[3] - self.box[2]) / 2
         self.span = span if span > 0 else 10.0
 
@@ -529,7 +533,7 @@ def _new_plotter(off_screen: bool, window_size, title: str):
     plotter.ren_win.SetWindowName(title)      # not the library's default name
     plotter.set_background("white")
     plotter.add_axes(color="black", xlabel="E", ylabel="N", zlabel="up",
-                     viewport=(0.0, 0.14, 0.12, 0.3))   # above the sliders
+                     viewport=(0.0, 0.22, 0.1, 0.36))   # above the sliders
     return plotter
 
 
@@ -743,14 +747,14 @@ class _Controls:
             self.choose_depth(self.depth)
             self.plotter.add_slider_widget(
                 self.choose_depth, [self.depths[0], self.depths[-1]], value=self.depth,
-                title=f"slice depth ({u})", pointa=(0.04, 0.1), pointb=(0.38, 0.1),
+                title=f"slice depth ({u})", pointa=(0.04, 0.17), pointb=(0.38, 0.17),
                 fmt="%.2f", **bottom)
         self.plotter.add_slider_widget(
             self.stretch, [1.0, max(10.0, 2.0 * self.exaggeration)], value=self.exaggeration,
-            title="vertical exaggeration", pointa=(0.45, 0.1), pointb=(0.8, 0.1), fmt="%.1f",
+            title="vertical exaggeration", pointa=(0.45, 0.17), pointb=(0.8, 0.17), fmt="%.1f",
             **bottom)
         self.plotter.add_key_event("h", self.toggle_help)
-        self.drawer.text("h: keys", 0.93, 0.95, 7.5, "keys_hint")
+        self.drawer.text("h: keys", 0.93, 0.86, 7.5, "keys_hint")
 
     def nearest(self, value: float) -> float:
         return min(self.depths, key=lambda d: abs(d - value))

@@ -97,9 +97,11 @@ def plan_settlement(site, slices_at) -> dict:
     """Final settlement (m) at the ground surface over every plan grid.
 
     Δσz of the final fill at the sublayer mid-depths of the whole profile comes from
-    ``slices_at(plan, depths)`` (FFT slices on the plan grid's nodes, dims depth, y, x) and
-    is summed through the layers by the rule the receptor points use; nodes where
-    unloading exceeds σ'v0 (heave) get NaN.
+    ``slices_at(plan, depths)`` (FFT slices on the plan grid's nodes, dims depth, y, x),
+    as many depths at a time as the plan grid has slices, so the memory stays what the run
+    estimate counted for its slices. Sublayers settle independently (1-D compression), so
+    their settlements add up by the rule the receptor points use; nodes where unloading
+    exceeds σ'v0 (heave) get NaN.
     """
     z, h = st.sublayers(site.soil, top_depth=0.0)
     if len(z) == 0:
@@ -107,13 +109,20 @@ def plan_settlement(site, slices_at) -> dict:
     s0 = site.soil.sigma_v0_eff(z)
     out = {}
     for plan in site.plan_grids:
-        da = slices_at(plan, tuple(float(d) for d in z))
-        ny, nx = da.sizes["y"], da.sizes["x"]
-        dsz = np.moveaxis(np.asarray(da.values, float), 0, -1).reshape(-1, len(z))
-        tension = np.any(s0 + dsz <= 0, axis=1)
-        total = st.settlement_by_layer(site.soil, z, h, np.where(tension[:, None], 0.0, dsz)).sum(axis=1)
+        step = max(1, len(plan.depths))
+        total = tension = da = None
+        for k in range(0, len(z), step):
+            part = slice(k, k + step)
+            da = slices_at(plan, tuple(float(d) for d in z[part]))
+            dsz = np.moveaxis(np.asarray(da.values, float), 0, -1).reshape(-1, len(z[part]))
+            heave = np.any(s0[part] + dsz <= 0, axis=1)
+            layers = st.settlement_by_layer(site.soil, z[part], h[part],
+                                            np.where(heave[:, None], 0.0, dsz))
+            total = layers.sum(axis=1) + (0.0 if total is None else total)
+            tension = heave if tension is None else tension | heave
         total[tension] = np.nan
-        out[plan.name] = da.isel(depth=0, drop=True).copy(data=total.reshape(ny, nx))
+        surface = da.isel(depth=0, drop=True)
+        out[plan.name] = surface.copy(data=total.reshape(surface.shape))
     return out
 
 
