@@ -151,7 +151,9 @@ def distributed_points(grid, points, method="boussinesq", poisson=None, *, clien
     pts, step, chosen, evaluate = prepare(grid, points, method, poisson, algorithm=algorithm,
                                           chunk_size=chunk_size, tol=tol, floor=floor,
                                           order=order)
-    shared = client.scatter(evaluate, broadcast=True)
+    # hash=False: a key of its own each call; with content keys a second call on the
+    # same data can reuse a key the first call is releasing ("lost dependencies").
+    shared = client.scatter(evaluate, broadcast=True, hash=False)
     futures = [client.submit(_apply, shared, pts[s:s + step], retries=retries, pure=False)
                for s in range(0, pts.shape[0], step)]
     parts = _gather(client, futures, f"stress at points ({chosen}, Dask)", progress)
@@ -182,14 +184,14 @@ def distributed_slices(grid, depths, method="boussinesq", poisson=None, *, clien
                                     memory_cap=memory_cap, tile=tile)
         # every job holds the same load tiles (the whole grid): send them to each worker
         # once instead of inside every task
-        [loads] = client.scatter([jobs[0].loads], broadcast=True)
+        [loads] = client.scatter([jobs[0].loads], broadcast=True, hash=False)
         futures = [client.submit(_run_tile_with, replace(job, loads=()), loads,
                                  retries=retries, pure=False) for job in jobs]
         parts = _gather(client, futures, "stress slices (tiles, Dask)", progress)
         return assemble(jobs, parts, frame)
     grid, frame = slice_setup(grid, depths, method, poisson, offset=offset, pad=pad)
     spec = frame["spec"]
-    pressure = client.scatter(grid.pressure, broadcast=True)
+    pressure = client.scatter(grid.pressure, broadcast=True, hash=False)   # see above
     futures = [client.submit(slice_at_depth, pressure, grid.dx, grid.dy, float(z), spec.method,
                              spec.poisson, offset=frame["offset"], pad_cells=frame["pad_cells"],
                              retries=retries, pure=False)
