@@ -13,18 +13,16 @@ Two numba kernels, both parallel over points and both exact to round-off:
 """
 from __future__ import annotations
 
-import math
-
 import numba
 import numpy as np
 
 from .._validate import points_array
 from ..errors import InputError
 from ..grid import LoadGrid
-from ..kernels import KernelSpec, boussinesq, corner_angle, resolve_method, westergaard
+from ..kernels import KernelSpec, resolve_method
+from ..kernels.corner import (INV_2PI, corner_sum, cross_ratio, inverse_depth,
+                              shared_rectangle)
 from ._checks import checked_grid, points_per_chunk
-
-INV_2PI = boussinesq.INV_2PI
 
 
 def node_weights(pressure: np.ndarray) -> np.ndarray:
@@ -68,30 +66,26 @@ def _node_kernel(points, x_nodes, y_nodes, rows, row_start, cols, values,
         for p in range(chunk * n_points // n_chunks, (chunk + 1) * n_points // n_chunks):
             z = abs(points[p, 2])
             c = depth_scale * z
-            inv_c = 1.0 / c if c > 0.0 else math.inf
+            inv_c = inverse_depth(c)
             for i in range(x_nodes.size):
                 ai = x_nodes[i] - points[p, 0]
                 a[i] = ai
                 a_sq[i] = ai * ai + c * c
-                a_cross[i] = second_term * boussinesq.cross_ratio(ai, z)
+                a_cross[i] = second_term * cross_ratio(ai, z)
             total = 0.0
             for k in range(rows.size):
                 b = y_nodes[rows[k]] - points[p, 1]
                 b_sq = b * b
-                b_cross = second_term * boussinesq.cross_ratio(b, z)
+                b_cross = second_term * cross_ratio(b, z)
                 for m in range(row_start[k], row_start[k + 1]):
                     i = cols[m]
-                    # r = 0 only if a = b = 0; atan2(ab, cR) taken as atan2(a·b/R, c)
-                    # so a product of tiny offsets cannot underflow and lose its sign
-                    inv_r = 1.0 / max(math.sqrt(a_sq[i] + b_sq), 1e-300)
-                    f = (corner_angle(a[i] * (b * inv_r), c, inv_c)
-                         + (b * a_cross[i] + a[i] * b_cross) * inv_r)
-                    total += values[m] * f
+                    total += values[m] * corner_sum(a[i], b, c, a_sq[i] + b_sq, inv_c,
+                                                    a_cross[i], b_cross)
             out[p] = INV_2PI * total
 
 
 @numba.njit(parallel=True, cache=True)
-def _cell_kernel(points, x_nodes, y_nodes, pressure, is_westergaard, eta, out):
+def _cell_kernel(points, x_nodes, y_nodes, pressure, depth_scale, second_term, out):
     ny, nx = pressure.shape
     for p in numba.prange(points.shape[0]):
         px, py, z = points[p, 0], points[p, 1], points[p, 2]
@@ -105,10 +99,7 @@ def _cell_kernel(points, x_nodes, y_nodes, pressure, is_westergaard, eta, out):
                     continue
                 x1 = x_nodes[i] - px
                 x2 = x_nodes[i + 1] - px
-                if is_westergaard:
-                    total += q * westergaard.rectangle(x1, x2, y1, y2, z, eta)
-                else:
-                    total += q * boussinesq.rectangle(x1, x2, y1, y2, z)
+                total += q * shared_rectangle(x1, x2, y1, y2, z, depth_scale, second_term)
         out[p] = total
 
 
@@ -141,7 +132,7 @@ def _run_cell_kernel(grid: LoadGrid, pts: np.ndarray, spec: KernelSpec, chunk: i
     out = np.zeros(pts.shape[0])
     for start in range(0, pts.shape[0], chunk):
         _cell_kernel(pts[start:start + chunk], x_nodes, y_nodes, grid.pressure,
-                     spec.method == "westergaard", spec.depth_scale, out[start:start + chunk])
+                     spec.depth_scale, spec.second_term, out[start:start + chunk])
     return out
 
 
