@@ -74,6 +74,21 @@ def corner_angle(y, c, inv_c):
     return math.atan2(y, c)
 
 
+@numba.njit(cache=True, fastmath=False)  # never inherits a caller's fastmath (see FAST_MATH)
+def depth_parts(depth, depth_scale):
+    """(z, c, 1/c) of a point: z = |depth| (which turns -0.0 into +0.0 so atan2 stays in
+    the right half-plane), c = depth_scale·z and 1/c by :func:`inverse_depth`.
+
+    Examples
+    --------
+    >>> depth_parts(-0.0, 0.5)
+    (0.0, 0.0, inf)
+    """
+    z = abs(depth)
+    c = depth_scale * z
+    return z, c, inverse_depth(c)
+
+
 @numba.njit(cache=True)
 def inverse_depth(c):
     """1/c, or +inf at the surface (c = 0), as :func:`corner_sum` takes it.
@@ -86,7 +101,7 @@ def inverse_depth(c):
     return 1.0 / c if c > 0.0 else math.inf
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, fastmath=False)  # never inherits a caller's fastmath (see FAST_MATH)
 def cross_ratio(a, z):
     """``a·z / (a² + z²)`` without 0/0 or underflow; 0 when a = z = 0.
 
@@ -104,13 +119,27 @@ def cross_ratio(a, z):
     return (a / h) * (z / h)
 
 
+# Below this scaled depth the guards of corner_sum are needed; at or above it R >= c
+# cannot underflow and 1/c is finite, so the one-argument arctangent applies unguarded.
+DEEP = 1e-145
+
+# fastmath flags of the hot loops: fused multiply-add, reassociation, reciprocals,
+# approximate functions and no signed zeros, but not the flags that assume no inf or NaN
+# (the surface limit gives 1/c = inf).  numba passes a caller's flags on to
+# the functions it calls unless they set their own, so the guarded near-surface branch and
+# cross_ratio and depth_parts say fastmath=False: reassociating a·(b/R) into (a·b)/R, or
+# b/R into b·(1/R), is exactly the underflow and overflow those guards avoid, and c must
+# be +0.0, never -0.0, at the surface.  Below the surface a signed zero only ever adds 0.
+FAST_MATH = {"contract", "reassoc", "arcp", "afn", "nsz"}
+
+
 @numba.njit(cache=True)
 def corner_sum(a, b, c, r_sq, inv_c, a_cross, b_cross):
     """2π·F(a, b) from parts: c >= 0 the scaled depth, r_sq = a² + b² + c², inv_c from
     :func:`inverse_depth`, a_cross = s·cross_ratio(a, z) and b_cross = s·cross_ratio(b, z).
 
-    atan2(ab, cR) is taken as atan2(a·(b/R), c): the same angle, but a product of two
-    tiny offsets cannot underflow to 0 and lose its quadrant.
+    The first test depends only on the point, so in a loop over nodes the compiler hoists
+    it out of the loop.
 
     Examples
     --------
@@ -119,8 +148,31 @@ def corner_sum(a, b, c, r_sq, inv_c, a_cross, b_cross):
     >>> corner_sum(0.0, 0.0, 0.0, 0.0, math.inf, 0.0, 0.0)
     0.0
     """
+    if c >= DEEP:  # the usual case
+        return corner_deep(a, b, r_sq, inv_c, a_cross, b_cross)
+    return _corner_near_surface(a, b, c, r_sq, inv_c, a_cross, b_cross)
+
+
+@numba.njit(cache=True)
+def corner_deep(a, b, r_sq, inv_c, a_cross, b_cross):
+    """:func:`corner_sum` where c >= DEEP: then R >= c, so neither R nor 1/c under- or
+    overflows and no guard is needed (kernels test c once per point and call this).
+
+    Examples
+    --------
+    >>> corner_deep(1.0, 1.0, 3.0, 1.0, 0.5, 0.5) == corner_sum(1.0, 1.0, 1.0, 3.0, 1.0, 0.5, 0.5)
+    True
+    """
+    inv_r = 1.0 / math.sqrt(r_sq)
+    return fast_atan(a * (b * inv_r) * inv_c) + (b * a_cross + a * b_cross) * inv_r
+
+
+@numba.njit(cache=True, fastmath=False)  # never inherits a caller's fastmath (see FAST_MATH)
+def _corner_near_surface(a, b, c, r_sq, inv_c, a_cross, b_cross):
+    # atan2(ab, cR) taken as atan2(a·(b/R), c): the same angle, but a product of two tiny
+    # offsets cannot underflow to 0 and lose its quadrant
     r = math.sqrt(r_sq)
-    if r >= 1e-145:  # the usual case
+    if r >= DEEP:
         inv_r = 1.0 / r
         return corner_angle(a * (b * inv_r), c, inv_c) + (b * a_cross + a * b_cross) * inv_r
     # the squares may have underflowed: R again without them, and divisions, since 1/R
