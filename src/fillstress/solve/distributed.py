@@ -84,6 +84,7 @@ def connect(scheduler):
                           # most this many times, then the run fails with one line
                           "distributed.scheduler.allowed-failures": ALLOWED_FAILURES,
                           "distributed.comm.timeouts.connect": f"{SCHEDULER_TIMEOUT_S}s"}):
+        own_threads = os.environ.get("NUMBA_NUM_THREADS")
         try:
             cluster = LocalCluster(n_workers=n, threads_per_worker=1, processes=True,
                                    dashboard_address=":0", memory_limit=WORKER_MEMORY,
@@ -91,6 +92,8 @@ def connect(scheduler):
         except Exception as exc:        # ports, processes, memory: the cluster did not start
             raise InputError(f"the local Dask cluster of {n} workers did not start "
                              f"({type(exc).__name__}: {exc})", argument="--workers") from None
+        finally:
+            _restore_numba_threads(own_threads)
     client = Client(cluster)
     try:
         with _cluster_failures(f"the local Dask cluster of {n} workers"):
@@ -98,6 +101,17 @@ def connect(scheduler):
     finally:
         client.close()
         cluster.close()
+        _restore_numba_threads(own_threads)  # a worker restarted mid-run set it again
+
+
+def _restore_numba_threads(value):
+    """Put back this process's NUMBA_NUM_THREADS: the nanny sets its pre-spawn variables
+    here too, and numba refuses its next compile once the variable differs from the
+    thread count it started with."""
+    if value is None:
+        os.environ.pop("NUMBA_NUM_THREADS", None)
+    else:
+        os.environ["NUMBA_NUM_THREADS"] = value
 
 
 @contextmanager
