@@ -15,6 +15,7 @@ from pathlib import Path
 
 from ..io.atomic import write_atomic
 from . import figures
+from .corridor import alignment_section
 from ..io.results import ResultsFolder, UnitLabels
 from .labels import heading, unit_text
 from .tables import (_fmt, esc, frame_table, html_table, is_flag_column, is_flag_set,
@@ -31,6 +32,7 @@ SECTIONS = (
     ("plans", "Plan views of the vertical stress increase"),
     ("profiles", "Vertical profiles"),
     ("pipes", "Pipe profiles"),
+    ("alignment", "Along the alignment"),
     ("time", "Settlement with time"),
     ("tables", "Result tables"),
     ("convergence", "Convergence check"),
@@ -390,6 +392,7 @@ class _Report:
     def page(self) -> str:
         bodies = {"site": self.site, "inputs": self.inputs, "method": self.method,
                   "plans": self.plans, "profiles": self.profiles, "pipes": self.pipe_profiles,
+                  "alignment": lambda: alignment_section(self.f, _img, esc),
                   "time": self.time, "tables": self.tables, "convergence": self.convergence,
                   "provenance": self.provenance, "cautions": self.cautions}
         title = _site_title(self.f)

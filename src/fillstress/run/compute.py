@@ -23,6 +23,7 @@ from ..solve.auto import stress_at_points
 from ..solve.distributed import connect, distributed_points, distributed_slices
 from ..solve.tiled import tiled_slices
 from . import files, settle
+from .corridor import corridor_results
 from .plan import describe_run, memory_cap, plan_pad, slices_need_tiles, validate_run
 
 ASSUMPTIONS = (
@@ -53,6 +54,7 @@ class RunResults:
     convergence: dict = field(default_factory=dict)
     timings: dict = field(default_factory=dict)
     warnings: list = field(default_factory=list)     # shown by the command and the summary
+    corridor: dict = field(default_factory=dict)     # alignment tables (run.corridor)
 
 
 def stress(site: Site, grid, xyz: np.ndarray, client=None) -> np.ndarray:
@@ -98,6 +100,7 @@ def compute(site: Site, progress=silent, client=None) -> RunResults:
     pts = site.points.copy()
     steps = 2 + len(site.plan_grids) + (2 if site.soil is not None else 0) + _conv_steps(site)
     steps += bool(site.soil is not None and site.plan_grids)
+    steps += site.alignment is not None
     with progress("computing", steps) as bar:
         pts["dsz"] = stress(site, grid, pts[["x", "y", "depth"]].to_numpy(float), client)
         bar.advance()
@@ -114,6 +117,9 @@ def compute(site: Site, progress=silent, client=None) -> RunResults:
                 res.plan_settlement = settle.plan_settlement(
                     site, lambda plan, z: _plan_slices(site, grid, replace(plan, depths=z), client))
                 bar.advance()
+        if site.alignment is not None:
+            res.corridor = corridor_results(site, lambda g, xyz: stress(site, g, xyz, client))
+            bar.advance()
         if _conv_steps(site):
             res.convergence = convergence_check(site, pts, client)
             bar.advance()

@@ -17,6 +17,7 @@ from ..grid import GridSpec
 from ..io import geotiff, manifest, netcdf, tables, vtk
 from ..io.atomic import write_atomic
 from ..progress import silent
+from .corridor import write_corridor_tables
 
 KIND_FILES = {"building": "buildings", "pipe": "pipes", "borehole": "boreholes"}
 
@@ -192,6 +193,7 @@ def _write_tables(res, folder) -> None:
         tables.write_table_csv(folder.path(f"{name}_summary.csv"), summary, u,
                                column_quantities(summary), crs=site.crs)
         _write_geometry(res, folder, kind, name)
+    write_corridor_tables(res, folder)
     if res.time_curves:
         rows = [{"receptor_id": rid, "days": d, "settlement": s}
                 for rid, (days, curve) in res.time_curves.items() for d, s in zip(days, curve)]

@@ -49,6 +49,27 @@ def _settlement_points(points: pd.DataFrame) -> pd.DataFrame:
     return pd.concat([keep, holes])
 
 
+def column_layers(soil, x, y, top_depth: float, stage_grids, evaluate):
+    """Settlement (m) by soil layer of the columns below plan points (x, y) from
+    `top_depth` down, after each stage: shape (N, S, L); None when no compressible soil
+    lies below `top_depth`. Unloading beyond σ'v0 (a deep excavation) leaves 1-D
+    consolidation: such a column is NaN at that stage (heave), the others computed."""
+    z, h = st.sublayers(soil, top_depth=top_depth)
+    if len(z) == 0:
+        return None
+    n = len(x)
+    xyz = np.column_stack([np.repeat(x, len(z)), np.repeat(y, len(z)), np.tile(z, n)])
+    s0 = soil.sigma_v0_eff(z)
+    out = []
+    for g in stage_grids:
+        dsz = evaluate(g, xyz).reshape(n, len(z))
+        tension = np.any(s0 + dsz <= 0, axis=1)
+        layers = st.settlement_by_layer(soil, z, h, np.where(tension[:, None], 0.0, dsz))
+        layers[tension] = np.nan
+        out.append(layers)
+    return np.stack(out, axis=1)
+
+
 def settlement_results(res, evaluate) -> None:
     """Settlement of every stage at the settlement points, the structure checks and the
     settlement–time curves; `evaluate(grid, xyz)` gives Δσz (kPa) at (N, 3) points."""
@@ -58,29 +79,20 @@ def settlement_results(res, evaluate) -> None:
     per_stage = np.zeros((len(targets), len(stage_grids)))
     by_layer_stage = {}
     for depth, idx in targets.groupby("depth").indices.items():
-        z, h = st.sublayers(soil, top_depth=float(depth))
-        if len(z) == 0:
-            continue
         sub = targets.iloc[idx]
-        xyz = np.column_stack([np.repeat(sub["x"].to_numpy(), len(z)),
-                               np.repeat(sub["y"].to_numpy(), len(z)),
-                               np.tile(z, len(sub))])
-        s0 = soil.sigma_v0_eff(z)
-        for s, g in enumerate(stage_grids):
-            dsz = evaluate(g, xyz).reshape(len(sub), len(z))
-            # Unloading beyond σ'v0 (a deep excavation) leaves 1-D consolidation: those
-            # points get no settlement and a warning, the others are computed as usual.
-            tension = np.any(s0 + dsz <= 0, axis=1)
+        layers = column_layers(soil, sub["x"].to_numpy(), sub["y"].to_numpy(), float(depth),
+                               stage_grids, evaluate)
+        if layers is None:
+            continue
+        for s in range(len(stage_grids)):
+            tension = np.isnan(layers[:, s]).any(axis=1)
             if tension.any():
                 res.warnings.append(
                     f"stage {site.stages[s]}: unloading exceeds σ'v0 below "
                     f"{', '.join(sub['point_id'][tension].astype(str)[:5])}"
                     f"{' …' if tension.sum() > 5 else ''}; no settlement there (heave)")
-            layers = st.settlement_by_layer(soil, z, h, np.where(tension[:, None], 0.0, dsz))
-            layers[tension] = np.nan
-            per_stage[idx, s] = layers.sum(axis=1)       # rows sum to the total settlement
-            by_layer_stage.setdefault(depth, []).append(layers)
-        by_layer_stage[depth] = (idx, np.stack(by_layer_stage[depth], axis=1))  # (N, S, L)
+        per_stage[idx] = layers.sum(axis=2)              # rows sum to the total settlement
+        by_layer_stage[depth] = (idx, layers)
     targets = targets.assign(settlement=per_stage[:, -1])
     for s, k in enumerate(site.stages):
         targets[f"settlement_stage{k}"] = per_stage[:, s]

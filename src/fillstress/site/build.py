@@ -21,6 +21,7 @@ from . import receptors as rc
 from ..errors import InputError
 from ..grid import GridSpec, LoadGrid
 from .config import SiteConfig, read_site_file
+from .alignment import build_alignment
 from .ground_use import check_body_ground, depths_from_elevations
 from ..units import UnitSystem
 
@@ -50,6 +51,7 @@ class Site:
     cut_reports: dict = field(default_factory=dict)  # body → surfaces.CutReport
     body_factors: tuple = (1.0, 1.0)  # (unit weight, thickness) scale of a batch variant
     context: object = field(default=None, repr=False)  # what rebuilding the bodies needs
+    alignment: object = None         # site.alignment.Alignment or None
 
     @property
     def warnings(self) -> list:
@@ -217,7 +219,8 @@ def build_site(cfg: SiteConfig) -> Site:
                 ctx.ground, _soil(cfg), _points(ctx, receptors), receptors,
                 _plan_grids(ctx, spec),
                 cut_reports={n: cut for n, (_, cut) in built.items() if cut is not None},
-                context=ctx)
+                context=ctx, alignment=build_alignment(ctx, cfg.get("alignment"), sorted(
+                    {d for g in cfg.get("plan_grids") or [] for d in g["depths"]})))
 
 
 def _check_method(cfg: SiteConfig) -> None:
