@@ -62,7 +62,7 @@ class Table:
         return self.keys + tuple(self.variants.get(kind, ()))
 
     def all_key_names(self) -> list[str]:
-        names = [k.name for k in self.keys] + [a for k in self.keys for a in k.aliases]
+        names = [k.name for k in self.keys]
         for extra in self.variants.values():
             names += [k.name for k in extra if k.name not in names]
         return names
