@@ -297,3 +297,24 @@ def test_report_shows_the_profile_and_sections_with_us_stations(tmp_path):
     head = (tmp_path / "out" / "alignment_profile.csv").read_text().splitlines()[:2]
     assert head[0].startswith("station_ft,station_label,") and "dsz_at_10ft_psf" in head[0]
     assert head[1].split(",")[1] == "10+00"
+
+
+# EPSG:2277's projection in international feet (the definition with +units=ft).
+TEXAS_CENTRAL_FT = ("+proj=lcc +lat_0=29.6666666666667 +lon_0=-100.333333333333 "
+                    "+lat_1=31.8833333333333 +lat_2=30.1166666666667 +x_0=700000 "
+                    "+y_0=3000000 +datum=NAD83 +units=ft")
+
+
+def test_site_crs_in_international_feet_over_us_survey_foot_files_is_warned(corridor,
+                                                                             tmp_path):
+    """The lifts' LandXML state EPSG:2277 (US survey feet); with the site CRS in
+    international feet they move about 21 ft at these coordinates (2 ppm of 1e7 ft)
+    while the survey, which states no CRS, stays put: each moved file is named."""
+    site = _variant(corridor, tmp_path, edit_site=lambda t: t.replace(
+        'crs = "EPSG:2277"', f'crs = "{TEXAS_CENTRAL_FT}"'))
+    warnings = load_site(site).warnings
+    moved = [w for w in warnings if "states a CRS close to the site's" in w]
+    assert len(moved) == 2 and {w.split()[0] for w in moved} == {"lift_1.xml", "lift_2.xml"}
+    shift = float(re.search(r"moved it ([\d.]+) ft", moved[0]).group(1))
+    assert 19.0 < shift < 23.0
+    assert load_site(corridor).warnings == []       # the same files in their own CRS

@@ -90,7 +90,8 @@ def _unit(units: UnitSystem, quantity: str, crs=None) -> tuple[str, float]:
     table = {
         "length": (units.length, L),
         "area": (f"{units.length}2", L**2),
-        "volume": (f"{units.length}3", L**3),
+        # earthwork volumes in cubic yards on US-customary sites (the trade's unit)
+        "volume": ("yd3", (3 * L) ** 3) if units.name == "US" else (f"{units.length}3", L**3),
         "pressure": (units.pressure, units.pressure_to_kpa),
         "unit_weight": (units.unit_weight, units.unit_weight_to_kn_m3),
         "settlement": (units.settlement, units.settlement_to_m),
@@ -109,7 +110,7 @@ def unit_label(units: UnitSystem, quantity: str, crs=None) -> str:
     --------
     >>> from fillstress.units import US
     >>> unit_label(US, "pressure"), unit_label(US, "volume"), unit_label(US, "force")
-    ('psf', 'ft3', 'kip')
+    ('psf', 'yd3', 'kip')
     """
     return _unit(units, quantity, crs)[0]
 

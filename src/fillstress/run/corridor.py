@@ -109,7 +109,7 @@ def sections(site, evaluate) -> tuple[pd.DataFrame, pd.DataFrame]:
     for station, centre, t in zip(a.chainages, centres, tangents):
         normal = np.array([-t[1], t[0]])
         width = _fill_width(site, centre, normal)
-        half = 0.5 * (a.section_width or max(4.0 * width, 20 * site.spec.dx))
+        half = 0.5 * (a.section_width or max(2.5 * width, 20 * site.spec.dx))
         offsets = np.linspace(-half, half, SECTION_OFFSETS)
         xy = centre + offsets[:, None] * normal
         surface = pd.DataFrame({"station": station, "offset": offsets, "x": xy[:, 0],

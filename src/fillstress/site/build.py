@@ -22,7 +22,7 @@ from ..errors import InputError
 from ..grid import GridSpec, LoadGrid
 from .config import SiteConfig, read_site_file
 from .alignment import build_alignment
-from .ground_use import check_body_ground, depths_from_elevations
+from .ground_use import check_body_ground, depths_from_elevations, warn_near_miss
 from ..units import UnitSystem
 
 # Receptor kinds: the site-file table and the point-table kind.
@@ -178,6 +178,7 @@ class _Context:
             self.surfaces[key] = read_surface(path, site_crs=self.site_crs,
                                               z_to_m=self.cfg.units.length_to_m,
                                               surface_name=surface_name)
+            warn_near_miss(self, path, getattr(self.surfaces[key], "moved_m", 0.0))
         return self.surfaces[key]
 
 
@@ -317,6 +318,10 @@ def _to_site(ctx: _Context, frame, path):
     if layer_crs is None and ctx.site_crs is None:
         raise InputError("the layer states no CRS and neither does the site; add "
                          "crs = \"EPSG:...\" to [site]", file=path)
+    if layer_crs is not None and ctx.site_crs is not None and len(frame):
+        b = frame.total_bounds
+        warn_near_miss(ctx, path, crsmod.near_miss_shift(
+            ((b[0] + b[2]) / 2, (b[1] + b[3]) / 2), layer_crs, ctx.site_crs))
     # to_site also refuses "degrees" that cannot be (GeoJSON without a crs member)
     return crsmod.to_site(np.asarray(frame.geometry.values, dtype=object),
                           layer_crs, ctx.site_crs, argument="crs", file=path)

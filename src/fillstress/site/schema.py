@@ -191,8 +191,8 @@ ALIGNMENT = Table("alignment", "A centreline with stations (chainage) for the lo
         "(default: the plan-grid depths).", unit=LENGTH),
     Key("profile_step", "float", "Spacing of the profile points along the centreline "
         "(default: about 400 points over its length).", unit=LENGTH, **_POS),
-    Key("section_width", "float", "Full width of each cross-section (default: 4 × the "
-        "widest fill across the centreline).", unit=LENGTH, **_POS),
+    Key("section_width", "float", "Full width of each cross-section (default: 2.5 × the "
+        "width of the fill across the centreline there).", unit=LENGTH, **_POS),
     Key("section_depth", "float", "Depth of each cross-section's Δσz panel (default: "
         "the width of the fill across the centreline, at most the soil profile's depth).",
         unit=LENGTH, **_POS),
