@@ -148,7 +148,7 @@ def slice_accuracy() -> tuple[str, str, str]:
 
 def bench_arctangent(args) -> list[tuple[str, str, str]]:
     """ns per call of the arctangent the kernels need, atan2(y, c) for c > 0, three ways
-    (docs/performance.md, "Arctangent"): numba's math.atan2, and math.atan and the
+    (`--only arctangent`): numba's math.atan2, and math.atan and the
     kernels' fast_atan on y·(1/c) with 1/c computed beforehand, as the kernels do once
     per point.  One thread, the same 10^6 arguments, the best of --repeat runs."""
     import numba

@@ -1,6 +1,6 @@
 """Scale benchmarks: far field vs direct summation, tiled slices under a cap, Dask.
 
-Prints Markdown.  Example (the figures in docs/performance.md, "## Scale"):
+Prints Markdown.  Example (the figures in docs/performance.md, "## Far field"):
 
     PYTHONPATH=src python benchmarks/bench_scale.py --cells 1000000 --points 100000 \
         --slice-cells 10000000 --cap-gb 2 --dask-points 20000

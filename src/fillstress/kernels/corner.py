@@ -24,7 +24,7 @@ INV_2PI = 1.0 / (2.0 * math.pi)
 # from memory; tests hold it to libm's atan within 4e-16 relative.  The corner sums spend
 # most of their time in the arctangent; the one-argument form on y·(1/c) is what beats
 # math.atan2, and this function is measured beside math.atan by benchmarks/bench_engine.py
-# (docs/performance.md, "Arctangent").
+# (`benchmarks/bench_engine.py --only arctangent`).
 _ATAN_P = (-8.750608600031904122785e-1, -1.615753718733365076637e1, -7.500855792314704667340e1,
            -1.228866684490136173410e2, -6.485021904942025371773e1)
 _ATAN_Q = (2.485846490142306297962e1, 1.650270098316988542046e2, 4.328810604912902668951e2,

@@ -43,8 +43,9 @@ def node_weights(pressure: np.ndarray) -> np.ndarray:
 
 
 # A row with at least this share of non-zero node weights is summed densely (no index
-# array); sparser rows list their non-zero nodes.  A listed node costs about 1.35 dense
-# ones (docs/performance.md, "Direct summation"), so the break-even share is about 0.75.
+# array); sparser rows list their non-zero nodes.  A listed node cost about 1.35 dense ones
+# when every row was listed (benchmarks/bench_engine.py --only ceiling, before the split), so
+# the break-even share is about 0.75; 0.7 is that, rounded down, not tuned.
 DENSE_ROW_SHARE = 0.7
 
 
