@@ -28,7 +28,9 @@ sys.path.insert(0, str(ROOT / "src"))
 sys.path.insert(0, str(ROOT / "tests"))
 
 import reference  # noqa: E402
+from ceiling import ceiling_stress  # noqa: E402
 from fillstress import LoadGrid  # noqa: E402
+from fillstress.kernels import resolve_method  # noqa: E402
 from fillstress.solve import stress_slices, vertical_stress  # noqa: E402
 
 
@@ -77,6 +79,48 @@ def bench_direct(args) -> list[tuple[str, str, str]]:
     return rows
 
 
+def terraced_fill(n: int) -> LoadGrid:
+    """A smooth load: a square pile in 8 flat terraces (most node weights are zero)."""
+    ii, jj = np.meshgrid(np.arange(n), np.arange(n))
+    ring = np.minimum(np.minimum(ii, n - 1 - ii), np.minimum(jj, n - 1 - jj))
+    return LoadGrid(18.0 * np.minimum(ring * 8 // n + 1, 8).astype(float), 0.0, 0.0, 1.0, 1.0)
+
+
+def interleaved_ratios(first, second, repeat: int) -> np.ndarray:
+    """time(first) / time(second) for `repeat` runs taken in turn, so both see the same
+    load on the machine."""
+    ratios = []
+    for _ in range(repeat):
+        t = time.perf_counter()
+        first()
+        t_first = time.perf_counter() - t
+        t = time.perf_counter()
+        second()
+        ratios.append(t_first / (time.perf_counter() - t))
+    return np.asarray(ratios)
+
+
+def bench_ceiling(args) -> list[tuple[str, str, str]]:
+    """Direct summation (node kernel) against the dense ceiling kernel of benchmarks/
+    ceiling.py, as speed ratios (ceiling time / package time) from interleaved runs."""
+    loads = {"ragged": fills(args.cells)["ragged"], "terraced": terraced_fill(args.cells)}
+    pts = sample_points(args.ceiling_points, args.cells)
+    rows = []
+    for method, poisson in (("boussinesq", None), ("westergaard", 0.0)):
+        spec = resolve_method(method, poisson)
+        for name, grid in loads.items():
+            package = lambda: vertical_stress(grid, pts, method, poisson)  # noqa: E731
+            ceiling = lambda: ceiling_stress(grid, pts, spec)  # noqa: E731
+            diff = np.abs(package() - ceiling()).max() / grid.pressure.max()
+            ratios = interleaved_ratios(ceiling, package, args.ratio_repeat)
+            rows.append((f"direct vs dense ceiling, {method}, {name} fill "
+                         f"{args.cells}x{args.cells}, {len(pts)} points",
+                         f"{np.median(ratios):.2f}x the ceiling (median of {ratios.size})",
+                         f"range {ratios.min():.2f}-{ratios.max():.2f}; "
+                         f"max diff {diff:.0e} of max p"))
+    return rows
+
+
 def bench_slice(args) -> list[tuple[str, str, str]]:
     n = args.slice_size
     grid = fills(n)["ragged"]
@@ -104,7 +148,7 @@ def slice_accuracy() -> tuple[str, str, str]:
 
 def bench_arctangent(args) -> list[tuple[str, str, str]]:
     """ns per call of the arctangent the kernels need, atan2(y, c) for c > 0, three ways
-    (docs/performance.md, "Arctangent"): numba's math.atan2, and math.atan and the
+    (`--only arctangent`): numba's math.atan2, and math.atan and the
     kernels' fast_atan on y·(1/c) with 1/c computed beforehand, as the kernels do once
     per point.  One thread, the same 10^6 arguments, the best of --repeat runs."""
     import numba
@@ -186,15 +230,22 @@ def main(argv=None) -> None:
     parser.add_argument("--depths", type=int, default=20, help="slices in the memory run")
     parser.add_argument("--workers", type=int, default=None, help="scipy.fft threads")
     parser.add_argument("--repeat", type=int, default=3)
+    parser.add_argument("--ceiling-points", type=int, default=1000,
+                        help="points of the package-vs-ceiling comparison")
+    parser.add_argument("--ratio-repeat", type=int, default=7,
+                        help="interleaved runs behind each ratio")
+    parser.add_argument("--only", nargs="*", default=None,
+                        help="run only these parts: direct ceiling slice arctangent memory")
     parser.add_argument("--skip-memory", action="store_true")
     parser.add_argument("--memory-child", action="store_true", help=argparse.SUPPRESS)
     args = parser.parse_args(argv)
     if args.memory_child:
         print(json.dumps(memory_child(args.slice_size, args.depths, args.workers)))
         return
-    rows = bench_direct(args) + bench_slice(args) + bench_arctangent(args)
-    if not args.skip_memory:
-        rows += bench_memory(args)
+    parts = {"direct": bench_direct, "ceiling": bench_ceiling, "slice": bench_slice,
+             "arctangent": bench_arctangent, "memory": bench_memory}
+    chosen = args.only or [k for k in parts if not (k == "memory" and args.skip_memory)]
+    rows = [row for name in chosen for row in parts[name](args)]
     print("| case | result | note |\n|---|---|---|")
     for case, result, note in rows:
         print(f"| {case} | {result} | {note} |")

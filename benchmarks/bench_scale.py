@@ -1,6 +1,6 @@
 """Scale benchmarks: far field vs direct summation, tiled slices under a cap, Dask.
 
-Prints Markdown.  Example (the figures in docs/performance.md, "## Scale"):
+Prints Markdown.  Example (the figures in docs/performance.md, "## Far field"):
 
     PYTHONPATH=src python benchmarks/bench_scale.py --cells 1000000 --points 100000 \
         --slice-cells 10000000 --cap-gb 2 --dask-points 20000
@@ -56,6 +56,12 @@ def timed(fn, *args, **kwargs):
 
 
 def far_vs_direct(cells: int, n_points: int, subset: int) -> list[str]:
+    return far_figures(cells, n_points, subset)["lines"]
+
+
+def far_figures(cells: int, n_points: int, subset: int) -> dict:
+    """Far field against direct summation: times (s), bound/error ratios and the Markdown
+    lines that report them."""
     grid = invented_site(cells)
     pts = points_on(grid, n_points)
     evaluate_pyramid(build_pyramid(LoadGrid(np.ones((4, 4)), 0, 0, 1, 1)), pts[:2])  # compile
@@ -70,7 +76,7 @@ def far_vs_direct(cells: int, n_points: int, subset: int) -> list[str]:
     slack = bound[:subset][err > 0] / err[err > 0]
     extrapolated = t_sub * n_points / subset
     corners = subset * direct_work(grid, 1)
-    return [
+    lines = [
         f"### Far field: {n_points} points on {grid.ny} × {grid.nx} = {grid.pressure.size} cells",
         "",
         "| step | time |",
@@ -95,6 +101,8 @@ def far_vs_direct(cells: int, n_points: int, subset: int) -> list[str]:
         f"FAR_SECONDS_PER_POINT {t_far / n_points:.2g}.",
         "",
     ]
+    return {"build": t_build, "far": t_far, "slack_median": float(np.median(slack)),
+            "slack_min": float(slack.min()), "slack_max": float(slack.max()), "lines": lines}
 
 
 def _span(values) -> str:

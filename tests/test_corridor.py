@@ -166,3 +166,155 @@ def test_us_spelling_centerline_is_the_same_key_and_both_at_once_are_refused(tmp
     path.write_text(EMBANKMENT.format(line=f"centreline = {line}\ncenterline = {line}"))
     with pytest.raises(InputError, match=r"bodies\.levee\.centerline.*not both"):
         read_site_file(path)
+
+
+# --- alignment: stations, profile, sections -------------------------------------------
+LEVEE = """[site]
+name = "Hollin Lane levee"
+crs = "EPSG:2277"
+units = "US"
+[grid]
+cell = 5.0
+margin = 60.0
+[bodies.levee]
+kind = "embankment"
+centerline = [[3050000, 10070000], [3050600, 10070000]]
+crest_width = 12.0
+side_slope = 3.0
+heights = [[0, 8.0], [600, 8.0]]
+unit_weight = 120.0
+[alignment]
+body = "levee"
+start_station = 1000.0
+stations = [1300.0]
+profile_depths = [10.0]
+profile_step = 50.0
+section_width = 162.0   # ft: the 81 offsets miss the 5 ft cell edges
+[[boreholes]]
+id = "B-mid"
+x = 3050300.0
+y = 10070000.0
+top = 1.0
+bottom = 40.0
+step = 1.0
+[soil]
+water_table = 4.0
+[[soil.layers]]
+name = "soft clay"
+top = 0.0
+bottom = 40.0
+unit_weight = 105.0
+cc = 0.35
+cr = 0.05
+e0 = 1.1
+ocr = 1.2
+cv = 20.0
+[settlement]
+stage_days = [0]
+"""
+
+
+@pytest.fixture(scope="module")
+def levee(tmp_path_factory):
+    """A straight 600 ft levee stationed from 10+00, run once (no report, no check)."""
+    from fillstress.run.compute import compute
+    path = tmp_path_factory.mktemp("levee") / "site.toml"
+    path.write_text(LEVEE.replace("[grid]", "[grid]\nconvergence_check = false"))
+    return compute(load_site(path))
+
+
+def test_stations_read_the_us_spellings_and_start_where_stationing_starts(levee):
+    a = levee.site.alignment
+    assert a.start == pytest.approx(1000 * FOOT) and a.chainages == pytest.approx(
+        (1300 * FOOT,))
+    profile = levee.corridor["alignment_profile"]
+    assert profile["station"].iloc[0] == pytest.approx(1000 * FOOT)
+    assert profile["station"].iloc[-1] == pytest.approx(1600 * FOOT)
+
+
+def test_profile_stress_matches_the_slow_reference_over_the_load_grid(levee):
+    from reference import grid_stress
+    profile = levee.corridor["alignment_profile"]
+    g = levee.grid
+    xyz = np.column_stack([profile["x"], profile["y"], np.full(len(profile), 10 * FOOT)])
+    expected = grid_stress(g.pressure, g.x0, g.y0, g.dx, g.dy, xyz)
+    np.testing.assert_allclose(profile["dsz_z3.048"], expected, rtol=1e-6)
+    # mid-levee: 8 ft of fill under the crest
+    mid = profile.iloc[len(profile) // 2]
+    assert mid["fill_height"] == pytest.approx(8 * FOOT, rel=1e-6)
+
+
+def test_profile_settlement_equals_the_borehole_at_the_same_place(levee):
+    """Station 13+00 is the borehole B-mid: two paths (alignment, receptor) agree."""
+    profile = levee.corridor["alignment_profile"]
+    row = profile.iloc[int(np.argmin(np.abs(profile["station"] - 1300 * FOOT)))]
+    hole = levee.points[(levee.points["receptor_id"] == "B-mid")
+                        & levee.points["settlement"].notna()]
+    assert row["settlement"] == pytest.approx(float(hole["settlement"].iloc[0]), rel=1e-9)
+    years = [c for c in profile.columns if c.endswith("yr")]
+    values = row[years].to_numpy(float)
+    assert np.all(np.diff(values) >= 0) and values[-1] <= row["settlement"] * (1 + 1e-9)
+
+
+def test_cross_section_of_a_straight_levee_is_symmetric(levee):
+    surface = levee.corridor["alignment_section_surface"]
+    panel = levee.corridor["alignment_section_dsz"]
+    assert surface["offset"].min() == pytest.approx(-81 * FOOT)
+    # The 5 ft cells sit 0.028 cell off the centreline (90 ftUS of margin and toe are not
+    # 18 international-foot cells), so symmetry holds to the raster's resolution: a
+    # cell's run on the 3:1 slope for the fill, a small fraction for the smooth results.
+    fill = surface["fill_height"].to_numpy()
+    np.testing.assert_allclose(fill, fill[::-1], atol=5 * FOOT / 3)
+    settle = surface["settlement"].to_numpy()
+    np.testing.assert_allclose(settle, settle[::-1], rtol=0.02, atol=1e-2 * settle.max())
+    for _, level in panel.groupby("depth"):
+        dsz = level["dsz"].to_numpy()
+        np.testing.assert_allclose(dsz, dsz[::-1], rtol=0.02, atol=1e-2 * dsz.max())
+    assert fill[40] == pytest.approx(8 * FOOT) and settle[40] == settle.max()
+
+
+def test_alignment_refusals(tmp_path):
+    cases = {"stations = [1300.0]": ("stations = [2000.0]", r"station 20\+00 is off the "
+                                     r"centreline \(10\+00 to 16\+00\)"),
+             'body = "levee"': ('body = "road"', "not an embankment body")}
+    for old, (new, message) in cases.items():
+        path = tmp_path / "site.toml"
+        path.write_text(LEVEE.replace(old, new))
+        with pytest.raises(InputError, match=message):
+            load_site(path)
+
+
+def test_report_shows_the_profile_and_sections_with_us_stations(tmp_path):
+    from fillstress.run.compute import run_site_file
+    path = tmp_path / "site.toml"
+    path.write_text(LEVEE.replace("[grid]", "[grid]\nconvergence_check = false")
+                    + "[outputs]\nscene = false\nvtk = false\nnetcdf = false\n")
+    run_site_file(path, tmp_path / "out")
+    html = (tmp_path / "out" / "report.html").read_text()
+    section = html[html.index('<section id="alignment"'):]
+    section = section[:section.index("</section>")]
+    assert "Cross-section at station 13+00" in section and section.count("<img") == 2
+    head = (tmp_path / "out" / "alignment_profile.csv").read_text().splitlines()[:2]
+    assert head[0].startswith("station_ft,station_label,") and "dsz_at_10ft_psf" in head[0]
+    assert head[1].split(",")[1] == "10+00"
+
+
+# EPSG:2277's projection in international feet (the definition with +units=ft).
+TEXAS_CENTRAL_FT = ("+proj=lcc +lat_0=29.6666666666667 +lon_0=-100.333333333333 "
+                    "+lat_1=31.8833333333333 +lat_2=30.1166666666667 +x_0=700000 "
+                    "+y_0=3000000 +datum=NAD83 +units=ft")
+
+
+def test_site_crs_in_international_feet_over_us_survey_foot_files_is_warned(corridor,
+                                                                             tmp_path):
+    """The lifts' LandXML state EPSG:2277 (US survey feet); with the site CRS in
+    international feet they move about 21 ft at these coordinates (2 ppm of 1e7 ft)
+    while the survey, which states no CRS, stays put: each moved file is named."""
+    site = _variant(corridor, tmp_path, edit_site=lambda t: t.replace(
+        'crs = "EPSG:2277"', f'crs = "{TEXAS_CENTRAL_FT}"'))
+    warnings = load_site(site).warnings
+    moved = [w for w in warnings if "states a CRS close to the site's" in w]
+    assert len(moved) == 2 and {w.split()[0] for w in moved} == {"lift_1.xml", "lift_2.xml"}
+    shift = float(re.search(r"moved it ([\d.]+) ft", moved[0]).group(1))
+    assert 19.0 < shift < 23.0
+    assert load_site(corridor).warnings == []       # the same files in their own CRS

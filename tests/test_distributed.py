@@ -111,6 +111,7 @@ def test_fillstress_cluster_retries_a_killed_worker_then_fails_in_one_line(tmp_p
     from fillstress.errors import ClusterError
     from fillstress.solve.distributed import ALLOWED_FAILURES, connect
     marker = str(tmp_path / "died-once")
+    own_threads = os.environ.get("NUMBA_NUM_THREADS")
     with pytest.raises(ClusterError) as err:
         with connect(2) as c:
             # a worker killed mid-run: its task runs again on a fresh worker
@@ -120,6 +121,8 @@ def test_fillstress_cluster_retries_a_killed_worker_then_fails_in_one_line(tmp_p
             map_variants(_die_always, [1], client=c)   # kills every worker it reaches
     assert f"lost a worker {ALLOWED_FAILURES} times" in str(err.value)
     assert "\n" not in str(err.value)
+    # the workers' thread count does not leak into this process (numba would refuse to compile)
+    assert os.environ.get("NUMBA_NUM_THREADS") == own_threads
 
 
 def test_dask_points_and_slices_match_the_slow_reference(client):

@@ -45,7 +45,7 @@ def test_us_conversion_of_every_quantity_kind():
     assert out["dsz_psf"] == pytest.approx(250.0)
     assert out["settlement_in"] == pytest.approx(1.0)
     assert out["unit_weight_pcf"] == pytest.approx(120.0)
-    assert out["volume_ft3"] == pytest.approx(8.0)
+    assert out["volume_yd3"] == pytest.approx(8.0 / 27)     # 27 ft³ to the cubic yard
     assert out["footprint_area_ft2"] == pytest.approx(5.0)
     assert out["total_load_kip"] == pytest.approx(3.0)
     assert out["stress_ratio"] == 0.4 and out["n_points"] == 7

@@ -5,6 +5,7 @@ import pytest
 from fillstress.errors import InputError
 from fillstress.monitoring import asaoka, hyperbolic, resample_equal
 from reference import terzaghi_average_degree
+from validation_cases import BACK_ANALYSIS, cases
 
 S_ULT = 0.62          # m, invented
 CV = 2.4              # m²/year, invented
@@ -25,7 +26,7 @@ def u_above(fraction):
 
 @pytest.mark.parametrize("step", [15.0, 30.0, 60.0])
 def test_asaoka_on_terzaghi_above_60_percent(step):
-    # Issue check: ultimate within 2 %, cv within 5 % from readings with U > 60 %.
+    # Acceptance check: ultimate within 2 %, cv within 5 % from readings with U > 60 %.
     start = u_above(0.6)
     days = start + step * np.arange(12)
     fit = asaoka(days, terzaghi_readings(days), drainage_path_m=H_DR)
@@ -95,3 +96,9 @@ def test_resample_equal_keeps_the_first_reading_and_interpolates():
     t, s = resample_equal([3.0, 4.0, 9.0], [1.0, 2.0, 7.0], step=2.0)
     assert t.tolist() == [3.0, 5.0, 7.0, 9.0]
     assert s.tolist() == [1.0, 3.0, 5.0, 7.0]
+
+
+@pytest.mark.parametrize("case", cases(BACK_ANALYSIS), ids=lambda c: c.id)
+def test_registry_cases(case):
+    computed = case.compute()
+    assert case.passes(computed), case.explain(computed)

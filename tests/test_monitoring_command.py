@@ -59,6 +59,11 @@ def test_folder_has_tables_pictures_report_and_manifest(monitored):
     assert "final_revised_mm" in header and "f_cv_low" in header
 
 
+def test_report_command_refuses_a_monitoring_folder(monitored, capsys):
+    assert main(["report", str(monitored[1])]) == 2
+    assert "monitoring folder" in capsys.readouterr().err
+
+
 def test_forecast_days_are_consistent(monitored):
     ins = monitored[0].results.instruments
     assert (ins["degree_now"] > 0).all() and (ins["degree_now"] < 1).all()

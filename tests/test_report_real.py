@@ -84,12 +84,12 @@ def test_table_headers_carry_the_site_units(page, run):
     heads = " | ".join(text for _, text in parsed.th)
     units = json.loads((run / "manifest.json").read_text())["units"]
     assert units["system"] == "US" and units["plan"] == "ftUS"
-    for unit in ("(pcf)", "(ft³)", "(ft²)", "(ft)", "(kip)"):        # bodies.csv
+    for unit in ("(pcf)", "(yd³)", "(ft²)", "(ft)", "(kip)"):        # bodies.csv
         assert unit in heads
     for unit in ("(psf)", "(in)", "(US survey ft)"):                  # receptor summaries
         assert unit in heads
     # no raw column names with a unit suffix are left in any header
-    assert not re.search(r"_(psf|ft|in|pcf|kip|ft2|ft3|m|kPa|mm)\b", heads)
+    assert not re.search(r"_(psf|ft|in|pcf|kip|ft2|ft3|yd3|m|kPa|mm)\b", heads)
     assert "(kPa)" not in heads and "(mm)" not in heads and "(m)" not in heads
 
 

@@ -151,7 +151,6 @@ def test_hover_shows_a_receptor_and_its_values(page, truth):
         if text:
             break
     assert browser.evaluate("getComputedStyle(document.getElementById('tip')).display") == "block"
-    keep(browser.screenshot(), "scene_page_hover.png")
     assert "Δσz" in text and "kPa" in text and "deep" in text
     ids = [NASTY_ID, *truth.building_ids, truth.pipe_id, truth.borehole_id]
     assert any(i in text for i in ids)                    # text from inputs shown literally
@@ -172,3 +171,20 @@ def test_input_text_cannot_break_out_of_the_script(truth):
     text = page_html(scene)
     assert "<script>alert" not in text                   # the nasty building id, escaped
     assert text.count("<script>") == 1
+
+
+def test_large_lattices_are_thinned_for_the_browser(truth, monkeypatch):
+    """A slice with more nodes than MAX_LATTICE_NODES is sent at every k-th node."""
+    import base64
+    from fillstress import scene_page
+    scene = viewer.scene_parts(truth.path, exaggeration=2.0)
+    full = [p for p in scene_page.scene_data(scene)["parts"] if p["kind"] == "grid"]
+    monkeypatch.setattr(scene_page, "MAX_LATTICE_NODES", 100)
+    thin = [p for p in scene_page.scene_data(scene)["parts"] if p["kind"] == "grid"]
+    for a, b in zip(full, thin):
+        assert b["n0"] * b["n1"] <= 100 < a["n0"] * a["n1"]
+        assert len(base64.b64decode(b["z"])) == 4 * b["n0"] * b["n1"]
+        step = scene_page.lattice_step(a["n0"] * a["n1"])
+        za = np.frombuffer(base64.b64decode(a["z"]), np.float32).reshape(a["n1"], a["n0"])
+        zb = np.frombuffer(base64.b64decode(b["z"]), np.float32).reshape(b["n1"], b["n0"])
+        np.testing.assert_array_equal(zb, za[::step, ::step])

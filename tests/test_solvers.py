@@ -9,7 +9,7 @@ import reference
 from fillstress import LoadGrid
 from fillstress.errors import InputError
 from fillstress.solve import slice_at_depth, stress_slices, vertical_stress
-from fillstress.solve.direct import node_weights
+from fillstress.solve.direct import node_rows, node_weights
 
 METHODS = [("boussinesq", None), ("westergaard", 0.0), ("westergaard", 0.35)]
 
@@ -50,6 +50,24 @@ def test_fast_kernels_match_reference(method, poisson, kernel):
     got = vertical_stress(grid, pts, method, poisson, kernel=kernel)
     scale = np.abs(grid.pressure).max()
     np.testing.assert_allclose(got, expected, rtol=0, atol=1e-12 * scale)
+
+
+@pytest.mark.parametrize("method, poisson", METHODS)
+def test_dense_and_listed_node_rows_match_reference(method, poisson):
+    # ragged rows in the south (summed densely), a uniform band and a sparse strip in the
+    # north (listed nodes), at the surface, on nodes and below
+    rng = np.random.default_rng(11)
+    p = np.full((14, 12), 40.0)
+    p[:6] = rng.uniform(5.0, 90.0, (6, 12))
+    p[10:, 4] = -15.0
+    grid = LoadGrid(p, x0=-3.0, y0=7.0, dx=0.9, dy=0.6)
+    rows = node_rows(node_weights(grid.pressure))
+    assert rows.dense.any() and not rows.dense.all()
+    pts = random_points(grid, 12, 70)
+    expected = reference.grid_stress(grid.pressure, grid.x0, grid.y0, grid.dx, grid.dy, pts,
+                                     method, poisson)
+    got = vertical_stress(grid, pts, method, poisson)
+    np.testing.assert_allclose(got, expected, rtol=0, atol=1e-12 * np.abs(p).max())
 
 
 @pytest.mark.parametrize("method, poisson", METHODS)

@@ -4,6 +4,7 @@ quiet, and Ctrl-C ends a run (Dask included) with one line."""
 from __future__ import annotations
 
 import json
+import re
 import os
 import subprocess
 import sys
@@ -61,7 +62,9 @@ def test_same_inputs_give_identical_data_files(two_runs):
         assert _without_times(a, rel) == _without_times(b, rel)
     layer = json.loads((a / "boreholes.geojson").read_text())["name"]
     assert layer == "boreholes"
-    assert b"0x" not in (a / "vtk" / "stress_p.vtr").read_bytes().split(b"<AppendedData")[0]
+    header = (a / "vtk" / "stress_p.vtr").read_bytes().split(b"<AppendedData")[0]
+    # no memory address in the markup; base64 payloads may spell "0x" by chance
+    assert b"0x" not in re.sub(rb">[A-Za-z0-9+/=\s]+<", b"><", header)
 
 
 def test_formula_text_is_neutralised_and_numbers_stay_numbers(two_runs):

@@ -141,7 +141,7 @@ def test_depth_slider_is_in_depth_units_and_snaps_to_slices(truth):
 
 def test_exaggeration_slider_reframes_and_recaptions(truth):
     import vtk
-    plotter = viewer.build_scene(truth.path, interactive=True, window_size=(600, 450))
+    plotter = viewer.build_scene(truth.path, interactive=True, window_size=(900, 675))
     try:
         slider = plotter.widgets.slider_widgets[1]
         slider.GetRepresentation().SetValue(9.0)
@@ -156,7 +156,7 @@ def test_exaggeration_slider_reframes_and_recaptions(truth):
             ren.SetWorldPoint(*c, 1.0)
             ren.WorldToDisplay()
             px, py, _ = ren.GetDisplayPoint()
-            inside.append(-1 <= px <= 601 and -1 <= py <= 451)
+            inside.append(-1 <= px <= 901 and -1 <= py <= 676)
     finally:
         plotter.close()
     keep(img, "window_exaggeration_9.png")

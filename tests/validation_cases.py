@@ -81,9 +81,10 @@ WESTERGAARD = "Westergaard"
 SETTLEMENT = "Consolidation settlement, hand calculations"
 TIME_RATE = "Time rate of consolidation (Terzaghi)"
 VOLUMES = "Fill volumes against analytic solids"
+BACK_ANALYSIS = "Back-analysis of settlement readings"
 
 TOPICS = [CORNER, STRIP, CIRCLE, EMBANKMENT, EMBANKMENT_END, EQUILIBRIUM, WESTERGAARD,
-          SETTLEMENT, TIME_RATE, VOLUMES]
+          SETTLEMENT, TIME_RATE, VOLUMES, BACK_ANALYSIS]
 
 
 def add(id, topic, quantity, published, source, tolerance, kind, compute, derived=False):
@@ -499,6 +500,46 @@ for _u, _tv in TERZAGHI_U_TV:
 add("terzaghi-t90", TIME_RATE, "t90 (years), cv = 2 m²/yr, drainage path 4 m", 6.785,
     "hand calculation t90 = Tv(90 %)·H²/cv with the Terzaghi (1943) table value Tv = 0.848",
     1e-3, "rel", partial(time_to_degree, 0.9, 2.0, 4.0))
+
+
+# --- back-analysis of settlement readings ------------------------------------------------------
+# Readings generated exactly from Terzaghi's series (an independent 200-term sum in
+# reference.py): one layer, one instant load step, invented s_ult = 0.62 m, cv = 2.4 m²/yr,
+# H_dr = 4 m, every 30 days from the day U first exceeds 60 % (12 readings).
+READINGS_ULT, READINGS_CV, READINGS_HDR = 0.62, 2.4, 4.0
+ASAOKA_SOURCE = ("Asaoka (1978) on readings generated from Terzaghi's (1943) series with the "
+                 "stated s_ult and cv; tolerance of the project's acceptance check (U > 60 %)")
+
+
+@lru_cache(maxsize=1)
+def _asaoka_on_terzaghi():
+    from fillstress.monitoring import asaoka
+    rate = READINGS_CV / 365.25 / READINGS_HDR**2
+    days = np.arange(1.0, 5000.0)
+    start = days[np.argmax(reference.terzaghi_average_degree(rate * days) > 0.6)]
+    t = start + 30.0 * np.arange(12)
+    return asaoka(t, READINGS_ULT * reference.terzaghi_average_degree(rate * t),
+                  drainage_path_m=READINGS_HDR)
+
+
+def _hyperbolic_closed_form() -> float:
+    """Tan (1971) hyperbola with invented α = 55 days/m, β = 1.6 /m, t0 = 90, s0 = 0.21 m."""
+    from fillstress.monitoring import hyperbolic
+    t = 90.0 + np.array([0.0, 7, 19, 40, 75, 130, 260, 500])
+    s = 0.21 + np.where(t > 90, (t - 90) / (55.0 + 1.6 * (t - 90)), 0.0)
+    return hyperbolic(t, s, start_day=90.0).ultimate
+
+
+add("asaoka-ultimate", BACK_ANALYSIS, "Asaoka ultimate settlement (m), readings at U > 60 %",
+    READINGS_ULT, ASAOKA_SOURCE, 0.02, "rel", lambda: _asaoka_on_terzaghi().ultimate,
+    derived=True)
+add("asaoka-cv", BACK_ANALYSIS, "cv implied by Asaoka's β1 (m²/year), H_dr = 4 m",
+    READINGS_CV, ASAOKA_SOURCE, 0.05, "rel", lambda: _asaoka_on_terzaghi().cv_m2_per_yr,
+    derived=True)
+# s0 + 1/β = 0.21 + 1/1.6 = 0.835 m
+add("hyperbolic-ultimate", BACK_ANALYSIS, "Tan (1971) hyperbolic ultimate on its own closed "
+    "form (m)", 0.835, "closed form s0 + 1/β of the hyperbola the readings lie on", 1e-12,
+    "rel", _hyperbolic_closed_form, derived=True)
 
 
 # --- fill volumes against analytic solids ------------------------------------------------------------

@@ -181,6 +181,11 @@ existing = "lift_1.xml"
 unit_weight = 125.0
 stage = 2
 
+[alignment]
+centerline = {xy(centreline)}
+stations = {stations}
+profile_depths = [5.0, 15.0]
+
 {chr(10).join(blocks)}
 [[pipes]]
 id = "WM-24"

@@ -111,7 +111,8 @@ def body_rows(site):
             for b in site.bodies]
     force = tables.unit_label(u, "force")
     return ("Fill bodies", ["body", "kind", "stage", f"γ ({u.unit_weight})",
-                            f"volume ({u.length}³)", f"footprint ({u.length}²)",
+                            f"volume ({tables.unit_label(u, 'volume').replace('3', '³')})",
+                            f"footprint ({u.length}²)",
                             f"max height ({u.length})", f"load ({force})"], rows)
 
 

@@ -332,3 +332,34 @@ def layer_and_site(layer_crs, site, *, file=None) -> tuple[pyproj.CRS, tuple[pyp
     except InputError as exc:
         raise InputError(exc.reason, file=file) from None
     return site[0], site
+
+
+#: A layer moved by more than NEAR_MISS_M[0] but less than NEAR_MISS_M[1] on its way into the
+#: site CRS is in a near twin of it (another foot, another realisation of the datum): the
+#: transformation is right, but files of the same origin that state no CRS were taken as
+#: already in the site CRS and are off by that much (common practice: 1 ft is a blunder on
+#: a road job; beyond a kilometre the systems are plainly different).
+NEAR_MISS_M = (0.3, 1000.0)
+
+
+def near_miss_shift(xy, layer_crs, site) -> float:
+    """How far (m) the point `xy` of a layer moves between its own CRS and the site's,
+    compared with taking its numbers as site-CRS numbers; 0 when it is not a near miss
+    (same CRS, or moved by NEAR_MISS_M[1] or more).
+
+    Examples
+    --------
+    >>> texas_central_in_feet = ("+proj=lcc +lat_0=29.6666666666667 +lon_0=-100.333333333333 "
+    ...     "+lat_1=31.8833333333333 +lat_2=30.1166666666667 +x_0=700000 +y_0=3000000 "
+    ...     "+datum=NAD83 +units=ft")                # EPSG:2277 in international feet
+    >>> xy = (3048000.0, 10071000.0)
+    >>> round(near_miss_shift(xy, "EPSG:2277", texas_central_in_feet) / 0.3048, 1)
+    21.0
+    """
+    crs, factor = _resolve_site(site)
+    layer = _horizontal(as_crs(layer_crs))
+    if layer.equals(crs):
+        return 0.0
+    x, y = pyproj.Transformer.from_crs(layer, crs, always_xy=True).transform(*xy)
+    shift = float(np.hypot(x - xy[0], y - xy[1]) * factor)
+    return shift if NEAR_MISS_M[0] < shift < NEAR_MISS_M[1] else 0.0

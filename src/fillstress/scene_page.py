@@ -19,7 +19,7 @@ import numpy as np
 
 from .io.atomic import write_atomic
 from .io.results import ResultsFolder
-from .viewer import CAUTION, LAYERS, QUANTITY_WORDS, _fmt, colour_table, scene_parts
+from .viewer import CAUTION, LAYERS, _fmt, colour_table, scene_parts
 from .viewer import _writable as writable
 
 # matplotlib is imported inside the functions that use it: it is slow to load.
@@ -27,6 +27,9 @@ from .viewer import _writable as writable
 #: Colour-map entries; index 255 of a lattice node marks "no value" (hidden).
 N_COLOURS = 255
 HOLE = 255
+#: Nodes of one lattice drawn in the browser at most; a larger slice or fill is drawn at
+#: every k-th node (k as small as fits), which keeps a large site's page a few MB.
+MAX_LATTICE_NODES = 250_000
 
 
 def _b64(array: np.ndarray) -> str:
@@ -58,19 +61,34 @@ def _unexaggerated(points: np.ndarray, exaggeration: float) -> np.ndarray:
     return p.astype(np.float32)
 
 
+def lattice_step(nodes: int) -> int:
+    """Node step that brings a lattice of `nodes` within :data:`MAX_LATTICE_NODES`.
+
+    >>> lattice_step(35_000), lattice_step(2_000_000)
+    (1, 3)
+    """
+    return max(1, int(np.ceil(np.sqrt(nodes / MAX_LATTICE_NODES))))
+
+
 def _lattice(part, scene) -> dict | None:
     """A StructuredGrid as separable plan axes, node heights and colour indices."""
     mesh = part.mesh
     n0, n1, _ = mesh.dimensions
+    step = lattice_step(n0 * n1)
     pts = _unexaggerated(mesh.points, scene.exaggeration)
+    values = np.asarray(part.values)
+    if step > 1:
+        keep = np.arange(n0 * n1).reshape(n1, n0)[::step, ::step]
+        n1, n0 = keep.shape
+        pts, values = pts[keep.ravel()], values[keep.ravel()]
     first, second = pts[:n0, :2], pts[::n0, :2][:n1]
     rebuilt = (first[:, None, :] + second[None, :, :] - first[0]).transpose(1, 0, 2).reshape(-1, 2)
     if not np.allclose(rebuilt, pts[:, :2], atol=1e-3 * max(scene.span, 1.0)):
         return None                   # not separable: the caller sends triangles
     if part.layer == "fill":
-        index = np.where(np.isfinite(part.values), 0, HOLE).astype(np.uint8)
+        index = np.where(np.isfinite(values), 0, HOLE).astype(np.uint8)
     else:
-        index = colour_index(part.values, scene.clim)
+        index = colour_index(values, scene.clim)
     return {"n0": int(n0), "n1": int(n1), "a": _b64(first.astype(np.float32)),
             "b": _b64(second.astype(np.float32)), "z": _b64(pts[:, 2]), "c": _b64(index)}
 
@@ -129,6 +147,7 @@ def scene_data(scene) -> dict:
     x0, x1, y0, y1, z0, z1 = _bounds(scene)
     return {"parts": [_part_json(p, scene) for p in scene.parts],
             "legend": _legend(scene), "exaggeration": scene.exaggeration,
+            "surface": scene.quantity == "settlement",
             "depths": scene.slice_depths, "length": scene.folder.units.length,
             "bounds": [x0, x1, y0, y1, z0, z1]}
 
@@ -157,7 +176,7 @@ def page_html(scene) -> str:
     """The whole page for `scene` (a :class:`fillstress.viewer.Scene`)."""
     esc = html.escape
     notes = [_text(scene.folder.manifest.get(k)) for k in ("cautions", "assumptions")]
-    heading = f"{scene.site_name} — {QUANTITY_WORDS[scene.quantity]} {scene.bar_title}"
+    heading = f"{scene.site_name} — {scene.quantity_heading}"
     fields = {
         "TITLE": esc(f"{scene.site_name} — 3D scene — {scene.date}"),
         "HEADING": esc(heading),
@@ -195,7 +214,7 @@ PAGE = r"""<!DOCTYPE html>
   #panel label { display: block; }
   #depth { width: 100%; }
   #depthText { font-weight: bold; }
-  #tip { position: absolute; display: none; max-width: 320px; padding: 4px 6px; background: #fffbe6;
+  #tip { position: fixed; z-index: 5; display: none; max-width: 320px; padding: 4px 6px; background: #fffbe6;
          border: 1px solid #886; font-size: 12px; pointer-events: none; }
   #nogl { position: absolute; top: 40%; width: 100%; text-align: center; display: none; }
   footer { padding: 4px 12px; border-top: 1px solid #ccc; font-size: 12px; }
@@ -207,7 +226,7 @@ PAGE = r"""<!DOCTYPE html>
 <header><h1 id="heading">@@HEADING@@</h1><p>@@SUBTITLE@@</p></header>
 <main>
   <div id="view"><canvas id="gl"></canvas><canvas id="overlay"></canvas>
-    <div id="tip"></div><div id="nogl">This page needs WebGL, which this browser has turned off.</div></div>
+    <div id="nogl">This page needs WebGL, which this browser has turned off.</div></div>
   <div id="panel">
     <h2>Slice depth</h2>
     <input type="range" id="depth" min="0" max="0" step="1" value="0" aria-label="slice depth">
@@ -226,6 +245,7 @@ PAGE = r"""<!DOCTYPE html>
       Point at a sample point (or click it) for its values.</div>
   </div>
 </main>
+<div id="tip"></div>
 <footer><b>@@CAUTION@@</b> <span class="small">@@NOTES@@</span></footer>
 <script>
 "use strict";
@@ -263,8 +283,8 @@ const DATA = @@DATA@@;
   depthInput.max = Math.max(DATA.depths.length - 1, 0);
   depthInput.disabled = DATA.depths.length < 2;
   function showDepth() {
-    depthText.textContent = DATA.depths.length ?
-      DATA.depths[state.depth] + " " + DATA.length + " below existing ground" : "no slices";
+    depthText.textContent = !DATA.depths.length ? "no slices" : DATA.surface ?
+      "ground surface" : DATA.depths[state.depth] + " " + DATA.length + " below existing ground";
   }
   depthInput.addEventListener("input", () => { state.depth = +depthInput.value; showDepth(); draw(); });
   const exInput = document.getElementById("exaggeration"), exText = document.getElementById("exaggerationText");
@@ -461,7 +481,7 @@ const DATA = @@DATA@@;
       for (let k = 0; k < p.texts.length; k++) {
         const [x, y] = project(state.cam, p.pos[3 * k], p.pos[3 * k + 1], p.pos[3 * k + 2]);
         const dd = (x - mx) * (x - mx) + (y - my) * (y - my);
-        if (dd < bestD) { bestD = dd; best = {text: p.texts[k], x: mx, y: my}; }
+        if (dd < bestD) { bestD = dd; best = {text: p.texts[k], x: e.clientX, y: e.clientY}; }
       }
     }
     return best;
@@ -469,7 +489,7 @@ const DATA = @@DATA@@;
   function showTip(hit) {
     if (!hit) { tip.style.display = "none"; return; }
     tip.textContent = hit.text; tip.style.display = "block";
-    tip.style.left = Math.min(hit.x + 14, view.clientWidth - 330) + "px"; tip.style.top = (hit.y + 14) + "px";
+    tip.style.left = Math.min(hit.x + 14, window.innerWidth - 330) + "px"; tip.style.top = (hit.y + 14) + "px";
   }
   function hover(e) { if (!state.pinned && e.target === overlay) showTip(nearest(e)); }
   overlay.addEventListener("click", e => { state.pinned = nearest(e); showTip(state.pinned); });

@@ -41,14 +41,15 @@ class UnitSystem:
 
         Examples
         --------
-        >>> US.unit("volume"), SI.unit("force")
-        (('ft3', 0.028316846592000004), ('kN', 1.0))
+        >>> US.unit("volume")[0], SI.unit("force")
+        ('yd3', ('kN', 1.0))
         """
         L = self.length_to_m
         table = {
             "length": (self.length, L),
             "area": (f"{self.length}2", L**2),
-            "volume": (f"{self.length}3", L**3),
+            # earthwork volumes in cubic yards on US-customary sites (the trade's unit)
+            "volume": ("yd3", (3 * L) ** 3) if self.name == "US" else (f"{self.length}3", L**3),
             "pressure": (self.pressure, self.pressure_to_kpa),
             "unit_weight": (self.unit_weight, self.unit_weight_to_kn_m3),
             "settlement": (self.settlement, self.settlement_to_m),
@@ -91,7 +92,7 @@ US = UnitSystem("US", "ft", "psf", "pcf", "in", FOOT, PSF_KPA, PCF_KN_M3, FOOT /
 SYSTEMS = {"SI": SI, "US": US}
 
 #: Unit labels as printed (superscripts; the survey foot spelled out).
-UNIT_TEXT = {"m2": "m²", "m3": "m³", "ft2": "ft²", "ft3": "ft³", "kN/m3": "kN/m³",
+UNIT_TEXT = {"m2": "m²", "m3": "m³", "ft2": "ft²", "ft3": "ft³", "yd3": "yd³", "kN/m3": "kN/m³",
              "ftUS": "US survey ft"}
 
 

@@ -204,7 +204,13 @@ class Scene:
 
     def title(self) -> str:
         """"<site> — <quantity> (<unit>) — <stage>"."""
-        return f"{self.site_name} — {QUANTITY_WORDS[self.quantity]} {self.bar_title} — {self.stage_text}"
+        return f"{self.site_name} — {self.quantity_heading} — {self.stage_text}"
+
+    @property
+    def quantity_heading(self) -> str:
+        """Words and symbol with unit, e.g. "vertical stress increase Δσz (kPa)"."""
+        words = QUANTITY_WORDS[self.quantity]
+        return self.bar_title if self.bar_title.startswith(words) else f"{words} {self.bar_title}"
 
     def caption(self, exaggeration: float | None = None, depth: float | None = None) -> str:
         """Origin, units, exaggeration, the slice shown and how the colours are scaled."""
@@ -213,7 +219,8 @@ class Scene:
         lines = [f"E, N in {plan} (grid north of the site CRS); depths in {u} below existing ground; "
                  f"vertical exaggeration {exaggeration:g}"]
         if depth is not None:
-            lines.append(f"slice shown: {depth:g} {u} deep")
+            lines.append("settlement at the ground surface" if self.quantity == "settlement"
+                         else f"slice shown: {depth:g} {u} deep")
         lo, hi = self.clim
         scale = (f"colours {_fmt(lo)} to {_fmt(hi)} {self.unit}".rstrip())
         if self.robust and self.data_max > hi:
@@ -307,11 +314,15 @@ class _PartsBuilder:
         if not self.slices and not self.point_rows:
             raise InputError(f"the results folder has no {quantity!r} on slices or points",
                              argument="quantity")
-        fields = [f for f in [self.fill, *self.slices] if f is not None]
+        # Plan box of everything drawn (scene coordinates): the map furniture goes round it.
+        xs = [a for f in [self.fill, *self.slices] if f is not None for a in (f.x[0], f.x[-1])]
+        ys = [a for f in [self.fill, *self.slices] if f is not None for a in (f.y[0], f.y[-1])]
+        points = self.point_values()
+        xs += list(points[:, 0])
+        ys += list(points[:, 1])
         k = folder.plan_to_length
-        self.box = (min(f.x[0] for f in fields) - frame.x0, max(f.x[-1] for f in fields) - frame.x0,
-                    min(f.y[0] for f in fields) - frame.y0, max(f.y[-1] for f in fields) - frame.y0)
-        self.box = tuple(v * k for v in self.box)
+        self.box = ((min(xs) - frame.x0) * k, (max(xs) - frame.x0) * k,
+                    (min(ys) - frame.y0) * k, (max(ys) - frame.y0) * k)
         span = (self.box[1] - self.box[0] + self.box[3] - self.box[2]) / 2
         self.span = span if span > 0 else 10.0
 
@@ -349,8 +360,9 @@ class _PartsBuilder:
             self.add("slices", "lines", surf.outline(), color="gray", depth=f.depth)
             # Labels on the four corners in turn, so closely spaced depths do not overlap.
             cx, cy = ((f.x[-1], f.y[0]), (f.x[0], f.y[0]), (f.x[-1], f.y[-1]), (f.x[0], f.y[-1]))[k % 4]
+            label = "surface" if self.quantity == "settlement" else f"{f.depth:g} {u}"
             self.add("slices", "labels", pv.PolyData(self.frame.points(cx, cy, -f.depth)),
-                     texts=(f"{f.depth:g} {u}",), depth=f.depth)
+                     texts=(label,), depth=f.depth)
 
     def add_points(self):
         import pyvista as pv
@@ -426,9 +438,9 @@ class _PartsBuilder:
             texts.append(f"{east:.0f}")
         for north, sy in ticks(y0, y1, self.frame.y0):
             segments.append(((x0, sy, 0), (x0 - 0.02 * s, sy, 0)))
-            anchors.append((x0 - 0.08 * s, sy, 0))
+            anchors.append((x0 - 0.1 * s, sy, 0))
             texts.append(f"{north:.0f}")
-        anchors += [(x1 + 0.06 * s, y0 - 0.045 * s, 0), (x0 - 0.08 * s, y1 + 0.05 * s, 0)]
+        anchors += [(x1 + 0.06 * s, y0 - 0.045 * s, 0), (x0 - 0.1 * s, y1 + 0.05 * s, 0)]
         texts += [f"E ({plan})", f"N ({plan})"]
         # Scale bar: a round length of about a quarter of the plan width.
         bar = _nice_step((x1 - x0) * 0.25, 1)
@@ -522,7 +534,7 @@ def _new_plotter(off_screen: bool, window_size, title: str):
     plotter.ren_win.SetWindowName(title)      # not the library's default name
     plotter.set_background("white")
     plotter.add_axes(color="black", xlabel="E", ylabel="N", zlabel="up",
-                     viewport=(0.0, 0.14, 0.12, 0.3))   # above the sliders
+                     viewport=(0.0, 0.22, 0.1, 0.36))   # above the sliders
     return plotter
 
 
@@ -736,14 +748,14 @@ class _Controls:
             self.choose_depth(self.depth)
             self.plotter.add_slider_widget(
                 self.choose_depth, [self.depths[0], self.depths[-1]], value=self.depth,
-                title=f"slice depth ({u})", pointa=(0.04, 0.1), pointb=(0.38, 0.1),
+                title=f"slice depth ({u})", pointa=(0.04, 0.17), pointb=(0.38, 0.17),
                 fmt="%.2f", **bottom)
         self.plotter.add_slider_widget(
             self.stretch, [1.0, max(10.0, 2.0 * self.exaggeration)], value=self.exaggeration,
-            title="vertical exaggeration", pointa=(0.45, 0.1), pointb=(0.8, 0.1), fmt="%.1f",
+            title="vertical exaggeration", pointa=(0.45, 0.17), pointb=(0.8, 0.17), fmt="%.1f",
             **bottom)
         self.plotter.add_key_event("h", self.toggle_help)
-        self.drawer.text("h: keys", 0.93, 0.95, 7.5, "keys_hint")
+        self.drawer.text("h: keys", 0.93, 0.86, 7.5, "keys_hint")
 
     def nearest(self, value: float) -> float:
         return min(self.depths, key=lambda d: abs(d - value))

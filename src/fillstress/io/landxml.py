@@ -173,6 +173,9 @@ def read_landxml_surface(path, site_crs=None, *, surface_name=None, crs=None,
     declared = _units(root, path)
     factor = given if declared is None else declared
     layer, site = crsmod.layer_and_site(_file_crs(root) or crs, site_crs, file=path)
+    moved = crsmod.near_miss_shift(points[:, :2].mean(axis=0), layer, site)
     points = crsmod.to_site(points, layer, site, file=path)
     points[:, 2] *= factor
-    return TinSurface(points, tris, crs=crsmod.metric_twin(site[0]), source=str(path))
+    surface = TinSurface(points, tris, crs=crsmod.metric_twin(site[0]), source=str(path))
+    surface.moved_m = moved
+    return surface

@@ -4,8 +4,9 @@ Each plan grid ``<g>`` becomes a variable ``dsz_<g>`` on its own dimensions
 ``(depth_<g>, y_<g>, x_<g>)`` (grids need not share nodes); the fill thickness is
 ``fill_thickness (y, x)`` on the analysis-grid cell centres. Where the site has a soil
 profile, ``sigma_v0_<g> (depth_<g>)`` holds σ'v0 at each slice depth (the same over the
-plan: depths are below the existing ground; NaN below the stated profile). Values and depths are in the
-output unit system, plan coordinates in the site CRS's unit (internal metres scaled by its
+plan: depths are below the existing ground; NaN below the stated profile) and
+``settlement_<g> (y_<g>, x_<g>)`` the final settlement at the ground surface. Values and
+depths are in the output unit system, plan coordinates in the site CRS's unit (internal metres scaled by its
 axis factor); the CRS is carried CF-style in a ``crs`` variable (``crs_wkt``).
 """
 from __future__ import annotations
@@ -60,7 +61,8 @@ def _length_coord(values_m, units, name: str, axis: str, crs) -> tuple:
 
 
 def stress_dataset(slices: Mapping, *, grid: GridSpec | None = None, fill_thickness=None,
-                   units: UnitSystem = SI, crs=None, sigma_v0: Mapping | None = None):
+                   units: UnitSystem = SI, crs=None, sigma_v0: Mapping | None = None,
+                   settlement: Mapping | None = None):
     """Build (without writing) the cube as an :class:`xarray.Dataset` in output units.
 
     Parameters
@@ -78,6 +80,8 @@ def stress_dataset(slices: Mapping, *, grid: GridSpec | None = None, fill_thickn
         Coordinate reference system of x and y.
     sigma_v0 : mapping of str to array_like, optional
         Plan-grid name → σ'v0 (kPa) at each of that grid's slice depths.
+    settlement : mapping of str to array_like, optional
+        Plan-grid name → final surface settlement (m), shape (y, x) of that grid.
 
     Examples
     --------
@@ -107,6 +111,11 @@ def stress_dataset(slices: Mapping, *, grid: GridSpec | None = None, fill_thickn
             variables[f"sigma_v0_{name}"] = (dims[:1], _depth_profile(sigma_v0[name], da, units),
                                              {"units": p_label, "long_name": "effective vertical "
                                               f"stress before the fill, plan grid {name}"})
+        if settlement is not None and name in settlement:
+            variables[f"settlement_{name}"] = (dims[1:], _surface(settlement[name], da, units),
+                                               {"units": unit_label(units, "settlement"),
+                                                "grid_mapping": "crs", "long_name":
+                                                f"final settlement at the surface, plan grid {name}"})
     if fill_thickness is not None:
         if not isinstance(grid, GridSpec):
             raise InputError("a GridSpec is needed to place fill_thickness", argument="grid")
@@ -134,6 +143,14 @@ def _depth_profile(values, da, units) -> np.ndarray:
     return to_output_units(v, units, "pressure")
 
 
+def _surface(values, da, units) -> np.ndarray:
+    v = np.asarray(values, float)
+    if v.shape != (da.sizes["y"], da.sizes["x"]) or np.any(np.isinf(v)):
+        raise InputError(f"needs a finite value or NaN per plan node, got shape {v.shape}",
+                         argument="settlement")
+    return to_output_units(v, units, "settlement")
+
+
 def _crs_attrs(crs) -> dict:
     if crs is None:
         return {"crs_wkt": ""}
@@ -143,7 +160,8 @@ def _crs_attrs(crs) -> dict:
 
 def write_stress_cube(path, slices: Mapping, *, grid: GridSpec | None = None,
                       fill_thickness=None, units: UnitSystem = SI, crs=None,
-                      sigma_v0: Mapping | None = None) -> os.PathLike:
+                      sigma_v0: Mapping | None = None,
+                      settlement: Mapping | None = None) -> os.PathLike:
     """Write :func:`stress_dataset` to NetCDF-4 (engine h5netcdf), atomically.
 
     Examples
@@ -159,5 +177,5 @@ def write_stress_cube(path, slices: Mapping, *, grid: GridSpec | None = None,
     (1000.0, 10.0)
     """
     ds = stress_dataset(slices, grid=grid, fill_thickness=fill_thickness, units=units, crs=crs,
-                        sigma_v0=sigma_v0)
+                        sigma_v0=sigma_v0, settlement=settlement)
     return write_atomic(path, lambda tmp: ds.to_netcdf(tmp, engine="h5netcdf"))

@@ -79,7 +79,9 @@ def read_raster_surface(path, site_crs=None, *, crs=None, band: int = 1,
     corners = np.array([[t.c, t.f], [t.c + cols * t.a, t.f + rows * t.e]])
     crsmod.check_degrees(corners, file_crs or crs, file=path)
     layer, site = crsmod.layer_and_site(file_crs or crs, site_crs, file=path)
-    return _surface(z * factor, t, layer, site, str(path))
+    surface = _surface(z * factor, t, layer, site, str(path))
+    surface.moved_m = crsmod.near_miss_shift(corners.mean(axis=0), layer, site)
+    return surface
 
 
 def _surface(z, t, layer, site, source) -> RasterSurface:

@@ -355,8 +355,8 @@ class ResultsFolder:
         cube = self.cube()
         slices = []
         if cube is not None:
-            stacks = {g: cube[v] for v in sorted(cube.data_vars)
-                      if (g := _grid_of(v, quantity)) is not None and cube[v].ndim == 3}
+            stacks = {g: _stack(cube[v]) for v in sorted(cube.data_vars)
+                      if (g := _grid_of(v, quantity)) is not None and cube[v].ndim in (2, 3)}
             if not stacks and quantity in ("sigma_v0", "stress_ratio"):
                 stacks = _from_sigma_profile(cube, quantity)
             for grid, da in stacks.items():
@@ -389,6 +389,11 @@ def quantity_unit_key(quantity: str) -> str | None:
         raise InputError(f"unknown quantity {quantity!r}; choose one of {', '.join(QUANTITIES)}",
                          argument="quantity")
     return QUANTITIES[quantity]
+
+
+def _stack(da):
+    """A (depth, y, x) stack; a plan field (settlement at the surface) is one at depth 0."""
+    return da if da.ndim == 3 else da.expand_dims(depth=[0.0])
 
 
 def _from_sigma_profile(cube, quantity: str) -> dict:

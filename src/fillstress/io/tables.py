@@ -101,7 +101,7 @@ def unit_label(units: UnitSystem, quantity: str, crs=None) -> str:
     --------
     >>> from fillstress.units import US
     >>> unit_label(US, "pressure"), unit_label(US, "volume"), unit_label(US, "force")
-    ('psf', 'ft3', 'kip')
+    ('psf', 'yd3', 'kip')
     """
     return _unit(units, quantity, crs)[0]
 

@@ -11,7 +11,8 @@ The scalar numba kernels live in :mod:`.boussinesq` and :mod:`.westergaard`.  Th
 module validates the method choice once (:func:`resolve_method`) and gives
 vectorised, validating entry points for other parts of the program.
 
-Both corner functions share one shape, which the fast solvers exploit::
+Both corner functions share one shape, computed by the one routine of :mod:`.corner`
+(which every solver calls)::
 
     F = 1/(2π) [ atan2(a·b/R, c) + s · (b·ac(a) + a·ac(b)) / R ],   R = sqrt(a²+b²+c²)
 
@@ -20,7 +21,6 @@ with ``ac(t) = t z / (t² + z²)`` and c = z, s = 1 (Boussinesq) or c = ηz, s =
 """
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 
 import numba
@@ -29,6 +29,7 @@ import numpy as np
 from .._validate import finite_array
 from ..errors import InputError
 from . import boussinesq, westergaard
+from .corner import corner_angle, fast_atan, shared_corner, shared_rectangle
 
 METHODS = ("boussinesq", "westergaard")
 
@@ -86,85 +87,10 @@ def resolve_method(method="boussinesq", poisson=None) -> KernelSpec:
     return KernelSpec("westergaard", nu, westergaard.eta(nu), 0.0)
 
 
-# Arctangent by range reduction and a rational approximation, after the Cephes library
-# (Moshier 1989, "Methods and Programs for Mathematical Functions").  Coefficients recalled
-# from memory; tests hold it to libm's atan within 4e-16 relative.  The corner sums spend
-# most of their time in the arctangent; the one-argument form on y·(1/c) is what beats
-# math.atan2, and this function is measured beside math.atan by benchmarks/bench_engine.py
-# (docs/performance.md, "Arctangent").
-_ATAN_P = (-8.750608600031904122785e-1, -1.615753718733365076637e1, -7.500855792314704667340e1,
-           -1.228866684490136173410e2, -6.485021904942025371773e1)
-_ATAN_Q = (2.485846490142306297962e1, 1.650270098316988542046e2, 4.328810604912902668951e2,
-           4.853903996359136964868e2, 1.945506571482613964425e2)
-_TAN_3PI_8 = 2.41421356237309504880
-_PI_2_LOW = 6.123233995736765886130e-17  # π/2 − float(π/2)
-P0, P1, P2, P3, P4 = _ATAN_P
-Q0, Q1, Q2, Q3, Q4 = _ATAN_Q
-
-
 @numba.njit(cache=True)
-def fast_atan(x):
-    """Arctangent of x (radians), accurate to about one ulp; ±π/2 at ±inf.
-
-    Examples
-    --------
-    >>> abs(fast_atan(1.0) - math.pi / 4) < 1e-16, fast_atan(math.inf) == math.pi / 2
-    (True, True)
-    """
-    sign = 1.0
-    if x < 0.0:
-        sign, x = -1.0, -x
-    if x > _TAN_3PI_8:
-        base, low, x = 0.5 * math.pi, _PI_2_LOW, -1.0 / x
-    elif x <= 0.66:
-        base, low = 0.0, 0.0
-    else:
-        base, low, x = 0.25 * math.pi, 0.5 * _PI_2_LOW, (x - 1.0) / (x + 1.0)
-    z = x * x
-    p = (((P0 * z + P1) * z + P2) * z + P3) * z + P4
-    q = ((((z + Q0) * z + Q1) * z + Q2) * z + Q3) * z + Q4
-    return sign * (base + ((x * (z * p / q) + x) + low))
-
-
-@numba.njit(cache=True)
-def corner_angle(y, c, inv_c):
-    """atan2(y, c) for c >= 0 given inv_c = 1/c: the fast arctangent when c is not tiny,
-    math.atan2 otherwise (the surface, c = 0, gives ±π/2 or 0 exactly).
-
-    Examples
-    --------
-    >>> corner_angle(1.0, 0.0, math.inf) == math.pi / 2, corner_angle(0.0, 0.0, math.inf)
-    (True, 0.0)
-    """
-    if c > 1e-290:
-        return fast_atan(y * inv_c)
-    return math.atan2(y, c)
-
-
-@numba.njit(cache=True)
-def shared_corner(a, b, z, depth_scale, second_term):
-    """The shared corner form F(a, b, z) for either method (see module notes).
-
-    Examples
-    --------
-    >>> round(shared_corner(1.0, 1.0, 1.0, 1.0, 1.0), 4)   # Boussinesq m = n = 1
-    0.1752
-    """
-    z = abs(z)
-    c = depth_scale * z
-    r = max(math.sqrt(a * a + b * b + c * c), 1e-300)  # r = 0 only when a = b = 0
-    second = second_term * (b * boussinesq.cross_ratio(a, z) + a * boussinesq.cross_ratio(b, z)) / r
-    inv_c = 1.0 / c if c > 0.0 else math.inf
-    return boussinesq.INV_2PI * (corner_angle(a * (b / r), c, inv_c) + second)
-
-
-@numba.njit(cache=True)
-def _rectangle_flat(x1, x2, y1, y2, z, is_westergaard, eta, out):
+def _rectangle_flat(x1, x2, y1, y2, z, depth_scale, second_term, out):
     for k in range(out.size):
-        if is_westergaard:
-            out[k] = westergaard.rectangle(x1[k], x2[k], y1[k], y2[k], z[k], eta)
-        else:
-            out[k] = boussinesq.rectangle(x1[k], x2[k], y1[k], y2[k], z[k])
+        out[k] = shared_rectangle(x1[k], x2[k], y1[k], y2[k], z[k], depth_scale, second_term)
 
 
 @numba.njit(cache=True)
@@ -205,7 +131,7 @@ def rectangle_influence(x1, x2, y1, y2, depth, method="boussinesq", poisson=None
         raise InputError("rectangle edges must satisfy x1 <= x2 and y1 <= y2", argument="x2/y2")
     flat = [np.ascontiguousarray(v, dtype=np.float64).ravel() for v in (x1a, x2a, y1a, y2a, za)]
     out = np.empty(flat[0].size)
-    _rectangle_flat(*flat, spec.method == "westergaard", spec.depth_scale, out)
+    _rectangle_flat(*flat, spec.depth_scale, spec.second_term, out)
     return out.reshape(x1a.shape)[()]
 
 

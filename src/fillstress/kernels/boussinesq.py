@@ -12,9 +12,8 @@ Closed forms per unit surface load (dimensionless influence for areas, 1/m² for
   ``atan2`` stays on the principal branch everywhere, so the classic Newmark (1935)
   "+π when m²n² > m²+n²+1" correction is never needed, and F is odd in a and in b.
   A rectangle x1..x2 × y1..y2 (offsets from the point) is
-  ``F(x2,y2) − F(x1,y2) − F(x2,y1) + F(x1,y1)``.  The code evaluates
-  ``atan2(ab, zR)`` as ``atan2(a·(b/R), z)`` (the same angle, since R > 0) so that the
-  product of two tiny offsets cannot underflow to zero and lose its quadrant.
+  ``F(x2,y2) − F(x1,y2) − F(x2,y1) + F(x1,y1)``.  The corner is evaluated by the one
+  routine of :mod:`.corner`, which holds the guards against underflow.
 
 These are scalar numba functions: they assume valid input (z >= 0) and stay
 branch-light.  The validating public entry points live in ``fillstress.kernels``.
@@ -25,25 +24,7 @@ import math
 
 import numba
 
-INV_2PI = 1.0 / (2.0 * math.pi)
-
-
-@numba.njit(cache=True)
-def cross_ratio(a, z):
-    """``a·z / (a² + z²)`` without 0/0 or underflow; 0 when a = z = 0.
-
-    Examples
-    --------
-    >>> cross_ratio(1.0, 1.0), cross_ratio(0.0, 0.0), cross_ratio(3.0, 0.0)
-    (0.5, 0.0, 0.0)
-    """
-    s = a * a + z * z
-    if s > 1e-290:  # the usual case; below this the squares may have underflowed
-        return a * z / s
-    h = math.hypot(a, z)
-    if h == 0.0:
-        return 0.0
-    return (a / h) * (z / h)
+from .corner import INV_2PI, shared_corner, shared_rectangle
 
 
 @numba.njit(cache=True)
@@ -70,17 +51,7 @@ def corner(a, b, z):
     >>> corner(2.0, -3.0, 0.0), corner(0.0, 5.0, 0.0)
     (-0.25, 0.0)
     """
-    z = abs(z)  # turns -0.0 into +0.0 so atan2 stays in the right half-plane
-    r = math.sqrt(a * a + b * b + z * z)
-    if r < 1e-145:  # squares may have underflowed: recompute without them
-        r = math.hypot(math.hypot(a, b), z)
-        if r == 0.0:
-            return 0.0
-    # atan2(ab, zR) written as atan2(a·(b/R), z): same angle, but ab cannot underflow to 0
-    first = math.atan2(a * (b / r), z)
-    # abz/R·(1/(a²+z²) + 1/(b²+z²)) regrouped so no 0/0 arises on edges or at z = 0
-    second = (b * cross_ratio(a, z) + a * cross_ratio(b, z)) / r
-    return INV_2PI * (first + second)
+    return shared_corner(a, b, z, 1.0, 1.0)
 
 
 @numba.njit(cache=True)
@@ -94,8 +65,7 @@ def rectangle(x1, x2, y1, y2, z):
     >>> round(rectangle(0.0, 1.0, 0.0, 1.0, 0.0), 12)     # at a corner
     0.25
     """
-    return (corner(x2, y2, z) - corner(x1, y2, z)
-            - corner(x2, y1, z) + corner(x1, y1, z))
+    return shared_rectangle(x1, x2, y1, y2, z, 1.0, 1.0)
 
 
 @numba.njit(cache=True)

@@ -19,7 +19,7 @@ import math
 
 import numba
 
-INV_2PI = 1.0 / (2.0 * math.pi)
+from .corner import INV_2PI, shared_corner, shared_rectangle
 
 
 def eta(poisson: float) -> float:
@@ -53,14 +53,7 @@ def corner(a, b, z, eta):
     >>> corner(-1.0, 1.0, 0.0, 0.5 ** 0.5)             # surface limit
     -0.25
     """
-    c = eta * abs(z)  # abs turns -0.0 into +0.0 so atan2 stays in the right half-plane
-    r = math.sqrt(a * a + b * b + c * c)
-    if r < 1e-145:  # squares may have underflowed: recompute without them
-        r = math.hypot(math.hypot(a, b), c)
-        if r == 0.0:
-            return 0.0
-    # atan2(ab, cR) as atan2(a·(b/R), c): same angle, but ab cannot underflow to 0
-    return INV_2PI * math.atan2(a * (b / r), c)
+    return shared_corner(a, b, z, eta, 0.0)
 
 
 @numba.njit(cache=True)
@@ -72,8 +65,7 @@ def rectangle(x1, x2, y1, y2, z, eta):
     >>> round(rectangle(-1.0, 1.0, -1.0, 1.0, 0.0, 0.7), 12)
     1.0
     """
-    return (corner(x2, y2, z, eta) - corner(x1, y2, z, eta)
-            - corner(x2, y1, z, eta) + corner(x1, y1, z, eta))
+    return shared_rectangle(x1, x2, y1, y2, z, eta, 0.0)
 
 
 @numba.njit(cache=True)

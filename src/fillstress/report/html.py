@@ -16,6 +16,7 @@ from pathlib import Path
 from pyproj import CRS
 
 from ..io.atomic import write_atomic
+from .corridor import alignment_section
 from ..io.results import ResultsFolder, UnitLabels
 from . import figures
 from .labels import heading, unit_text
@@ -43,6 +44,7 @@ SECTIONS = (
     ("plans", "Plan views of the vertical stress increase"),
     ("profiles", "Vertical profiles"),
     ("pipes", "Pipe profiles"),
+    ("alignment", "Along the alignment"),
     ("time", "Settlement with time"),
     ("tables", "Result tables"),
     ("convergence", "Convergence check"),
@@ -402,6 +404,7 @@ class _Report:
     def page(self) -> str:
         bodies = {"site": self.site, "inputs": self.inputs, "method": self.method,
                   "plans": self.plans, "profiles": self.profiles, "pipes": self.pipe_profiles,
+                  "alignment": lambda: alignment_section(self.f, _img, esc),
                   "time": self.time, "tables": self.tables, "convergence": self.convergence,
                   "provenance": self.provenance, "cautions": self.cautions}
         title = _site_title(self.f)

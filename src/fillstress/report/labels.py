@@ -1,8 +1,8 @@
 """Readable table headings and unit text for the report.
 
 Column names in a results folder carry their unit as a suffix (``dsz_max_psf``,
-``volume_ft3``; docs/results-folder.md). The report shows them as words with the unit
-in brackets (``max Δσz (psf)``, ``volume (ft³)``), so every header states its unit.
+``volume_yd3``; docs/results-folder.md). The report shows them as words with the unit
+in brackets (``max Δσz (psf)``, ``volume (yd³)``), so every header states its unit.
 """
 from __future__ import annotations
 
@@ -74,8 +74,8 @@ def heading(column: str, units: UnitLabels) -> str:
     Examples
     --------
     >>> u = UnitLabels("ft", "psf", "pcf", "in", plan="ftUS")
-    >>> heading("dsz_max_psf", u), heading("volume_ft3", u), heading("x_ft", u)
-    ('max Δσz (psf)', 'volume (ft³)', 'x, east (US survey ft)')
+    >>> heading("dsz_max_psf", u), heading("volume_yd3", u), heading("x_ft", u)
+    ('max Δσz (psf)', 'volume (yd³)', 'x, east (US survey ft)')
     """
     base, label = split_unit(str(column), units)
     if base in ("x", "y") and label is not None:

@@ -7,7 +7,7 @@ from __future__ import annotations
 
 import time
 import warnings
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 import numpy as np
@@ -23,6 +23,7 @@ from ..solve.auto import stress_at_points
 from ..solve.distributed import connect, distributed_points, distributed_slices
 from ..solve.tiled import tiled_slices
 from . import files, settle
+from .corridor import corridor_results
 from .plan import describe_run, memory_cap, plan_pad, slices_need_tiles, validate_run
 
 ASSUMPTIONS = (
@@ -45,6 +46,7 @@ class RunResults:
     grid: object                          # LoadGrid of the final stage
     points: pd.DataFrame                  # every receptor point with its results (SI)
     slices: dict = field(default_factory=dict)       # plan-grid name → DataArray (kPa)
+    plan_settlement: dict = field(default_factory=dict)  # plan-grid name → (y, x) DataArray (m)
     buildings: list = field(default_factory=list)    # structures.BuildingSettlement
     pipes: list = field(default_factory=list)        # structures.PipeSettlement
     profiles: list = field(default_factory=list)     # dicts: receptor_id, influence depth
@@ -52,6 +54,7 @@ class RunResults:
     convergence: dict = field(default_factory=dict)
     timings: dict = field(default_factory=dict)
     warnings: list = field(default_factory=list)     # shown by the command and the summary
+    corridor: dict = field(default_factory=dict)     # alignment tables (run.corridor)
 
 
 def stress(site: Site, grid, xyz: np.ndarray, client=None) -> np.ndarray:
@@ -96,6 +99,8 @@ def compute(site: Site, progress=silent, client=None) -> RunResults:
     grid = site.load_grid()
     pts = site.points.copy()
     steps = 2 + len(site.plan_grids) + (2 if site.soil is not None else 0) + _conv_steps(site)
+    steps += bool(site.soil is not None and site.plan_grids)
+    steps += site.alignment is not None
     with progress("computing", steps) as bar:
         pts["dsz"] = stress(site, grid, pts[["x", "y", "depth"]].to_numpy(float), client)
         bar.advance()
@@ -107,6 +112,13 @@ def compute(site: Site, progress=silent, client=None) -> RunResults:
             settle.soil_results(res)
             bar.advance()
             settle.settlement_results(res, lambda g, xyz: stress(site, g, xyz, client))
+            bar.advance()
+            if site.plan_grids:
+                res.plan_settlement = settle.plan_settlement(
+                    site, lambda plan, z: _plan_slices(site, grid, replace(plan, depths=z), client))
+                bar.advance()
+        if site.alignment is not None:
+            res.corridor = corridor_results(site, lambda g, xyz: stress(site, g, xyz, client))
             bar.advance()
         if _conv_steps(site):
             res.convergence = convergence_check(site, pts, client)

@@ -21,6 +21,7 @@ from ..progress import silent
 from ..report import write_report
 from ..site.receptors import summarise
 from ..scene_page import export_scene_html
+from ..site.alignment import format_station
 
 KIND_FILES = {"building": "buildings", "pipe": "pipes", "borehole": "boreholes"}
 
@@ -195,6 +196,7 @@ def _write_tables(res, folder) -> None:
         tables.write_table_csv(folder.path(f"{name}_summary.csv"), summary, u,
                                column_quantities(summary), crs=site.crs)
         _write_geometry(res, folder, kind, name)
+    write_corridor_tables(res, folder)
     if res.time_curves:
         rows = [{"receptor_id": rid, "days": d, "settlement": s}
                 for rid, (days, curve) in res.time_curves.items() for d, s in zip(days, curve)]
@@ -256,7 +258,8 @@ def _write_cube(res, folder) -> None:
         return
     netcdf.write_stress_cube(folder.path("stress_cube.nc"), res.slices, grid=site.spec,
                              fill_thickness=site.fill_thickness(), units=site.units,
-                             crs=site.crs, sigma_v0=_slice_sigma_v0(site, res.slices))
+                             crs=site.crs, sigma_v0=_slice_sigma_v0(site, res.slices),
+                             settlement=res.plan_settlement)
 
 
 def _slice_sigma_v0(site, slices) -> dict | None:
@@ -378,3 +381,21 @@ def _settings(site) -> dict:
             "margin_m": site.settings.margin, "stages": site.stages,
             "convergence_check": site.settings.convergence_check,
             "units": site.units.name}
+
+
+def write_corridor_tables(res, folder) -> None:
+    """The alignment tables as CSV in site units, with a station label column
+    (``10+50``); Δσz columns named by their depth in site units (``dsz_at_5ft_psf``)."""
+    site, u = res.site, res.site.units
+    for name, frame in res.corridor.items():
+        if frame.empty:
+            continue
+        renamed = {f"dsz_z{d:g}": f"dsz_at_{u.length_out(d):g}{u.length}"
+                   for d in site.alignment.profile_depths}
+        frame = frame.rename(columns=renamed)
+        frame.insert(1, "station_label", [format_station(u.length_out(v), u.name)
+                                          for v in frame["station"]])
+        q = {**column_quantities(frame), **dict.fromkeys(renamed.values(), "pressure"),
+             **dict.fromkeys(["station", "offset", "ground_elevation", "fill_height"],
+                             "length")}
+        tables.write_table_csv(folder.path(f"{name}.csv"), frame, u, q, crs=site.crs)

@@ -49,6 +49,27 @@ def _settlement_points(points: pd.DataFrame) -> pd.DataFrame:
     return pd.concat([keep, holes])
 
 
+def column_layers(soil, x, y, top_depth: float, stage_grids, evaluate):
+    """Settlement (m) by soil layer of the columns below plan points (x, y) from
+    `top_depth` down, after each stage: shape (N, S, L); None when no compressible soil
+    lies below `top_depth`. Unloading beyond σ'v0 (a deep excavation) leaves 1-D
+    consolidation: such a column is NaN at that stage (heave), the others computed."""
+    z, h = st.sublayers(soil, top_depth=top_depth)
+    if len(z) == 0:
+        return None
+    n = len(x)
+    xyz = np.column_stack([np.repeat(x, len(z)), np.repeat(y, len(z)), np.tile(z, n)])
+    s0 = soil.sigma_v0_eff(z)
+    out = []
+    for g in stage_grids:
+        dsz = evaluate(g, xyz).reshape(n, len(z))
+        tension = np.any(s0 + dsz <= 0, axis=1)
+        layers = st.settlement_by_layer(soil, z, h, np.where(tension[:, None], 0.0, dsz))
+        layers[tension] = np.nan
+        out.append(layers)
+    return np.stack(out, axis=1)
+
+
 def settlement_results(res, evaluate) -> None:
     """Settlement of every stage at the settlement points, the structure checks and the
     settlement–time curves; `evaluate(grid, xyz)` gives Δσz (kPa) at (N, 3) points."""
@@ -58,29 +79,20 @@ def settlement_results(res, evaluate) -> None:
     per_stage = np.zeros((len(targets), len(stage_grids)))
     by_layer_stage = {}
     for depth, idx in targets.groupby("depth").indices.items():
-        z, h = st.sublayers(soil, top_depth=float(depth))
-        if len(z) == 0:
-            continue
         sub = targets.iloc[idx]
-        xyz = np.column_stack([np.repeat(sub["x"].to_numpy(), len(z)),
-                               np.repeat(sub["y"].to_numpy(), len(z)),
-                               np.tile(z, len(sub))])
-        s0 = soil.sigma_v0_eff(z)
-        for s, g in enumerate(stage_grids):
-            dsz = evaluate(g, xyz).reshape(len(sub), len(z))
-            # Unloading beyond σ'v0 (a deep excavation) leaves 1-D consolidation: those
-            # points get no settlement and a warning, the others are computed as usual.
-            tension = np.any(s0 + dsz <= 0, axis=1)
+        layers = column_layers(soil, sub["x"].to_numpy(), sub["y"].to_numpy(), float(depth),
+                               stage_grids, evaluate)
+        if layers is None:
+            continue
+        for s in range(len(stage_grids)):
+            tension = np.isnan(layers[:, s]).any(axis=1)
             if tension.any():
                 res.warnings.append(
                     f"stage {site.stages[s]}: unloading exceeds σ'v0 below "
                     f"{', '.join(sub['point_id'][tension].astype(str)[:5])}"
                     f"{' …' if tension.sum() > 5 else ''}; no settlement there (heave)")
-            layers = st.settlement_by_layer(soil, z, h, np.where(tension[:, None], 0.0, dsz))
-            layers[tension] = np.nan
-            per_stage[idx, s] = layers.sum(axis=1)       # rows sum to the total settlement
-            by_layer_stage.setdefault(depth, []).append(layers)
-        by_layer_stage[depth] = (idx, np.stack(by_layer_stage[depth], axis=1))  # (N, S, L)
+        per_stage[idx] = layers.sum(axis=2)              # rows sum to the total settlement
+        by_layer_stage[depth] = (idx, layers)
     targets = targets.assign(settlement=per_stage[:, -1])
     for s, k in enumerate(site.stages):
         targets[f"settlement_stage{k}"] = per_stage[:, s]
@@ -91,6 +103,39 @@ def settlement_results(res, evaluate) -> None:
     res.points = merged.merge(targets[key + cols], on=key, how="left")
     _structure_checks(res, targets)
     _time_curves(res, targets, by_layer_stage)
+
+
+def plan_settlement(site, slices_at) -> dict:
+    """Final settlement (m) at the ground surface over every plan grid.
+
+    Δσz of the final fill at the sublayer mid-depths of the whole profile comes from
+    ``slices_at(plan, depths)`` (FFT slices on the plan grid's nodes, dims depth, y, x),
+    as many depths at a time as the plan grid has slices, so the memory stays what the run
+    estimate counted for its slices. Sublayers settle independently (1-D compression), so
+    their settlements add up by the rule the receptor points use; nodes where unloading
+    exceeds σ'v0 (heave) get NaN.
+    """
+    z, h = st.sublayers(site.soil, top_depth=0.0)
+    if len(z) == 0:
+        return {}
+    s0 = site.soil.sigma_v0_eff(z)
+    out = {}
+    for plan in site.plan_grids:
+        step = max(1, len(plan.depths))
+        total = tension = da = None
+        for k in range(0, len(z), step):
+            part = slice(k, k + step)
+            da = slices_at(plan, tuple(float(d) for d in z[part]))
+            dsz = np.moveaxis(np.asarray(da.values, float), 0, -1).reshape(-1, len(z[part]))
+            heave = np.any(s0[part] + dsz <= 0, axis=1)
+            layers = st.settlement_by_layer(site.soil, z[part], h[part],
+                                            np.where(heave[:, None], 0.0, dsz))
+            total = layers.sum(axis=1) + (0.0 if total is None else total)
+            tension = heave if tension is None else tension | heave
+        total[tension] = np.nan
+        surface = da.isel(depth=0, drop=True)
+        out[plan.name] = surface.copy(data=total.reshape(surface.shape))
+    return out
 
 
 def _structure_checks(res, targets: pd.DataFrame) -> None:
@@ -119,9 +164,7 @@ def _time_curves(res, targets, by_layer_stage) -> None:
     if not any(L.compressible and L.cv_m2_per_yr for L in site.soil.layers):
         res.warnings.append("no compressible layer has cv: no settlement–time curves")
         return
-    days = list(site.settings.stage_days or [0.0])
-    # a count that differs from the stages is warned of before the run (plan.site_warnings)
-    days = (days + [days[-1]] * len(site.stages))[:len(site.stages)]
+    days = site.stage_start_days()
     cv, hdr = st.time_parameters(site.soil, no_cv="immediate")
     starts = np.asarray(days, float) / 365.25
     years = np.unique(np.r_[0.0, np.geomspace(1 / 365.25, 50.0, 120), starts])

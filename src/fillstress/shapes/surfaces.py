@@ -88,6 +88,7 @@ class TinSurface:
             raise InputError(f"is not a valid triangulation ({exc})", **where) from None
         used = pts[np.unique(tri)]
         self.points, self.triangles, self.crs, self.source = pts, tri, crs, source
+        self.moved_m = 0.0      # near-miss CRS shift on reading (crs.near_miss_shift)
         self.bounds = (float(used[:, 0].min()), float(used[:, 1].min()),
                        float(used[:, 0].max()), float(used[:, 1].max()))
 
@@ -215,6 +216,7 @@ class RasterSurface:
         self.z = np.asarray(z, dtype=float)
         self.x0, self.y_top, self.dx, self.dy = float(x0), float(y_top), float(dx), float(dy)
         self.crs, self.to_raster, self.source = crs, to_raster, source
+        self.moved_m = 0.0      # near-miss CRS shift on reading (crs.near_miss_shift)
         rows, cols = self.z.shape
         self.bounds = bounds or (self.x0, self.y_top - rows * self.dy,
                                  self.x0 + cols * self.dx, self.y_top)

@@ -35,7 +35,8 @@ from ..solve.cost import check_capacity, estimate_grid, memory_cap_bytes
 from ..units import UnitSystem
 from . import receptors as rc
 from .config import SiteConfig, read_site_file
-from .ground_use import check_body_ground, depths_from_elevations
+from .alignment import Alignment, build_alignment
+from .ground_use import check_body_ground, depths_from_elevations, warn_near_miss
 from .receptors import Borehole, Building, Pipe, PlanGrid, Receptors
 
 # Receptor kinds: the site-file table and the point-table kind.
@@ -96,11 +97,18 @@ class Site:
     build_seconds: float = 0.0                      # time the bodies took to rasterise
     cell_rule: str = "given"                        # why the cell is the size it is
     warnings: list[str] = field(default_factory=list)  # what the build found doubtful
+    alignment: Alignment | None = None              # [alignment]: stations along a line
     context: _Context | None = field(default=None, repr=False)  # to rebuild the bodies
 
     @property
     def stages(self) -> list[int]:
         return sorted({b.stage for b in self.bodies})
+
+    def stage_start_days(self) -> list[float]:
+        """Start of each stage in days, one per stage ([settlement] stage_days, the last
+        repeated when too few are given: plan.site_warnings warns of a mismatch)."""
+        days = list(self.settings.stage_days or [0.0])
+        return (days + [days[-1]] * len(self.stages))[:len(self.stages)]
 
     def load_grid(self, stage: int | None = None, spec: GridSpec | None = None) -> LoadGrid:
         """Surface pressure (kPa) of all bodies up to `stage` (default: the last)."""
@@ -211,6 +219,7 @@ class _Context:
             self.surfaces[key] = read_surface(path, site_crs=self.site_crs,
                                               z_to_m=self.cfg.units.length_to_m,
                                               surface_name=surface_name)
+            warn_near_miss(self, path, getattr(self.surfaces[key], "moved_m", 0.0))
         return self.surfaces[key]
 
 
@@ -253,7 +262,9 @@ def build_site(cfg: SiteConfig) -> Site:
                 cut_reports={n: cut for n, (_, cut) in built.items() if cut is not None},
                 existing_surfaces=ctx.existing_surfaces,
                 build_seconds=ctx.build_seconds, cell_rule=ctx.cell_rule,
-                warnings=ctx.warnings, context=ctx)
+                warnings=ctx.warnings, context=ctx,
+                alignment=build_alignment(ctx, cfg.get("alignment"), sorted(
+                    {d for g in cfg.get("plan_grids") or [] for d in g["depths"]})))
 
 
 def _settings(cfg: SiteConfig) -> RunSettings:
@@ -327,7 +338,16 @@ def _outline_from(ctx: _Context, raw: dict, where: str, line: bool = False):
 
 def _read_vector(ctx: _Context, path: Path, id_field: str, where, geom_type: str):
     frame = select(read_vector(path, geom_type, what="fill outlines"), id_field, where, path)
-    return frame.set_geometry(list(to_site(frame, ctx.site_crs, path)))
+    return frame.set_geometry(list(_into_site(ctx, frame, path)))
+
+
+def _into_site(ctx: _Context, frame, path) -> np.ndarray:
+    """`frame`'s geometries in site metres, warning when a near-twin CRS moved them."""
+    if frame.crs is not None and ctx.site_crs is not None and len(frame):
+        b = frame.total_bounds
+        warn_near_miss(ctx, path, crsmod.near_miss_shift(
+            ((b[0] + b[2]) / 2, (b[1] + b[3]) / 2), frame.crs, ctx.site_crs))
+    return to_site(frame, ctx.site_crs, path)
 
 
 def _body_outline(ctx: _Context, name: str, raw: dict):
@@ -571,7 +591,7 @@ def _receptor_items(ctx, table, raw, where) -> list:
         geoms = [(raw["id"], LineString(xy) if line else Polygon(xy), {})]
     elif raw.get("file") is not None:
         def into_site(frame):
-            return frame.set_geometry(list(to_site(frame, ctx.site_crs, raw["file"])))
+            return frame.set_geometry(list(_into_site(ctx, frame, raw["file"])))
         frame = rc.read_receptor_layer(
             raw["file"], RECEPTOR_TABLES[table], id_field=raw["id_field"],
             required_fields=[raw["depth_field"]] if raw.get("depth_field") else (),

@@ -5,9 +5,13 @@ elevation, and the fill of ``surfaces`` bodies whose existing ground is the ``[g
 surface. A survey that covers those but not the whole rectangle around a curved
 alignment is enough; one that misses them is refused while the site is built (so by
 ``fillstress check``), naming the file and the place. Elsewhere (3-D view, the ground
-raster) the gaps are only drawn, never computed with.
+raster) the gaps are only drawn, never computed with. A layer in a near twin of the site
+CRS (another foot, another datum realisation) is warned about: the files beside it that
+state no CRS may be off by the same shift.
 """
 from __future__ import annotations
+
+from pathlib import Path
 
 import numpy as np
 
@@ -73,3 +77,16 @@ def check_body_ground(ctx, name: str, report) -> None:
         f"({u.length_out(u.length_out(report.area_design_only)):,.0f} {u.length}²), e.g. at "
         f"{_place(x, y, ctx.factor)} (site CRS units): extend the survey or give this "
         "body its own existing surface", file=ctx.cfg.path, key=f"bodies.{name}")
+
+
+def warn_near_miss(ctx, path, moved_m: float) -> None:
+    """Warn when a layer moved a little on its way into the site CRS (a near twin: US
+    survey against international feet moves about 20 ft at state-plane magnitudes)."""
+    if not moved_m:
+        return
+    u = ctx.cfg.units
+    ctx.warnings.append(
+        f"{Path(path).name} states a CRS close to the site's but not the same: converting "
+        f"it moved it {u.length_out(moved_m):.1f} {u.length}. Files that state no CRS are "
+        "taken to be in the site CRS; if they share this file's CRS they are off by as "
+        "much (US survey against international feet, or another datum realisation?)")

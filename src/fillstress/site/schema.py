@@ -62,7 +62,7 @@ class Table:
         return self.keys + tuple(self.variants.get(kind, ()))
 
     def all_key_names(self) -> list[str]:
-        names = [k.name for k in self.keys] + [a for k in self.keys for a in k.aliases]
+        names = [k.name for k in self.keys]
         for extra in self.variants.values():
             names += [k.name for k in extra if k.name not in names]
         return names
@@ -175,6 +175,28 @@ BODY_VARIANTS = {
 BODIES = Table("bodies", "Fill bodies, one table each under a name of your choice, e.g. "
                "[bodies.north_pile].", _BODY_COMMON, many="named", required=True,
                variants=BODY_VARIANTS)
+
+ALIGNMENT = Table("alignment", "A centreline with stations (chainage) for the longitudinal "
+                  "profile and the cross-sections of a road, rail line, levee or pipeline. "
+                  "Stations print as 10+00 (100 ft) on US sites and 1+000 (1000 m) on SI "
+                  "sites.", (
+    Key("centreline", "xy", "Centreline as [x, y] vertices in site CRS units, in station "
+        "order.", example="[[0, 0], [800, 0], [1400, 300]]", aliases=("centerline",)),
+    Key("body", "str", "Take the centreline of this embankment body instead."),
+    Key("start_chainage", "float", "Station of the first vertex.", unit=LENGTH, default=0.0,
+        aliases=("start_station",)),
+    Key("chainages", "floats", "Stations of the cross-sections.", unit=LENGTH,
+        aliases=("stations",), example="[1200, 4500]"),
+    Key("profile_depths", "floats", "Depths below ground of Δσz along the profile "
+        "(default: the plan-grid depths).", unit=LENGTH),
+    Key("profile_step", "float", "Spacing of the profile points along the centreline "
+        "(default: about 400 points over its length).", unit=LENGTH, **_POS),
+    Key("section_width", "float", "Full width of each cross-section (default: 2.5 × the "
+        "width of the fill across the centreline there).", unit=LENGTH, **_POS),
+    Key("section_depth", "float", "Depth of each cross-section's Δσz panel (default: "
+        "the width of the fill across the centreline, at most the soil profile's depth).",
+        unit=LENGTH, **_POS),
+))
 
 SOIL = Table("soil", "Soil profile: horizontal layers below the existing ground.", (
     Key("water_table", "float", "Depth of the water table below ground.", unit=LENGTH,
@@ -296,6 +318,6 @@ MONITORING = Table("monitoring", "Field readings for `fillstress monitor` (readi
         "stage_days and the readings' days count.", example='"2025-03-03"'),
 ))
 
-TABLES: tuple[Table, ...] = (SITE, GRID, GROUND, BODIES, SOIL, LAYER, BUILDINGS, PIPES,
-                             BOREHOLES, PLAN_GRIDS, SETTLEMENT, OUTPUTS, MONITORING)
+TABLES: tuple[Table, ...] = (SITE, GRID, GROUND, BODIES, ALIGNMENT, SOIL, LAYER, BUILDINGS,
+                             PIPES, BOREHOLES, PLAN_GRIDS, SETTLEMENT, OUTPUTS, MONITORING)
 TOP_LEVEL = {t.name: t for t in TABLES if "." not in t.name}

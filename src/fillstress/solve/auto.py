@@ -18,7 +18,7 @@ from .direct import node_weights, vertical_stress
 from .farfield import DEFAULT_ORDER, _accuracy, build_pyramid, evaluate_pyramid
 
 # About 1 s of direct summation on the 2-core development machine (see solve/cost.py);
-# above it the far field is faster, see docs/performance.md "## Scale".
+# above it the far field is faster, see docs/performance.md "## Far field".
 DIRECT_WORK_LIMIT = 5e7
 DEFAULT_CHUNK = 20_000
 ALGORITHMS = ("auto", "direct", "far")

@@ -13,7 +13,7 @@ Two numba kernels, both parallel over points and both exact to round-off:
 """
 from __future__ import annotations
 
-import math
+from typing import NamedTuple
 
 import numba
 import numpy as np
@@ -21,10 +21,10 @@ import numpy as np
 from .._validate import points_array
 from ..errors import InputError
 from ..grid import LoadGrid
-from ..kernels import KernelSpec, boussinesq, corner_angle, resolve_method, westergaard
+from ..kernels import KernelSpec, resolve_method
+from ..kernels.corner import (DEEP, FAST_MATH, INV_2PI, corner_deep, corner_sum, cross_ratio,
+                              depth_parts, shared_rectangle)
 from ._checks import checked_grid, points_per_chunk
-
-INV_2PI = boussinesq.INV_2PI
 
 
 def node_weights(pressure: np.ndarray) -> np.ndarray:
@@ -42,56 +42,114 @@ def node_weights(pressure: np.ndarray) -> np.ndarray:
     return padded[:-1, :-1] - padded[:-1, 1:] - padded[1:, :-1] + padded[1:, 1:]
 
 
-def _sparse_rows(weights: np.ndarray):
-    """Compressed rows of the non-zero node weights: (rows, row_start, cols, values)."""
-    rows = np.flatnonzero(np.any(weights != 0.0, axis=1)).astype(np.int64)
-    cols, values, row_start = [], [], [0]
-    for j in rows:
-        nz = np.flatnonzero(weights[j] != 0.0)
-        cols.append(nz)
-        values.append(weights[j, nz])
-        row_start.append(row_start[-1] + nz.size)
-    cat = (lambda parts, dt: np.concatenate(parts).astype(dt) if parts else np.zeros(0, dt))
-    return rows, np.asarray(row_start, np.int64), cat(cols, np.int64), cat(values, np.float64)
+# A row with at least this share of non-zero node weights is summed densely (no index
+# array); sparser rows list their non-zero nodes.  A listed node cost about 1.35 dense ones
+# when every row was listed (benchmarks/bench_engine.py --only ceiling, before the split), so
+# the break-even share is about 0.75; 0.7 is that, rounded down, not tuned.
+DENSE_ROW_SHARE = 0.7
 
 
-@numba.njit(parallel=True, cache=True)
-def _node_kernel(points, x_nodes, y_nodes, rows, row_start, cols, values,
-                 depth_scale, second_term, n_chunks, out):
+class NodeRows(NamedTuple):
+    """The rows of node weights that carry weight, each dense or listed.
+
+    rows[k] is a node row index; dense[k] says whether it is summed over all nodes of
+    `weights[rows[k]]` or over its listed nodes cols[start[k]:start[k+1]] with values.
+    """
+
+    weights: np.ndarray
+    rows: np.ndarray
+    dense: np.ndarray
+    start: np.ndarray
+    cols: np.ndarray
+    values: np.ndarray
+
+
+def node_rows(weights: np.ndarray, dense_share: float = DENSE_ROW_SHARE) -> NodeRows:
+    """Split the weighted rows of `weights` into dense and listed ones by their density.
+
+    Examples
+    --------
+    >>> r = node_rows(node_weights(np.array([[2.0, 2.0]])))
+    >>> r.rows.tolist(), r.dense.tolist(), r.cols.tolist()
+    ([0, 1], [False, False], [0, 2, 0, 2])
+    """
+    counts = np.count_nonzero(weights, axis=1)
+    rows = np.flatnonzero(counts).astype(np.int64)
+    dense = counts[rows] >= dense_share * weights.shape[1]
+    listed = rows[~dense]
+    nz_rows, nz_cols = np.nonzero(weights[listed])
+    start = np.zeros(rows.size + 1, np.int64)
+    start[1:] = np.cumsum(np.where(dense, 0, counts[rows]))
+    return NodeRows(weights, rows, dense, start, nz_cols.astype(np.int64),
+                    weights[listed][nz_rows, nz_cols].astype(np.float64))
+
+
+# One row of the node sum, all nodes (_dense_row) or the listed ones (_listed_row).  The
+# test of depth is made once per row so that the loop over nodes has no branch.
+@numba.njit(cache=True, fastmath=FAST_MATH)
+def _dense_row(w, a, a_sq, a_cross, b, b_cross, c, inv_c, deep):
+    total = 0.0
+    b_sq = b * b
+    if deep:
+        for i in range(w.size):
+            total += w[i] * corner_deep(a[i], b, a_sq[i] + b_sq, inv_c, a_cross[i], b_cross)
+    else:
+        for i in range(w.size):
+            total += w[i] * corner_sum(a[i], b, c, a_sq[i] + b_sq, inv_c, a_cross[i], b_cross)
+    return total
+
+
+@numba.njit(cache=True, fastmath=FAST_MATH)
+def _listed_row(cols, values, a, a_sq, a_cross, b, b_cross, c, inv_c, deep):
+    total = 0.0
+    b_sq = b * b
+    if deep:
+        for m in range(cols.size):
+            i = cols[m]
+            total += values[m] * corner_deep(a[i], b, a_sq[i] + b_sq, inv_c, a_cross[i],
+                                             b_cross)
+    else:
+        for m in range(cols.size):
+            i = cols[m]
+            total += values[m] * corner_sum(a[i], b, c, a_sq[i] + b_sq, inv_c, a_cross[i],
+                                            b_cross)
+    return total
+
+
+@numba.njit(parallel=True, cache=True, fastmath=FAST_MATH)
+def _node_kernel(points, x_nodes, y_nodes, node, depth_scale, second_term, n_chunks, out):
     # points are split in n_chunks blocks so the scratch rows are allocated once per block
     n_points = points.shape[0]
     n_chunks = max(1, min(n_points, n_chunks))
+    nx = x_nodes.size
     for chunk in numba.prange(n_chunks):
-        a = np.empty(x_nodes.size)
-        a_sq = np.empty(x_nodes.size)
-        a_cross = np.empty(x_nodes.size)
+        a = np.empty(nx)
+        a_sq = np.empty(nx)
+        a_cross = np.empty(nx)
         for p in range(chunk * n_points // n_chunks, (chunk + 1) * n_points // n_chunks):
-            z = abs(points[p, 2])
-            c = depth_scale * z
-            inv_c = 1.0 / c if c > 0.0 else math.inf
-            for i in range(x_nodes.size):
+            z, c, inv_c = depth_parts(points[p, 2], depth_scale)
+            for i in range(nx):
                 ai = x_nodes[i] - points[p, 0]
                 a[i] = ai
                 a_sq[i] = ai * ai + c * c
-                a_cross[i] = second_term * boussinesq.cross_ratio(ai, z)
+                a_cross[i] = second_term * cross_ratio(ai, z)
+            deep = c >= DEEP
             total = 0.0
-            for k in range(rows.size):
-                b = y_nodes[rows[k]] - points[p, 1]
-                b_sq = b * b
-                b_cross = second_term * boussinesq.cross_ratio(b, z)
-                for m in range(row_start[k], row_start[k + 1]):
-                    i = cols[m]
-                    # r = 0 only if a = b = 0; atan2(ab, cR) taken as atan2(a·b/R, c)
-                    # so a product of tiny offsets cannot underflow and lose its sign
-                    inv_r = 1.0 / max(math.sqrt(a_sq[i] + b_sq), 1e-300)
-                    f = (corner_angle(a[i] * (b * inv_r), c, inv_c)
-                         + (b * a_cross[i] + a[i] * b_cross) * inv_r)
-                    total += values[m] * f
+            for k in range(node.rows.size):
+                b = y_nodes[node.rows[k]] - points[p, 1]
+                b_cross = second_term * cross_ratio(b, z)
+                if node.dense[k]:
+                    total += _dense_row(node.weights[node.rows[k]], a, a_sq, a_cross, b,
+                                        b_cross, c, inv_c, deep)
+                else:
+                    lo, hi = node.start[k], node.start[k + 1]
+                    total += _listed_row(node.cols[lo:hi], node.values[lo:hi], a, a_sq,
+                                         a_cross, b, b_cross, c, inv_c, deep)
             out[p] = INV_2PI * total
 
 
 @numba.njit(parallel=True, cache=True)
-def _cell_kernel(points, x_nodes, y_nodes, pressure, is_westergaard, eta, out):
+def _cell_kernel(points, x_nodes, y_nodes, pressure, depth_scale, second_term, out):
     ny, nx = pressure.shape
     for p in numba.prange(points.shape[0]):
         px, py, z = points[p, 0], points[p, 1], points[p, 2]
@@ -105,10 +163,7 @@ def _cell_kernel(points, x_nodes, y_nodes, pressure, is_westergaard, eta, out):
                     continue
                 x1 = x_nodes[i] - px
                 x2 = x_nodes[i + 1] - px
-                if is_westergaard:
-                    total += q * westergaard.rectangle(x1, x2, y1, y2, z, eta)
-                else:
-                    total += q * boussinesq.rectangle(x1, x2, y1, y2, z)
+                total += q * shared_rectangle(x1, x2, y1, y2, z, depth_scale, second_term)
         out[p] = total
 
 
@@ -127,11 +182,11 @@ def node_coordinates(grid: LoadGrid) -> tuple[np.ndarray, np.ndarray]:
 
 def _run_node_kernel(grid: LoadGrid, pts: np.ndarray, spec: KernelSpec, chunk: int) -> np.ndarray:
     x_nodes, y_nodes = node_coordinates(grid)
-    sparse = _sparse_rows(node_weights(grid.pressure))
+    node = node_rows(node_weights(grid.pressure))
     out = np.zeros(pts.shape[0])
     for start in range(0, pts.shape[0], chunk):
         part = pts[start:start + chunk]
-        _node_kernel(part, x_nodes, y_nodes, *sparse, spec.depth_scale, spec.second_term,
+        _node_kernel(part, x_nodes, y_nodes, node, spec.depth_scale, spec.second_term,
                      8 * numba.get_num_threads(), out[start:start + chunk])
     return out
 
@@ -141,7 +196,7 @@ def _run_cell_kernel(grid: LoadGrid, pts: np.ndarray, spec: KernelSpec, chunk: i
     out = np.zeros(pts.shape[0])
     for start in range(0, pts.shape[0], chunk):
         _cell_kernel(pts[start:start + chunk], x_nodes, y_nodes, grid.pressure,
-                     spec.method == "westergaard", spec.depth_scale, out[start:start + chunk])
+                     spec.depth_scale, spec.second_term, out[start:start + chunk])
     return out
 
 

@@ -81,6 +81,7 @@ def connect(scheduler):
                           # most this many times, then the run fails with one line
                           "distributed.scheduler.allowed-failures": ALLOWED_FAILURES,
                           "distributed.comm.timeouts.connect": f"{SCHEDULER_TIMEOUT_S}s"}):
+        own_threads = os.environ.get("NUMBA_NUM_THREADS")
         try:
             cluster = LocalCluster(n_workers=n, threads_per_worker=1, processes=True,
                                    dashboard_address=":0", memory_limit=WORKER_MEMORY,
@@ -88,6 +89,8 @@ def connect(scheduler):
         except Exception as exc:        # ports, processes, memory: the cluster did not start
             raise InputError(f"the local Dask cluster of {n} workers did not start "
                              f"({type(exc).__name__}: {exc})", argument="--workers") from None
+        finally:
+            _restore_numba_threads(own_threads)
     client = Client(cluster)
     try:
         with _cluster_failures(f"the local Dask cluster of {n} workers"):
@@ -95,6 +98,17 @@ def connect(scheduler):
     finally:
         client.close()
         cluster.close()
+        _restore_numba_threads(own_threads)  # a worker restarted mid-run set it again
+
+
+def _restore_numba_threads(value):
+    """Put back this process's NUMBA_NUM_THREADS: the nanny sets its pre-spawn variables
+    here too, and numba refuses its next compile once the variable differs from the
+    thread count it started with."""
+    if value is None:
+        os.environ.pop("NUMBA_NUM_THREADS", None)
+    else:
+        os.environ["NUMBA_NUM_THREADS"] = value
 
 
 @contextmanager
@@ -148,7 +162,9 @@ def distributed_points(grid, points, method="boussinesq", poisson=None, *, clien
     pts, step, chosen, evaluate = prepare(grid, points, method, poisson, algorithm=algorithm,
                                           chunk_size=chunk_size, tol=tol, floor=floor,
                                           order=order)
-    shared = client.scatter(evaluate, broadcast=True)
+    # hash=False: a key of its own each call; with content keys a second call on the
+    # same data can reuse a key the first call is releasing ("lost dependencies").
+    shared = client.scatter(evaluate, broadcast=True, hash=False)
     futures = [client.submit(_apply, shared, pts[s:s + step], retries=retries, pure=False)
                for s in range(0, pts.shape[0], step)]
     parts = _gather(client, futures, f"stress at points ({chosen}, Dask)", progress)
@@ -179,14 +195,14 @@ def distributed_slices(grid, depths, method="boussinesq", poisson=None, *, clien
                                     memory_cap=memory_cap, tile=tile)
         # every job holds the same load tiles (the whole grid): send them to each worker
         # once instead of inside every task
-        [loads] = client.scatter([jobs[0].loads], broadcast=True)
+        [loads] = client.scatter([jobs[0].loads], broadcast=True, hash=False)
         futures = [client.submit(_run_tile_with, replace(job, loads=()), loads,
                                  retries=retries, pure=False) for job in jobs]
         parts = _gather(client, futures, "stress slices (tiles, Dask)", progress)
         return assemble(jobs, parts, frame)
     grid, frame = slice_setup(grid, depths, method, poisson, offset=offset, pad=pad)
     spec = frame["spec"]
-    pressure = client.scatter(grid.pressure, broadcast=True)
+    pressure = client.scatter(grid.pressure, broadcast=True, hash=False)   # see above
     futures = [client.submit(slice_at_depth, pressure, grid.dx, grid.dy, float(z), spec.method,
                              spec.poisson, offset=frame["offset"], pad_cells=frame["pad_cells"],
                              retries=retries, pure=False)

@@ -26,6 +26,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import NamedTuple
 
 import numba
 import numpy as np
@@ -33,7 +34,8 @@ import numpy as np
 from .._validate import points_array, positive
 from ..errors import InputError
 from ..grid import LoadGrid
-from ..kernels import KernelSpec, boussinesq, resolve_method, westergaard
+from ..kernels import KernelSpec, resolve_method
+from ..kernels.corner import shared_rectangle
 from .._validate import whole_number
 from ._checks import checked_grid
 
@@ -331,12 +333,67 @@ def _expansion(dxp, dyp, r2, w_row, terms, e_pow, f_pow, w_pow, order):
     return total
 
 
+class FarTables(NamedTuple):
+    """Everything the compiled walk reads, in one argument (numba takes named tuples)."""
+
+    pressure: np.ndarray
+    x0: float
+    y0: float
+    dx: float
+    dy: float
+    nbx: np.ndarray
+    nby: np.ndarray
+    offset: np.ndarray
+    centre: np.ndarray
+    half_diag: np.ndarray
+    mass_abs: np.ndarray
+    weights: np.ndarray
+    cell_weights: np.ndarray
+    terms: np.ndarray
+    order: int
+    power: int
+    amp: float
+    depth_scale: float
+    second_term: float
+    theta_max: float
+    first_coef: float
+    ratio_coef: float
+
+
+class _Scratch(NamedTuple):
+    """Per-thread work arrays of the walk: the block stack, powers and counters."""
+
+    st_level: np.ndarray
+    st_j: np.ndarray
+    st_i: np.ndarray
+    e_pow: np.ndarray
+    f_pow: np.ndarray
+    w_pow: np.ndarray
+    counts: np.ndarray
+
+
+def far_tables(pyramid: "Pyramid") -> FarTables:
+    """The :class:`FarTables` of a pyramid (arrays shared, not copied)."""
+    grid, spec = pyramid.grid, pyramid.spec
+    amp, power = _kernel_power(spec)
+    return FarTables(grid.pressure, float(grid.x0), float(grid.y0), float(grid.dx),
+                     float(grid.dy), pyramid.nbx, pyramid.nby, pyramid.offset, pyramid.centre,
+                     pyramid.half_diag, pyramid.mass_abs, pyramid.weights, pyramid.cell_weights,
+                     pyramid.terms, int(pyramid.order), int(power), float(amp),
+                     float(spec.depth_scale), float(spec.second_term),
+                     float(theta_limit(pyramid.order, power)),
+                     float(math.comb(pyramid.order + power, power - 1)),
+                     (pyramid.order + 1 + power) / (pyramid.order + 2))
+
+
 @numba.njit(cache=True)
-def _walk(px, py, z, delta, pressure, x0, y0, dx, dy, nbx, nby, offset, centre, half_diag,
-          mass_abs, weights, cell_weights, terms, order, power, amp, depth_scale,
-          is_westergaard, eta, theta_max, first_coef, ratio_coef,
-          st_level, st_j, st_i, e_pow, f_pow, w_pow, counts):
-    """One walk for one point: (Δσz, summed error bound) with acceptance threshold delta."""
+def _walk(px, py, z, delta, t, s):
+    """One walk for one point: (Δσz, summed error bound) with acceptance threshold delta
+    (t: the :class:`FarTables`, s: the :class:`_Scratch` arrays)."""
+    pressure, x0, y0, dx, dy = t.pressure, t.x0, t.y0, t.dx, t.dy
+    nbx, nby, offset, order, power, amp = t.nbx, t.nby, t.offset, t.order, t.power, t.amp
+    st_level, st_j, st_i, counts = s.st_level, s.st_j, s.st_i, s.counts
+    depth_scale, theta_max = t.depth_scale, t.theta_max
     c = depth_scale * z
     c_pow = c if power == 3 else c * c * c  # c^(k-2)
     cell_half = 0.5 * math.hypot(dx, dy)
@@ -358,24 +415,23 @@ def _walk(px, py, z, delta, pressure, x0, y0, dx, dy, nbx, nby, offset, centre, 
             h, m_abs = cell_half, abs(q) * dx * dy
         else:
             b = offset[lev] + bj * nbx[lev] + bi
-            m_abs = mass_abs[b]
+            m_abs = t.mass_abs[b]
             if m_abs == 0.0:
                 continue
-            cx, cy, h = centre[b, 0], centre[b, 1], half_diag[b]
+            cx, cy, h = t.centre[b, 0], t.centre[b, 1], t.half_diag[b]
         dxp, dyp = px - cx, py - cy
         r2 = dxp * dxp + dyp * dyp + c * c
         if h * h <= theta_max * theta_max * r2 and r2 > 0.0:
             r = math.sqrt(r2)
             theta = h / r
             rk = r * r2 if power == 3 else r * r2 * r2  # R^k for k = 3 or 5
-            err = amp * c_pow * m_abs / rk * _tail(theta, order, first_coef, ratio_coef)
+            err = amp * c_pow * m_abs / rk * _tail(theta, order, t.first_coef, t.ratio_coef)
             if err <= delta:
+                w_row = t.cell_weights if lev == 0 else t.weights[b]
+                series = _expansion(dxp, dyp, r2, w_row, t.terms, s.e_pow, s.f_pow, s.w_pow,
+                                    order)
                 if lev == 0:
-                    series = q * _expansion(dxp, dyp, r2, cell_weights, terms,
-                                            e_pow, f_pow, w_pow, order)
-                else:
-                    series = _expansion(dxp, dyp, r2, weights[b], terms,
-                                        e_pow, f_pow, w_pow, order)
+                    series *= q
                 value += amp * c_pow / rk * series
                 bound += err
                 counts[1] += 1
@@ -383,10 +439,7 @@ def _walk(px, py, z, delta, pressure, x0, y0, dx, dy, nbx, nby, offset, centre, 
         if lev == 0:
             x1, x2 = x0 + bi * dx - px, x0 + (bi + 1) * dx - px
             y1, y2 = y0 + bj * dy - py, y0 + (bj + 1) * dy - py
-            if is_westergaard:
-                value += q * westergaard.rectangle(x1, x2, y1, y2, z, eta)
-            else:
-                value += q * boussinesq.rectangle(x1, x2, y1, y2, z)
+            value += q * shared_rectangle(x1, x2, y1, y2, z, depth_scale, t.second_term)
             counts[0] += 1
             continue
         cnx, cny = nbx[lev - 1], nby[lev - 1]
@@ -398,31 +451,21 @@ def _walk(px, py, z, delta, pressure, x0, y0, dx, dy, nbx, nby, offset, centre, 
 
 
 @numba.njit(parallel=True, cache=True)
-def _far_kernel(points, pressure, x0, y0, dx, dy, nbx, nby, offset, centre, half_diag,
-                mass_abs, weights, cell_weights, terms, order, power, amp, depth_scale,
-                is_westergaard, eta, theta_max, first_coef, ratio_coef,
-                tol, abs_floor, n_chunks, out, out_bound, out_work):
+def _far_kernel(points, t, tol, abs_floor, n_chunks, out, out_bound, out_work):
     n_points = points.shape[0]
     n_chunks = max(1, min(n_points, n_chunks))
-    depth = 4 * nbx.size + 8
+    depth = 4 * t.nbx.size + 8
     for chunk in numba.prange(n_chunks):
-        st_level = np.empty(depth, np.int64)
-        st_j = np.empty(depth, np.int64)
-        st_i = np.empty(depth, np.int64)
-        e_pow = np.empty(order + 1)
-        f_pow = np.empty(order + 1)
-        w_pow = np.empty(order + 1)
         counts = np.zeros(3, np.int64)
+        s = _Scratch(np.empty(depth, np.int64), np.empty(depth, np.int64),
+                     np.empty(depth, np.int64), np.empty(t.order + 1), np.empty(t.order + 1),
+                     np.empty(t.order + 1), counts)
         for p in range(chunk * n_points // n_chunks, (chunk + 1) * n_points // n_chunks):
             px, py, z = points[p, 0], points[p, 1], abs(points[p, 2])
             counts[:] = 0
             delta = math.inf  # first walk: only the θ limit, gives the size of the answer
             for attempt in range(_MAX_RETRIES + 2):
-                value, bound = _walk(px, py, z, delta, pressure, x0, y0, dx, dy, nbx, nby,
-                                     offset, centre, half_diag, mass_abs, weights,
-                                     cell_weights, terms, order, power, amp, depth_scale,
-                                     is_westergaard, eta, theta_max, first_coef, ratio_coef,
-                                     st_level, st_j, st_i, e_pow, f_pow, w_pow, counts)
+                value, bound = _walk(px, py, z, delta, t, s)
                 budget = tol * max(abs(value) - bound, abs_floor)
                 if bound <= budget:
                     break
@@ -462,20 +505,12 @@ def evaluate_pyramid(pyramid: Pyramid, points, *, tol: float = 1e-3, floor: floa
     """
     pts = points_array(points)
     tol, floor = _accuracy(tol, floor)
-    grid, spec = pyramid.grid, pyramid.spec
-    amp, power = _kernel_power(spec)
-    first_coef = float(math.comb(pyramid.order + power, power - 1))
-    ratio_coef = (pyramid.order + 1 + power) / (pyramid.order + 2)
-    abs_floor = floor * float(np.abs(grid.pressure).max())
+    abs_floor = floor * float(np.abs(pyramid.grid.pressure).max())
     out, bound = np.zeros(pts.shape[0]), np.zeros(pts.shape[0])
     work = np.zeros((pts.shape[0], 3), np.int64)
     if pts.shape[0]:
-        _far_kernel(pts, grid.pressure, grid.x0, grid.y0, grid.dx, grid.dy, pyramid.nbx,
-                    pyramid.nby, pyramid.offset, pyramid.centre, pyramid.half_diag,
-                    pyramid.mass_abs, pyramid.weights, pyramid.cell_weights, pyramid.terms,
-                    pyramid.order, power, amp, spec.depth_scale, spec.method == "westergaard",
-                    spec.depth_scale, theta_limit(pyramid.order, power), first_coef,
-                    ratio_coef, tol, abs_floor, 8 * numba.get_num_threads(), out, bound, work)
+        _far_kernel(pts, far_tables(pyramid), tol, abs_floor, 8 * numba.get_num_threads(),
+                    out, bound, work)
     if return_work:
         return out, bound, work
     return (out, bound) if return_bound else out

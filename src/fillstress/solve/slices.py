@@ -22,11 +22,10 @@ import xarray as xr
 
 from .._validate import depths_array, finite, finite_array, positive
 from ..errors import InputError
-from ..kernels import boussinesq, corner_angle, resolve_method
+from ..kernels import resolve_method
+from ..kernels.corner import INV_2PI, corner_sum, cross_ratio, inverse_depth
 from .._validate import whole_pair
 from ._checks import checked_grid, fft_workers, offset_pair
-
-INV_2PI = boussinesq.INV_2PI
 
 
 @numba.njit(parallel=True, cache=True)
@@ -35,21 +34,20 @@ def _unit_cell_kernel(a_nodes, b_nodes, z, depth_scale, second_term):
     from the corner function F evaluated once on the node lattice (a_i, b_j)."""
     z = abs(z)
     c = depth_scale * z
-    inv_c = 1.0 / c if c > 0.0 else math.inf
+    inv_c = inverse_depth(c)
     na, nb = a_nodes.size, b_nodes.size
     a_sq = np.empty(na)
     a_cross = np.empty(na)
     for i in range(na):
         a_sq[i] = a_nodes[i] * a_nodes[i] + c * c
-        a_cross[i] = second_term * boussinesq.cross_ratio(a_nodes[i], z)
+        a_cross[i] = second_term * cross_ratio(a_nodes[i], z)
     corner = np.empty((nb, na))
     for j in numba.prange(nb):
         b = b_nodes[j]
-        b_cross = second_term * boussinesq.cross_ratio(b, z)
+        b_cross = second_term * cross_ratio(b, z)
         for i in range(na):
-            inv_r = 1.0 / max(math.sqrt(a_sq[i] + b * b), 1e-300)  # r = 0 only if a = b = 0
-            corner[j, i] = INV_2PI * (corner_angle(a_nodes[i] * (b * inv_r), c, inv_c)
-                                      + (b * a_cross[i] + a_nodes[i] * b_cross) * inv_r)
+            corner[j, i] = INV_2PI * corner_sum(a_nodes[i], b, c, a_sq[i] + b * b, inv_c,
+                                                a_cross[i], b_cross)
     cell = np.empty((nb - 1, na - 1))
     for j in numba.prange(nb - 1):
         for i in range(na - 1):

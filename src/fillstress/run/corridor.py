@@ -1,0 +1,136 @@
+"""Results along the alignment: a longitudinal profile and cross-sections (SI tables).
+
+Profile, every ``profile_step`` along the centreline: fill height, Δσz at the profile
+depths under the final load, and with a soil profile the consolidation settlement after
+each stage and at times after the start (stages placed at their ``stage_days``).
+Cross-section at each chosen station, square to the centreline: the fill height, the
+ground and the settlement across it, and Δσz on a panel of offsets × depths (isobars).
+Everything comes from the same load grids and solvers as the receptors.
+"""
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from .. import settlement as st
+from .settle import column_layers
+
+#: Times (years after the start of stage 1) of the settlement columns of the profile.
+PROFILE_YEARS = (0.5, 1.0, 2.0, 5.0, 10.0, 25.0)
+SECTION_OFFSETS, SECTION_DEPTHS = 81, 24       # points across, levels down
+
+
+def _fill_at(site, xy) -> np.ndarray:
+    """Fill height (m) of the final stage at plan points: the value of their cell."""
+    spec, t = site.spec, site.fill_thickness()
+    i = np.floor((xy[:, 0] - spec.x0) / spec.dx).astype(int)
+    j = np.floor((xy[:, 1] - spec.y0) / spec.dy).astype(int)
+    inside = (i >= 0) & (i < spec.nx) & (j >= 0) & (j < spec.ny)
+    out = np.zeros(len(xy))
+    out[inside] = t[j[inside], i[inside]]
+    return out
+
+
+def _ground_at(site, xy) -> np.ndarray:
+    if site.ground is None:
+        return np.full(len(xy), np.nan)
+    return np.asarray(site.ground(xy[:, 0], xy[:, 1]), float).reshape(-1)
+
+
+def _stage_years(site) -> np.ndarray:
+    return np.asarray(site.stage_start_days(), float) / 365.25
+
+
+def _settlements(site, xy, evaluate, with_time: bool) -> dict:
+    """Columns of surface settlement (m) at plan points: per stage, and at PROFILE_YEARS."""
+    grids = [site.load_grid(k) for k in site.stages]
+    layers = column_layers(site.soil, xy[:, 0], xy[:, 1], 0.0, grids, evaluate)
+    if layers is None:
+        return {}
+    cols = {f"settlement_stage{k}": layers[:, s].sum(axis=1)
+            for s, k in enumerate(site.stages)}
+    cols["settlement"] = cols[f"settlement_stage{site.stages[-1]}"]
+    if with_time and any(L.compressible and L.cv_m2_per_yr for L in site.soil.layers):
+        cv, hdr = st.time_parameters(site.soil, no_cv="immediate")
+        years = np.asarray(PROFILE_YEARS)
+        at = np.full((len(xy), len(years)), np.nan)
+        for n in range(len(xy)):
+            if not np.isnan(layers[n]).any():
+                at[n] = st.settlement_time_curve(st.stage_increments(layers[n]),
+                                                 _stage_years(site), years, cv, hdr)
+        cols.update({f"settlement_{y:g}yr": at[:, k] for k, y in enumerate(years)})
+    return cols
+
+
+def profile_step(site) -> float:
+    """Spacing (m) of the profile points: the stated step, or about 400 points over the
+    centreline but no closer than the cell."""
+    a = site.alignment
+    return a.profile_step or max(a.line.length / 400.0, site.spec.dx)
+
+
+def profile(site, evaluate) -> pd.DataFrame:
+    """The longitudinal profile along the centreline (SI; ``station`` in m)."""
+    a = site.alignment
+    stations = np.unique(np.r_[np.arange(a.start, a.end, profile_step(site)), a.end])
+    xy, _ = a.points(stations)
+    out = pd.DataFrame({"station": stations, "x": xy[:, 0], "y": xy[:, 1],
+                        "ground_elevation": _ground_at(site, xy), "fill_height": _fill_at(site, xy)})
+    grid = site.load_grid()
+    for depth in a.profile_depths:
+        xyz = np.column_stack([xy, np.full(len(xy), depth)])
+        out[f"dsz_z{depth:g}"] = evaluate(grid, xyz)
+    if site.soil is not None:
+        out = out.assign(**_settlements(site, xy, evaluate, with_time=True))
+    return out
+
+
+def _fill_width(site, centre, normal) -> float:
+    """Width (m) across the centreline where the final fill is thicker than 1 mm."""
+    reach = np.linspace(-1000.0, 1000.0, 2001)
+    h = _fill_at(site, centre + reach[:, None] * normal)
+    loaded = reach[h > 1e-3]
+    return float(loaded.max() - loaded.min()) if loaded.size else 0.0
+
+
+def sections(site, evaluate) -> tuple[pd.DataFrame, pd.DataFrame]:
+    """(surface, panel): per station, the fill, ground and settlement across it, and Δσz
+    on offsets × depths (SI; offsets positive to the left of the direction of stationing)."""
+    a = site.alignment
+    if not a.chainages:
+        return pd.DataFrame(), pd.DataFrame()
+    centres, tangents = a.points(a.chainages)
+    grid = site.load_grid()
+    surfaces, panels = [], []
+    for station, centre, t in zip(a.chainages, centres, tangents):
+        normal = np.array([-t[1], t[0]])
+        width = _fill_width(site, centre, normal)
+        half = 0.5 * (a.section_width or max(2.5 * width, 20 * site.spec.dx))
+        offsets = np.linspace(-half, half, SECTION_OFFSETS)
+        xy = centre + offsets[:, None] * normal
+        surface = pd.DataFrame({"station": station, "offset": offsets, "x": xy[:, 0],
+                                "y": xy[:, 1], "ground_elevation": _ground_at(site, xy),
+                                "fill_height": _fill_at(site, xy)})
+        if site.soil is not None:
+            surface = surface.assign(**_settlements(site, xy, evaluate, with_time=False))
+        surfaces.append(surface)
+        bottom = a.section_depth or max(width, 10 * site.spec.dx)
+        if a.section_depth is None and site.soil is not None:
+            bottom = min(bottom, site.soil.bottom_m)      # the stated profile
+        depths = np.linspace(bottom / SECTION_DEPTHS, bottom, SECTION_DEPTHS)
+        off, dep = np.meshgrid(offsets, depths)
+        pts = centre + off.ravel()[:, None] * normal
+        dsz = evaluate(grid, np.column_stack([pts, dep.ravel()]))
+        panels.append(pd.DataFrame({"station": station, "offset": off.ravel(),
+                                    "depth": dep.ravel(), "dsz": dsz}))
+    return pd.concat(surfaces, ignore_index=True), pd.concat(panels, ignore_index=True)
+
+
+def corridor_results(site, evaluate) -> dict:
+    """``{"alignment_profile", "alignment_section_surface", "alignment_section_dsz"}``
+    DataFrames (SI), or {} without an [alignment]."""
+    if site.alignment is None:
+        return {}
+    surface, panel = sections(site, evaluate)
+    return {"alignment_profile": profile(site, evaluate),
+            "alignment_section_surface": surface, "alignment_section_dsz": panel}
