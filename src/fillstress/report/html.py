@@ -15,6 +15,7 @@ from pathlib import Path
 
 from pyproj import CRS
 
+from ..errors import InputError
 from ..io.atomic import write_atomic
 from .corridor import alignment_section
 from ..io.results import ResultsFolder, UnitLabels
@@ -510,6 +511,9 @@ def write_report(results_dir, path=None) -> Path:
     ...
     fillstress.errors.InputError: argument results_dir: is not a results folder (no such directory)
     """
+    if (Path(results_dir) / "monitoring.json").is_file():
+        raise InputError("is a monitoring folder: its report.html is written by "
+                         "`fillstress monitor` (rerun it with --overwrite)", file=results_dir)
     folder = ResultsFolder(results_dir)
     text = _Report(folder).page()
     path = folder.path / "report.html" if path is None else Path(path)
