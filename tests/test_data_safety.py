@@ -166,3 +166,41 @@ def test_symlinked_results_folder_is_refused(tmp_path):
     (tmp_path / "link").symlink_to(tmp_path / "real")
     with pytest.raises(InputError, match="not a folder"):
         ResultsWriter(tmp_path / "link", overwrite=True)
+
+
+# --- a real SIGKILL of the command ---------------------------------------------------------
+def _partial_files(parent: Path) -> int:
+    """Files written so far in the run's hidden unfinished folder (-1 while there is none)."""
+    partials = list(parent.glob(".res.partial-*"))
+    return sum(1 for p in partials[0].rglob("*") if p.is_file()) if partials else -1
+
+
+@pytest.mark.skipif(not hasattr(os, "fork") or sys.platform == "win32",
+                    reason="SIGKILL is POSIX; Windows has no uncatchable kill signal to send")
+@pytest.mark.parametrize("files_before_kill", [0, 3])
+def test_sigkill_of_the_command_mid_run_loses_nothing(tmp_path, files_before_kill):
+    """`fillstress run --overwrite` killed by the kernel (SIGKILL: no handler, no cleanup)
+    once its unfinished folder exists, or holds a few files: the earlier folder is intact and
+    verifies, and the next run removes the remains and says so."""
+    import signal
+    import time
+    site = write_site(tmp_path / "job")
+    out = tmp_path / "res"
+    assert main(["run", str(site), "-o", str(out), "-q", "--no-report"]) == 0
+    before = tree_hashes(out)
+    env = {**os.environ, "PYTHONPATH": str(SRC)}
+    child = subprocess.Popen([sys.executable, "-m", "fillstress.cli", "run", str(site), "-o",
+                              str(out), "--overwrite", "-q"], env=env,
+                             stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    deadline = time.monotonic() + 120
+    while _partial_files(tmp_path) < files_before_kill and child.poll() is None:
+        assert time.monotonic() < deadline, "the run never started writing"
+        time.sleep(0.002)
+    child.send_signal(signal.SIGKILL)
+    assert child.wait() == -signal.SIGKILL, "the run finished before it could be killed"
+    assert tree_hashes(out) == before and verify_folder(out) == []
+    assert _partial_files(tmp_path) >= files_before_kill        # the kill left its remains
+    with pytest.warns(FillstressWarning, match="interrupted run"):
+        recover_stranded(out)
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["job", "res"]
+    assert tree_hashes(out) == before
