@@ -106,6 +106,18 @@ def ground_raster_with_hole(path: Path) -> None:
         dst.write(z, 1)
 
 
+def british_grid_surfaces(d: Path) -> None:
+    """Design and existing GeoTIFFs in the British National Grid (EPSG:27700), 2 m fill."""
+    import numpy as np
+    import rasterio
+    from rasterio.transform import from_origin
+    for name, level in (("existing.tif", 50.0), ("design.tif", 52.0)):
+        with rasterio.open(d / name, "w", driver="GTiff", width=30, height=20, count=1,
+                           dtype="float32", crs="EPSG:27700",
+                           transform=from_origin(431000.0, 291000.0, 2.0, 2.0)) as dst:
+            dst.write(np.full((20, 30), level, dtype="float32"), 1)
+
+
 def raw(text, command="check", args=("-q",)):
     """A builder writing `text` (str or bytes) as the whole site file."""
     def build(d: Path):
@@ -243,6 +255,17 @@ CASES = [
          site(("cell = 2.0", "cell = 1e-6")), names=("grid", "GB", "cap")),
     Case("margin-huge", "numbers", "margin = 1e7 (ten thousand kilometres)",
          site(("margin = 8.0", "margin = 1e7")), names=("grid", "GB", "cap")),
+    Case("wrong-epsg", "numbers",
+         "a Texas state-plane EPSG code declared over British-grid rasters and boreholes",
+         lambda d: (british_grid_surfaces(d), site(
+             ('crs = "EPSG:32633"', 'crs = "EPSG:2277"'),
+             ('kind = "footprint"', 'kind = "surfaces"\ndesign = "design.tif"\n'
+              'existing = "existing.tif"'),
+             ('outline = [[500000.0, 5200000.0], [500020.0, 5200000.0], '
+              '[500020.0, 5200012.0], [500000.0, 5200012.0]]\n', ""), ("height = 2.0\n", ""),
+             ("x = 500010.0\ny = 5200006.0", "x = 431030.0\ny = 290980.0"),
+             command="check")(d))[1],
+         names=("grid", "TB", "cap", "[bodies.pad] lies", "borehole B1")),
     Case("margin-negative", "numbers", "margin = -5",
          site(("margin = 8.0", "margin = -5.0")), names=("grid.margin",)),
     Case("memory-cap-zero", "numbers", "memory_cap = 0",

@@ -247,7 +247,7 @@ def build_site(cfg: SiteConfig) -> Site:
     ctx.outlines = {name: _body_outline(ctx, name, raw) for name, raw in cfg["bodies"].items()}
     receptors = _receptors(ctx)
     spec = _analysis_grid(ctx, ctx.outlines, receptors)
-    _check_grid(cfg, spec, len(cfg["bodies"]))        # refused before rasterising
+    _check_grid(cfg, spec, len(cfg["bodies"]), _placed_items(ctx.outlines, receptors))
     t0 = time.perf_counter()
     built = {name: _build_body(ctx, name, raw, spec) for name, raw in cfg["bodies"].items()}
     ctx.build_seconds = time.perf_counter() - t0     # for the run estimate
@@ -502,14 +502,43 @@ GRID_HINT = ("use a larger [grid] cell or a smaller margin, or check the coordin
              "bodies and receptors (CRS, units, a typing error)")
 
 
-def _check_grid(cfg: SiteConfig, spec: GridSpec, n_bodies: int) -> None:
-    """Refuse (CapacityError: the grid size, the memory it needs, the cap) an analysis grid
-    whose bodies cannot be rasterised within the memory cap; called with the grid worked
-    out from the bounds, before any body is rasterised."""
+def _check_grid(cfg: SiteConfig, spec: GridSpec, n_bodies: int, items: dict) -> None:
+    """Refuse (CapacityError: the grid size, the memory it needs, the cap, and the item lying
+    far from the rest) an analysis grid whose bodies cannot be rasterised within the memory
+    cap; called with the grid worked out from the bounds, before any body is rasterised."""
     u = cfg.units
     e = estimate_grid(spec.shape, n_bodies, f"{u.length_out(spec.dx):.3g} {u.length}")
     cap = memory_cap_bytes((cfg.get("grid") or {}).get("memory_cap"))
-    check_capacity(e, cap, hint=GRID_HINT)
+    if e.bytes > cap:
+        check_capacity(e, cap, hint=GRID_HINT + _outlier_note(items, u))
+
+
+def _placed_items(outlines: dict, receptors: Receptors) -> dict:
+    """Everything that sets the grid's extent, by the name a user knows it by."""
+    items = {f"[bodies.{name}]": geom for name, geom in outlines.items()}
+    for table, found in receptors.by_table().items():
+        items.update({f"{RECEPTOR_TABLES[table]} {r.id}": r.geometry for r in found})
+    return items
+
+
+def _outlier_note(items: dict, u: UnitSystem) -> str:
+    """``; [bodies.x] lies 7,912 km from pipes P1, the nearest other item`` when one item
+    lies far from all the others (a wrong CRS or a typing error), else ""."""
+    if len(items) < 2:
+        return ""
+    names = list(items)
+    gaps = {n: min(items[n].distance(items[m]) for m in names if m != n) for n in names}
+    far = max(gaps, key=gaps.get)
+    near = min((m for m in names if m != far), key=lambda m: items[far].distance(items[m]))
+    if gaps[far] < 10 * max(_plan_size(items[near]), _plan_size(items[far]), 1.0):
+        return ""
+    return (f"; {far} lies {u.length_out(gaps[far]):,.0f} {u.length} from {near}, the "
+            "nearest other item")
+
+
+def _plan_size(geom) -> float:
+    x0, y0, x1, y1 = geom.bounds
+    return max(x1 - x0, y1 - y0)
 
 
 def _feature_size(geom) -> float:
