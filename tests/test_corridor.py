@@ -318,3 +318,21 @@ def test_site_crs_in_international_feet_over_us_survey_foot_files_is_warned(corr
     shift = float(re.search(r"moved it ([\d.]+) ft", moved[0]).group(1))
     assert 19.0 < shift < 23.0
     assert load_site(corridor).warnings == []       # the same files in their own CRS
+
+
+def test_profile_depths_default_to_the_pipe_crowns_and_building_foundations(tmp_path):
+    text = LEVEE.replace("profile_depths = [10.0]\n", "") + """
+[[pipes]]
+id = "W1"
+line = [[3050100, 10069900], [3050100, 10070100]]
+crown_depth = 6.0
+[[buildings]]
+id = "H1"
+outline = [[3050400, 10070100], [3050440, 10070100], [3050440, 10070130], [3050400, 10070130]]
+foundation_depth = 3.0
+"""
+    path = tmp_path / "site.toml"
+    path.write_text(text)
+    assert load_site(path).alignment.profile_depths == pytest.approx((3 * FOOT, 6 * FOOT))
+    path.write_text(LEVEE.replace("profile_depths = [10.0]\n", ""))
+    assert load_site(path).alignment.profile_depths == ()      # nothing to take them from

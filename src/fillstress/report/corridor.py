@@ -55,7 +55,8 @@ def profile_figure(df, u) -> bytes:
     for col, depth in _columns(df, rf"dsz_at_(.+)_{re.escape(u.pressure)}"):
         axes[1].plot(s, df[col], lw=1.2, label=f"at {depth.replace(u.length, ' ' + u.length)}")
     axes[1].set_ylabel(f"Δσz ({u.pressure})")
-    axes[1].legend(fontsize=7, loc="best")
+    if axes[1].get_legend_handles_labels()[0]:       # no depths: an empty panel, no legend
+        axes[1].legend(fontsize=7, loc="best")
     if panels == 3:
         for col, when in settle:
             axes[2].plot(s, df[col], lw=0.9, label=when.replace("yr", " yr"))

@@ -263,8 +263,8 @@ def build_site(cfg: SiteConfig) -> Site:
                 existing_surfaces=ctx.existing_surfaces,
                 build_seconds=ctx.build_seconds, cell_rule=ctx.cell_rule,
                 warnings=ctx.warnings, context=ctx,
-                alignment=build_alignment(ctx, cfg.get("alignment"), sorted(
-                    {d for g in cfg.get("plan_grids") or [] for d in g["depths"]})))
+                alignment=build_alignment(ctx, cfg.get("alignment"),
+                                          _profile_depths(cfg, receptors)))
 
 
 def _settings(cfg: SiteConfig) -> RunSettings:
@@ -281,6 +281,15 @@ def _settings(cfg: SiteConfig) -> RunSettings:
         **{k: monitoring.get(k) for k in ("readings", "construction", "day0")},
         **{k: outputs.get(k, True) is not False for k in ("geotiff", "netcdf", "vtk", "report",
                                                              "scene")})
+
+
+def _profile_depths(cfg: SiteConfig, receptors: Receptors) -> list[float]:
+    """Default depths of Δσz along an alignment: the plan-grid depths, else the depths of
+    the buildings' foundations and the pipes' crowns."""
+    plan = {d for g in cfg.get("plan_grids") or [] for d in g["depths"]}
+    found = {round(float(d), 6) for r in (*receptors.buildings, *receptors.pipes)
+             for d in np.atleast_1d(r.depth) if d > 0}
+    return sorted(plan or found)
 
 
 def _check_method(cfg: SiteConfig) -> None:

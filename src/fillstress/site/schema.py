@@ -188,7 +188,8 @@ ALIGNMENT = Table("alignment", "A centreline with stations (chainage) for the lo
     Key("chainages", "floats", "Stations of the cross-sections.", unit=LENGTH,
         aliases=("stations",), example="[1200, 4500]"),
     Key("profile_depths", "floats", "Depths below ground of Δσz along the profile "
-        "(default: the plan-grid depths).", unit=LENGTH),
+        "(default: the plan-grid depths, else the building foundation and pipe crown "
+        "depths).", unit=LENGTH),
     Key("profile_step", "float", "Spacing of the profile points along the centreline "
         "(default: about 400 points over its length).", unit=LENGTH, **_POS),
     Key("section_width", "float", "Full width of each cross-section (default: 2.5 × the "
