@@ -29,7 +29,7 @@ import numpy as np
 from .._validate import finite_array
 from ..errors import InputError
 from . import boussinesq, westergaard
-from .corner import corner_angle, fast_atan, shared_corner, shared_rectangle
+from .corner import shared_rectangle
 
 METHODS = ("boussinesq", "westergaard")
 
