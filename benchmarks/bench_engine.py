@@ -152,7 +152,7 @@ def bench_arctangent(args) -> list[tuple[str, str, str]]:
     kernels' fast_atan on y·(1/c) with 1/c computed beforehand, as the kernels do once
     per point.  One thread, the same 10^6 arguments, the best of --repeat runs."""
     import numba
-    from fillstress.kernels import fast_atan
+    from fillstress.kernels.corner import fast_atan
 
     @numba.njit
     def with_atan2(y, c, inv_c):
