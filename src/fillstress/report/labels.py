@@ -29,7 +29,7 @@ BASE_WORDS = {
     "differential_length": "differential over length",
     "differential_from": "differential from chainage",
     "differential_to": "differential to chainage",
-    "angular_distortion": "angular distortion", "distortion_between": "distortion between",
+    "angular_distortion": "relative rotation β (angular distortion)", "distortion_between": "distortion between",
     "gradient_max": "max settlement gradient", "worst_limit_reached": "worst limit reached",
     "influence_depth": "influence depth", "fraction": "influence fraction of σ′v0",
     "unit_weight": "unit weight", "volume": "volume", "footprint_area": "footprint area",
@@ -37,6 +37,14 @@ BASE_WORDS = {
     "bottom": "bottom depth", "cell": "cell size", "margin": "margin around the loads",
     "poisson": "Poisson's ratio", "convergence_check": "convergence check",
     "units": "unit system", "foundation_depth": "foundation depth",
+    "sigma_p": "σ′p", "sigma_final": "σ′ final", "sigma_max": "largest past σ′",
+    "cc": "Cc", "cr": "Cr", "e0": "e0", "ocr": "OCR", "c_alpha": "Cα",
+    "c_alpha_eps": "Cα/(1+e0)", "c_alpha_ratio_surcharged": "Cα′/Cα after surcharge",
+    "cv_m2_per_yr": "cv (m²/year)", "ch_m2_per_yr": "ch (m²/year)", "mu": "μ",
+    "mv_per_kPa": "mv (1/kPa)", "modulus_kPa": "modulus M (kPa)",
+    "unloading_modulus_kPa": "unloading modulus (kPa)", "tilt": "tilt ω",
+    "deflection_ratio": "deflection ratio Δ/L", "angular_change_max": "max angular change",
+    "curvature_radius_min": "min radius of curvature",
 }
 
 
@@ -79,6 +87,8 @@ def _base_words(base: str) -> str:
         return "exceeds " + base[len("exceeds_"):].replace("_", " ")
     if base.startswith("settlement_stage"):
         return "settlement after stage " + base[len("settlement_stage"):]
+    if base.startswith("dsz_state"):
+        return "Δσz, state " + base[len("dsz_state"):]
     return base.replace("_", " ")
 
 

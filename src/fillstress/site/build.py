@@ -49,6 +49,7 @@ class Site:
     cut_reports: dict = field(default_factory=dict)  # body → surfaces.CutReport
     body_factors: tuple = (1.0, 1.0)  # (unit weight, thickness) scale of a batch variant
     context: object = field(default=None, repr=False)  # what rebuilding the bodies needs
+    drains: list = field(default_factory=list)  # (id, plan Polygon, drains.VerticalDrains)
 
     @property
     def warnings(self) -> list:
@@ -193,7 +194,7 @@ def build_site(cfg: SiteConfig) -> Site:
                 ctx.ground, _soil(cfg), _points(ctx, receptors), receptors,
                 _plan_grids(ctx, spec),
                 cut_reports={n: cut for n, (_, cut) in built.items() if cut is not None},
-                context=ctx)
+                context=ctx, drains=_drains(ctx))
 
 
 # --- ground ---------------------------------------------------------------------------
@@ -466,9 +467,33 @@ def _soil(cfg: SiteConfig):
                 L["name"], L["top"], L["bottom"], L["unit_weight"], L.get("saturated_unit_weight"),
                 cc=L.get("cc"), cr=L.get("cr"), e0=L.get("e0"), sigma_p_kpa=L.get("sigma_p"),
                 ocr=L.get("ocr"), mv_per_kpa=L.get("mv"), modulus_kpa=L.get("modulus"),
-                cv_m2_per_yr=L.get("cv"), drainage=_DRAINAGE[L.get("drainage") or "double"]))
+                cv_m2_per_yr=L.get("cv"), drainage=_DRAINAGE[L.get("drainage") or "double"],
+                ch_m2_per_yr=L.get("ch"), unloading_modulus_kpa=L.get("unloading_modulus"),
+                c_alpha=L.get("c_alpha"), c_alpha_eps=L.get("c_alpha_eps"),
+                c_alpha_ratio_surcharged=L.get("c_alpha_ratio_surcharged") or 1.0,
+                end_of_primary_yr=(None if L.get("end_of_primary_days") is None
+                                   else L["end_of_primary_days"] / 365.25)))
     with _located(cfg, "soil"):
         return SoilProfile(layers, s["water_table"], s.get("rigid_base"))
+
+
+def _drains(ctx: _Context) -> list:
+    """Vertical drain zones: (id, plan polygon in metres, VerticalDrains)."""
+    from ..drains import VerticalDrains
+    zones = []
+    for i, raw in enumerate(ctx.cfg.get("drains") or []):
+        where = f"drains[{i}]"
+        with _located(ctx.cfg, f"{where}.outline"):
+            poly = Polygon(ctx.xy(raw["outline"])[:, :2])
+            if not poly.is_valid or poly.area <= 0:
+                raise InputError("must be a valid polygon with a positive area", argument="outline")
+        with _located(ctx.cfg, where):
+            drains = VerticalDrains(raw["spacing"], raw["pattern"], diameter_m=raw.get("diameter"),
+                                    width_m=raw.get("width"), thickness_m=raw.get("thickness"),
+                                    depth_m=raw["depth"], smear_diameter_m=raw.get("smear_diameter"),
+                                    k_ratio=raw["k_ratio"], kh_over_qw=raw["kh_over_qw"])
+        zones.append((raw["id"], poly, drains))
+    return zones
 
 
 # --- receptors ------------------------------------------------------------------------
