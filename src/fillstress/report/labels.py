@@ -29,7 +29,7 @@ BASE_WORDS = {
     "differential_length": "differential over length",
     "differential_from": "differential from chainage",
     "differential_to": "differential to chainage",
-    "angular_distortion": "relative rotation β (angular distortion)", "distortion_between": "distortion between",
+    "angular_distortion": "angular distortion", "distortion_between": "distortion between",
     "gradient_max": "max settlement gradient", "worst_limit_reached": "worst limit reached",
     "influence_depth": "influence depth", "fraction": "influence fraction of σ′v0",
     "unit_weight": "unit weight", "volume": "volume", "footprint_area": "footprint area",

@@ -93,7 +93,9 @@ def settlement_results(res, evaluate) -> None:
     for k, e in stage_state.items():
         targets[f"settlement_stage{k}"] = per_state[:, e]
     if any(not s.loads for s in states):
-        targets["settlement_rebound"] = np.nanmax(per_state, axis=1) - per_state[:, -1]
+        with np.errstate(invalid="ignore"):           # points in heave are all NaN
+            peak = np.max(per_state, axis=1)
+        targets["settlement_rebound"] = peak - per_state[:, -1]
     cols = [c for c in targets.columns if c.startswith("settlement")]
     key = ["receptor_id", "point_id"]
     merged = res.points.drop(columns=[c for c in cols if c in res.points], errors="ignore")
