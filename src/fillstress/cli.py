@@ -140,6 +140,8 @@ def _parser() -> argparse.ArgumentParser:
                 "fillstress report results -o job-report.html")
     c.add_argument("results", type=Path, help="results folder of a run")
     c.add_argument("-o", "--output", type=Path, help="report file (default results/report.html)")
+    c.add_argument("--pdf", action="store_true",
+                   help="also print it to PDF beside the HTML file (headless Chromium)")
 
     c = command("monitor", _monitor, "Compare field readings with the site's prediction: "
                 "back-analysis, fitted parameters and a revised forecast, into a folder.",
@@ -238,7 +240,11 @@ def _view(args, console):
 def _report(args, console):
     from .report import write_report
     _require_results(args.results)
-    console.wrote(write_report(args.results, args.output))
+    html = write_report(args.results, args.output)
+    console.wrote(html)
+    if args.pdf:
+        from .report.pdf import write_pdf
+        console.wrote(write_pdf(html, folder=args.results))
 
 
 def _monitor(args, console):

@@ -18,7 +18,8 @@ PCF_KN_M3 = _LBF_KN / FOOT**3                      # 0.1570874638...
 KIP_KN = 1000.0 * PSF_KPA * FOOT**2                # 1 kip = 1000 lbf; lbf = psf × ft²
 
 #: Physical quantities a value can carry; ``None`` elsewhere marks a dimensionless one.
-QUANTITIES = ("length", "area", "volume", "pressure", "unit_weight", "settlement", "force")
+QUANTITIES = ("length", "area", "volume", "pressure", "unit_weight", "settlement", "force",
+              "compressibility", "consolidation")
 
 
 @dataclass(frozen=True)
@@ -54,6 +55,8 @@ class UnitSystem:
             "unit_weight": (self.unit_weight, self.unit_weight_to_kn_m3),
             "settlement": (self.settlement, self.settlement_to_m),
             "force": ("kip", KIP_KN) if self.name == "US" else ("kN", 1.0),
+            "compressibility": (f"per_{self.pressure}", 1.0 / self.pressure_to_kpa),  # mv
+            "consolidation": (f"{self.length}2_per_yr", L**2),                      # cv, ch
         }
         if quantity not in table:
             raise InputError(f"unknown quantity {quantity!r}; use one of {', '.join(table)}",
@@ -93,7 +96,8 @@ SYSTEMS = {"SI": SI, "US": US}
 
 #: Unit labels as printed (superscripts; the survey foot spelled out).
 UNIT_TEXT = {"m2": "m²", "m3": "m³", "ft2": "ft²", "ft3": "ft³", "yd3": "yd³", "kN/m3": "kN/m³",
-             "ftUS": "US survey ft"}
+             "ftUS": "US survey ft", "per_kPa": "1/kPa", "per_psf": "1/psf",
+             "m2_per_yr": "m²/year", "ft2_per_yr": "ft²/year"}
 
 
 def unit_system(name: str) -> UnitSystem:

@@ -21,6 +21,7 @@ from .corridor import alignment_section
 from ..io.results import ResultsFolder, UnitLabels
 from . import figures
 from .labels import heading, unit_text
+from .record import INFLUENCE_NOTE, calculation_record, convergence_item
 from .tables import (
     esc,
     frame_table,
@@ -47,6 +48,7 @@ SECTIONS = (
     ("pipes", "Pipe profiles"),
     ("alignment", "Along the alignment"),
     ("time", "Settlement with time"),
+    ("record", "Settlement calculation record"),
     ("tables", "Result tables"),
     ("convergence", "Convergence check"),
     ("provenance", "Provenance"),
@@ -324,8 +326,10 @@ class _Report:
             return '<p class="note">No settlement_time.csv: no settlement–time curves.</p>'
         settle = self.f.column(table, "settlement", "settlement", name="settlement_time")
         self.f.column(table, "days", None, name="settlement_time")
-        parts = ['<p class="note">Primary consolidation with time (Terzaghi 1-D theory), '
-                 "from the placing of the first stage. Settlement is plotted downward.</p>"]
+        parts = ['<p class="note">Primary consolidation with time (Terzaghi 1-D theory; radial '
+                 "flow to vertical drains by Hansbo 1981 where they act, combined by Carrillo "
+                 "1942; each stage's load rising over its build duration, Olson 1977), from the "
+                 "start of the first stage. Settlement is plotted downward.</p>"]
         for rid, grp in table.groupby("receptor_id", sort=False):
             kind, where = self._receptor_kind(str(rid))
             png = figures.settlement_time(grp["days"], grp[settle],
@@ -341,8 +345,7 @@ class _Report:
         for kind, df in self.summaries.items():
             parts.append(f"<h3>{esc(kind.replace('_', ' '))}</h3>" + receptor_table(df, self.u))
         parts.append('<p class="note">Receptors and cells shaded red carry a flag (a limit '
-                     "reached). –: no value (the influence depth is blank where Δσz stays "
-                     "above the stated fraction of σ′v0 down to the deepest sample point). "
+                     f"reached). –: no value. {esc(INFLUENCE_NOTE)} "
                      "Every sample point is in the <code>*_points.csv</code> files of the "
                      "results folder.</p>")
         return "".join(parts)
@@ -384,6 +387,8 @@ class _Report:
             for rec in df.to_dict("records"):
                 if receptor_flagged(rec):
                     flagged.append(_flag_text(kind, rec, flag_cols, self.u))
+        converged = convergence_item(self.f.summary.get("convergence"), self.u)
+        flagged += [converged] if converged else []
         if flagged:
             return ('<div class="findings"><strong>Limits reached</strong><ul>'
                     + "".join(f"<li>{esc(t)}</li>" for t in flagged)
@@ -407,6 +412,8 @@ class _Report:
                   "plans": self.plans, "profiles": self.profiles, "pipes": self.pipe_profiles,
                   "alignment": lambda: alignment_section(self.f, _img, esc),
                   "time": self.time, "tables": self.tables, "convergence": self.convergence,
+                  "record": lambda: calculation_record(self.f) or
+                  '<p class="note">No settlement calculation record in this results folder.</p>',
                   "provenance": self.provenance, "cautions": self.cautions}
         title = _site_title(self.f)
         new_page = {"plans", "profiles", "tables", "provenance"}

@@ -12,7 +12,7 @@ from ..units import unit_text
 
 #: Quantities whose labels can end a column name (the writer's labels, io.tables).
 _SUFFIXED_QUANTITIES = ("length", "area", "volume", "pressure", "unit_weight", "settlement",
-                        "force")
+                        "force", "compressibility", "consolidation")
 
 #: Column bases (name without the unit suffix) and the words shown for them.
 BASE_WORDS = {
@@ -34,6 +34,13 @@ BASE_WORDS = {
     "bottom": "bottom depth", "cell": "cell size", "margin": "margin around the loads",
     "poisson": "Poisson's ratio", "convergence_check": "convergence check",
     "units": "unit system", "foundation_depth": "foundation depth",
+    "sigma_p": "σ′p", "sigma_final": "σ′ final", "sigma_max": "largest past σ′",
+    "cc": "Cc", "cr": "Cr", "e0": "e0", "ocr": "OCR", "c_alpha": "Cα",
+    "c_alpha_eps": "Cα/(1+e0)", "c_alpha_ratio_surcharged": "Cα′/Cα after surcharge",
+    "cv": "cv", "ch": "ch", "mu": "μ", "mv": "mv", "modulus": "modulus M",
+    "unloading_modulus": "unloading modulus", "tilt": "tilt ω",
+    "deflection_ratio": "deflection ratio Δ/L", "angular_change_max": "max angular change",
+    "curvature_radius_min": "min radius of curvature",
 }
 
 
@@ -65,6 +72,8 @@ def _base_words(base: str) -> str:
         return "exceeds " + base[len("exceeds_"):].replace("_", " ")
     if base.startswith("settlement_stage"):
         return "settlement after stage " + base[len("settlement_stage"):]
+    if base.startswith("dsz_state"):
+        return "Δσz, state " + base[len("dsz_state"):]
     return base.replace("_", " ")
 
 

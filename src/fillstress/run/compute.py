@@ -50,7 +50,8 @@ class RunResults:
     buildings: list = field(default_factory=list)    # structures.BuildingSettlement
     pipes: list = field(default_factory=list)        # structures.PipeSettlement
     profiles: list = field(default_factory=list)     # dicts: receptor_id, influence depth
-    time_curves: dict = field(default_factory=dict)  # receptor_id → (years, settlement m)
+    time_curves: dict = field(default_factory=dict)  # receptor_id → (days, settlement m)
+    record: dict = field(default_factory=dict)       # settlement calculation tables (SI)
     convergence: dict = field(default_factory=dict)
     timings: dict = field(default_factory=dict)
     warnings: list = field(default_factory=list)     # shown by the command and the summary

@@ -200,8 +200,46 @@ def _write_tables(res, folder) -> None:
     if res.time_curves:
         rows = [{"receptor_id": rid, "days": d, "settlement": s}
                 for rid, (days, curve) in res.time_curves.items() for d, s in zip(days, curve)]
-        tables.write_table_csv(folder.path("settlement_time.csv"), pd.DataFrame(rows), u,
-                               {"days": None, "settlement": "settlement"})
+        curves = _with_degree(pd.DataFrame(rows), res.record.get("consolidation_times"))
+        tables.write_table_csv(folder.path("settlement_time.csv"), curves, u,
+                               {"days": None, "settlement": "settlement", "degree": None})
+    for name, frame in res.record.items():
+        tables.write_table_csv(folder.path(RECORD_FILES[name]), frame, u, _record_quantities(frame))
+
+
+# The settlement calculation record (run/history.py) → file names.
+RECORD_FILES = {"sublayers": "settlement_sublayers.csv", "load_states": "load_states.csv",
+                "consolidation_times": "consolidation_times.csv", "preload": "preload.csv",
+                "drain_design": "drain_design.csv", "soil_profile": "soil_profile.csv",
+                "drains": "drains.csv"}
+
+
+def _record_quantities(frame: pd.DataFrame) -> dict:
+    q = column_quantities(frame)
+    for c in frame.columns:
+        if c.startswith(("depth_", "spacing")) or c in ("dw", "de"):
+            q[c] = "length"
+        elif c.startswith(("sigma_", "dsz_")) or c in ("modulus", "unloading_modulus"):
+            q[c] = "pressure"
+        elif c == "mv":
+            q[c] = "compressibility"
+        elif c in ("cv", "ch"):
+            q[c] = "consolidation"
+        elif c.endswith("unit_weight"):
+            q[c] = "unit_weight"
+        elif c not in q and c not in tables.DEFAULT_QUANTITIES and pd.api.types.is_numeric_dtype(frame[c]):
+            q[c] = None                    # days, strains, degrees, counts: no unit
+    return q
+
+
+def _with_degree(curves: pd.DataFrame, times) -> pd.DataFrame:
+    """U = s(t) / final primary settlement beside each settlement–time row."""
+    if times is None or curves.empty:
+        return curves
+    final = times.set_index("receptor_id")["settlement_final"]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        degree = curves["settlement"] / curves["receptor_id"].map(final).to_numpy()
+    return curves.assign(degree=degree)
 
 
 def _write_geometry(res, folder, kind, name) -> None:

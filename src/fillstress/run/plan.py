@@ -10,6 +10,7 @@ from ..solve.auto import choose_algorithm, direct_work
 from ..solve.cost import (Estimate, check_capacity, estimate_points, estimate_slices,
                           format_bytes, memory_cap_bytes)
 from ..solve.slices import pad_cells
+from .timeline import load_states
 
 
 def memory_cap(site) -> float:
@@ -145,6 +146,8 @@ def validate_run(site) -> list[str]:
     """The one validation `check` and `run` share: refuse what cannot fit the memory cap
     (CapacityError, with the numbers), and return the warnings of :func:`site_warnings`."""
     check_fits(site)
+    if site.soil is not None:
+        load_states(site)                  # refuses a body removed before it is complete
     return site_warnings(site)
 
 

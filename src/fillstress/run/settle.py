@@ -7,6 +7,7 @@ import numpy as np
 import pandas as pd
 
 from .. import settlement as st
+from . import history, timeline as tl
 from ..settlement import influence_depth
 from ..structures import DEFAULT_LIMITS, building_settlement, pipe_settlement
 
@@ -71,38 +72,63 @@ def column_layers(soil, x, y, top_depth: float, stage_grids, evaluate):
 
 
 def settlement_results(res, evaluate) -> None:
-    """Settlement of every stage at the settlement points, the structure checks and the
-    settlement–time curves; `evaluate(grid, xyz)` gives Δσz (kPa) at (N, 3) points."""
+    """Settlement along the load history at the settlement points (stress path through the
+    load states), the structure checks, the settlement–time curves and the calculation
+    record; `evaluate(grid, xyz)` gives Δσz (kPa) at (N, 3) points."""
     site, soil = res.site, res.site.soil
     targets = _settlement_points(res.points)
-    stage_grids = [site.load_grid(k) for k in site.stages]
-    per_stage = np.zeros((len(targets), len(stage_grids)))
-    by_layer_stage = {}
+    states = tl.load_states(site)
+    active = np.array([s.active for s in states], dtype=float)            # (E, B)
+    body_grids = [site.spec.load_grid(b.pressure) for b in site.bodies]
+    stage_state = {s.stage: e for e, s in enumerate(states) if s.stage is not None}
+    per_state = np.full((len(targets), len(states)), np.nan)
+    points = {}                                  # row → (z, h, dsz per body, path)
     for depth, idx in targets.groupby("depth").indices.items():
-        sub = targets.iloc[idx]
-        layers = column_layers(soil, sub["x"].to_numpy(), sub["y"].to_numpy(), float(depth),
-                               stage_grids, evaluate)
-        if layers is None:
+        z, h = st.sublayers(soil, top_depth=float(depth))
+        if len(z) == 0:
+            per_state[idx] = 0.0
             continue
-        for s in range(len(stage_grids)):
-            tension = np.isnan(layers[:, s]).any(axis=1)
-            if tension.any():
-                res.warnings.append(
-                    f"stage {site.stages[s]}: unloading exceeds σ'v0 below "
-                    f"{', '.join(sub['point_id'][tension].astype(str)[:5])}"
-                    f"{' …' if tension.sum() > 5 else ''}; no settlement there (heave)")
-        per_stage[idx] = layers.sum(axis=2)              # rows sum to the total settlement
-        by_layer_stage[depth] = (idx, layers)
-    targets = targets.assign(settlement=per_stage[:, -1])
-    for s, k in enumerate(site.stages):
-        targets[f"settlement_stage{k}"] = per_stage[:, s]
+        sub = targets.iloc[idx]
+        xyz = np.column_stack([np.repeat(sub["x"].to_numpy(), len(z)),
+                               np.repeat(sub["y"].to_numpy(), len(z)),
+                               np.tile(z, len(sub))])
+        per_body = np.stack([evaluate(g, xyz).reshape(len(sub), len(z)) for g in body_grids],
+                            axis=1)                                        # (N, B, K)
+        dsz = np.einsum("eb,nbk->nek", active, per_body)                   # (N, E, K)
+        # Unloading beyond σ'v0 (a deep excavation) leaves 1-D consolidation: those
+        # points get no settlement and a warning, the others are computed as usual.
+        tension = np.any(soil.sigma_v0_eff(z) + dsz <= 0, axis=(1, 2))
+        if tension.any():
+            res.warnings.append(
+                f"unloading exceeds σ'v0 below {', '.join(sub['point_id'][tension].astype(str)[:5])}"
+                f"{' …' if tension.sum() > 5 else ''}; no settlement there (heave)")
+        path = st.stress_path(soil, z, h, np.where(tension[:, None, None], 0.0, dsz))
+        totals = path.settlement.sum(axis=2)
+        totals[tension] = np.nan
+        per_state[idx] = totals
+        for local, row in enumerate(idx):
+            if not tension[local]:
+                points[row] = (z, h, per_body[local], _one(path, local))
+    targets = targets.assign(settlement=per_state[:, -1])
+    for k, e in stage_state.items():
+        targets[f"settlement_stage{k}"] = per_state[:, e]
+    if any(not s.loads for s in states):
+        with np.errstate(invalid="ignore"):           # points in heave are all NaN
+            peak = np.max(per_state, axis=1)
+        targets["settlement_rebound"] = peak - per_state[:, -1]
     cols = [c for c in targets.columns if c.startswith("settlement")]
     key = ["receptor_id", "point_id"]
     merged = res.points.drop(columns=[c for c in cols if c in res.points], errors="ignore")
     # boreholes: the surface settlement belongs to the borehole, shown on its first point
     res.points = merged.merge(targets[key + cols], on=key, how="left")
     _structure_checks(res, targets)
-    _time_curves(res, targets, by_layer_stage)
+    history.settlement_record(res, targets, states, points)
+
+
+def _one(path: st.StressPath, n: int) -> st.StressPath:
+    """The stress path of point `n` alone."""
+    return st.StressPath(path.settlement[n:n + 1], path.sigma[n:n + 1], path.sigma_max[n:n + 1],
+                         path.strain[n:n + 1], path.s0, path.sp, path.is_index)
 
 
 def plan_settlement(site, slices_at) -> dict:
@@ -156,23 +182,3 @@ def _structure_checks(res, targets: pd.DataFrame) -> None:
         res.pipes.append(pipe_settlement(pipe.id, g["chainage"].to_numpy(),
                                          g["settlement"].to_numpy(), g["dsz"].to_numpy(),
                                          pipe.differential_length))
-
-
-def _time_curves(res, targets, by_layer_stage) -> None:
-    """Settlement–time curves at each borehole and building centroid (stages in days)."""
-    site = res.site
-    if not any(L.compressible and L.cv_m2_per_yr for L in site.soil.layers):
-        res.warnings.append("no compressible layer has cv: no settlement–time curves")
-        return
-    days = site.stage_start_days()
-    cv, hdr = st.time_parameters(site.soil, no_cv="immediate")
-    starts = np.asarray(days, float) / 365.25
-    years = np.unique(np.r_[0.0, np.geomspace(1 / 365.25, 50.0, 120), starts])
-    wanted = targets["role"].isin(["centroid", "borehole"]).to_numpy()
-    for depth, (idx, layers) in by_layer_stage.items():
-        for local, row in enumerate(idx):
-            if not wanted[row] or np.isnan(layers[local]).any():
-                continue
-            inc = st.stage_increments(layers[local])
-            curve = st.settlement_time_curve(inc, starts, years, cv, hdr)
-            res.time_curves[targets.iloc[row]["receptor_id"]] = (years * 365.25, curve)

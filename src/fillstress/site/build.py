@@ -10,7 +10,7 @@ import time
 from contextlib import contextmanager
 from dataclasses import dataclass, field, replace
 from pathlib import Path
-from typing import Callable
+from typing import Callable, NamedTuple
 
 import numpy as np
 import pandas as pd
@@ -20,6 +20,7 @@ from scipy.ndimage import distance_transform_edt
 from shapely.geometry import LineString, Point, Polygon
 
 from .. import crs as crsmod
+from ..drains import VerticalDrains
 from ..errors import InputError
 from ..grid import GridSpec, LoadGrid
 from ..io.footprints import read_footprints
@@ -48,6 +49,14 @@ LIMIT_KEYS = {"limit_no_cracking": "no_cracking", "limit_first_cracking": "panel
               "limit_structural_damage": "structural_damage"}
 
 
+class DrainZone(NamedTuple):
+    """A [[drains]] zone: its id, plan polygon (internal metres) and drain layout."""
+
+    id: str
+    outline: Polygon
+    drains: VerticalDrains
+
+
 @dataclass(frozen=True)
 class RunSettings:
     """How a run is done and which files it writes ([grid], [soil], [settlement],
@@ -58,6 +67,11 @@ class RunSettings:
     memory_cap_gb: float | None = None       # None: a share of the machine's memory
     influence_fraction: float = 0.10         # of σ'v0, for the influence depth
     stage_days: tuple[float, ...] | None = None   # start of each stage, days after stage 1
+    stage_durations: tuple[float, ...] = ()  # build time of each stage (days; missing: 0)
+    design_life_years: float = 30.0          # secondary compression and the preload target
+    removal_includes_secondary: bool = False  # preload target adds the secondary compression
+    target_degree: float | None = None       # drain design: the degree wanted ...
+    target_day: float | None = None          # ... by this day
     distortion_limits: dict = field(default_factory=dict)  # structures.py name → limit given
     geotiff: bool = True
     netcdf: bool = True
@@ -98,6 +112,8 @@ class Site:
     cell_rule: str = "given"                        # why the cell is the size it is
     warnings: list[str] = field(default_factory=list)  # what the build found doubtful
     alignment: Alignment | None = None              # [alignment]: stations along a line
+    drains: list[DrainZone] = field(default_factory=list)  # [[drains]] zones
+    removal_days: dict[str, float] = field(default_factory=dict)  # body → day taken away
     context: _Context | None = field(default=None, repr=False)  # to rebuild the bodies
 
     @property
@@ -262,7 +278,9 @@ def build_site(cfg: SiteConfig) -> Site:
                 cut_reports={n: cut for n, (_, cut) in built.items() if cut is not None},
                 existing_surfaces=ctx.existing_surfaces,
                 build_seconds=ctx.build_seconds, cell_rule=ctx.cell_rule,
-                warnings=ctx.warnings, context=ctx,
+                warnings=ctx.warnings, context=ctx, drains=_drains(ctx),
+                removal_days={n: float(r["removal_day"]) for n, r in cfg["bodies"].items()
+                              if r.get("removal_day") is not None},
                 alignment=build_alignment(ctx, cfg.get("alignment"),
                                           _profile_depths(cfg, receptors)))
 
@@ -271,11 +289,19 @@ def _settings(cfg: SiteConfig) -> RunSettings:
     grid, soil = cfg.get("grid") or {}, cfg.get("soil") or {}
     settle, outputs = cfg.get("settlement") or {}, cfg.get("outputs") or {}
     monitoring = cfg.get("monitoring") or {}
+    days = settle.get("stage_days") or []
+    if any(b < a for a, b in zip(days, days[1:])):
+        raise InputError("stage start days must not decrease", file=cfg.path,
+                         key="settlement.stage_days")
     return RunSettings(
         convergence_check=bool(grid.get("convergence_check", True)),
         margin=grid.get("margin"), memory_cap_gb=grid.get("memory_cap"),
         influence_fraction=soil.get("influence_fraction", 0.10),
         stage_days=tuple(settle["stage_days"]) if settle.get("stage_days") else None,
+        stage_durations=tuple(settle.get("stage_durations") or ()),
+        design_life_years=float(settle.get("design_life_years", 30.0)),
+        removal_includes_secondary=bool(settle.get("removal_includes_secondary", False)),
+        target_degree=settle.get("target_degree"), target_day=settle.get("target_day"),
         distortion_limits={name: settle[key] for key, name in LIMIT_KEYS.items()
                            if settle.get(key) is not None},
         **{k: monitoring.get(k) for k in ("readings", "construction", "day0")},
@@ -579,9 +605,32 @@ def _soil(cfg: SiteConfig):
                 L["name"], L["top"], L["bottom"], L["unit_weight"], L.get("saturated_unit_weight"),
                 cc=L.get("cc"), cr=L.get("cr"), e0=L.get("e0"), sigma_p_kpa=L.get("sigma_p"),
                 ocr=L.get("ocr"), mv_per_kpa=L.get("mv"), modulus_kpa=L.get("modulus"),
-                cv_m2_per_yr=L.get("cv"), drainage=_DRAINAGE[L.get("drainage") or "double"]))
+                cv_m2_per_yr=L.get("cv"), drainage=_DRAINAGE[L.get("drainage") or "double"],
+                ch_m2_per_yr=L.get("ch"), unloading_modulus_kpa=L.get("unloading_modulus"),
+                c_alpha=L.get("c_alpha"), c_alpha_eps=L.get("c_alpha_eps"),
+                c_alpha_ratio_surcharged=L.get("c_alpha_ratio_surcharged") or 1.0,
+                end_of_primary_yr=(None if L.get("end_of_primary_days") is None
+                                   else L["end_of_primary_days"] / 365.25)))
     with _located(cfg, "soil"):
         return SoilProfile(layers, s["water_table"], s.get("rigid_base"))
+
+
+def _drains(ctx: _Context) -> list[DrainZone]:
+    """The [[drains]] zones, outlines in internal metres."""
+    zones = []
+    for i, raw in enumerate(ctx.cfg.get("drains") or []):
+        where = f"drains[{i}]"
+        with _located(ctx.cfg, f"{where}.outline"):
+            poly = Polygon(ctx.xy(raw["outline"])[:, :2])
+            if not poly.is_valid or poly.area <= 0:
+                raise InputError("must be a valid polygon with a positive area", argument="outline")
+        with _located(ctx.cfg, where):
+            drains = VerticalDrains(raw["spacing"], raw["pattern"], diameter_m=raw.get("diameter"),
+                                    width_m=raw.get("width"), thickness_m=raw.get("thickness"),
+                                    depth_m=raw["depth"], smear_diameter_m=raw.get("smear_diameter"),
+                                    k_ratio=raw["k_ratio"], kh_over_qw=raw["kh_over_qw"])
+        zones.append(DrainZone(raw["id"], poly, drains))
+    return zones
 
 
 # --- receptors ------------------------------------------------------------------------

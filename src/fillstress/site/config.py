@@ -257,7 +257,7 @@ class _Validator:
         if key.unit == schema.UNIT_WEIGHT:
             return u.unit_weight_si(v)
         if key.unit == schema.INV_PRESSURE:
-            return v / u.pressure_to_kpa
+            return u.to_si(v, "compressibility")
         if key.unit == schema.CV:
-            return v * u.length_to_m ** 2
+            return u.to_si(v, "consolidation")
         return v

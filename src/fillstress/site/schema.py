@@ -121,6 +121,9 @@ _BODY_COMMON = (
         "stage ≤ k.", default=1, minimum=1),
     Key("excavation", "bool", "The body is removed material: its load is negative.",
         default=False),
+    Key("removal_day", "float", "Day (after the start of stage 1) the body is taken away, "
+        "e.g. a preload surcharge: its load is removed then and the soil below rebounds on "
+        "Cr (or the unloading modulus).", **_NONNEG, example="240"),
 )
 _OUTLINE = (
     Key("outline", "xy", "Plan outline as a list of [x, y] vertices in site CRS units (closed automatically).",
@@ -225,6 +228,20 @@ LAYER = Table("soil.layers", "One soil layer; layers must follow each other with
     Key("mv", "float", "Coefficient of volume compressibility.", unit=INV_PRESSURE, **_POS),
     Key("modulus", "float", "Constrained (oedometer) modulus.", unit=PRESSURE, **_POS),
     Key("cv", "float", "Coefficient of consolidation, for settlement with time.", unit=CV, **_POS),
+    Key("ch", "float", "Horizontal coefficient of consolidation for radial flow to vertical "
+        "drains (default: cv).", unit=CV, **_POS),
+    Key("unloading_modulus", "float", "Constrained modulus for unloading and reloading below "
+        "the largest past stress, mv and modulus layers (default: the loading value; index "
+        "layers unload on cr).", unit=PRESSURE, **_POS),
+    Key("c_alpha", "float", "Secondary compression index Cα (void ratio change per log cycle "
+        "of time), index layers; divided by 1 + e_p.", **_POS),
+    Key("c_alpha_eps", "float", "Modified secondary compression index Cα/(1+e0), any "
+        "compressible layer (instead of c_alpha).", **_POS),
+    Key("c_alpha_ratio_surcharged", "float", "Cα'/Cα where the layer ends below its largest "
+        "past stress (after a surcharge), a value you choose (Mesri's Cα/Cc concept).",
+        default=1.0, **_POS),
+    Key("end_of_primary_days", "float", "Time after loading at which primary consolidation "
+        "ends, for secondary compression (default: when the layer reaches U = 95 %).", **_POS),
     Key("drainage", "str", "Drainage boundaries of the layer for consolidation with time.",
         default="double", choices=("double", "top", "bottom")),
 ), many="array")
@@ -293,6 +310,19 @@ PLAN_GRIDS = Table("plan_grids", "Plan grids of Δσz at a list of depths, compu
 SETTLEMENT = Table("settlement", "Settlement checks (need [soil]).", (
     Key("stage_days", "floats", "Start time of each construction stage, days after the "
         "start of stage 1, for the settlement-time curve.", example="[0, 90]"),
+    Key("stage_durations", "floats", "Build duration of each stage in days: its load rises "
+        "linearly over it (ramp loading, Olson 1977). Default 0 (placed at once).",
+        example="[30, 20]"),
+    Key("design_life_years", "float", "Design life after the last stage starts, for secondary "
+        "compression and the preload removal target.", default=30.0, **_POS),
+    Key("removal_includes_secondary", "bool", "The earliest surcharge removal day aims at the "
+        "permanent-load settlement plus the secondary compression over the design life.",
+        default=False),
+    Key("target_degree", "float", "Drain design: the average degree of consolidation (0-1) to "
+        "reach by `target_day`; the drain spacing that does it is solved in each drain zone.",
+        **_POS, example="0.9"),
+    Key("target_day", "float", "Drain design: the day by which `target_degree` is wanted.",
+        **_POS, example="180"),
     Key("limit_no_cracking", "float", "Angular distortion limit where no cracking is "
         "acceptable (Bjerrum 1963: 1/500).", default=1 / 500, **_POS),
     Key("limit_first_cracking", "float", "Limit of first cracking of panel walls "
@@ -300,6 +330,28 @@ SETTLEMENT = Table("settlement", "Settlement checks (need [soil]).", (
     Key("limit_structural_damage", "float", "Limit of structural damage (Bjerrum 1963: "
         "1/150).", default=1 / 150, **_POS),
 ))
+
+DRAINS = Table("drains", "Vertical drain zones, each a [[drains]] entry: a plan polygon and "
+               "the drain layout inside it (radial consolidation by Hansbo 1981, combined with "
+               "vertical drainage by Carrillo 1942).", (
+    Key("id", "str", "Name of the zone.", required=True),
+    Key("outline", "xy", "Zone polygon as [x, y] vertices in site CRS units.", required=True),
+    Key("pattern", "str", "Drain pattern: de = 1.05 s (triangular) or 1.128 s (square).",
+        default="triangular", choices=("triangular", "square")),
+    Key("spacing", "float", "Centre-to-centre drain spacing s.", unit=LENGTH, required=True, **_POS),
+    Key("diameter", "float", "Drain diameter dw (sand drains), or give width and thickness.",
+        unit=LENGTH, **_POS),
+    Key("width", "float", "Band drain width a (dw = 2(a+b)/π, Hansbo 1979).", unit=LENGTH, **_POS),
+    Key("thickness", "float", "Band drain thickness b.", unit=LENGTH, **_POS),
+    Key("depth", "float", "Depth of penetration below ground; drains act above it.",
+        unit=LENGTH, required=True, **_POS),
+    Key("smear_diameter", "float", "Diameter ds of the smear zone (default: no smear).",
+        unit=LENGTH, **_POS),
+    Key("k_ratio", "float", "kh/ks, undisturbed over smeared permeability (>= 1).",
+        default=1.0, minimum=1.0),
+    Key("kh_over_qw", "float", "Well resistance: soil kh over drain discharge capacity qw, "
+        "in 1/m² (SI only; default 0, no well resistance).", default=0.0, **_NONNEG),
+), many="array")
 
 OUTPUTS = Table("outputs", "Which files a run writes besides the point tables and manifest.", (
     Key("geotiff", "bool", "One GeoTIFF per depth slice and the fill rasters.", default=True),
@@ -320,5 +372,6 @@ MONITORING = Table("monitoring", "Field readings for `fillstress monitor` (readi
 ))
 
 TABLES: tuple[Table, ...] = (SITE, GRID, GROUND, BODIES, ALIGNMENT, SOIL, LAYER, BUILDINGS,
-                             PIPES, BOREHOLES, PLAN_GRIDS, SETTLEMENT, OUTPUTS, MONITORING)
+                             PIPES, BOREHOLES, PLAN_GRIDS, SETTLEMENT, DRAINS, OUTPUTS,
+                             MONITORING)
 TOP_LEVEL = {t.name: t for t in TABLES if "." not in t.name}
