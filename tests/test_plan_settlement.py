@@ -69,17 +69,34 @@ ocr = 1.0
 """
 
 
-@pytest.fixture(scope="module")
-def run(tmp_path_factory):
+# A surcharge over half the pad, taken away on day 200: the plan grid must follow the same
+# load history (rebound on Cr) as the borehole, not the peak load.
+SURCHARGE = """
+[bodies.surcharge]
+kind = "footprint"
+outline = [[500000.0, 6000000.0], [500020.0, 6000000.0], [500020.0, 6000030.0], [500000.0, 6000030.0]]
+height = 2.0
+unit_weight = 19.0
+stage = 2
+removal_day = 200
+
+[settlement]
+stage_days = [0, 30]
+"""
+
+
+@pytest.fixture(scope="module", params=["pad", "pad and removed surcharge"])
+def run(tmp_path_factory, request):
     root = tmp_path_factory.mktemp("plan_settlement")
     site_file = root / "site.toml"
-    site_file.write_text(SITE.format(x=500013.0, y=6000011.0))
+    text = SITE + (SURCHARGE if "surcharge" in request.param else "")
+    site_file.write_text(text.format(x=500013.0, y=6000011.0))
     spec = load_site(site_file).spec
     # Move the borehole onto the nearest cell centre (a plan-grid node); the pad and the
     # margin fix the grid, so the move does not shift it.
     x = spec.x0 + (np.floor((500013.0 - spec.x0) / spec.dx) + 0.5) * spec.dx
     y = spec.y0 + (np.floor((6000011.0 - spec.y0) / spec.dy) + 0.5) * spec.dy
-    site_file.write_text(SITE.format(x=x, y=y))
+    site_file.write_text(text.format(x=x, y=y))
     assert load_site(site_file).spec.x0 == spec.x0
     folder = root / "results"
     assert main(["run", str(site_file), "-o", str(folder), "--no-report", "--quiet"]) == 0

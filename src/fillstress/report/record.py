@@ -14,8 +14,8 @@ CONVERGENCE_LIMIT = 0.05      # relative change of Δσz on halving the cell tha
 
 _PARTS = (
     ("soil_profile", "Soil profile as used",
-     "Every parameter of every layer as the calculation used it (SI where the column says "
-     "so); depths below the existing ground. Settlement below the rigid base is zero."),
+     "Every parameter of every layer as the calculation used it, in the units of its "
+     "column head; depths below the existing ground. Settlement below the rigid base is zero."),
     ("drains", "Vertical drains",
      "Unit cell of each drain zone: de = 1.05 s (triangular) or 1.128 s (square), "
      "n = de/dw, Hansbo's (1981) μ with smear; Carrillo (1942) with vertical drainage."),

@@ -32,7 +32,10 @@ ASSUMPTIONS = (
     "(Westergaard); the fill is a flexible surface load; each plan cell is a uniformly loaded "
     "rectangle and the cells add by superposition; fill stiffness and embedment are ignored. "
     "Settlement by one-dimensional consolidation (Terzaghi) of horizontal layers under the "
-    "computed Δσz, with time by Terzaghi's 1-D theory for instantly placed stages.")
+    "computed Δσz along the load history (e–log σ' path: virgin loading on Cc, unloading and "
+    "reloading on Cr), with time by Terzaghi's 1-D theory, stages ramped over their build "
+    "time (Olson 1977), radial drainage to vertical drains (Hansbo 1981, combined by "
+    "Carrillo 1942) and secondary compression after the end of primary consolidation.")
 CAUTIONS = (
     "Results are for checking by a licensed geotechnical engineer; local codes and regulations "
     "govern. The elastic solutions do not represent stiff crusts over soft layers, rigid "
@@ -116,7 +119,7 @@ def compute(site: Site, progress=silent, client=None) -> RunResults:
             bar.advance()
             if site.plan_grids:
                 res.plan_settlement = settle.plan_settlement(
-                    site, lambda plan, z: _plan_slices(site, grid, replace(plan, depths=z), client))
+                    site, lambda plan, z, g: _plan_slices(site, g, replace(plan, depths=z), client))
                 bar.advance()
         if site.alignment is not None:
             res.corridor = corridor_results(site, lambda g, xyz: stress(site, g, xyz, client))

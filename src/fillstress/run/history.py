@@ -148,7 +148,11 @@ def _soil_rows(soil) -> pd.DataFrame:
                      "end_of_primary_days": (None if L.end_of_primary_yr is None
                                              else L.end_of_primary_yr * tl.DAYS_PER_YEAR),
                      "depth_water_table": soil.water_table_m, "depth_rigid_base": soil.rigid_base_m})
-    return pd.DataFrame(rows)
+    frame = pd.DataFrame(rows)
+    text = ["layer", "model", "drainage"]
+    # a parameter no layer has is an empty number column, so it keeps its unit suffix
+    return frame[text].join(frame.drop(columns=text).apply(pd.to_numeric, errors="coerce"))[
+        frame.columns]
 
 
 def _drain_rows(site) -> pd.DataFrame:

@@ -132,31 +132,39 @@ def _one(path: st.StressPath, n: int) -> st.StressPath:
 
 
 def plan_settlement(site, slices_at) -> dict:
-    """Final settlement (m) at the ground surface over every plan grid.
+    """Final settlement (m) at the ground surface over every plan grid, along the load
+    history (a surcharge removed on its day rebounds on Cr, as at the receptor points).
 
-    Δσz of the final fill at the sublayer mid-depths of the whole profile comes from
-    ``slices_at(plan, depths)`` (FFT slices on the plan grid's nodes, dims depth, y, x),
-    as many depths at a time as the plan grid has slices, so the memory stays what the run
-    estimate counted for its slices. Sublayers settle independently (1-D compression), so
-    their settlements add up by the rule the receptor points use; nodes where unloading
-    exceeds σ'v0 (heave) get NaN.
+    Δσz at the sublayer mid-depths of the whole profile comes from
+    ``slices_at(plan, depths, grid)`` (FFT slices of load grid `grid` on the plan grid's
+    nodes, dims depth, y, x), one load state and as many depths at a time as the plan grid
+    has slices, so the memory stays what the run estimate counted for its slices. Sublayers
+    settle independently (1-D compression), so their settlements add up by the rule the
+    receptor points use; nodes where unloading exceeds σ'v0 (heave) get NaN.
     """
     z, h = st.sublayers(site.soil, top_depth=0.0)
     if len(z) == 0:
         return {}
     s0 = site.soil.sigma_v0_eff(z)
+    grids = [site.spec.load_grid(sum((b.pressure for b, on in zip(site.bodies, s.active) if on),
+                                     site.spec.zeros()))
+             for s in tl.load_states(site)]
     out = {}
     for plan in site.plan_grids:
         step = max(1, len(plan.depths))
         total = tension = da = None
         for k in range(0, len(z), step):
             part = slice(k, k + step)
-            da = slices_at(plan, tuple(float(d) for d in z[part]))
-            dsz = np.moveaxis(np.asarray(da.values, float), 0, -1).reshape(-1, len(z[part]))
-            heave = np.any(s0[part] + dsz <= 0, axis=1)
-            layers = st.settlement_by_layer(site.soil, z[part], h[part],
-                                            np.where(heave[:, None], 0.0, dsz))
-            total = layers.sum(axis=1) + (0.0 if total is None else total)
+            depths = tuple(float(d) for d in z[part])
+            states = []
+            for g in grids:
+                da = slices_at(plan, depths, g)
+                states.append(np.moveaxis(np.asarray(da.values, float), 0, -1).reshape(-1, len(depths)))
+            dsz = np.stack(states, axis=1)                                  # (N, E, K)
+            heave = np.any(s0[part] + dsz <= 0, axis=(1, 2))
+            path = st.stress_path(site.soil, z[part], h[part],
+                                  np.where(heave[:, None, None], 0.0, dsz))
+            total = path.settlement[:, -1].sum(axis=1) + (0.0 if total is None else total)
             tension = heave if tension is None else tension | heave
         total[tension] = np.nan
         surface = da.isel(depth=0, drop=True)
