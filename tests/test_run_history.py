@@ -171,6 +171,19 @@ def test_removal_before_the_body_is_built_is_refused(tmp_path):
         _run(tmp_path, removal="removal_day = 65")
 
 
+def test_check_lists_the_load_history_and_the_drains(tmp_path, capsys):
+    from fillstress.cli import main
+    path = tmp_path / "site.toml"
+    path.write_text(textwrap.dedent(SITE.replace("{removal}", "removal_day = 400")))
+    assert main(["check", str(path)]) == 0
+    out = " ".join(capsys.readouterr().out.split())
+    assert "removal of" in out and "on day 400" in out
+    assert "drains: west half" in out and "square, 1.6 m spacing" in out
+    path.write_text(textwrap.dedent(SITE.replace("{removal}", "removal_day = 65")))
+    assert main(["check", str(path)]) == 2                   # refused by check, as by run
+    assert "removal_day" in capsys.readouterr().err
+
+
 def test_results_folder_and_report_carry_the_record(tmp_path):
     from fillstress.report import write_report
     from fillstress.run.compute import run_site_file

@@ -101,6 +101,11 @@ def describe_run(site) -> list[list]:
         ["soil profile", "none" if site.soil is None else
          ", ".join(L.name for L in site.soil.layers)],
     ]
+    if site.soil is not None:
+        rows.append(["load history", "; ".join(_state_text(s) for s in load_states(site))])
+    rows += [[f"drains: {z.id}", f"{z.drains.pattern}, {u.length_out(z.drains.spacing_m):g} "
+              f"{u.length} spacing, to {u.length_out(z.drains.depth_m):g} {u.length}"]
+             for z in site.drains]
     rows += [[f"estimate: {e.operation}", f"{format_bytes(e.bytes)}, about {e.seconds:.2g} s "
               f"({e.detail})" + (" — will be tiled" if e.bytes > cap and
                                  e.operation.startswith("plan grid") else "")]
@@ -108,6 +113,14 @@ def describe_run(site) -> list[list]:
     rows.append(["estimated total", f"about {sum(e.seconds for e in estimates):.2g} s on a "
                  f"2-core machine; memory cap {format_bytes(cap)}"])
     return rows
+
+
+def _state_text(state) -> str:
+    """'stage 2 from day 60 over 25 days', 'removal of surcharge on day 330'."""
+    if state.stage is None:
+        return f"{state.event} on day {state.day:g}"
+    ramp = f" over {state.duration_days:g} days" if state.duration_days else ""
+    return f"{state.event} from day {state.day:g}{ramp}"
 
 
 #: Above this a fill height is taken for a unit or typing error (common practice: the
