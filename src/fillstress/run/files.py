@@ -160,7 +160,7 @@ def write_all(res, folder, *, report=True, progress=silent, assumptions="", caut
         bar.advance()
         _write_rasters(res, folder)
         bar.advance()
-        _write_cube(res, folder)
+        _write_cube(res, folder, version)
         bar.advance()
         _write_vtk(res, folder)
         bar.advance()
@@ -252,13 +252,21 @@ def _slice_spec(site, da) -> GridSpec:
     return GridSpec(x[0] - dx / 2, y[0] - dy / 2, dx, dy, len(x), len(y), site.crs)
 
 
-def _write_cube(res, folder) -> None:
+def _write_cube(res, folder, version="") -> None:
     site = res.site
     if not res.slices or not _output(site, "netcdf"):
         return
-    netcdf.write_stress_cube(folder.path("stress_cube.nc"), res.slices, grid=site.spec,
-                             fill_thickness=site.fill_thickness(), units=site.units,
-                             crs=site.crs, sigma_v0=_slice_sigma_v0(site, res.slices),
+    made_by = f"fillstress {version}".strip()
+    attrs = {"title": f"Vertical stress increase below the fill of {site.name}",
+             "source": f"{made_by}, method {site.method}",
+             "history": f"{made_by}: fillstress run {site.path.name}"}
+    slices, stages = ((res.stage_slices, site.stages) if res.stage_slices
+                      else (res.slices, site.stages[-1:]))
+    netcdf.write_stress_cube(folder.path("stress_cube.nc"), slices, grid=site.spec,
+                             stages=stages,
+                             fill_thickness=[site.fill_thickness(k) for k in stages],
+                             units=site.units, crs=site.crs, attrs=attrs,
+                             sigma_v0=_slice_sigma_v0(site, res.slices),
                              settlement=res.plan_settlement)
 
 
