@@ -73,6 +73,7 @@ def test_outputs_exist_and_open(runs, name):
             assert src.crs is not None and np.isfinite(band).all() and band.max() > 0
     with xr.open_dataset(folder / "stress_cube.nc") as cube:
         assert any(v.startswith("dsz_") for v in cube.data_vars)
+    _rasters_share_one_round_lattice(folder)
     for vtk_file in (folder / "vtk").iterdir():
         assert pv.read(vtk_file).n_points > 0
     for geo in folder.glob("*_points.geojson"):
@@ -136,6 +137,26 @@ def test_every_file_uses_the_same_site_crs_coordinates(runs, name):
         assert (pipe["x_ft"], pipe["y_ft"]) == pytest.approx((3115473.5, 10071841.2), abs=1e-6)
         house = gpd.read_file(folder / "buildings.geojson").geometry[0]
         assert house.exterior.coords[0] == pytest.approx((3115579.7, 10072298.8), abs=1e-6)
+
+
+def _rasters_share_one_round_lattice(folder):
+    """Every GeoTIFF: a valid COG with a band unit, square pixels, and its origin a whole
+    number of pixels from the fill raster's (one lattice for the run)."""
+    import rasterio
+
+    from fillstress.io.geotiff import cog_problems
+
+    with rasterio.open(folder / "fill_thickness.tif") as ref:
+        base = ref.transform
+    assert base.a == -base.e
+    for tif in [folder / "fill_thickness.tif", *sorted((folder / "slices").glob("*.tif"))]:
+        assert cog_problems(tif) == [], tif.name
+        with rasterio.open(tif) as src:
+            t = src.transform
+            assert src.units[0], tif.name
+            assert t.a == -t.e and (t.a / base.a) == round(t.a / base.a), tif.name
+            for shift in ((t.c - base.c) / base.a, (base.f - t.f) / base.a):
+                assert shift == round(shift), (tif.name, shift)
 
 
 def test_failed_run_leaves_previous_results_intact(tmp_path, monkeypatch):
