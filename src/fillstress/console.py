@@ -84,6 +84,9 @@ class Console:
         for block in summary_tables(summary.results):
             self.table(*block)
         self.lines(closing_lines(summary))
+        if self.quiet:              # quiet hides progress and tables, never a warning
+            for w in summary.results.warnings:
+                self.err.print(escape(f"warning: {w}"), soft_wrap=True)
 
     def check(self, report) -> None:
         """What a run would compute (run.compute.CheckReport)."""
