@@ -72,8 +72,8 @@ def test_check_names_the_rule_behind_a_round_default_cell_in_feet(corridor_defau
     report = check_site_file(corridor_defaults)
     rows = dict((r[0], r[1]) for r in report.plan)
     site = report.site
-    cell_ft = site.spec.dx / FOOT
-    assert cell_ft in (1.0, 2.0, 2.5, 5.0, 10.0)
+    cell_ft = site.spec.dx / site.metres_per_unit   # whole feet of the CRS (US survey)
+    assert round(cell_ft, 9) in (1.0, 2.0, 2.5, 5.0, 10.0)
     assert site.spec.nx * site.spec.ny <= MAX_DEFAULT_CELLS
     assert rows["cell size rule"].startswith("work bound")
     assert "0.5 ft" in rows["cell size rule"]

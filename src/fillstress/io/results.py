@@ -86,8 +86,9 @@ class UnitLabels:
 
     def suffixed(self, base: str, unit_key: str | None) -> str:
         """Column name `base` with the unit suffix of `unit_key` (none when dimensionless)."""
+        from .tables import column_suffix
         label = self.label(unit_key)
-        return f"{base}_{label}" if label else base
+        return f"{base}_{column_suffix(label)}" if label else base
 
 
 @dataclass(frozen=True, eq=False)

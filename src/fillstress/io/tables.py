@@ -84,6 +84,35 @@ def plan_unit(crs, units: UnitSystem = SI) -> tuple[str, float]:
     return (units.length if label in same_kind else label), factor
 
 
+# Decimals a CSV keeps per quantity, in the output unit: what the method resolves, not the
+# float's last bits (common practice; docs/results-folder.md states them per column).
+# Dimensionless values keep 4 significant digits (angular distortions are ~1e-4).
+CSV_DECIMALS = {"plan": 3, "length": 3, "area": 1, "volume": 1, "force": 1, "pressure": 2,
+                "unit_weight": 2, "settlement": {"mm": 1, "in": 3}}
+CSV_SIGNIFICANT = 4
+
+
+def column_suffix(label: str) -> str:
+    """A unit label as a column-name suffix: no ``/`` (spreadsheets and GIS field names).
+
+    >>> column_suffix("kN/m3"), column_suffix("psf")
+    ('kN_per_m3', 'psf')
+    """
+    return label.replace("/", "_per_")
+
+
+def _csv_rounded(values: np.ndarray, quantity: str | None, label: str) -> np.ndarray:
+    if quantity is None:
+        with np.errstate(divide="ignore", invalid="ignore"):
+            scale = 10.0 ** (CSV_SIGNIFICANT - 1 - np.floor(np.log10(np.abs(values))))
+        scale = np.where(np.isfinite(scale), scale, 1.0)
+        return np.round(values * scale) / scale
+    decimals = CSV_DECIMALS.get(quantity, 6)
+    if isinstance(decimals, dict):
+        decimals = decimals.get(label, 6)
+    return np.round(values, decimals)
+
+
 def _unit(units: UnitSystem, quantity: str, crs=None) -> tuple[str, float]:
     """(label, SI value of one output unit)."""
     if quantity == "plan":
@@ -122,14 +151,14 @@ def to_output_units(values, units: UnitSystem, quantity: str | None, crs=None):
 
 def labelled_table(table: pd.DataFrame, units: UnitSystem,
                    quantities: Mapping[str, str | None] | None = None, *,
-                   crs=None) -> pd.DataFrame:
+                   crs=None, rounded: bool = False) -> pd.DataFrame:
     """A copy of `table` in output units with unit-suffixed quantity columns.
 
     Numeric columns must have a quantity, from :data:`DEFAULT_QUANTITIES` or `quantities`
     (``None`` marks a dimensionless column); text and boolean columns pass through. Plan
     coordinates (``x``, ``y``) go to the unit of `crs` (see :func:`plan_unit`). NaN stays
     NaN (e.g. ``chainage`` of non-pipe points; the CSV writes it empty); infinities are
-    refused.
+    refused. With `rounded`, values keep the decimals of :data:`CSV_DECIMALS`.
 
     Examples
     --------
@@ -158,10 +187,12 @@ def labelled_table(table: pd.DataFrame, units: UnitSystem,
         if np.any(np.isinf(values)):
             raise InputError(f"column {name!r} holds infinite values", argument="table")
         if q is None:
-            out[name] = values
+            out[name] = _csv_rounded(values, None, "") if rounded else values
             continue
         suffix, si_per_unit = _unit(units, q, crs)
-        out[f"{name}_{suffix}"] = values / si_per_unit
+        values = values / si_per_unit
+        out[f"{name}_{column_suffix(suffix)}"] = (_csv_rounded(values, q, suffix) if rounded
+                                                  else values)
     return pd.DataFrame(out, index=table.index)
 
 
@@ -170,17 +201,22 @@ def write_table_csv(path, table: pd.DataFrame, units: UnitSystem,
                     crs=None) -> os.PathLike:
     """Write `table` to CSV in output units (atomic); `crs` sets the unit of x and y.
 
+    UTF-8 with a byte-order mark, so a spreadsheet on Windows reads names with accents and
+    dashes right; numbers rounded per quantity (:data:`CSV_DECIMALS`).
+
     Examples
     --------
     >>> import tempfile, os, pandas as pd
     >>> from fillstress.units import SI
     >>> f = os.path.join(tempfile.mkdtemp(), "t.csv")
-    >>> _ = write_table_csv(f, pd.DataFrame({"receptor_id": ["P1"], "chainage": [2.5]}), SI)
-    >>> open(f).read().splitlines()
-    ['receptor_id,chainage_m', 'P1,2.5']
+    >>> t = pd.DataFrame({"receptor_id": ["P1"], "chainage": [2.5], "dsz": [125.00000000000001]})
+    >>> _ = write_table_csv(f, t, SI)
+    >>> open(f, encoding="utf-8-sig").read().splitlines()
+    ['receptor_id,chainage_m,dsz_kPa', 'P1,2.5,125.0']
     """
-    labelled = neutralised(labelled_table(table, units, quantities, crs=crs))
-    return write_atomic(path, lambda tmp: labelled.to_csv(tmp, index=False))
+    labelled = neutralised(labelled_table(table, units, quantities, crs=crs, rounded=True))
+    return write_atomic(path, lambda tmp: labelled.to_csv(tmp, index=False,
+                                                          encoding="utf-8-sig"))
 
 
 #: A spreadsheet runs a cell beginning with one of these as a formula (OWASP, "CSV
