@@ -44,7 +44,8 @@ def main(argv=None) -> int:
         parser.print_help()
         return 2
     from .console import Console
-    console = Console(quiet=getattr(args, "quiet", False))
+    # --json: the answer alone on stdout; tables and progress bars stay off.
+    console = Console(quiet=getattr(args, "quiet", False) or getattr(args, "json", False))
     try:
         with _warnings_to(console):
             return args.func(args, console) or 0
@@ -97,7 +98,11 @@ def _parser() -> argparse.ArgumentParser:
         c.set_defaults(func=func)
         c.add_argument("--debug", action="store_true", default=argparse.SUPPRESS,
                        help=argparse.SUPPRESS)
-        c.add_argument("-q", "--quiet", action="store_true", help="print only errors")
+        c.add_argument("-q", "--quiet", action="store_true",
+                       help="no progress bars or tables; answers, warnings and errors still")
+        if name in ("run", "check", "point"):
+            c.add_argument("--json", action="store_true",
+                           help="print the result as JSON on stdout (for scripts)")
         return c
 
     c = command("run", _run, "Run a site file into a results folder.",
@@ -183,6 +188,12 @@ def _run(args, console):
     summary = run_site_file(args.site, args.out, overwrite=args.overwrite,
                             report=not args.no_report, progress=console.progress,
                             workers=args.workers, scheduler=args.scheduler)
+    if getattr(args, "json", False):
+        import json
+        data = json.loads((summary.folder / "summary.json").read_text(encoding="utf-8"))
+        console.warnings(summary.results.warnings)
+        console.json({"folder": str(summary.folder), **data})
+        return
     console.summary(summary)
 
 
@@ -201,7 +212,12 @@ def _batch(args, console):
 
 def _check(args, console):
     from .run.compute import check_site_file
-    console.check(check_site_file(args.site))
+    report = check_site_file(args.site)
+    if args.json:
+        from .console import check_json
+        console.json(check_json(report))
+        return
+    console.check(report)
 
 
 def _example(args, console):
@@ -217,7 +233,13 @@ def _point(args, console):
     from .run.point import point_stresses
     if len(args.xyz) % 3:
         raise InputError(f"needs x y depth triples, got {len(args.xyz)} numbers", argument="xyz")
-    console.points(point_stresses(args.site, args.xyz, stage=args.stage))
+    result = point_stresses(args.site, args.xyz, stage=args.stage)
+    if args.json:
+        from .console import point_json
+        console.warnings(result.warnings)
+        console.json(point_json(result))
+        return
+    console.points(result)
 
 
 def _view(args, console):
