@@ -29,7 +29,7 @@ from typing import Mapping, Sequence
 import numpy as np
 import xarray as xr
 
-from ..crs import as_crs
+from ..crs import as_crs, cf_grid_mapping
 from ..errors import InputError
 from ..grid import GridSpec
 from ..units import SI, UnitSystem
@@ -234,10 +234,7 @@ def stress_dataset(slices: Mapping, *, grid: GridSpec | None = None, fill_thickn
 def _crs_attrs(crs) -> dict:
     if crs is None:
         return {"long_name": "no coordinate reference system (local plan coordinates)"}
-    long_name = {"long_name": "coordinate reference system"}
-    parsed = as_crs(crs, "crs")
-    cf = {k: (list(v) if isinstance(v, tuple) else v) for k, v in parsed.to_cf().items()}
-    return {**long_name, **cf, "spatial_ref": cf["crs_wkt"]}
+    return cf_grid_mapping(crs)
 
 
 def _lonlat_coords(name: str, x, y, crs) -> dict:

@@ -61,6 +61,7 @@ class RunSettings:
     distortion_limits: dict = field(default_factory=dict)  # structures.py name → limit given
     geotiff: bool = True
     netcdf: bool = True
+    geopackage: bool = True
     vtk: bool = True
     report: bool = True
     scene: bool = True
@@ -279,8 +280,8 @@ def _settings(cfg: SiteConfig) -> RunSettings:
         distortion_limits={name: settle[key] for key, name in LIMIT_KEYS.items()
                            if settle.get(key) is not None},
         **{k: monitoring.get(k) for k in ("readings", "construction", "day0")},
-        **{k: outputs.get(k, True) is not False for k in ("geotiff", "netcdf", "vtk", "report",
-                                                             "scene")})
+        **{k: outputs.get(k, True) is not False for k in ("geotiff", "netcdf", "geopackage",
+                                                             "vtk", "report", "scene")})
 
 
 def _profile_depths(cfg: SiteConfig, receptors: Receptors) -> list[float]:
