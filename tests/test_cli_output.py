@@ -37,7 +37,7 @@ top = 1.0
 bottom = 5.0
 step = 2.0
 """
-HEAVY = ("numba", "xarray", "scipy", "pandas", "fillstress.solve")
+HEAVY = ("numba", "xarray", "scipy", "fillstress.solve")  # the numerical stack
 
 
 @pytest.fixture

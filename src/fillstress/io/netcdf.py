@@ -92,6 +92,8 @@ def _length_coord(values_m, units, name: str, axis: str, crs, named: bool = True
         if named:
             attrs["standard_name"] = f"projection_{axis}_coordinate"
     values = to_output_units(np.asarray(values_m, float), units, quantity, crs)
+    if quantity == "plan":      # round CRS coordinates, as the GeoTIFFs carry them
+        values = np.round(values, 7)
     return (name, values, attrs)
 
 
