@@ -158,17 +158,37 @@ def _parser() -> argparse.ArgumentParser:
     return p
 
 
+class _NamesOf:
+    """Names read from ``fillstress.<module>.<attribute>`` on first use (argparse choices or
+    default), so building the parser for --help or --version imports no numerical library."""
+
+    def __init__(self, module: str, attribute: str):
+        self.module, self.attribute = module, attribute
+
+    def _names(self):
+        import importlib
+        return list(getattr(importlib.import_module(f"fillstress.{self.module}"), self.attribute))
+
+    def __contains__(self, value) -> bool:
+        return value in self._names()
+
+    def __iter__(self):
+        return iter(self._names())
+
+    def __str__(self) -> str:
+        return ",".join(self._names())
+
+
 def _view_options(c):
-    from .io.results import QUANTITIES
-    from .viewer import CAMERAS, LAYERS
-    c.add_argument("--quantity", default="dsz", choices=list(QUANTITIES),
-                   help="quantity coloured on the slices and points (default dsz)")
+    c.add_argument("--quantity", default="dsz", choices=_NamesOf("io.results", "QUANTITIES"),
+                   metavar="QUANTITY", help="quantity coloured on the slices and points: "
+                   "%(choices)s (default dsz)")
     c.add_argument("--depth", type=float, default=None,
                    help="show only the slice at this depth (site length unit)")
-    c.add_argument("--layers", default=",".join(LAYERS),
-                   help=f"comma-separated parts to draw (default {','.join(LAYERS)})")
-    c.add_argument("--camera", default="iso", choices=CAMERAS,
-                   help="PNG view: iso (from the south-west), xy (plan), xz, yz")
+    c.add_argument("--layers", default=_NamesOf("viewer", "LAYERS"),
+                   help="comma-separated parts to draw (default %(default)s)")
+    c.add_argument("--camera", default="iso", choices=_NamesOf("viewer", "CAMERAS"),
+                   metavar="CAMERA", help="PNG view: iso (from the south-west), xy (plan), xz, yz")
     c.add_argument("--colour-range", nargs=2, type=float, metavar=("LOW", "HIGH"), default=None,
                    help="colour range in the quantity's unit (default: 0 to a robust top)")
 
@@ -246,7 +266,7 @@ def _view(args, console):
     from . import viewer
     _require_results(args.results)
     common = dict(exaggeration=args.exaggeration, quantity=args.quantity, colour_range=args.colour_range,
-                  layers=[name.strip() for name in args.layers.split(",") if name.strip()])
+                  layers=[name.strip() for name in str(args.layers).split(",") if name.strip()])
     if args.html:
         from .scene_page import export_scene_html
         console.wrote(export_scene_html(args.results, args.html, **common))
