@@ -294,9 +294,20 @@ def test_report_shows_the_profile_and_sections_with_us_stations(tmp_path):
     section = html[html.index('<section id="alignment"'):]
     section = section[:section.index("</section>")]
     assert "Cross-section at station 13+00" in section and section.count("<img") == 2
-    head = (tmp_path / "out" / "alignment_profile.csv").read_text().splitlines()[:2]
+    raw = (tmp_path / "out" / "alignment_profile.csv").read_bytes()
+    assert raw.startswith(b"\xef\xbb\xbf")          # UTF-8 BOM, as every CSV of a run
+    head = raw.decode("utf-8-sig").splitlines()[:2]
     assert head[0].startswith("station_ft,station_label,") and "dsz_at_10ft_psf" in head[0]
     assert head[1].split(",")[1] == "10+00"
+    # rounded as the other tables: 6 decimals of lengths, 6 significant digits otherwise
+    names, values = head[0].split(","), head[1].split(",")
+    for name, text in zip(names, values):
+        if text and name != "station_label":
+            digits = text.lstrip("-").split(".")
+            if name.endswith("_ft") and len(digits) == 2:
+                assert len(digits[1]) <= 6, (name, text)
+            elif not name.endswith("_ft"):
+                assert len(text.lstrip("-").replace(".", "").lstrip("0")) <= 6, (name, text)
 
 
 # EPSG:2277's projection in international feet (the definition with +units=ft).
