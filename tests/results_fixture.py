@@ -235,9 +235,9 @@ def _summary_json(bodies, tables):
         "receptors": {kind: df.to_dict("records") for kind, df in tables.items()},
         # as the writer puts them (writers._soil_rows, run.convergence_check)
         "soil": [{"name": "soft grey clay", "top_m": 0.0, "bottom_m": 9.0, "model": "index",
-                  "unit_weight_kN/m3": 19.0},
+                  "unit_weight_kN_per_m3": 19.0},
                  {"name": "dense sand", "top_m": 9.0, "bottom_m": 20.0, "model": "modulus",
-                  "unit_weight_kN/m3": 20.5}],
+                  "unit_weight_kN_per_m3": 20.5}],
         "convergence": {"points_compared": 58, "max_relative_change": 0.008,
                         "at_point": "BH-Q7-02", "threshold_fraction_of_qmax": 0.01,
                         "cell_m": 2.0, "fine_cell_m": 1.0},
@@ -264,7 +264,7 @@ def write_results_folder(folder) -> FixtureTruth:
 
     volume = float(thickness.sum() * DX * DY)
     bodies = pd.DataFrame([{"body": "east stockpile", "kind": "stockpile", "stage": 1,
-                            "unit_weight_kN/m3": UNIT_WEIGHT, "volume_m3": volume,
+                            "unit_weight_kN_per_m3": UNIT_WEIGHT, "volume_m3": volume,
                             "footprint_area_m2": float((thickness > 0).sum() * DX * DY),
                             "max_height_m": float(thickness.max()),
                             "total_load_kN": volume * UNIT_WEIGHT}])

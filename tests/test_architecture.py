@@ -21,6 +21,7 @@ LAYERS = [
     ["solve"],
     ["shapes"],
     ["soil", "settlement", "structures", "drains", "monitoring.backanalysis"],
+    ["decide"],  # limits, largest scale, headroom, odds: on solve/ and the settlement core
     ["io"],
     ["site"],
     ["report", "viewer", "scene_page"],  # read a finished results folder only (io.results)

@@ -50,11 +50,12 @@ def test_each_variant_has_a_complete_results_folder(batch):
 
 def test_stress_scales_linearly_with_unit_weight_and_height(batch):
     # Elastic superposition: Δσz is linear in the surface pressure γ·t (exact up to the
-    # round-off of summing signed corner terms, ~1e-15 of the applied pressure).
+    # round-off of summing signed corner terms, ~1e-15 of the applied pressure); the CSV
+    # keeps 6 significant digits, so each side carries up to 5e-6 of its value.
     base = _points(batch / "as_designed")["dsz_kPa"]
     for name, factor in (("heavy", 1.25), ("taller", 1.5)):
         np.testing.assert_allclose(_points(batch / name)["dsz_kPa"], factor * base,
-                                   rtol=1e-12, atol=1e-10)
+                                   rtol=1.1e-5, atol=1e-12)
 
 
 def test_as_designed_variant_equals_a_plain_run():

@@ -72,8 +72,8 @@ def test_check_names_the_rule_behind_a_round_default_cell_in_feet(corridor_defau
     report = check_site_file(corridor_defaults)
     rows = dict((r[0], r[1]) for r in report.plan)
     site = report.site
-    cell_ft = site.spec.dx / FOOT
-    assert cell_ft in (1.0, 2.0, 2.5, 5.0, 10.0)
+    cell_ft = site.spec.dx / site.metres_per_unit   # whole feet of the CRS (US survey)
+    assert round(cell_ft, 9) in (1.0, 2.0, 2.5, 5.0, 10.0)
     assert site.spec.nx * site.spec.ny <= MAX_DEFAULT_CELLS
     assert rows["cell size rule"].startswith("work bound")
     assert "0.5 ft" in rows["cell size rule"]
@@ -294,9 +294,20 @@ def test_report_shows_the_profile_and_sections_with_us_stations(tmp_path):
     section = html[html.index('<section id="alignment"'):]
     section = section[:section.index("</section>")]
     assert "Cross-section at station 13+00" in section and section.count("<img") == 2
-    head = (tmp_path / "out" / "alignment_profile.csv").read_text().splitlines()[:2]
+    raw = (tmp_path / "out" / "alignment_profile.csv").read_bytes()
+    assert raw.startswith(b"\xef\xbb\xbf")          # UTF-8 BOM, as every CSV of a run
+    head = raw.decode("utf-8-sig").splitlines()[:2]
     assert head[0].startswith("station_ft,station_label,") and "dsz_at_10ft_psf" in head[0]
     assert head[1].split(",")[1] == "10+00"
+    # rounded as the other tables: 6 decimals of lengths, 6 significant digits otherwise
+    names, values = head[0].split(","), head[1].split(",")
+    for name, text in zip(names, values):
+        if text and name != "station_label":
+            digits = text.lstrip("-").split(".")
+            if name.endswith("_ft") and len(digits) == 2:
+                assert len(digits[1]) <= 6, (name, text)
+            elif not name.endswith("_ft"):
+                assert len(text.lstrip("-").replace(".", "").lstrip("0")) <= 6, (name, text)
 
 
 # EPSG:2277's projection in international feet (the definition with +units=ft).

@@ -7,7 +7,7 @@ import rasterio
 
 from fillstress import InputError
 from fillstress.grid import GridSpec
-from fillstress.io.geotiff import write_geotiff
+from fillstress.io.geotiff import cog_problems, crs_transform, write_geotiff
 from fillstress.units import US
 
 GRID = GridSpec(4200.0, 9100.0, 2.0, 5.0, nx=4, ny=3, crs="EPSG:32633")
@@ -67,3 +67,38 @@ def test_bad_arrays(tmp_path, array, argument):
         write_geotiff(tmp_path / "x.tif", array, GRID, quantity="length")
     assert err.value.argument == argument
     assert not list(tmp_path.iterdir())
+
+
+def test_cloud_optimized_with_overviews_and_band_unit(tmp_path):
+    big = GridSpec(300000.0, 4500000.0, 2.0, 2.0, nx=600, ny=400, crs="EPSG:32633")
+    values = np.add.outer(np.arange(400.0), np.arange(600.0))
+    path = write_geotiff(tmp_path / "big.tif", values, big, quantity="pressure", units=US)
+    assert cog_problems(path) == []
+    with rasterio.open(path) as src:
+        assert src.units == ("psf",)
+        assert src.block_shapes == [(256, 256)] and src.overviews(1)
+        structure = src.tags(ns="IMAGE_STRUCTURE")
+        assert structure["COMPRESSION"] == "DEFLATE" and structure["PREDICTOR"] == "3"
+
+
+def test_cog_check_finds_a_plain_striped_tiff(tmp_path):
+    path = tmp_path / "plain.tif"
+    with rasterio.open(path, "w", driver="GTiff", width=600, height=400, count=1,
+                       dtype="float32") as dst:
+        dst.write(np.zeros((400, 600), np.float32), 1)
+    problems = cog_problems(path)
+    assert "no GDAL COG header (LAYOUT=IFDS_BEFORE_DATA)" in problems
+    assert "not tiled" in problems and "no overviews" in problems
+
+
+def test_us_foot_lattice_is_round_in_the_crs():
+    """4 ft asked on a US-survey-foot CRS: square 4 US ft cells at multiples of 4 US ft
+    (the international foot would give 3.999992 US ft)."""
+    us_ft = 1200.0 / 3937.0                # m per US survey foot (exact definition)
+    spec = GridSpec.covering((950001.0, 60002.0, 950040.0, 60050.0), 4 * 0.3048,
+                             unit=us_ft, crs="EPSG:2263")
+    t = crs_transform(spec, "EPSG:2263")
+    assert (t.a, -t.e) == (4.0, 4.0)
+    assert t.c % 4 == 0 and t.f % 4 == 0
+    sub = GridSpec(spec.x0 + 3 * spec.dx, spec.y0 + 2 * spec.dy, spec.dx, spec.dy, 2, 2)
+    assert crs_transform(sub, "EPSG:2263").c == t.c + 12.0     # same lattice, exactly

@@ -1,6 +1,8 @@
-"""The NetCDF stress cube round-trips through xarray (engine h5netcdf)."""
+"""The NetCDF stress cube round-trips through xarray (engine h5netcdf), reads its CRS with
+rioxarray, and passes the CF-1.8 and ACDD-1.3 checks of compliance-checker."""
 from __future__ import annotations
 
+import h5py
 import numpy as np
 import pyproj
 import pytest
@@ -9,7 +11,7 @@ import xarray as xr
 from fillstress import InputError
 from fillstress.grid import GridSpec
 from fillstress.io.netcdf import SLICE_DIMS, write_stress_cube
-from fillstress.units import US
+from fillstress.units import SI, US
 
 GRID = GridSpec(300.0, 700.0, 2.0, 2.0, nx=5, ny=3, crs="EPSG:32633")
 
@@ -28,32 +30,89 @@ def test_two_grids_and_thickness_round_trip(tmp_path):
     path = write_stress_cube(tmp_path / "stress_cube.nc", {"plan": plan, "strip-A": strip},
                              grid=GRID, fill_thickness=thickness)
     with xr.open_dataset(path, engine="h5netcdf") as ds:
-        assert ds["dsz_plan"].dims == ("depth_plan", "y_plan", "x_plan")
-        np.testing.assert_array_equal(ds["dsz_plan"].values, plan.values)
-        np.testing.assert_array_equal(ds["dsz_strip-A"].values, strip.values)
-        np.testing.assert_array_equal(ds["y_strip-A"].values, [701, 702, 703, 704])
+        assert ds["dsz_plan"].dims == ("stage", "depth_plan", "y_plan", "x_plan")
+        # y is stored north-up: the file's first row is the northern one
+        np.testing.assert_array_equal(ds["dsz_plan"].values[0], plan.values[:, ::-1])
+        np.testing.assert_array_equal(ds["dsz_strip-A"].values[0], strip.values[:, ::-1])
+        np.testing.assert_array_equal(ds["y_strip-A"].values, [704, 703, 702, 701])
         np.testing.assert_array_equal(ds["depth_plan"].values, [2.0, 6.0])
-        np.testing.assert_array_equal(ds["fill_thickness"].values, thickness)
+        np.testing.assert_array_equal(ds["fill_thickness"].values[0], thickness[::-1])
         np.testing.assert_array_equal(ds["x"].values, GRID.x_centres)
         assert ds["dsz_plan"].attrs["units"] == "kPa"
         assert ds["depth_plan"].attrs["positive"] == "down"
-        assert pyproj.CRS.from_wkt(ds["crs"].attrs["crs_wkt"]).to_epsg() == 32633
+        assert ds["depth_plan"].attrs["axis"] == "Z"
+        assert pyproj.CRS.from_wkt(ds["spatial_ref"].attrs["crs_wkt"]).to_epsg() == 32633
+        assert ds["spatial_ref"].attrs["grid_mapping_name"] == "transverse_mercator"
+        assert ds["dsz_plan"].dtype == np.float32
+        assert ds["dsz_plan"].encoding["zlib"] or ds["dsz_plan"].encoding.get("compression")
         # Value at a named node, by label: plan, depth 6, y 703, x 310
-        assert float(ds["dsz_plan"].sel(depth_plan=6.0, y_plan=703.0, x_plan=310.0)) == \
-            100.0 + 10 + 2
+        assert float(ds["dsz_plan"].sel(stage=1, depth_plan=6.0, y_plan=703.0,
+                                        x_plan=310.0)) == 100.0 + 10 + 2
+    with h5py.File(path) as raw:           # CF: coordinates carry no _FillValue
+        for name in ("x", "y", "stage", "depth_plan", "x_plan", "y_strip-A"):
+            assert "_FillValue" not in raw[name].attrs, name
 
 
-def test_us_units(tmp_path):
-    psf = 0.45359237 * 9.80665 / 0.3048**2 / 1000.0  # kPa per psf from exact definitions
-    da = xr.DataArray(np.full((1, 1, 2), 500 * psf), dims=SLICE_DIMS,
-                      coords={"depth": [3.048], "y": [0.0], "x": [0.0, 3.048]})
-    path = write_stress_cube(tmp_path / "c.nc", {"plan": da}, units=US)
-    with xr.open_dataset(path, engine="h5netcdf") as ds:
-        assert ds["dsz_plan"].values == pytest.approx(500.0)
-        assert ds["depth_plan"].values == pytest.approx([10.0])
-        assert ds["x_plan"].values == pytest.approx([0.0, 10.0])  # no CRS: length unit
-        assert ds["dsz_plan"].attrs["units"] == "psf"
-        assert ds.attrs["units_system"] == "US"
+def test_every_stage_along_the_stage_axis(tmp_path):
+    one = _stack([300.0, 305.0], [700.0], [2.0], 1.0)
+    staged = xr.concat([one, 3 * one], dim="stage").assign_coords(stage=[1, 3])
+    path = write_stress_cube(tmp_path / "c.nc", {"plan": staged}, grid=GRID,
+                             fill_thickness=[np.ones((3, 5)), 2 * np.ones((3, 5))])
+    with xr.open_dataset(path) as ds:
+        assert ds["stage"].values.tolist() == [1, 3]
+        np.testing.assert_allclose(ds["dsz_plan"].sel(stage=3), 3 * ds["dsz_plan"].sel(stage=1))
+        assert float(ds["fill_thickness"].sel(stage=3).max()) == 2.0
+    with pytest.raises(InputError, match="stage"):
+        write_stress_cube(tmp_path / "d.nc", {"plan": staged}, stages=[1])
+
+
+def test_rioxarray_finds_crs_and_north_up_transform(tmp_path):
+    rioxarray = pytest.importorskip("rioxarray")  # in the test extra
+    assert rioxarray
+    plan = _stack([301.0, 303.0, 305.0], [701.0, 703.0], [2.0], 1.0)
+    path = write_stress_cube(tmp_path / "c.nc", {"plan": plan}, grid=GRID,
+                             fill_thickness=np.zeros((3, 5)))
+    with xr.open_dataset(path) as ds:
+        for var in ("dsz_plan", "fill_thickness"):
+            assert ds[var].rio.crs.to_epsg() == 32633
+        t = ds["dsz_plan"].rio.transform()
+        assert (t.a, t.e, t.c, t.f) == (2.0, -2.0, 300.0, 704.0)   # cell edges, north-up
+
+
+def _failures(path, checker: str):
+    """(weight, check name, messages) of every failed check of compliance-checker."""
+    from compliance_checker.runner import CheckSuite
+    suite = CheckSuite()
+    suite.load_all_available_checkers()
+    groups, errors = suite.run_all(suite.load_dataset(str(path)), [checker], [])[checker]
+    assert not errors, errors
+    return [(r.weight, r.name, r.msgs) for r in groups if r.value[0] < r.value[1]]
+
+
+@pytest.mark.parametrize("units, crs", [(SI, "EPSG:32633"), (US, "EPSG:2263")])
+def test_cf_and_acdd_checks_pass(tmp_path, units, crs):
+    pytest.importorskip("compliance_checker")     # in the test extra
+    grid = GridSpec(300000.0, 4500000.0, 2.0, 2.0, nx=5, ny=3, crs=crs)
+    one = _stack([300001.0, 300003.0], [4500001.0, 4500003.0], [1.0, 3.0], 1.0)
+    staged = xr.concat([one, 2 * one], dim="stage").assign_coords(stage=[1, 2])
+    path = write_stress_cube(tmp_path / "c.nc", {"plan": staged, "b": staged}, grid=grid,
+                             fill_thickness=np.ones((2, 3, 5)), units=units,
+                             attrs={"history": "test", "source": "test"},
+                             sigma_v0={"plan": [20.0, np.nan]},
+                             settlement={"plan": np.full((2, 2), 0.01)})
+    high = 3                                      # compliance-checker's HIGH priority
+    assert [f for f in _failures(path, "cf:1.8") if f[0] >= high] == []
+    # ACDD asks every variable for a standard_name; the CF table has none for a stress or
+    # fill thickness in soil, and only one x, y pair may carry the projection names.
+    acdd = [f for f in _failures(path, "acdd:1.3") if f[0] >= high]
+    for _, name, msgs in acdd:
+        assert name.startswith("variable") and msgs == ["standard_name"], (name, msgs)
+    if units is US:
+        with xr.open_dataset(path) as ds:
+            assert ds["x"].attrs["units"] == "US_survey_foot"
+            assert ds["dsz_plan"].attrs["units"] == "lbf ft-2"
+            assert ds["settlement_plan"].attrs["units"] == "in"
+            assert ds["settlement_plan"].rio.crs is not None
 
 
 @pytest.mark.parametrize("slices", [

@@ -54,7 +54,7 @@ def test_us_conversion_of_every_quantity_kind():
 def test_si_labels_and_settlement_in_mm():
     t = pd.DataFrame({"settlement": [0.0125], "unit_weight": [19.5], "total_load": [10.0]})
     out = labelled_table(t, SI)
-    assert list(out.columns) == ["settlement_mm", "unit_weight_kN/m3", "total_load_kN"]
+    assert list(out.columns) == ["settlement_mm", "unit_weight_kN_per_m3", "total_load_kN"]
     assert out["settlement_mm"].iloc[0] == pytest.approx(12.5)
 
 

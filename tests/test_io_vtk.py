@@ -21,16 +21,20 @@ GRID = GridSpec(50.0, 80.0, 2.0, 4.0, nx=4, ny=3)
 THICK = 0.5 * np.arange(3)[:, None] + 0.1 * np.arange(4)[None, :]  # asymmetric, row 0 south
 
 
-def test_fill_surface_points_sit_on_ground_plus_thickness(tmp_path):
+def test_fill_surface_is_thickness_above_existing_ground(tmp_path):
+    """One vertical frame for every VTK file: z = 0 is the existing ground, so the fill
+    surface (z = thickness) overlays slices and receptors (z = -depth); the ground
+    elevation travels as point data."""
     ground = 20.0 + 0.01 * np.arange(12).reshape(3, 4)
     mesh = pv.read(write_fill_surface(tmp_path / "fill_surface.vtp", THICK, GRID,
                                       ground=ground))
     assert mesh.n_points == 12 and mesh.n_cells == 6
     for j, y in enumerate(GRID.y_centres):
         for i, x in enumerate(GRID.x_centres):
-            k = mesh.find_closest_point((x, y, ground[j, i] + THICK[j, i]))
-            assert mesh.points[k] == pytest.approx([x, y, ground[j, i] + THICK[j, i]])
-            assert mesh.point_data["thickness"][k] == pytest.approx(THICK[j, i])
+            k = mesh.find_closest_point((x, y, THICK[j, i]))
+            assert mesh.points[k] == pytest.approx([x, y, THICK[j, i]])
+            assert mesh.point_data["thickness_m"][k] == pytest.approx(THICK[j, i])
+            assert mesh.point_data["ground_elevation_m"][k] == pytest.approx(ground[j, i])
     normals = mesh.compute_normals(cell_normals=True, point_normals=False)
     assert np.all(normals.cell_data["Normals"][:, 2] > 0)  # quads face up
 
@@ -39,7 +43,7 @@ def test_fill_surface_without_ground_and_in_feet(tmp_path):
     mesh = pv.read(write_fill_surface(tmp_path / "f.vtp", THICK * 0.3048, GRID, units=US))
     assert mesh.points[:, 2].max() == pytest.approx(THICK.max())
     assert mesh.points[:, 0].min() == pytest.approx(51.0 / 0.3048)
-    assert list(mesh.field_data["units"]) == ["length=ft", "pressure=psf"]
+    assert list(mesh.field_data["units"]) == ["length=ft", "pressure=psf", "settlement=in"]
 
 
 def test_stress_grid_node_values(tmp_path):
@@ -54,7 +58,7 @@ def test_stress_grid_node_values(tmp_path):
             for i, xi in enumerate(x):
                 p = mesh.find_closest_point((xi, yj, -dk))
                 assert mesh.points[p] == pytest.approx([xi, yj, -dk])
-                assert mesh.point_data["dsz"][p] == values[k, j, i]
+                assert mesh.point_data["dsz_kPa"][p] == values[k, j, i]
 
 
 def test_buildings_are_closed_prisms_with_the_right_volume(tmp_path):
@@ -96,8 +100,8 @@ def test_pipes_and_boreholes_as_lines(tmp_path):
     mesh = pv.read(write_pipes(tmp_path / "pipes.vtp", shuffled))
     assert mesh.n_lines == 1 and list(mesh.cell_data["receptor_id"]) == ["Main-4"]
     np.testing.assert_allclose(mesh.points[:, 2], -pipe["depth"].to_numpy())
-    np.testing.assert_allclose(mesh.point_data["chainage"], pipe["chainage"].to_numpy())
-    np.testing.assert_allclose(mesh.point_data["dsz"], pipe["dsz"].to_numpy())
+    np.testing.assert_allclose(mesh.point_data["chainage_m"], pipe["chainage"].to_numpy())
+    np.testing.assert_allclose(mesh.point_data["dsz_kPa"], pipe["dsz"].to_numpy())
     line = mesh.lines
     assert line[0] == len(pipe) and list(line[1:]) == list(range(len(pipe)))
 
@@ -105,4 +109,4 @@ def test_pipes_and_boreholes_as_lines(tmp_path):
     mesh = pv.read(write_boreholes(tmp_path / "boreholes.vtp", pd.concat(holes)))
     assert mesh.n_lines == 2
     assert mesh.points[:, 2].tolist() == [-0.0, -2.0, -4.0, -1.0, -2.0]
-    assert "chainage" not in mesh.point_data
+    assert "chainage_m" not in mesh.point_data

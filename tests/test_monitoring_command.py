@@ -55,7 +55,7 @@ def test_folder_has_tables_pictures_report_and_manifest(monitored):
     assert any("readings.csv" in k for k in manifest["inputs"])
     page = (out / "report.html").read_text()
     assert "Cautions" in page and "Asaoka" in page and "Tan (1971)" in page
-    header = (out / "instruments.csv").read_text().splitlines()[0]
+    header = (out / "instruments.csv").read_text(encoding="utf-8-sig").splitlines()[0]
     assert "final_revised_mm" in header and "f_cv_low" in header
 
 

@@ -105,7 +105,9 @@ def test_site_table_has_no_blank_rows_and_stages_once(page):
 def test_settings_and_convergence_in_site_units(page, run):
     text, parsed = page
     body = " ".join(parsed.text)
-    cell_ft = json.loads((run / "manifest.json").read_text())["settings"]["cell_m"] / FOOT
+    # 4 significant figures, as the report prints (the cell is 4 US survey feet of the CRS,
+    # 4.000008 international feet)
+    cell_ft = float(f'{json.loads((run / "manifest.json").read_text())["settings"]["cell_m"] / FOOT:.4g}')
     assert f"{cell_ft:g} ft" in body
     conv = json.loads((run / "summary.json").read_text())["convergence"]
     sentence = (f"Halving the cell size from {cell_ft:g} ft to {cell_ft / 2:g} ft changes Δσz "

@@ -27,7 +27,9 @@ def truth(tmp_path_factory):
 @pytest.fixture(scope="module")
 def page(truth, tmp_path_factory):
     if not os.path.exists(CHROMIUM):
-        pytest.fail(f"{CHROMIUM} is required (apt-get install -y chromium)")
+        # Required in CI (.ci/run installs it); a developer's machine may lack it.
+        missing = pytest.fail if os.environ.get("CI") == "true" else pytest.skip
+        missing(f"{CHROMIUM} is needed for the browser tests: apt-get install -y chromium")
     html = scene_page.export_scene_html(truth.path, tmp_path_factory.mktemp("html") / "scene.html",
                                     exaggeration=2.0)
     browser = Browser(tmp_path_factory.mktemp("profile"))

@@ -1,8 +1,9 @@
 """fillstress: vertical stress increase and settlement below fills on an elastic half-space.
 
 The public API is the names in ``__all__`` (documented in docs/api.md, generated from it).
-The load model, the solvers and the errors load with the package; the rest loads on first
-use, so ``import fillstress`` stays quick.
+Only the errors and the version load with the package; every other name loads on first
+use (PEP 562 module ``__getattr__``), so ``import fillstress`` and ``fillstress --version``
+or ``--help`` start without numba, xarray or the solvers.
 """
 from __future__ import annotations
 
@@ -10,11 +11,11 @@ import importlib
 
 from ._version import __version__
 from .errors import CapacityError, FillstressError, InputError
-from .grid import GridSpec, LoadGrid
-from .solve import stress_slices, vertical_stress
 
 # Public name → the module that defines it (loaded on first access).
 _LAZY = {
+    "LoadGrid": "grid", "GridSpec": "grid",
+    "vertical_stress": "solve", "stress_slices": "solve",
     "stress_at_points": "solve.auto",
     "load_site": "site.build", "Site": "site.build",
     "compute": "run.compute", "run_site_file": "run.compute",
@@ -33,8 +34,7 @@ _LAZY = {
     "Body": "shapes.bodies", "write_report": "report",
 }
 
-__all__ = ["LoadGrid", "GridSpec", "vertical_stress", "stress_slices", *_LAZY,
-           "FillstressError", "InputError", "CapacityError", "__version__"]
+__all__ = [*_LAZY, "FillstressError", "InputError", "CapacityError", "__version__"]
 
 
 def __getattr__(name: str):

@@ -44,7 +44,8 @@ def main(argv=None) -> int:
         parser.print_help()
         return 2
     from .console import Console
-    console = Console(quiet=getattr(args, "quiet", False))
+    # --json: the answer alone on stdout; tables and progress bars stay off.
+    console = Console(quiet=getattr(args, "quiet", False) or getattr(args, "json", False))
     try:
         with _warnings_to(console):
             return args.func(args, console) or 0
@@ -97,7 +98,11 @@ def _parser() -> argparse.ArgumentParser:
         c.set_defaults(func=func)
         c.add_argument("--debug", action="store_true", default=argparse.SUPPRESS,
                        help=argparse.SUPPRESS)
-        c.add_argument("-q", "--quiet", action="store_true", help="print only errors")
+        c.add_argument("-q", "--quiet", action="store_true",
+                       help="no progress bars or tables; answers, warnings and errors still")
+        if name in ("run", "check", "point"):
+            c.add_argument("--json", action="store_true",
+                           help="print the result as JSON on stdout (for scripts)")
         return c
 
     c = command("run", _run, "Run a site file into a results folder.",
@@ -155,17 +160,37 @@ def _parser() -> argparse.ArgumentParser:
     return p
 
 
+class _NamesOf:
+    """Names read from ``fillstress.<module>.<attribute>`` on first use (argparse choices or
+    default), so building the parser for --help or --version imports no numerical library."""
+
+    def __init__(self, module: str, attribute: str):
+        self.module, self.attribute = module, attribute
+
+    def _names(self):
+        import importlib
+        return list(getattr(importlib.import_module(f"fillstress.{self.module}"), self.attribute))
+
+    def __contains__(self, value) -> bool:
+        return value in self._names()
+
+    def __iter__(self):
+        return iter(self._names())
+
+    def __str__(self) -> str:
+        return ",".join(self._names())
+
+
 def _view_options(c):
-    from .io.results import QUANTITIES
-    from .viewer import CAMERAS, LAYERS
-    c.add_argument("--quantity", default="dsz", choices=list(QUANTITIES),
-                   help="quantity coloured on the slices and points (default dsz)")
+    c.add_argument("--quantity", default="dsz", choices=_NamesOf("io.results", "QUANTITIES"),
+                   metavar="QUANTITY", help="quantity coloured on the slices and points: "
+                   "%(choices)s (default dsz)")
     c.add_argument("--depth", type=float, default=None,
                    help="show only the slice at this depth (site length unit)")
-    c.add_argument("--layers", default=",".join(LAYERS),
-                   help=f"comma-separated parts to draw (default {','.join(LAYERS)})")
-    c.add_argument("--camera", default="iso", choices=CAMERAS,
-                   help="PNG view: iso (from the south-west), xy (plan), xz, yz")
+    c.add_argument("--layers", default=_NamesOf("viewer", "LAYERS"),
+                   help="comma-separated parts to draw (default %(default)s)")
+    c.add_argument("--camera", default="iso", choices=_NamesOf("viewer", "CAMERAS"),
+                   metavar="CAMERA", help="PNG view: iso (from the south-west), xy (plan), xz, yz")
     c.add_argument("--colour-range", nargs=2, type=float, metavar=("LOW", "HIGH"), default=None,
                    help="colour range in the quantity's unit (default: 0 to a robust top)")
 
@@ -185,6 +210,12 @@ def _run(args, console):
     summary = run_site_file(args.site, args.out, overwrite=args.overwrite,
                             report=not args.no_report, progress=console.progress,
                             workers=args.workers, scheduler=args.scheduler)
+    if getattr(args, "json", False):
+        import json
+        data = json.loads((summary.folder / "summary.json").read_text(encoding="utf-8"))
+        console.warnings(summary.results.warnings)
+        console.json({"folder": str(summary.folder), **data})
+        return
     console.summary(summary)
 
 
@@ -203,7 +234,12 @@ def _batch(args, console):
 
 def _check(args, console):
     from .run.compute import check_site_file
-    console.check(check_site_file(args.site))
+    report = check_site_file(args.site)
+    if args.json:
+        from .console import check_json
+        console.json(check_json(report))
+        return
+    console.check(report)
 
 
 def _example(args, console):
@@ -219,14 +255,20 @@ def _point(args, console):
     from .run.point import point_stresses
     if len(args.xyz) % 3:
         raise InputError(f"needs x y depth triples, got {len(args.xyz)} numbers", argument="xyz")
-    console.points(point_stresses(args.site, args.xyz, stage=args.stage))
+    result = point_stresses(args.site, args.xyz, stage=args.stage)
+    if args.json:
+        from .console import point_json
+        console.warnings(result.warnings)
+        console.json(point_json(result))
+        return
+    console.points(result)
 
 
 def _view(args, console):
     from . import viewer
     _require_results(args.results)
     common = dict(exaggeration=args.exaggeration, quantity=args.quantity, colour_range=args.colour_range,
-                  layers=[name.strip() for name in args.layers.split(",") if name.strip()])
+                  layers=[name.strip() for name in str(args.layers).split(",") if name.strip()])
     if args.html:
         from .scene_page import export_scene_html
         console.wrote(export_scene_html(args.results, args.html, **common))

@@ -84,6 +84,8 @@ class Console:
         for block in summary_tables(summary.results):
             self.table(*block)
         self.lines(closing_lines(summary))
+        if self.quiet:              # quiet hides progress and tables, never a warning
+            self.warnings(summary.results.warnings)
 
     def check(self, report) -> None:
         """What a run would compute (run.compute.CheckReport)."""
@@ -93,8 +95,24 @@ class Console:
                    + ["site file is valid; nothing was computed or written"])
 
     def points(self, result) -> None:
-        """Δσz at command-line points (run.point.PointStresses), in site units."""
-        self.table(*point_rows(result))
+        """Δσz at command-line points (run.point.PointStresses), in site units; the
+        answer shows even with -q."""
+        if self.quiet:
+            for row in point_rows(result)[2]:
+                self.out.print("  ".join(row))
+        else:
+            self.table(*point_rows(result))
+        self.warnings(result.warnings)
+
+    def warnings(self, messages) -> None:
+        """Warning lines on stderr, shown even with -q."""
+        for w in messages:
+            self.err.print(escape(f"warning: {w}"), soft_wrap=True)
+
+    def json(self, data) -> None:
+        """The machine-readable answer of --json on stdout (nothing else goes there)."""
+        import json
+        sys.stdout.write(json.dumps(data, ensure_ascii=False, indent=1, default=_plain) + "\n")
 
     def examples(self, items) -> None:
         self.table("Bundled sample sites", ["name", "what it shows"], items)
@@ -154,6 +172,33 @@ def closing_lines(summary) -> list[str]:
     lines.append(f"results written to {summary.folder}")
     lines.append(CAUTIONS.split(";")[0] + ".")
     return lines
+
+
+def _plain(value):
+    """numpy scalars and arrays, paths: as JSON takes them."""
+    if isinstance(value, np.generic):
+        return value.item()
+    if isinstance(value, np.ndarray):
+        return value.tolist()
+    return str(value)
+
+
+def point_json(result) -> dict:
+    """`fillstress point --json`: the points as given and Δσz, in site units."""
+    site, u = result.site, result.site.units
+    plan = tables.plan_unit(site.crs, u)[0] if site.crs is not None else u.length
+    return {"site": site.name, "stage": result.stage, "method": site.method,
+            "units": {"x": plan, "y": plan, "depth": u.length, "dsz": u.pressure},
+            "points": [{"x": a, "y": b, "depth": c, "dsz": float(u.pressure_out(d))}
+                       for (a, b, c), d in zip(result.xyz.tolist(), result.dsz)],
+            "warnings": result.warnings}
+
+
+def check_json(report) -> dict:
+    """`fillstress check --json`: what a run would compute, as the table shows it."""
+    return {"site": report.site.name, "valid": True,
+            "plan": {str(k): v for k, v in report.plan},
+            "warnings": list(report.site.warnings)}
 
 
 def point_rows(result):

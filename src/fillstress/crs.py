@@ -290,6 +290,22 @@ def from_site(geom_or_xy, site, *, argument: str = "geometry"):
     return _apply(geom_or_xy, lambda xy: xy / factor, argument)
 
 
+def cf_grid_mapping(crs_like) -> dict:
+    """CF grid-mapping attributes of a CRS: pyproj's ``CRS.to_cf()`` (with
+    ``grid_mapping_name`` and ``crs_wkt``) plus the WKT under ``spatial_ref``, where
+    rioxarray and GDAL look for it.
+
+    Examples
+    --------
+    >>> attrs = cf_grid_mapping("EPSG:32633")
+    >>> attrs["grid_mapping_name"], attrs["spatial_ref"] == attrs["crs_wkt"]
+    ('transverse_mercator', True)
+    """
+    cf = {k: (list(v) if isinstance(v, tuple) else v)
+          for k, v in as_crs(crs_like, "crs").to_cf().items()}
+    return {"long_name": "coordinate reference system", **cf, "spatial_ref": cf["crs_wkt"]}
+
+
 def metric_twin(crs_like) -> pyproj.CRS:
     """The same projection as `crs_like` with metre axes (east, north).
 

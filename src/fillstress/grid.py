@@ -168,18 +168,32 @@ class GridSpec(_Lattice):
                              argument="nx/ny")
 
     @classmethod
-    def covering(cls, bounds, cell: float, margin: float = 0.0, crs=None) -> "GridSpec":
+    def covering(cls, bounds, cell: float, margin: float = 0.0, crs=None,
+                 unit: float = 1.0) -> "GridSpec":
         """The lattice of square cells `cell` (m), snapped to multiples of `cell`, that
-        covers `bounds` = (xmin, ymin, xmax, ymax) grown by `margin` on every side."""
+        covers `bounds` = (xmin, ymin, xmax, ymax) grown by `margin` on every side.
+
+        With `unit` (metres per unit of the site CRS) the lattice is snapped in CRS units,
+        so every raster of a run has round CRS coordinates; a cell within 10 ppm of a
+        5-digit value in CRS units is taken as that value (4 ft asked on a US-survey-foot
+        CRS is 4 US ft, not 3.999992).
+
+        >>> s = GridSpec.covering((0.0, 0.0, 10.0, 10.0), 1.2192, unit=0.3048006096012192)
+        >>> round(s.dx / 0.3048006096012192, 12), round(s.x0, 9)
+        (4.0, 0.0)
+        """
         cell = positive(cell, "cell")
         xmin, ymin, xmax, ymax = (float(b) for b in bounds)
         if not (xmax >= xmin and ymax >= ymin):
             raise InputError(f"bounds must be (xmin, ymin, xmax, ymax), got {bounds}", argument="bounds")
-        x0 = np.floor((xmin - margin) / cell) * cell
-        y0 = np.floor((ymin - margin) / cell) * cell
-        nx = max(1, int(np.ceil(round((xmax + margin - x0) / cell, 9))))
-        ny = max(1, int(np.ceil(round((ymax + margin - y0) / cell, 9))))
-        return cls(float(x0), float(y0), cell, cell, nx, ny, crs)
+        c = cell / unit
+        near = float(f"{c:.5g}")
+        c = near if abs(near / c - 1.0) < 1e-5 else c
+        x0 = np.floor((xmin - margin) / unit / c) * c
+        y0 = np.floor((ymin - margin) / unit / c) * c
+        nx = max(1, int(np.ceil(round(((xmax + margin) / unit - x0) / c, 9))))
+        ny = max(1, int(np.ceil(round(((ymax + margin) / unit - y0) / c, 9))))
+        return cls(float(x0 * unit), float(y0 * unit), c * unit, c * unit, nx, ny, crs)
 
     @property
     def shape(self) -> tuple[int, int]:

@@ -7,6 +7,7 @@ place only once every file in it is complete.
 """
 from __future__ import annotations
 
+import contextlib
 import json
 import os
 import shutil
@@ -355,3 +356,18 @@ def recover_stranded(final) -> list[str]:
     for note in notes:
         warnings.warn(note, FillstressWarning, stacklevel=3)
     return notes
+
+
+@contextlib.contextmanager
+def temporary_environ(name: str, value: str):
+    """Set environment variable `name` for the with-block, then restore it (GDAL and
+    trame read options from the environment)."""
+    before = os.environ.get(name)
+    os.environ[name] = value
+    try:
+        yield
+    finally:
+        if before is None:
+            os.environ.pop(name, None)
+        else:
+            os.environ[name] = before

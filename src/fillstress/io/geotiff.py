@@ -2,7 +2,12 @@
 
 In memory row 0 is the southern row (see :class:`~fillstress.grid.GridSpec`); a GeoTIFF is
 north-up, so rows are flipped on the way out. Values are float32 in the output unit;
-NaN marks "no value" and is declared as the nodata value.
+NaN marks "no value" and is declared as the nodata value. The band unit is GDAL's own
+unit field (QGIS and ``gdalinfo`` show it; rasterio ``ds.units``).
+
+Files are Cloud-Optimized GeoTIFFs (GDAL's COG driver): 256 × 256 tiles, overviews for
+rasters larger than a tile, DEFLATE with the floating-point predictor, IFDs before the
+data; :func:`cog_problems` checks that structure.
 """
 from __future__ import annotations
 
@@ -20,6 +25,9 @@ from .tables import plan_unit, to_output_units, unit_label
 
 # rasterio (GDAL) is imported inside the functions that use it: it is slow to load and
 # most commands never need it.
+
+
+COG_OPTIONS = dict(compress="deflate", predictor=3, blocksize=256, overviews="auto")
 
 
 def rasterio_crs(crs):
@@ -48,13 +56,16 @@ def crs_transform(grid: GridSpec, crs=None):
     Examples
     --------
     >>> t = crs_transform(GridSpec(3048.0, 0.0, 3.048, 3.048, 2, 1), "EPSG:2263")
-    >>> round(t.a, 5), round(t.c, 2), round(t.f, 5)
+    >>> t.a, t.c, t.f
     (9.99998, 9999.98, 9.99998)
     """
 
     f = plan_unit(crs)[1] if crs is not None else 1.0
     top = grid.y0 + grid.ny * grid.dy
-    return Affine(grid.dx / f, 0.0, grid.x0 / f, 0.0, -grid.dy / f, top / f)
+    # Rounded to 1e-7 CRS units: the lattice is round in CRS units (GridSpec.covering), and
+    # rasters cut from it must carry the same numbers, not the metre round trip's 1e-9.
+    a, c, e, f_ = (round(v / f, 7) for v in (grid.dx, grid.x0, grid.dy, top))
+    return Affine(a, 0.0, c, 0.0, -e, f_)
 
 
 def write_geotiff(path, array, grid: GridSpec, *, quantity: str | None,
@@ -85,8 +96,10 @@ def write_geotiff(path, array, grid: GridSpec, *, quantity: str | None,
     >>> f = os.path.join(tempfile.mkdtemp(), "t.tif")
     >>> _ = write_geotiff(f, [[1.0, 2.0], [3.0, 4.0]], g, quantity="length")
     >>> with rasterio.open(f) as src:
-    ...     src.read(1).tolist(), src.tags(1)["units"], tuple(map(float, src.xy(0, 0)))
-    ([[3.0, 4.0], [1.0, 2.0]], 'm', (0.5, 1.5))
+    ...     src.read(1).tolist(), src.units, tuple(map(float, src.xy(0, 0)))
+    ([[3.0, 4.0], [1.0, 2.0]], ('m',), (0.5, 1.5))
+    >>> cog_problems(f)
+    []
     """
     import rasterio
 
@@ -104,14 +117,50 @@ def write_geotiff(path, array, grid: GridSpec, *, quantity: str | None,
     site = crs if crs is not None else grid.crs
     label = "" if quantity is None else unit_label(units, quantity)
     data = north_up(to_output_units(values, units, quantity)).astype(np.float32)
-    profile = dict(driver="GTiff", width=grid.nx, height=grid.ny, count=1,
+    profile = dict(driver="COG", width=grid.nx, height=grid.ny, count=1,
                    dtype="float32", crs=rasterio_crs(site), transform=crs_transform(grid, site),
-                   nodata=np.nan, compress="deflate")
+                   nodata=np.nan, **COG_OPTIONS)
 
     def write(tmp):
         with rasterio.open(tmp, "w", **profile) as dst:
             dst.write(data, 1)
             dst.set_band_description(1, description)
+            dst.units = (label,)
             dst.update_tags(1, units=label)
 
     return write_atomic(path, write)
+
+
+def cog_problems(path) -> list[str]:
+    """What keeps the GeoTIFF at `path` from being a Cloud-Optimized GeoTIFF (empty = none).
+
+    Checks the layout GDAL records in the file (the structural-metadata header of its COG
+    driver: IFDs before the data, ``KNOWN_INCOMPATIBLE_EDITION=NO``), that the first IFD
+    precedes the first tile, internal tiling, and overviews on rasters larger than a tile.
+    """
+    import rasterio
+
+    with open(path, "rb") as fh:
+        head = fh.read(512)
+    problems = []
+    if head[:4] != b"II*\x00":
+        return ["not a little-endian classic TIFF"]
+    ghost = head[8:].split(b"\x00", 1)[0].decode("ascii", "replace")
+    if "LAYOUT=IFDS_BEFORE_DATA" not in ghost:
+        problems.append("no GDAL COG header (LAYOUT=IFDS_BEFORE_DATA)")
+    if "KNOWN_INCOMPATIBLE_EDITION=NO" not in ghost:
+        problems.append("edited after writing (KNOWN_INCOMPATIBLE_EDITION)")
+    first_ifd = int.from_bytes(head[4:8], "little")
+    with rasterio.open(path) as src:
+        if src.tags(ns="IMAGE_STRUCTURE").get("LAYOUT") != "COG":
+            problems.append("GDAL does not report LAYOUT=COG")
+        tiled = bool(src.profile.get("tiled"))
+        tile = src.block_shapes[0][1] if tiled else 256
+        if not tiled:
+            problems.append("not tiled")
+        if max(src.width, src.height) > tile and not src.overviews(1):
+            problems.append("no overviews")
+        offset = src.get_tag_item("BLOCK_OFFSET_0_0", "TIFF", bidx=1)
+        if offset is not None and int(offset) < first_ifd:
+            problems.append("image data before the first IFD")
+    return problems

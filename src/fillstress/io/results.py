@@ -86,8 +86,9 @@ class UnitLabels:
 
     def suffixed(self, base: str, unit_key: str | None) -> str:
         """Column name `base` with the unit suffix of `unit_key` (none when dimensionless)."""
+        from .tables import column_suffix
         label = self.label(unit_key)
-        return f"{base}_{label}" if label else base
+        return f"{base}_{column_suffix(label)}" if label else base
 
 
 @dataclass(frozen=True, eq=False)
@@ -310,7 +311,7 @@ class ResultsFolder:
         if field_ is None:
             cube = self.cube()
             if cube is not None and "fill_thickness" in cube:
-                field_ = self._plan_from_array(cube["fill_thickness"], "fill_thickness", "",
+                field_ = self._plan_from_array(_final_stage(cube["fill_thickness"]), "fill_thickness", "",
                                                None, self.units.length)
         return field_
 
@@ -355,8 +356,9 @@ class ResultsFolder:
         cube = self.cube()
         slices = []
         if cube is not None:
-            stacks = {g: _stack(cube[v]) for v in sorted(cube.data_vars)
-                      if (g := _grid_of(v, quantity)) is not None and cube[v].ndim in (2, 3)}
+            stacks = {g: _stack(_final_stage(cube[v])) for v in sorted(cube.data_vars)
+                      if (g := _grid_of(v, quantity)) is not None
+                      and _final_stage(cube[v]).ndim in (2, 3)}
             if not stacks and quantity in ("sigma_v0", "stress_ratio"):
                 stacks = _from_sigma_profile(cube, quantity)
             for grid, da in stacks.items():
@@ -377,6 +379,11 @@ class ResultsFolder:
             f = self.raster(f"slices/{path.name}", "dsz", units)
             out.append(PlanField("dsz", m["grid"], float(m["depth"]), f.x, f.y, f.values, units))
         return out
+
+
+def _final_stage(da):
+    """The last construction stage of a cube variable (cubes carry every stage)."""
+    return da.isel(stage=-1) if "stage" in da.dims else da
 
 
 def quantity_unit_key(quantity: str) -> str | None:
@@ -402,9 +409,9 @@ def _from_sigma_profile(cube, quantity: str) -> dict:
     for var in sorted(cube.data_vars):
         grid = _grid_of(var, "dsz")
         profile = cube.get(f"sigma_v0_{grid}") if grid is not None else None
-        if profile is None or profile.ndim != 1 or cube[var].ndim != 3:
+        if profile is None or profile.ndim != 1 or _final_stage(cube[var]).ndim != 3:
             continue
-        dsz = cube[var]
+        dsz = _final_stage(cube[var])
         sigma = profile.broadcast_like(dsz).transpose(*dsz.dims)
         if quantity == "sigma_v0":
             out[grid] = sigma

@@ -19,7 +19,7 @@ import shapely
 from ..crs import as_crs, site_crs
 from ..errors import InputError
 from ..units import QUANTITIES, SI, UnitSystem
-from .atomic import write_atomic
+from .atomic import temporary_environ, write_atomic
 
 # geopandas (GDAL) is imported inside the functions that use it: it is slow to load and
 # most commands never need it.
@@ -84,6 +84,34 @@ def plan_unit(crs, units: UnitSystem = SI) -> tuple[str, float]:
     return (units.length if label in same_kind else label), factor
 
 
+# What a CSV keeps, in the output unit: what the method resolves, not the float's last
+# bits (docs/results-folder.md states it per column). Plan coordinates and lengths keep
+# 6 decimals (1 µm or 1e-6 ft: far below survey precision, so a point recomputed from the
+# file lands where it was computed, even beside a vertical fill face); every other number
+# 6 significant digits, 100 times finer than the 0.1 % the elastic solutions are checked
+# to and enough for far-field stresses of 1e-4 kPa.
+CSV_DECIMALS = {"plan": 6, "length": 6}
+CSV_SIGNIFICANT = 6
+
+
+def column_suffix(label: str) -> str:
+    """A unit label as a column-name suffix: no ``/`` (spreadsheets and GIS field names).
+
+    >>> column_suffix("kN/m3"), column_suffix("psf")
+    ('kN_per_m3', 'psf')
+    """
+    return label.replace("/", "_per_")
+
+
+def _csv_rounded(values: np.ndarray, quantity: str | None) -> np.ndarray:
+    if quantity in CSV_DECIMALS:
+        return np.round(values, CSV_DECIMALS[quantity])
+    with np.errstate(divide="ignore", invalid="ignore"):
+        scale = 10.0 ** (CSV_SIGNIFICANT - 1 - np.floor(np.log10(np.abs(values))))
+    scale = np.where(np.isfinite(scale), scale, 1.0)
+    return np.round(values * scale) / scale
+
+
 def _unit(units: UnitSystem, quantity: str, crs=None) -> tuple[str, float]:
     """(label, SI value of one output unit)."""
     if quantity == "plan":
@@ -122,14 +150,15 @@ def to_output_units(values, units: UnitSystem, quantity: str | None, crs=None):
 
 def labelled_table(table: pd.DataFrame, units: UnitSystem,
                    quantities: Mapping[str, str | None] | None = None, *,
-                   crs=None) -> pd.DataFrame:
+                   crs=None, rounded: bool = False) -> pd.DataFrame:
     """A copy of `table` in output units with unit-suffixed quantity columns.
 
     Numeric columns must have a quantity, from :data:`DEFAULT_QUANTITIES` or `quantities`
     (``None`` marks a dimensionless column); text and boolean columns pass through. Plan
     coordinates (``x``, ``y``) go to the unit of `crs` (see :func:`plan_unit`). NaN stays
     NaN (e.g. ``chainage`` of non-pipe points; the CSV writes it empty); infinities are
-    refused.
+    refused. With `rounded`, values keep what :data:`CSV_DECIMALS` and
+    :data:`CSV_SIGNIFICANT` say.
 
     Examples
     --------
@@ -158,10 +187,12 @@ def labelled_table(table: pd.DataFrame, units: UnitSystem,
         if np.any(np.isinf(values)):
             raise InputError(f"column {name!r} holds infinite values", argument="table")
         if q is None:
-            out[name] = values
+            out[name] = _csv_rounded(values, None) if rounded else values
             continue
         suffix, si_per_unit = _unit(units, q, crs)
-        out[f"{name}_{suffix}"] = values / si_per_unit
+        values = values / si_per_unit
+        out[f"{name}_{column_suffix(suffix)}"] = (_csv_rounded(values, q) if rounded
+                                                  else values)
     return pd.DataFrame(out, index=table.index)
 
 
@@ -170,17 +201,23 @@ def write_table_csv(path, table: pd.DataFrame, units: UnitSystem,
                     crs=None) -> os.PathLike:
     """Write `table` to CSV in output units (atomic); `crs` sets the unit of x and y.
 
+    UTF-8 with a byte-order mark, so a spreadsheet on Windows reads names with accents and
+    dashes right; numbers rounded per quantity (:data:`CSV_DECIMALS`, 6 significant digits
+    otherwise).
+
     Examples
     --------
     >>> import tempfile, os, pandas as pd
     >>> from fillstress.units import SI
     >>> f = os.path.join(tempfile.mkdtemp(), "t.csv")
-    >>> _ = write_table_csv(f, pd.DataFrame({"receptor_id": ["P1"], "chainage": [2.5]}), SI)
-    >>> open(f).read().splitlines()
-    ['receptor_id,chainage_m', 'P1,2.5']
+    >>> t = pd.DataFrame({"receptor_id": ["P1"], "chainage": [2.5], "dsz": [125.00000000000001]})
+    >>> _ = write_table_csv(f, t, SI)
+    >>> open(f, encoding="utf-8-sig").read().splitlines()
+    ['receptor_id,chainage_m,dsz_kPa', 'P1,2.5,125.0']
     """
-    labelled = neutralised(labelled_table(table, units, quantities, crs=crs))
-    return write_atomic(path, lambda tmp: labelled.to_csv(tmp, index=False))
+    labelled = neutralised(labelled_table(table, units, quantities, crs=crs, rounded=True))
+    return write_atomic(path, lambda tmp: labelled.to_csv(tmp, index=False,
+                                                          encoding="utf-8-sig"))
 
 
 #: A spreadsheet runs a cell beginning with one of these as a formula (OWASP, "CSV
@@ -247,6 +284,17 @@ def write_geojson(path, frame, units: UnitSystem, *, crs=None,
     >>> list(gpd.read_file(f).columns)
     ['receptor_id', 'foundation_depth_m', 'geometry']
     """
+    out = output_frame(frame, units, crs=crs, quantities=quantities)
+    # the layer is named after the final file, not the temporary one (same bytes every run)
+    layer = Path(os.fspath(path)).name.removesuffix(".geojson")
+    return write_atomic(path, lambda tmp: out.to_file(tmp, driver="GeoJSON", layer=layer))
+
+
+def output_frame(frame, units: UnitSystem, *, crs=None,
+                 quantities: Mapping[str, str | None] | None = None):
+    """A GeoDataFrame in internal metres as written: geometry in the site CRS's unit,
+    attributes in output units with unit-suffixed names, text columns that hold no value
+    at all dropped (a GIS would type them as empty strings)."""
     import geopandas as gpd
 
     if not isinstance(frame, gpd.GeoDataFrame):
@@ -254,12 +302,59 @@ def write_geojson(path, frame, units: UnitSystem, *, crs=None,
     site = _pyproj_crs(crs) if crs is not None else frame.crs
     factor = plan_unit(site, units)[1] if site is not None else 1.0
     geometry = shapely.transform(frame.geometry.to_numpy(), lambda xy: xy / factor)
-    attrs = labelled_table(pd.DataFrame(frame.drop(columns=frame.geometry.name)), units,
-                           quantities, crs=site)
-    out = gpd.GeoDataFrame(attrs, geometry=geometry, crs=site)
-    # the layer is named after the final file, not the temporary one (same bytes every run)
-    layer = Path(os.fspath(path)).name.removesuffix(".geojson")
-    return write_atomic(path, lambda tmp: out.to_file(tmp, driver="GeoJSON", layer=layer))
+    attrs = pd.DataFrame(frame.drop(columns=frame.geometry.name))
+    empty = [c for c in attrs.columns if attrs[c].dtype == object and
+             attrs[c].map(lambda v: v is None or v == "" or v != v).all()]
+    attrs = labelled_table(attrs.drop(columns=empty), units, quantities, crs=site)
+    return gpd.GeoDataFrame(attrs, geometry=geometry, crs=site)
+
+
+def write_geopackage(path, layers: Mapping, units: UnitSystem, *, crs=None,
+                     quantities: Mapping[str, Mapping] | None = None) -> os.PathLike:
+    """Write every vector layer of a run to one GeoPackage in the site CRS (atomic).
+
+    Parameters
+    ----------
+    path : str or path-like
+        Output ``.gpkg``.
+    layers : mapping of str to geopandas.GeoDataFrame
+        Layer name → features in internal metres (as :func:`write_geojson` takes them).
+    units : UnitSystem
+        Output unit system of the attributes.
+    crs : optional
+        The site CRS.
+    quantities : mapping of layer name to a quantities mapping, optional
+        Quantities of the numeric columns beyond :data:`DEFAULT_QUANTITIES`.
+
+    Returns
+    -------
+    path-like
+        `path`; the file's timestamps are fixed so the same run writes the same bytes.
+
+    Examples
+    --------
+    >>> import tempfile, os, geopandas as gpd
+    >>> from shapely.geometry import Point, box
+    >>> from fillstress.units import SI
+    >>> f = os.path.join(tempfile.mkdtemp(), "layers.gpkg")
+    >>> pads = gpd.GeoDataFrame({"receptor_id": ["B1"]}, geometry=[box(0, 0, 8, 5)])
+    >>> holes = gpd.GeoDataFrame({"receptor_id": ["H1"], "depth": [2.0]}, geometry=[Point(1, 1)])
+    >>> _ = write_geopackage(f, {"buildings": pads, "boreholes": holes}, SI, crs="EPSG:32633")
+    >>> gpd.list_layers(f)["name"].tolist(), gpd.read_file(f, layer="boreholes").crs.to_epsg()
+    (['buildings', 'boreholes'], 32633)
+    """
+    frames = {name: output_frame(frame, units, crs=crs, quantities=(quantities or {}).get(name))
+              for name, frame in layers.items()}
+    if not frames:
+        raise InputError("needs at least one layer", argument="layers")
+
+    def write(tmp):
+        # GDAL stamps GeoPackage tables with the clock unless OGR_CURRENT_DATE is set
+        with temporary_environ("OGR_CURRENT_DATE", "2000-01-01T00:00:00.000Z"):
+            for name, frame in frames.items():
+                frame.to_file(tmp, layer=name, driver="GPKG")
+
+    return write_atomic(path, write)
 
 
 def write_points_geojson(path, points: pd.DataFrame, units: UnitSystem, *, crs=None,

@@ -1,10 +1,12 @@
-"""VTK files for a 3-D view: fill surface, stress grids, buildings, pipes and boreholes.
+"""VTK files for a 3-D view: fill surface, stress grids, buildings, pipes and boreholes,
+and a bundle that opens them together.
 
-All coordinates are in the output length unit. Below-ground objects use ``z = -depth``
-(the existing ground is ``z = 0``); the fill surface is at ``ground + thickness`` with the
-ground elevation taken as 0 when none is given, so the two frames coincide only then.
-Array names are bare (``dsz``, ``thickness``, ``depth``); the field array ``units`` says
-which unit each quantity is in. pyvista is imported only when a writer runs.
+All coordinates are in the output length unit, in one vertical frame: ``z`` is height
+above the existing ground (``z = 0``), so below-ground objects sit at ``z = -depth`` and
+the fill surface at ``z = thickness``; they overlay in any viewer. The ground elevation,
+when the site has one, is point data of the fill surface. Array names carry their unit
+(``dsz_kPa``, ``thickness_m``, ``depth_ft``, ``settlement_mm``; no ``/``), and the field
+array ``units`` lists the units too. pyvista is imported only when a writer runs.
 """
 from __future__ import annotations
 
@@ -20,15 +22,14 @@ from ..grid import GridSpec
 from ..units import SI, UnitSystem
 from .atomic import write_atomic
 from .netcdf import SLICE_DIMS
-from .tables import to_output_units, unit_label
+from .tables import column_suffix, to_output_units, unit_label
 
 # pyvista (VTK) is imported inside the functions that use it: it is slow to load and
 # most commands never need it.
 
 
 def _units_note(units: UnitSystem) -> np.ndarray:
-    return np.array([f"length={unit_label(units, 'length')}",
-                     f"pressure={unit_label(units, 'pressure')}"])
+    return np.array([f"{q}={unit_label(units, q)}" for q in ("length", "pressure", "settlement")])
 
 
 def _save(path, mesh) -> os.PathLike:
@@ -39,9 +40,23 @@ def _length(values, units):
     return to_output_units(np.asarray(values, dtype=float), units, "length")
 
 
+def array_name(base: str, units: UnitSystem, quantity: str | None) -> str:
+    """Name of a VTK array with its unit, as the CSV columns are named.
+
+    >>> from fillstress.units import US
+    >>> array_name("dsz", US, "pressure"), array_name("stress_ratio", US, None)
+    ('dsz_psf', 'stress_ratio')
+    """
+    if quantity is None:
+        return base
+    return f"{base}_{column_suffix(unit_label(units, quantity))}"
+
+
 # --- fill surface ----------------------------------------------------------------------
 def fill_surface_mesh(thickness, grid: GridSpec, *, ground=None, units: UnitSystem = SI):
-    """Top of fill as a quad surface through the cell centres (point data ``thickness``).
+    """Top of fill as a quad surface through the cell centres at ``z = thickness`` above
+    the existing ground (point data ``thickness_<len>``, and ``ground_elevation_<len>``
+    when `ground` is given).
 
     Point ``j * nx + i`` is cell ``[j, i]`` (row 0 south); quads face upward.
 
@@ -49,8 +64,10 @@ def fill_surface_mesh(thickness, grid: GridSpec, *, ground=None, units: UnitSyst
     --------
     >>> g = GridSpec(0.0, 0.0, 2.0, 2.0, nx=3, ny=2)
     >>> m = fill_surface_mesh([[0, 1, 2], [0, 1, 3]], g, ground=10.0)
-    >>> m.n_points, m.n_cells, m.points[5].tolist(), float(m.point_data["thickness"][5])
-    (6, 2, [5.0, 3.0, 13.0], 3.0)
+    >>> m.n_points, m.n_cells, m.points[5].tolist(), float(m.point_data["thickness_m"][5])
+    (6, 2, [5.0, 3.0, 3.0], 3.0)
+    >>> float(m.point_data["ground_elevation_m"][5])
+    10.0
     """
     import pyvista as pv
 
@@ -67,13 +84,16 @@ def fill_surface_mesh(thickness, grid: GridSpec, *, ground=None, units: UnitSyst
     if not np.all(np.isfinite(z0)):
         raise InputError("ground elevation must be finite everywhere", argument="ground")
     x, y = np.meshgrid(grid.x_centres, grid.y_centres)
-    xyz = np.column_stack([x.ravel(), y.ravel(), (z0 + t).ravel()])
+    xyz = np.column_stack([x.ravel(), y.ravel(), t.ravel()])
     ny, nx = t.shape
     corner = (np.arange(ny - 1)[:, None] * nx + np.arange(nx - 1)[None, :]).ravel()
     quads = np.column_stack([np.full(corner.size, 4), corner, corner + 1, corner + 1 + nx,
                              corner + nx])  # counter-clockwise seen from above
     surface = pv.PolyData(_length(xyz, units), faces=quads.ravel() if corner.size else None)
-    surface.point_data["thickness"] = _length(t, units).ravel()
+    surface.point_data[array_name("thickness", units, "length")] = _length(t, units).ravel()
+    if ground is not None:
+        surface.point_data[array_name("ground_elevation", units, "length")] = \
+            _length(z0, units).ravel()
     surface.field_data["units"] = _units_note(units)
     return surface
 
@@ -94,7 +114,7 @@ def stress_grid_mesh(dsz, units: UnitSystem = SI):
     >>> da = xr.DataArray(np.arange(8.0).reshape(2, 2, 2), dims=SLICE_DIMS,
     ...                   coords={"depth": [1.0, 4.0], "y": [0.0, 1.0], "x": [0.0, 2.0]})
     >>> m = stress_grid_mesh(da)
-    >>> m.z.tolist(), float(m.point_data["dsz"][m.find_closest_point((2, 1, -1))])
+    >>> m.z.tolist(), float(m.point_data["dsz_kPa"][m.find_closest_point((2, 1, -1))])
     ([-4.0, -1.0], 3.0)
     """
     import pyvista as pv
@@ -106,7 +126,8 @@ def stress_grid_mesh(dsz, units: UnitSystem = SI):
     values = np.asarray(dsz.values, dtype=float)[order]
     mesh = pv.RectilinearGrid(_length(dsz["x"].values, units), _length(dsz["y"].values, units),
                               _length(-depth[order], units))
-    mesh.point_data["dsz"] = to_output_units(values, units, "pressure").ravel()
+    mesh.point_data[array_name("dsz", units, "pressure")] = to_output_units(
+        values, units, "pressure").ravel()
     mesh.field_data["units"] = _units_note(units)
     # unnamed coordinate arrays are written under their memory address: name them
     for axis, coords in zip("xyz", (mesh.GetXCoordinates(), mesh.GetYCoordinates(),
@@ -151,7 +172,8 @@ def buildings_mesh(buildings, units: UnitSystem = SI):
 
     `buildings` is a GeoDataFrame with ``receptor_id``, ``foundation_depth`` (m) and Polygon
     geometry. A zero foundation depth gives a thin slab 1 mm deep so it stays visible.
-    Cell data: ``receptor_id``, ``foundation_depth``.
+    Cell data: ``receptor_id``, ``foundation_depth_<len>`` and any result columns of
+    `buildings` named in :data:`RESULT_ARRAYS` (``dsz_max``, ``settlement_max``, ...).
 
     Examples
     --------
@@ -165,7 +187,7 @@ def buildings_mesh(buildings, units: UnitSystem = SI):
     import pyvista as pv
 
     _require_columns(buildings, ["receptor_id", "foundation_depth"], "buildings")
-    all_points, all_faces, ids, depths, offset = [], [], [], [], 0
+    all_points, all_faces, ids, depths, offset, cells_of = [], [], [], [], 0, []
     for rid, depth, poly in zip(buildings["receptor_id"], buildings["foundation_depth"],
                                 buildings.geometry):
         if not isinstance(poly, Polygon) or not poly.is_valid or poly.area <= 0:
@@ -182,16 +204,29 @@ def buildings_mesh(buildings, units: UnitSystem = SI):
         offset += len(pts)
         ids += [str(rid)] * n_cells
         depths += [d] * n_cells
+        cells_of.append(n_cells)
     if not all_points:
         raise InputError("has no buildings", argument="buildings")
     pts = np.vstack(all_points)
     mesh = pv.PolyData(np.column_stack([_length(pts[:, 0], units), _length(pts[:, 1], units),
                                         _length(pts[:, 2], units)]), faces=all_faces)
     mesh.cell_data["receptor_id"] = _ascii_ids(ids)
-    mesh.cell_data["foundation_depth"] = _length(depths, units)
+    mesh.cell_data[array_name("foundation_depth", units, "length")] = _length(depths, units)
+    for col, quantity in RESULT_ARRAYS.items():
+        if col in buildings:
+            per_cell = np.repeat(buildings[col].to_numpy(float), cells_of)
+            mesh.cell_data[array_name(col, units, quantity)] = (
+                per_cell if quantity is None else to_output_units(per_cell, units, quantity))
     mesh = mesh.clean()  # merge the duplicated corner points of neighbouring faces
     mesh.field_data["units"] = _units_note(units)
     return mesh
+
+
+# Result columns written as VTK arrays when a table has them (quantity for the unit).
+RESULT_ARRAYS = {"dsz": "pressure", "dsz_max": "pressure", "sigma_v0": "pressure",
+                 "stress_ratio": None, "settlement": "settlement",
+                 "settlement_max": "settlement", "differential_settlement": "settlement",
+                 "angular_distortion": None}
 
 
 def _count_cells(faces) -> int:
@@ -235,8 +270,9 @@ def _require_columns(table, columns, name):
 
 def polylines_mesh(points: pd.DataFrame, order_by: str, units: UnitSystem = SI):
     """One polyline per receptor through its sample points, ordered by `order_by`, at
-    ``z = -depth``. Point data: ``depth``, ``chainage`` (when present) and ``dsz`` (when
-    present); cell data ``receptor_id``.
+    ``z = -depth``. Point data: ``depth_<len>``, ``chainage_<len>`` (when present) and the
+    result columns of :data:`RESULT_ARRAYS` present (``dsz_<p>``, ``settlement_<s>``, ...);
+    cell data ``receptor_id``.
 
     Examples
     --------
@@ -262,12 +298,15 @@ def polylines_mesh(points: pd.DataFrame, order_by: str, units: UnitSystem = SI):
     xyz = np.column_stack([_length(ordered["x"], units), _length(ordered["y"], units),
                            _length(-ordered["depth"].to_numpy(float), units)])
     mesh = pv.PolyData(xyz, lines=lines)
-    mesh.point_data["depth"] = _length(ordered["depth"], units)
+    mesh.point_data[array_name("depth", units, "length")] = _length(ordered["depth"], units)
     if "chainage" in ordered and ordered["chainage"].notna().all():
-        mesh.point_data["chainage"] = _length(ordered["chainage"], units)
-    if "dsz" in ordered:
-        mesh.point_data["dsz"] = to_output_units(ordered["dsz"].to_numpy(float), units,
-                                                 "pressure")
+        mesh.point_data[array_name("chainage", units, "length")] = _length(
+            ordered["chainage"], units)
+    for col, quantity in RESULT_ARRAYS.items():
+        if col in ordered:
+            values = ordered[col].to_numpy(float)
+            mesh.point_data[array_name(col, units, quantity)] = (
+                values if quantity is None else to_output_units(values, units, quantity))
     mesh.cell_data["receptor_id"] = _ascii_ids(ids)
     mesh.field_data["units"] = _units_note(units)
     return mesh
@@ -282,3 +321,47 @@ def write_boreholes(path, borehole_points: pd.DataFrame,
                     units: UnitSystem = SI) -> os.PathLike:
     """Boreholes as vertical polylines, from :func:`fillstress.site.receptors.borehole_points`."""
     return _save(path, polylines_mesh(borehole_points, "depth", units))
+
+
+# --- the bundle --------------------------------------------------------------------------
+def write_bundle(path, blocks, *, stages=None) -> os.PathLike:
+    """A ParaView multiblock file (``.vtm``) naming VTK files beside it, or with `stages`
+    a collection (``.pvd``) whose time steps are the stages, each a ``.vtm`` file.
+
+    Parameters
+    ----------
+    path : str or path-like
+        ``.vtm`` (blocks: name → file relative to it) or ``.pvd`` (blocks: stage → ``.vtm``
+        file name; `stages` the stage numbers, used as the time values).
+    blocks : mapping
+        As above.
+    stages : sequence of int, optional
+        Makes a ``.pvd``.
+
+    Returns
+    -------
+    path-like
+        `path`.
+
+    Examples
+    --------
+    >>> import tempfile, os, pyvista as pv
+    >>> d = tempfile.mkdtemp()
+    >>> pv.Sphere().save(os.path.join(d, "a.vtp"))
+    >>> f = write_bundle(os.path.join(d, "run.vtm"), {"sphere": "a.vtp"})
+    >>> pv.read(f).keys()
+    ['sphere']
+    """
+    from xml.sax.saxutils import quoteattr
+    if stages is None:
+        rows = [f'    <DataSet index="{k}" name={quoteattr(name)} file={quoteattr(rel)}/>'
+                for k, (name, rel) in enumerate(blocks.items())]
+        kind, inner = "vtkMultiBlockDataSet", "vtkMultiBlockDataSet"
+    else:
+        rows = [f'    <DataSet timestep="{int(k)}" part="0" file={quoteattr(blocks[k])}/>'
+                for k in stages]
+        kind, inner = "Collection", "Collection"
+    text = "\n".join(['<?xml version="1.0"?>',
+                      f'<VTKFile type="{kind}" version="1.0" byte_order="LittleEndian">',
+                      f"  <{inner}>", *rows, f"  </{inner}>", "</VTKFile>", ""])
+    return write_atomic(path, lambda tmp: open(tmp, "w", encoding="utf-8").write(text))

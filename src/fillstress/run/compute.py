@@ -12,6 +12,7 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
+import xarray as xr
 
 from .._version import __version__
 from ..errors import FillstressWarning, InputError
@@ -50,6 +51,7 @@ class RunResults:
     points: pd.DataFrame                  # every receptor point with its results (SI)
     slices: dict = field(default_factory=dict)       # plan-grid name → DataArray (kPa)
     plan_settlement: dict = field(default_factory=dict)  # plan-grid name → (y, x) DataArray (m)
+    stage_slices: dict = field(default_factory=dict)  # the same with a leading stage axis
     buildings: list = field(default_factory=list)    # structures.BuildingSettlement
     pipes: list = field(default_factory=list)        # structures.PipeSettlement
     profiles: list = field(default_factory=list)     # dicts: receptor_id, influence depth
@@ -109,8 +111,11 @@ def compute(site: Site, progress=silent, client=None) -> RunResults:
         pts["dsz"] = stress(site, grid, pts[["x", "y", "depth"]].to_numpy(float), client)
         bar.advance()
         res = RunResults(site, grid, pts, warnings=list(site.warnings))
+        earlier = [site.load_grid(k) for k in site.stages[:-1]]
         for plan in site.plan_grids:
-            res.slices[plan.name] = _plan_slices(site, grid, plan, client)
+            stack = [_plan_slices(site, g, plan, client) for g in (*earlier, grid)]
+            res.slices[plan.name] = stack[-1]
+            res.stage_slices[plan.name] = _stage_stack(stack, site.stages)
             bar.advance()
         if site.soil is not None:
             settle.soil_results(res)
@@ -134,6 +139,13 @@ def compute(site: Site, progress=silent, client=None) -> RunResults:
 
 def _conv_steps(site: Site) -> int:
     return int(site.settings.convergence_check and len(site.points) > 0)
+
+
+def _stage_stack(stack: list, stages: list):
+    """Slices of each stage along a leading ``stage`` axis (a view for one stage)."""
+    if len(stack) == 1:
+        return stack[0].expand_dims(stage=stages)
+    return xr.concat(stack, dim="stage").assign_coords(stage=stages)
 
 
 def _plan_slices(site: Site, grid, plan, client=None):

@@ -160,7 +160,7 @@ def write_all(res, folder, *, report=True, progress=silent, assumptions="", caut
         bar.advance()
         _write_rasters(res, folder)
         bar.advance()
-        _write_cube(res, folder)
+        _write_cube(res, folder, version)
         bar.advance()
         _write_vtk(res, folder)
         bar.advance()
@@ -184,6 +184,7 @@ def _write_tables(res, folder) -> None:
     site, u = res.site, res.site.units
     bodies = bodies_table(site)
     tables.write_table_csv(folder.path("bodies.csv"), bodies, u, column_quantities(bodies))
+    layers = {}
     for kind, name in KIND_FILES.items():
         pts = res.points[res.points["receptor_kind"] == kind]
         if pts.empty:
@@ -195,7 +196,15 @@ def _write_tables(res, folder) -> None:
         summary = kind_summary(res, kind)
         tables.write_table_csv(folder.path(f"{name}_summary.csv"), summary, u,
                                column_quantities(summary), crs=site.crs)
-        _write_geometry(res, folder, kind, name)
+        shapes = _write_geometry(res, folder, kind, name)
+        layers[name] = shapes.merge(summary.drop(columns=["x", "y"], errors="ignore"),
+                                    on="receptor_id", how="left")
+        layers[f"{name}_points"] = gpd.GeoDataFrame(
+            pts.reset_index(drop=True), geometry=gpd.points_from_xy(pts["x"], pts["y"]))
+    if layers and _output(site, "geopackage"):
+        tables.write_geopackage(folder.path("layers.gpkg"), layers, u, crs=site.crs,
+                                quantities={k: column_quantities(v.drop(columns="geometry"))
+                                            for k, v in layers.items()})
     write_corridor_tables(res, folder)
     if res.time_curves:
         rows = [{"receptor_id": rid, "days": d, "settlement": s}
@@ -255,6 +264,7 @@ def _write_geometry(res, folder, kind, name) -> None:
                  for r in items]
     frame = gpd.GeoDataFrame(attrs, geometry=[r.geometry for r in items])
     tables.write_geojson(folder.path(f"{name}.geojson"), frame, site.units, crs=site.crs)
+    return frame
 
 
 def _write_rasters(res, folder) -> None:
@@ -290,13 +300,21 @@ def _slice_spec(site, da) -> GridSpec:
     return GridSpec(x[0] - dx / 2, y[0] - dy / 2, dx, dy, len(x), len(y), site.crs)
 
 
-def _write_cube(res, folder) -> None:
+def _write_cube(res, folder, version="") -> None:
     site = res.site
     if not res.slices or not _output(site, "netcdf"):
         return
-    netcdf.write_stress_cube(folder.path("stress_cube.nc"), res.slices, grid=site.spec,
-                             fill_thickness=site.fill_thickness(), units=site.units,
-                             crs=site.crs, sigma_v0=_slice_sigma_v0(site, res.slices),
+    made_by = f"fillstress {version}".strip()
+    attrs = {"title": f"Vertical stress increase below the fill of {site.name}",
+             "source": f"{made_by}, method {site.method}",
+             "history": f"{made_by}: fillstress run {site.path.name}"}
+    slices, stages = ((res.stage_slices, site.stages) if res.stage_slices
+                      else (res.slices, site.stages[-1:]))
+    netcdf.write_stress_cube(folder.path("stress_cube.nc"), slices, grid=site.spec,
+                             stages=stages,
+                             fill_thickness=[site.fill_thickness(k) for k in stages],
+                             units=site.units, crs=site.crs, attrs=attrs,
+                             sigma_v0=_slice_sigma_v0(site, res.slices),
                              settlement=res.plan_settlement)
 
 
@@ -314,6 +332,9 @@ def _slice_sigma_v0(site, slices) -> dict | None:
 
 
 def _write_vtk(res, folder) -> None:
+    """The VTK files, ``vtk/run.vtm`` opening all of them, and with several stages
+    ``vtk/run.pvd``: one time step per stage (earlier stages' fill and slices under
+    ``vtk/stage<k>/``; the receptors and their final results are shared)."""
     site, u = res.site, res.site.units
     if not _output(site, "vtk"):
         return
@@ -321,22 +342,52 @@ def _write_vtk(res, folder) -> None:
     s = site.spec
     scaled = GridSpec(s.x0 * k, s.y0 * k, s.dx * k, s.dy * k, s.nx, s.ny, site.crs)
     ground = site.ground_elevation_grid(filled=True)
-    vtk.write_fill_surface(folder.path("vtk/fill_surface.vtp"), site.fill_thickness(), scaled,
-                           ground=ground, units=u)
-    for name, da in res.slices.items():
-        vtk.write_stress_grid(folder.path(f"vtk/stress_{name}.vtr"), _vtk_slice(site, da), u)
+    receptors = _write_vtk_receptors(res, folder, k)
+
+    def loads(stage, prefix):
+        """Fill surface and stress grids of `stage` → their files (relative to vtk/)."""
+        files = {"fill_surface": f"{prefix}fill_surface.vtp"}
+        vtk.write_fill_surface(folder.path(f"vtk/{files['fill_surface']}"),
+                               site.fill_thickness(stage), scaled, ground=ground, units=u)
+        for name in res.slices:
+            da = (res.stage_slices[name].sel(stage=stage) if res.stage_slices
+                  else res.slices[name])
+            files[f"stress_{name}"] = f"{prefix}stress_{name}.vtr"
+            vtk.write_stress_grid(folder.path(f"vtk/{files[f'stress_{name}']}"),
+                                  _vtk_slice(site, da), u)
+        return {**files, **receptors}
+
+    final = site.stages[-1]
+    vtk.write_bundle(folder.path("vtk/run.vtm"), loads(final, ""))
+    if len(site.stages) > 1 and res.stage_slices:
+        steps = {final: "run.vtm"}
+        for stage in site.stages[:-1]:
+            steps[stage] = f"run_stage{stage}.vtm"     # beside run.vtm: same relative names
+            vtk.write_bundle(folder.path(f"vtk/{steps[stage]}"), loads(stage, f"stage{stage}/"))
+        vtk.write_bundle(folder.path("vtk/run.pvd"), steps, stages=site.stages)
+
+
+def _write_vtk_receptors(res, folder, k) -> dict:
+    """Buildings (with their results), pipes and boreholes → files relative to vtk/."""
+    site, u = res.site, res.site.units
     pts = _vtk_points(site, res.points)
+    files = {}
     b = site.receptors.buildings
     if b:
         frame = gpd.GeoDataFrame({"receptor_id": [r.id for r in b],
                                   "foundation_depth": [r.depth for r in b]},
                                  geometry=[_scale_geom(r.geometry, k) for r in b])
+        results = kind_summary(res, "building")
+        keep = ["receptor_id", *(c for c in vtk.RESULT_ARRAYS if c in results)]
+        frame = frame.merge(results[keep], on="receptor_id", how="left")
         vtk.write_buildings(folder.path("vtk/buildings.vtp"), frame, u)
-    if (pts["receptor_kind"] == "pipe").any():
-        vtk.write_pipes(folder.path("vtk/pipes.vtp"), pts[pts["receptor_kind"] == "pipe"], u)
-    if (pts["receptor_kind"] == "borehole").any():
-        vtk.write_boreholes(folder.path("vtk/boreholes.vtp"),
-                            pts[pts["receptor_kind"] == "borehole"], u)
+        files["buildings"] = "buildings.vtp"
+    for kind, writer in (("pipe", vtk.write_pipes), ("borehole", vtk.write_boreholes)):
+        if (pts["receptor_kind"] == kind).any():
+            name = KIND_FILES[kind]
+            writer(folder.path(f"vtk/{name}.vtp"), pts[pts["receptor_kind"] == kind], u)
+            files[name] = f"{name}.vtp"
+    return files
 
 
 def _scale_geom(geom, k):

@@ -1,7 +1,7 @@
 """Δσz at points of a site given on the command line (`fillstress point`)."""
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -18,6 +18,7 @@ class PointStresses:
     xyz: np.ndarray          # (N, 3) as given: plan in site-CRS units, depth in site units
     dsz: np.ndarray          # kPa
     stage: int
+    warnings: list = field(default_factory=list)   # points far outside the site, ...
 
 
 def point_stresses(path, xyz, stage=None) -> PointStresses:
@@ -37,4 +38,28 @@ def point_stresses(path, xyz, stage=None) -> PointStresses:
     if np.any(pts[:, 2] < 0):
         raise InputError("depth must be >= 0 below the existing ground", argument="xyz")
     grid = site.load_grid(stage)
-    return PointStresses(site, arr, stress(site, grid, pts), stage or site.stages[-1])
+    return PointStresses(site, arr, stress(site, grid, pts), stage or site.stages[-1],
+                         _far_points(site, grid, arr, pts))
+
+
+def _far_points(site: Site, grid, given: np.ndarray, pts: np.ndarray) -> list[str]:
+    """One line per point outside the site's analysis grid (a coordinate typo, or the
+    wrong CRS), with its distance from the loaded area, instead of a bare 0.00."""
+    xmin, ymin, xmax, ymax = site.spec.extent
+    loaded = np.argwhere(grid.pressure != 0)
+    if loaded.size:
+        (j0, i0), (j1, i1) = loaded.min(axis=0), loaded.max(axis=0) + 1
+        box = (site.spec.x0 + i0 * site.spec.dx, site.spec.y0 + j0 * site.spec.dy,
+               site.spec.x0 + i1 * site.spec.dx, site.spec.y0 + j1 * site.spec.dy)
+    else:
+        box = site.spec.extent
+    out = []
+    for k, (x, y) in enumerate(pts[:, :2]):
+        if xmin <= x <= xmax and ymin <= y <= ymax:
+            continue
+        gap = np.hypot(max(box[0] - x, 0.0, x - box[2]), max(box[1] - y, 0.0, y - box[3]))
+        d = gap / site.metres_per_unit
+        out.append(f"point {k + 1} ({given[k, 0]:.2f}, {given[k, 1]:.2f}) lies outside the "
+                   f"site's grid, {d:,.0f} {site.units.length} from the loaded area: check "
+                   f"its coordinates and the site CRS")
+    return out

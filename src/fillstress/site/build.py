@@ -75,6 +75,7 @@ class RunSettings:
     distortion_limits: dict = field(default_factory=dict)  # structures.py name → limit given
     geotiff: bool = True
     netcdf: bool = True
+    geopackage: bool = True
     vtk: bool = True
     report: bool = True
     scene: bool = True
@@ -305,8 +306,8 @@ def _settings(cfg: SiteConfig) -> RunSettings:
         distortion_limits={name: settle[key] for key, name in LIMIT_KEYS.items()
                            if settle.get(key) is not None},
         **{k: monitoring.get(k) for k in ("readings", "construction", "day0")},
-        **{k: outputs.get(k, True) is not False for k in ("geotiff", "netcdf", "vtk", "report",
-                                                             "scene")})
+        **{k: outputs.get(k, True) is not False for k in ("geotiff", "netcdf", "geopackage",
+                                                             "vtk", "report", "scene")})
 
 
 def _profile_depths(cfg: SiteConfig, receptors: Receptors) -> list[float]:
@@ -529,7 +530,7 @@ def _analysis_grid(ctx: _Context, outlines: dict, receptors: Receptors) -> GridS
                              area_m2=width * height, unit_m=u.length_to_m, unit=u.length)
         cell, ctx.cell_rule = choice.cell_m, choice.rule
     with _located(ctx.cfg, "grid"):
-        return GridSpec.covering(bounds, cell, margin=margin,
+        return GridSpec.covering(bounds, cell, margin=margin, unit=ctx.factor,
                                  crs=crsmod.metric_twin(ctx.site_crs[0]) if ctx.site_crs else None)
 
 
@@ -752,8 +753,8 @@ def _plan_grids(ctx: _Context, spec: GridSpec) -> list:
     for i, g in enumerate(ctx.cfg.get("plan_grids") or []):
         extent = (np.array(g["extent"]) * ctx.factor).tolist() if g.get("extent") else None
         spacing = g.get("spacing") or spec.dx
-        step = spacing / spec.dx
-        if abs(step - round(step)) > 1e-6 or round(step) < 1:
+        step = spacing / spec.dx      # the cell may be snapped by ppm to CRS units
+        if abs(step - round(step)) > 1e-4 or round(step) < 1:
             raise InputError(f"must be a whole multiple of the cell size "
                              f"{ctx.cfg.units.length_out(spec.dx):g} {ctx.cfg.units.length}",
                              file=ctx.cfg.path, key=f"plan_grids[{i}].spacing")

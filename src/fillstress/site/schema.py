@@ -356,6 +356,8 @@ DRAINS = Table("drains", "Vertical drain zones, each a [[drains]] entry: a plan 
 OUTPUTS = Table("outputs", "Which files a run writes besides the point tables and manifest.", (
     Key("geotiff", "bool", "One GeoTIFF per depth slice and the fill rasters.", default=True),
     Key("netcdf", "bool", "The NetCDF cube of the plan grids.", default=True),
+    Key("geopackage", "bool", "layers.gpkg: every vector layer of the run in the site CRS.",
+        default=True),
     Key("vtk", "bool", "VTK files for 3D viewers.", default=True),
     Key("report", "bool", "The HTML engineering report.", default=True),
     Key("scene", "bool", "The standalone HTML 3D scene.", default=True),

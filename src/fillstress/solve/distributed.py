@@ -52,6 +52,7 @@ def connect(scheduler):
     ...
     fillstress.errors.InputError: argument scheduler: must be a scheduler address or a number of workers >= 1, got 0.5
     """
+    _require_dask("scheduler")
     from distributed import Client, LocalCluster
     if isinstance(scheduler, str) and scheduler.strip():
         address = scheduler.strip()
@@ -130,7 +131,19 @@ def _cluster_failures(what: str):
                            "stopped and nothing was written") from None
 
 
+def _require_dask(argument: str) -> None:
+    """InputError naming the extra when Dask is not installed (it is optional)."""
+    import importlib
+    for name in ("dask", "distributed"):
+        try:
+            importlib.import_module(name)
+        except ImportError:
+            raise InputError(f"needs the 'dask' extra (pip install 'fillstress[dask]'); "
+                             f"{name} is not installed", argument=argument) from None
+
+
 def _client(client):
+    _require_dask("client")
     from distributed import Client
     if not isinstance(client, Client):
         raise InputError(f"must be a distributed.Client, got {type(client).__name__}",

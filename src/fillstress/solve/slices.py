@@ -249,7 +249,7 @@ def slice_setup(grid, depths, method="boussinesq", poisson=None, *, offset=(0.0,
     cells = pad_cells(pad, grid.dx, grid.dy)
     x, y = slice_lattice(grid, cells, (ox, oy))
     return grid, {"depth": z, "y": y, "x": x, "spec": spec, "offset": (ox, oy),
-                  "pad_cells": cells}
+                  "pad_cells": cells, "crs": grid.crs}
 
 
 def slice_array(values: np.ndarray, frame) -> xr.DataArray:
@@ -267,8 +267,18 @@ def slice_array(values: np.ndarray, frame) -> xr.DataArray:
     attrs = {"units": "kPa", "long_name": "vertical stress increase (delta sigma z)",
              "method": spec.method,
              "poisson": spec.poisson if spec.poisson is not None else "not used"}
-    return xr.DataArray(values, dims=("depth", "y", "x"),
-                        coords={"depth": ("depth", frame["depth"], {"units": "m"}),
-                                "y": ("y", frame["y"], {"units": "m"}),
-                                "x": ("x", frame["x"], {"units": "m"})},
-                        name="dsz", attrs=attrs)
+    depth = {"units": "m", "standard_name": "depth", "long_name": "depth below the loaded "
+             "surface", "positive": "down", "axis": "Z"}
+    coords = {"depth": ("depth", frame["depth"], depth),
+              "y": ("y", frame["y"], _plan_attrs("y")), "x": ("x", frame["x"], _plan_attrs("x"))}
+    if frame.get("crs") is not None:        # CF grid mapping, as rioxarray reads it
+        from ..crs import cf_grid_mapping
+        coords["spatial_ref"] = ((), 0, cf_grid_mapping(frame["crs"]))
+        attrs["grid_mapping"] = "spatial_ref"
+    return xr.DataArray(values, dims=("depth", "y", "x"), coords=coords, name="dsz",
+                        attrs=attrs)
+
+
+def _plan_attrs(axis: str) -> dict:
+    return {"units": "m", "standard_name": f"projection_{axis}_coordinate",
+            "long_name": {"x": "easting", "y": "northing"}[axis], "axis": axis.upper()}

@@ -1,0 +1,99 @@
+"""The command line as scripts and impatient users meet it: --json answers on stdout,
+-q never hides the answer, --version/--help start without the numerical stack, and a
+point far outside the site says so."""
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from fillstress.cli import main
+
+SITE = """
+# Invented: one square stockpile pad, SI units, UTM zone 33N.
+[site]
+name = "Ostrava siding pad"
+crs = "EPSG:32633"
+units = "SI"
+
+[grid]
+cell = 2.0
+margin = 10.0
+convergence_check = false
+
+[bodies.pad]
+kind = "footprint"
+outline = [[500000.0, 5500000.0], [500020.0, 5500000.0], [500020.0, 5500020.0],
+           [500000.0, 5500020.0]]
+height = 2.0
+unit_weight = 20.0
+
+[[boreholes]]
+id = "K-1"
+x = 500010.0
+y = 5500010.0
+top = 1.0
+bottom = 5.0
+step = 2.0
+"""
+HEAVY = ("numba", "xarray", "scipy", "fillstress.solve")  # the numerical stack
+
+
+@pytest.fixture
+def site(tmp_path) -> Path:
+    path = tmp_path / "site.toml"
+    path.write_text(SITE, encoding="utf-8")
+    return path
+
+
+def test_version_and_help_do_not_import_the_numerical_stack():
+    src = str(Path(__file__).resolve().parents[1] / "src")
+    code = ("import sys; sys.path.insert(0, %r); from fillstress.cli import main\n"
+            "for argv in (['--version'], ['--help'], ['run', '--help']):\n"
+            "    try: main(argv)\n"
+            "    except SystemExit: pass\n"
+            "print(sorted(m for m in %r if m in sys.modules))" % (src, HEAVY))
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                         check=True).stdout
+    assert out.strip().splitlines()[-1] == "[]"
+
+
+def test_point_json_centre_of_a_uniform_square(site, capsys):
+    assert main(["point", str(site), "500010", "5500010", "5", "--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    assert data["units"] == {"x": "m", "y": "m", "depth": "m", "dsz": "kPa"}
+    (p,) = data["points"]
+    assert (p["x"], p["y"], p["depth"]) == (500010.0, 5500010.0, 5.0)
+    # Boussinesq, centre of a 20 m square at z = 5 m: 4 corner rectangles of m = n = 2,
+    # influence factor I = 0.2325 each (Newmark 1935, as tabulated in standard foundation
+    # texts; value recalled from memory), q = 2 m × 20 kN/m³.
+    assert p["dsz"] == pytest.approx(4 * 0.2325 * 40.0, rel=2e-3)
+    assert data["warnings"] == []
+
+
+def test_quiet_point_still_prints_the_answer(site, capsys):
+    assert main(["point", str(site), "500010", "5500010", "5", "-q"]) == 0
+    out = capsys.readouterr().out.split()
+    assert out[:3] == ["500010.00", "5500010.00", "5.00"] and float(out[3]) > 30
+
+
+def test_point_far_outside_the_site_says_so(site, capsys):
+    assert main(["point", str(site), "510010", "5500010", "5", "--json"]) == 0
+    printed = capsys.readouterr()
+    data = json.loads(printed.out)
+    (warning,) = data["warnings"]
+    assert "outside the site's grid" in warning and "9,990 m" in warning
+    assert "outside the site's grid" in printed.err
+
+
+def test_check_and_run_json(site, tmp_path, capsys):
+    assert main(["check", str(site), "--json"]) == 0
+    check = json.loads(capsys.readouterr().out)
+    assert check["valid"] and check["plan"]["site"] == "Ostrava siding pad"
+    out = tmp_path / "res"
+    assert main(["run", str(site), "-o", str(out), "--json", "--no-report"]) == 0
+    run = json.loads(capsys.readouterr().out)
+    assert run["folder"] == str(out)
+    assert run == {"folder": str(out),
+                   **json.loads((out / "summary.json").read_text(encoding="utf-8"))}
