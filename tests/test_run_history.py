@@ -203,7 +203,8 @@ def test_results_folder_and_report_carry_the_record(tmp_path):
     holes = pd.read_csv(out / "boreholes_summary.csv", comment="#").set_index("receptor_id")
     sums = sub.groupby("receptor_id")["settlement_mm"].sum()
     for rid in ("in-drains", "no-drains"):
-        assert sums[rid] == pytest.approx(holes.loc[rid, "settlement_max_mm"], rel=1e-9)
+        # the CSVs hold 6 significant digits: the sum of ~40 rounded rows agrees to ~1e-5
+        assert sums[rid] == pytest.approx(holes.loc[rid, "settlement_max_mm"], rel=2e-5)
     for name in ("load_states", "consolidation_times", "preload", "drain_design", "soil_profile",
                  "drains", "settlement_time"):
         assert (out / f"{name}.csv").is_file(), name
