@@ -65,9 +65,15 @@ def test_report_command_refuses_a_monitoring_folder(monitored, capsys):
 
 
 def test_forecast_days_are_consistent(monitored):
-    ins = monitored[0].results.instruments
-    assert (ins["degree_now"] > 0).all() and (ins["degree_now"] < 1).all()
-    assert (ins["day_target_degree"] > monitored[0].results.now_day).all()
+    res = monitored[0].results
+    ins = res.instruments
+    # the drained instruments have consolidated by now, the others are still going; after
+    # the surcharge came off, rebound still under way may leave s(now) a hair above final
+    assert (ins["degree_now"] > 0).all() and (ins["degree_now"] <= 1.001).all()
+    reached = ins["degree_now"] >= res.settings.target_degree
+    assert reached.any() and not reached.all()
+    assert (ins.loc[~reached, "day_target_degree"] > res.now_day).all()
+    assert (ins.loc[reached, "day_target_degree"] <= res.now_day).all()
     assert ins["day_residual_limit"].notna().all()
 
 

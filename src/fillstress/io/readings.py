@@ -64,11 +64,13 @@ class Readings:
 
 @dataclass(frozen=True)
 class Placement:
-    """`fraction` of the design load of stage `stage` placed on `day` (days after day 0)."""
+    """`fraction` of the design load of stage `stage` placed on `day` (days after day 0),
+    rising linearly over `duration_days` (0: at once)."""
 
     stage: int
     day: float
     fraction: float = 1.0
+    duration_days: float = 0.0
 
 
 class _Rows:

@@ -2,13 +2,17 @@
 
 The model is the project's own settlement prediction (settlement.py) at each instrument:
 the load of each placement (a design stage, or the part of it the construction record
-says was placed on a day) gives Δσz at the sublayers below the instrument; the final
-settlement by layer after each placement comes from `settlement_by_layer`, its increments
-consolidate by `settlement_time_curve` from the day of the placement.
+says was placed on a day) and each body's removal on its ``removal_day`` give Δσz at the
+sublayers below the instrument; the settlement after each of these load states follows the
+e–log σ' stress path (`stress_path`: a removed surcharge rebounds on Cr), summed by layer,
+and its increments consolidate by `settlement_time_curve` from the day of the placement,
+ramped over its build time, with radial drainage to vertical drains in the layers they
+reach (the run's own model, by layer instead of by sublayer).
 
 Two factors scale the consolidating layers (compressible, with a cv): ``f_c`` multiplies
 their compressibility (Cc of index layers, mv of mv layers, 1/M of modulus layers; Cr
-is not scaled) and ``f_cv`` their cv. Settlement is affine in ``f_c`` (the e–log σ' law is
+is not scaled) and ``f_cv`` their cv and the radial rate of drains in them (ch taken to
+scale with cv). Settlement is affine in ``f_c`` (the e–log σ' law is
 linear in Cc for a given stress path), so the model is evaluated once at ``f_c = 1`` and
 once at ``f_c = 2`` and interpolated exactly.
 """
@@ -18,6 +22,7 @@ import math
 from dataclasses import dataclass, replace
 
 import numpy as np
+import shapely
 from scipy import optimize, stats
 
 from .. import settlement as st
@@ -35,7 +40,8 @@ def consolidating(profile: SoilProfile) -> np.ndarray:
 
 
 def scaled_profile(profile: SoilProfile, f_c: float = 1.0, f_cv: float = 1.0) -> SoilProfile:
-    """`profile` with the consolidating layers' compressibility × `f_c` and cv × `f_cv`.
+    """`profile` with the consolidating layers' compressibility × `f_c` and cv (and ch,
+    when given) × `f_cv`.
 
     Examples
     --------
@@ -50,6 +56,8 @@ def scaled_profile(profile: SoilProfile, f_c: float = 1.0, f_cv: float = 1.0) ->
     for lay, scale in zip(profile.layers, consolidating(profile)):
         if scale:
             change = {"cv_m2_per_yr": lay.cv_m2_per_yr * f_cv}
+            if lay.ch_m2_per_yr is not None:                  # ch scales with cv
+                change["ch_m2_per_yr"] = lay.ch_m2_per_yr * f_cv
             if lay.kind == "index":
                 change["cc"] = lay.cc * f_c
                 change["cr"] = min(lay.cr, change["cc"])     # keeps cr <= cc for f_c < 1
@@ -74,20 +82,44 @@ def stage_loads(site) -> dict:
 
 
 def design_placements(site) -> list[Placement]:
-    """The design: each stage placed whole on its ``[settlement] stage_days`` day."""
-    days = list(site.settings.stage_days or [0.0])
-    days = (days + [days[-1]] * len(site.stages))[:len(site.stages)]
-    return [Placement(k, float(d)) for k, d in zip(site.stages, days)]
+    """The design: each stage placed whole from its ``[settlement] stage_days`` day over
+    its ``stage_durations``."""
+    ramps = list(site.settings.stage_durations) + [0.0] * len(site.stages)
+    return [Placement(k, float(d), 1.0, float(r))
+            for k, d, r in zip(site.stages, site.stage_start_days(), ramps)]
+
+
+def _load_events(site, placements) -> list[tuple[float, object, float, float]]:
+    """(day, load key, fraction, duration) in time order: the placements (key: stage) and
+    each body's removal (key: body name, fraction −1) on its removal day."""
+    events = [(p.day, p.stage, p.fraction, p.duration_days) for p in placements]
+    events += [(day, name, -1.0, 0.0) for name, day in site.removal_days.items()]
+    return sorted(events, key=lambda e: (e[0], isinstance(e[1], str)))
+
+
+def _layer_drain_rates(site, x: float, y: float) -> np.ndarray:
+    """Radial rate (1/year) of each layer below (x, y): the first drain zone holding the
+    point acts in the layers the drains reach (a layer the drains stop inside counts as
+    drained throughout: a stated approximation of the by-layer model)."""
+    out = np.zeros(len(site.soil.layers))
+    for zone in site.drains:
+        if shapely.contains_xy(zone.outline, x, y):
+            for i, layer in enumerate(site.soil.layers):
+                if layer.top_m < zone.drains.depth_m and layer.ch:
+                    out[i] = float(zone.drains.radial_rate(layer.ch))
+            break
+    return out
 
 
 @dataclass(frozen=True)
 class PointModel:
     """Settlement against time at N points as a function of (f_c, f_cv).
 
-    ``base``, ``slope`` (N, E, L): settlement increment of each placement in each layer at
-    f_c = 1, and its change per unit of f_c; ``days`` (E,) of the placements; ``cv``
-    (m²/year, inf = immediate) and ``drainage_path`` (m) per layer; ``scaled`` (L,) the
-    layers the factors touch.
+    ``base``, ``slope`` (N, E, L): settlement increment of each load event (placement or
+    removal) in each layer at f_c = 1, and its change per unit of f_c; ``days`` and
+    ``durations`` (E,) of the events; ``cv`` (m²/year, inf = immediate) and
+    ``drainage_path`` (m) per layer; ``scaled`` (L,) the layers the factors touch;
+    ``radial`` (N, L) the drains' radial rate (1/year) at each point and layer.
     """
 
     base: np.ndarray
@@ -96,6 +128,8 @@ class PointModel:
     cv: np.ndarray
     drainage_path: np.ndarray
     scaled: np.ndarray
+    durations: np.ndarray
+    radial: np.ndarray
 
     def increments(self, f_c: float = 1.0) -> np.ndarray:
         return self.base + (f_c - 1.0) * self.slope
@@ -108,11 +142,16 @@ class PointModel:
         """Settlement (m) at each point at `days` (days after day 0), shape (N, T)."""
         t = np.atleast_1d(np.asarray(days, float)) / _DAYS_PER_YEAR
         cv = np.where(self.scaled, self.cv * f_cv, self.cv)
-        return st.settlement_time_curve(self.increments(f_c), self.days / _DAYS_PER_YEAR, t,
-                                        cv, self.drainage_path)
+        radial = np.where(self.scaled, self.radial * f_cv, self.radial)
+        inc = self.increments(f_c)
+        return np.array([st.settlement_time_curve(
+            inc[n], self.days / _DAYS_PER_YEAR, t, cv, self.drainage_path,
+            durations=self.durations / _DAYS_PER_YEAR, radial_rate=radial[n])
+            for n in range(inc.shape[0])]).reshape(inc.shape[0], t.size)
 
     def select(self, rows) -> "PointModel":
-        return replace(self, base=self.base[rows], slope=self.slope[rows])
+        return replace(self, base=self.base[rows], slope=self.slope[rows],
+                       radial=self.radial[rows])
 
 
 def point_model(site, xy, depth, placements=None, stress=None) -> PointModel:
@@ -130,12 +169,13 @@ def point_model(site, xy, depth, placements=None, stress=None) -> PointModel:
                          key="soil.layers")
     xy = np.atleast_2d(finite_array(xy, "xy"))
     depth = np.atleast_1d(finite_array(depth, "depth"))
-    placements = list(placements or design_placements(site))
+    events = _load_events(site, list(placements or design_placements(site)))
     stress = stress or _site_stress(site)
-    loads = stage_loads(site)
+    loads = {**stage_loads(site), **{b.name: site.spec.load_grid(b.pressure)
+                                     for b in site.bodies if b.name in site.removal_days}}
     cv, hdr = st.time_parameters(soil, no_cv="immediate")
     doubled = scaled_profile(soil, 2.0)
-    n, e, n_layers = len(xy), len(placements), len(soil.layers)
+    n, e, n_layers = len(xy), len(events), len(soil.layers)
     base, twice = np.zeros((n, e, n_layers)), np.zeros((n, e, n_layers))
     for d in np.unique(depth):
         rows = np.flatnonzero(depth == d)
@@ -144,15 +184,16 @@ def point_model(site, xy, depth, placements=None, stress=None) -> PointModel:
             continue
         xyz = np.column_stack([np.repeat(xy[rows, 0], z.size), np.repeat(xy[rows, 1], z.size),
                                np.tile(z, rows.size)])
-        by_stage = {k: stress(g, xyz).reshape(rows.size, z.size) for k, g in loads.items()}
-        dsz = np.zeros((rows.size, z.size))
-        for j, p in enumerate(placements):
-            dsz = dsz + p.fraction * by_stage[p.stage]
-            base[rows, j] = st.settlement_by_layer(soil, z, h, dsz)
-            twice[rows, j] = st.settlement_by_layer(doubled, z, h, dsz)
+        by_load = {k: stress(g, xyz).reshape(rows.size, z.size) for k, g in loads.items()}
+        dsz = np.cumsum([f * by_load[key] for _, key, f, _ in events], axis=0)   # (E, N, K)
+        dsz = np.moveaxis(dsz, 0, 1)
+        in_layer = (soil.layer_index(z)[:, None] == np.arange(n_layers)).astype(float)  # (K, L)
+        base[rows] = st.stress_path(soil, z, h, dsz).settlement @ in_layer
+        twice[rows] = st.stress_path(doubled, z, h, dsz).settlement @ in_layer
     base_inc, twice_inc = st.stage_increments(base), st.stage_increments(twice)
-    return PointModel(base_inc, twice_inc - base_inc, np.array([p.day for p in placements]),
-                      cv, hdr, consolidating(soil))
+    radial = np.array([_layer_drain_rates(site, x, y) for x, y in xy[:, :2]])
+    return PointModel(base_inc, twice_inc - base_inc, np.array([ev[0] for ev in events]),
+                      cv, hdr, consolidating(soil), np.array([ev[3] for ev in events]), radial)
 
 
 def _site_stress(site):
