@@ -141,3 +141,16 @@ def test_bad_inputs_are_named():
         headroom_map(TEMPLATE, SPEC, [[7210.0, 3110.0, -2.0]], 10.0)
     with pytest.raises(InputError, match="sensitivity"):
         settlement_headroom_map(TEMPLATE, SPEC, [[7210.0, 3110.0]], [2.0, 3.0], [[1e-3]], 0.05)
+
+
+def test_sensitivity_is_the_tangent_or_the_secant_of_the_log_law():
+    # one NC sublayer, h = 2 m at 3 m in clay: ds/dσ' = Cc·h/((1+e0)·ln10·σ'0) (derivative of
+    # Terzaghi's log law); a 40 kPa step gives the secant h·Cc/(1+e0)·log10((σ'0+40)/σ'0)/40
+    p = SoilProfile([SoilLayer("c", 0, 6, 10.0, cc=0.3, cr=0.03, e0=0.9, ocr=1.0)],
+                    water_table_m=20.0)
+    tangent = settlement_sensitivity(p, [3.0], [2.0], [[0.0]])[0, 0]
+    assert tangent == pytest.approx(0.3 * 2 / (1.9 * np.log(10) * 30.0), rel=1e-4)
+    secant = settlement_sensitivity(p, [3.0], [2.0], [[0.0]], step_kpa=40.0)[0, 0]
+    assert secant == pytest.approx(2 * 0.3 / 1.9 * np.log10(70 / 30) / 40, rel=1e-12)
+    with pytest.raises(InputError, match="step_kpa"):
+        settlement_sensitivity(p, [3.0], [2.0], [[0.0]], step_kpa=0.0)

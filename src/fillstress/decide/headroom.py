@@ -223,12 +223,15 @@ def headroom_map(template, spec, points, limit_kpa, current_kpa=0.0, method="bou
     return _map(spec, *_least_multiple(spec.shape, allowance, fields, t.max()))
 
 
-def settlement_sensitivity(profile, z_mid, h, dsz_current) -> np.ndarray:
+def settlement_sensitivity(profile, z_mid, h, dsz_current, step_kpa=_SENSITIVITY_STEP_KPA
+                           ) -> np.ndarray:
     """Settlement per unit added stress (m/kPa) of each sublayer about the current state.
 
     The loading-side derivative of the full model (``settlement.sublayer_settlement``) by a
-    forward difference of 1e-3 kPa: Cr or Cc·h/((1+e0)·ln10·σ') on the e–log σ' law, mv·h
-    or h/M on linear layers. This is the linearisation used by
+    forward difference of `step_kpa` (default 1e-3 kPa, the tangent): Cr or
+    Cc·h/((1+e0)·ln10·σ') on the e–log σ' law, mv·h or h/M on linear layers. A larger step
+    gives the secant over that added stress instead (closer to the full model for added
+    stresses of about that size, e.g. past σ'p; still a linearisation). This is the linearisation used by
     :func:`settlement_headroom_map`; it is exact for linear layers and, because the log law
     is concave, overestimates the settlement of a further load on the virgin branch (a safe
     map there) but underestimates it where the load carries a sublayer past σ'p from the
@@ -240,6 +243,8 @@ def settlement_sensitivity(profile, z_mid, h, dsz_current) -> np.ndarray:
     z_mid, h : array_like, shape (K,)
     dsz_current : array_like, shape (N, K)
         Δσz (kPa) of the loads in place at each receptor point and sublayer.
+    step_kpa : float
+        Added stress of the forward difference (> 0).
 
     Returns
     -------
@@ -253,9 +258,9 @@ def settlement_sensitivity(profile, z_mid, h, dsz_current) -> np.ndarray:
     [[0.0004, 0.0004]]
     """
     now = np.atleast_2d(finite_array(dsz_current, "dsz_current"))
+    step = positive(step_kpa, "step_kpa")
     base = sublayer_settlement(profile, z_mid, h, now)
-    return (sublayer_settlement(profile, z_mid, h, now + _SENSITIVITY_STEP_KPA) - base) \
-        / _SENSITIVITY_STEP_KPA
+    return (sublayer_settlement(profile, z_mid, h, now + step) - base) / step
 
 
 def settlement_headroom_map(template, spec, xy, z_mid, sensitivity, limit_m, current_m=0.0,
