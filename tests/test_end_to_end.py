@@ -170,6 +170,14 @@ def _geopackage_holds_every_vector_layer(folder, name):
         buildings = gpd.read_file(folder / "layers.gpkg", layer="buildings")
         assert any(c.startswith("dsz_max") for c in buildings.columns)
         assert buildings.geometry.geom_type.eq("Polygon").all()
+        # the GeoJSON of the same layer carries the same results
+        geojson = gpd.read_file(folder / "buildings.geojson")
+        assert list(geojson.columns) == list(buildings.columns)
+        for col in buildings.columns.drop("geometry"):
+            if buildings[col].dtype.kind == "f":      # GeoJSON reads an all-null column as None
+                np.testing.assert_allclose(geojson[col].astype(float), buildings[col])
+            else:
+                assert geojson[col].tolist() == buildings[col].tolist(), col
 
 
 def _rasters_share_one_round_lattice(folder):

@@ -196,9 +196,9 @@ def _write_tables(res, folder) -> None:
         summary = kind_summary(res, kind)
         tables.write_table_csv(folder.path(f"{name}_summary.csv"), summary, u,
                                column_quantities(summary), crs=site.crs)
-        shapes = _write_geometry(res, folder, kind, name)
-        layers[name] = shapes.merge(summary.drop(columns=["x", "y"], errors="ignore"),
-                                    on="receptor_id", how="left")
+        layers[name] = _receptor_layer(res, kind, name, summary)
+        tables.write_geojson(folder.path(f"{name}.geojson"), layers[name], u, crs=site.crs,
+                             quantities=column_quantities(layers[name].drop(columns="geometry")))
         layers[f"{name}_points"] = gpd.GeoDataFrame(
             pts.reset_index(drop=True), geometry=gpd.points_from_xy(pts["x"], pts["y"]))
     if layers and _output(site, "geopackage"):
@@ -213,9 +213,10 @@ def _write_tables(res, folder) -> None:
                                {"days": None, "settlement": "settlement"})
 
 
-def _write_geometry(res, folder, kind, name) -> None:
-    site = res.site
-    items = site.receptors.by_table()[name]
+def _receptor_layer(res, kind, name, summary) -> gpd.GeoDataFrame:
+    """Receptor geometry (footprints, pipe lines, borehole points) with its results: the
+    receptor's row of `summary` (Δσz, settlement, tilt, distortion, ...)."""
+    items = res.site.receptors.by_table()[name]
     if kind == "building":
         attrs = [{"receptor_id": r.id, "foundation_depth": r.depth} for r in items]
     elif kind == "pipe":
@@ -225,8 +226,8 @@ def _write_geometry(res, folder, kind, name) -> None:
         attrs = [{"receptor_id": r.id, "top_depth": r.top, "bottom_depth": r.bottom}
                  for r in items]
     frame = gpd.GeoDataFrame(attrs, geometry=[r.geometry for r in items])
-    tables.write_geojson(folder.path(f"{name}.geojson"), frame, site.units, crs=site.crs)
-    return frame
+    return frame.merge(summary.drop(columns=["x", "y"], errors="ignore"), on="receptor_id",
+                       how="left")
 
 
 def _write_rasters(res, folder) -> None:
