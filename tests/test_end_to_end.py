@@ -80,6 +80,15 @@ def test_outputs_exist_and_open(runs, name):
     bundle = pv.read(folder / "vtk" / "run.vtm")          # the whole run in one file
     assert {"fill_surface", *(f"stress_{g}" for g in _plan_grids(folder))} <= set(bundle.keys())
     assert all(bundle[k].n_points > 0 for k in bundle.keys())
+    with xr.open_dataset(folder / "stress_cube.nc") as cube:
+        for g in _plan_grids(folder):                        # the cube's surface settlement
+            if f"settlement_{g}" not in cube:
+                continue
+            surface = bundle[f"settlement_{g}"]
+            column = next(c for c in surface.point_data.keys() if c.startswith("settlement_"))
+            assert column == f"settlement_{cube[f'settlement_{g}'].attrs['units']}"
+            np.testing.assert_allclose(np.nanmax(surface[column]),
+                                       float(cube[f"settlement_{g}"].max()), rtol=1e-6)
     if (folder / "vtk" / "run.pvd").exists():               # stages as time steps
         assert pv.get_reader(folder / "vtk" / "run.pvd").time_values == \
             [float(k) for k in load_site(example_site(name)).stages]

@@ -331,7 +331,8 @@ def _write_vtk(res, folder) -> None:
 
 
 def _write_vtk_receptors(res, folder, k) -> dict:
-    """Buildings (with their results), pipes and boreholes → files relative to vtk/."""
+    """Buildings (with their results), pipes, boreholes and the plan grids' surface
+    settlement → files relative to vtk/."""
     site, u = res.site, res.site.units
     pts = _vtk_points(site, res.points)
     files = {}
@@ -350,6 +351,10 @@ def _write_vtk_receptors(res, folder, k) -> dict:
             name = KIND_FILES[kind]
             writer(folder.path(f"vtk/{name}.vtp"), pts[pts["receptor_kind"] == kind], u)
             files[name] = f"{name}.vtp"
+    for name, da in res.plan_settlement.items():      # final settlement: every stage shows it
+        vtk.write_settlement_grid(folder.path(f"vtk/settlement_{name}.vtr"),
+                                  _vtk_slice(site, da), u)
+        files[f"settlement_{name}"] = f"settlement_{name}.vtr"
     return files
 
 
