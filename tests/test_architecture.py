@@ -26,6 +26,7 @@ LAYERS = [
     ["site"],
     ["report", "viewer", "scene_page"],  # read a finished results folder only (io.results)
     ["run", "monitoring"],  # write a folder (run, monitor), then its report and scene
+    ["design"],             # the layout page: edits one body at a time, on site/ and solve/
     ["examples", "console"],
     ["cli", ""],           # "" is the package face, fillstress/__init__.py
 ]

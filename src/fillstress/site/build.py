@@ -147,6 +147,29 @@ class Site:
         return z
 
 
+def place_body(site: Site, cfg: SiteConfig, name: str):
+    """Plan outline (internal metres) of body `name` of `cfg`, an edited copy of the
+    site's file, kept in the site's build context for the lattice and the rasterising;
+    files already read are not read again (an editor changes one body at a time)."""
+    ctx = site.context
+    ctx.cfg = cfg
+    ctx.outlines[name] = _body_outline(ctx, name, cfg["bodies"][name])
+    return ctx.outlines[name]
+
+
+def rebuild_body(site: Site, name: str, spec: GridSpec | None = None):
+    """Body `name` of the build context's file rasterised on `spec` (default: the site's
+    lattice), after :func:`place_body`."""
+    ctx = site.context
+    body, _ = _build_body(ctx, name, ctx.cfg["bodies"][name], spec or site.spec)
+    return scaled_body(body, *site.body_factors)
+
+
+def analysis_grid(site: Site) -> GridSpec:
+    """The lattice a fresh build of the site's current bodies would choose."""
+    return _analysis_grid(site.context, site.context.outlines, site.receptors)
+
+
 def scaled_body(body, unit_weight_factor: float = 1.0, height_factor: float = 1.0):
     """`body` with its unit weight and thickness scaled (batch variants)."""
     if unit_weight_factor == 1.0 and height_factor == 1.0:
