@@ -27,6 +27,7 @@ sys.path.insert(0, str(ROOT / "src"))
 
 import bench_engine  # noqa: E402
 import bench_scale  # noqa: E402
+import calibrate_cost  # noqa: E402
 
 SAMPLE_SITES = ("stockpile_yard", "preload_surcharge", "bridge_approach")
 POINT = ("512380", "5763470", "3.5")  # beside the ore pile of stockpile_yard (site units)
@@ -96,7 +97,7 @@ def far_field(cells: int, points: int, subset: int) -> dict:
     return bench_scale.far_figures(cells, points, subset)
 
 
-def markdown(ratios, compile_s, commands, far, args) -> str:
+def markdown(ratios, compile_s, commands, far, calibration, args) -> str:
     stamp = datetime.datetime.now(datetime.timezone.utc).strftime("%Y-%m-%d %H:%M UTC")
     load = os.getloadavg()
     by_case = {row[0]: row for row in ratios}
@@ -182,6 +183,16 @@ def markdown(ratios, compile_s, commands, far, args) -> str:
         "## Far field",
         "",
         *far["lines"],
+        "## The run-time estimate",
+        "",
+        "`fillstress check` estimates each step of a run from the sizes it will meet "
+        "(`run/plan.py` lists every solver call a run makes, `solve/cost.py` prices them) "
+        "with the constants below; `benchmarks/calibrate_cost.py --corridor 3` measured "
+        "them in this run and set the estimate beside a run of the 3-mile corridor site "
+        "(`tools/make_corridor_site.py`):",
+        "",
+        *calibration,
+        "",
         "## Where targets are missed",
         "",
         "- Far field and its bound: the walk and the bound are unchanged in this round (work on "
@@ -219,7 +230,9 @@ def main(argv=None) -> None:
     compile_s = compile_times()
     commands = command_times(args.repeat)
     far = far_field(args.far_cells, args.far_points, args.far_subset)
-    text = markdown(ratios, compile_s, commands, far, args)
+    calibration = calibrate_cost.markdown(SimpleNamespace(
+        repeat=3, direct_cells=90_000, direct_points=1000, far_points=20_000, corridor=3.0))
+    text = markdown(ratios, compile_s, commands, far, calibration, args)
     if args.write:
         args.write.write_text(text + "\n", encoding="utf-8")
         print(f"wrote {args.write}")

@@ -1,0 +1,78 @@
+"""The run estimate (`fillstress check`) counts the work a run really does: every Δσz call
+with its points and load, and every FFT slice call with its depths, compared with the
+calls counted in a real run of a small site (no clock involved)."""
+from __future__ import annotations
+
+import importlib.util
+from collections import Counter
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from fillstress.examples import example_site
+from fillstress.run import compute as run_compute
+from fillstress.run.plan import run_estimates, slice_calls, solver_calls
+from fillstress.site.build import load_site
+
+ROOT = Path(__file__).resolve().parents[1]
+
+
+def _corridor_site(folder: Path) -> Path:
+    spec = importlib.util.spec_from_file_location("_corridor_tool",
+                                                  ROOT / "tools" / "make_corridor_site.py")
+    tool = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(tool)
+    return tool.write_corridor_site(folder, miles=0.2, cell_ft=10.0)
+
+
+def _counted_run(site, monkeypatch):
+    """Run `compute(site)` and count its solver calls: Counter of (points, stage or
+    "fine") for Δσz, of (plan grid, depths) for FFT slices."""
+    stage_of = {k: site.load_grid(k).pressure for k in site.stages}
+    points, slices = Counter(), Counter()
+    real_stress, real_slices = run_compute.stress, run_compute._plan_slices
+
+    def stress(s, grid, xyz, client=None):
+        if len(xyz):
+            key = "fine" if grid.shape != site.spec.shape else next(
+                k for k, p in stage_of.items() if np.array_equal(p, grid.pressure))
+            points[(len(xyz), key)] += 1
+        return real_stress(s, grid, xyz, client)
+
+    def plan_slices(s, grid, plan, client=None):
+        slices[(plan.name, len(plan.depths))] += 1
+        return real_slices(s, grid, plan, client)
+
+    monkeypatch.setattr(run_compute, "stress", stress)
+    monkeypatch.setattr(run_compute, "_plan_slices", plan_slices)
+    run_compute.compute(site)
+    return points, slices
+
+
+def _planned(site):
+    points = Counter((c.n, "fine" if c.fine else c.stage) for c in solver_calls(site))
+    slices = Counter((plan.name, n) for _, plan, n in slice_calls(site))
+    return points, slices
+
+
+@pytest.mark.parametrize("which", ["preload_surcharge", "corridor"])
+def test_the_estimate_counts_every_solver_call_of_a_run(which, tmp_path, monkeypatch):
+    path = example_site(which) if which != "corridor" else _corridor_site(tmp_path)
+    site = load_site(path)
+    counted = _counted_run(site, monkeypatch)
+    assert sum(counted[0].values()) > 3            # the site exercises several steps
+    assert _planned(site) == counted
+
+
+def test_each_step_of_the_corridor_is_estimated(tmp_path):
+    """The alignment's profile and sections and the settlement columns each get an
+    estimate line (they were once left out, and `check` said a sixth of the run)."""
+    site = load_site(_corridor_site(tmp_path))
+    steps = {e.operation: e for e in run_estimates(site)}
+    for step in ("receptor points", "settlement columns", "alignment profile",
+                 "alignment sections", "convergence check", "bodies on half cells"):
+        assert steps[step].seconds > 0, step
+    calls = Counter(c.step for c in solver_calls(site))
+    assert calls["settlement columns"] > 1 and f"{calls['settlement columns']} calls" in \
+        steps["settlement columns"].detail
