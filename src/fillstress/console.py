@@ -22,7 +22,6 @@ from rich.table import Table
 from .io import tables
 from .progress import silent
 from .run.compute import CAUTIONS
-from .run.files import KIND_FILES, kind_summary
 
 
 class Console:
@@ -135,6 +134,7 @@ def body_rows(site):
 
 
 def summary_tables(res):
+    from .run.files import KIND_FILES, kind_summary   # the writers: only after a run
     site, u = res.site, res.site.units
     out = [body_rows(site)]
     rows = []

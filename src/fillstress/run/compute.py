@@ -23,7 +23,7 @@ from ..solve import stress_slices
 from ..solve.auto import stress_at_points
 from ..solve.distributed import connect, distributed_points, distributed_slices
 from ..solve.tiled import tiled_slices
-from . import files, settle
+from . import settle
 from .corridor import corridor_results
 from .plan import describe_run, memory_cap, plan_pad, slices_need_tiles, validate_run
 
@@ -233,6 +233,7 @@ def run_site_file(path, out=None, *, overwrite=False, report=True, progress=sile
 
 
 def write_results(res: RunResults, folder, *, report=True, progress=silent) -> None:
+    from . import files   # the writers, report and scene: not loaded by check and point
     files.write_all(res, folder, report=report, progress=progress,
                     assumptions=ASSUMPTIONS, cautions=CAUTIONS, version=__version__)
 
