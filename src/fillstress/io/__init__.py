@@ -9,7 +9,7 @@ each writer's module on first use of its name, so importing one module of the pa
 """
 from __future__ import annotations
 
-import importlib
+from .._lazy import lazy_getattr
 
 # Public name → the module of the package that defines it (loaded on first access).
 _NAMES = {
@@ -26,9 +26,4 @@ _NAMES = {
 __all__ = list(_NAMES)
 
 
-def __getattr__(name: str):
-    if name not in _NAMES:
-        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
-    value = getattr(importlib.import_module(f".{_NAMES[name]}", __name__), name)
-    globals()[name] = value
-    return value
+__getattr__ = lazy_getattr(__name__, _NAMES, globals())
