@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import argparse
 import datetime
+import json
 import os
 import platform
 import subprocess
@@ -90,6 +91,7 @@ def command_times(repeat: int) -> dict:
                        "-q", "--overwrite")
             subprocess.run(args, check=True, capture_output=True, env=env())  # warm caches
             out[f"run {name}"] = best_wall(args, max(1, repeat - 1))
+            out[f"steps {name}"] = json.loads((folder / "summary.json").read_text())["timings_s"]
     return out
 
 
@@ -109,6 +111,7 @@ def markdown(ratios, compile_s, commands, far, calibration, args) -> str:
     b_smooth, w_smooth = ratio_of("boussinesq", "terraced"), ratio_of("westergaard", "terraced")
     far_total = far["build"] + far["far"]
     runs = {k: v for k, v in commands.items() if k.startswith("run ")}
+    steps = {k.split()[1]: v for k, v in commands.items() if k.startswith("steps ")}
     bare = commands["python"]
     times_bare = lambda key: f"{commands[key]:.2f} s ({commands[key] / bare:.0f}x a bare `python -c pass`)"  # noqa: E731
     lines = [
@@ -162,6 +165,20 @@ def markdown(ratios, compile_s, commands, far, calibration, args) -> str:
         "both methods, in a process with an empty `NUMBA_CACHE_DIR` |",
         "| 4.8 km corridor <= 20 s and <= 2 GB | not measured | not measured | — |",
         "| 10^7-cell corridor on the local Dask cluster | not measured | not measured | — |",
+        "",
+        "## Whole runs, step by step",
+        "",
+        "Seconds per step of the last timed run of each sample site (`timings_s` of its "
+        "`summary.json`, which `fillstress run --timings` prints); what the whole run "
+        "took beyond them is the start-up (imports) and writing the folder, report and "
+        "scene:",
+        "",
+        "| step | " + " | ".join(steps) + " |",
+        "|---|" + "---|" * len(steps),
+        *[f"| {key.removesuffix('_s').replace('_', ' ')} | "
+          + " | ".join(f"{t[key]:.2f} s" if key in t else "—" for t in steps.values()) + " |"
+          for key in dict.fromkeys(k for t in steps.values() for k in t)],
+        "| whole run, wall | " + " | ".join(f"{runs[f'run {n}']:.2f} s" for n in steps) + " |",
         "",
         "## Direct summation against the dense ceiling",
         "",

@@ -76,3 +76,24 @@ def test_each_step_of_the_corridor_is_estimated(tmp_path):
     calls = Counter(c.step for c in solver_calls(site))
     assert calls["settlement columns"] > 1 and f"{calls['settlement columns']} calls" in \
         steps["settlement columns"].detail
+
+
+def test_run_timings_name_every_step_it_ran(tmp_path, capsys):
+    """`run --timings` prints the time of each step; summary.json keeps them (values are
+    times, so only their presence, order and sum are checked)."""
+    import json
+
+    from fillstress.cli import main
+
+    out = tmp_path / "out"
+    assert main(["run", str(example_site("preload_surcharge")), "-o", str(out),
+                 "--no-report", "--timings"]) == 0
+    printed = capsys.readouterr().out
+    assert "Time per step" in printed and "plan settlement" in printed
+    timings = json.loads((out / "summary.json").read_text())["timings_s"]
+    steps = ["site_build_s", "bodies_s", "receptor_points_s", "plan_slices_s",
+             "stress_ratios_s", "settlement_s", "plan_settlement_s", "convergence_check_s",
+             "compute_s"]
+    assert list(timings) == steps
+    assert sum(v for k, v in timings.items() if k not in ("site_build_s", "bodies_s",
+                                                          "compute_s")) <= timings["compute_s"]

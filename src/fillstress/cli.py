@@ -213,6 +213,8 @@ def _run_options(c):
     c.add_argument("--workers", type=int, default=None,
                    help="run on a local Dask cluster with this many workers")
     c.add_argument("--scheduler", default=None, help="address of a Dask scheduler to run on")
+    c.add_argument("--timings", action="store_true",
+                   help="print the time each step took (also in summary.json)")
 
 
 def _run(args, console):
@@ -227,6 +229,8 @@ def _run(args, console):
         console.json({"folder": str(summary.folder), **data})
         return
     console.summary(summary)
+    if args.timings:
+        console.timings(summary.results.timings)
 
 
 def _batch(args, console):
