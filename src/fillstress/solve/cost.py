@@ -144,7 +144,9 @@ def estimate_slices(shape, n_depths: int, *, pad_cells=(0, 0), tile=None) -> Est
         work = fft_working_bytes((ny, nx), (my, mx))
         fy = scipy.fft.next_fast_len(ny + my - 1, real=True)
         fx = scipy.fft.next_fast_len(nx + mx - 1, real=True)
-        seconds = (1 + 2 * n_depths) * _fft_seconds(fy * fx)
+        # each depth also evaluates the corner function on the (ny+my) × (nx+mx) nodes
+        seconds = ((1 + 2 * n_depths) * _fft_seconds(fy * fx)
+                   + n_depths * (ny + my) * (nx + mx) / CORNERS_PER_SECOND)
         return Estimate("slices", output + work, seconds,
                         f"{ny} × {nx} cells, {n_depths} depth(s), one transform of {fy} × {fx}")
     ty, tx = _shape(tile, "tile")
@@ -152,7 +154,8 @@ def estimate_slices(shape, n_depths: int, *, pad_cells=(0, 0), tile=None) -> Est
     fy = scipy.fft.next_fast_len(2 * ty - 1, real=True)
     fx = scipy.fft.next_fast_len(2 * tx - 1, real=True)
     work = fft_working_bytes((ty, tx), (ty, tx)) + _FLOAT * n_depths * ty * tx
-    seconds = pairs * (1 + 2 * n_depths) * _fft_seconds(fy * fx)
+    seconds = pairs * ((1 + 2 * n_depths) * _fft_seconds(fy * fx)
+                       + n_depths * 4 * ty * tx / CORNERS_PER_SECOND)
     return Estimate("slices-tiled", output + work, seconds,
                     f"{ny} × {nx} cells, {n_depths} depth(s), tiles of {ty} × {tx}, "
                     f"at most {pairs} tile pairs")
