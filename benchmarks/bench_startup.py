@@ -58,25 +58,30 @@ def measure(trees: dict[str, Path], repeat: int) -> dict:
     return best
 
 
+def markdown(before: str | None, repeat: int) -> tuple[list[str], dict]:
+    """The Markdown table and the best times {(job, tree): seconds}."""
+    with tempfile.TemporaryDirectory() as tmp:
+        trees = {"this tree": ROOT / "src"}
+        if before:
+            trees = {f"before ({before})": unpack(before, Path(tmp)), **trees}
+        load = os.getloadavg()[0]
+        best = measure(trees, repeat)
+    bare = {tree: best["bare `python -c pass`", tree] for tree in trees}
+    lines = [f"Best of {repeat} runs; load average {load:.1f} before, "
+             f"{os.getloadavg()[0]:.1f} after (1 min).", "",
+             "| command | " + " | ".join(trees) + " |", "|---|" + "---|" * len(trees)]
+    for job in dict.fromkeys(j for j, _ in best):
+        cells = [f"{best[job, t]:.2f} s ({best[job, t] / bare[t]:.1f}x bare)" for t in trees]
+        lines.append(f"| {job} | " + " | ".join(cells) + " |")
+    return lines, best
+
+
 def main(argv=None) -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--before", help="a commit to compare with (its src/ via git archive)")
     ap.add_argument("--repeat", type=int, default=5)
     args = ap.parse_args(argv)
-    with tempfile.TemporaryDirectory() as tmp:
-        trees = {"this tree": ROOT / "src"}
-        if args.before:
-            trees = {f"before ({args.before})": unpack(args.before, Path(tmp)), **trees}
-        load = os.getloadavg()[0]
-        best = measure(trees, args.repeat)
-    bare = {tree: best["bare `python -c pass`", tree] for tree in trees}
-    print(f"Best of {args.repeat} runs; load average {load:.1f} before, "
-          f"{os.getloadavg()[0]:.1f} after (1 min).\n")
-    print("| command | " + " | ".join(trees) + " |")
-    print("|---|" + "---|" * len(trees))
-    for job in dict.fromkeys(j for j, _ in best):
-        cells = [f"{best[job, t]:.2f} s ({best[job, t] / bare[t]:.1f}x bare)" for t in trees]
-        print(f"| {job} | " + " | ".join(cells) + " |")
+    print("\n".join(markdown(args.before, args.repeat)[0]))
 
 
 if __name__ == "__main__":
