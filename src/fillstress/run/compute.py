@@ -15,6 +15,7 @@ import numpy as np
 import pandas as pd
 import xarray as xr
 
+from .._summary import Summarised
 from .._version import __version__
 from ..errors import FillstressWarning, InputError
 from ..io.atomic import ResultsWriter
@@ -42,8 +43,8 @@ CAUTIONS = (
 
 
 # --- the numbers ----------------------------------------------------------------------
-@dataclass
-class RunResults:
+@dataclass(repr=False)
+class RunResults(Summarised):
     site: Site
     grid: object                          # LoadGrid of the final stage
     points: pd.DataFrame                  # every receptor point with its results (SI)
@@ -58,6 +59,22 @@ class RunResults:
     timings: dict = field(default_factory=dict)
     warnings: list = field(default_factory=list)     # shown by the command and the summary
     corridor: dict = field(default_factory=dict)     # alignment tables (run.corridor)
+
+    def _summary(self):
+        u, pts = self.site.units, self.points
+        rows = [("stages", ", ".join(map(str, self.site.stages))),
+                ("sample points", f"{len(pts):,}")]
+        if len(pts):
+            rows.append(("max Δσz", f"{u.pressure_out(pts['dsz'].max()):.4g} {u.pressure}"))
+        if "settlement" in pts and pts["settlement"].notna().any():
+            rows.append(("max settlement",
+                         f"{u.settlement_out(pts['settlement'].max()):.4g} {u.settlement}"))
+        for name, da in self.slices.items():
+            rows.append((f"plan grid {name}", f"{da.sizes['depth']} depths on "
+                                              f"{da.sizes['x']} × {da.sizes['y']} nodes"))
+        rows += [("buildings, pipes checked", f"{len(self.buildings)}, {len(self.pipes)}"),
+                 ("warnings", str(len(self.warnings)))]
+        return f"RunResults of {self.site.name}", rows
 
 
 def stress(site: Site, grid, xyz: np.ndarray, client=None) -> np.ndarray:

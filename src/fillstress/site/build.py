@@ -20,6 +20,7 @@ from scipy.ndimage import distance_transform_edt
 from shapely.geometry import LineString, Point, Polygon
 
 from .. import crs as crsmod
+from .._summary import Summarised, crs_text
 from ..errors import InputError
 from ..grid import GridSpec, LoadGrid
 from ..io.footprints import read_footprints
@@ -70,8 +71,8 @@ class RunSettings:
     day0: str | None = None                  # [monitoring]: calendar date of day 0
 
 
-@dataclass
-class Site:
+@dataclass(repr=False)
+class Site(Summarised):
     """Everything a run needs, in SI and internal metres (site CRS coordinates × factor).
     Nothing after the build reads the site file's raw tables: later stages take these."""
 
@@ -104,6 +105,21 @@ class Site:
     @property
     def stages(self) -> list[int]:
         return sorted({b.stage for b in self.bodies})
+
+    def _summary(self):
+        u, s = self.units, self.spec
+        kinds = {kind: len(items) for kind, items in self.receptors.by_table().items() if items}
+        soil = ("none" if self.soil is None else
+                f"{len(self.soil.layers)} layers to {u.length_out(self.soil.bottom_m):.5g} {u.length}")
+        return (f"Site {self.name}",
+                [("file", str(self.path)), ("units", u.name), ("crs", crs_text(self.crs)),
+                 ("method", self.method),
+                 ("grid", f"{s.nx} × {s.ny} cells of {u.length_out(s.dx):.5g} {u.length}"),
+                 ("bodies", ", ".join(f"{b.name} (stage {b.stage})" for b in self.bodies)),
+                 ("receptors", ", ".join(f"{k}: {n}" for k, n in kinds.items()) or "none"),
+                 ("sample points", f"{len(self.points):,}"),
+                 ("plan grids", ", ".join(p.name for p in self.plan_grids) or "none"),
+                 ("soil", soil), ("warnings", str(len(self.warnings)))])
 
     def stage_start_days(self) -> list[float]:
         """Start of each stage in days, one per stage ([settlement] stage_days, the last
