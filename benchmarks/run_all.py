@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import argparse
 import datetime
+import json
 import os
 import platform
 import subprocess
@@ -26,10 +27,13 @@ sys.path.insert(0, str(ROOT / "benchmarks"))
 sys.path.insert(0, str(ROOT / "src"))
 
 import bench_engine  # noqa: E402
+import bench_startup  # noqa: E402
 import bench_scale  # noqa: E402
+import calibrate_cost  # noqa: E402
 
 SAMPLE_SITES = ("stockpile_yard", "preload_surcharge", "bridge_approach")
 POINT = ("512380", "5763470", "3.5")  # beside the ore pile of stockpile_yard (site units)
+STARTUP_BASELINE = "aa69085"   # main before the start-up work of issue 19
 
 FIRST_COMPILE = """
 import time, numpy as np
@@ -89,6 +93,7 @@ def command_times(repeat: int) -> dict:
                        "-q", "--overwrite")
             subprocess.run(args, check=True, capture_output=True, env=env())  # warm caches
             out[f"run {name}"] = best_wall(args, max(1, repeat - 1))
+            out[f"steps {name}"] = json.loads((folder / "summary.json").read_text())["timings_s"]
     return out
 
 
@@ -96,7 +101,7 @@ def far_field(cells: int, points: int, subset: int) -> dict:
     return bench_scale.far_figures(cells, points, subset)
 
 
-def markdown(ratios, compile_s, commands, far, args) -> str:
+def markdown(ratios, compile_s, commands, far, calibration, startup, args) -> str:
     stamp = datetime.datetime.now(datetime.timezone.utc).strftime("%Y-%m-%d %H:%M UTC")
     load = os.getloadavg()
     by_case = {row[0]: row for row in ratios}
@@ -108,6 +113,9 @@ def markdown(ratios, compile_s, commands, far, args) -> str:
     b_smooth, w_smooth = ratio_of("boussinesq", "terraced"), ratio_of("westergaard", "terraced")
     far_total = far["build"] + far["far"]
     runs = {k: v for k, v in commands.items() if k.startswith("run ")}
+    steps = {k.split()[1]: v for k, v in commands.items() if k.startswith("steps ")}
+    point_s = startup[1]["`fillstress point` (one point)", "this tree"]
+    imports_s = startup[1]["imports of `point` (no work)", "this tree"]
     bare = commands["python"]
     times_bare = lambda key: f"{commands[key]:.2f} s ({commands[key] / bare:.0f}x a bare `python -c pass`)"  # noqa: E731
     lines = [
@@ -162,6 +170,20 @@ def markdown(ratios, compile_s, commands, far, args) -> str:
         "| 4.8 km corridor <= 20 s and <= 2 GB | not measured | not measured | — |",
         "| 10^7-cell corridor on the local Dask cluster | not measured | not measured | — |",
         "",
+        "## Whole runs, step by step",
+        "",
+        "Seconds per step of the last timed run of each sample site (`timings_s` of its "
+        "`summary.json`, which `fillstress run --timings` prints); what the whole run "
+        "took beyond them is the start-up (imports) and writing the folder, report and "
+        "scene:",
+        "",
+        "| step | " + " | ".join(steps) + " |",
+        "|---|" + "---|" * len(steps),
+        *[f"| {key.removesuffix('_s').replace('_', ' ')} | "
+          + " | ".join(f"{t[key]:.2f} s" if key in t else "—" for t in steps.values()) + " |"
+          for key in dict.fromkeys(k for t in steps.values() for k in t)],
+        "| whole run, wall | " + " | ".join(f"{runs[f'run {n}']:.2f} s" for n in steps) + " |",
+        "",
         "## Direct summation against the dense ceiling",
         "",
         "The ceiling (`benchmarks/ceiling.py`) sums every node of the node form densely, with "
@@ -182,6 +204,24 @@ def markdown(ratios, compile_s, commands, far, args) -> str:
         "## Far field",
         "",
         *far["lines"],
+        "## The run-time estimate",
+        "",
+        "`fillstress check` estimates each step of a run from the sizes it will meet "
+        "(`run/plan.py` lists every solver call a run makes, `solve/cost.py` prices them) "
+        "with the constants below; `benchmarks/calibrate_cost.py --corridor 3` measured "
+        "them in this run and set the estimate beside a run of the 3-mile corridor site "
+        "(`tools/make_corridor_site.py`):",
+        "",
+        *calibration,
+        "",
+        "## Start-up of short commands, before and after",
+        "",
+        f"`benchmarks/bench_startup.py --before {STARTUP_BASELINE}` (that commit is main "
+        "before `--version` stopped loading the solvers and `point` stopped loading the "
+        "writers; the trees alternate run by run):",
+        "",
+        *startup[0],
+        "",
         "## Where targets are missed",
         "",
         "- Far field and its bound: the walk and the bound are unchanged in this round (work on "
@@ -192,9 +232,15 @@ def markdown(ratios, compile_s, commands, far, args) -> str:
         "- Numba first compile: every kernel a run may use is compiled on first call "
         "(`cache=True` keeps them afterwards); the figure was taken at the load shown above "
         "and scales with it.",
-        "- `fillstress point`, `--version` and whole runs: import time and the run-time steps "
-        "(figures, pile rasterising, the half-cell convergence rebuild) were not changed in this "
-        "round; the times above are what they cost now.",
+        "- `fillstress point`: it no longer loads the writers, report, viewer or geopandas, "
+        "and a pile's toe distance is a numpy loop over its outline (about 30x the tree "
+        f"query); of its {point_s:.2f} s, {imports_s:.2f} s are the imports of the numerical "
+        "stack (numba, scipy, pandas, xarray), and most of the rest is numba's first call in "
+        "a process, which loads the cached kernel and sets up its CPU target. A numpy path "
+        "for a handful of points would skip that; it is not built.",
+        "- Whole runs: the steps are in the table above (`--timings`); the report's figures, "
+        "the plan slices of every stage and the half-cell convergence rebuild were not "
+        "changed in this round.",
         "- The corridor and the 10^7-cell Dask corridor were not built as benchmarks, so there "
         "are no figures for them.",
         "",
@@ -219,7 +265,10 @@ def main(argv=None) -> None:
     compile_s = compile_times()
     commands = command_times(args.repeat)
     far = far_field(args.far_cells, args.far_points, args.far_subset)
-    text = markdown(ratios, compile_s, commands, far, args)
+    calibration = calibrate_cost.markdown(SimpleNamespace(
+        repeat=3, direct_cells=90_000, direct_points=1000, far_points=20_000, corridor=3.0))
+    startup = bench_startup.markdown(STARTUP_BASELINE, args.repeat)
+    text = markdown(ratios, compile_s, commands, far, calibration, startup, args)
     if args.write:
         args.write.write_text(text + "\n", encoding="utf-8")
         print(f"wrote {args.write}")

@@ -15,7 +15,7 @@ PACKAGE = Path(__file__).resolve().parents[1] / "src" / "fillstress"
 
 # Lowest first. A module belongs to the first entry that is its name or a prefix of it.
 LAYERS = [
-    ["errors", "_validate", "progress", "units", "crs", "_version"],
+    ["errors", "_validate", "progress", "units", "crs", "_version", "_lazy", "_summary"],
     ["grid"],
     ["kernels"],
     ["solve"],
@@ -26,6 +26,7 @@ LAYERS = [
     ["site"],
     ["report", "viewer", "scene_page"],  # read a finished results folder only (io.results)
     ["run", "monitoring"],  # write a folder (run, monitor), then its report and scene
+    ["design"],             # the layout page: edits one body at a time, on site/ and solve/
     ["examples", "console"],
     ["cli", ""],           # "" is the package face, fillstress/__init__.py
 ]

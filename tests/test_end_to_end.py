@@ -80,6 +80,15 @@ def test_outputs_exist_and_open(runs, name):
     bundle = pv.read(folder / "vtk" / "run.vtm")          # the whole run in one file
     assert {"fill_surface", *(f"stress_{g}" for g in _plan_grids(folder))} <= set(bundle.keys())
     assert all(bundle[k].n_points > 0 for k in bundle.keys())
+    with xr.open_dataset(folder / "stress_cube.nc") as cube:
+        for g in _plan_grids(folder):                        # the cube's surface settlement
+            if f"settlement_{g}" not in cube:
+                continue
+            surface = bundle[f"settlement_{g}"]
+            column = next(c for c in surface.point_data.keys() if c.startswith("settlement_"))
+            assert column == f"settlement_{cube[f'settlement_{g}'].attrs['units']}"
+            np.testing.assert_allclose(np.nanmax(surface[column]),
+                                       float(cube[f"settlement_{g}"].max()), rtol=1e-6)
     if (folder / "vtk" / "run.pvd").exists():               # stages as time steps
         assert pv.get_reader(folder / "vtk" / "run.pvd").time_values == \
             [float(k) for k in load_site(example_site(name)).stages]
@@ -170,6 +179,14 @@ def _geopackage_holds_every_vector_layer(folder, name):
         buildings = gpd.read_file(folder / "layers.gpkg", layer="buildings")
         assert any(c.startswith("dsz_max") for c in buildings.columns)
         assert buildings.geometry.geom_type.eq("Polygon").all()
+        # the GeoJSON of the same layer carries the same results
+        geojson = gpd.read_file(folder / "buildings.geojson")
+        assert list(geojson.columns) == list(buildings.columns)
+        for col in buildings.columns.drop("geometry"):
+            if buildings[col].dtype.kind == "f":      # GeoJSON reads an all-null column as None
+                np.testing.assert_allclose(geojson[col].astype(float), buildings[col])
+            else:
+                assert geojson[col].tolist() == buildings[col].tolist(), col
 
 
 def _rasters_share_one_round_lattice(folder):

@@ -49,12 +49,21 @@ def test_sloping_top_needs_z_and_nonnegative():
         sloping_footprint_thickness(shapely.Polygon([(0, 0, -1), (2, 0, 1), (2, 2, 1)]), spec)
 
 
-def test_distance_to_boundary_matches_shapely_distance():
-    toe = shapely.Point(0, 0).buffer(10).difference(shapely.box(-2, -3, 3, 2))
+@pytest.mark.parametrize("path", ["numpy loop", "STRtree"])
+def test_distance_to_boundary_matches_shapely_distance(path, monkeypatch):
+    from fillstress.shapes import stockpile
+    if path == "STRtree":
+        monkeypatch.setattr(stockpile, "LOOP_SEGMENTS", 0)
+    ring = shapely.Point(0, 0).buffer(10).difference(shapely.box(-2, -3, 3, 2))
+    # a second part whose outline repeats a vertex (a zero-length segment)
+    twice = shapely.Polygon([(12, 0), (16, 0), (16, 0), (16, 5), (12, 5)])
+    toe = shapely.MultiPolygon([ring, twice])
     rng = np.random.default_rng(7)
-    x, y = rng.uniform(-10, 10, 400), rng.uniform(-10, 10, 400)
+    x, y = rng.uniform(-10, 17, (40, 10)), rng.uniform(-10, 10, (40, 10))
     ref = shapely.distance(shapely.points(x, y), toe.boundary)  # slow reference
-    np.testing.assert_allclose(distance_to_boundary(toe)(x, y), ref, rtol=1e-12, atol=1e-12)
+    d = distance_to_boundary(toe)(x, y)
+    assert d.shape == x.shape
+    np.testing.assert_allclose(d, ref, rtol=1e-12, atol=1e-12)
 
 
 @pytest.mark.parametrize("cell", CELLS)

@@ -7,8 +7,7 @@ or ``--help`` start without numba, xarray or the solvers.
 """
 from __future__ import annotations
 
-import importlib
-
+from ._lazy import lazy_getattr
 from ._version import __version__
 from .errors import CapacityError, FillstressError, InputError
 
@@ -37,12 +36,7 @@ _LAZY = {
 __all__ = [*_LAZY, "FillstressError", "InputError", "CapacityError", "__version__"]
 
 
-def __getattr__(name: str):
-    if name not in _LAZY:
-        raise AttributeError(f"module 'fillstress' has no attribute {name!r}")
-    value = getattr(importlib.import_module(f".{_LAZY[name]}", __name__), name)
-    globals()[name] = value
-    return value
+__getattr__ = lazy_getattr(__name__, _LAZY, globals())
 
 
 def __dir__() -> list[str]:

@@ -22,6 +22,7 @@ examples:
   fillstress run site.toml -o results          run a site file into the folder results/
   fillstress batch site.toml variants.toml     run variants and their envelope
   fillstress point site.toml 120 45 3.5        Δσz at x=120, y=45, depth 3.5 (site units)
+  fillstress design site.toml                  try layouts in a local web page (move, raise, add fill)
   fillstress view results --png view.png       render the 3D view to a PNG (or open a window)
   fillstress report results                    (re)write results/report.html
   fillstress monitor site.toml readings.csv --day0 2025-03-03 -o monitoring
@@ -132,6 +133,17 @@ def _parser() -> argparse.ArgumentParser:
     c.add_argument("xyz", nargs="+", type=float, help="x y depth, repeated for more points")
     c.add_argument("--stage", type=int, default=None, help="construction stage (default: last)")
 
+    c = command("design", _design, "Try layouts in a local web page: move, raise, add and "
+                "delete bodies and watch Δσz answer.", "fillstress design site.toml --no-browser")
+    c.add_argument("site", type=Path, help="site file (TOML)")
+    c.add_argument("--no-browser", action="store_true", help="print the address only")
+    c.add_argument("--depth", type=float, default=None,
+                   help="depth of the slice (site units; default the first plan-grid depth)")
+    c.add_argument("--ratio-limit", type=float, default=None, metavar="R",
+                   help="limit of Δσz/σ'v0 at the receptors (e.g. 0.1); none by default")
+    c.add_argument("--stress-limit", type=float, default=None, metavar="P",
+                   help="limit of Δσz at the receptors (site pressure unit); none by default")
+
     c = command("view", _view, "Show the results in 3D, or render them to PNG / HTML.",
                 "fillstress view results --png view.png --exaggeration 2")
     c.add_argument("results", type=Path, help="results folder of a run")
@@ -203,6 +215,8 @@ def _run_options(c):
     c.add_argument("--workers", type=int, default=None,
                    help="run on a local Dask cluster with this many workers")
     c.add_argument("--scheduler", default=None, help="address of a Dask scheduler to run on")
+    c.add_argument("--timings", action="store_true",
+                   help="print the time each step took (also in summary.json)")
 
 
 def _run(args, console):
@@ -217,6 +231,8 @@ def _run(args, console):
         console.json({"folder": str(summary.folder), **data})
         return
     console.summary(summary)
+    if args.timings:
+        console.timings(summary.results.timings)
 
 
 def _batch(args, console):
@@ -262,6 +278,14 @@ def _point(args, console):
         console.json(point_json(result))
         return
     console.points(result)
+
+
+def _design(args, console):
+    from .design.command import design_site_file
+    # plain print: the address must not be wrapped, and shows even with -q
+    design_site_file(args.site, browser=not args.no_browser, depth=args.depth,
+                     ratio_limit=args.ratio_limit, stress_limit=args.stress_limit,
+                     announce=lambda lines: print(*lines, sep="\n", flush=True))
 
 
 def _view(args, console):

@@ -22,7 +22,6 @@ from rich.table import Table
 from .io import tables
 from .progress import silent
 from .run.compute import CAUTIONS
-from .run.files import KIND_FILES, kind_summary
 
 
 class Console:
@@ -87,6 +86,10 @@ class Console:
         if self.quiet:              # quiet hides progress and tables, never a warning
             self.warnings(summary.results.warnings)
 
+    def timings(self, timings: dict) -> None:
+        """Seconds per step of a run (RunResults.timings), in the order they ran."""
+        self.table("Time per step", ["step", "seconds"], timing_rows(timings))
+
     def check(self, report) -> None:
         """What a run would compute (run.compute.CheckReport)."""
         self.table(*body_rows(report.site))
@@ -135,6 +138,7 @@ def body_rows(site):
 
 
 def summary_tables(res):
+    from .run.files import KIND_FILES, kind_summary   # the writers: only after a run
     site, u = res.site, res.site.units
     out = [body_rows(site)]
     rows = []
@@ -156,6 +160,26 @@ def summary_tables(res):
         cols += [f"max settlement ({u.settlement})", "angular distortion", "limit reached"]
     out.append(("Receptors", cols, rows))
     return out
+
+
+STEP_LABELS = {"site_build": "site file, bodies, receptors and checks",
+               "bodies": "  of which the fill bodies", "compute": "computing, all steps",
+               "write": "writing the folder (tables, rasters, report, scene)"}
+
+
+def timing_rows(timings: dict) -> list[list]:
+    """[step, seconds] rows of a run's timings (keys ``<step>_s``).
+
+    Examples
+    --------
+    >>> timing_rows({"site_build_s": 1.234, "convergence_check_s": 0.5})
+    [['site file, bodies, receptors and checks', 1.23], ['convergence check', 0.5]]
+    """
+    rows = []
+    for key, seconds in timings.items():
+        name = key.removesuffix("_s")
+        rows.append([STEP_LABELS.get(name, name.replace("_", " ")), round(float(seconds), 2)])
+    return rows
 
 
 def closing_lines(summary) -> list[str]:

@@ -5,6 +5,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from ._summary import Summarised, crs_text
 from ._validate import finite, finite_array, positive
 from .errors import InputError
 
@@ -40,8 +41,8 @@ class _Lattice:
                 and np.isclose(self.dy, other.dy))
 
 
-@dataclass(frozen=True, eq=False)
-class LoadGrid(_Lattice):
+@dataclass(frozen=True, eq=False, repr=False)
+class LoadGrid(Summarised, _Lattice):
     """A plan grid of cells, each a uniform surface pressure (kPa).
 
     ``pressure[j, i]`` covers ``x0 + i*dx … x0 + (i+1)*dx`` and
@@ -125,6 +126,16 @@ class LoadGrid(_Lattice):
         """Sum of pressure × cell area, kN."""
         return float(self.pressure.sum() * self.cell_area)
 
+
+    def _summary(self):
+        x1, y1 = self.x0 + self.nx * self.dx, self.y0 + self.ny * self.dy
+        loaded = int(np.count_nonzero(self.pressure))
+        return (f"LoadGrid {self.nx} × {self.ny} cells of {self.dx:g} × {self.dy:g} m",
+                [("x, y (m)", f"{self.x0:,.2f} … {x1:,.2f}, {self.y0:,.2f} … {y1:,.2f}"),
+                 ("pressure", f"{self.pressure.min():.4g} … {self.pressure.max():.4g} kPa, "
+                              f"{loaded:,} cells loaded"),
+                 ("total load", f"{self.total_load:,.0f} kN"),
+                 ("crs", crs_text(self.crs))])
 
     def with_pressure(self, pressure) -> "LoadGrid":
         """A grid on the same lattice with new pressures."""

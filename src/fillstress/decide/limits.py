@@ -10,8 +10,10 @@ quantity                   unit   taken from
 stress_increase            kPa    Δσz at a point
 stress_ratio               –      Δσz / σ'v0 at a point
 settlement                 m      ``settlement_max_m`` of a building or pipe
-differential_settlement    m      building ``differential_m`` (whole building); pipe: the
-                                  largest differential within the limit's ``length_m``
+differential_settlement    m      building ``differential_m`` (whole building; a limit
+                                  with ``length_m`` applies to pipes only); pipe: the
+                                  largest differential within ``length_m`` (default the
+                                  pipe's own ``differential_length_m``)
 angular_distortion         –      building ``angular_distortion`` β (Burland & Wroth 1974)
 tilt                       –      building ``tilt`` ω
 pipe_curvature             1/m    pipe ``curvature_max_per_m``
@@ -63,7 +65,8 @@ class Limit:
         The published limit this is, e.g. "Bjerrum (1963), safe limit where no cracking is
         acceptable", or "owner's requirement".
     length_m : float, optional
-        For ``differential_settlement`` of a pipe: the length (m) over which it is judged.
+        For ``differential_settlement``: the length (m) over which it is judged along a pipe;
+        such a limit does not apply to buildings (their differential is over the building).
     name : str, optional
         Short label for tables; default the quantity.
 
@@ -185,8 +188,7 @@ def measure(result, limit: Limit) -> float | None:
         field = _PIPE_FIELDS.get(limit.quantity)
     elif isinstance(result, BuildingSettlement):
         if limit.quantity == "differential_settlement" and limit.length_m is not None:
-            raise InputError("a building's differential settlement is over the whole building; "
-                             "give no length_m", argument="length_m")
+            return None             # judged over a length: a pipe's limit, not a building's
         field = _BUILDING_FIELDS.get(limit.quantity)
     else:
         raise InputError("must be a BuildingSettlement, PipeSettlement or a mapping of "

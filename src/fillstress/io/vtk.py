@@ -128,8 +128,13 @@ def stress_grid_mesh(dsz, units: UnitSystem = SI):
                               _length(-depth[order], units))
     mesh.point_data[array_name("dsz", units, "pressure")] = to_output_units(
         values, units, "pressure").ravel()
+    return _noted(mesh, units)
+
+
+def _noted(mesh, units: UnitSystem):
+    """`mesh` with the field array ``units`` and named coordinate arrays (unnamed ones are
+    written under their memory address)."""
     mesh.field_data["units"] = _units_note(units)
-    # unnamed coordinate arrays are written under their memory address: name them
     for axis, coords in zip("xyz", (mesh.GetXCoordinates(), mesh.GetYCoordinates(),
                                     mesh.GetZCoordinates())):
         coords.SetName(axis)
@@ -139,6 +144,37 @@ def stress_grid_mesh(dsz, units: UnitSystem = SI):
 def write_stress_grid(path, dsz, units: UnitSystem = SI) -> os.PathLike:
     """Write :func:`stress_grid_mesh` to ``.vtr`` (atomic)."""
     return _save(path, stress_grid_mesh(dsz, units))
+
+
+def settlement_grid_mesh(settlement, units: UnitSystem = SI):
+    """Surface settlement on a plan grid (DataArray in m, dims y, x) as a one-layer
+    RectilinearGrid at the existing ground (``z = 0``), point data ``settlement_<s>``
+    (NaN where the plan grid's settlement is not determined).
+
+    Examples
+    --------
+    >>> import xarray as xr
+    >>> da = xr.DataArray([[0.01, 0.02], [0.03, 0.04]], dims=("y", "x"),
+    ...                   coords={"y": [0.0, 1.0], "x": [0.0, 2.0]})
+    >>> m = settlement_grid_mesh(da)
+    >>> m.z.tolist(), float(m.point_data["settlement_mm"][m.find_closest_point((2, 1, 0))])
+    ([0.0], 40.0)
+    """
+    import pyvista as pv
+
+    if tuple(getattr(settlement, "dims", ())) != ("y", "x"):
+        raise InputError("must be a DataArray with dims ('y', 'x')", argument="settlement")
+    mesh = pv.RectilinearGrid(_length(settlement["x"].values, units),
+                              _length(settlement["y"].values, units), np.zeros(1))
+    values = np.asarray(settlement.values, dtype=float)
+    mesh.point_data[array_name("settlement", units, "settlement")] = to_output_units(
+        values, units, "settlement").ravel()
+    return _noted(mesh, units)
+
+
+def write_settlement_grid(path, settlement, units: UnitSystem = SI) -> os.PathLike:
+    """Write :func:`settlement_grid_mesh` to ``.vtr`` (atomic)."""
+    return _save(path, settlement_grid_mesh(settlement, units))
 
 
 # --- buildings -------------------------------------------------------------------------

@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import time
 import warnings
+from contextlib import contextmanager
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 
@@ -14,6 +15,7 @@ import numpy as np
 import pandas as pd
 import xarray as xr
 
+from .._summary import Summarised
 from .._version import __version__
 from ..errors import FillstressWarning, InputError
 from ..io.atomic import ResultsWriter
@@ -23,7 +25,7 @@ from ..solve import stress_slices
 from ..solve.auto import stress_at_points
 from ..solve.distributed import connect, distributed_points, distributed_slices
 from ..solve.tiled import tiled_slices
-from . import files, settle
+from . import settle
 from .corridor import corridor_results
 from .plan import describe_run, memory_cap, plan_pad, slices_need_tiles, validate_run
 
@@ -44,8 +46,8 @@ CAUTIONS = (
 
 
 # --- the numbers ----------------------------------------------------------------------
-@dataclass
-class RunResults:
+@dataclass(repr=False)
+class RunResults(Summarised):
     site: Site
     grid: object                          # LoadGrid of the final stage
     points: pd.DataFrame                  # every receptor point with its results (SI)
@@ -61,6 +63,22 @@ class RunResults:
     timings: dict = field(default_factory=dict)
     warnings: list = field(default_factory=list)     # shown by the command and the summary
     corridor: dict = field(default_factory=dict)     # alignment tables (run.corridor)
+
+    def _summary(self):
+        u, pts = self.site.units, self.points
+        rows = [("stages", ", ".join(map(str, self.site.stages))),
+                ("sample points", f"{len(pts):,}")]
+        if len(pts):
+            rows.append(("max Δσz", f"{u.pressure_out(pts['dsz'].max()):.4g} {u.pressure}"))
+        if "settlement" in pts and pts["settlement"].notna().any():
+            rows.append(("max settlement",
+                         f"{u.settlement_out(pts['settlement'].max()):.4g} {u.settlement}"))
+        for name, da in self.slices.items():
+            rows.append((f"plan grid {name}", f"{da.sizes['depth']} depths on "
+                                              f"{da.sizes['x']} × {da.sizes['y']} nodes"))
+        rows += [("buildings, pipes checked", f"{len(self.buildings)}, {len(self.pipes)}"),
+                 ("warnings", str(len(self.warnings)))]
+        return f"RunResults of {self.site.name}", rows
 
 
 def stress(site: Site, grid, xyz: np.ndarray, client=None) -> np.ndarray:
@@ -107,34 +125,53 @@ def compute(site: Site, progress=silent, client=None) -> RunResults:
     steps = 2 + len(site.plan_grids) + (2 if site.soil is not None else 0) + _conv_steps(site)
     steps += bool(site.soil is not None and site.plan_grids)
     steps += site.alignment is not None
+    timings = {}
     with progress("computing", steps) as bar:
-        pts["dsz"] = stress(site, grid, pts[["x", "y", "depth"]].to_numpy(float), client)
-        bar.advance()
-        res = RunResults(site, grid, pts, warnings=list(site.warnings))
+        step = _Steps(timings, bar)
+        with step("receptor_points"):
+            pts["dsz"] = stress(site, grid, pts[["x", "y", "depth"]].to_numpy(float), client)
+        res = RunResults(site, grid, pts, warnings=list(site.warnings), timings=timings)
         earlier = [site.load_grid(k) for k in site.stages[:-1]]
         for plan in site.plan_grids:
-            stack = [_plan_slices(site, g, plan, client) for g in (*earlier, grid)]
-            res.slices[plan.name] = stack[-1]
-            res.stage_slices[plan.name] = _stage_stack(stack, site.stages)
-            bar.advance()
+            with step("plan_slices"):
+                stack = [_plan_slices(site, g, plan, client) for g in (*earlier, grid)]
+                res.slices[plan.name] = stack[-1]
+                res.stage_slices[plan.name] = _stage_stack(stack, site.stages)
         if site.soil is not None:
-            settle.soil_results(res)
-            bar.advance()
-            settle.settlement_results(res, lambda g, xyz: stress(site, g, xyz, client))
-            bar.advance()
+            with step("stress_ratios"):
+                settle.soil_results(res)
+            with step("settlement"):
+                settle.settlement_results(res, lambda g, xyz: stress(site, g, xyz, client))
             if site.plan_grids:
-                res.plan_settlement = settle.plan_settlement(
-                    site, lambda plan, z, g: _plan_slices(site, g, replace(plan, depths=z), client))
-                bar.advance()
+                with step("plan_settlement"):
+                    res.plan_settlement = settle.plan_settlement(
+                        site, lambda plan, z, g: _plan_slices(site, g, replace(plan, depths=z),
+                                                              client))
         if site.alignment is not None:
-            res.corridor = corridor_results(site, lambda g, xyz: stress(site, g, xyz, client))
-            bar.advance()
+            with step("alignment"):
+                res.corridor = corridor_results(site, lambda g, xyz: stress(site, g, xyz, client))
         if _conv_steps(site):
-            res.convergence = convergence_check(site, pts, client)
-            bar.advance()
+            with step("convergence_check"):
+                res.convergence = convergence_check(site, pts, client)
         bar.advance()
     res.timings["compute_s"] = time.perf_counter() - t0
     return res
+
+
+class _Steps:
+    """``with step(name):`` times a step of the run into `timings` (seconds, summed under
+    ``<name>_s``, in the order the steps first run) and advances the progress bar."""
+
+    def __init__(self, timings: dict, bar):
+        self.timings, self.bar = timings, bar
+
+    @contextmanager
+    def __call__(self, name: str):
+        t0 = time.perf_counter()
+        yield
+        key = f"{name}_s"
+        self.timings[key] = self.timings.get(key, 0.0) + time.perf_counter() - t0
+        self.bar.advance()
 
 
 def _conv_steps(site: Site) -> int:
@@ -217,11 +254,13 @@ def run_site_file(path, out=None, *, overwrite=False, report=True, progress=sile
     >>> (out / "manifest.json").is_file(), (out / "boreholes_points.csv").is_file()
     (True, True)
     """
+    t0 = time.perf_counter()
     site = load_site(path)
     out = Path(out) if out else Path(f"results-{Path(path).stem}")
     # refuses now an existing folder, one that is not a results folder or holds an input
     folder = ResultsWriter(out, overwrite=overwrite, protect=list(site.input_files))
     notes = validate_run(site)                            # refuses, with numbers, before work
+    loaded_s = time.perf_counter() - t0
     cluster = cluster_choice(workers, scheduler, notes)
     if cluster:
         with connect(cluster) as client:
@@ -229,6 +268,7 @@ def run_site_file(path, out=None, *, overwrite=False, report=True, progress=sile
     else:
         res = compute(site, progress)
     res.warnings[:0] = notes
+    res.timings = {"site_build_s": loaded_s, "bodies_s": site.build_seconds, **res.timings}
     with folder:
         t0 = time.perf_counter()
         write_results(res, folder, report=report, progress=progress)
@@ -237,6 +277,7 @@ def run_site_file(path, out=None, *, overwrite=False, report=True, progress=sile
 
 
 def write_results(res: RunResults, folder, *, report=True, progress=silent) -> None:
+    from . import files   # the writers, report and scene: not loaded by check and point
     files.write_all(res, folder, report=report, progress=progress,
                     assumptions=ASSUMPTIONS, cautions=CAUTIONS, version=__version__)
 

@@ -69,10 +69,16 @@ def profile_step(site) -> float:
     return a.profile_step or max(a.line.length / 400.0, site.spec.dx)
 
 
+def profile_stations(site) -> np.ndarray:
+    """Stations (m) of the profile points, every :func:`profile_step` and at the end."""
+    a = site.alignment
+    return np.unique(np.r_[np.arange(a.start, a.end, profile_step(site)), a.end])
+
+
 def profile(site, evaluate) -> pd.DataFrame:
     """The longitudinal profile along the centreline (SI; ``station`` in m)."""
     a = site.alignment
-    stations = np.unique(np.r_[np.arange(a.start, a.end, profile_step(site)), a.end])
+    stations = profile_stations(site)
     xy, _ = a.points(stations)
     out = pd.DataFrame({"station": stations, "x": xy[:, 0], "y": xy[:, 1],
                         "ground_elevation": _ground_at(site, xy), "fill_height": _fill_at(site, xy)})
@@ -124,6 +130,27 @@ def sections(site, evaluate) -> tuple[pd.DataFrame, pd.DataFrame]:
         panels.append(pd.DataFrame({"station": station, "offset": off.ravel(),
                                     "depth": dep.ravel(), "dsz": dsz}))
     return pd.concat(surfaces, ignore_index=True), pd.concat(panels, ignore_index=True)
+
+
+def solver_calls(site) -> list[tuple[str, int, int]]:
+    """(step, points, stage) of each Δσz call :func:`corridor_results` makes, in its
+    order: what the run estimate (run/plan.py) counts."""
+    a = site.alignment
+    if a is None:
+        return []
+    final = site.stages[-1]
+    sublayers = 0 if site.soil is None else len(st.sublayers(site.soil, top_depth=0.0)[0])
+
+    def columns(step, n):               # _settlements: one call per stage, if soil settles
+        return [(step, n * sublayers, k) for k in site.stages] if sublayers else []
+
+    calls = []
+    for _ in a.chainages:
+        calls += columns("alignment sections", SECTION_OFFSETS)
+        calls.append(("alignment sections", SECTION_OFFSETS * SECTION_DEPTHS, final))
+    n = len(profile_stations(site))
+    calls += [("alignment profile", n, final) for _ in a.profile_depths]
+    return calls + columns("alignment profile", n)
 
 
 def corridor_results(site, evaluate) -> dict:

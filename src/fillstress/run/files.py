@@ -196,9 +196,9 @@ def _write_tables(res, folder) -> None:
         summary = kind_summary(res, kind)
         tables.write_table_csv(folder.path(f"{name}_summary.csv"), summary, u,
                                column_quantities(summary), crs=site.crs)
-        shapes = _write_geometry(res, folder, kind, name)
-        layers[name] = shapes.merge(summary.drop(columns=["x", "y"], errors="ignore"),
-                                    on="receptor_id", how="left")
+        layers[name] = _receptor_layer(res, kind, name, summary)
+        tables.write_geojson(folder.path(f"{name}.geojson"), layers[name], u, crs=site.crs,
+                             quantities=column_quantities(layers[name].drop(columns="geometry")))
         layers[f"{name}_points"] = gpd.GeoDataFrame(
             pts.reset_index(drop=True), geometry=gpd.points_from_xy(pts["x"], pts["y"]))
     if layers and _output(site, "geopackage"):
@@ -251,9 +251,10 @@ def _with_degree(curves: pd.DataFrame, times) -> pd.DataFrame:
     return curves.assign(degree=degree)
 
 
-def _write_geometry(res, folder, kind, name) -> None:
-    site = res.site
-    items = site.receptors.by_table()[name]
+def _receptor_layer(res, kind, name, summary) -> gpd.GeoDataFrame:
+    """Receptor geometry (footprints, pipe lines, borehole points) with its results: the
+    receptor's row of `summary` (Δσz, settlement, tilt, distortion, ...)."""
+    items = res.site.receptors.by_table()[name]
     if kind == "building":
         attrs = [{"receptor_id": r.id, "foundation_depth": r.depth} for r in items]
     elif kind == "pipe":
@@ -263,8 +264,8 @@ def _write_geometry(res, folder, kind, name) -> None:
         attrs = [{"receptor_id": r.id, "top_depth": r.top, "bottom_depth": r.bottom}
                  for r in items]
     frame = gpd.GeoDataFrame(attrs, geometry=[r.geometry for r in items])
-    tables.write_geojson(folder.path(f"{name}.geojson"), frame, site.units, crs=site.crs)
-    return frame
+    return frame.merge(summary.drop(columns=["x", "y"], errors="ignore"), on="receptor_id",
+                       how="left")
 
 
 def _write_rasters(res, folder) -> None:
@@ -368,7 +369,8 @@ def _write_vtk(res, folder) -> None:
 
 
 def _write_vtk_receptors(res, folder, k) -> dict:
-    """Buildings (with their results), pipes and boreholes → files relative to vtk/."""
+    """Buildings (with their results), pipes, boreholes and the plan grids' surface
+    settlement → files relative to vtk/."""
     site, u = res.site, res.site.units
     pts = _vtk_points(site, res.points)
     files = {}
@@ -387,6 +389,10 @@ def _write_vtk_receptors(res, folder, k) -> dict:
             name = KIND_FILES[kind]
             writer(folder.path(f"vtk/{name}.vtp"), pts[pts["receptor_kind"] == kind], u)
             files[name] = f"{name}.vtp"
+    for name, da in res.plan_settlement.items():      # final settlement: every stage shows it
+        vtk.write_settlement_grid(folder.path(f"vtk/settlement_{name}.vtr"),
+                                  _vtk_slice(site, da), u)
+        files[f"settlement_{name}"] = f"settlement_{name}.vtr"
     return files
 
 

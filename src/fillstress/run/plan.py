@@ -5,11 +5,15 @@ throughputs measured on a 2-core machine); this module only counts the site's wo
 """
 from __future__ import annotations
 
+from typing import NamedTuple
+
 from ..settlement import sublayers
-from ..solve.auto import choose_algorithm, direct_work
+from ..solve.auto import algorithm_for, direct_work
 from ..solve.cost import (Estimate, check_capacity, estimate_points, estimate_slices,
                           format_bytes, memory_cap_bytes)
 from ..solve.slices import pad_cells
+from . import corridor
+from .settle import _settlement_points
 from .timeline import load_states
 
 
@@ -18,14 +22,49 @@ def memory_cap(site) -> float:
     return memory_cap_bytes(site.settings.memory_cap_gb)
 
 
-def settlement_points(site) -> int:
-    """Sample points of the settlement columns (every sublayer, every stage)."""
-    if site.soil is None:
-        return 0
-    settle = site.points[site.points["role"] != "profile"]
-    total = sum(len(g) * len(sublayers(site.soil, top_depth=float(d))[0])
-                for d, g in settle.groupby("depth"))
-    return total * len(site.stages)
+class SolverCall(NamedTuple):
+    """One Δσz call a run will make: `n` points under `load` (a stage number: the bodies
+    of stages ≤ it; or a body's name: that body alone), on the half-size cells of the
+    convergence check when `fine`."""
+
+    step: str
+    n: int
+    load: int | str
+    fine: bool = False
+
+
+def solver_calls(site) -> list[SolverCall]:
+    """Every Δσz call of a run (run/compute.py), in its order, with its points: receptor
+    points, settlement columns, the alignment's profile and sections, the convergence
+    check. Calls with no points are not made."""
+    final = site.stages[-1]
+    calls = [SolverCall("receptor points", len(site.points), final)]
+    if site.soil is not None:
+        targets = _settlement_points(site.points)         # as settle.settlement_results
+        for depth, n in targets.groupby("depth").size().items():
+            n_z = len(sublayers(site.soil, top_depth=float(depth))[0])
+            # one call per body: the load states combine them (settle.settlement_results)
+            calls += [SolverCall("settlement columns", n * n_z, b.name) for b in site.bodies]
+    calls += [SolverCall(*c) for c in corridor.solver_calls(site)]
+    if site.settings.convergence_check:
+        calls.append(SolverCall("convergence check", len(site.points), final, fine=True))
+    return [c for c in calls if c.n]
+
+
+def slice_calls(site) -> list[tuple[str, object, int]]:
+    """(step, plan grid, depths) of every FFT slice call: each plan grid's depths under
+    the load of every stage, and with a soil profile the plan settlement's sublayer depths
+    under every load state, as many at a time as the plan grid has depths
+    (settle.plan_settlement)."""
+    calls = [(f"plan grid {plan.name}", plan, len(plan.depths))
+             for plan in site.plan_grids for _ in site.stages]
+    n_z = 0 if site.soil is None else len(sublayers(site.soil, top_depth=0.0)[0])
+    states = load_states(site) if n_z else []
+    for plan in site.plan_grids:
+        step = max(1, len(plan.depths))
+        calls += [(f"plan grid {plan.name}, settlement", plan, min(step, n_z - k))
+                  for k in range(0, n_z, step) for _ in states]
+    return calls
 
 
 def plan_pad(site, plan) -> float:
@@ -39,30 +78,36 @@ def _pad_cells(site, plan) -> tuple[int, int]:
 
 
 def run_estimates(site) -> list[Estimate]:
-    """One estimate per kind of work: receptor points, settlement columns, the
-    convergence check (a grid of half the cell size) and each plan grid's slices."""
-    shape, grid = site.spec.shape, site.load_grid()
-    active = direct_work(grid, 1)          # nodes with a non-zero weight
-    out = []
-    for label, n, g_shape, nodes in (
-            ("receptor points", len(site.points), shape, active),
-            ("settlement columns", settlement_points(site), shape, active),
-            # half-size cells: about twice the weighted nodes along the fill's edges,
-            # four times where the fill varies everywhere; take the upper bound
-            ("convergence check", len(site.points), (2 * shape[0], 2 * shape[1]), 4 * active)):
-        if n:
-            algorithm = choose_algorithm(grid, n)
-            e = estimate_points(g_shape, n, algorithm=algorithm, active_nodes=nodes)
-            out.append(Estimate(label, e.bytes, e.seconds, e.detail))
-    if len(site.points) and site.build_seconds:
+    """One estimate per step of a run (:func:`solver_calls`, :func:`slice_calls` and the
+    rebuild of the bodies on half cells): memory of its largest call, time of all."""
+    shape = site.spec.shape
+    active = {k: direct_work(site.load_grid(k), 1) for k in site.stages}   # weighted nodes
+    active |= {b.name: direct_work(site.spec.load_grid(b.pressure), 1) for b in site.bodies}
+    steps: dict[str, list[Estimate]] = {}
+    for call in solver_calls(site):
+        # half-size cells: about twice the weighted nodes along the fill's edges, four
+        # times where the fill varies everywhere; take the upper bound
+        g_shape, nodes = ((2 * shape[0], 2 * shape[1]), 4 * active[call.load]) if call.fine \
+            else (shape, active[call.load])
+        steps.setdefault(call.step, []).append(estimate_points(
+            g_shape, call.n, algorithm=algorithm_for(call.n * nodes), active_nodes=nodes))
+    for step, plan, n_depths in slice_calls(site):
+        steps.setdefault(step, []).append(
+            estimate_slices(shape, n_depths, pad_cells=_pad_cells(site, plan)))
+    out = [_combined(step, parts) for step, parts in steps.items()]
+    if len(site.points) and site.build_seconds and site.settings.convergence_check:
         # the check rebuilds every body on 4× the cells: scale the measured first build
-        out.append(Estimate("bodies on half cells", 4 * grid.pressure.nbytes,
+        out.append(Estimate("bodies on half cells", 4 * site.load_grid().pressure.nbytes,
                             4 * site.build_seconds,
                             f"4 × the {site.build_seconds:.2g} s the bodies took"))
-    for plan in site.plan_grids:
-        e = estimate_slices(shape, len(plan.depths), pad_cells=_pad_cells(site, plan))
-        out.append(Estimate(f"plan grid {plan.name}", e.bytes, e.seconds, e.detail))
     return out
+
+
+def _combined(step: str, parts: list[Estimate]) -> Estimate:
+    """One step of several calls: the memory of the largest, the time of all."""
+    detail = parts[0].detail if len(parts) == 1 else \
+        f"{len(parts)} calls, the largest {max(parts, key=lambda e: e.bytes).detail}"
+    return Estimate(step, max(e.bytes for e in parts), sum(e.seconds for e in parts), detail)
 
 
 def check_fits(site) -> list[Estimate]:
@@ -110,8 +155,9 @@ def describe_run(site) -> list[list]:
               f"({e.detail})" + (" — will be tiled" if e.bytes > cap and
                                  e.operation.startswith("plan grid") else "")]
              for e in estimates]
-    rows.append(["estimated total", f"about {sum(e.seconds for e in estimates):.2g} s on a "
-                 f"2-core machine; memory cap {format_bytes(cap)}"])
+    rows.append(["estimated total", f"about {sum(e.seconds for e in estimates):.2g} s of "
+                 "computing on a 2-core machine (writing the folder and report come on "
+                 f"top); memory cap {format_bytes(cap)}"])
     return rows
 
 

@@ -20,6 +20,7 @@ from scipy.ndimage import distance_transform_edt
 from shapely.geometry import LineString, Point, Polygon
 
 from .. import crs as crsmod
+from .._summary import Summarised, crs_text
 from ..drains import VerticalDrains
 from ..errors import InputError
 from ..grid import GridSpec, LoadGrid
@@ -84,8 +85,8 @@ class RunSettings:
     day0: str | None = None                  # [monitoring]: calendar date of day 0
 
 
-@dataclass
-class Site:
+@dataclass(repr=False)
+class Site(Summarised):
     """Everything a run needs, in SI and internal metres (site CRS coordinates × factor).
     Nothing after the build reads the site file's raw tables: later stages take these."""
 
@@ -120,6 +121,21 @@ class Site:
     @property
     def stages(self) -> list[int]:
         return sorted({b.stage for b in self.bodies})
+
+    def _summary(self):
+        u, s = self.units, self.spec
+        kinds = {kind: len(items) for kind, items in self.receptors.by_table().items() if items}
+        soil = ("none" if self.soil is None else
+                f"{len(self.soil.layers)} layers to {u.length_out(self.soil.bottom_m):.5g} {u.length}")
+        return (f"Site {self.name}",
+                [("file", str(self.path)), ("units", u.name), ("crs", crs_text(self.crs)),
+                 ("method", self.method),
+                 ("grid", f"{s.nx} × {s.ny} cells of {u.length_out(s.dx):.5g} {u.length}"),
+                 ("bodies", ", ".join(f"{b.name} (stage {b.stage})" for b in self.bodies)),
+                 ("receptors", ", ".join(f"{k}: {n}" for k, n in kinds.items()) or "none"),
+                 ("sample points", f"{len(self.points):,}"),
+                 ("plan grids", ", ".join(p.name for p in self.plan_grids) or "none"),
+                 ("soil", soil), ("warnings", str(len(self.warnings)))])
 
     def stage_start_days(self) -> list[float]:
         """Start of each stage in days, one per stage ([settlement] stage_days, the last
@@ -161,6 +177,29 @@ class Site:
             nearest = distance_transform_edt(gap, return_distances=False, return_indices=True)
             z = z[tuple(nearest)]
         return z
+
+
+def place_body(site: Site, cfg: SiteConfig, name: str):
+    """Plan outline (internal metres) of body `name` of `cfg`, an edited copy of the
+    site's file, kept in the site's build context for the lattice and the rasterising;
+    files already read are not read again (an editor changes one body at a time)."""
+    ctx = site.context
+    ctx.cfg = cfg
+    ctx.outlines[name] = _body_outline(ctx, name, cfg["bodies"][name])
+    return ctx.outlines[name]
+
+
+def rebuild_body(site: Site, name: str, spec: GridSpec | None = None):
+    """Body `name` of the build context's file rasterised on `spec` (default: the site's
+    lattice), after :func:`place_body`."""
+    ctx = site.context
+    body, _ = _build_body(ctx, name, ctx.cfg["bodies"][name], spec or site.spec)
+    return scaled_body(body, *site.body_factors)
+
+
+def analysis_grid(site: Site) -> GridSpec:
+    """The lattice a fresh build of the site's current bodies would choose."""
+    return _analysis_grid(site.context, site.context.outlines, site.receptors)
 
 
 def scaled_body(body, unit_weight_factor: float = 1.0, height_factor: float = 1.0):

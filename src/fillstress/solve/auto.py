@@ -51,7 +51,18 @@ def choose_algorithm(grid, n_points: int, algorithm: str = "auto") -> str:
                          argument="algorithm")
     if algorithm != "auto":
         return algorithm
-    return "direct" if direct_work(grid, n_points) <= DIRECT_WORK_LIMIT else "far"
+    return algorithm_for(direct_work(grid, n_points))
+
+
+def algorithm_for(work: int) -> str:
+    """What "auto" picks for `work` corner evaluations (see :func:`direct_work`).
+
+    Examples
+    --------
+    >>> algorithm_for(DIRECT_WORK_LIMIT), algorithm_for(DIRECT_WORK_LIMIT + 1)
+    ('direct', 'far')
+    """
+    return "direct" if work <= DIRECT_WORK_LIMIT else "far"
 
 
 def point_evaluator(grid, method="boussinesq", poisson=None, *, algorithm="direct",
@@ -139,8 +150,8 @@ def stress_at_points(grid, points, method="boussinesq", poisson=None, *, algorit
     return out
 
 
-__all__ = ["stress_at_points", "choose_algorithm", "direct_work", "point_evaluator",
-           "DIRECT_WORK_LIMIT", "ALGORITHMS"]
+__all__ = ["stress_at_points", "choose_algorithm", "algorithm_for", "direct_work",
+           "point_evaluator", "DIRECT_WORK_LIMIT", "ALGORITHMS"]
 
 
 def prepare(grid, points, method="boussinesq", poisson=None, *, algorithm="auto",

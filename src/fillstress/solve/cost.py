@@ -18,11 +18,13 @@ from ..errors import CapacityError, InputError
 from .farfield import pyramid_blocks
 
 # Throughputs on the development machine (2 cores, both threads), common practice to
-# keep such constants beside the code that uses them.  benchmarks/bench_scale.py prints
-# the measured value of each ("Rates for the constants ..." and "Estimate said ...").
-CORNERS_PER_SECOND = 6.0e7       # node-kernel corner evaluations, direct summation
-FAR_SECONDS_PER_POINT = 6.0e-5   # far-field walk at the default accuracy, per point
-FFT_FLOPS_PER_SECOND = 1.5e9     # scipy.fft real transforms, 5 n log2 n flops each
+# keep such constants beside the code that uses them.  benchmarks/calibrate_cost.py
+# measures each (the figures are in docs/performance.md, "## The run-time estimate").
+CORNERS_PER_SECOND = 5.5e7       # node-kernel corner evaluations, direct summation
+DIRECT_SETUP_SECONDS_PER_NODE = 2.0e-8  # a direct call's node weights and rows, per node
+FAR_SECONDS_PER_POINT = 1.0e-4   # far-field walk at the default accuracy, per point below a fill
+PYRAMID_SECONDS_PER_CELL = 3.0e-7  # a far-field call's block pyramid, per cell
+FFT_FLOPS_PER_SECOND = 4.0e9     # scipy.fft real transforms, 5 n log2 n flops each
 _FLOAT = 8
 _COMPLEX = 16
 _MIN_TILE = 16
@@ -142,7 +144,9 @@ def estimate_slices(shape, n_depths: int, *, pad_cells=(0, 0), tile=None) -> Est
         work = fft_working_bytes((ny, nx), (my, mx))
         fy = scipy.fft.next_fast_len(ny + my - 1, real=True)
         fx = scipy.fft.next_fast_len(nx + mx - 1, real=True)
-        seconds = (1 + 2 * n_depths) * _fft_seconds(fy * fx)
+        # each depth also evaluates the corner function on the (ny+my) × (nx+mx) nodes
+        seconds = ((1 + 2 * n_depths) * _fft_seconds(fy * fx)
+                   + n_depths * (ny + my) * (nx + mx) / CORNERS_PER_SECOND)
         return Estimate("slices", output + work, seconds,
                         f"{ny} × {nx} cells, {n_depths} depth(s), one transform of {fy} × {fx}")
     ty, tx = _shape(tile, "tile")
@@ -150,7 +154,8 @@ def estimate_slices(shape, n_depths: int, *, pad_cells=(0, 0), tile=None) -> Est
     fy = scipy.fft.next_fast_len(2 * ty - 1, real=True)
     fx = scipy.fft.next_fast_len(2 * tx - 1, real=True)
     work = fft_working_bytes((ty, tx), (ty, tx)) + _FLOAT * n_depths * ty * tx
-    seconds = pairs * (1 + 2 * n_depths) * _fft_seconds(fy * fx)
+    seconds = pairs * ((1 + 2 * n_depths) * _fft_seconds(fy * fx)
+                       + n_depths * 4 * ty * tx / CORNERS_PER_SECOND)
     return Estimate("slices-tiled", output + work, seconds,
                     f"{ny} × {nx} cells, {n_depths} depth(s), tiles of {ty} × {tx}, "
                     f"at most {pairs} tile pairs")
@@ -158,9 +163,10 @@ def estimate_slices(shape, n_depths: int, *, pad_cells=(0, 0), tile=None) -> Est
 
 def estimate_points(shape, n_points: int, *, algorithm: str = "direct", order: int = 4,
                     active_nodes: int | None = None) -> Estimate:
-    """Estimate Δσz at `n_points` points below an (ny, nx) grid.
+    """Estimate one call of Δσz at `n_points` points below an (ny, nx) grid.
 
-    ``algorithm="direct"`` counts `active_nodes` corner evaluations a point — the grid
+    The time includes what each call prepares before its points (the node weights of
+    direct summation, the block pyramid of the far field).  ``algorithm="direct"`` counts `active_nodes` corner evaluations a point — the grid
     nodes with a non-zero weight, when the caller knows them (``solve.auto.direct_work``
     counts them) — or every grid node (an upper bound: nodes inside uniform fill are
     skipped); ``"far"`` the block pyramid and a per-point walk.
@@ -180,7 +186,8 @@ def estimate_points(shape, n_points: int, *, algorithm: str = "direct", order: i
         # node weights, padded pressure, compressed rows (int64 column + float value)
         memory = _FLOAT * nodes + _FLOAT * (ny + 2) * (nx + 2) + 16 * nodes + point_arrays
         evaluated = nodes if active_nodes is None else whole_number(active_nodes, "active_nodes")
-        seconds = n_points * evaluated / CORNERS_PER_SECOND
+        seconds = (n_points * evaluated / CORNERS_PER_SECOND
+                   + nodes * DIRECT_SETUP_SECONDS_PER_NODE)
         return Estimate("points-direct", memory, seconds,
                         f"{cells} cells, {n_points} points, direct summation")
     if algorithm == "far":
@@ -191,7 +198,8 @@ def estimate_points(shape, n_points: int, *, algorithm: str = "direct", order: i
         # half-diagonal, mass and weights; two levels of raw moments at a time
         build = cells * _FLOAT * (4 + 2 + 2 + n_mom)
         memory = build + blocks * _FLOAT * (4 + n_terms + n_mom) + point_arrays + n_points * 24
-        seconds = n_points * FAR_SECONDS_PER_POINT * max(1.0, math.log2(max(cells, 2)) / 20.0)
+        seconds = (n_points * FAR_SECONDS_PER_POINT * max(1.0, math.log2(max(cells, 2)) / 20.0)
+                   + cells * PYRAMID_SECONDS_PER_CELL)
         return Estimate("points-far", memory, seconds,
                         f"{cells} cells, {n_points} points, far-field order {order}")
     raise InputError(f"must be 'direct' or 'far', got {algorithm!r}", argument="algorithm")

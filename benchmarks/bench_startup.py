@@ -1,0 +1,88 @@
+"""Start-up of short commands: `--version`, `point` at one point, `check`, before and after.
+
+    PYTHONPATH=src python benchmarks/bench_startup.py                    # this tree only
+    PYTHONPATH=src python benchmarks/bench_startup.py --before aa69085   # and an older one
+
+Each command runs in a fresh process (numba cache warm: every tree runs once before
+timing), `--repeat` times, the trees alternating so both see the same load; the best
+time is reported, with its multiple of a bare `python -c pass` measured alongside.
+`--before REF` unpacks `src/` of that commit (git archive) into a temporary folder.
+"""
+from __future__ import annotations
+
+import argparse
+import os
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parents[1]
+SITE = ROOT / "sample_sites" / "stockpile_yard" / "site.toml"
+POINT = ("512380", "5763470", "3.5")  # beside the ore pile (site units), as run_all.py
+COMMANDS = {
+    "`fillstress --version`": ["--version"],
+    "`fillstress point` (one point)": ["point", "-q", str(SITE), *POINT],
+    "`fillstress check`": ["check", str(SITE)],
+}
+IMPORTS = "import fillstress.cli, fillstress.console, fillstress.run.point"
+
+
+def wall(args: list[str], src: Path) -> float:
+    t = time.perf_counter()
+    subprocess.run([sys.executable, *args], check=True, capture_output=True,
+                   env={**os.environ, "PYTHONPATH": str(src)}, cwd=ROOT)
+    return time.perf_counter() - t
+
+
+def unpack(ref: str, into: Path) -> Path:
+    """`src/` of commit `ref` under `into`."""
+    archive = subprocess.run(["git", "archive", ref, "src"], cwd=ROOT, check=True,
+                             capture_output=True).stdout
+    subprocess.run(["tar", "-x", "-C", str(into)], input=archive, check=True)
+    return into / "src"
+
+
+def measure(trees: dict[str, Path], repeat: int) -> dict:
+    jobs = {name: ["-m", "fillstress.cli", *args] for name, args in COMMANDS.items()}
+    jobs["imports of `point` (no work)"] = ["-c", IMPORTS]
+    jobs["bare `python -c pass`"] = ["-c", "pass"]
+    for src in trees.values():                       # compile or load the numba cache
+        wall(jobs["`fillstress point` (one point)"], src)
+    best = {(job, tree): float("inf") for job in jobs for tree in trees}
+    for _ in range(repeat):
+        for job, args in jobs.items():
+            for tree, src in trees.items():
+                best[job, tree] = min(best[job, tree], wall(args, src))
+    return best
+
+
+def markdown(before: str | None, repeat: int) -> tuple[list[str], dict]:
+    """The Markdown table and the best times {(job, tree): seconds}."""
+    with tempfile.TemporaryDirectory() as tmp:
+        trees = {"this tree": ROOT / "src"}
+        if before:
+            trees = {f"before ({before})": unpack(before, Path(tmp)), **trees}
+        load = os.getloadavg()[0]
+        best = measure(trees, repeat)
+    bare = {tree: best["bare `python -c pass`", tree] for tree in trees}
+    lines = [f"Best of {repeat} runs; load average {load:.1f} before, "
+             f"{os.getloadavg()[0]:.1f} after (1 min).", "",
+             "| command | " + " | ".join(trees) + " |", "|---|" + "---|" * len(trees)]
+    for job in dict.fromkeys(j for j, _ in best):
+        cells = [f"{best[job, t]:.2f} s ({best[job, t] / bare[t]:.1f}x bare)" for t in trees]
+        lines.append(f"| {job} | " + " | ".join(cells) + " |")
+    return lines, best
+
+
+def main(argv=None) -> None:
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--before", help="a commit to compare with (its src/ via git archive)")
+    ap.add_argument("--repeat", type=int, default=5)
+    args = ap.parse_args(argv)
+    print("\n".join(markdown(args.before, args.repeat)[0]))
+
+
+if __name__ == "__main__":
+    main()

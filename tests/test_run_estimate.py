@@ -1,0 +1,107 @@
+"""The run estimate (`fillstress check`) counts the work a run really does: every Δσz call
+with its points and load, and every FFT slice call with its depths, compared with the
+calls counted in a real run of a small site (no clock involved)."""
+from __future__ import annotations
+
+import hashlib
+import importlib.util
+from collections import Counter
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from fillstress.examples import example_site
+from fillstress.run import compute as run_compute
+from fillstress.run.plan import run_estimates, slice_calls, solver_calls
+from fillstress.site.build import load_site
+
+ROOT = Path(__file__).resolve().parents[1]
+
+
+def _corridor_site(folder: Path) -> Path:
+    spec = importlib.util.spec_from_file_location("_corridor_tool",
+                                                  ROOT / "tools" / "make_corridor_site.py")
+    tool = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(tool)
+    return tool.write_corridor_site(folder, miles=0.2, cell_ft=10.0)
+
+
+def _load_key(pressure) -> str:
+    """The load a call is made under, by content (a stage's bodies and one body alone may
+    be the same load)."""
+    return hashlib.sha1(np.ascontiguousarray(pressure, dtype=float).tobytes()).hexdigest()
+
+
+def _counted_run(site, monkeypatch):
+    """Run `compute(site)` and count its solver calls: Counter of (points, load or
+    "fine") for Δσz, of (plan grid, depths) for FFT slices."""
+    points, slices = Counter(), Counter()
+    real_stress, real_slices = run_compute.stress, run_compute._plan_slices
+
+    def stress(s, grid, xyz, client=None):
+        if len(xyz):
+            key = "fine" if grid.shape != site.spec.shape else _load_key(grid.pressure)
+            points[(len(xyz), key)] += 1
+        return real_stress(s, grid, xyz, client)
+
+    def plan_slices(s, grid, plan, client=None):
+        slices[(plan.name, len(plan.depths))] += 1
+        return real_slices(s, grid, plan, client)
+
+    monkeypatch.setattr(run_compute, "stress", stress)
+    monkeypatch.setattr(run_compute, "_plan_slices", plan_slices)
+    run_compute.compute(site)
+    return points, slices
+
+
+def _planned(site):
+    body = {b.name: b.pressure for b in site.bodies}
+    points = Counter((c.n, "fine" if c.fine else _load_key(
+        body[c.load] if isinstance(c.load, str) else site.load_grid(c.load).pressure))
+        for c in solver_calls(site))
+    slices = Counter((plan.name, n) for _, plan, n in slice_calls(site))
+    return points, slices
+
+
+@pytest.mark.parametrize("which", ["preload_surcharge", "corridor"])
+def test_the_estimate_counts_every_solver_call_of_a_run(which, tmp_path, monkeypatch):
+    path = example_site(which) if which != "corridor" else _corridor_site(tmp_path)
+    site = load_site(path)
+    counted = _counted_run(site, monkeypatch)
+    assert sum(counted[0].values()) > 3            # the site exercises several steps
+    assert _planned(site) == counted
+
+
+def test_each_step_of_the_corridor_is_estimated(tmp_path):
+    """The alignment's profile and sections and the settlement columns each get an
+    estimate line (they were once left out, and `check` said a sixth of the run)."""
+    site = load_site(_corridor_site(tmp_path))
+    steps = {e.operation: e for e in run_estimates(site)}
+    for step in ("receptor points", "settlement columns", "alignment profile",
+                 "alignment sections", "convergence check", "bodies on half cells"):
+        assert steps[step].seconds > 0, step
+    calls = Counter(c.step for c in solver_calls(site))
+    assert calls["settlement columns"] > 1 and f"{calls['settlement columns']} calls" in \
+        steps["settlement columns"].detail
+
+
+def test_run_timings_name_every_step_it_ran(tmp_path, capsys):
+    """`run --timings` prints the time of each step; summary.json keeps them (values are
+    times, so only their presence, order and sum are checked)."""
+    import json
+
+    from fillstress.cli import main
+
+    out = tmp_path / "out"
+    assert main(["run", str(example_site("preload_surcharge")), "-o", str(out),
+                 "--no-report", "--timings"]) == 0
+    printed = capsys.readouterr().out
+    assert "Time per step" in printed and "plan settlement" in printed
+    timings = json.loads((out / "summary.json").read_text())["timings_s"]
+    steps = ["site_build_s", "bodies_s", "receptor_points_s", "plan_slices_s",
+             "stress_ratios_s", "settlement_s", "plan_settlement_s", "convergence_check_s",
+             "compute_s"]
+    assert list(timings) == steps
+    assert sum(v for k, v in timings.items() if k not in ("site_build_s", "bodies_s",
+                                                          "compute_s")) <= timings["compute_s"]
