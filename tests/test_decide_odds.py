@@ -47,9 +47,11 @@ def test_settlement_is_linear_in_cc():
     np.testing.assert_allclose(s / cc[:, None], np.broadcast_to(k, s.shape), rtol=1e-12)
 
 
-@pytest.mark.parametrize("seed", [1, 2024])
-def test_sampled_percentiles_match_the_exact_lognormal_quantiles(seed):
-    s, _, k = _lognormal_settlement(400, seed)
+@pytest.mark.parametrize("seed, n", [(1, 2000), (2024, 400)])
+def test_sampled_percentiles_match_the_exact_lognormal_quantiles(seed, n):
+    # at n = 2000 three standard errors of the median are 3 % of it: a lognormal whose
+    # median is set to its mean (6 % too high at COV 0.35) fails here
+    s, _, k = _lognormal_settlement(n, seed)
     o = odds(s, [1.05, 0.70])
     for p, got in ((0.1, o.p10), (0.5, o.p50), (0.9, o.p90)):
         exact, mu, s_ln = _exact(k, p)
@@ -57,7 +59,7 @@ def test_sampled_percentiles_match_the_exact_lognormal_quantiles(seed):
         assert np.all(lo <= exact) and np.all(exact <= hi)
         # asymptotic standard error of a sample quantile: sqrt(p(1−p)/n) / f(x_p)
         density = stats.lognorm(s_ln, scale=np.exp(mu)).pdf(exact)
-        se = np.sqrt(p * (1 - p) / 400) / density
+        se = np.sqrt(p * (1 - p) / n) / density
         assert np.all(np.abs(got - exact) < 3 * se)
 
 

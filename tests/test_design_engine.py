@@ -177,3 +177,24 @@ def test_the_session_reports_site_units_and_limits(tmp_path):
         s.edit({"op": "move", "body": "nowhere", "dx": 1, "dy": 0})
     with pytest.raises(InputError, match="must be a number"):
         s.edit({"op": "move", "body": "pad", "dx": "far", "dy": 0})
+
+
+def test_a_move_by_whole_cells_shifts_the_cells_with_the_same_values(layout, tmp_path):
+    for name, (dx, dy) in {"heap": (4.0, -6.0), "bund": (-2.0, 0.0), "pad": (3.0, 0.0)}.items():
+        timing = layout.move(name, dx, dy)
+        assert timing.shifted == (name != "pad")         # 3 m is not whole 2 m cells
+        assert_same_as_fresh(layout, tmp_path)
+
+
+def test_a_turned_body_equals_a_fresh_run_and_turns_back(layout, tmp_path):
+    from fillstress.design.engine import rotated
+    start = np.array(layout.doc["bodies"]["pad"]["outline"])
+    layout.apply(rotated(layout, "pad", 30.0))
+    turned = np.array(layout.doc["bodies"]["pad"]["outline"])
+    centre = start.mean(axis=0)                    # a rectangle's centroid
+    np.testing.assert_allclose(np.hypot(*(turned - centre).T), np.hypot(*(start - centre).T))
+    assert_same_as_fresh(layout, tmp_path)
+    layout.apply(rotated(layout, "bund", -10.0))
+    assert_same_as_fresh(layout, tmp_path)
+    layout.apply(rotated(layout, "pad", -30.0))
+    np.testing.assert_allclose(np.array(layout.doc["bodies"]["pad"]["outline"]), start, atol=1e-8)

@@ -232,3 +232,30 @@ def test_read_footprints_bad_height_unit_is_refused(tmp_path, factor):
         {"height": [2.0]}, geometry=[shapely.box(0, 0, 4, 4)], crs="EPSG:32632"))
     with pytest.raises(InputError, match="argument height_to_m: must be"):
         read_footprints(path, height_to_m=factor)
+
+
+def test_read_footprints_takes_a_geodataframe_or_geoseries_as_a_file(tmp_path):
+    pads = geopandas.GeoDataFrame(
+        {"name": ["wash bay"], "height": [1.8]},
+        geometry=[shapely.box(612000, 5200000, 612030, 5200012)], crs="EPSG:32633")
+    from_file = read_footprints(_write(tmp_path, "pads.geojson", pads), target_crs="EPSG:2229")
+    in_memory = read_footprints(pads, target_crs="EPSG:2229")
+    assert in_memory.height_m.tolist() == from_file.height_m.tolist() == [1.8]
+    assert shapely.equals_exact(in_memory.geometry[0], from_file.geometry[0], 1e-6)
+    assert pads.crs.to_epsg() == 32633 and "height_m" not in pads   # the caller's frame kept
+    ramp = geopandas.GeoSeries([shapely.Polygon([(0, 0, 1.0), (20, 0, 2.0), (20, 10, 2.0)])],
+                               crs="EPSG:32633")
+    assert read_footprints(ramp).height_m.tolist() == [2.0]        # sloping top from z
+
+
+@pytest.mark.parametrize("given, message", [
+    (geopandas.GeoDataFrame({"height": [1.0]}, geometry=[shapely.Point(0, 0)],
+                            crs="EPSG:32633"),
+     "the footprints GeoDataFrame: feature 0 is a Point"),
+    (geopandas.GeoDataFrame({"h": [1.0]}, geometry=[shapely.box(0, 0, 1, 1)], crs="EPSG:32633"),
+     "the footprints GeoDataFrame: no height attribute"),
+    (42, "argument path: must be a vector file path, a GeoDataFrame or a GeoSeries, got int"),
+])
+def test_read_footprints_in_memory_errors_name_the_source(given, message):
+    with pytest.raises(InputError, match=message):
+        read_footprints(given)

@@ -54,6 +54,7 @@ class EditTiming:
     points_s: float = 0.0
     total_s: float = 0.0
     full_rebuild: bool = False
+    shifted: bool = False              # a move by whole cells: the cells shifted, not rasterised
 
 
 @dataclass
@@ -84,10 +85,11 @@ class Layout:
         return copy.deepcopy(self.doc["bodies"])
 
     # --- edits ---------------------------------------------------------------------
-    def apply(self, bodies: dict) -> EditTiming:
+    def apply(self, bodies: dict, shift: tuple | None = None) -> EditTiming:
         """Make `bodies` (the site file's [bodies] tables, site-file units) the layout.
         Raises InputError, with the site file's message, and changes nothing when the
-        edited file would be refused."""
+        edited file would be refused. `shift` = (name, columns, rows): that body only
+        moved by whole cells (see :meth:`move`)."""
         t0 = time.perf_counter()
         doc = {**self.doc, "bodies": bodies}
         cfg = validate(doc, self.path)
@@ -108,7 +110,10 @@ class Layout:
                 spec = working_lattice(fresh, self.site.metres_per_unit)
                 changed, timing.full_rebuild = list(bodies), True
             t = time.perf_counter()
-            built = {name: self._rasterise(name, spec) for name in changed}
+            moved_only = shift and not timing.full_rebuild and changed == [shift[0]]
+            built = {shift[0]: self._shifted(*shift)} if moved_only else {}
+            timing.shifted = built.get(shift and shift[0]) is not None
+            built = {n: built.get(n) or self._rasterise(n, spec) for n in changed}
             timing.raster_s = time.perf_counter() - t
         except InputError:
             ctx.cfg, ctx.outlines = saved
@@ -123,6 +128,30 @@ class Layout:
         timing.total_s = time.perf_counter() - t0
         self.timing = timing
         return timing
+
+    def move(self, name: str, dx: float, dy: float) -> EditTiming:
+        """Move body `name` by (dx, dy) site-CRS units. By whole cells its cells are shifted
+        instead of rasterised again: the same values, since a body's cell averages do not
+        change when it moves by whole cells of the lattice."""
+        cell = self.spec.dx / self.site.metres_per_unit
+        steps = (dx / cell, dy / cell)
+        whole = all(abs(k - round(k)) < 1e-9 for k in steps)
+        return self.apply(moved(self, name, dx, dy),
+                          shift=(name, round(steps[0]), round(steps[1])) if whole else None)
+
+    def _shifted(self, name: str, columns: int, rows: int):
+        """The body's thickness moved by whole cells; None when it would leave the lattice."""
+        body = self.parts[name].body
+        t, (ny, nx) = body.thickness, self.spec.shape
+        loaded = np.argwhere(t != 0)
+        if not loaded.size:
+            return None
+        (j0, i0), (j1, i1) = loaded.min(axis=0), loaded.max(axis=0) + 1
+        if i0 + columns < 0 or j0 + rows < 0 or i1 + columns > nx or j1 + rows > ny:
+            return None
+        thickness = self.spec.zeros()
+        thickness[j0 + rows:j1 + rows, i0 + columns:i1 + columns] = t[j0:j1, i0:i1]
+        return replace(body, thickness=thickness)
 
     def undo(self) -> EditTiming | None:
         """Back to the layout before the last edit (None when there is none)."""
@@ -289,6 +318,27 @@ def movable_geometry(lay: Layout, name: str) -> tuple[str, list] | None:
 def moved(lay: Layout, name: str, dx: float, dy: float) -> dict:
     """The [bodies] tables with body `name` moved by (dx, dy) site-CRS units; a body read
     from a file gets its vertices inline (the file is left alone)."""
+    return _placed(lay, name, lambda xy: xy + [dx, dy])
+
+
+def rotated(lay: Layout, name: str, degrees: float) -> dict:
+    """The [bodies] tables with body `name` turned `degrees` anticlockwise about the centre
+    of its outline (the middle of a centreline)."""
+    a = np.radians(degrees)
+    turn = np.array([[np.cos(a), np.sin(a)], [-np.sin(a), np.cos(a)]])   # row vectors
+
+    def about_centre(xy):
+        if lay.doc["bodies"][name]["kind"] == "embankment":
+            c = shapely.LineString(xy).interpolate(0.5, normalized=True)
+        else:
+            c = shapely.Polygon(xy).centroid
+        return (xy - [c.x, c.y]) @ turn + [c.x, c.y]
+    return _placed(lay, name, about_centre)
+
+
+def _placed(lay: Layout, name: str, where) -> dict:
+    """The [bodies] tables with the plan vertices of body `name` replaced by
+    ``where(vertices)`` ((N, 2) site-CRS units; z values kept), inline."""
     found = movable_geometry(lay, name)
     if found is None:
         raise InputError("this body's geometry comes from a file that cannot be moved here "
@@ -299,7 +349,8 @@ def moved(lay: Layout, name: str, dx: float, dy: float) -> dict:
     raw = bodies[name]
     for k in ("file", "where", "id_field"):
         raw.pop(k, None)
-    raw[key] = [[v[0] + dx, v[1] + dy, *v[2:]] for v in xy]
+    plan = where(np.array([v[:2] for v in xy], float))
+    raw[key] = [[float(p[0]), float(p[1]), *v[2:]] for p, v in zip(plan, xy)]
     return bodies
 
 

@@ -12,10 +12,11 @@ import numpy as np
 
 from ..errors import InputError
 from ..run.compute import ASSUMPTIONS, CAUTIONS
-from .engine import EDITABLE_KEYS, moved, movable_geometry, open_layout, stress_limits, template
+from .engine import (EDITABLE_KEYS, movable_geometry, open_layout, rotated, stress_limits,
+                     template)
 from .save import save_as
 
-EDIT_OPS = ("move", "set", "add", "delete", "undo", "depth", "limits")
+EDIT_OPS = ("move", "rotate", "set", "add", "delete", "undo", "depth", "limits")
 
 
 class DesignSession:
@@ -46,11 +47,12 @@ class DesignSession:
         if op not in EDIT_OPS:
             raise InputError(f"must be one of {', '.join(EDIT_OPS)}, got {op!r}", argument="op")
         name = request.get("body")
-        if op in ("move", "set", "delete") and name not in lay.doc["bodies"]:
+        if op in ("move", "rotate", "set", "delete") and name not in lay.doc["bodies"]:
             raise InputError(f"no body named {name!r}", argument="body")
         if op == "move":
-            lay.apply(moved(lay, name, _number(request.get("dx"), "dx"),
-                            _number(request.get("dy"), "dy")))
+            lay.move(name, _number(request.get("dx"), "dx"), _number(request.get("dy"), "dy"))
+        elif op == "rotate":
+            lay.apply(rotated(lay, name, _number(request.get("degrees"), "degrees")))
         elif op == "set":
             bodies = lay.bodies_raw()
             for key, value in (request.get("values") or {}).items():
@@ -124,6 +126,7 @@ class DesignSession:
                              else u.pressure_out(self.stress_limit)},
             "timing": {"raster_s": t.raster_s, "slice_s": t.slice_s, "points_s": t.points_s,
                        "total_s": t.total_s, "full_rebuild": t.full_rebuild,
+                       "shifted": t.shifted, "cell": s.dx / f,
                        "open_s": self.open_s},
             "can_undo": bool(lay.history),
             "assumptions": ASSUMPTIONS, "cautions": CAUTIONS,

@@ -10,7 +10,7 @@ import shapely
 from .. import crs as crsmod
 from .._validate import positive
 from ..errors import InputError
-from .vectors import read_vector
+from .vectors import read_vector, source_name
 
 DEFAULT_HEIGHT_FIELDS = ("height_m", "height")
 
@@ -21,8 +21,10 @@ def read_footprints(path, height_field: str | None = None, crs=None, target_crs=
 
     Parameters
     ----------
-    path : str or path-like
-        GeoJSON, GeoPackage, shapefile or anything geopandas/pyogrio reads.
+    path : str, path-like or geopandas.GeoDataFrame
+        GeoJSON, GeoPackage, shapefile or anything geopandas/pyogrio reads, or the
+        footprints already in memory (a GeoDataFrame, or a GeoSeries with `height_field`
+        absent and 3D polygons).
     height_field : str, optional
         Attribute with the fill thickness. If None, ``height_m`` or ``height`` is used;
         without either, 3D polygons take their vertex z values (sloping top).
@@ -54,6 +56,7 @@ def read_footprints(path, height_field: str | None = None, crs=None, target_crs=
     """
     factor = positive(height_to_m, "height_to_m")
     gdf = read_vector(path, "Polygon", what="footprints")
+    path = source_name(path, "footprints")
     source = _layer_crs(gdf, crs, target_crs, path)
     if target_crs is None:
         site = _own_crs_as_site(gdf, source, path)

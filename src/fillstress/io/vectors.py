@@ -24,12 +24,31 @@ from ..errors import InputError
 # geopandas (GDAL) is imported inside the functions that use it: it is slow to load and
 # most commands never need it.
 
+def source_name(source, what: str = "features") -> str:
+    """How messages name a vector source: its path, or ``the <what> GeoDataFrame`` for
+    features given in memory.
+
+    >>> source_name("pads.geojson"), source_name(__import__("geopandas").GeoSeries(), "pads")
+    ('pads.geojson', 'the pads GeoSeries')
+    """
+    if _in_memory(source):
+        return f"the {what} {type(source).__name__}"
+    return os.fspath(source)
+
+
+def _in_memory(source) -> bool:
+    import geopandas as gpd
+    return isinstance(source, (gpd.GeoDataFrame, gpd.GeoSeries))
+
+
 def read_vector(path, geometry: str, *, parts: bool = True, layer=None, what: str = "features"):
     """Read a vector layer and check its features (see the module docstring).
 
     Parameters
     ----------
-    path : path-like
+    path : path-like, geopandas.GeoDataFrame or geopandas.GeoSeries
+        A vector file, or features already in memory (checked the same way; messages
+        name them with :func:`source_name`).
     geometry : {"Polygon", "LineString", "Point"}
         The kind every feature must be.
     parts : bool
@@ -58,14 +77,16 @@ def read_vector(path, geometry: str, *, parts: bool = True, layer=None, what: st
     """
     import geopandas as gpd
 
-    path = Path(os.fspath(path))
-    if not path.exists():
-        raise InputError("file not found", file=path)
-    try:
-        frame = gpd.read_file(path, layer=layer)
-    except Exception as exc:  # pyogrio and fiona raise several types for unreadable data
-        raise InputError(f"cannot be read as a vector layer ({str(exc).splitlines()[0]})",
-                         file=path) from None
+    if _in_memory(path):
+        frame = gpd.GeoDataFrame(geometry=path) if isinstance(path, gpd.GeoSeries) else path
+        frame, path = frame.copy(), source_name(path, what)
+    else:
+        path = _read_path(path)
+        try:
+            frame = gpd.read_file(path, layer=layer)
+        except Exception as exc:  # pyogrio and fiona raise several types for unreadable data
+            raise InputError(f"cannot be read as a vector layer "
+                             f"({str(exc).splitlines()[0]})", file=path) from None
     if len(frame) == 0:
         raise InputError(f"the layer has no features; expected {what}", file=path)
     allowed = {geometry, "Multi" + geometry} if parts else {geometry}
@@ -79,6 +100,17 @@ def read_vector(path, geometry: str, *, parts: bool = True, layer=None, what: st
             raise InputError(f"feature {k} is not a valid polygon "
                              f"({shapely.is_valid_reason(geom)})", file=path)
     return frame
+
+
+def _read_path(path) -> Path:
+    try:
+        path = Path(os.fspath(path))
+    except TypeError:
+        raise InputError("must be a vector file path, a GeoDataFrame or a GeoSeries, got "
+                         f"{type(path).__name__}", argument="path") from None
+    if not path.exists():
+        raise InputError("file not found", file=path)
+    return path
 
 
 def select(frame, id_field: str, where, path):

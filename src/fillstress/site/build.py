@@ -295,7 +295,7 @@ def load_site(path) -> Site:
 def build_site(cfg: SiteConfig) -> Site:
     s = cfg["site"]
     _check_method(cfg)
-    with _located(cfg, "site.crs"):
+    with _located(cfg, "site"):            # the error names its argument: crs
         site_crs = crsmod.site_crs(s["crs"]) if s.get("crs") else None
     factor = site_crs[1] if site_crs else 1.0
     ctx = _Context(cfg, site_crs, factor)
