@@ -5,7 +5,7 @@ import math
 
 import numpy as np
 import pytest
-from hypothesis import given, settings, strategies as st
+from hypothesis import example, given, settings, strategies as st
 
 from fillstress import InputError, LoadGrid
 from fillstress.solve.direct import vertical_stress
@@ -81,6 +81,9 @@ def test_surface_points_keep_the_surface_limit():
 
 
 @settings(max_examples=40, deadline=None)
+# found by hypothesis: a denormal depth beside a cell edge line (direct summation once
+# gave 1.33 kPa there, the surface value is 0)
+@example(seed=0, distance=6.0, angle=5e-324, depth=5e-324, order=1, method="westergaard")
 @given(seed=st.integers(0, 10_000), distance=st.floats(4.0, 60.0),
        angle=st.floats(0.0, 2 * math.pi), depth=st.floats(0.0, 40.0),
        order=st.integers(0, 6), method=st.sampled_from(["boussinesq", "westergaard"]))
