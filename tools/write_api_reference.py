@@ -23,6 +23,7 @@ COMMAND = "python tools/write_api_reference.py"
 SECTIONS = [
     ("Load model", ("fillstress.grid",)),
     ("Stress", ("fillstress.solve",)),
+    ("Distributed (Dask)", ("fillstress.solve.distributed",)),
     ("Site files and runs", ("fillstress.site.build", "fillstress.run")),
     ("Soil", ("fillstress.soil",)),
     ("Settlement", ("fillstress.settlement",)),
@@ -43,8 +44,10 @@ def public_api() -> list[tuple[str, list[str]]]:
         if name == "__version__":
             continue
         module = getattr(fillstress, name).__module__
-        title = next((t for t, prefixes in SECTIONS
-                      if any(module == p or module.startswith(p + ".") for p in prefixes)), None)
+        # the section of the longest listed prefix (solve.distributed before solve)
+        matches = [(len(p), t) for t, prefixes in SECTIONS for p in prefixes
+                   if module == p or module.startswith(p + ".")]
+        title = max(matches)[1] if matches else None
         if title is None:
             raise SystemExit(f"fillstress.{name} (from {module}) has no section in "
                              f"tools/write_api_reference.py SECTIONS")

@@ -16,6 +16,8 @@ _LAZY = {
     "LoadGrid": "grid", "GridSpec": "grid",
     "vertical_stress": "solve", "stress_slices": "solve",
     "stress_at_points": "solve.auto",
+    **dict.fromkeys(["connect", "distributed_points", "distributed_slices", "map_variants"],
+                    "solve.distributed"),
     "load_site": "site.build", "Site": "site.build",
     "compute": "run.compute", "run_site_file": "run.compute",
     "check_site_file": "run.compute", "point_stresses": "run.point", "run_batch": "run.batch",

@@ -41,11 +41,45 @@ WORKER_MEMORY = "auto"
 def connect(scheduler):
     """A Dask client for a scheduler address ("tcp://host:8786") or a local cluster size.
 
-    An int starts ``LocalCluster(n_workers=scheduler, threads_per_worker=1,
-    processes=True)``, closed on exit; a string connects to a running scheduler.
+    An int starts a local cluster, closed on exit:
+    ``LocalCluster(n_workers=scheduler, threads_per_worker=1, processes=True)``;
+    a string connects to a running scheduler. Needs the ``dask`` extra
+    (``pip install 'fillstress[dask]'``).
+
+    Parameters
+    ----------
+    scheduler : int or str
+        Number of local worker processes (>= 1), or the address of a running scheduler.
+
+    Yields
+    ------
+    distributed.Client
+        Closed, with the local cluster, when the with-block ends.
+
+    Raises
+    ------
+    InputError
+        A bad `scheduler`, a scheduler that cannot be reached, or a local cluster that
+        does not start.
+    ClusterError
+        The cluster lost its workers past the retries while the block ran.
 
     Examples
     --------
+    A local cluster's workers are new processes that import the calling script again,
+    so a script that starts one keeps its work under the ``__main__`` guard (without
+    it, each worker would start a cluster of its own):
+
+    >>> import numpy as np
+    >>> from fillstress import LoadGrid
+    >>> grid = LoadGrid(np.full((40, 40), 50.0), x0=0.0, y0=0.0, dx=1.0, dy=1.0)
+    >>> if __name__ == "__main__":
+    ...     with connect(2) as client:              # two local worker processes
+    ...         dsz = distributed_points(grid, [[20.0, 20.0, 5.0]], client=client)
+    ...         stack = distributed_slices(grid, [2.0, 5.0], client=client)
+
+    A bad size is refused before anything starts:
+
     >>> with connect(0.5) as client:
     ...     pass
     Traceback (most recent call last):
@@ -169,6 +203,26 @@ def distributed_points(grid, points, method="boussinesq", poisson=None, *, clien
 
     Same arguments and values as :func:`fillstress.solve.auto.stress_at_points`; the
     evaluator (with the far-field pyramid, if chosen) is sent to the workers once.
+
+    Parameters
+    ----------
+    grid : LoadGrid
+        Surface pressures.
+    points : array_like, shape (N, 3)
+        x, y (m, the grid's coordinates) and depth (m, > 0) of each point.
+    method, poisson, algorithm, chunk_size, tol, floor, order
+        As :func:`fillstress.solve.auto.stress_at_points`.
+    client : distributed.Client
+        From :func:`connect` (see its example for the ``__main__`` guard).
+    retries : int
+        Times a task lost with its worker is run again.
+    progress : optional
+        A progress factory (``progress(label, total)``), one step per chunk.
+
+    Returns
+    -------
+    numpy.ndarray, shape (N,)
+        Δσz (kPa), equal to the serial path's.
     """
     client = _client(client)
     retries = whole_number(retries, "retries", minimum=0)
@@ -200,6 +254,28 @@ def distributed_slices(grid, depths, method="boussinesq", poisson=None, *, clien
 
     Same lattice and values as :func:`fillstress.solve.slices.stress_slices` (untiled)
     or :func:`fillstress.solve.tiled.tiled_slices` (tiled).
+
+    Parameters
+    ----------
+    grid : LoadGrid
+        Surface pressures.
+    depths : sequence of float
+        Slice depths (m, > 0).
+    method, poisson, offset, pad
+        As :func:`fillstress.solve.slices.stress_slices`.
+    client : distributed.Client
+        From :func:`connect` (see its example for the ``__main__`` guard).
+    memory_cap, tile
+        As :func:`fillstress.solve.tiled.tiled_slices`; either makes one task per tile.
+    retries : int
+        Times a task lost with its worker is run again.
+    progress : optional
+        A progress factory (``progress(label, total)``), one step per task.
+
+    Returns
+    -------
+    xarray.DataArray
+        Δσz (kPa) on dims ``(depth, y, x)``, as the serial functions return it.
     """
     client = _client(client)
     retries = whole_number(retries, "retries", minimum=0)
@@ -234,6 +310,25 @@ class _Region(NamedTuple):
 
 def map_variants(fn, variants, client=None, *, retries=DEFAULT_RETRIES, progress=None) -> list:
     """``[fn(v) for v in variants]``, on Dask workers when a client is given.
+
+    Parameters
+    ----------
+    fn : callable
+        Applied to each variant; on workers it must be importable by them (a module-level
+        function, not a lambda defined under the ``__main__`` guard).
+    variants : iterable
+        The inputs.
+    client : distributed.Client, optional
+        From :func:`connect`; None runs here, in order.
+    retries : int
+        Times a task lost with its worker is run again.
+    progress : optional
+        A progress factory (``progress(label, total)``), one step per variant.
+
+    Returns
+    -------
+    list
+        ``fn(v)`` for each variant, in the order given.
 
     Examples
     --------
