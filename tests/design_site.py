@@ -75,6 +75,63 @@ mv = 0.0004
 '''
 
 
+# US customary units on a US-survey-foot CRS: a levee raise beside a staging pad (invented
+# "Cobble Creek"); the levee's toe has corners beyond the discs the grid estimate uses.
+US_SITE = '''\
+[site]
+name = "Cobble Creek levee raise"
+crs = "EPSG:2229"
+units = "US"
+
+[grid]
+cell = 4.0
+margin = 40.0
+convergence_check = false
+
+[bodies.levee]
+kind = "embankment"
+centreline = [[6400000.0, 1900000.0], [6400300.0, 1900060.0]]
+crest_width = 12.0
+side_slope = 3.0
+heights = [[0.0, 8.0], [306.0, 10.0]]
+unit_weight = 120.0
+
+[bodies.staging_pad]
+kind = "footprint"
+outline = [[6400100.0, 1899900.0], [6400180.0, 1899900.0], [6400180.0, 1899950.0], [6400100.0, 1899950.0]]
+height = 4.0
+unit_weight = 115.0
+stage = 2
+
+[[pipes]]
+id = "W-12in"
+line = [[6399950.0, 1899960.0], [6400350.0, 1899990.0]]
+crown_depth = 5.0
+diameter = 1.0
+spacing = 10.0
+differential_length = 40.0
+
+[[boreholes]]
+id = "CB-3"
+x = 6400150.0
+y = 1899925.0
+top = 2.0
+bottom = 40.0
+step = 2.0
+
+[soil]
+water_table = 6.0
+
+[[soil.layers]]
+name = "levee foundation silt"
+top = 0.0
+bottom = 60.0
+unit_weight = 115.0
+saturated_unit_weight = 122.0
+mv = 0.00002
+'''
+
+
 def write_design_site(folder: Path, text: str = SITE) -> Path:
     folder.mkdir(parents=True, exist_ok=True)
     path = folder / "depot.toml"

@@ -6,10 +6,17 @@ Site: tests/design_site.py (invented "Brindle Marsh depot")."""
 from __future__ import annotations
 
 import json
+import os
+import re
+import signal
 import socket
+import subprocess
+import sys
 import threading
 import urllib.error
 import urllib.request
+
+from pathlib import Path
 
 import pytest
 
@@ -18,6 +25,7 @@ from fillstress.cli import main
 from fillstress.design.server import TOKEN_HEADER, DesignServer
 from fillstress.design.state import DesignSession
 
+SRC = Path(__file__).resolve().parents[1] / "src"
 # no proxy from the environment between the test and 127.0.0.1
 OPENER = urllib.request.build_opener(urllib.request.ProxyHandler({}))
 
@@ -104,3 +112,26 @@ def test_a_bad_site_file_is_one_line_and_exit_2(tmp_path, capsys):
     assert main(["design", str(path), "--no-browser"]) == 2
     err = capsys.readouterr().err.strip()
     assert len(err.splitlines()) == 1 and "bodies.heap.repose_angle" in err
+
+
+@pytest.mark.parametrize("stop", [signal.SIGINT, signal.SIGTERM])
+def test_the_command_prints_the_address_serves_and_stops_cleanly(tmp_path, stop):
+    path = write_design_site(tmp_path)
+    env = {**os.environ, "PYTHONPATH": os.pathsep.join([str(SRC), os.environ.get("PYTHONPATH", "")])}
+    proc = subprocess.Popen([sys.executable, "-m", "fillstress.cli", "design", str(path),
+                             "--no-browser"], stdout=subprocess.PIPE, stderr=subprocess.PIPE,
+                            text=True, env=env)
+    try:
+        first = proc.stdout.readline()
+        url = re.search(r"http://127\.0\.0\.1:\d+/\?token=[\w-]+", first).group(0)
+        with OPENER.open(url, timeout=30) as r:
+            assert r.status == 200
+        with pytest.raises(urllib.error.HTTPError) as refused:
+            OPENER.open(url.split("?")[0], timeout=30)
+        assert refused.value.code == 403
+        proc.send_signal(stop)
+        out, err = proc.communicate(timeout=30)
+    finally:
+        proc.kill()
+    assert proc.returncode == 0 and "design page stopped" in out and err == ""
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["depot.toml"]

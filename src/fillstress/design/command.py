@@ -2,6 +2,7 @@
 browser, and stop cleanly on Ctrl-C."""
 from __future__ import annotations
 
+import signal
 import threading
 import webbrowser
 
@@ -26,9 +27,18 @@ def design_site_file(path, *, browser: bool = True, depth: float | None = None,
         webbrowser.open(server.url)
     if ready is not None:
         ready.set()
+    in_main = threading.current_thread() is threading.main_thread()
+    previous = signal.signal(signal.SIGTERM, _interrupt) if in_main else None
     try:
         server.serve_forever(poll_interval=0.2)
     except KeyboardInterrupt:
         announce(["design page stopped"])
     finally:
         server.server_close()
+        if in_main:
+            signal.signal(signal.SIGTERM, previous)
+
+
+def _interrupt(signum, frame):
+    """SIGTERM (a closed terminal, a service manager) stops the page as Ctrl-C does."""
+    raise KeyboardInterrupt

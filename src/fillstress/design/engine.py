@@ -75,11 +75,16 @@ class Layout:
     def xyz(self) -> np.ndarray:
         return self.site.points[["x", "y", "depth"]].to_numpy(float)
 
-    def slice_total(self) -> np.ndarray:
-        return sum((c.slice for c in self.parts.values()), np.zeros(self.spec.shape))
+    def _placed_by(self, stage: int | None):
+        return [c for c in self.parts.values() if stage is None or c.body.stage <= stage]
 
-    def point_total(self) -> np.ndarray:
-        return sum((c.points for c in self.parts.values()), np.zeros(len(self.site.points)))
+    def slice_total(self, stage: int | None = None) -> np.ndarray:
+        """Δσz (kPa) on the slice under the bodies placed by `stage` (default: all)."""
+        return sum((c.slice for c in self._placed_by(stage)), np.zeros(self.spec.shape))
+
+    def point_total(self, stage: int | None = None) -> np.ndarray:
+        """Δσz (kPa) at the receptor points under the bodies placed by `stage`."""
+        return sum((c.points for c in self._placed_by(stage)), np.zeros(len(self.site.points)))
 
     def bodies_raw(self) -> dict:
         return copy.deepcopy(self.doc["bodies"])
@@ -180,15 +185,27 @@ class Layout:
     # --- the numbers -------------------------------------------------------------------
     def _rasterise(self, name: str, s: GridSpec):
         """Body `name` on lattice `s`, rasterised on the cells around its outline only (the
-        same lattice, so the same cell values) and placed in zeros."""
+        same lattice, so the same cell values) and placed in zeros. The outline of the
+        build is the grid's estimate of the body's reach (an embankment's ends as discs of
+        its reach, where the toe has corners up to √2 times as far), so the window has
+        cells to spare, and the whole lattice is taken when the body still reaches beyond."""
         x0, y0, x1, y1 = self.site.context.outlines[name].bounds
-        i0 = min(max(0, int(np.floor((x0 - s.x0) / s.dx)) - 1), s.nx - 1)
-        j0 = min(max(0, int(np.floor((y0 - s.y0) / s.dy)) - 1), s.ny - 1)
-        i1 = max(min(s.nx, int(np.ceil((x1 - s.x0) / s.dx)) + 1), i0 + 1)
-        j1 = max(min(s.ny, int(np.ceil((y1 - s.y0) / s.dy)) + 1), j0 + 1)
+        kind = self.site.context.cfg["bodies"][name]["kind"]
+        reach = min(x1 - x0, y1 - y0) / 2 if kind == "embankment" else 0.0
+        spare = 4 + int(np.ceil(0.5 * reach / s.dx))
+        i0 = min(max(0, int(np.floor((x0 - s.x0) / s.dx)) - spare), s.nx - 1)
+        j0 = min(max(0, int(np.floor((y0 - s.y0) / s.dy)) - spare), s.ny - 1)
+        i1 = max(min(s.nx, int(np.ceil((x1 - s.x0) / s.dx)) + spare), i0 + 1)
+        j1 = max(min(s.ny, int(np.ceil((y1 - s.y0) / s.dy)) + spare), j0 + 1)
         window = GridSpec(s.x0 + i0 * s.dx, s.y0 + j0 * s.dy, s.dx, s.dy, i1 - i0, j1 - j0,
                           s.crs)
-        body = rebuild_body(self.site, name, window)
+        try:
+            body = rebuild_body(self.site, name, window)
+        except InputError:
+            if (i0, j0, i1, j1) == (0, 0, s.nx, s.ny):
+                raise
+            i0, j0, i1, j1 = 0, 0, s.nx, s.ny
+            body = rebuild_body(self.site, name, s)
         thickness = s.zeros()
         thickness[j0:j1, i0:i1] = body.thickness
         return replace(body, thickness=thickness, spec=s)
@@ -209,10 +226,11 @@ class Layout:
         timing.points_s += time.perf_counter() - t
         return Contribution(body, sl, pts)
 
-    def receptor_table(self, limits) -> tuple[list[dict], object]:
+    def receptor_table(self, limits, stage: int | None = None) -> tuple[list[dict], object]:
         """One row a receptor: its point of largest Δσz (SI) and, with a soil profile, the
-        largest Δσz/σ'v0; and the limit check of those values."""
-        p = self.site.points.assign(dsz=self.point_total())
+        largest Δσz/σ'v0, under the bodies placed by `stage`; and the limit check of those
+        values."""
+        p = self.site.points.assign(dsz=self.point_total(stage))
         soil = self.site.soil
         ratio = np.full(len(p), np.nan)
         if soil is not None:

@@ -16,7 +16,7 @@ from .engine import (EDITABLE_KEYS, movable_geometry, open_layout, rotated, stre
                      template)
 from .save import save_as
 
-EDIT_OPS = ("move", "rotate", "set", "add", "delete", "undo", "depth", "limits")
+EDIT_OPS = ("move", "rotate", "set", "add", "delete", "undo", "depth", "limits", "stage")
 
 
 class DesignSession:
@@ -34,6 +34,7 @@ class DesignSession:
         self.ratio_limit = _optional(ratio_limit, "--ratio-limit")
         self.stress_limit = None if stress_limit is None else \
             u.pressure_si(_optional(stress_limit, "--stress-limit"))      # kPa
+        self.stage = None                         # the bodies of every stage
         self.open_s = time.perf_counter() - t0
 
     @property
@@ -79,6 +80,12 @@ class DesignSession:
                 raise InputError("nothing to undo", argument="undo")
         elif op == "depth":
             lay.set_depth(u.length_si(_number(request.get("depth"), "depth")))
+        elif op == "stage":
+            stage = request.get("stage")
+            if stage is not None and stage not in lay.site.stages:
+                raise InputError(f"no construction stage {stage!r}; stages are "
+                                 f"{lay.site.stages}", argument="stage")
+            self.stage = stage
         elif op == "limits":
             self.ratio_limit = _optional(request.get("ratio"), "ratio")
             s = _optional(request.get("stress"), "stress")
@@ -94,8 +101,10 @@ class DesignSession:
         lay, u = self.layout, self.units
         f = lay.site.metres_per_unit
         s = lay.spec
-        total = lay.slice_total()
-        rows, check = lay.receptor_table(stress_limits(self.ratio_limit, self.stress_limit))
+        stage = self.stage if self.stage in lay.site.stages else None
+        total = lay.slice_total(stage)
+        rows, check = lay.receptor_table(stress_limits(self.ratio_limit, self.stress_limit),
+                                         stage)
         for row in rows:
             row.update(x=row["x"] / f, y=row["y"] / f, depth=u.length_out(row["depth"]),
                        dsz=u.pressure_out(row["dsz"]),
@@ -129,6 +138,7 @@ class DesignSession:
                        "shifted": t.shifted, "cell": s.dx / f,
                        "open_s": self.open_s},
             "can_undo": bool(lay.history),
+            "stages": lay.site.stages, "stage": stage,
             "assumptions": ASSUMPTIONS, "cautions": CAUTIONS,
         })
 
