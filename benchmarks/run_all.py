@@ -234,10 +234,12 @@ def markdown(ratios, compile_s, commands, far, calibration, startup, args) -> st
         "and scales with it.",
         "- `fillstress point`: it no longer loads the writers, report, viewer or geopandas, "
         "and a pile's toe distance is a numpy loop over its outline (about 30x the tree "
-        f"query); of its {point_s:.2f} s, {imports_s:.2f} s are the imports of the numerical "
-        "stack (numba, scipy, pandas, xarray), and most of the rest is numba's first call in "
-        "a process, which loads the cached kernel and sets up its CPU target. A numpy path "
-        "for a handful of points would skip that; it is not built.",
+        f"query). It still takes {point_s:.2f} s: its imports alone (numba, scipy, pandas, "
+        f"xarray) took {imports_s:.2f} s in the same run (each row is the best of a few runs "
+        "on a loaded machine, so the two are comparable, not additive), and numba's first "
+        "call in a process loads the cached kernel and sets up its CPU target (about a second "
+        "at this load, in cProfile). A numpy path for a handful of points would skip that; "
+        "it is not built.",
         "- Whole runs: the steps are in the table above (`--timings`); the report's figures, "
         "the plan slices of every stage and the half-cell convergence rebuild were not "
         "changed in this round.",
