@@ -131,3 +131,19 @@ def test_viewer_shows_settlement_on_the_surface(run, tmp_path):
         values = cube["settlement_pad"].values
     assert depths == [0.0]
     assert lo == 0.0 and hi == pytest.approx(np.nanpercentile(values, viewer.ROBUST_PERCENTILE))
+
+
+def test_settlement_plan_geotiff_and_report_map(run):
+    import rasterio
+
+    from fillstress.report import write_report
+    folder, _, _ = run
+    with rasterio.open(folder / "slices" / "settlement_pad.tif") as src:
+        tif = src.read(1)[::-1]                               # north-up → south first
+        assert src.units == ("mm",)
+    with xr.open_dataset(folder / "stress_cube.nc") as cube:
+        plan = cube["settlement_pad"].sortby("y_pad").values
+    assert tif.shape == plan.shape
+    assert np.allclose(tif, plan, rtol=1e-5, equal_nan=True)          # float32 in both files
+    page = write_report(folder).read_text()
+    assert "Final settlement (mm) at the ground surface along the load history" in page

@@ -63,8 +63,8 @@ def _draw_features(ax, buildings, pipes, boreholes):
             if poly.geom_type == "Polygon":
                 x, y = poly.exterior.xy
                 ax.fill(x, y, facecolor="white", edgecolor="black", alpha=0.55, linewidth=1.2)
-        c = feat.geometry.centroid
-        _label(ax, c.x, c.y, feat.receptor_id)
+        x0, _, _, y1 = feat.geometry.bounds      # top-left corner: a borehole in the middle
+        _label(ax, x0, y1, feat.receptor_id)      # of a building keeps its own label clear
     for feat in pipes:
         for line in getattr(feat.geometry, "geoms", [feat.geometry]):
             if line.geom_type == "LineString":

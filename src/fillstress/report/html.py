@@ -262,6 +262,13 @@ class _Report:
             parts.append(_img(png, f"Δσz ({self.u.pressure}) at depth {s.depth:g} "
                                    f"{self.u.length} below the existing ground, plan grid "
                                    f"'{s.grid}'"))
+        for s in self.f.plan_slices("settlement"):
+            png = figures.plan_map(s, fill=self.fill, buildings=self.buildings, pipes=self.pipes,
+                                   boreholes=self.boreholes, length_unit=plan_unit,
+                                   levels=figures.nice_levels(*s.value_range()),
+                                   label="settlement")
+            parts.append(_img(png, f"Final settlement ({self.u.settlement}) at the ground "
+                                   f"surface along the load history, plan grid '{s.grid}'"))
         return "".join(parts)
 
     def _groups(self, role: str):

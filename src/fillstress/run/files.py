@@ -291,6 +291,11 @@ def _write_rasters(res, folder) -> None:
             geotiff.write_geotiff(folder.path(f"slices/dsz_{name}_z{label}.tif"),
                                   da.sel(depth=depth).values, sub, quantity="pressure",
                                   units=u, description=f"dsz at depth {label}", crs=site.crs)
+    for name, da in res.plan_settlement.items():          # the settlement plan of each grid
+        geotiff.write_geotiff(folder.path(f"slices/settlement_{name}.tif"), da.values,
+                              _slice_spec(site, da), quantity="settlement", units=u,
+                              description="final settlement at the ground surface",
+                              crs=site.crs)
 
 
 def _slice_spec(site, da) -> GridSpec:
