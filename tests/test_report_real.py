@@ -171,6 +171,6 @@ def test_offscreen_render_is_not_blank(run, tmp_path):
     plotter = viewer.build_scene(run, layers=("slices",))
     try:
         assert plotter.fillstress_exaggeration > 1.0     # a flat site: depth is stretched
-        assert len(plotter.fillstress_slice_depths) == len(list((run / "slices").glob("*.tif")))
+        assert len(plotter.fillstress_slice_depths) == len(list((run / "slices").glob("dsz_*.tif")))
     finally:
         plotter.close()
