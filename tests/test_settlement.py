@@ -22,6 +22,7 @@ from fillstress.settlement import (consolidation_settlement, converged_settlemen
                                    sublayer_settlement, sublayers, time_factor, time_parameters,
                                    time_to_degree)
 from fillstress.soil import SoilLayer, SoilProfile
+from reference import terzaghi_average_degree
 
 from validation_cases import (GAMMA_W, SETTLEMENT, TIME_RATE, case_id, cases, check,
                               harrow_flat, one_sublayer)
@@ -219,10 +220,13 @@ def test_short_time_closed_form_and_series_agree_where_both_hold():
     tv = np.geomspace(1e-4, 1e-2, 9)
     np.testing.assert_allclose(st_mod._series_average_degree(tv), 2 * np.sqrt(tv / np.pi),
                                rtol=1e-12)
-    # and the public function is continuous across its switch at Tv = 1e-4
-    below, above = degree_of_consolidation([0.99999e-4, 1.00001e-4])
-    assert above - below == pytest.approx(2 * (np.sqrt(1.00001e-4) - np.sqrt(0.99999e-4)) / np.sqrt(np.pi),
-                                          rel=1e-6)
+    # and the public function is continuous across its switch at Tv = 1/40
+    below, above = degree_of_consolidation([0.025 * (1 - 1e-5), 0.025 * (1 + 1e-5)])
+    assert above - below == pytest.approx(2 * np.sqrt(0.025 / np.pi) * 1e-5, rel=1e-4)
+    # both sides of the switch against the series written out with 200 terms
+    tv = np.geomspace(1e-3, 2.0, 40)
+    np.testing.assert_allclose(degree_of_consolidation(tv), terzaghi_average_degree(tv),
+                               rtol=1e-13, atol=1e-15)
 
 
 def test_long_time_one_term_limit():

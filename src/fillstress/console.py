@@ -188,8 +188,8 @@ def closing_lines(summary) -> list[str]:
     if r.convergence:
         c = r.convergence
         u = r.site.units
-        lines.append(f"convergence: halving the cell ({u.length_out(c['cell']):g} → "
-                     f"{u.length_out(c['fine_cell']):g} {u.length}) "
+        lines.append(f"convergence: halving the cell ({u.length_out(c['cell']):.4g} → "
+                     f"{u.length_out(c['fine_cell']):.4g} {u.length}) "
                      f"changes Δσz by at most {100 * c['max_relative_change']:.2f} % "
                      f"(at {c['at_point']})")
     lines += [f"warning: {w}" for w in r.warnings]
