@@ -348,3 +348,14 @@ def test_default_exaggeration_is_automatic(truth):
     span = (np.ptp(truth.x) + np.ptp(truth.y)) / 2
     assert exaggeration == viewer.auto_exaggeration(span, height)
     assert zmin == pytest.approx(-exaggeration * max(truth.depths))
+
+
+def test_boreholes_are_thin_lines_whatever_the_site_span(tmp_path):
+    """A borehole is a line of a few pixels, not a tube scaled on the plan span (on a long
+    corridor that tube was a wide black column)."""
+    from fillstress.run.compute import run_site_file
+    from fillstress.examples import example_site
+    out = tmp_path / "res"
+    run_site_file(example_site("preload_surcharge"), out, report=False)
+    holes = [p for p in viewer.scene_parts(out).parts if p.layer == "boreholes"]
+    assert holes and all(p.kind == "lines" and p.mesh.n_points == 2 for p in holes)

@@ -416,8 +416,9 @@ class _PartsBuilder:
             if bottom <= top:
                 continue
             a, b = self.frame.points([x, x], [y, y], [-top, -bottom])
-            self.add("boreholes", "mesh", pv.Line(a, b).tube(radius=0.006 * self.span),
-                     color="black")
+            # a line a few pixels wide: a tube sized on the plan span was ~200 ft wide on a
+            # 3-mile corridor and stood like a black column under the depth exaggeration
+            self.add("boreholes", "lines", pv.Line(a, b), color="black", line_width=3.0)
 
     def add_map_furniture(self):
         """E and N ticks with site coordinates, a scale bar and a north arrow, on the lowest
