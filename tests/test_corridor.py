@@ -347,3 +347,25 @@ foundation_depth = 3.0
     assert load_site(path).alignment.profile_depths == pytest.approx((3 * FOOT, 6 * FOOT))
     path.write_text(LEVEE.replace("profile_depths = [10.0]\n", ""))
     assert load_site(path).alignment.profile_depths == ()      # nothing to take them from
+
+
+def test_plan_sheets_follow_the_levee_from_its_first_station_to_its_last(tmp_path):
+    """A long thin fill is drawn in sheets along the alignment: contiguous station ranges
+    from 10+00 to 16+00, each a picture; the report carries them."""
+    from fillstress.io.results import ResultsFolder
+    from fillstress.report import write_report
+    from fillstress.report.sheets import plan_sheets
+    from fillstress.run.compute import run_site_file
+    path = tmp_path / "site.toml"
+    path.write_text(LEVEE.replace("[grid]", "[grid]\nconvergence_check = false"))
+    out = tmp_path / "res"
+    run_site_file(path, out, report=False)
+    folder = ResultsFolder(out)
+    sheets = plan_sheets(folder, folder.table("alignment_profile"))
+    assert len(sheets) >= 2
+    assert all(png[:4] == b"\x89PNG" for png, _ in sheets)
+    ranges = [caption.split("stations ")[1].split(":")[0].split(" to ") for _, caption in sheets]
+    assert ranges[0][0] == "10+00" and ranges[-1][1] == "16+00"
+    assert all(a[1] == b[0] for a, b in zip(ranges, ranges[1:]))      # contiguous
+    page = write_report(out).read_text()
+    assert f"Plan sheet {len(sheets)} of {len(sheets)} along the alignment" in page

@@ -10,6 +10,7 @@ import numpy as np
 from ..io.results import ResultsFolder
 from ..site.alignment import format_station
 from .figures import _new_figure, nice_levels, png_bytes
+from .sheets import plan_sheets
 
 
 def _station_axis(ax, system: str, unit: str) -> None:
@@ -137,6 +138,8 @@ def alignment_section(folder: ResultsFolder, img, esc) -> str:
         parts.append('<div class="findings"><strong>Pipes along the corridor</strong><ul>'
                      + "".join(f"<li><strong>{esc(p)}</strong>: {esc(t)}</li>"
                                for p, t in highlights) + "</ul></div>")
+    for png, caption in plan_sheets(folder, profile):
+        parts.append(img(png, caption))
     parts.append(img(profile_figure(profile, u),
                      "Longitudinal profile along the centreline: fill over the existing "
                      "ground, Δσz under the final load at the profile depths, and the "
