@@ -138,3 +138,32 @@ def test_dask_points_and_slices_match_the_slow_reference(client):
         da = distributed_slices(grid, [0.5, 3.0], client=client, pad=2.0, tile=tile)
         np.testing.assert_allclose(da.values, reference.slice_stress(grid, da), rtol=0,
                                    atol=1e-9)
+
+
+def _hog(megabytes):
+    block = np.ones(megabytes * 2**20 // 8)          # touched: resident, not just reserved
+    return float(block.sum())
+
+
+def test_local_workers_hold_the_memory_limit_given_and_a_hog_fails_in_one_line():
+    """A deliberate per-worker limit (a run gives its memory cap over the workers): the
+    workers report it, and a task that needs four times as much is stopped by the
+    nanny, retried, then fails with one line instead of swapping the machine."""
+    from fillstress.errors import ClusterError
+    from fillstress.solve.distributed import connect
+    limit = 256 * 2**20
+    with pytest.raises(ClusterError) as err:
+        with connect(1, worker_memory=limit) as c:
+            workers = c.scheduler_info()["workers"].values()
+            assert [w["memory_limit"] for w in workers] == [limit]
+            assert map_variants(_hog, [16], client=c) == [16 * 2**20 / 8]   # fits
+            map_variants(_hog, [1024], client=c)
+    assert "\n" not in str(err.value)
+
+
+def test_worker_memory_below_what_a_worker_needs_is_refused():
+    from fillstress.errors import InputError
+    from fillstress.solve.distributed import connect
+    with pytest.raises(InputError, match="worker_memory"):
+        with connect(1, worker_memory=1000):
+            pass

@@ -263,7 +263,9 @@ def run_site_file(path, out=None, *, overwrite=False, report=True, progress=sile
     loaded_s = time.perf_counter() - t0
     cluster = cluster_choice(workers, scheduler, notes)
     if cluster:
-        with connect(cluster) as client:
+        # local workers share the run's memory cap, so the cluster holds what check said
+        share = int(memory_cap(site) // cluster) if isinstance(cluster, int) else None
+        with connect(cluster, worker_memory=share) as client:
             res = compute(site, progress, client)
     else:
         res = compute(site, progress)

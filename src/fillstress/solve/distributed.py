@@ -32,13 +32,23 @@ DEFAULT_RETRIES = 2
 SCHEDULER_TIMEOUT_S = 10
 #: Times a task may lose its worker before the run fails (Dask's default is 3).
 ALLOWED_FAILURES = 3
-#: Each local worker may use this share of the machine's memory; Dask pauses a worker at
-#: 80 % of it and restarts one at 95 % instead of letting the machine swap.
+#: Each local worker may use this share of the machine's memory unless `connect` is given
+#: a limit (a run gives its memory cap over the workers); Dask pauses a worker at 80 % of
+#: it and restarts one at 95 % instead of letting the machine swap.
 WORKER_MEMORY = "auto"
 
 
+def _worker_memory(limit) -> int | str:
+    """Dask's memory_limit of one local worker: `limit` bytes (a whole number >= 64 MiB,
+    below which a worker cannot even start), or WORKER_MEMORY."""
+    if limit is None:
+        return WORKER_MEMORY
+    return whole_number(limit, "worker_memory", minimum=64 * 2**20,
+                        meaning="bytes per worker, at least 64 MiB")
+
+
 @contextmanager
-def connect(scheduler):
+def connect(scheduler, *, worker_memory: int | None = None):
     """A Dask client for a scheduler address ("tcp://host:8786") or a local cluster size.
 
     An int starts a local cluster, closed on exit:
@@ -50,6 +60,9 @@ def connect(scheduler):
     ----------
     scheduler : int or str
         Number of local worker processes (>= 1), or the address of a running scheduler.
+    worker_memory : int, optional
+        Bytes each local worker may hold (default: an equal share of the machine's
+        memory); a running scheduler's workers keep their own limits.
 
     Yields
     ------
@@ -119,7 +132,8 @@ def connect(scheduler):
         own_threads = os.environ.get("NUMBA_NUM_THREADS")
         try:
             cluster = LocalCluster(n_workers=n, threads_per_worker=1, processes=True,
-                                   dashboard_address=":0", memory_limit=WORKER_MEMORY,
+                                   dashboard_address=":0",
+                                   memory_limit=_worker_memory(worker_memory),
                                    silence_logs=50)
         except Exception as exc:        # ports, processes, memory: the cluster did not start
             raise InputError(f"the local Dask cluster of {n} workers did not start "
