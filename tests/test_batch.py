@@ -72,6 +72,16 @@ def test_envelope_is_the_largest_value_of_any_variant(batch):
     stacked = np.vstack([_points(batch / n)["dsz_kPa"] for n in ("as_designed", "heavy", "taller")])
     np.testing.assert_allclose(env.loc[holes, "dsz_kPa"], stacked.max(axis=0), rtol=1e-12)
     assert set(env["variant_of_max_dsz"]) == {"taller"}        # 1.5 > 1.25 everywhere
+    # each column names the variant of its own maximum (settlement and stress ratio too)
+    names = ["as_designed", "heavy", "taller"]
+    for col in ("settlement_mm", "stress_ratio"):
+        values = np.vstack([_points(batch / n)[col] for n in names])
+        have = ~np.isnan(values).all(axis=0)
+        expected = np.array(names)[np.nanargmax(np.where(np.isnan(values), -np.inf, values),
+                                                 axis=0)]
+        got = env.loc[holes, f"variant_of_max_{col.removesuffix('_mm')}"].fillna("").to_numpy()
+        assert have.any() and (got[have] == expected[have]).all(), col
+        assert (got[~have] == "").all()
 
 
 def test_higher_water_table_lowers_effective_stress(batch):

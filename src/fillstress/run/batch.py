@@ -19,6 +19,7 @@ import math
 from dataclasses import dataclass
 from pathlib import Path
 
+import numpy as np
 import pandas as pd
 
 from .._version import __version__
@@ -121,19 +122,37 @@ def apply_variant(site, v: Variant):
     return out
 
 
+#: Envelope columns: each with the variant that gives its largest value.
+ENVELOPE_COLUMNS = ("dsz", "settlement", "stress_ratio")
+
+
 def envelope_points(frames: dict[str, pd.DataFrame]) -> pd.DataFrame:
     """Per receptor point the largest Δσz (and settlement, stress ratio) over the variants,
-    with the variant that gives the largest Δσz."""
+    each followed by the variant that gives it (``variant_of_max_<column>``: the first
+    variant on a tie, empty where no variant has a value).
+
+    Examples
+    --------
+    >>> point = {"receptor_kind": ["borehole"], "receptor_id": ["B1"], "point_id": ["B1-1"],
+    ...          "role": ["borehole"], "x": [0.0], "y": [0.0], "depth": [2.0],
+    ...          "chainage": [float("nan")]}
+    >>> env = envelope_points({"heavy": pd.DataFrame({**point, "dsz": [60.0], "settlement": [0.02]}),
+    ...                        "soft": pd.DataFrame({**point, "dsz": [50.0], "settlement": [0.05]})})
+    >>> env[["dsz", "variant_of_max_dsz", "settlement", "variant_of_max_settlement"]].values.tolist()
+    [[60.0, 'heavy', 0.05, 'soft']]
+    """
     tagged = pd.concat([f.assign(variant=name) for name, f in frames.items()],
                        ignore_index=True)
     keys = ["receptor_kind", "receptor_id", "point_id"]
-    first = tagged.groupby(keys, sort=False).first().reset_index()
-    worst = tagged.loc[tagged.groupby(keys, sort=False)["dsz"].idxmax()]
-    out = first[keys + ["role", "x", "y", "depth", "chainage"]].copy()
-    for col in ("dsz", "settlement", "stress_ratio"):
-        if col in tagged:
-            out[col] = tagged.groupby(keys, sort=False)[col].max().to_numpy()
-    out["variant_of_max_dsz"] = worst["variant"].to_numpy()
+    groups = tagged.groupby(keys, sort=False)
+    out = groups.first().reset_index()[keys + ["role", "x", "y", "depth", "chainage"]]
+    for col in ENVELOPE_COLUMNS:
+        if col not in tagged:
+            continue
+        out[col] = groups[col].max().to_numpy()
+        ranked = tagged[col].fillna(-np.inf).groupby([tagged[k] for k in keys], sort=False)
+        worst = tagged.loc[ranked.idxmax(), "variant"].to_numpy()
+        out[f"variant_of_max_{col}"] = np.where(np.isnan(out[col].to_numpy(float)), "", worst)
     return out
 
 
@@ -195,7 +214,9 @@ def run_batch(site_path, variants_path, out, *, overwrite=False, report=False,
                       version=__version__)
         env = envelope_points({v.name: r.points for v, r in zip(variants, results)})
         write_table_csv(folder.path("envelope_points.csv"), env, site.units,
-                        {**column_quantities(env), "variant_of_max_dsz": None}, crs=site.crs)
+                        {**column_quantities(env), **dict.fromkeys(
+                            (f"variant_of_max_{c}" for c in ENVELOPE_COLUMNS), None)},
+                        crs=site.crs)
         write_manifest(folder, settings={"variants": [vars(v) for v in variants]},
                        units=site.units, inputs=[*site.input_files, Path(variants_path)],
                        site_file=site.path, crs=site.crs, grid=site.spec,
