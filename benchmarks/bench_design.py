@@ -130,11 +130,15 @@ def markdown(rows: list[dict], repeat: int) -> str:
             f"{r['ms']:.0f} / {r['median']:.0f} | {1000 * t['raster_s']:.0f}, "
             f"{1000 * t['slice_s']:.0f}, {1000 * t['points_s']:.0f} | "
             f"{'met' if r['ms'] <= 500 else '**not met**'} |")
-    lines += ["", "Where the target is missed, the time goes into rasterising the body: a pile's "
-              "or embankment's cell averages (16 sub-samples a cell, the distance to the toe or "
-              "the centreline at each; shapes/stockpile.py, shapes/embankment.py) on the cells "
-              "around it. The other edits that rasterise (height, slopes, a turn) cost the same "
-              "as a typed move.", END]
+    missed = [f"{r['site']}: {r['what']}" for r in rows if r["ms"] > 500]
+    if missed:
+        lines += ["", f"Where the target is missed ({'; '.join(missed)}), the time goes into "
+                  "rasterising the body: its cell averages (16 sub-samples a cell; "
+                  "shapes/stockpile.py, shapes/embankment.py) on the cells around it, an "
+                  "embankment's window widened by half its reach for the toe corners. The "
+                  "other edits that rasterise (height, slopes, a turn) cost about as much as a "
+                  "typed move; a drag shifts the cells and stays well inside the target."]
+    lines.append(END)
     return "\n".join(lines)
 
 

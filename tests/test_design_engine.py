@@ -78,7 +78,8 @@ def test_set_keys_add_and_delete_equal_a_fresh_run(layout, tmp_path):
     assert {b.name: b.stage for b in site.bodies}["pad"] == 3
     layout.apply(template(layout, "pile", 400020.0, 6100060.0))
     layout.apply(template(layout, "rectangle", 400060.0, 6100060.0))
-    assert list(layout.parts)[-2:] == ["pile_1", "rectangle_1"]
+    layout.apply(template(layout, "embankment", 400040.0, 6099985.0))
+    assert list(layout.parts)[-3:] == ["pile_1", "rectangle_1", "embankment_1"]
     assert_same_as_fresh(layout, tmp_path)
     bodies = layout.bodies_raw()
     del bodies["bund"]
@@ -205,6 +206,7 @@ def test_a_us_customary_site_on_survey_feet(tmp_path):
     lay = open_layout(write_design_site(tmp_path, US_SITE))
     assert lay.site.units.name == "US" and lay.site.metres_per_unit != 1.0
     assert_same_as_fresh(lay, tmp_path)
+    lay.apply(template(lay, "embankment", 6400150.0, 1900120.0))   # on survey feet
     lay.move("levee", 0.0, 35.5)                 # feet: not whole 4 ft cells
     lay.move("staging_pad", 8.0, -4.0)           # whole cells: shifted
     assert lay.timing.shifted

@@ -135,3 +135,11 @@ def test_the_command_prints_the_address_serves_and_stops_cleanly(tmp_path, stop)
         proc.kill()
     assert proc.returncode == 0 and "design page stopped" in out and err == ""
     assert sorted(p.name for p in tmp_path.iterdir()) == ["depot.toml"]
+
+
+def test_a_negative_depth_is_refused_in_the_site_unit(tmp_path, capsys):
+    from design_site import US_SITE
+    path = write_design_site(tmp_path, US_SITE)
+    assert main(["design", str(path), "--no-browser", "--depth", "-3"]) == 2
+    assert capsys.readouterr().err.strip().endswith(
+        "argument --depth: must be >= 0 ft below the ground, got -3")

@@ -15,6 +15,7 @@ every body is rasterised again on the new one.
 from __future__ import annotations
 
 import copy
+import math
 import time
 from dataclasses import dataclass, field, replace
 from pathlib import Path
@@ -373,8 +374,9 @@ def _placed(lay: Layout, name: str, where) -> dict:
 
 
 def template(lay: Layout, kind: str, x: float, y: float) -> dict:
-    """The [bodies] tables with a new body of `kind` ("rectangle" or "pile") centred at
-    (x, y) site-CRS units: a 20 m square pad 2 m high, or a 12 m radius pile at 35°."""
+    """The [bodies] tables with a new body of `kind` centred at (x, y) site-CRS units:
+    "rectangle", a 20 m square pad 2 m high; "pile", a 12 m radius pile at 35°; or
+    "embankment", a 60 m segment running east, 2 m high with a 4 m crest and 2:1 sides."""
     u, f = lay.site.units, lay.site.metres_per_unit
     bodies = lay.bodies_raw()
     n = 1
@@ -389,7 +391,17 @@ def template(lay: Layout, kind: str, x: float, y: float) -> dict:
         ring = shapely.Point(x, y).buffer(12.0 / f, quad_segs=8).exterior.coords[:-1]
         body = {"kind": "pile", "unit_weight": round(u.out(17.0, "unit_weight"), 3),
                 "repose_angle": 35.0, "outline": [[round(a, 3), round(b, 3)] for a, b in ring]}
+    elif kind == "embankment":
+        h = 30.0 / f
+        # the profile runs a little past the line's end: its length in the site's length
+        # unit differs from its length in CRS units (a survey foot is not a foot)
+        end = math.ceil(u.length_out(60.0) * 10 + 1) / 10
+        body = {"kind": "embankment", "unit_weight": round(u.out(19.0, "unit_weight"), 3),
+                "centreline": [[x - h, y], [x + h, y]], "crest_width": round(u.length_out(4.0), 3),
+                "side_slope": 2.0, "heights": [[0.0, round(u.length_out(2.0), 3)],
+                                               [end, round(u.length_out(2.0), 3)]]}
     else:
-        raise InputError(f"must be rectangle or pile, got {kind!r}", argument="template")
+        raise InputError(f"must be rectangle, pile or embankment, got {kind!r}",
+                         argument="template")
     bodies[f"{kind}_{n}"] = body
     return bodies

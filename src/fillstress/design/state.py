@@ -29,7 +29,7 @@ class DesignSession:
         self.layout = lay = open_layout(path)
         u = lay.site.units
         if depth is not None:
-            lay.set_depth(u.length_si(_number(depth, "depth")))
+            lay.set_depth(u.length_si(_depth(depth, "--depth", u)))
         # no default limit: what a receptor may take is the project's to state
         self.ratio_limit = _optional(ratio_limit, "--ratio-limit")
         self.stress_limit = None if stress_limit is None else \
@@ -79,7 +79,7 @@ class DesignSession:
             if lay.undo() is None:
                 raise InputError("nothing to undo", argument="undo")
         elif op == "depth":
-            lay.set_depth(u.length_si(_number(request.get("depth"), "depth")))
+            lay.set_depth(u.length_si(_depth(request.get("depth"), "depth", u)))
         elif op == "stage":
             stage = request.get("stage")
             if stage is not None and stage not in lay.site.stages:
@@ -176,6 +176,15 @@ def _number(v, name: str) -> float:
     if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v):
         raise InputError(f"must be a number, got {v!r}", argument=name)
     return float(v)
+
+
+def _depth(v, name: str, units) -> float:
+    """A depth in the site's length unit, checked in that unit (the message shows it)."""
+    v = _number(v, name)
+    if v < 0:
+        raise InputError(f"must be >= 0 {units.length} below the ground, got {v:g}",
+                         argument=name)
+    return v
 
 
 def _optional(v, name: str) -> float | None:
