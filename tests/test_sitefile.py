@@ -102,3 +102,32 @@ ocr = 1.0
     assert cfg["soil"]["layers"][0]["cc"] == 0.4
     with pytest.raises(InputError, match=r"\[soil.layers\[0\].ee\] unknown key; did you mean 'e0'"):
         read_site_file(write(tmp_path, text.replace("e0 = 1.1", "ee = 1.1")))
+
+
+def test_embankment_with_a_bend_and_no_margin_fits_its_own_grid(tmp_path):
+    """With [grid] margin = 0 the grid still holds the whole embankment: the toe's corners
+    at a sloped end and the outside of a bend (once refused as 'reaches outside the
+    analysis grid'); its volume equals the one on a grid with room around it."""
+    import numpy as np
+    from fillstress.site.build import load_site
+    text = """[site]
+name = "toe test"
+units = "SI"
+[grid]
+cell = 1.0
+margin = {margin}
+[bodies.bank]
+kind = "embankment"
+centreline = [[0, 0], [100, 0], [160, 40]]
+crest_width = 10.0
+side_slope = 2.0
+heights = [[0, 4.0], [180, 4.0]]
+unit_weight = 20.0
+"""
+    volumes = []
+    for margin in (0.0, 20.0):
+        path = tmp_path / f"m{margin:g}.toml"
+        path.write_text(text.format(margin=margin))
+        site = load_site(path)
+        volumes.append(float(np.sum(site.bodies[0].thickness)) * site.spec.dx * site.spec.dy)
+    assert volumes[0] == pytest.approx(volumes[1], rel=1e-6)

@@ -73,7 +73,9 @@ def check_within_grid(bounds, spec: GridSpec, argument: str) -> None:
     """Refuse a body that reaches outside the analysis grid (its load would be lost)."""
     xmin, ymin, xmax, ymax = bounds
     gx0, gy0, gx1, gy1 = spec.extent
-    tol = 1e-9 * max(abs(gx0), abs(gx1), abs(gy0), abs(gy1), spec.dx, spec.dy)
+    # a body's region is a slightly generous polygon (a sloped toe's rounded corners, by
+    # segments): a thousandth of a cell past the edge carries no load worth refusing for
+    tol = max(1e-9 * max(abs(gx0), abs(gx1), abs(gy0), abs(gy1)), 1e-3 * min(spec.dx, spec.dy))
     if xmin < gx0 - tol or ymin < gy0 - tol or xmax > gx1 + tol or ymax > gy1 + tol:
         raise InputError(
             f"reaches outside the analysis grid: body bounds ({xmin:.3f}, {ymin:.3f}, "

@@ -434,11 +434,10 @@ def _body_outline(ctx: _Context, name: str, raw: dict):
             return shapely.box(*ctx.surface(raw["design"]).bounds)
     if kind == "embankment":
         line = ctx.lines[name] = _outline_from(ctx, raw, where, line=True)
-        reach = _embankment_reach(raw)
-        ends = shapely.buffer(shapely.points(list(line.coords)[::len(line.coords) - 1]), reach)
-        # one polygon: the strip and both end discs (a union with the array of discs
-        # would give an array, which the grid's union with other bodies cannot take)
-        return shapely.union_all([line.buffer(reach, cap_style="flat"), *ends])
+        # square ends and mitred bends: the toe's corners at a sloped end lie up to
+        # √2·reach from the end point, and the outside of a bend beyond a round offset
+        return line.buffer(_embankment_reach(raw), cap_style="square", join_style="mitre",
+                           mitre_limit=4.0)
     if kind == "footprint" and raw.get("file") is not None and raw.get("height") is None:
         frame = ctx.footprints[name] = _footprint_frame(ctx, raw)
         return shapely.union_all(frame.geometry.values)
