@@ -293,7 +293,9 @@ def test_report_shows_the_profile_and_sections_with_us_stations(tmp_path):
     html = (tmp_path / "out" / "report.html").read_text()
     section = html[html.index('<section id="alignment"'):]
     section = section[:section.index("</section>")]
-    assert "Cross-section at station 13+00" in section and section.count("<img") == 2
+    sheets = section.count('<img alt="Plan sheet')          # 600 ft of a 60 ft wide levee
+    assert "Cross-section at station 13+00" in section and sheets == 3
+    assert section.count("<img") == 2 + sheets               # profile, section and sheets
     raw = (tmp_path / "out" / "alignment_profile.csv").read_bytes()
     assert raw.startswith(b"\xef\xbb\xbf")          # UTF-8 BOM, as every CSV of a run
     head = raw.decode("utf-8-sig").splitlines()[:2]
