@@ -443,6 +443,17 @@ CASES = [
          names=("quantity", "stress")),
     Case("example-unknown", "command line", "an example name that does not exist",
          argv("example", "moon_base", "-o", "{d}/o"), names=("moon_base",)),
+    Case("limits-unknown-receptor", "site file", "a [[limits.overrides]] entry for a "
+         "receptor the site does not have",
+         site(append='\n[limits]\nstress_ratio = 0.2\n[[limits.overrides]]\n'
+              'receptor = "B9"\nstress_ratio = 0.3\n', command="check"),
+         names=("limits.overrides[0].receptor", "'B9'")),
+    Case("limits-misspelt-key", "site file", "[limits] settlment = 50 (misspelt)",
+         site(append="\n[limits]\nsettlment = 50.0\n", command="check"),
+         names=("limits.settlment", "did you mean 'settlement'")),
+    Case("limits-length-missing", "site file", "[limits] pipe_differential without its length",
+         site(append="\n[limits]\npipe_differential = 20.0\n", command="check"),
+         names=("limits.pipe_differential", "pipe_differential_length")),
     Case("check-folder", "command line", "fillstress check on a folder",
          argv("check", "{d}"), names=("is a folder",)),
 

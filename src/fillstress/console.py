@@ -192,10 +192,23 @@ def closing_lines(summary) -> list[str]:
                      f"{u.length_out(c['fine_cell']):.4g} {u.length}) "
                      f"changes Δσz by at most {100 * c['max_relative_change']:.2f} % "
                      f"(at {c['at_point']})")
+    if r.limits is not None and r.limits.governing is not None:
+        lines.append(governing_line(r.limits.governing, r.site.units))
     lines += [f"warning: {w}" for w in r.warnings]
     lines.append(f"results written to {summary.folder}")
     lines.append(CAUTIONS.split(";")[0] + ".")
     return lines
+
+
+def governing_line(g, units) -> str:
+    """'governing limit: settlement at building B1, 31 of 25 mm, utilisation 1.24 (over)'."""
+    from .run.limits import unit_of
+    label, factor = unit_of(g.row.limit.quantity, units)
+    unit = "" if label == "1" else f" {label}"
+    state = "reached" if g.row.utilisation >= 1 else "not reached"
+    return (f"governing limit: {g.row.limit.label} at {g.kind} {g.row.receptor_id}, "
+            f"{g.row.value / factor:.4g} of {g.row.limit.value / factor:.4g}{unit}, "
+            f"utilisation {g.row.utilisation:.3g} ({state}; limits.csv)")
 
 
 def _plain(value):

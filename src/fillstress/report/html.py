@@ -18,6 +18,7 @@ from pyproj import CRS
 from ..errors import InputError
 from ..io.atomic import write_atomic
 from .corridor import alignment_section
+from .limits import CSS as LIMITS_CSS, limits_section
 from ..io.results import ResultsFolder, UnitLabels
 from . import figures
 from .labels import heading, unit_text
@@ -47,6 +48,7 @@ SECTIONS = (
     ("profiles", "Vertical profiles"),
     ("pipes", "Pipe profiles"),
     ("alignment", "Along the alignment"),
+    ("limits", "Limits"),
     ("time", "Settlement with time"),
     ("record", "Settlement calculation record"),
     ("tables", "Result tables"),
@@ -418,6 +420,7 @@ class _Report:
         bodies = {"site": self.site, "inputs": self.inputs, "method": self.method,
                   "plans": self.plans, "profiles": self.profiles, "pipes": self.pipe_profiles,
                   "alignment": lambda: alignment_section(self.f, _img, esc),
+                  "limits": lambda: limits_section(self.f),
                   "time": self.time, "tables": self.tables, "convergence": self.convergence,
                   "record": lambda: calculation_record(self.f) or
                   '<p class="note">No settlement calculation record in this results folder.</p>',
@@ -432,7 +435,7 @@ class _Report:
         top = ('<div class="caution" id="cautions-top"><ul>'
                + "".join(f"<li>{esc(t)}</li>" for t in self._caution_items()) + "</ul></div>")
         return ("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
-                f"<title>{esc(title)}</title><style>{CSS}</style></head><body>"
+                f"<title>{esc(title)}</title><style>{CSS}{LIMITS_CSS}</style></head><body>"
                 f"<h1>Vertical stress below fills: {esc(title)}</h1>"
                 + top + self.findings() + self.warnings() + "".join(sections)
                 + "</body></html>\n")

@@ -27,6 +27,7 @@ from ..solve.distributed import connect, distributed_points, distributed_slices
 from ..solve.tiled import tiled_slices
 from . import settle
 from .corridor import corridor_results
+from .limits import LimitResults, limit_results
 from .plan import describe_run, memory_cap, plan_pad, slices_need_tiles, validate_run
 
 ASSUMPTIONS = (
@@ -63,6 +64,7 @@ class RunResults(Summarised):
     timings: dict = field(default_factory=dict)
     warnings: list = field(default_factory=list)     # shown by the command and the summary
     corridor: dict = field(default_factory=dict)     # alignment tables (run.corridor)
+    limits: LimitResults | None = None               # utilisation of each limit (run.limits)
 
     def _summary(self):
         u, pts = self.site.units, self.points
@@ -147,6 +149,7 @@ def compute(site: Site, progress=silent, client=None) -> RunResults:
                     res.plan_settlement = settle.plan_settlement(
                         site, lambda plan, z, g: _plan_slices(site, g, replace(plan, depths=z),
                                                               client))
+        res.limits = limit_results(res)
         if site.alignment is not None:
             with step("alignment"):
                 res.corridor = corridor_results(site, lambda g, xyz: stress(site, g, xyz, client))

@@ -105,7 +105,8 @@ EXTRA_QUANTITIES = {"chainage_at_max": "length", "differential_length": "length"
                     "depth_at_max": "length", "elevation": "length", "cut_volume": "volume",
                     "compared_area": "area", "stress_ratio_max": None, "tilt": None,
                     "deflection_ratio": None, "angular_change_max": None,
-                    "curvature_radius_min": "length"}
+                    "curvature_radius_min": "length", "utilisation_max": None,
+                    "utilisation": None, "value": None, "limit_value": None}
 
 
 def stress_summary(points: pd.DataFrame) -> pd.DataFrame:
@@ -134,6 +135,8 @@ def kind_summary(res, kind: str) -> pd.DataFrame:
     if res.profiles:
         prof = pd.DataFrame(res.profiles)
         summary = summary.merge(prof, on="receptor_id", how="left")
+    if res.limits is not None and res.limits.rows:
+        summary = summary.merge(res.limits.by_receptor(kind), on="receptor_id", how="left")
     return summary
 
 
@@ -206,6 +209,9 @@ def _write_tables(res, folder) -> None:
                                 quantities={k: column_quantities(v.drop(columns="geometry"))
                                             for k, v in layers.items()})
     write_corridor_tables(res, folder)
+    if res.limits is not None and res.limits.rows:   # values converted row by row
+        tables.write_table_csv(folder.path("limits.csv"), res.limits.table(u), u,
+                               column_quantities(pd.DataFrame()))
     if res.time_curves:
         rows = [{"receptor_id": rid, "days": d, "settlement": s}
                 for rid, (days, curve) in res.time_curves.items() for d, s in zip(days, curve)]

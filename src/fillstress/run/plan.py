@@ -13,6 +13,7 @@ from ..solve.cost import (Estimate, check_capacity, estimate_points, estimate_sl
                           format_bytes, memory_cap_bytes)
 from ..solve.slices import pad_cells
 from . import corridor
+from .limits import limits_in_force
 from .settle import _settlement_points
 from .timeline import load_states
 
@@ -151,6 +152,7 @@ def describe_run(site) -> list[list]:
     rows += [[f"drains: {z.id}", f"{z.drains.pattern}, {u.length_out(z.drains.spacing_m):g} "
               f"{u.length} spacing, to {u.length_out(z.drains.depth_m):g} {u.length}"]
              for z in site.drains]
+    rows += limits_in_force(site.settings, u)
     rows += [[f"estimate: {e.operation}", f"{format_bytes(e.bytes)}, about {e.seconds:.2g} s "
               f"({e.detail})" + (" — will be tiled" if e.bytes > cap and
                                  e.operation.startswith("plan grid") else "")]

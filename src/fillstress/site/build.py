@@ -21,6 +21,7 @@ from shapely.geometry import LineString, Point, Polygon
 
 from .. import crs as crsmod
 from .._summary import Summarised, crs_text
+from ..decide.limits import BUILDING_LIMITS, Limit
 from ..drains import VerticalDrains
 from ..errors import InputError
 from ..grid import GridSpec, LoadGrid
@@ -83,6 +84,9 @@ class RunSettings:
     readings: Path | None = None             # [monitoring]: readings CSV
     construction: Path | None = None         # [monitoring]: construction record CSV
     day0: str | None = None                  # [monitoring]: calendar date of day 0
+    limits: tuple[Limit, ...] = ()           # [limits]: the general limits given (SI)
+    building_limits: tuple[Limit, ...] = BUILDING_LIMITS   # published ones ([limits] published)
+    limit_overrides: dict[str, tuple[Limit, ...]] = field(default_factory=dict)  # receptor →
 
 
 @dataclass(repr=False)
@@ -313,7 +317,8 @@ def build_site(cfg: SiteConfig) -> Site:
                 [body for body, _ in built.values()],
                 grid.get("method", "boussinesq"),
                 grid.get("poisson") if grid.get("method") == "westergaard" else None,
-                ctx.ground, _soil(cfg), _points(ctx, receptors), receptors, _settings(cfg),
+                ctx.ground, _soil(cfg), _points(ctx, receptors), receptors,
+                replace(_settings(cfg), **_limits(cfg, receptors)),
                 input_files=tuple(cfg.input_files()), plan_grids=_plan_grids(ctx, spec),
                 cut_reports={n: cut for n, (_, cut) in built.items() if cut is not None},
                 existing_surfaces=ctx.existing_surfaces,
@@ -347,6 +352,53 @@ def _settings(cfg: SiteConfig) -> RunSettings:
         **{k: monitoring.get(k) for k in ("readings", "construction", "day0")},
         **{k: outputs.get(k, True) is not False for k in ("geotiff", "netcdf", "geopackage",
                                                              "vtk", "report", "scene")})
+
+
+# [limits] key → (quantity of decide.limits, label in the tables)
+LIMIT_QUANTITIES = {"stress_increase": "stress_increase", "stress_ratio": "stress_ratio",
+                    "settlement": "settlement",
+                    "differential_settlement": "differential_settlement",
+                    "angular_distortion": "angular_distortion", "tilt": "tilt",
+                    "pipe_differential": "differential_settlement",
+                    "pipe_radius_min": "pipe_curvature"}
+
+
+def _limits(cfg: SiteConfig, receptors: Receptors) -> dict:
+    """The RunSettings fields of [limits]: general limits, the published building limits in
+    force and the per-receptor overrides (SI)."""
+    raw = cfg.get("limits")
+    if raw is None:
+        return {}
+    ids = {r.id for items in receptors.by_table().values() for r in items}
+    overrides = {}
+    for i, over in enumerate(raw["overrides"]):
+        where = f"limits.overrides[{i}]"
+        if over["receptor"] not in ids:
+            raise InputError(f"no building, pipe or borehole has the id {over['receptor']!r}",
+                             file=cfg.path, key=f"{where}.receptor")
+        overrides[over["receptor"]] = (overrides.get(over["receptor"], ())
+                                       + _limit_values(cfg, over, where, "[[limits.overrides]]"))
+    return dict(limits=_limit_values(cfg, raw, "limits", "[limits]"),
+                building_limits=BUILDING_LIMITS if raw["published"] else (),
+                limit_overrides=overrides)
+
+
+def _limit_values(cfg: SiteConfig, raw: dict, where: str, source: str) -> tuple[Limit, ...]:
+    if (raw.get("pipe_differential") is None) != (raw.get("pipe_differential_length") is None):
+        given = "pipe_differential" if raw.get("pipe_differential") is not None else \
+            "pipe_differential_length"
+        raise InputError("pipe_differential and pipe_differential_length go together",
+                         file=cfg.path, key=f"{where}.{given}")
+    out = []
+    for key, quantity in LIMIT_QUANTITIES.items():
+        value = raw.get(key)
+        if value is None:
+            continue
+        if key == "pipe_radius_min":
+            value = 1.0 / value                       # curvature limit 1/R
+        length = raw["pipe_differential_length"] if key == "pipe_differential" else None
+        out.append(Limit(quantity, value, f"site file {source}", length_m=length, name=key))
+    return tuple(out)
 
 
 def _profile_depths(cfg: SiteConfig, receptors: Receptors) -> list[float]:

@@ -108,7 +108,14 @@ def validate(raw: dict, path: Path) -> SiteConfig:
             raise InputError("needs at least one [[soil.layers]] entry", file=path, key="soil.layers")
         tables["soil"]["layers"] = [v.table(t, schema.LAYER, f"soil.layers[{i}]")
                                     for i, t in enumerate(layers)]
+    if "limits" in tables:
+        overrides = raw["limits"].get("overrides", [])
+        tables["limits"]["overrides"] = v.table_group(overrides, schema.LIMIT_OVERRIDES)
     return SiteConfig(path, units, tables)
+
+
+# Arrays of tables inside a table, validated on their own (soil.layers, limits.overrides).
+SUB_TABLES = {"soil": ["layers"], "limits": ["overrides"]}
 
 
 def _units_name(site_raw, path):
@@ -153,7 +160,7 @@ class _Validator:
             self.fail(f"{where}.kind", f"must be one of {', '.join(table.variants)}, got {kind!r}")
         keys = table.keys_for(kind)
         raw = self._spelled(raw, keys, where)
-        valid = [k.name for k in keys] + (["layers"] if table is schema.SOIL else [])
+        valid = [k.name for k in keys] + SUB_TABLES.get(table.name, [])
         _reject_unknown(raw, valid, self.path, where)
         out = {}
         for key in keys:
@@ -260,4 +267,6 @@ class _Validator:
             return u.to_si(v, "compressibility")
         if key.unit == schema.CV:
             return u.to_si(v, "consolidation")
+        if key.unit == schema.SETTLE:
+            return u.to_si(v, "settlement")
         return v

@@ -11,13 +11,16 @@ from dataclasses import dataclass, field
 # Unit kinds a key can carry; site/build.py converts each to SI with the site's unit system.
 # COORD: plan coordinates in the units of the site CRS (metres, international or US survey
 # feet), converted with the CRS's own axis factor, not with the unit system's length.
-LENGTH, PRESSURE, UNIT_WEIGHT, ANGLE, INV_PRESSURE, CV, COORD, NONE = (
-    "length", "pressure", "unit_weight", "angle", "1/pressure", "length2/time", "crs", "")
+# SETTLE: a settlement (mm on SI sites, inches on US sites).
+LENGTH, PRESSURE, UNIT_WEIGHT, ANGLE, INV_PRESSURE, CV, COORD, SETTLE, NONE = (
+    "length", "pressure", "unit_weight", "angle", "1/pressure", "length2/time", "crs",
+    "settlement", "")
 
 UNIT_LABELS = {  # (SI label, US label) for the reference
     LENGTH: ("m", "ft"), PRESSURE: ("kPa", "psf"), UNIT_WEIGHT: ("kN/m³", "pcf"),
     ANGLE: ("degrees", "degrees"), INV_PRESSURE: ("1/kPa", "1/psf"),
-    CV: ("m²/year", "ft²/year"), COORD: ("CRS unit", "CRS unit"), NONE: ("", ""),
+    CV: ("m²/year", "ft²/year"), COORD: ("CRS unit", "CRS unit"), SETTLE: ("mm", "in"),
+    NONE: ("", ""),
 }
 
 
@@ -373,7 +376,41 @@ MONITORING = Table("monitoring", "Field readings for `fillstress monitor` (readi
         "stage_days and the readings' days count.", example='"2025-03-03"'),
 ))
 
+_LIMIT_VALUES = (
+    Key("stress_increase", "float", "Largest Δσz at any point of a receptor (a building's "
+        "foundation points, a pipe's crown, a borehole's depths).", unit=PRESSURE, **_POS),
+    Key("stress_ratio", "float", "Largest Δσz/σ'v0 at any point of a receptor (needs "
+        "[soil]).", **_POS, example="0.1"),
+    Key("settlement", "float", "Largest settlement of a building or pipe (needs [soil]).",
+        unit=SETTLE, **_POS),
+    Key("differential_settlement", "float", "Differential settlement: between any two points "
+        "of a building, and along a pipe over its own differential_length.",
+        unit=SETTLE, **_POS),
+    Key("angular_distortion", "float", "Angular distortion β of a building (Burland & Wroth "
+        "1974), as a ratio (1/500 = 0.002).", **_POS),
+    Key("tilt", "float", "Tilt ω of a building, as a ratio.", **_POS),
+    Key("pipe_differential", "float", "Differential settlement of a pipe within "
+        "pipe_differential_length (needs it).", unit=SETTLE, **_POS),
+    Key("pipe_differential_length", "float", "Length over which pipe_differential is judged.",
+        unit=LENGTH, **_POS),
+    Key("pipe_radius_min", "float", "Smallest radius of curvature of a settled pipe: the "
+        "curvature limit is 1/R.", unit=LENGTH, **_POS),
+)
+LIMITS = Table("limits", "Limits on what the fill may do to the receptors; each result "
+               "marks its utilisation (value ÷ limit, 1 = the limit is reached) and the "
+               "governing receptor. A key left out sets no limit of its own.", _LIMIT_VALUES + (
+    Key("published", "bool", "Apply the published limits for buildings (Bjerrum 1963; "
+        "Skempton & MacDonald 1956: angular distortion, tilt, settlement, differential "
+        "settlement); a value given here for the same quantity replaces them.",
+        default=True),
+))
+LIMIT_OVERRIDES = Table("limits.overrides", "Limits of one receptor, each an "
+                        "[[limits.overrides]] entry: every quantity it gives replaces the "
+                        "general limits of that quantity at this receptor.", (
+    Key("receptor", "str", "Id of the building, pipe or borehole.", required=True),
+) + _LIMIT_VALUES, many="array")
+
 TABLES: tuple[Table, ...] = (SITE, GRID, GROUND, BODIES, ALIGNMENT, SOIL, LAYER, BUILDINGS,
                              PIPES, BOREHOLES, PLAN_GRIDS, SETTLEMENT, DRAINS, OUTPUTS,
-                             MONITORING)
+                             MONITORING, LIMITS, LIMIT_OVERRIDES)
 TOP_LEVEL = {t.name: t for t in TABLES if "." not in t.name}

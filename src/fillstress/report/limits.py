@@ -1,0 +1,59 @@
+"""Report section "Limits": the utilisation (value ÷ limit) of every limit in force at every
+receptor, from limits.csv of a results folder (written by :mod:`fillstress.run.limits`).
+Rows at or over their limit are shaded; the governing row is outlined."""
+from __future__ import annotations
+
+from ..io.results import ResultsFolder
+from .tables import _fmt, esc, is_flag_set, plain
+
+COLUMNS = (("receptor_kind", "receptor"), ("receptor_id", "id"), ("limit", "limit"),
+           ("value", "value"), ("limit_value", "limit value"), ("unit", "unit"),
+           ("utilisation", "utilisation"), ("source", "source of the limit"))
+CSS = ("tr.governing td { border-top: 2px solid #1d1d1d; border-bottom: 2px solid #1d1d1d; "
+       "font-weight: bold; }")
+
+
+def limits_section(folder: ResultsFolder) -> str:
+    """HTML of the section (a note when the folder has no limits.csv)."""
+    table = folder.table("limits")
+    if table is None or table.empty:
+        return '<p class="note">No limit applied to any receptor of this run.</p>'
+    rows = table.to_dict("records")
+    governing = next((r for r in rows if is_flag_set(r.get("governing"))), None)
+    parts = []
+    if governing is not None:
+        u = governing["utilisation"]
+        parts.append(f'<div class="findings{"" if u >= 1 else " none"}"><strong>Governing '
+                     f"limit</strong>: {esc(governing['limit'])} at "
+                     f"{esc(governing['receptor_kind'])} {esc(governing['receptor_id'])}, "
+                     f"{esc(plain(governing['value']))} of {esc(plain(governing['limit_value']))}"
+                     f" {esc(_unit(governing['unit']))} — utilisation {esc(plain(u))} "
+                     f"({'limit reached' if u >= 1 else 'within the limit'}).</div>")
+    head = "".join(f"<th>{esc(h)}</th>" for _, h in COLUMNS)
+    body = []
+    for r in rows:
+        cls = [c for c, on in (("flagged", r["utilisation"] >= 1),
+                               ("governing", r is governing)) if on]
+        cells = "".join(_cell(r, key) for key, _ in COLUMNS)
+        body.append(f'<tr class="{" ".join(cls)}">{cells}</tr>' if cls else f"<tr>{cells}</tr>")
+    parts.append(f"<table><thead><tr>{head}</tr></thead><tbody>{''.join(body)}</tbody></table>")
+    parts.append('<p class="note">Utilisation = value ÷ limit: 1 means the limit is just '
+                 "reached; rows shaded red reach or pass their limit and the outlined row "
+                 "governs (the largest utilisation). Stress limits take the largest value "
+                 "over a receptor's points; settlement limits the building and pipe checks. "
+                 "A negative utilisation is heave or unloading. Every row is in "
+                 "<code>limits.csv</code>.</p>")
+    return "".join(parts)
+
+
+def _unit(label) -> str:
+    return "" if str(label) == "1" else str(label)
+
+
+def _cell(row: dict, key: str) -> str:
+    value = row.get(key)
+    if key == "unit":
+        return f"<td>{esc(_unit(value))}</td>"
+    if key in ("value", "limit_value", "utilisation"):
+        return f'<td class="num">{_fmt(value)}</td>'
+    return f"<td>{esc(plain(value))}</td>"
