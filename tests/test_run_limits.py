@@ -210,6 +210,9 @@ def test_published_building_limits_without_and_with_a_limits_table(tmp_path):
     assert none.settings.building_limits == BUILDING_LIMITS and none.settings.limits == ()
     rows = compute(none).limits.rows
     assert {r.kind for r in rows} == {"building"}
+    run_site_file(tmp_path / "a.toml", tmp_path / "out", report=False)   # no borehole limit
+    holes = pd.read_csv(tmp_path / "out" / "boreholes_summary.csv", encoding="utf-8-sig")
+    assert "utilisation_max" not in holes and len(holes) == 1
     assert {r.row.limit.name for r in rows} == {lim.name for lim in BUILDING_LIMITS}
     off = load_site(write(tmp_path, site_text(limits="[limits]\npublished = false\n"
                                               "tilt = 0.01\n"), "b.toml"))

@@ -135,8 +135,9 @@ def kind_summary(res, kind: str) -> pd.DataFrame:
     if res.profiles:
         prof = pd.DataFrame(res.profiles)
         summary = summary.merge(prof, on="receptor_id", how="left")
-    if res.limits is not None and res.limits.rows:
-        summary = summary.merge(res.limits.by_receptor(kind), on="receptor_id", how="left")
+    used = res.limits.by_receptor(kind) if res.limits is not None else None
+    if used is not None and len(used):
+        summary = summary.merge(used, on="receptor_id", how="left")
     return summary
 
 
