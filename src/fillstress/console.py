@@ -194,6 +194,11 @@ def closing_lines(summary) -> list[str]:
                      f"(at {c['at_point']})")
     if r.limits is not None and r.limits.governing is not None:
         lines.append(governing_line(r.limits.governing, r.site.units))
+    u = r.site.units
+    lines += [f"maximum height of {m.body}: {u.length_out(m.max_height_m):.4g} {u.length} "
+              f"(× {m.scale:.4g}), {m.limit} first reached at {m.receptor_kind} {m.receptor_id}"
+              if m.limit else f"maximum height of {m.body}: no limit reached"
+              for m in r.max_heights]
     lines += [f"warning: {w}" for w in r.warnings]
     lines.append(f"results written to {summary.folder}")
     lines.append(CAUTIONS.split(";")[0] + ".")

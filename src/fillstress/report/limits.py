@@ -43,7 +43,32 @@ def limits_section(folder: ResultsFolder) -> str:
                  "over a receptor's points; settlement limits the building and pipe checks. "
                  "A negative utilisation is heave or unloading. Every row is in "
                  "<code>limits.csv</code>.</p>")
-    return "".join(parts)
+    return "".join(parts) + max_heights_table(folder)
+
+
+def max_heights_table(folder: ResultsFolder) -> str:
+    """The factor on each body's height at the first limit (max_heights.csv), if any."""
+    table = folder.table("max_heights")
+    if table is None or table.empty:
+        return ""
+    height = next(c for c in table.columns if c.startswith("max_height"))
+    rows = "".join(
+        f"<tr><td>{esc(r['body'])}</td><td class=\"num\">{_fmt(r['scale'])}</td>"
+        f"<td class=\"num\">{_fmt(r[height])}</td><td>{esc(plain(r['governing_limit']))}</td>"
+        f"<td>{esc(plain(r['receptor_kind']))} {esc(plain(r['receptor_id']))}</td>"
+        f"<td class=\"num\">{_fmt(r['tolerance'])}</td></tr>" for r in table.to_dict("records"))
+    unit = height.removeprefix("max_height_") or ""
+    return ("<h3>Maximum height of each body</h3><table><thead><tr><th>body</th>"
+            f"<th>factor on its height</th><th>maximum height ({esc(unit)})</th>"
+            "<th>first limit reached</th><th>at</th><th>relative tolerance</th></tr></thead>"
+            f"<tbody>{rows}</tbody></table>"
+            '<p class="note">The factor on one body\'s height, every other body in place, at '
+            "which the first limit in force is reached: exact for stress limits (Δσz is "
+            "linear in the load), by a root search on the full settlement for settlement "
+            "limits (to the stated relative tolerance; 0 = exact). The body keeps its plan "
+            "shape: its thickness is scaled everywhere (a pile of fixed repose angle that "
+            "grows at its toe is a different question). Excavations are not searched. "
+            "Every row is in <code>max_heights.csv</code>.</p>")
 
 
 def _unit(label) -> str:

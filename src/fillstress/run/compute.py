@@ -27,6 +27,7 @@ from ..solve.distributed import connect, distributed_points, distributed_slices
 from ..solve.tiled import tiled_slices
 from . import settle
 from .corridor import corridor_results
+from .decisions import max_heights
 from .limits import LimitResults, limit_results
 from .plan import describe_run, memory_cap, plan_pad, slices_need_tiles, validate_run
 
@@ -65,6 +66,8 @@ class RunResults(Summarised):
     warnings: list = field(default_factory=list)     # shown by the command and the summary
     corridor: dict = field(default_factory=dict)     # alignment tables (run.corridor)
     limits: LimitResults | None = None               # utilisation of each limit (run.limits)
+    settlement_columns: object = None                # settle.SettlementColumns
+    max_heights: list = field(default_factory=list)  # decisions.MaxHeight per body
 
     def _summary(self):
         u, pts = self.site.units, self.points
@@ -127,6 +130,7 @@ def compute(site: Site, progress=silent, client=None) -> RunResults:
     steps = 2 + len(site.plan_grids) + (2 if site.soil is not None else 0) + _conv_steps(site)
     steps += bool(site.soil is not None and site.plan_grids)
     steps += site.alignment is not None
+    steps += site.settings.max_heights
     timings = {}
     with progress("computing", steps) as bar:
         step = _Steps(timings, bar)
@@ -150,6 +154,9 @@ def compute(site: Site, progress=silent, client=None) -> RunResults:
                         site, lambda plan, z, g: _plan_slices(site, g, replace(plan, depths=z),
                                                               client))
         res.limits = limit_results(res)
+        if site.settings.max_heights:
+            with step("max_heights"):
+                res.max_heights = max_heights(res, lambda g, xyz: stress(site, g, xyz, client))
         if site.alignment is not None:
             with step("alignment"):
                 res.corridor = corridor_results(site, lambda g, xyz: stress(site, g, xyz, client))

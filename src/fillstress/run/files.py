@@ -213,6 +213,11 @@ def _write_tables(res, folder) -> None:
     if res.limits is not None and res.limits.rows:   # values converted row by row
         tables.write_table_csv(folder.path("limits.csv"), res.limits.table(u), u,
                                column_quantities(pd.DataFrame()))
+    if res.max_heights:
+        from .decisions import table
+        heights = table(res.max_heights)
+        tables.write_table_csv(folder.path("max_heights.csv"), heights, u,
+                               {"scale": None, "tolerance": None})
     if res.time_curves:
         rows = [{"receptor_id": rid, "days": d, "settlement": s}
                 for rid, (days, curve) in res.time_curves.items() for d, s in zip(days, curve)]

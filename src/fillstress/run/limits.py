@@ -105,10 +105,15 @@ def general_limits(settings, kind: str) -> tuple[Limit, ...]:
 def limit_results(res) -> LimitResults:
     """Utilisation of every limit in force at every receptor of a run (`res`: RunResults
     after the settlement steps)."""
-    settings = res.site.settings
-    structures = {"building": {b.receptor_id: b for b in res.buildings},
-                  "pipe": {p.receptor_id: p for p in res.pipes}, "borehole": {}}
-    maxima = _point_maxima(res.points)
+    return check_receptors(res.site.settings, _point_maxima(res.points), res.buildings,
+                           res.pipes)
+
+
+def check_receptors(settings, maxima: dict, buildings, pipes) -> LimitResults:
+    """Utilisation rows of the point maxima ({kind: {id: {quantity: value}}}) and the
+    building and pipe checks against the limits in force."""
+    structures = {"building": {b.receptor_id: b for b in buildings},
+                  "pipe": {p.receptor_id: p for p in pipes}, "borehole": {}}
     rows = []
     for kind, results in structures.items():
         limits = general_limits(settings, kind)
@@ -116,7 +121,7 @@ def limit_results(res) -> LimitResults:
         ids = maxima.get(kind, {})
         checks = [check_limits(ids, _only(limits, True), _only(overrides, True)),
                   check_limits(results, _only(limits, False), _only(overrides, False))]
-        rows += _in_receptor_order(kind, list(ids), checks)
+        rows += _in_receptor_order(kind, list(ids) or list(results), checks)
     governing = max(rows, key=lambda r: r.row.utilisation) if rows else None
     return LimitResults(tuple(rows), governing)
 

@@ -3,6 +3,8 @@ points, consolidation settlement of every stage, the building and pipe checks an
 settlement–time curves (all SI)."""
 from __future__ import annotations
 
+from typing import NamedTuple
+
 import numpy as np
 import pandas as pd
 
@@ -83,10 +85,12 @@ def settlement_results(res, evaluate) -> None:
     stage_state = {s.stage: e for e, s in enumerate(states) if s.stage is not None}
     per_state = np.full((len(targets), len(states)), np.nan)
     points = {}                                  # row → (z, h, dsz per body, path)
+    groups = []                                  # (rows, z, h, Δσz per body) by depth
     for depth, idx in targets.groupby("depth").indices.items():
         z, h = st.sublayers(soil, top_depth=float(depth))
         if len(z) == 0:
             per_state[idx] = 0.0
+            groups.append((idx, None, None, None))
             continue
         sub = targets.iloc[idx]
         xyz = np.column_stack([np.repeat(sub["x"].to_numpy(), len(z)),
@@ -95,6 +99,7 @@ def settlement_results(res, evaluate) -> None:
         per_body = np.stack([evaluate(g, xyz).reshape(len(sub), len(z)) for g in body_grids],
                             axis=1)                                        # (N, B, K)
         dsz = np.einsum("eb,nbk->nek", active, per_body)                   # (N, E, K)
+        groups.append((idx, z, h, per_body))
         # Unloading beyond σ'v0 (a deep excavation) leaves 1-D consolidation: those
         # points get no settlement and a warning, the others are computed as usual.
         tension = np.any(soil.sigma_v0_eff(z) + dsz <= 0, axis=(1, 2))
@@ -121,7 +126,8 @@ def settlement_results(res, evaluate) -> None:
     merged = res.points.drop(columns=[c for c in cols if c in res.points], errors="ignore")
     # boreholes: the surface settlement belongs to the borehole, shown on its first point
     res.points = merged.merge(targets[key + cols], on=key, how="left")
-    _structure_checks(res, targets)
+    res.settlement_columns = SettlementColumns(targets, active, groups)
+    res.buildings, res.pipes = structure_checks(site, targets)
     history.settlement_record(res, targets, states, points)
 
 
@@ -172,21 +178,35 @@ def plan_settlement(site, slices_at) -> dict:
     return out
 
 
-def _structure_checks(res, targets: pd.DataFrame) -> None:
-    limits = {**DEFAULT_LIMITS, **res.site.settings.distortion_limits}
+class SettlementColumns(NamedTuple):
+    """What the settlement step computed at its points, kept to recompute the settlement
+    with one body scaled (run/decisions.py): the points, the bodies in place at each load
+    state (E, B) and by point depth (rows, sublayer mid-depths z, thicknesses h, Δσz of
+    each body (N, B, K); z None where no compressible soil lies below)."""
+
+    targets: pd.DataFrame
+    active: np.ndarray
+    groups: list
+
+
+def structure_checks(site, targets: pd.DataFrame) -> tuple[list, list]:
+    """The building and pipe checks (structures.py) on the settlement of `targets`."""
+    limits = {**DEFAULT_LIMITS, **site.settings.distortion_limits}
     targets = targets[targets["settlement"].notna()]     # points in heave have none
-    for b in res.site.receptors.buildings:
+    buildings, pipes = [], []
+    for b in site.receptors.buildings:
         g = targets[targets["receptor_id"] == b.id]
         if len(g) < 2:
             continue
-        res.buildings.append(building_settlement(
+        buildings.append(building_settlement(
             b.id, g[["x", "y"]].to_numpy(), g["settlement"].to_numpy(),
             point_ids=g["point_id"].tolist(), limits=limits,
             outline=np.asarray(b.geometry.exterior.coords)))
-    for pipe in res.site.receptors.pipes:
+    for pipe in site.receptors.pipes:
         g = targets[targets["receptor_id"] == pipe.id].sort_values("chainage")
         if len(g) < 2:
             continue
-        res.pipes.append(pipe_settlement(pipe.id, g["chainage"].to_numpy(),
-                                         g["settlement"].to_numpy(), g["dsz"].to_numpy(),
-                                         pipe.differential_length))
+        pipes.append(pipe_settlement(pipe.id, g["chainage"].to_numpy(),
+                                     g["settlement"].to_numpy(), g["dsz"].to_numpy(),
+                                     pipe.differential_length))
+    return buildings, pipes

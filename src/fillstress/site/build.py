@@ -87,6 +87,7 @@ class RunSettings:
     limits: tuple[Limit, ...] = ()           # [limits]: the general limits given (SI)
     building_limits: tuple[Limit, ...] = BUILDING_LIMITS   # published ones ([limits] published)
     limit_overrides: dict[str, tuple[Limit, ...]] = field(default_factory=dict)  # receptor →
+    max_heights: bool = False                # [limits] max_heights: search each body's
 
 
 @dataclass(repr=False)
@@ -380,7 +381,7 @@ def _limits(cfg: SiteConfig, receptors: Receptors) -> dict:
                                        + _limit_values(cfg, over, where, "[[limits.overrides]]"))
     return dict(limits=_limit_values(cfg, raw, "limits", "[limits]"),
                 building_limits=BUILDING_LIMITS if raw["published"] else (),
-                limit_overrides=overrides)
+                limit_overrides=overrides, max_heights=bool(raw["max_heights"]))
 
 
 def _limit_values(cfg: SiteConfig, raw: dict, where: str, source: str) -> tuple[Limit, ...]:

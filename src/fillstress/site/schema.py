@@ -403,6 +403,10 @@ LIMITS = Table("limits", "Limits on what the fill may do to the receptors; each 
         "Skempton & MacDonald 1956: angular distortion, tilt, settlement, differential "
         "settlement); a value given here for the same quantity replaces them.",
         default=True),
+    Key("max_heights", "bool", "Also find each fill body's maximum height: the factor on its "
+        "height, the other bodies in place, at which the first limit is reached "
+        "(max_heights.csv; a root search on the settlement per body, so the run takes "
+        "longer).", default=False),
 ))
 LIMIT_OVERRIDES = Table("limits.overrides", "Limits of one receptor, each an "
                         "[[limits.overrides]] entry: every quantity it gives replaces the "
