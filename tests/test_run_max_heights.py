@@ -119,3 +119,17 @@ def test_max_heights_csv_and_off_by_default(tmp_path):
     assert not plain.settings.max_heights
     res = compute(plain)
     assert res.max_heights == [] and res.limits.governing is not None
+
+
+def test_console_says_when_the_other_bodies_already_reach_a_limit():
+    """Scale 0 is no height at all: the line says why instead of 'maximum height 0 ft'."""
+    from types import SimpleNamespace
+
+    from fillstress.console import _max_height_line
+    from fillstress.units import US
+    row = dict(body="widening", limit="stress_increase", receptor_kind="borehole",
+               receptor_id="QB-1")
+    blocked = _max_height_line(SimpleNamespace(**row, scale=0.0, max_height_m=0.0), US)
+    assert "none, the other bodies alone already reach stress_increase at borehole QB-1" in blocked
+    fine = _max_height_line(SimpleNamespace(**row, scale=1.5, max_height_m=3.048), US)
+    assert "10 ft (× 1.5)" in fine

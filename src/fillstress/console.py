@@ -195,10 +195,7 @@ def closing_lines(summary) -> list[str]:
     if r.limits is not None and r.limits.governing is not None:
         lines.append(governing_line(r.limits.governing, r.site.units))
     u = r.site.units
-    lines += [f"maximum height of {m.body}: {u.length_out(m.max_height_m):.4g} {u.length} "
-              f"(× {m.scale:.4g}), {m.limit} first reached at {m.receptor_kind} {m.receptor_id}"
-              if m.limit else f"maximum height of {m.body}: no limit reached"
-              for m in r.max_heights]
+    lines += [_max_height_line(m, u) for m in r.max_heights]
     lines += [f"warning: {w}" for w in r.warnings]
     lines.append(f"results written to {summary.folder}")
     lines.append(CAUTIONS.split(";")[0] + ".")
@@ -259,3 +256,15 @@ def _fmt(v) -> str:
             return f"{v:,.0f}"
         return f"{v:.3g}" if abs(v) < 1e-2 and v != 0 else f"{v:,.2f}"
     return str(v)
+
+
+def _max_height_line(m, u) -> str:
+    """One body's maximum height, or why it has none."""
+    if not m.limit:
+        return f"maximum height of {m.body}: no limit reached"
+    where = f"{m.receptor_kind} {m.receptor_id}"
+    if m.scale <= 0:
+        return (f"maximum height of {m.body}: none, the other bodies alone already reach "
+                f"{m.limit} at {where}")
+    return (f"maximum height of {m.body}: {u.length_out(m.max_height_m):.4g} {u.length} "
+            f"(× {m.scale:.4g}), {m.limit} first reached at {where}")
