@@ -140,7 +140,7 @@ def describe_run(site) -> list[list]:
         ["units", f"{u.name} ({u.length}, {u.pressure}, {u.unit_weight})"],
         ["method", site.method + (f", ν = {site.poisson:g}" if site.poisson is not None else "")],
         ["analysis grid", f"{site.spec.nx} × {site.spec.ny} cells of "
-                          f"{u.length_out(site.spec.dx):.5g} {u.length} ({loaded:,} loaded)"],
+                          f"{u.length_out(site.spec.dx):.4g} {u.length} ({loaded:,} loaded)"],
         ["cell size rule", site.cell_rule],
         ["construction stages", ", ".join(map(str, site.stages))],
         ["receptor points", ", ".join(f"{n} {k}" for k, n in kinds.items()) or "none"],
