@@ -260,8 +260,10 @@ def _fmt(v) -> str:
 
 def _max_height_line(m, u) -> str:
     """One body's maximum height, or why it has none."""
+    from .run.plan import PLAUSIBLE_FILL_M       # the run layer: only when there is a result
     if not m.limit:
-        return f"maximum height of {m.body}: no limit reached"
+        return (f"maximum height of {m.body}: no limit reached below "
+                f"{u.length_out(PLAUSIBLE_FILL_M):.4g} {u.length}, higher than any earth fill")
     where = f"{m.receptor_kind} {m.receptor_id}"
     if m.scale <= 0:
         return (f"maximum height of {m.body}: none, the other bodies alone already reach "

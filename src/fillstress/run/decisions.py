@@ -20,6 +20,7 @@ import pandas as pd
 from .. import settlement as st
 from ..decide.limits import limits_for
 from ..decide.max_height import linear_scale, scale_at_limit
+from .plan import PLAUSIBLE_FILL_M
 from . import limits as lm
 from .settle import structure_checks
 
@@ -28,8 +29,9 @@ RTOL = 1e-4              # relative tolerance on the factor of a settlement limi
 
 @dataclass(frozen=True)
 class MaxHeight:
-    """One body's factor on its height at the first limit (inf: none reached up to
-    2⁴⁰ times its height), the height it gives (m), the limit and where."""
+    """One body's factor on its height at the first limit (inf: none reached below
+    PLAUSIBLE_FILL_M, the highest earth fill there is), the height it gives (m), the limit
+    and where."""
 
     body: str
     scale: float
@@ -61,6 +63,8 @@ def max_heights(res, evaluate) -> list[MaxHeight]:
         found = [_stress_scale(site, pts, own), _settlement_scale(res, b)]
         scale, limit, kind, rid, tol = min((f for f in found if f is not None),
                                            key=lambda f: f[0], default=(math.inf, "", "", "", 0.0))
+        if scale * body.max_height > PLAUSIBLE_FILL_M:      # no earth fill stands that high
+            scale, limit, kind, rid = math.inf, "", "", ""
         out.append(MaxHeight(body.name, scale, scale * body.max_height, limit, kind, rid, tol))
     return out
 
