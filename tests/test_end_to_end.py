@@ -373,3 +373,17 @@ def test_projected_geojson_without_crs_member_is_not_taken_as_degrees(tmp_path, 
     assert main(["check", str(site)]) == 2
     err = capsys.readouterr().err
     assert "cannot be degrees" in err and "buildings.geojson" in err
+
+
+def test_stockpile_yard_gives_each_piles_maximum_height(runs):
+    """The yard states limits and asks for maximum heights: the ore pile's is a height a
+    pile can have (its governing limit named), and a pile that reaches no limit below the
+    highest earth fill (300 m) says so instead of a height of kilometres."""
+    import pandas as pd
+    table = pd.read_csv(runs["stockpile_yard"] / "max_heights.csv", encoding="utf-8-sig")
+    rows = table.set_index("body")
+    ore = rows.loc["ore_east"]
+    assert 7.0 < ore["max_height_m"] < 300.0 and ore["governing_limit"] == "pipe_differential"
+    assert ore["max_height_m"] == pytest.approx(ore["scale"] * 9.0, rel=1e-3)   # crest 9 m
+    assert (table["max_height_m"].dropna() <= 300.0).all()
+    assert set(table.loc[table["max_height_m"].isna(), "governing_limit"]) <= {"none reached"}
