@@ -217,3 +217,15 @@ def test_results_folder_and_report_carry_the_record(tmp_path):
                   "Sublayers of each borehole", "in-drains: total", "unloaded on Cr after Cc",
                   "t90 (days)", "spacing required"):
         assert words in record, words
+
+
+def test_more_stage_durations_than_stages_is_warned(tmp_path):
+    from fillstress.run.plan import site_warnings
+    path = tmp_path / "site.toml"
+    text = SITE.replace("{removal}", "removal_day = 400")
+    path.write_text(textwrap.dedent(text.replace("stage_durations = [20, 10]",
+                                                 "stage_durations = [20, 10, 5]")))
+    site = load_site(path)
+    assert site.stage_build_days() == [20.0, 10.0]
+    assert any("[settlement.stage_durations] gives 3 durations for 2 stage(s)" in w
+               for w in site_warnings(site))

@@ -84,9 +84,8 @@ def stage_loads(site) -> dict:
 def design_placements(site) -> list[Placement]:
     """The design: each stage placed whole from its ``[settlement] stage_days`` day over
     its ``stage_durations``."""
-    ramps = list(site.settings.stage_durations) + [0.0] * len(site.stages)
     return [Placement(k, float(d), 1.0, float(r))
-            for k, d, r in zip(site.stages, site.stage_start_days(), ramps)]
+            for k, d, r in zip(site.stages, site.stage_start_days(), site.stage_build_days())]
 
 
 def _load_events(site, placements) -> list[tuple[float, object, float, float]]:

@@ -200,6 +200,10 @@ def site_warnings(site) -> list[str]:
         out.append(f"[settlement.stage_days] gives {len(days)} start time(s) for "
                    f"{len(site.stages)} stage(s); missing stages start with the last given, "
                    "extra times are ignored")
+    ramps = site.settings.stage_durations
+    if site.soil is not None and len(ramps) > len(site.stages):
+        out.append(f"[settlement.stage_durations] gives {len(ramps)} durations for "
+                   f"{len(site.stages)} stage(s); the extra ones are ignored")
     return out
 
 

@@ -35,9 +35,8 @@ def load_states(site) -> list[LoadState]:
     stage_durations and each body's removal_day (stages that are not given a duration are
     placed at once)."""
     days = site.stage_start_days()
-    durations = list(site.settings.stage_durations) + [0.0] * len(site.stages)
     start = dict(zip(site.stages, days))
-    build = dict(zip(site.stages, durations))
+    build = dict(zip(site.stages, site.stage_build_days()))
     removal = {}
     for b in site.bodies:
         day = site.removal_days.get(b.name)

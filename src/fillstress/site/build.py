@@ -148,6 +148,12 @@ class Site(Summarised):
         days = list(self.settings.stage_days or [0.0])
         return (days + [days[-1]] * len(self.stages))[:len(self.stages)]
 
+    def stage_build_days(self) -> list[float]:
+        """Build duration of each stage in days, one per stage ([settlement]
+        stage_durations; a stage given none is placed at once)."""
+        given = list(self.settings.stage_durations)
+        return (given + [0.0] * len(self.stages))[:len(self.stages)]
+
     def load_grid(self, stage: int | None = None, spec: GridSpec | None = None) -> LoadGrid:
         """Surface pressure (kPa) of all bodies up to `stage` (default: the last)."""
         stage = self.stages[-1] if stage is None else stage
