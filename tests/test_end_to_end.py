@@ -11,6 +11,7 @@ from fillstress.cli import main
 from fillstress.examples import example_site, list_examples
 from fillstress.site.build import load_site
 from fillstress.solve import vertical_stress
+from test_io_netcdf import checker_problems
 
 SITES = ["stockpile_yard", "bridge_approach", "preload_surcharge"]
 
@@ -74,6 +75,7 @@ def test_outputs_exist_and_open(runs, name):
     with xr.open_dataset(folder / "stress_cube.nc") as cube:
         assert any(v.startswith("dsz_") for v in cube.data_vars)
     _rasters_share_one_round_lattice(folder)
+    assert checker_problems(folder / "stress_cube.nc") == []      # CF-1.8 and ACDD-1.3
     _geopackage_holds_every_vector_layer(folder, name)
     for vtk_file in (folder / "vtk").rglob("*.vt[pr]"):
         assert pv.read(vtk_file).n_points > 0
