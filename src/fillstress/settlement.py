@@ -253,7 +253,19 @@ def stress_path(profile: SoilProfile, z_mid, h, dsz_states) -> StressPath:
                          f"state {st}) exceeds the effective stress {par['s0'][k]:.4g} kPa there; "
                          "the soil would be at zero effective stress (heave or removal), "
                          "outside 1-D consolidation", argument="dsz_states")
-    smax = np.maximum.accumulate(np.maximum(sig, par["s0"]), axis=1)
+    strain, smax = _strain_on_path(par, sig)
+    idx = par["is_index"]
+    return StressPath(settlement=strain * hh, sigma=sig,
+                      sigma_max=np.maximum(smax, np.where(idx, par["sp"], 0.0)),
+                      strain=strain, s0=par["s0"], sp=np.where(idx, par["sp"], par["s0"]),
+                      is_index=idx)
+
+
+def _strain_on_path(par: dict, sig: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Strain of each sublayer along the states (axis -2) of effective stresses `sig`, and
+    the largest effective stress so far; `par` from `_sublayer_parameters` (its arrays may
+    carry leading axes that broadcast against `sig`, e.g. one row per parameter sample)."""
+    smax = np.maximum.accumulate(np.maximum(sig, par["s0"]), axis=-2)
     idx = par["is_index"]
     safe = np.where(idx, sig, 1.0)
     safe_max = np.where(idx, smax, 1.0)
@@ -262,11 +274,48 @@ def stress_path(profile: SoilProfile, z_mid, h, dsz_states) -> StressPath:
               + par["cc"] * np.log10(np.maximum(safe_max, sp) / sp))
     strain_index = (virgin - par["cr"] * np.log10(safe_max / safe)) / (1.0 + par["e0"])
     strain_linear = par["compliance"] * (smax - par["s0"]) - par["unload"] * (smax - sig)
-    strain = np.where(idx, strain_index, strain_linear)
-    return StressPath(settlement=strain * hh, sigma=sig,
-                      sigma_max=np.maximum(smax, np.where(idx, par["sp"], 0.0)),
-                      strain=strain, s0=par["s0"], sp=np.where(idx, par["sp"], par["s0"]),
-                      is_index=idx)
+    return np.where(idx, strain_index, strain_linear), smax
+
+
+def final_settlement_of_profiles(profiles, z_mid, h, dsz_states) -> np.ndarray:
+    """Settlement (m) after the last load state for each of P profiles of one layering
+    (e.g. sampled soil parameters), vectorised over the profiles: shape (P, N).
+
+    Each profile follows the stress path of :func:`stress_path`; a point where unloading
+    exceeds a sublayer's σ'0 in a profile (heave, outside 1-D consolidation) is NaN there.
+
+    Parameters
+    ----------
+    profiles : sequence of SoilProfile
+        Same layer depths; parameters and water table may differ.
+    z_mid, h : array_like, shape (K,)
+    dsz_states : array_like, shape (P or 1, N, S, K)
+        Δσz (kPa) of each load state, per profile or shared by all.
+
+    Examples
+    --------
+    >>> from fillstress.soil import SoilLayer, SoilProfile
+    >>> clay = [SoilProfile([SoilLayer("c", 0, 4, 10.0, cc=cc, cr=0.05, e0=1.5, ocr=1.0)], 10.0)
+    ...         for cc in (0.5, 1.0)]
+    >>> final_settlement_of_profiles(clay, [3.0], [2.0], [[[[60.0]]]]).round(4).tolist()
+    [[0.1908], [0.3817]]
+    """
+    profiles = list(profiles)
+    z = np.atleast_1d(finite_array(z_mid, "z_mid"))
+    d = finite_array(dsz_states, "dsz_states")
+    if not profiles or d.ndim != 4 or d.shape[0] not in (1, len(profiles)) or d.shape[3] != z.size:
+        raise InputError(f"must have shape ({len(profiles)} or 1 profiles, N points, S states, "
+                         f"K={z.size} sublayers), got {d.shape}", argument="dsz_states")
+    z, hh, _ = _check_sublayer_arrays(profiles[0], z, h, d[0, :, 0])
+    each = [_sublayer_parameters(p, z) for p in profiles]
+    par = {k: np.stack([e[k] for e in each])[:, None, None, :] for k in each[0]}
+    sig = par["s0"] + d
+    compressible = par["is_index"] | (par["compliance"] > 0)
+    heave = np.any((sig <= 0) & compressible, axis=(2, 3))                 # (P, N)
+    strain, _ = _strain_on_path(par, np.where(heave[:, :, None, None], par["s0"], sig))
+    out = (strain[:, :, -1, :] * hh).sum(axis=-1)
+    out[heave] = np.nan
+    return out
 
 
 def sublayer_settlement(profile: SoilProfile, z_mid, h, dsz) -> np.ndarray:

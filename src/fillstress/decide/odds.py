@@ -28,7 +28,7 @@ from scipy.stats import qmc
 
 from .._validate import finite, finite_array, positive, whole_number
 from ..errors import InputError
-from ..settlement import consolidation_settlement
+from ..settlement import final_settlement_of_profiles
 from ..soil import SoilProfile
 
 LOAD_FACTOR = "load_factor"
@@ -232,9 +232,66 @@ def profile_with(profile: SoilProfile, values: Mapping[str, float]) -> SoilProfi
     return SoilProfile(layers, water, rigid, profile.gamma_w)
 
 
+def sampled_profiles(profile: SoilProfile, samples: Mapping[str, np.ndarray]
+                     ) -> list[SoilProfile]:
+    """One profile per sample (:func:`profile_with`); a sample the soil model refuses (e.g.
+    Cr above Cc) is named by its index.
+
+    Examples
+    --------
+    >>> from fillstress.soil import SoilLayer
+    >>> p = SoilProfile([SoilLayer("clay", 0, 4, 10.0, cc=0.5, cr=0.05, e0=1.5, ocr=1.0)], 10.0)
+    >>> [q.layers[0].e0 for q in sampled_profiles(p, {"clay.e0": [1.2, 1.6]})]
+    [1.2, 1.6]
+    """
+    cols = _sample_columns(samples)
+    n = len(next(iter(cols.values()))) if cols else 0
+    out = []
+    for i in range(n):
+        try:
+            out.append(profile_with(profile, {k: v[i] for k, v in cols.items()}))
+        except InputError as err:
+            raise InputError(f"sample {i}: {err}", argument="samples") from None
+    return out
+
+
+def _sample_columns(samples) -> dict[str, np.ndarray]:
+    cols = {k: np.atleast_1d(finite_array(v, f"samples[{k!r}]")) for k, v in samples.items()}
+    sizes = {v.shape for v in cols.values()}
+    if len(sizes) > 1 or any(len(s) != 1 for s in sizes):
+        raise InputError("every sampled parameter needs one 1-D array of the same length",
+                         argument="samples")
+    return cols
+
+
+def sampled_load_states(per_body, active, factors) -> np.ndarray:
+    """Δσz (kPa) of every load state for every sample, the stress of each body computed
+    once and scaled by its sampled load factor (γ_fill / nominal γ_fill: Δσz is linear in
+    the load): shape (n, N, E, K).
+
+    Parameters
+    ----------
+    per_body : array_like, shape (N, B, K)
+        Δσz of each body at its nominal unit weight, per point and sublayer.
+    active : array_like, shape (E, B)
+        Which bodies are in place (1) at each load state.
+    factors : array_like, shape (n, B)
+        Each sample's factor on each body's load.
+
+    Examples
+    --------
+    >>> sampled_load_states([[[10.0], [4.0]]], [[1, 0], [1, 1]], [[1.0, 1.0], [2.0, 0.5]]
+    ...                     )[:, 0, :, 0].tolist()
+    [[10.0, 14.0], [20.0, 22.0]]
+    """
+    return np.einsum("eb,nb,mbk->nmek", np.asarray(active, float), np.asarray(factors, float),
+                     np.asarray(per_body, float))
+
+
 def sampled_settlement(profile: SoilProfile, z_mid, h, dsz, samples: Mapping[str, np.ndarray]
                        ) -> np.ndarray:
-    """Primary consolidation settlement (m) for every sample, shape (n samples, N points).
+    """Primary consolidation settlement (m) for every sample, shape (n samples, N points),
+    vectorised over the samples (settlement.final_settlement_of_profiles).
 
     Parameters
     ----------
@@ -256,21 +313,10 @@ def sampled_settlement(profile: SoilProfile, z_mid, h, dsz, samples: Mapping[str
     [[0.1908], [0.3817]]
     """
     d = np.atleast_2d(finite_array(dsz, "dsz"))
-    cols = {k: np.atleast_1d(finite_array(v, f"samples[{k!r}]")) for k, v in samples.items()}
-    sizes = {v.shape for v in cols.values()}
-    if len(sizes) != 1 or len(next(iter(sizes))) != 1:
-        raise InputError("every sampled parameter needs one 1-D array of the same length",
-                         argument="samples")
-    n = next(iter(sizes))[0]
-    factor = cols.get(LOAD_FACTOR, np.ones(n))
-    out = np.empty((n, d.shape[0]))
-    for i in range(n):
-        try:
-            p = profile_with(profile, {k: v[i] for k, v in cols.items()})
-        except InputError as err:
-            raise InputError(f"sample {i}: {err}", argument="samples") from None
-        out[i] = consolidation_settlement(p, z_mid, h, factor[i] * d)
-    return out
+    profiles = sampled_profiles(profile, samples)
+    factor = _sample_columns(samples).get(LOAD_FACTOR, np.ones(len(profiles)))
+    return final_settlement_of_profiles(profiles, z_mid, h,
+                                        factor[:, None, None, None] * d[None, :, None, :])
 
 
 def _sample_matrix(samples) -> np.ndarray:
@@ -295,6 +341,27 @@ def exceedance(samples, limit) -> tuple[np.ndarray, np.ndarray]:
     lim = np.broadcast_to(finite_array(limit, "limit"), s.shape[1:])
     p = np.mean(s > lim, axis=0)
     return p, np.sqrt(p * (1.0 - p) / s.shape[0])
+
+
+def wilson_interval(p, n, z: float = 1.96) -> tuple[np.ndarray, np.ndarray]:
+    """Wilson (1927) score interval of a binomial proportion `p` observed in `n` trials
+    (default z = 1.96: 95 %); unlike p ± z·sqrt(p(1−p)/n) it does not shrink to a point
+    when no sample (or every sample) exceeds.
+
+    Examples
+    --------
+    >>> lo, hi = wilson_interval(0.0, 400)
+    >>> float(lo), round(float(hi), 4)
+    (0.0, 0.0095)
+    """
+    p = np.asarray(finite_array(p, "p"), float)
+    n = np.asarray(finite_array(n, "n"), float)
+    if np.any(n <= 0) or np.any((p < 0) | (p > 1)):
+        raise InputError("needs 0 <= p <= 1 and n > 0", argument="p")
+    z2 = positive(z, "z") ** 2
+    centre = (p + z2 / (2 * n)) / (1 + z2 / n)
+    half = math.sqrt(z2) / (1 + z2 / n) * np.sqrt(p * (1 - p) / n + z2 / (4 * n * n))
+    return np.clip(centre - half, 0.0, 1.0), np.clip(centre + half, 0.0, 1.0)
 
 
 def quantile_bounds(samples, q, z: float = 3.0) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
