@@ -33,6 +33,15 @@ e0 = 0.9
 ocr = 1.0
 cv = 2.0
 """
+ODDS = """
+[uncertainty]
+samples = 50
+
+[[uncertainty.parameters]]
+layer = "grey silty clay"
+parameter = "cc"
+{extra}
+"""
 SURVEY = "x,y,z\n499990,5199990,10\n500030,5199990,10\n499990,5200022,10\n500030,5200022,10\n"
 
 
@@ -454,6 +463,25 @@ CASES = [
     Case("limits-length-missing", "site file", "[limits] pipe_differential without its length",
          site(append="\n[limits]\npipe_differential = 20.0\n", command="check"),
          names=("limits.pipe_differential", "pipe_differential_length")),
+    Case("odds-negative-cov", "site file", "an uncertain Cc with cov = -0.2",
+         site(append=SOIL + ODDS.format(extra='distribution = "lognormal"\ncov = -0.2'),
+              command="check"),
+         names=("uncertainty.parameters[0].cov", "-0.2")),
+    Case("odds-unknown-distribution", "site file", 'distribution = "lognorm" (no such name)',
+         site(append=SOIL + ODDS.format(extra='distribution = "lognorm"\ncov = 0.3'),
+              command="check"),
+         names=("uncertainty.parameters[0].distribution", "did you mean 'lognormal'")),
+    Case("odds-misspelt-key", "site file", "distrbution = ... in [[uncertainty.parameters]]",
+         site(append=SOIL + ODDS.format(extra='distrbution = "normal"\ncov = 0.3'),
+              command="check"),
+         names=("uncertainty.parameters[0].distrbution", "did you mean 'distribution'")),
+    Case("odds-unknown-layer", "site file", "an uncertain parameter of a layer the soil has "
+         "not", site(append=SOIL + ODDS.format(extra='distribution = "normal"\ncov = 0.3')
+                     .replace('layer = "grey silty clay"', 'layer = "peat"'), command="check"),
+         names=("uncertainty.parameters[0].layer", "'peat'")),
+    Case("odds-normal-below-zero", "site file", "a normal Cc so wide that samples fall below "
+         "zero", site(append=SOIL + ODDS.format(extra='distribution = "normal"\ncov = 0.9')),
+         names=("uncertainty.parameters[0]", "lognormal")),
     Case("check-folder", "command line", "fillstress check on a folder",
          argv("check", "{d}"), names=("is a folder",)),
 

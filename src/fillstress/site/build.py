@@ -41,6 +41,7 @@ from .config import SiteConfig, read_site_file
 from .alignment import Alignment, build_alignment
 from .ground_use import check_body_ground, depths_from_elevations, warn_near_miss
 from .receptors import Borehole, Building, Pipe, PlanGrid, Receptors
+from .uncertainty import Uncertainty, build_uncertainty
 
 # Receptor kinds: the site-file table and the point-table kind.
 RECEPTOR_TABLES = {"buildings": "building", "pipes": "pipe", "boreholes": "borehole"}
@@ -88,6 +89,7 @@ class RunSettings:
     building_limits: tuple[Limit, ...] = BUILDING_LIMITS   # published ones ([limits] published)
     limit_overrides: dict[str, tuple[Limit, ...]] = field(default_factory=dict)  # receptor →
     max_heights: bool = False                # [limits] max_heights: search each body's
+    uncertainty: Uncertainty | None = None   # [uncertainty]: the odds of exceeding a limit
 
 
 @dataclass(repr=False)
@@ -318,14 +320,15 @@ def build_site(cfg: SiteConfig) -> Site:
     t0 = time.perf_counter()
     built = {name: _build_body(ctx, name, raw, spec) for name, raw in cfg["bodies"].items()}
     ctx.build_seconds = time.perf_counter() - t0     # for the run estimate
-    grid = cfg.get("grid") or {}
+    grid, soil = cfg.get("grid") or {}, _soil(cfg)
     return Site(cfg.path, s["name"], s.get("description") or "", cfg.units,
                 site_crs[0] if site_crs else None, factor, spec,
                 [body for body, _ in built.values()],
                 grid.get("method", "boussinesq"),
                 grid.get("poisson") if grid.get("method") == "westergaard" else None,
-                ctx.ground, _soil(cfg), _points(ctx, receptors), receptors,
-                replace(_settings(cfg), **_limits(cfg, receptors)),
+                ctx.ground, soil, _points(ctx, receptors), receptors,
+                replace(_settings(cfg), **_limits(cfg, receptors),
+                        uncertainty=_uncertainty(cfg, soil)),
                 input_files=tuple(cfg.input_files()), plan_grids=_plan_grids(ctx, spec),
                 cut_reports={n: cut for n, (_, cut) in built.items() if cut is not None},
                 existing_surfaces=ctx.existing_surfaces,
@@ -388,6 +391,15 @@ def _limits(cfg: SiteConfig, receptors: Receptors) -> dict:
     return dict(limits=_limit_values(cfg, raw, "limits", "[limits]"),
                 building_limits=BUILDING_LIMITS if raw["published"] else (),
                 limit_overrides=overrides, max_heights=bool(raw["max_heights"]))
+
+
+def _uncertainty(cfg: SiteConfig, soil):
+    """[uncertainty], typed (site/uncertainty.py); None without it."""
+    layers = (cfg.get("soil") or {}).get("layers", [])
+    return build_uncertainty(cfg.get("uncertainty"), soil,
+                             {n: b["unit_weight"] for n, b in cfg["bodies"].items()},
+                             {L["name"]: L.get("saturated_unit_weight") is not None
+                              for L in layers}, cfg.path)
 
 
 def _limit_values(cfg: SiteConfig, raw: dict, where: str, source: str) -> tuple[Limit, ...]:

@@ -111,11 +111,14 @@ def validate(raw: dict, path: Path) -> SiteConfig:
     if "limits" in tables:
         overrides = raw["limits"].get("overrides", [])
         tables["limits"]["overrides"] = v.table_group(overrides, schema.LIMIT_OVERRIDES)
+    if "uncertainty" in tables:
+        tables["uncertainty"].update(v.uncertainty(raw["uncertainty"]))
     return SiteConfig(path, units, tables)
 
 
 # Arrays of tables inside a table, validated on their own (soil.layers, limits.overrides).
-SUB_TABLES = {"soil": ["layers"], "limits": ["overrides"]}
+SUB_TABLES = {"soil": ["layers"], "limits": ["overrides"],
+              "uncertainty": ["parameters", "correlations"]}
 
 
 def _units_name(site_raw, path):
@@ -183,8 +186,22 @@ class _Validator:
                     out[key.name] = out.pop(alias)
         return out
 
+    def uncertainty(self, raw: dict) -> dict:
+        """[[uncertainty.parameters]] and [[uncertainty.correlations]]; each parameter's
+        mean, sd and bounds converted to SI in the unit of that parameter."""
+        params = self.table_group(raw.get("parameters", []), schema.UNCERTAIN_PARAMETERS)
+        for p in params:
+            unit = schema.Key("", "float", "", unit=schema.UNCERTAIN_UNITS[p["parameter"]])
+            p.update({k: self._si(p[k], unit) for k in ("mean", "sd", "low", "high")})
+        return {"parameters": params, "correlations": self.table_group(
+            raw.get("correlations", []), schema.UNCERTAIN_CORRELATIONS)}
+
     def value(self, v, key: schema.Key, where: str):
         kind = key.kind
+        if kind == "strs":
+            if not isinstance(v, list) or not v or not all(isinstance(x, str) and x for x in v):
+                self.fail(where, f"must be a list of names, got {v!r}")
+            return list(v)
         if kind == "str":
             if not isinstance(v, str):
                 self.fail(where, f"must be text, got {v!r}")

@@ -26,9 +26,9 @@ UNIT_LABELS = {  # (SI label, US label) for the reference
 
 @dataclass(frozen=True)
 class Key:
-    """One key of a table: `kind` is str, float, int, bool, path, xy (list of [x, y] or
-    [x, y, z]), pairs (list of [a, b]), floats (list of numbers), extent (4 numbers),
-    table (free sub-table of numbers)."""
+    """One key of a table: `kind` is str, strs (list of names), float, int, bool, path, xy
+    (list of [x, y] or [x, y, z]), pairs (list of [a, b]), floats (list of numbers), extent
+    (4 numbers), table (free sub-table of numbers)."""
 
     name: str
     kind: str
@@ -414,7 +414,61 @@ LIMIT_OVERRIDES = Table("limits.overrides", "Limits of one receptor, each an "
     Key("receptor", "str", "Id of the building, pipe or borehole.", required=True),
 ) + _LIMIT_VALUES, many="array")
 
+# --- the odds of exceeding a limit ([uncertainty]) -------------------------------------
+# Each parameter that may be uncertain → the unit of its mean, sd and bounds.
+UNCERTAIN_UNITS = {"cc": NONE, "cr": NONE, "e0": NONE, "sigma_p": PRESSURE, "ocr": NONE,
+                   "cv": CV, "mv": INV_PRESSURE, "modulus": PRESSURE,
+                   "unit_weight": UNIT_WEIGHT, "saturated_unit_weight": UNIT_WEIGHT,
+                   "water_table": LENGTH}
+UNCERTAINTY = Table("uncertainty", "The odds of exceeding a limit: soil parameters, fill unit "
+                    "weights and the water table given as distributions "
+                    "([[uncertainty.parameters]]), sampled by a seeded Latin hypercube "
+                    "(McKay, Beckman & Conover 1979). Each sample's settlement and building "
+                    "and pipe checks are recomputed; odds.csv gives P10/P50/P90 of each "
+                    "receptor's settlement, differential settlement and distortion and the "
+                    "probability of exceeding each settlement limit in force (needs [soil]).", (
+    Key("samples", "int", "Number of samples (the sampling error of a probability p is about "
+        "sqrt(p(1−p)/samples)).", default=400, minimum=20),
+    Key("seed", "int", "Seed of the sampling: the same seed gives the same samples.",
+        default=0, minimum=0),
+))
+UNCERTAIN_PARAMETERS = Table(
+    "uncertainty.parameters", "One uncertain parameter, each an [[uncertainty.parameters]] "
+    "entry. Its mean, sd and bounds are in the parameter's own unit (kPa or psf for sigma_p "
+    "and modulus, m or ft for water_table, ...). Parameters not named in a "
+    "[[uncertainty.correlations]] entry are independent.", (
+        Key("parameter", "str", "What is uncertain: a soil parameter of `layer` (unit_weight "
+            "also moves the saturated unit weight when that is not given), a fill body's "
+            "unit_weight (with `body`; its stress is scaled, being linear in the load) or "
+            "the depth of the water table.", required=True, choices=tuple(UNCERTAIN_UNITS),
+            example='"cc"'),
+        Key("layer", "str", "Name of the soil layer of a soil parameter.",
+            example='"firm clay"'),
+        Key("body", "str", "Name of the fill body whose unit_weight is uncertain."),
+        Key("distribution", "str", "Normal, lognormal (for a parameter that cannot be "
+            "negative) or uniform.", required=True,
+            choices=("normal", "lognormal", "uniform")),
+        Key("mean", "float", "Mean (default: the value in the site file)."),
+        Key("cov", "float", "Coefficient of variation, sd / |mean| (normal, lognormal; "
+            "uniform: bounds mean ± √3·sd).", **_POS, example="0.3"),
+        Key("sd", "float", "Standard deviation of a normal distribution, instead of cov.",
+            **_POS),
+        Key("low", "float", "Lower bound of a uniform distribution (instead of cov)."),
+        Key("high", "float", "Upper bound of a uniform distribution."),
+    ), many="array")
+UNCERTAIN_CORRELATIONS = Table(
+    "uncertainty.correlations", "A rank correlation between two uncertain parameters, each "
+    "an [[uncertainty.correlations]] entry, imposed by the Iman & Conover (1982) method "
+    "(every parameter keeps its distribution).", (
+        Key("between", "strs", "The two parameters, each named `<layer>.<parameter>`, "
+            "`<body>.unit_weight` or `water_table`.", required=True,
+            example='["firm clay.cc", "firm clay.e0"]'),
+        Key("coefficient", "float", "Target rank correlation, strictly between −1 and 1.",
+            required=True, example="0.5"),
+    ), many="array")
+
 TABLES: tuple[Table, ...] = (SITE, GRID, GROUND, BODIES, ALIGNMENT, SOIL, LAYER, BUILDINGS,
                              PIPES, BOREHOLES, PLAN_GRIDS, SETTLEMENT, DRAINS, OUTPUTS,
-                             MONITORING, LIMITS, LIMIT_OVERRIDES)
+                             MONITORING, LIMITS, LIMIT_OVERRIDES, UNCERTAINTY,
+                             UNCERTAIN_PARAMETERS, UNCERTAIN_CORRELATIONS)
 TOP_LEVEL = {t.name: t for t in TABLES if "." not in t.name}
