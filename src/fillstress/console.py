@@ -196,6 +196,8 @@ def closing_lines(summary) -> list[str]:
         lines.append(governing_line(r.limits.governing, r.site.units))
     u = r.site.units
     lines += [_max_height_line(m, u) for m in r.max_heights]
+    if r.odds is not None:
+        lines.append(odds_line(r.odds.likeliest(u), r.odds.samples))
     lines += [f"warning: {w}" for w in r.warnings]
     lines.append(f"results written to {summary.folder}")
     lines.append(CAUTIONS.split(";")[0] + ".")
@@ -211,6 +213,17 @@ def governing_line(g, units) -> str:
     return (f"governing limit: {g.row.limit.label} at {g.kind} {g.row.receptor_id}, "
             f"{g.row.value / factor:.4g} of {g.row.limit.value / factor:.4g}{unit}, "
             f"utilisation {g.row.utilisation:.3g} ({state}; limits.csv)")
+
+
+def odds_line(row: dict | None, samples: int) -> str:
+    """'odds: likeliest limit exceeded: beta_no_cracking at building B1, 12 of 400 samples,
+    P = 3 % (95 % Wilson interval 1.7–5.2 %; odds.csv)'."""
+    if row is None:
+        return f"odds: {samples} samples; no settlement limit in force (odds.csv)"
+    return (f"odds: likeliest limit exceeded: {row['limit']} at {row['receptor_kind']} "
+            f"{row['receptor_id']}, {row['samples_over']} of {row['samples']} samples, P = "
+            f"{100 * row['p_exceed']:.3g} % (95 % Wilson interval {100 * row['wilson_low']:.3g}"
+            f"–{100 * row['wilson_high']:.3g} %; odds.csv)")
 
 
 def _plain(value):

@@ -19,6 +19,7 @@ from ..errors import InputError
 from ..io.atomic import write_atomic
 from .corridor import alignment_section
 from .limits import CSS as LIMITS_CSS, limits_section
+from .odds import odds_section
 from ..io.results import ResultsFolder, UnitLabels
 from . import figures
 from .labels import heading, unit_text
@@ -49,6 +50,7 @@ SECTIONS = (
     ("pipes", "Pipe profiles"),
     ("alignment", "Along the alignment"),
     ("limits", "Limits"),
+    ("odds", "Odds of exceeding a limit"),
     ("time", "Settlement with time"),
     ("record", "Settlement calculation record"),
     ("tables", "Result tables"),
@@ -421,6 +423,7 @@ class _Report:
                   "plans": self.plans, "profiles": self.profiles, "pipes": self.pipe_profiles,
                   "alignment": lambda: alignment_section(self.f, _img, esc),
                   "limits": lambda: limits_section(self.f),
+                  "odds": lambda: odds_section(self.f, _img),
                   "time": self.time, "tables": self.tables, "convergence": self.convergence,
                   "record": lambda: calculation_record(self.f) or
                   '<p class="note">No settlement calculation record in this results folder.</p>',

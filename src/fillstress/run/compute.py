@@ -29,6 +29,7 @@ from . import settle
 from .corridor import corridor_results
 from .decisions import max_heights
 from .limits import LimitResults, limit_results
+from .odds import odds_results
 from .plan import describe_run, memory_cap, plan_pad, slices_need_tiles, validate_run
 
 ASSUMPTIONS = (
@@ -68,6 +69,7 @@ class RunResults(Summarised):
     limits: LimitResults | None = None               # utilisation of each limit (run.limits)
     settlement_columns: object = None                # settle.SettlementColumns
     max_heights: list = field(default_factory=list)  # decisions.MaxHeight per body
+    odds: object = None                              # odds.OddsResults ([uncertainty])
 
     def _summary(self):
         u, pts = self.site.units, self.points
@@ -131,6 +133,7 @@ def compute(site: Site, progress=silent, client=None) -> RunResults:
     steps += bool(site.soil is not None and site.plan_grids)
     steps += site.alignment is not None
     steps += site.settings.max_heights
+    steps += site.settings.uncertainty is not None
     timings = {}
     with progress("computing", steps) as bar:
         step = _Steps(timings, bar)
@@ -157,6 +160,9 @@ def compute(site: Site, progress=silent, client=None) -> RunResults:
         if site.settings.max_heights:
             with step("max_heights"):
                 res.max_heights = max_heights(res, lambda g, xyz: stress(site, g, xyz, client))
+        if site.settings.uncertainty is not None:
+            with step("odds"):
+                res.odds = odds_results(res, client)
         if site.alignment is not None:
             with step("alignment"):
                 res.corridor = corridor_results(site, lambda g, xyz: stress(site, g, xyz, client))

@@ -218,6 +218,12 @@ def _write_tables(res, folder) -> None:
         heights = table(res.max_heights)
         tables.write_table_csv(folder.path("max_heights.csv"), heights, u,
                                {"scale": None, "tolerance": None})
+    if res.odds is not None:                          # values converted row by row
+        from .odds import TABLE_QUANTITIES
+        for name, frame in (("odds", res.odds.table(u)),
+                            ("odds_parameters", res.odds.parameter_table(u)),
+                            ("odds_convergence", res.odds.convergence_table())):
+            tables.write_table_csv(folder.path(f"{name}.csv"), frame, u, TABLE_QUANTITIES)
     if res.time_curves:
         rows = [{"receptor_id": rid, "days": d, "settlement": s}
                 for rid, (days, curve) in res.time_curves.items() for d, s in zip(days, curve)]

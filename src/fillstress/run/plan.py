@@ -153,6 +153,8 @@ def describe_run(site) -> list[list]:
               f"{u.length} spacing, to {u.length_out(z.drains.depth_m):g} {u.length}"]
              for z in site.drains]
     rows += limits_in_force(site.settings, u)
+    if site.settings.uncertainty is not None:
+        rows += site.settings.uncertainty.describe(u)
     rows += [[f"estimate: {e.operation}", f"{format_bytes(e.bytes)}, about {e.seconds:.2g} s "
               f"({e.detail})" + (" — will be tiled" if e.bytes > cap and
                                  e.operation.startswith("plan grid") else "")]

@@ -189,24 +189,62 @@ class SettlementColumns(NamedTuple):
     groups: list
 
 
+class StructureCheck(NamedTuple):
+    """One building or pipe check prepared on the settlement points (`rows` of the
+    targets): everything but the settlement, so a check can be redone for other
+    settlements (run/odds.py) without the point table."""
+
+    kind: str
+    receptor_id: str
+    rows: np.ndarray                 # into the targets, in check order (pipes: chainage)
+    xy: np.ndarray
+    point_ids: list
+    outline: np.ndarray | None       # buildings
+    dsz: np.ndarray | None           # pipes: Δσz at the crown
+    length: float | None             # pipes: the differential length
+    limits: dict | None              # buildings: distortion limits
+
+
+def structure_plan(site, targets: pd.DataFrame) -> list[StructureCheck]:
+    """The building and pipe checks of `site` on the points of `targets`."""
+    limits = {**DEFAULT_LIMITS, **site.settings.distortion_limits}
+    rid = targets["receptor_id"].to_numpy()
+    out = []
+    for b in site.receptors.buildings:
+        rows = np.flatnonzero(rid == b.id)
+        out.append(StructureCheck("building", b.id, rows, targets[["x", "y"]].to_numpy()[rows],
+                                  targets["point_id"].to_numpy()[rows].tolist(),
+                                  np.asarray(b.geometry.exterior.coords), None, None, limits))
+    chainage = targets["chainage"].to_numpy(float) if "chainage" in targets else None
+    for pipe in site.receptors.pipes:
+        rows = np.flatnonzero(rid == pipe.id)
+        rows = rows[np.argsort(chainage[rows], kind="stable")]
+        out.append(StructureCheck("pipe", pipe.id, rows, chainage[rows],
+                                  [], None, targets["dsz"].to_numpy()[rows],
+                                  pipe.differential_length, None))
+    return out
+
+
+def run_checks(plan: list[StructureCheck], settlement: np.ndarray) -> tuple[list, list]:
+    """(buildings, pipes) of the prepared checks for a settlement (m) at every target;
+    points in heave (NaN) are left out, and a receptor with fewer than two points left."""
+    buildings, pipes = [], []
+    for c in plan:
+        s = settlement[c.rows]
+        keep = np.isfinite(s)
+        if keep.sum() < 2:
+            continue
+        if c.kind == "building":
+            buildings.append(building_settlement(
+                c.receptor_id, c.xy[keep], s[keep],
+                point_ids=[p for p, k in zip(c.point_ids, keep) if k], limits=c.limits,
+                outline=c.outline))
+        else:
+            pipes.append(pipe_settlement(c.receptor_id, c.xy[keep], s[keep], c.dsz[keep],
+                                         c.length))
+    return buildings, pipes
+
+
 def structure_checks(site, targets: pd.DataFrame) -> tuple[list, list]:
     """The building and pipe checks (structures.py) on the settlement of `targets`."""
-    limits = {**DEFAULT_LIMITS, **site.settings.distortion_limits}
-    targets = targets[targets["settlement"].notna()]     # points in heave have none
-    buildings, pipes = [], []
-    for b in site.receptors.buildings:
-        g = targets[targets["receptor_id"] == b.id]
-        if len(g) < 2:
-            continue
-        buildings.append(building_settlement(
-            b.id, g[["x", "y"]].to_numpy(), g["settlement"].to_numpy(),
-            point_ids=g["point_id"].tolist(), limits=limits,
-            outline=np.asarray(b.geometry.exterior.coords)))
-    for pipe in site.receptors.pipes:
-        g = targets[targets["receptor_id"] == pipe.id].sort_values("chainage")
-        if len(g) < 2:
-            continue
-        pipes.append(pipe_settlement(pipe.id, g["chainage"].to_numpy(),
-                                     g["settlement"].to_numpy(), g["dsz"].to_numpy(),
-                                     pipe.differential_length))
-    return buildings, pipes
+    return run_checks(structure_plan(site, targets), targets["settlement"].to_numpy(float))
