@@ -389,3 +389,21 @@ def test_stockpile_yard_gives_each_piles_maximum_height(runs):
     assert ore["max_height_m"] == pytest.approx(ore["scale"] * 9.0, rel=1e-3)   # crest 9 m
     assert (table["max_height_m"].dropna() <= 300.0).all()
     assert set(table.loc[table["max_height_m"].isna(), "governing_limit"]) <= {"none reached"}
+
+
+def test_stockpile_yard_gives_the_odds_that_the_warehouse_exceeds_its_distortion_limit(runs):
+    """The yard samples its clay, the ore's unit weight and the water table: odds.csv gives
+    the warehouse's angular distortion percentiles and, for each distortion limit in force
+    there, the probability of exceeding it with its sampling error, and the report draws
+    its convergence."""
+    import pandas as pd
+    odds = pd.read_csv(runs["stockpile_yard"] / "odds.csv", encoding="utf-8-sig")
+    beta = odds[(odds["receptor_id"] == "warehouse") & (odds["quantity"] == "angular_distortion")]
+    assert set(beta["limit"]) == {"beta_no_cracking", "beta_cracking"}
+    assert (beta["samples"] == 400).all()
+    assert ((beta["p10"] < beta["nominal"]) & (beta["nominal"] < beta["p90"])).all()
+    assert ((0 <= beta["wilson_low"]) & (beta["wilson_low"] <= beta["p_exceed"])
+            & (beta["p_exceed"] < beta["wilson_high"])).all()
+    html = (runs["stockpile_yard"] / "report.html").read_text(encoding="utf-8")
+    section = html[html.index('<section id="odds"'):]
+    assert "beta_no_cracking" in section[:section.index("</section>")]
