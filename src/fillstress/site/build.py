@@ -396,10 +396,13 @@ def _limits(cfg: SiteConfig, receptors: Receptors) -> dict:
 def _uncertainty(cfg: SiteConfig, soil):
     """[uncertainty], typed (site/uncertainty.py); None without it."""
     layers = (cfg.get("soil") or {}).get("layers", [])
-    return build_uncertainty(cfg.get("uncertainty"), soil,
-                             {n: b["unit_weight"] for n, b in cfg["bodies"].items()},
-                             {L["name"]: L.get("saturated_unit_weight") is not None
-                              for L in layers}, cfg.path)
+    try:
+        return build_uncertainty(cfg.get("uncertainty"), soil,
+                                 {n: b["unit_weight"] for n, b in cfg["bodies"].items()},
+                                 {L["name"]: L.get("saturated_unit_weight") is not None
+                                  for L in layers}, cfg.path)
+    except InputError as err:           # a sample's soil-model message in site-file words
+        raise InputError(site_words(err.reason), file=err.file, key=err.key) from None
 
 
 def _limit_values(cfg: SiteConfig, raw: dict, where: str, source: str) -> tuple[Limit, ...]:

@@ -122,7 +122,10 @@ def build_uncertainty(raw: dict | None, soil, body_weights: dict, given_saturate
     try:                 # refused now, not after the stresses: the samples are seeded
         out.soil_profiles(soil, out.draw())
     except InputError as err:
-        raise InputError(err.reason, file=where_file, key=err.key or "uncertainty") from None
+        hint = "" if err.key else ("; the soil model refuses this sample: narrow the "
+                                   "distributions or state a correlation")
+        raise InputError(err.reason + hint, file=where_file,
+                         key=err.key or "uncertainty") from None
     return out
 
 
