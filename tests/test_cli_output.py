@@ -37,7 +37,8 @@ top = 1.0
 bottom = 5.0
 step = 2.0
 """
-HEAVY = ("numba", "xarray", "scipy", "fillstress.solve")  # the numerical stack
+HEAVY = ("numba", "xarray", "scipy", "numpy", "pandas", "importlib.metadata",
+         "fillstress.solve")  # the numerical stack and what loads slowly
 
 
 @pytest.fixture
@@ -57,6 +58,13 @@ def test_version_and_help_do_not_import_the_numerical_stack():
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
                          check=True).stdout
     assert out.strip().splitlines()[-1] == "[]"
+
+
+def test_installed_version_is_the_source_version():
+    from importlib.metadata import version
+
+    from fillstress._version import __version__
+    assert version("fillstress") == __version__
 
 
 def test_point_json_centre_of_a_uniform_square(site, capsys):

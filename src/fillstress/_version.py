@@ -1,9 +1,6 @@
-"""The installed version, for the package face, the command and the manifest."""
-from __future__ import annotations
+"""The version, for the package face, the command and the manifest.
 
-from importlib.metadata import PackageNotFoundError, version
-
-try:
-    __version__ = version("fillstress")
-except PackageNotFoundError:  # running from a source tree that is not installed
-    __version__ = "0.0.0+unknown"
+A literal, read by the build (pyproject ``[tool.setuptools.dynamic]``), so that
+``fillstress --version`` answers without importing importlib.metadata.
+"""
+__version__ = "0.1.0"

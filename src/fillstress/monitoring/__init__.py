@@ -5,6 +5,11 @@ the hyperbolic method of Tan 1971); `fit` scales the model's compressibility and
 the readings; `forecast` reruns the prediction with the fitted parameters; `command`
 writes a monitoring results folder.
 """
-from .backanalysis import AsaokaFit, HyperbolicFit, asaoka, hyperbolic, resample_equal
+from .._lazy import lazy_getattr
 
-__all__ = ["AsaokaFit", "HyperbolicFit", "asaoka", "hyperbolic", "resample_equal"]
+# Loaded on first use: the command line reads monitoring.options to build its parser, and
+# `fillstress --help` must not import numpy for it.
+_LAZY = dict.fromkeys(["AsaokaFit", "HyperbolicFit", "asaoka", "hyperbolic", "resample_equal"],
+                      "backanalysis")
+__all__ = list(_LAZY)
+__getattr__ = lazy_getattr(__name__, _LAZY, globals())
