@@ -28,7 +28,7 @@ LAYERS = [
     ["run", "monitoring"],  # write a folder (run, monitor), then its report and scene
     ["design"],             # the layout page: edits one body at a time, on site/ and solve/
     ["examples", "console"],
-    ["cli", ""],           # "" is the package face, fillstress/__init__.py
+    ["cli", "__main__", ""],  # "" is the package face, fillstress/__init__.py
 ]
 
 

@@ -21,7 +21,7 @@ from rich.table import Table
 
 from .io import tables
 from .progress import silent
-from .run.compute import CAUTIONS
+from .run.wording import CAUTIONS
 
 
 class Console:

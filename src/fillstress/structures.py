@@ -23,7 +23,6 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.spatial import Delaunay
 
 from ._validate import finite_array, positive
 from .errors import InputError
@@ -90,6 +89,7 @@ def adjacent_pairs(xy) -> np.ndarray:
         order = np.argsort(centred @ axis, kind="stable")
         edges = np.column_stack([order[:-1], order[1:]])
     else:
+        from scipy.spatial import Delaunay
         tri = Delaunay(pts - pts.min(axis=0)).simplices   # local origin: state-plane digits
         edges = np.concatenate([tri[:, [0, 1]], tri[:, [1, 2]], tri[:, [0, 2]]])
     edges = np.sort(edges, axis=1)

@@ -23,8 +23,6 @@ from dataclasses import dataclass
 from typing import Mapping
 
 import numpy as np
-from scipy import stats
-from scipy.stats import qmc
 
 from .._validate import finite, finite_array, positive, whole_number
 from ..errors import InputError
@@ -49,6 +47,7 @@ class Distribution:
     @property
     def scipy(self):
         """The frozen scipy.stats distribution."""
+        from scipy import stats  # loaded when sampled: reading a site file must stay quick
         if self.kind == "normal":
             return stats.norm(self.mean, self.sd)
         if self.kind == "lognormal":
@@ -150,6 +149,7 @@ def correlation_matrix(names, correlation: Mapping[tuple[str, str], float]) -> n
 def _iman_conover(x: np.ndarray, target: np.ndarray, rng) -> np.ndarray:
     """Re-pair the columns of `x` so that their van der Waerden scores have correlation
     `target` (Iman & Conover 1982); each column keeps its values."""
+    from scipy import stats
     n, d = x.shape
     scores = stats.norm.ppf(np.arange(1, n + 1) / (n + 1.0))
     s = np.column_stack([rng.permutation(scores) for _ in range(d)])
@@ -194,6 +194,7 @@ def latin_hypercube(distributions: Mapping[str, Distribution], n: int, seed: int
     n = whole_number(n, "n", minimum=2)
     seed = whole_number(seed, "seed", minimum=0)
     rng = np.random.default_rng(seed)
+    from scipy.stats import qmc
     u = qmc.LatinHypercube(len(names), seed=rng).random(n)
     x = np.column_stack([distributions[k].ppf(u[:, i]) for i, k in enumerate(names)])
     if correlation:

@@ -11,7 +11,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import InputError
-from ..run.compute import ASSUMPTIONS, CAUTIONS
+from ..run.wording import ASSUMPTIONS, CAUTIONS
 from .engine import (EDITABLE_KEYS, movable_geometry, open_layout, rotated, stress_limits,
                      template)
 from .save import save_as

@@ -22,17 +22,6 @@ import numba
 from .corner import INV_2PI, shared_corner, shared_rectangle
 
 
-def eta(poisson: float) -> float:
-    """Westergaard's η = sqrt((1 − 2ν)/(2 − 2ν)) for 0 <= ν < 0.5 (not validated here).
-
-    Examples
-    --------
-    >>> round(eta(0.0) ** 2, 12)
-    0.5
-    """
-    return math.sqrt((1.0 - 2.0 * poisson) / (2.0 - 2.0 * poisson))
-
-
 @numba.njit(cache=True)
 def corner(a, b, z, eta):
     """Signed Westergaard corner influence of a uniform rectangle (see module notes).

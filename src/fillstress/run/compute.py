@@ -22,30 +22,17 @@ from ..io.atomic import ResultsWriter
 from ..progress import silent
 from ..site.build import Site, load_site
 from ..solve import stress_slices
-from ..solve.auto import stress_at_points
-from ..solve.distributed import connect, distributed_points, distributed_slices
+from ..solve.distributed import connect, distributed_slices
 from ..solve.tiled import tiled_slices
 from . import settle
 from .corridor import corridor_results
 from .decisions import max_heights
 from .limits import LimitResults, limit_results
 from .odds import odds_results
+from .point import stress
 from .plan import describe_run, memory_cap, plan_pad, slices_need_tiles, validate_run
 
-ASSUMPTIONS = (
-    "Vertical stress increase from linear elasticity: a homogeneous, isotropic, linear-elastic "
-    "half-space (Boussinesq) or a half-space reinforced by thin rigid horizontal layers "
-    "(Westergaard); the fill is a flexible surface load; each plan cell is a uniformly loaded "
-    "rectangle and the cells add by superposition; fill stiffness and embedment are ignored. "
-    "Settlement by one-dimensional consolidation (Terzaghi) of horizontal layers under the "
-    "computed Δσz along the load history (e–log σ' path: virgin loading on Cc, unloading and "
-    "reloading on Cr), with time by Terzaghi's 1-D theory, stages ramped over their build "
-    "time (Olson 1977), radial drainage to vertical drains (Hansbo 1981, combined by "
-    "Carrillo 1942) and secondary compression after the end of primary consolidation.")
-CAUTIONS = (
-    "Results are for checking by a licensed geotechnical engineer; local codes and regulations "
-    "govern. The elastic solutions do not represent stiff crusts over soft layers, rigid "
-    "foundations, large strains, bearing failure or dynamic loads; check stability separately.")
+from .wording import ASSUMPTIONS, CAUTIONS  # noqa: F401  (re-exported for the writers)
 
 
 # --- the numbers ----------------------------------------------------------------------
@@ -86,17 +73,6 @@ class RunResults(Summarised):
         rows += [("buildings, pipes checked", f"{len(self.buildings)}, {len(self.pipes)}"),
                  ("warnings", str(len(self.warnings)))]
         return f"RunResults of {self.site.name}", rows
-
-
-def stress(site: Site, grid, xyz: np.ndarray, client=None) -> np.ndarray:
-    """Δσz (kPa) at (N, 3) points for a load grid, with the site's method: direct
-    summation, or the far-field method for very large problems (solve.auto), on Dask
-    workers when a client is given."""
-    if len(xyz) == 0:
-        return np.zeros(0)
-    if client is not None:
-        return distributed_points(grid, xyz, site.method, site.poisson, client=client)
-    return stress_at_points(grid, xyz, site.method, site.poisson)
 
 
 def compute(site: Site, progress=silent, client=None) -> RunResults:

@@ -7,7 +7,6 @@ import numpy as np
 
 from ..errors import InputError
 from ..site.build import Site, load_site
-from .compute import stress
 
 
 @dataclass
@@ -63,3 +62,16 @@ def _far_points(site: Site, grid, given: np.ndarray, pts: np.ndarray) -> list[st
                    f"site's grid, {d:,.0f} {site.units.length} from the loaded area: check "
                    f"its coordinates and the site CRS")
     return out
+
+
+def stress(site: Site, grid, xyz: np.ndarray, client=None) -> np.ndarray:
+    """Δσz (kPa) at (N, 3) points for a load grid, with the site's method: direct
+    summation, or the far-field method for very large problems (solve.auto), on Dask
+    workers when a client is given."""
+    if len(xyz) == 0:
+        return np.zeros(0)
+    if client is not None:
+        from ..solve.distributed import distributed_points
+        return distributed_points(grid, xyz, site.method, site.poisson, client=client)
+    from ..solve.auto import stress_at_points
+    return stress_at_points(grid, xyz, site.method, site.poisson)

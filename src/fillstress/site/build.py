@@ -16,7 +16,6 @@ import numpy as np
 import pandas as pd
 import shapely
 from pyproj import CRS
-from scipy.ndimage import distance_transform_edt
 from shapely.geometry import LineString, Point, Polygon
 
 from .. import crs as crsmod
@@ -187,6 +186,7 @@ class Site(Summarised):
         z = self.ground(gx, gy)
         gap = ~np.isfinite(z)
         if filled and gap.any() and not gap.all():
+            from scipy.ndimage import distance_transform_edt
             nearest = distance_transform_edt(gap, return_distances=False, return_indices=True)
             z = z[tuple(nearest)]
         return z

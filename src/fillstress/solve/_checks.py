@@ -11,6 +11,10 @@ from .._validate import finite_array, positive, whole_number
 from ..errors import InputError
 from ..grid import LoadGrid
 
+#: Expansion order of the far-field method (solve/farfield.py), here so that the callers
+#: that only pass it on need not load the far field's compiled code.
+DEFAULT_ORDER = 4
+
 
 def checked_grid(grid) -> LoadGrid:
     """Re-check a LoadGrid (its pressure array is mutable after construction).

@@ -13,14 +13,17 @@ from .._validate import points_array
 from ..errors import InputError
 from ..kernels import resolve_method
 from ..progress import silent
-from ._checks import checked_grid, points_per_chunk
-from .direct import node_weights, vertical_stress
-from .farfield import DEFAULT_ORDER, _accuracy, build_pyramid, evaluate_pyramid
+from ._checks import DEFAULT_ORDER, checked_grid, points_per_chunk
+from .nodes import node_weights, numpy_node_sum
 
 # About 1 s of direct summation on the 2-core development machine (see solve/cost.py);
 # above it the far field is faster, see docs/performance.md "## Far field".
 DIRECT_WORK_LIMIT = 5e7
 DEFAULT_CHUNK = 20_000
+# Direct summation by numpy (no compiled code) up to this many corner evaluations: a few
+# points on a site answer in milliseconds, where numba needs about half a second to load
+# its cached kernels in a new process (docs/performance.md, `fillstress point`).
+NUMPY_WORK_LIMIT = 1_000_000
 ALGORITHMS = ("auto", "direct", "far")
 
 
@@ -83,17 +86,26 @@ def point_evaluator(grid, method="boussinesq", poisson=None, *, algorithm="direc
     if algorithm == "direct":
         return _Direct(grid, spec.method, spec.poisson)
     if algorithm == "far":
+        from .farfield import _accuracy, build_pyramid
         tol, floor = _accuracy(tol, floor)
         return _Far(build_pyramid(grid, spec.method, spec.poisson, order=order), tol, floor)
     raise InputError(f"must be 'direct' or 'far', got {algorithm!r}", argument="algorithm")
 
 
 class _Direct:
+    """Direct summation: numpy for small work, the compiled node kernel otherwise."""
+
     def __init__(self, grid, method, poisson):
         self.grid, self.method, self.poisson = grid, method, poisson
+        self.nodes = int(np.count_nonzero(node_weights(grid.pressure)))
 
     def __call__(self, points):
-        return vertical_stress(self.grid, points, self.method, self.poisson)
+        pts = points_array(points)
+        if pts.shape[0] * self.nodes <= NUMPY_WORK_LIMIT:
+            spec = resolve_method(self.method, self.poisson)
+            return numpy_node_sum(self.grid, pts, spec.depth_scale, spec.second_term)
+        from .direct import vertical_stress
+        return vertical_stress(self.grid, pts, self.method, self.poisson)
 
 
 class _Far:
@@ -101,6 +113,7 @@ class _Far:
         self.pyramid, self.tol, self.floor = pyramid, tol, floor
 
     def __call__(self, points):
+        from .farfield import evaluate_pyramid
         return evaluate_pyramid(self.pyramid, points, tol=self.tol, floor=self.floor)
 
 
@@ -151,7 +164,7 @@ def stress_at_points(grid, points, method="boussinesq", poisson=None, *, algorit
 
 
 __all__ = ["stress_at_points", "choose_algorithm", "algorithm_for", "direct_work",
-           "point_evaluator", "DIRECT_WORK_LIMIT", "ALGORITHMS"]
+           "point_evaluator", "DIRECT_WORK_LIMIT", "NUMPY_WORK_LIMIT", "ALGORITHMS"]
 
 
 def prepare(grid, points, method="boussinesq", poisson=None, *, algorithm="auto",

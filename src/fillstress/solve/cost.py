@@ -15,7 +15,6 @@ import scipy.fft
 
 from .._validate import positive, whole_number, whole_pair
 from ..errors import CapacityError, InputError
-from .farfield import pyramid_blocks
 
 # Throughputs on the development machine (2 cores, both threads), common practice to
 # keep such constants beside the code that uses them.  benchmarks/calibrate_cost.py
@@ -193,6 +192,7 @@ def estimate_points(shape, n_points: int, *, algorithm: str = "direct", order: i
     if algorithm == "far":
         n_mom = (order + 1) * (order + 2) // 2
         n_terms = sum(n - 2 * m + 1 for n in range(order + 1) for m in range(n // 2 + 1))
+        from .farfield import pyramid_blocks   # numba: only when the far field is priced
         blocks = pyramid_blocks(nx, ny)
         # level-0 boxes, masses and moments while building; blocks keep centre,
         # half-diagonal, mass and weights; two levels of raw moments at a time

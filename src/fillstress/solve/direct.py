@@ -2,11 +2,9 @@
 
 Two numba kernels, both parallel over points and both exact to round-off:
 
-* the node-weight kernel (default).  Summing p_c × (four signed corner terms) over
-  cells regroups into a sum over grid nodes of F(node) × w_node with
-  ``w[j, i] = p[j-1, i-1] − p[j-1, i] − p[j, i-1] + p[j, i]`` (p zero-padded).  Nodes
-  inside a uniform fill have w = 0 and are skipped, and every node costs one corner
-  evaluation instead of four per cell.  The per-column and per-row parts of the
+* the node-weight kernel (default), on the node form of :mod:`.nodes`: nodes inside a
+  uniform fill have w = 0 and are skipped, and every node costs one corner evaluation
+  instead of four per cell.  The per-column and per-row parts of the
   corner form are computed once per point.
 * the per-cell kernel: a straightforward loop over cells with the four-corner
   rectangle formula; kept as a second, simpler fast path and compared in tests.
@@ -25,21 +23,7 @@ from ..kernels import KernelSpec, resolve_method
 from ..kernels.corner import (DEEP, FAST_MATH, INV_2PI, corner_deep, corner_sum, cross_ratio,
                               depth_parts, shared_rectangle)
 from ._checks import checked_grid, points_per_chunk
-
-
-def node_weights(pressure: np.ndarray) -> np.ndarray:
-    """Node weights ``w[j, i] = p[j-1,i-1] − p[j-1,i] − p[j,i-1] + p[j,i]`` (p zero-padded).
-
-    Shape (ny + 1, nx + 1); node (j, i) sits at x0 + i·dx, y0 + j·dy.
-
-    Examples
-    --------
-    >>> node_weights(np.array([[2.0, 2.0]])).tolist()
-    [[2.0, 0.0, -2.0], [-2.0, 0.0, 2.0]]
-    """
-    padded = np.zeros((pressure.shape[0] + 2, pressure.shape[1] + 2))
-    padded[1:-1, 1:-1] = pressure
-    return padded[:-1, :-1] - padded[:-1, 1:] - padded[1:, :-1] + padded[1:, 1:]
+from .nodes import node_coordinates, node_weights
 
 
 # A row with at least this share of non-zero node weights is summed densely (no index
@@ -165,19 +149,6 @@ def _cell_kernel(points, x_nodes, y_nodes, pressure, depth_scale, second_term, o
                 x2 = x_nodes[i + 1] - px
                 total += q * shared_rectangle(x1, x2, y1, y2, z, depth_scale, second_term)
         out[p] = total
-
-
-def node_coordinates(grid: LoadGrid) -> tuple[np.ndarray, np.ndarray]:
-    """x of the nx+1 node columns and y of the ny+1 node rows of `grid` (m).
-
-    Examples
-    --------
-    >>> xs, ys = node_coordinates(LoadGrid([[1.0, 1.0]], x0=5.0, y0=0.0, dx=0.5, dy=2.0))
-    >>> xs.tolist(), ys.tolist()
-    ([5.0, 5.5, 6.0], [0.0, 2.0])
-    """
-    return (grid.x0 + np.arange(grid.nx + 1) * grid.dx,
-            grid.y0 + np.arange(grid.ny + 1) * grid.dy)
 
 
 def _run_node_kernel(grid: LoadGrid, pts: np.ndarray, spec: KernelSpec, chunk: int) -> np.ndarray:

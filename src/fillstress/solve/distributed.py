@@ -20,7 +20,7 @@ from .._validate import whole_number
 from ..errors import ClusterError, InputError
 from ..progress import silent
 from .auto import prepare
-from .farfield import DEFAULT_ORDER
+from ._checks import DEFAULT_ORDER
 from .slices import slice_at_depth, slice_setup
 from .tiled import assemble, prepare_tiled, run_tile
 

@@ -37,9 +37,7 @@ from ..grid import LoadGrid
 from ..kernels import KernelSpec, resolve_method
 from ..kernels.corner import shared_rectangle
 from .._validate import whole_number
-from ._checks import checked_grid
-
-DEFAULT_ORDER = 4
+from ._checks import DEFAULT_ORDER, checked_grid
 _MAX_RETRIES = 6
 _FIRST_SHARE = 1.0 / 64.0  # first acceptance threshold as a share of the point's error budget
 

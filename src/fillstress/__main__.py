@@ -1,0 +1,7 @@
+"""``python -m fillstress``: the same command as ``fillstress``."""
+import sys
+
+from .cli import main
+
+if __name__ == "__main__":
+    sys.exit(main())
