@@ -27,6 +27,7 @@ from ..solve.tiled import tiled_slices
 from . import settle
 from .corridor import corridor_results
 from .decisions import max_heights
+from .headroom import headroom_results
 from .limits import LimitResults, limit_results
 from .odds import odds_results
 from .point import stress
@@ -57,6 +58,7 @@ class RunResults(Summarised):
     settlement_columns: object = None                # settle.SettlementColumns
     max_heights: list = field(default_factory=list)  # decisions.MaxHeight per body
     odds: object = None                              # odds.OddsResults ([uncertainty])
+    headroom: object = None                          # headroom.HeadroomResults ([headroom])
 
     def _summary(self):
         u, pts = self.site.units, self.points
@@ -110,6 +112,7 @@ def compute(site: Site, progress=silent, client=None) -> RunResults:
     steps += site.alignment is not None
     steps += site.settings.max_heights
     steps += site.settings.uncertainty is not None
+    steps += site.settings.headroom is not None
     timings = {}
     with progress("computing", steps) as bar:
         step = _Steps(timings, bar)
@@ -136,6 +139,9 @@ def compute(site: Site, progress=silent, client=None) -> RunResults:
         if site.settings.max_heights:
             with step("max_heights"):
                 res.max_heights = max_heights(res, lambda g, xyz: stress(site, g, xyz, client))
+        if site.settings.headroom is not None:
+            with step("headroom"):
+                res.headroom = headroom_results(res)
         if site.settings.uncertainty is not None:
             with step("odds"):
                 res.odds = odds_results(res, client)

@@ -224,6 +224,8 @@ def _write_tables(res, folder) -> None:
                             ("odds_parameters", res.odds.parameter_table(u)),
                             ("odds_convergence", res.odds.convergence_table())):
             tables.write_table_csv(folder.path(f"{name}.csv"), frame, u, TABLE_QUANTITIES)
+    if res.headroom is not None:
+        _write_headroom_tables(res, folder)
     if res.time_curves:
         rows = [{"receptor_id": rid, "days": d, "settlement": s}
                 for rid, (days, curve) in res.time_curves.items() for d, s in zip(days, curve)]
@@ -309,11 +311,41 @@ def _write_rasters(res, folder) -> None:
             geotiff.write_geotiff(folder.path(f"slices/dsz_{name}_z{label}.tif"),
                                   da.sel(depth=depth).values, sub, quantity="pressure",
                                   units=u, description=f"dsz at depth {label}", crs=site.crs)
+    if res.headroom is not None:
+        _write_headroom_rasters(res, folder)
     for name, da in res.plan_settlement.items():          # the settlement plan of each grid
         geotiff.write_geotiff(folder.path(f"slices/settlement_{name}.tif"), da.values,
                               _slice_spec(site, da), quantity="settlement", units=u,
                               description="final settlement at the ground surface",
                               crs=site.crs)
+
+
+def _write_headroom_tables(res, folder) -> None:
+    """headroom_governing.csv and headroom_checks.csv (run/headroom.py)."""
+    from .headroom import governing_table
+    site, u = res.site, res.site.units
+    tables.write_table_csv(folder.path("headroom_governing.csv"), governing_table(res.headroom),
+                           u, {"cells": None, "area": "area", "multiple_min": None, "x_at_min": "plan",
+                               "y_at_min": "plan"}, crs=site.crs)
+    tables.write_table_csv(folder.path("headroom_checks.csv"), res.headroom.checks, u,
+                           {"linearised_multiple": None, "full_multiple": None,
+                            "difference": None}, crs=site.crs)
+
+
+def _write_headroom_rasters(res, folder) -> None:
+    """headroom.tif (the multiple; no data where no mapped limit is reached) and, for a
+    body template, headroom_height.tif (the height that multiple gives)."""
+    site, u, found = res.site, res.site.units, res.headroom
+    multiple = np.where(np.isfinite(found.multiple), found.multiple, np.nan)
+    geotiff.write_geotiff(folder.path("headroom.tif"), multiple, found.spec, quantity=None,
+                          units=u, description=f"largest multiple of the {found.template}",
+                          crs=site.crs)
+    if found.height is not None:
+        geotiff.write_geotiff(folder.path("headroom_height.tif"),
+                              np.where(np.isfinite(found.height), found.height, np.nan),
+                              found.spec, quantity="length", units=u,
+                              description=f"height of the {found.template} at its largest "
+                                          "multiple", crs=site.crs)
 
 
 def _slice_spec(site, da) -> GridSpec:

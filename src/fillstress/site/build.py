@@ -5,6 +5,7 @@ Data flow: site.config.read_site_file → build_site → Site (used by run.compu
 """
 from __future__ import annotations
 
+import difflib
 import re
 import time
 from contextlib import contextmanager
@@ -60,6 +61,21 @@ class DrainZone(NamedTuple):
 
 
 @dataclass(frozen=True)
+class HeadroomTemplate:
+    """[headroom], in SI: the template (a rectangle of `size` (m) and `pressure` (kPa), or
+    the body named `body`), the map lattice (`extent` in internal metres, `step` analysis
+    cells per map cell) and the number of cells re-checked on the full settlement."""
+
+    kind: str
+    body: str | None = None
+    size: tuple[float, float] | None = None
+    pressure: float | None = None
+    extent: tuple[float, float, float, float] | None = None
+    step: int = 1
+    recheck: int = 30
+
+
+@dataclass(frozen=True)
 class RunSettings:
     """How a run is done and which files it writes ([grid], [soil], [settlement],
     [outputs] of the site file, in SI)."""
@@ -89,6 +105,7 @@ class RunSettings:
     limit_overrides: dict[str, tuple[Limit, ...]] = field(default_factory=dict)  # receptor →
     max_heights: bool = False                # [limits] max_heights: search each body's
     uncertainty: Uncertainty | None = None   # [uncertainty]: the odds of exceeding a limit
+    headroom: HeadroomTemplate | None = None  # [headroom]: where the next load can go
 
 
 @dataclass(repr=False)
@@ -328,7 +345,8 @@ def build_site(cfg: SiteConfig) -> Site:
                 grid.get("poisson") if grid.get("method") == "westergaard" else None,
                 ctx.ground, soil, _points(ctx, receptors), receptors,
                 replace(_settings(cfg), **_limits(cfg, receptors),
-                        uncertainty=_uncertainty(cfg, soil)),
+                        uncertainty=_uncertainty(cfg, soil),
+                        headroom=_headroom(ctx, spec)),
                 input_files=tuple(cfg.input_files()), plan_grids=_plan_grids(ctx, spec),
                 cut_reports={n: cut for n, (_, cut) in built.items() if cut is not None},
                 existing_surfaces=ctx.existing_surfaces,
@@ -860,17 +878,53 @@ def _points(ctx: _Context, receptors: Receptors) -> pd.DataFrame:
     return pd.concat(frames, ignore_index=True)
 
 
+def _headroom(ctx: _Context, spec: GridSpec) -> HeadroomTemplate | None:
+    """[headroom], typed; its body named, its extent on the grid, its cell a whole multiple
+    of the analysis cell."""
+    raw, cfg = ctx.cfg.get("headroom"), ctx.cfg
+    if raw is None:
+        return None
+    bodies = cfg["bodies"]
+    if raw["kind"] == "body":
+        name = raw["body"]
+        if name not in bodies:
+            near = difflib.get_close_matches(name, list(bodies), n=1)
+            hint = f"; did you mean '{near[0]}'?" if near else f"; bodies: {', '.join(bodies)}"
+            raise InputError(f"no body is named {name!r}{hint}", file=cfg.path,
+                             key="headroom.body")
+        if bodies[name].get("excavation"):
+            raise InputError(f"{name!r} is an excavation: a template adds load",
+                             file=cfg.path, key="headroom.body")
+    step = _whole_cells(cfg, spec, raw.get("cell") or spec.dx, "headroom.cell")
+    extent = None
+    if raw.get("extent"):
+        extent = tuple(float(v) * ctx.factor for v in raw["extent"])
+        g = spec.extent
+        if extent[0] >= g[2] or extent[2] <= g[0] or extent[1] >= g[3] or extent[3] <= g[1]:
+            raise InputError("lies outside the analysis grid", file=cfg.path,
+                             key="headroom.extent")
+    size = (raw["size_x"], raw["size_y"]) if raw["kind"] == "rectangle" else None
+    return HeadroomTemplate(raw["kind"], raw.get("body"), size, raw.get("pressure"), extent,
+                            step, int(raw["recheck"]))
+
+
+def _whole_cells(cfg: SiteConfig, spec: GridSpec, length: float, key: str) -> int:
+    """`length` in analysis cells, refused unless a whole number of them."""
+    step = length / spec.dx      # the cell may be snapped by ppm to CRS units
+    if abs(step - round(step)) > 1e-4 or round(step) < 1:
+        raise InputError(f"must be a whole multiple of the cell size "
+                         f"{cfg.units.length_out(spec.dx):g} {cfg.units.length}",
+                         file=cfg.path, key=key)
+    return round(step)
+
+
 def _plan_grids(ctx: _Context, spec: GridSpec) -> list:
     grids = []
     for i, g in enumerate(ctx.cfg.get("plan_grids") or []):
         extent = (np.array(g["extent"]) * ctx.factor).tolist() if g.get("extent") else None
-        spacing = g.get("spacing") or spec.dx
-        step = spacing / spec.dx      # the cell may be snapped by ppm to CRS units
-        if abs(step - round(step)) > 1e-4 or round(step) < 1:
-            raise InputError(f"must be a whole multiple of the cell size "
-                             f"{ctx.cfg.units.length_out(spec.dx):g} {ctx.cfg.units.length}",
-                             file=ctx.cfg.path, key=f"plan_grids[{i}].spacing")
+        step = _whole_cells(ctx.cfg, spec, g.get("spacing") or spec.dx,
+                            f"plan_grids[{i}].spacing")
         with _located(ctx.cfg, f"plan_grids[{i}]"):
-            grids.append(rc.plan_grid(extent or list(spec.extent), round(step) * spec.dx,
+            grids.append(rc.plan_grid(extent or list(spec.extent), step * spec.dx,
                                       g["depths"], name=g["name"]))
     return grids

@@ -467,8 +467,38 @@ UNCERTAIN_CORRELATIONS = Table(
             required=True, example="0.5"),
     ), many="array")
 
+# --- where the next load can go ([headroom]) --------------------------------------------
+HEADROOM = Table("headroom", "A headroom map: the largest multiple of a template load that "
+                 "may be placed centred on each plan cell before the first stress or "
+                 "settlement limit in force ([limits]) is reached at any receptor "
+                 "(headroom.tif; stress limits exact by reciprocity, settlement limits "
+                 "linearised about the present state and the lowest cells re-checked on "
+                 "the full settlement).", (
+    Key("kind", "str", "The template: a uniform rectangle, or a body of the site (its "
+        "shape and unit weight).", required=True, choices=("rectangle", "body")),
+    Key("extent", "extent", "[xmin, ymin, xmax, ymax] of the map (default: the analysis "
+        "grid).", unit=COORD),
+    Key("cell", "float", "Map cell: the analysis cell (default) or a whole multiple of it; "
+        "a body template is averaged onto it (its load kept).", unit=LENGTH, **_POS),
+    Key("recheck", "int", "Number of the lowest cells of the settlement map re-checked on "
+        "the full nonlinear settlement.", default=30, minimum=0),
+), variants={
+    "rectangle": (
+        Key("size_x", "float", "Size of the rectangle east-west.", unit=LENGTH, required=True,
+            **_POS),
+        Key("size_y", "float", "Size of the rectangle north-south.", unit=LENGTH,
+            required=True, **_POS),
+        Key("pressure", "float", "Uniform pressure of the rectangle.", unit=PRESSURE,
+            required=True, **_POS),
+    ),
+    "body": (
+        Key("body", "str", "Name of the site body used as the template (a fill, not an "
+            "excavation).", required=True, example='"ore_east"'),
+    ),
+})
+
 TABLES: tuple[Table, ...] = (SITE, GRID, GROUND, BODIES, ALIGNMENT, SOIL, LAYER, BUILDINGS,
                              PIPES, BOREHOLES, PLAN_GRIDS, SETTLEMENT, DRAINS, OUTPUTS,
                              MONITORING, LIMITS, LIMIT_OVERRIDES, UNCERTAINTY,
-                             UNCERTAIN_PARAMETERS, UNCERTAIN_CORRELATIONS)
+                             UNCERTAIN_PARAMETERS, UNCERTAIN_CORRELATIONS, HEADROOM)
 TOP_LEVEL = {t.name: t for t in TABLES if "." not in t.name}
