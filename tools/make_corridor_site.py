@@ -140,7 +140,7 @@ def home(centre, tangent, side, depth=None):
 
 
 def site_toml(length, homes, pipe, pipe_inverts, centreline, borehole, stations,
-              cell_ft=None) -> str:
+              cell_ft=None, plan_depths_ft=()) -> str:
     def xy(points):
         return "[" + ", ".join(f"[{x:.2f}, {y:.2f}]" for x, y in points) + "]"
     blocks = []
@@ -237,12 +237,25 @@ modulus = 900000.0
 
 [settlement]
 stage_days = [0, 180]
+{_plan_grid(plan_depths_ft)}"""
+
+
+def _plan_grid(depths_ft) -> str:
+    """A plan grid over the whole analysis grid at `depths_ft`, or nothing."""
+    if not len(depths_ft):
+        return ""
+    depths = ", ".join(f"{d:g}" for d in depths_ft)
+    return f"""
+[[plan_grids]]
+name = "plan"
+depths = [{depths}]   # ft
 """
 
 
-def write_corridor_site(folder, miles: float = 3.0, cell_ft=None) -> Path:
+def write_corridor_site(folder, miles: float = 3.0, cell_ft=None, plan_depths_ft=()) -> Path:
     """Write the corridor site into `folder`; return the path of its site.toml. The
-    default cell is left to fillstress unless `cell_ft` is given (quick tests)."""
+    default cell is left to fillstress unless `cell_ft` is given (quick tests); a plan grid
+    over the whole analysis grid at `plan_depths_ft` when any are given."""
     folder = Path(folder)
     folder.mkdir(parents=True, exist_ok=True)
     length = miles * 5280.0
@@ -283,7 +296,7 @@ def write_corridor_site(folder, miles: float = 3.0, cell_ft=None) -> Path:
     stations = "[" + ", ".join(f"{v:.0f}" for v in
                                np.round(np.array([0.25, 0.55, 0.70]) * length, -2)) + "]"
     (folder / "site.toml").write_text(site_toml(length, homes, pipe, inverts, centre_pts,
-                                                peak, stations, cell_ft))
+                                                peak, stations, cell_ft, plan_depths_ft))
     return folder / "site.toml"
 
 
@@ -291,8 +304,12 @@ def main(argv=None) -> None:
     ap = argparse.ArgumentParser(description=__doc__.split("\n")[0])
     ap.add_argument("folder")
     ap.add_argument("--miles", type=float, default=3.0)
+    ap.add_argument("--cell", type=float, default=None, help="analysis cell (ft)")
+    ap.add_argument("--plan-depths", type=float, nargs="+", default=(),
+                    help="depths (ft) of a plan grid over the analysis grid")
     args = ap.parse_args(argv)
-    print(f"wrote {write_corridor_site(args.folder, args.miles)}")
+    site = write_corridor_site(args.folder, args.miles, args.cell, args.plan_depths)
+    print(f"wrote {site}")
 
 
 if __name__ == "__main__":
