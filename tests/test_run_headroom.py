@@ -73,3 +73,122 @@ def test_a_template_body_that_is_not_on_the_site_is_named(tmp_path):
     from fillstress.errors import InputError
     with pytest.raises(InputError, match="headroom.body.*did you mean 'pad'"):
         load_site(path)
+
+
+# Overconsolidated clay (OCR 1.4): a further load carries the clay past σ'p, where the
+# tangent of the e–log σ' law underestimates the settlement, so the linearised settlement
+# map allows too much. Invented site and soil.
+CLAY_SITE = """
+[site]
+name = "Holm Ings depot"
+crs = "EPSG:32630"
+[grid]
+cell = 2.0
+margin = 8.0
+convergence_check = false
+[bodies.heap]
+kind = "footprint"
+outline = [[440000, 5900000], [440016, 5900000], [440016, 5900012], [440000, 5900012]]
+height = 3.0
+unit_weight = 10.0
+{extra}
+[[buildings]]
+id = "hall"
+outline = [[440030, 5899996], [440046, 5899996], [440046, 5900010], [440030, 5900010]]
+foundation_depth = 0.8
+interior_spacing = 4.0
+[soil]
+water_table = 1.0
+rigid_base = 12.0
+[[soil.layers]]
+name = "soft silty clay"
+top = 0.0
+bottom = 12.0
+unit_weight = 17.0
+saturated_unit_weight = 17.5
+cc = 0.45
+cr = 0.06
+e0 = 1.2
+ocr = 1.4
+cv = 1.5
+[limits]
+published = false
+settlement = 40.0
+[headroom]
+kind = "rectangle"
+size_x = 6.0
+size_y = 6.0
+pressure = 50.0
+recheck = 6
+"""
+
+
+def _clay_site(tmp_path, extra=""):
+    path = tmp_path / "clay.toml"
+    path.write_text(CLAY_SITE.format(extra=extra))
+    return load_site(path)
+
+
+def _settlement_use_with_template(tmp_path, spec, cell, multiple) -> float:
+    """The hall's settlement ÷ its limit with the 6 m × 6 m template placed for real."""
+    j, i = cell
+    cx, cy = spec.x_centres[i], spec.y_centres[j]
+    body = (f'[bodies.placed]\nkind = "footprint"\nunit_weight = 10.0\n'
+            f'height = {5.0 * float(multiple)!r}\noutline = [[{cx - 3}, {cy - 3}], [{cx + 3}, '
+            f'{cy - 3}], [{cx + 3}, {cy + 3}], [{cx - 3}, {cy + 3}]]')
+    rows = compute(_clay_site(tmp_path, body)).limits.rows
+    return max(r.row.utilisation for r in rows if r.row.limit.quantity == "settlement")
+
+
+def test_on_overconsolidated_clay_the_map_is_scaled_safe_by_its_rechecks(tmp_path):
+    res = compute(_clay_site(tmp_path))
+    found, spec = res.headroom, res.headroom.spec
+    checks = found.checks
+    assert set(checks["selection"]) == {"lowest", "spread"} and len(checks) == 6
+    ratio = checks["settlement_ratio"].to_numpy()
+    assert found.unsafe and found.factor == pytest.approx(ratio.min()) and found.factor < 0.9
+    assert any("may be unsafe" in w for w in res.warnings)
+    # re-checked cells hold their full-model value, the others the linearisation × factor
+    rc = np.column_stack([np.searchsorted(spec.y_centres, checks["y"]),
+                          np.searchsorted(spec.x_centres, checks["x"])])
+    np.testing.assert_allclose(found.multiple[rc[:, 0], rc[:, 1]], checks["full_multiple"])
+    settlement = np.array([[found.receptors[g][3] == "settlement" if g >= 0 else False
+                            for g in row] for row in found.governing])
+    others = settlement.copy()
+    others[rc[:, 0], rc[:, 1]] = False
+    np.testing.assert_allclose(found.multiple[others],
+                               found.linearised[others] * found.factor, rtol=1e-12)
+    # placed for real: the full multiple reaches the limit, the scaled map stays within it
+    # where the linearisation alone goes past it
+    lowest = rc[checks["selection"].to_numpy() == "lowest"][0]
+    assert _settlement_use_with_template(tmp_path, spec, lowest, found.multiple[tuple(lowest)]
+                                         ) == pytest.approx(1.0, rel=2e-3)
+    rng = np.random.default_rng(3)
+    near = np.argwhere(others & (found.linearised < 3 * np.nanmin(found.linearised)))
+    for cell in near[rng.choice(len(near), 2, replace=False)]:
+        cell = tuple(cell)
+        assert _settlement_use_with_template(tmp_path, spec, cell, found.multiple[cell]) <= 1.0
+        assert _settlement_use_with_template(tmp_path, spec, cell, found.linearised[cell]) > 1.02
+
+
+def test_a_run_states_the_headroom_in_its_summary_and_on_the_console(tmp_path, capsys):
+    import json
+    from fillstress.cli import main
+    path = tmp_path / "clay.toml"
+    path.write_text(CLAY_SITE.format(extra=""))
+    assert main(["run", str(path), "-o", str(tmp_path / "out"), "--no-report"]) == 0
+    out = " ".join(capsys.readouterr().out.split())
+    summary = json.loads((tmp_path / "out" / "summary.json").read_text())["headroom"]
+    least = summary["least"]
+    assert summary["template"] == "rectangle 6 m × 6 m at 50 kPa"
+    assert summary["governing_limit_type"] == "settlement" == least["limit_type"]
+    assert least["receptor_id"] == "hall" and least["height_m"] is None
+    assert summary["rechecked_cells"] == 6 and summary["linearisation_unsafe"] is True
+    assert summary["settlement_scale_applied"] == summary["worst_settlement_full_over_linearised"]
+    import rasterio
+    with rasterio.open(tmp_path / "out" / "headroom.tif") as src:
+        band = src.read(1, masked=True)
+    assert float(band.min()) == pytest.approx(least["multiple"], rel=1e-6)
+    assert (tmp_path / "out" / "headroom_linearised.tif").is_file()
+    assert f"headroom: least × {least['multiple']:.3g} of the rectangle" in out
+    assert "settlement-governed values between re-checked cells are linearised and may be unsafe" in out

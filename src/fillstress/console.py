@@ -198,6 +198,8 @@ def closing_lines(summary) -> list[str]:
     lines += [_max_height_line(m, u) for m in r.max_heights]
     if r.odds is not None:
         lines.append(odds_line(r.odds.likeliest(u), r.odds.samples))
+    if r.headroom is not None:
+        lines.append(headroom_line(r.headroom, r.site))
     lines += [f"warning: {w}" for w in r.warnings]
     lines.append(f"results written to {summary.folder}")
     lines.append(CAUTIONS.split(";")[0] + ".")
@@ -224,6 +226,28 @@ def odds_line(row: dict | None, samples: int) -> str:
             f"{row['receptor_id']}, {row['samples_over']} of {row['samples']} samples, P = "
             f"{100 * row['p_exceed']:.3g} % (95 % Wilson interval {100 * row['wilson_low']:.3g}"
             f"–{100 * row['wilson_high']:.3g} %; odds.csv)")
+
+
+def headroom_line(found, site) -> str:
+    """'headroom: least × 0.205 of body coal_a (1.23 m) at (440061.5, 5900012.5),
+    settlement at building school; 20 cells re-checked on the full model, worst settlement
+    full ÷ linearised 0.77: settlement limits scaled by it (headroom.tif)'."""
+    u, least = site.units, found.least()
+    checked = len(found.checks)
+    if least is None:
+        return (f"headroom: the {found.template} reaches no mapped limit anywhere on the map "
+                "(headroom.tif)")
+    height = ("" if least["height"] is None else
+              f" ({u.length_out(least['height']):.3g} {u.length})")
+    where = ", ".join(f"{v / site.metres_per_unit:.1f}" for v in (least["x"], least["y"]))
+    text = (f"headroom: least × {least['multiple']:.3g} of the {found.template}{height} at "
+            f"({where}), {least['limit']} at {least['receptor_kind']} {least['receptor_id']}")
+    if checked:
+        text += (f"; {checked} cells re-checked on the full model, worst settlement full ÷ "
+                 f"linearised {found.worst_ratio:.3g}")
+        if found.factor < 1:
+            text += ": settlement limits scaled by it"
+    return text + " (headroom.tif)"
 
 
 def _plain(value):

@@ -327,6 +327,75 @@ def lowest_cells(headroom: HeadroomMap, count: int = 5) -> np.ndarray:
     return np.column_stack(np.unravel_index(order, headroom.multiple.shape))
 
 
+def recheck_cells(multiple, count: int, ceiling: float = np.inf) -> tuple[np.ndarray, np.ndarray]:
+    """The cells of a (linearised) map to re-check on the full model: the lowest ⌈2·count/3⌉
+    (the governing locations) and the rest spread evenly in rank over the other finite
+    cells whose multiple is at most `ceiling` (so that the worst full/linearised ratio is
+    also sampled away from the lowest cells).
+
+    Returns ``(cells, lowest)``: (row, col) of each cell, shape (C, 2), and whether it is
+    one of the lowest (True) or a spread cell (False); lowest first, then by multiple.
+
+    Examples
+    --------
+    >>> m = np.array([[1.0, 2.0, 3.0, 4.0, 5.0, 6.0, 7.0, np.inf]])
+    >>> cells, lowest = recheck_cells(m, 3)
+    >>> cells[:, 1].tolist(), lowest.tolist()      # 2 lowest, 1 spread up to the largest
+    ([0, 1, 6], [True, True, False])
+    >>> recheck_cells(m, 3, ceiling=4.0)[0][:, 1].tolist()
+    [0, 1, 3]
+    """
+    count = whole_number(count, "count", minimum=0)
+    values = np.asarray(multiple, dtype=float)
+    flat = values.ravel()
+    order = np.argsort(flat, kind="stable")
+    order = order[np.isfinite(flat[order])]
+    n_low = min(len(order), -(-2 * count // 3))
+    rest = order[n_low:]
+    rest = rest[flat[rest] <= ceiling]
+    n_spread = min(len(rest), count - n_low)
+    # evenly in rank above the lowest, up to the largest (rest is in ascending order)
+    ranks = np.unique(np.round(np.arange(1, n_spread + 1) / max(n_spread, 1)
+                               * (len(rest) - 1)).astype(int))
+    chosen = np.concatenate([order[:n_low], rest[ranks] if n_spread else rest[:0]])
+    cells = np.column_stack(np.unravel_index(chosen, values.shape)).reshape(-1, 2)
+    return cells, np.arange(len(chosen)) < n_low
+
+
+def scaled_by_rechecks(linearised, cells, full, tolerance: float = 0.01
+                       ) -> tuple[np.ndarray, float, float]:
+    """A settlement map made safe by its re-checks: where the full model allows less than
+    the linearisation at some re-checked cell by more than `tolerance` (relative), every
+    cell is scaled by the worst ratio full / linearised found, and each re-checked cell
+    takes its full-model value.
+
+    Returns ``(map, factor, worst)``: the map, the factor applied (1.0 when none) and the
+    worst ratio among the re-checks (nan when none is finite). The scaling is a correction,
+    not a bound: a cell between re-checks may still be worse than the worst re-checked one.
+
+    Examples
+    --------
+    >>> lin = np.array([[2.0, 4.0, 8.0]])
+    >>> m, factor, worst = scaled_by_rechecks(lin, [[0, 0], [0, 2]], [1.5, 8.8])
+    >>> m.tolist(), factor, worst
+    ([[1.5, 3.0, 8.8]], 0.75, 0.75)
+    >>> scaled_by_rechecks(lin, [[0, 0]], [2.01])[1:]      # safe: no scaling
+    (1.0, 1.005)
+    """
+    lin = np.asarray(linearised, dtype=float)
+    rows = np.asarray(cells, dtype=np.int64).reshape(-1, 2)
+    at = (rows[:, 0], rows[:, 1])
+    full = np.asarray(full, dtype=float)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        ratio = np.where(np.isfinite(lin[at]) & np.isfinite(full) & (lin[at] > 0),
+                         full / lin[at], np.nan)
+    worst = float(np.nanmin(ratio)) if np.isfinite(ratio).any() else math.nan
+    factor = worst if worst < 1.0 - tolerance else 1.0
+    out = lin * factor
+    out[at] = np.where(np.isfinite(full), full, out[at])
+    return out, factor, worst
+
+
 def recheck_settlement(template, spec, cells, xy, profile, z_mid, h, dsz_current, limit_m,
                        method="boussinesq", poisson=None, *, rtol=1e-6) -> np.ndarray:
     """Full-model multiple of `template` at chosen cells: the template is placed for real

@@ -27,7 +27,7 @@ from ..solve.tiled import tiled_slices
 from . import settle
 from .corridor import corridor_results
 from .decisions import max_heights
-from .headroom import headroom_results
+from .headroom import headroom_results, headroom_warnings
 from .limits import LimitResults, limit_results
 from .odds import odds_results
 from .point import stress
@@ -142,6 +142,7 @@ def compute(site: Site, progress=silent, client=None) -> RunResults:
         if site.settings.headroom is not None:
             with step("headroom"):
                 res.headroom = headroom_results(res)
+            res.warnings += headroom_warnings(res.headroom)
         if site.settings.uncertainty is not None:
             with step("odds"):
                 res.odds = odds_results(res, client)

@@ -8,6 +8,7 @@ international foot). The VTK writers know no CRS, so their coordinates are pre-s
 from __future__ import annotations
 
 import json
+import math
 
 import geopandas as gpd
 import numpy as np
@@ -329,23 +330,59 @@ def _write_headroom_tables(res, folder) -> None:
                                "y_at_min": "plan"}, crs=site.crs)
     tables.write_table_csv(folder.path("headroom_checks.csv"), res.headroom.checks, u,
                            {"linearised_multiple": None, "full_multiple": None,
-                            "difference": None}, crs=site.crs)
+                            "difference": None, "settlement_ratio": None}, crs=site.crs)
 
 
 def _write_headroom_rasters(res, folder) -> None:
     """headroom.tif (the multiple; no data where no mapped limit is reached) and, for a
     body template, headroom_height.tif (the height that multiple gives)."""
     site, u, found = res.site, res.site.units, res.headroom
-    multiple = np.where(np.isfinite(found.multiple), found.multiple, np.nan)
-    geotiff.write_geotiff(folder.path("headroom.tif"), multiple, found.spec, quantity=None,
-                          units=u, description=f"largest multiple of the {found.template}",
+    safe = " (settlement limits scaled by the re-checks)" if found.factor < 1 else ""
+    geotiff.write_geotiff(folder.path("headroom.tif"), _nodata_where_inf(found.multiple),
+                          found.spec, quantity=None, units=u,
+                          description=f"largest multiple of the {found.template}{safe}",
                           crs=site.crs)
+    if found.factor < 1:
+        geotiff.write_geotiff(folder.path("headroom_linearised.tif"),
+                              _nodata_where_inf(found.linearised), found.spec, quantity=None,
+                              units=u, description=f"largest multiple of the {found.template}"
+                              ", settlement limits linearised (not re-checked)", crs=site.crs)
     if found.height is not None:
         geotiff.write_geotiff(folder.path("headroom_height.tif"),
-                              np.where(np.isfinite(found.height), found.height, np.nan),
+                              _nodata_where_inf(found.height),
                               found.spec, quantity="length", units=u,
                               description=f"height of the {found.template} at its largest "
                                           "multiple", crs=site.crs)
+
+
+def _nodata_where_inf(values: np.ndarray) -> np.ndarray:
+    return np.where(np.isfinite(values), values, np.nan)
+
+
+def _headroom_json(res) -> dict | None:
+    """summary.json's headroom: the template, the least multiple, where and what governs it
+    (plan coordinates in site-CRS units, the height in the site length unit), the re-checks
+    and the correction put on the settlement limits."""
+    found = res.headroom
+    if found is None:
+        return None
+    site, u = res.site, res.site.units
+    least = found.least()
+    if least is not None:
+        least = {**least, "x": least["x"] / site.metres_per_unit,
+                 "y": least["y"] / site.metres_per_unit,
+                 "height": None if least["height"] is None else u.length_out(least["height"])}
+        least[f"height_{u.length}"] = least.pop("height")
+    ratio = found.worst_ratio
+    return {"template": found.template,
+            f"map_cell_{u.length}": u.length_out(found.spec.dx),
+            "map_cells": int(found.multiple.size),
+            "least": least,
+            "governing_limit_type": None if least is None else least["limit_type"],
+            "rechecked_cells": int(len(found.checks)),
+            "worst_settlement_full_over_linearised": None if math.isnan(ratio) else ratio,
+            "settlement_scale_applied": found.factor,
+            "linearisation_unsafe": found.unsafe}
 
 
 def _slice_spec(site, da) -> GridSpec:
@@ -467,6 +504,7 @@ def _write_summary_json(res, folder, assumptions, cautions) -> None:
         "convergence": _convergence_out(res),
         "receptors": _receptor_json(res),
         "warnings": res.warnings,
+        **({"headroom": _headroom_json(res)} if res.headroom is not None else {}),
         "timings_s": res.timings,
         "assumptions": assumptions, "cautions": cautions,
     }

@@ -6,11 +6,17 @@ Stress limits (Δσz, Δσz/σ'v0 at every receptor point) are exact by reciproc
 settlement limit (largest settlement of a building or pipe, at each of its settlement points)
 is linearised about the present state (decide.headroom.settlement_sensitivity, tangent of
 the 1-D model) and the `recheck` lowest cells of that map are re-checked with the template
-placed for real on the full nonlinear settlement. Differential settlement, distortion, tilt
-and pipe curvature are not mapped (stated in the report and in headroom_checks' note).
+placed for real on the full nonlinear settlement, with some cells spread over the rest of
+the map. Where the full model allows less than the linearisation at a re-checked cell by more
+than RECHECK_TOLERANCE, the settlement map is scaled by the worst ratio found (re-checked cells
+take their full-model value) and the run warns: headroom.tif holds the scaled map,
+headroom_linearised.tif the linearisation (docs/method-decisions.md, "Headroom map").
+Differential settlement, distortion, tilt and pipe curvature are not mapped (stated in the
+report and in headroom_checks' note).
 """
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -21,8 +27,13 @@ from ..decide.limits import limits_for
 from ..grid import GridSpec
 from ..settlement import consolidation_settlement
 from . import limits as lm
+from .plan import PLAUSIBLE_FILL_M
 
 MAPPED = ("stress_increase", "stress_ratio", "settlement")
+RECHECK_TOLERANCE = 0.01    # full model below the linearisation by more: the map is scaled
+# spread re-checks stay where the template weighs less than the highest earth fill
+# (PLAUSIBLE_FILL_M at 20 kN/m³, common practice for a heavy fill)
+HEAVIEST_FILL_KPA = PLAUSIBLE_FILL_M * 20.0
 
 
 @dataclass(frozen=True)
@@ -30,7 +41,10 @@ class HeadroomResults:
     """The map (multiple, shape of `spec`; inf where no mapped limit is reached), the height
     it gives for a body template (None for a rectangle), the receptor (kind, id, point,
     limit) governing each cell (index into `receptors`, -1 where inf) and the re-checked
-    cells (x, y, linearised and full multiple)."""
+    cells (x, y, lowest or spread, linearised and full multiple, settlement full ÷
+    linearised). `linearised` is the map before the re-checks' correction, `factor` the
+    scale put on its settlement limits (1.0: none) and `worst_ratio` the least settlement
+    full ÷ linearised among the re-checks (nan: none)."""
 
     spec: GridSpec
     multiple: np.ndarray
@@ -39,6 +53,31 @@ class HeadroomResults:
     receptors: list
     checks: pd.DataFrame
     template: str
+    linearised: np.ndarray
+    factor: float = 1.0
+    worst_ratio: float = math.nan
+    template_height: float | None = None
+
+    @property
+    def unsafe(self) -> bool:
+        """The full model allowed less than the linearisation beyond the tolerance."""
+        return bool(self.worst_ratio < 1.0 - RECHECK_TOLERANCE)
+
+    def least(self) -> dict | None:
+        """The smallest multiple of the map (SI: x, y in internal metres, height in m) and
+        what governs it; None when no mapped limit is reached anywhere."""
+        finite = np.isfinite(self.multiple)
+        if not finite.any():
+            return None
+        j, i = np.unravel_index(int(np.argmin(np.where(finite, self.multiple, np.inf))),
+                                self.multiple.shape)
+        kind, rid, point, limit = self.receptors[self.governing[j, i]]
+        m = float(self.multiple[j, i])
+        return {"multiple": m, "x": float(self.spec.x_centres[i]),
+                "y": float(self.spec.y_centres[j]),
+                "height": None if self.template_height is None else m * self.template_height,
+                "limit": limit, "limit_type": "settlement" if limit == "settlement" else "stress",
+                "receptor_kind": kind, "receptor_id": rid, "point_id": point}
 
 
 def headroom_results(res) -> HeadroomResults:
@@ -46,18 +85,34 @@ def headroom_results(res) -> HeadroomResults:
     site, how = res.site, res.site.settings.headroom
     spec = map_lattice(site.spec, how.step, how.extent)
     template, height = template_of(site, how, spec)
-    maps, receptors = [], []
+    receptors = []
     stress = _stress_map(res, template, spec, receptors)
-    if stress is not None:
-        maps.append(stress)
-    settle_maps = [m for m in _settlement_maps(res, template, spec, receptors)]
+    stress_maps = [] if stress is None else [stress]
+    settle_maps = _settlement_maps(res, template, spec, receptors)
     lin_settle = _least([m for m, _ in settle_maps], spec.shape)
-    multiple, governing = _least(maps + [m for m, _ in settle_maps], spec.shape)
-    checks = _recheck(res, template, spec, settle_maps, lin_settle, stress, how.recheck)
+    linearised, _ = _least(stress_maps + [m for m, _ in settle_maps], spec.shape)
+    checks, settled, factor, worst = _recheck(res, template, spec, settle_maps, lin_settle,
+                                              stress, how.recheck)
+    safe = hd.HeadroomMap(settled, lin_settle[1], spec.x_centres, spec.y_centres)
+    multiple, governing = _least(stress_maps + [safe], spec.shape)
     label = (f"body {how.body}" if how.kind == "body" else
              f"rectangle {how.size[0]:g} m × {how.size[1]:g} m at {how.pressure:g} kPa")
     return HeadroomResults(spec, multiple, None if height is None else multiple * height,
-                           governing, receptors, checks, label)
+                           governing, receptors, checks, label, linearised, factor, worst,
+                           height)
+
+
+def headroom_warnings(found: HeadroomResults) -> list[str]:
+    """The run's warning when the full model allowed less than the linearised map."""
+    if not found.unsafe:
+        return []
+    cut = 100 * (1 - found.worst_ratio)
+    scaled = (f"the settlement-limited cells of headroom.tif are scaled by "
+              f"{found.factor:.3g} (the linearisation is in headroom_linearised.tif)")
+    return [f"headroom: the full settlement model allows up to {cut:.0f} % less than the "
+            f"linearised map at the re-checked cells (worst full ÷ linearised "
+            f"{found.worst_ratio:.3g}; headroom_checks.csv); {scaled}; settlement-governed "
+            "values between re-checked cells are linearised and may be unsafe"]
 
 
 def map_lattice(grid: GridSpec, step: int, extent=None) -> GridSpec:
@@ -182,29 +237,36 @@ def _least(maps, shape):
     return best, who
 
 
-def _recheck(res, template, spec, settle_maps, lin_settle, stress, count) -> pd.DataFrame:
-    """The `count` lowest cells of the settlement map re-checked on the full settlement
-    (the stress limits, exact, taken with them)."""
-    columns = ["x", "y", "linearised_multiple", "full_multiple", "difference"]
+def _recheck(res, template, spec, settle_maps, lin_settle, stress, count):
+    """The `count` re-checked cells of the settlement map on the full settlement (the
+    stress limits, exact, taken with them): (table, settlement map made safe by them,
+    factor applied, worst settlement full ÷ linearised)."""
+    columns = ["x", "y", "selection", "linearised_multiple", "full_multiple", "difference",
+               "settlement_ratio"]
+    none = pd.DataFrame(columns=columns), lin_settle[0], 1.0, math.nan
     if not settle_maps or count == 0:
-        return pd.DataFrame(columns=columns)
-    cells = hd.lowest_cells(hd.HeadroomMap(lin_settle[0], None, None, None), count)
+        return none
+    cells, lowest = hd.recheck_cells(lin_settle[0], count, HEAVIEST_FILL_KPA / template.max())
     if len(cells) == 0:
-        return pd.DataFrame(columns=columns)
+        return none
     site = res.site
-    full = np.full(len(cells), np.inf)
+    full_settle = np.full(len(cells), np.inf)
     for _, (xy, z, h, now, limit) in settle_maps:
-        full = np.minimum(full, hd.recheck_settlement(template, spec, cells, xy, site.soil, z,
-                                                      h, now, limit, site.method,
-                                                      site.poisson))
+        full_settle = np.minimum(full_settle, hd.recheck_settlement(
+            template, spec, cells, xy, site.soil, z, h, now, limit, site.method, site.poisson))
+    settled, factor, worst = hd.scaled_by_rechecks(lin_settle[0], cells, full_settle,
+                                                   RECHECK_TOLERANCE)
     rc = (cells[:, 0], cells[:, 1])
     exact = stress.multiple[rc] if stress is not None else np.full(len(cells), np.inf)
-    lin, full = np.minimum(lin_settle[0][rc], exact), np.minimum(full, exact)
+    lin, full = np.minimum(lin_settle[0][rc], exact), np.minimum(full_settle, exact)
     with np.errstate(invalid="ignore", divide="ignore"):
         diff = np.where(lin == full, 0.0, (full - lin) / lin)
+        ratio = np.where(full_settle == lin_settle[0][rc], 1.0, full_settle / lin_settle[0][rc])
     return pd.DataFrame({"x": spec.x_centres[cells[:, 1]], "y": spec.y_centres[cells[:, 0]],
+                         "selection": np.where(lowest, "lowest", "spread"),
                          "linearised_multiple": lin, "full_multiple": full,
-                         "difference": diff}, columns=columns)
+                         "difference": diff, "settlement_ratio": ratio},
+                        columns=columns), settled, factor, worst
 
 
 def governing_table(found: HeadroomResults) -> pd.DataFrame:
