@@ -192,3 +192,42 @@ def test_a_run_states_the_headroom_in_its_summary_and_on_the_console(tmp_path, c
     assert (tmp_path / "out" / "headroom_linearised.tif").is_file()
     assert f"headroom: least × {least['multiple']:.3g} of the rectangle" in out
     assert "settlement-governed values between re-checked cells are linearised and may be unsafe" in out
+
+
+def _headroom_section(folder) -> str:
+    html = (folder / "report.html").read_text(encoding="utf-8")
+    section = html[html.index('<section id="headroom"'):]
+    return section[:section.index("</section>")]
+
+
+def test_the_report_draws_the_map_and_the_rechecks_and_cautions_on_settlement(tmp_path):
+    import base64
+    import io
+    import re
+    import pandas as pd
+    from PIL import Image
+    from fillstress.run.compute import run_site_file
+    path = tmp_path / "clay.toml"
+    path.write_text(CLAY_SITE.format(extra=""))
+    run_site_file(path, tmp_path / "out")
+    section = _headroom_section(tmp_path / "out")
+    assert "<strong>Settlement-governed values between re-checked cells are linearised and " \
+           "may be unsafe.</strong>" in section
+    assert "scaled by" in section and "headroom_linearised.tif" in section
+    png = re.search(r'src="data:image/png;base64,([^"]+)"', section).group(1)
+    assert Image.open(io.BytesIO(base64.b64decode(png))).size[0] > 500
+    checks = pd.read_csv(tmp_path / "out" / "headroom_checks.csv", encoding="utf-8-sig")
+    table = section[section.index("Cells re-checked on the full settlement model"):]
+    assert table.count("<tr>") == len(checks) + 1          # a row per re-check, and the head
+    for value in checks["full_multiple"]:
+        assert f">{value:.4g}<" in table
+
+
+def test_a_map_governed_by_stress_alone_carries_no_settlement_caution(tmp_path):
+    from fillstress.run.compute import run_site_file
+    path = tmp_path / "site.toml"
+    path.write_text(SITE.format(extra=""))
+    run_site_file(path, tmp_path / "out")
+    section = _headroom_section(tmp_path / "out")
+    assert "may be unsafe" not in section and "Least headroom" in section
+    assert "stress_increase at borehole BH-T1 governs." in section

@@ -18,6 +18,7 @@ from pyproj import CRS
 from ..errors import InputError
 from ..io.atomic import write_atomic
 from .corridor import alignment_section
+from .headroom import headroom_section
 from .limits import CSS as LIMITS_CSS, limits_section
 from .odds import odds_section
 from ..io.results import ResultsFolder, UnitLabels
@@ -50,6 +51,7 @@ SECTIONS = (
     ("pipes", "Pipe profiles"),
     ("alignment", "Along the alignment"),
     ("limits", "Limits"),
+    ("headroom", "Headroom for a further load"),
     ("odds", "Odds of exceeding a limit"),
     ("time", "Settlement with time"),
     ("record", "Settlement calculation record"),
@@ -423,6 +425,7 @@ class _Report:
                   "plans": self.plans, "profiles": self.profiles, "pipes": self.pipe_profiles,
                   "alignment": lambda: alignment_section(self.f, _img, esc),
                   "limits": lambda: limits_section(self.f),
+                  "headroom": lambda: headroom_section(self.f, _img),
                   "odds": lambda: odds_section(self.f, _img),
                   "time": self.time, "tables": self.tables, "convergence": self.convergence,
                   "record": lambda: calculation_record(self.f) or

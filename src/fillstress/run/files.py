@@ -347,6 +347,12 @@ def _write_headroom_rasters(res, folder) -> None:
                               _nodata_where_inf(found.linearised), found.spec, quantity=None,
                               units=u, description=f"largest multiple of the {found.template}"
                               ", settlement limits linearised (not re-checked)", crs=site.crs)
+    from .headroom import governing_codes
+    codes = governing_codes(found)
+    geotiff.write_geotiff(folder.path("headroom_governing.tif"),
+                          np.where(codes > 0, codes, np.nan), found.spec, quantity=None,
+                          units=u, description="row of headroom_governing.csv whose limit "
+                          "governs the cell", crs=site.crs)
     if found.height is not None:
         geotiff.write_geotiff(folder.path("headroom_height.tif"),
                               _nodata_where_inf(found.height),

@@ -272,6 +272,19 @@ def _recheck(res, template, spec, settle_maps, lin_settle, stress, count):
 def governing_table(found: HeadroomResults) -> pd.DataFrame:
     """headroom_governing.csv: each receptor and limit that governs some cells, the cells it
     governs and its smallest multiple and where (SI)."""
+    return _governing_rows(found).drop(columns="receptor")
+
+
+def governing_codes(found: HeadroomResults) -> np.ndarray:
+    """headroom_governing.tif: per cell the row of headroom_governing.csv (1: its first)
+    whose limit governs it, 0 where no mapped limit is reached."""
+    codes = np.zeros(found.governing.shape)
+    for row, r in enumerate(_governing_rows(found)["receptor"], start=1):
+        codes[found.governing == r] = row
+    return codes
+
+
+def _governing_rows(found: HeadroomResults) -> pd.DataFrame:
     rows = []
     cell_area = found.spec.dx * found.spec.dy
     for r in np.unique(found.governing[found.governing >= 0]):
@@ -284,8 +297,8 @@ def governing_table(found: HeadroomResults) -> pd.DataFrame:
                      "area": float(mask.sum() * cell_area),
                      "multiple_min": float(values[j, i]),
                      "x_at_min": float(found.spec.x_centres[i]),
-                     "y_at_min": float(found.spec.y_centres[j])})
+                     "y_at_min": float(found.spec.y_centres[j]), "receptor": int(r)})
     frame = pd.DataFrame(rows, columns=["receptor_kind", "receptor_id", "point_id", "limit",
                                         "cells", "area", "multiple_min", "x_at_min",
-                                        "y_at_min"])
+                                        "y_at_min", "receptor"])
     return frame.sort_values("multiple_min", kind="stable").reset_index(drop=True)
