@@ -407,3 +407,30 @@ def test_stockpile_yard_gives_the_odds_that_the_warehouse_exceeds_its_distortion
     html = (runs["stockpile_yard"] / "report.html").read_text(encoding="utf-8")
     section = html[html.index('<section id="odds"'):]
     assert "beta_no_cracking" in section[:section.index("</section>")]
+
+
+def test_stockpile_yard_maps_the_headroom_for_another_ore_pile(runs):
+    """The yard's [headroom] takes the ore pile as the template: headroom.tif (the
+    multiple), headroom_height.tif (that multiple of the ore pile's 9 m crest), the
+    governing limits and re-checks, summary.json's least cell, and the report section."""
+    import rasterio
+    folder = runs["stockpile_yard"]
+    with rasterio.open(folder / "headroom.tif") as src:
+        multiple = src.read(1, masked=True)
+        assert src.crs.to_epsg() == 32632 and src.res == (4.0, 4.0)
+    with rasterio.open(folder / "headroom_height.tif") as src:
+        height = src.read(1, masked=True)
+    np.testing.assert_allclose(height.compressed(), 9.0 * multiple.compressed(), rtol=1e-5)
+    about = json.loads((folder / "summary.json").read_text())["headroom"]
+    assert about["template"] == "body ore_east" and about["rechecked_cells"] == 12
+    assert float(multiple.min()) == pytest.approx(about["least"]["multiple"], rel=1e-6)
+    assert about["least"]["receptor_id"] in {"water_main_DN600", "warehouse"}
+    checks = pd.read_csv(folder / "headroom_checks.csv", encoding="utf-8-sig")
+    governing = pd.read_csv(folder / "headroom_governing.csv", encoding="utf-8-sig")
+    assert len(checks) == 12 and set(governing["limit"]) <= {"settlement"}
+    assert (checks["full_multiple"] >= multiple.min() * (1 - 1e-6)).all()
+    html = (folder / "report.html").read_text(encoding="utf-8")
+    section = html[html.index('<section id="headroom"'):]
+    section = section[:section.index("</section>")]
+    assert "Least headroom" in section and section.count("<img") == 1
+    assert "Cells re-checked on the full settlement model" in section

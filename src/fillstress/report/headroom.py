@@ -204,7 +204,7 @@ def headroom_figure(field: PlanField, *, codes=None, settlement_rows=(), governi
     handles += _draw_checks(ax, checks)
     if least:
         ax.plot([least["x"]], [least["y"]], marker="*", markersize=15, color="red",
-                markeredgecolor="white", linestyle="none")
+                markeredgecolor="white", linestyle="none", zorder=7)
         handles.append(_line_handle("red", f"least: × {float(least['multiple']):.3g}",
                                     marker="*"))
     _label_regions(ax, governing)
@@ -259,7 +259,7 @@ def _draw_checks(ax, checks) -> list:
         rows = checks[checks["selection"] == chosen]
         if rows.empty:
             continue
-        ax.plot(rows[x], rows[y], linestyle="none", markersize=6, **style)
+        ax.plot(rows[x], rows[y], linestyle="none", markersize=6, zorder=6, **style)
         out.append(_point_handle(style, f"re-checked on the full model ({chosen})"))
     return out
 
@@ -281,8 +281,9 @@ def _label_regions(ax, governing) -> None:
             continue
         seen.add(key)
         text = f"{r['limit']} at {r['receptor_id']}".replace("$", r"\$")
-        ax.annotate(text, (r[x], r[y]), xytext=(6, -12), textcoords="offset points",
-                    fontsize=7, bbox=dict(boxstyle="round,pad=0.15", facecolor="white",
-                                          alpha=0.85, edgecolor="none"))
+        ax.annotate(text, (r[x], r[y]), xytext=(8, -14), textcoords="offset points",
+                    fontsize=7, zorder=5, bbox=dict(boxstyle="round,pad=0.15",
+                                                    facecolor="white", alpha=0.7,
+                                                    edgecolor="none"))
         if len(seen) >= SHOWN_REGIONS:
             break
