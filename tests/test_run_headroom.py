@@ -231,3 +231,69 @@ def test_a_map_governed_by_stress_alone_carries_no_settlement_caution(tmp_path):
     section = _headroom_section(tmp_path / "out")
     assert "may be unsafe" not in section and "Least headroom" in section
     assert "stress_increase at borehole BH-T1 governs." in section
+
+
+PILE = """
+[headroom]
+kind = "pile"
+{toe}
+height = {height}
+repose_angle = 34.0
+unit_weight = 21.0
+"""
+
+
+def _pile_site(tmp_path, toe="diameter = 9.0", height=2.5, extra=""):
+    text = SITE.format(extra=extra)
+    text = text[:text.index("[headroom]")] + PILE.format(toe=toe, height=height)
+    path = tmp_path / "pile.toml"
+    path.write_text(text)
+    return path
+
+
+@pytest.mark.parametrize("toe", ["diameter = 9.0", "size_x = 10.0\nsize_y = 8.0"])
+def test_a_pile_template_placed_for_real_as_a_pile_reaches_the_limit_at_the_mapped_multiple(
+        tmp_path, toe):
+    """m times the pile's thickness is the pile with tan(angle) and height times m: a pile
+    body of the site built by the body builder at the analysis cells."""
+    import math
+    import shapely
+    from fillstress.site.build import load_site
+    site = load_site(_pile_site(tmp_path, toe))
+    found = compute(site).headroom
+    spec, pile = found.spec, site.settings.headroom.pile
+    rng = np.random.default_rng(8)
+    finite = np.argwhere(np.isfinite(found.multiple) & (found.multiple > 0.05))
+    for j, i in finite[rng.choice(len(finite), 2, replace=False)]:
+        m = float(found.multiple[j, i])
+        toe_here = shapely.affinity.translate(pile.toe(), spec.x_centres[i], spec.y_centres[j])
+        ring = [list(c) for c in toe_here.exterior.coords[:-1]]
+        angle = math.degrees(math.atan(m * math.tan(math.radians(pile.repose_angle))))
+        body = (f'[bodies.placed]\nkind = "pile"\nunit_weight = 21.0\nrepose_angle = {angle!r}\n'
+                f'crest_height = {m * pile.height!r}\noutline = {ring!r}')
+        res = compute(load_site(_pile_site(tmp_path, toe, extra=body)))
+        assert res.limits.governing.row.utilisation == pytest.approx(1.0, rel=1e-3)
+    assert found.template_height == 2.5
+    np.testing.assert_allclose(found.height, 2.5 * found.multiple)
+
+
+@pytest.mark.parametrize("toe, height, key, message", [
+    ("diameter = 9.0\nsize_x = 4.0", 2.5, "headroom.size_x", "size_x and size_y, or diameter"),
+    ("size_x = 4.0", 1.0, "headroom.size_x", "given: size_x"),
+    ("diameter = 9.0", 3.5, "headroom.height", "higher than the 3.04 m its toe reaches at 34°"),
+    ("diameter = 9.0\nrepose_angel = 30", 2.5, "headroom.repose_angel",
+     "did you mean 'repose_angle'"),
+])
+def test_a_wrong_pile_template_is_refused_in_one_line(tmp_path, toe, height, key, message):
+    from fillstress.errors import InputError
+    with pytest.raises(InputError, match=message) as err:
+        load_site(_pile_site(tmp_path, toe, height))
+    assert f"[{key}]" in str(err.value) and "\n" not in str(err.value)
+
+
+def test_a_misspelt_template_kind_is_named_with_the_nearest(tmp_path):
+    from fillstress.errors import InputError
+    path = _pile_site(tmp_path)
+    path.write_text(path.read_text().replace('kind = "pile"', 'kind = "piel"'))
+    with pytest.raises(InputError, match=r"headroom.kind.*did you mean 'pile'"):
+        load_site(path)

@@ -32,6 +32,7 @@ from .._validate import finite_array, points_array, positive, whole_number
 from ..errors import InputError
 from ..grid import GridSpec, LoadGrid
 from ..settlement import sublayer_settlement
+from ..shapes.stockpile import pile_thickness
 from ..solve import SlicePlan, vertical_stress
 from .max_height import scale_at_limit, settlement_utilisation
 
@@ -75,6 +76,32 @@ def rectangle_template(size_x: float, size_y: float, pressure: float, dx: float,
         return np.clip(np.minimum(lo + step, size / 2) - np.maximum(lo, -size / 2), 0, None) / step
 
     return q * np.outer(covered(size_y, dy), covered(size_x, dx))
+
+
+def pile_template(toe, repose_angle_deg: float, height: float, unit_weight: float,
+                  dx: float, dy: float) -> np.ndarray:
+    """Cell pressures (kPa) of a stockpile on `toe` (a polygon about the origin, m): sides at
+    the repose angle from the toe (:func:`fillstress.shapes.stockpile.pile_thickness`),
+    flat-topped at `height` (m), times `unit_weight` (kN/m³); on an odd-sized array of
+    `dx` × `dy` cells whose centre cell is centred on the origin.
+
+    Examples
+    --------
+    A 45° cone on a 6 m circle, capped at 2 m: about π·(3² + 3·1 + 1²)·2/3 = 27.2 m³.
+
+    >>> import shapely
+    >>> t = pile_template(shapely.Point(0, 0).buffer(3.0, quad_segs=64), 45.0, 2.0, 20.0,
+    ...                   0.5, 0.5)
+    >>> t.shape, round(float(t.sum()) * 0.25 / 20.0, 1)
+    ((13, 13), 27.2)
+    """
+    dx, dy = positive(dx, "dx"), positive(dy, "dy")
+    x0, y0, x1, y1 = toe.bounds
+    nx = 2 * int(math.ceil(round(max(-x0, x1) / dx - 0.5, 9))) + 1
+    ny = 2 * int(math.ceil(round(max(-y0, y1) / dy - 0.5, 9))) + 1
+    spec = GridSpec(-nx * dx / 2, -ny * dy / 2, dx, dy, nx, ny)
+    thickness = pile_thickness(toe, repose_angle_deg, spec, crest_height=height)
+    return positive(unit_weight, "unit_weight") * thickness
 
 
 def placed_template(template, spec, cell) -> LoadGrid:

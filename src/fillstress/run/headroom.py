@@ -95,11 +95,9 @@ def headroom_results(res) -> HeadroomResults:
                                               stress, how.recheck)
     safe = hd.HeadroomMap(settled, lin_settle[1], spec.x_centres, spec.y_centres)
     multiple, governing = _least(stress_maps + [safe], spec.shape)
-    label = (f"body {how.body}" if how.kind == "body" else
-             f"rectangle {how.size[0]:g} m × {how.size[1]:g} m at {how.pressure:g} kPa")
     return HeadroomResults(spec, multiple, None if height is None else multiple * height,
-                           governing, receptors, checks, label, linearised, factor, worst,
-                           height)
+                           governing, receptors, checks, template_label(how, site.units),
+                           linearised, factor, worst, height)
 
 
 def headroom_warnings(found: HeadroomResults) -> list[str]:
@@ -133,8 +131,29 @@ def template_of(site, how, spec: GridSpec):
     """(cell pressures on the map cell, height of the template at multiple 1 or None)."""
     if how.kind == "rectangle":
         return hd.rectangle_template(*how.size, how.pressure, spec.dx, spec.dy), None
+    if how.kind == "pile":
+        pile = how.pile
+        return hd.pile_template(pile.toe(), pile.repose_angle, pile.height, pile.unit_weight,
+                                spec.dx, spec.dy), pile.height
     body = next(b for b in site.bodies if b.name == how.body)
     return coarsened(body.pressure, how.step), body.max_height
+
+
+def template_label(how, units) -> str:
+    """The template in words, in the site's units ('pile on a 30 m × 20 m toe, ...')."""
+    def length(v):
+        return f"{units.length_out(v):g} {units.length}"
+
+    if how.kind == "body":
+        return f"body {how.body}"
+    if how.kind == "rectangle":
+        return (f"rectangle {length(how.size[0])} × {length(how.size[1])} at "
+                f"{units.pressure_out(how.pressure):g} {units.pressure}")
+    pile = how.pile
+    toe = (f"circular toe {length(pile.diameter)} across" if pile.diameter is not None else
+           f"{length(pile.size[0])} × {length(pile.size[1])} toe")
+    return (f"pile on a {toe}, {length(pile.height)} high at {pile.repose_angle:g}°, "
+            f"{units.out(pile.unit_weight, 'unit_weight'):g} {units.unit_weight}")
 
 
 def coarsened(pressure: np.ndarray, step: int) -> np.ndarray:

@@ -6,6 +6,7 @@ Data flow: site.config.read_site_file → build_site → Site (used by run.compu
 from __future__ import annotations
 
 import difflib
+import math
 import re
 import time
 from contextlib import contextmanager
@@ -61,9 +62,33 @@ class DrainZone(NamedTuple):
 
 
 @dataclass(frozen=True)
+class PileTemplate:
+    """A [headroom] pile, in SI: its toe (a rectangle `size` (m) or a circle of `diameter`
+    (m)), height (m), repose angle (degrees) and unit weight (kN/m³)."""
+
+    size: tuple[float, float] | None
+    diameter: float | None
+    height: float
+    repose_angle: float
+    unit_weight: float
+
+    def toe(self):
+        """The toe polygon about the origin (m)."""
+        if self.diameter is not None:
+            return shapely.Point(0.0, 0.0).buffer(self.diameter / 2, quad_segs=64)
+        return shapely.box(-self.size[0] / 2, -self.size[1] / 2, self.size[0] / 2,
+                           self.size[1] / 2)
+
+    def peak(self) -> float:
+        """The highest the sides at the repose angle rise on this toe (m)."""
+        half = self.diameter / 2 if self.diameter is not None else min(self.size) / 2
+        return half * math.tan(math.radians(self.repose_angle))
+
+
+@dataclass(frozen=True)
 class HeadroomTemplate:
-    """[headroom], in SI: the template (a rectangle of `size` (m) and `pressure` (kPa), or
-    the body named `body`), the map lattice (`extent` in internal metres, `step` analysis
+    """[headroom], in SI: the template (a rectangle of `size` (m) and `pressure` (kPa), the
+    body named `body`, or a `pile`), the map lattice (`extent` in internal metres, `step` analysis
     cells per map cell) and the number of cells re-checked on the full settlement."""
 
     kind: str
@@ -73,6 +98,7 @@ class HeadroomTemplate:
     extent: tuple[float, float, float, float] | None = None
     step: int = 1
     recheck: int = 30
+    pile: PileTemplate | None = None
 
 
 @dataclass(frozen=True)
@@ -904,8 +930,32 @@ def _headroom(ctx: _Context, spec: GridSpec) -> HeadroomTemplate | None:
             raise InputError("lies outside the analysis grid", file=cfg.path,
                              key="headroom.extent")
     size = (raw["size_x"], raw["size_y"]) if raw["kind"] == "rectangle" else None
+    pile = _headroom_pile(cfg, raw) if raw["kind"] == "pile" else None
     return HeadroomTemplate(raw["kind"], raw.get("body"), size, raw.get("pressure"), extent,
-                            step, int(raw["recheck"]))
+                            step, int(raw["recheck"]), pile)
+
+
+def _headroom_pile(cfg: SiteConfig, raw: dict) -> PileTemplate:
+    """[headroom] kind = "pile": a rectangular toe (size_x, size_y) or a circular one
+    (diameter), and a height the sides at the repose angle can reach on it."""
+    given = [k for k in ("size_x", "size_y", "diameter") if raw.get(k) is not None]
+    if given not in (["size_x", "size_y"], ["diameter"]):
+        raise InputError("a pile template needs its toe: size_x and size_y, or diameter"
+                         f" (given: {', '.join(given) or 'none'})", file=cfg.path,
+                         key="headroom." + (given[0] if given else "diameter"))
+    if raw["repose_angle"] >= 90.0:
+        raise InputError(f"must be below 90 degrees, got {raw['repose_angle']:g}",
+                         file=cfg.path, key="headroom.repose_angle")
+    size = (raw["size_x"], raw["size_y"]) if raw.get("size_x") is not None else None
+    pile = PileTemplate(size, raw.get("diameter"), raw["height"], raw["repose_angle"],
+                        raw["unit_weight"])
+    if pile.height > pile.peak() * (1 + 1e-9):
+        u = cfg.units
+        raise InputError(f"{u.length_out(pile.height):g} {u.length} is higher than the "
+                         f"{u.length_out(pile.peak()):.3g} {u.length} its toe reaches at "
+                         f"{pile.repose_angle:g}°; lower it or widen the toe", file=cfg.path,
+                         key="headroom.height")
+    return pile
 
 
 def _whole_cells(cfg: SiteConfig, spec: GridSpec, length: float, key: str) -> int:

@@ -160,7 +160,11 @@ class _Validator:
             self.fail(where, "must be a table of keys")
         kind = raw.get("kind") if table.variants else None
         if table.variants and kind not in table.variants:
-            self.fail(f"{where}.kind", f"must be one of {', '.join(table.variants)}, got {kind!r}")
+            near = (difflib.get_close_matches(kind, list(table.variants), n=1)
+                    if isinstance(kind, str) else [])
+            hint = f" (did you mean '{near[0]}'?)" if near else ""
+            self.fail(f"{where}.kind",
+                      f"must be one of {', '.join(table.variants)}, got {kind!r}{hint}")
         keys = table.keys_for(kind)
         raw = self._spelled(raw, keys, where)
         valid = [k.name for k in keys] + SUB_TABLES.get(table.name, [])

@@ -474,14 +474,19 @@ HEADROOM = Table("headroom", "A headroom map: the largest multiple of a template
                  "(headroom.tif; stress limits exact by reciprocity, settlement limits "
                  "linearised about the present state and the lowest cells re-checked on "
                  "the full settlement).", (
-    Key("kind", "str", "The template: a uniform rectangle, or a body of the site (its "
-        "shape and unit weight).", required=True, choices=("rectangle", "body")),
+    Key("kind", "str", "The template: a uniform rectangle, a body of the site (its "
+        "shape and unit weight), or a stockpile on a rectangular or circular toe.",
+        required=True, choices=("rectangle", "body", "pile")),
     Key("extent", "extent", "[xmin, ymin, xmax, ymax] of the map (default: the analysis "
         "grid).", unit=COORD),
     Key("cell", "float", "Map cell: the analysis cell (default) or a whole multiple of it; "
-        "a body template is averaged onto it (its load kept).", unit=LENGTH, **_POS),
-    Key("recheck", "int", "Number of the lowest cells of the settlement map re-checked on "
-        "the full nonlinear settlement.", default=30, minimum=0),
+        "a body template is averaged onto it (its load kept), a pile built on it.",
+        unit=LENGTH, **_POS),
+    Key("recheck", "int", "Number of cells of the settlement map re-checked with the "
+        "template placed for real on the full nonlinear settlement: the lowest two thirds "
+        "and the rest spread over the map. Where the full model allows less than the "
+        "linearisation, the map's settlement limits are scaled by the worst ratio found.",
+        default=30, minimum=0),
 ), variants={
     "rectangle": (
         Key("size_x", "float", "Size of the rectangle east-west.", unit=LENGTH, required=True,
@@ -494,6 +499,20 @@ HEADROOM = Table("headroom", "A headroom map: the largest multiple of a template
     "body": (
         Key("body", "str", "Name of the site body used as the template (a fill, not an "
             "excavation).", required=True, example='"ore_east"'),
+    ),
+    "pile": (
+        Key("size_x", "float", "Toe length east-west of a rectangular toe (with size_y).",
+            unit=LENGTH, **_POS),
+        Key("size_y", "float", "Toe length north-south of a rectangular toe.", unit=LENGTH,
+            **_POS),
+        Key("diameter", "float", "Toe diameter of a circular toe (instead of size_x, "
+            "size_y).", unit=LENGTH, **_POS),
+        Key("height", "float", "Height of the pile: flat-topped at this height, at most the "
+            "peak its toe and repose angle give.", unit=LENGTH, required=True, **_POS),
+        Key("repose_angle", "float", "Angle of repose of the stockpiled material.",
+            unit=ANGLE, required=True, minimum=1.0, example="37"),
+        Key("unit_weight", "float", "Bulk unit weight of the stockpiled material.",
+            unit=UNIT_WEIGHT, required=True, **_POS, example="23.0"),
     ),
 })
 
