@@ -11,8 +11,8 @@ of the redraw, as the page measures it (performance.now), with the server's brea
 rasterising the body, its FFT slice, Δσz at the receptor points. The best of the repeats
 is reported, and the median. Needs chromium, chromium-driver and selenium.
 
-`--write` replaces only the "## Design page" section of the file (between its markers),
-so the figures of benchmarks/run_all.py stay as they are.
+`--write` replaces only the "## Design page" section of the file (between its markers,
+`write_section`), so the figures of benchmarks/run_all.py stay as they are.
 """
 from __future__ import annotations
 
@@ -142,12 +142,20 @@ def markdown(rows: list[dict], repeat: int) -> str:
     return "\n".join(lines)
 
 
-def write_section(path: Path, text: str) -> None:
+def write_section(path: Path, text: str, begin: str = BEGIN, end: str = END) -> None:
+    """Put `text` (which starts with `begin` and ends with `end`) in place of the marked
+    section of `path`, everything outside it kept; appended when the file has no such
+    section. benchmarks/run_all.py writes its own section with it, so neither script
+    overwrites the other's figures."""
+    if not (text.startswith(begin) and text.rstrip("\n").endswith(end)):
+        raise ValueError(f"the section must run from {begin!r} to {end!r}")
     old = path.read_text(encoding="utf-8") if path.exists() else ""
-    if BEGIN in old and END in old:
-        new = old[:old.index(BEGIN)] + text + old[old.index(END) + len(END):]
+    if begin in old and end in old[old.index(begin):]:
+        start = old.index(begin)
+        stop = old.index(end, start) + len(end)
+        new = old[:start] + text.rstrip("\n") + old[stop:]
     else:
-        new = old.rstrip("\n") + "\n\n" + text + "\n"
+        new = (old.rstrip("\n") + "\n\n" if old else "") + text.rstrip("\n") + "\n"
     path.write_text(new, encoding="utf-8")
 
 
