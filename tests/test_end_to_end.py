@@ -427,7 +427,9 @@ def test_stockpile_yard_maps_the_headroom_for_another_ore_pile(runs):
     assert about["least"]["receptor_id"] in {"water_main_DN600", "warehouse"}
     checks = pd.read_csv(folder / "headroom_checks.csv", encoding="utf-8-sig")
     governing = pd.read_csv(folder / "headroom_governing.csv", encoding="utf-8-sig")
-    assert len(checks) == 12 and set(governing["limit"]) <= {"settlement"}
+    assert len(checks) == 12 and set(governing["limit"]) <= {"settlement", "beta_no_cracking"}
+    beta = governing[governing["limit"] == "beta_no_cracking"]      # Bjerrum (1963), 1/500
+    assert set(beta["receptor_id"]) == {"warehouse"} and beta["cells"].sum() > 0
     assert (checks["full_multiple"] >= multiple.min() * (1 - 1e-6)).all()
     html = (folder / "report.html").read_text(encoding="utf-8")
     section = html[html.index('<section id="headroom"'):]

@@ -61,7 +61,7 @@ def test_the_template_placed_for_real_reaches_the_limit_at_the_mapped_multiple(t
         res = compute(_site(tmp_path, body))
         governing = res.limits.governing.row
         assert governing.utilisation == pytest.approx(1.0, rel=5e-3)
-        kind, rid, point, limit = found.receptors[found.governing[j, i]]
+        kind, rid, point, limit, _ = found.receptors[found.governing[j, i]]
         assert (rid, limit) == (governing.receptor_id, governing.limit.label)
 
 
@@ -297,3 +297,78 @@ def test_a_misspelt_template_kind_is_named_with_the_nearest(tmp_path):
     path.write_text(path.read_text().replace('kind = "pile"', 'kind = "piel"'))
     with pytest.raises(InputError, match=r"headroom.kind.*did you mean 'pile'"):
         load_site(path)
+
+
+MAPPED = ("stress_increase", "stress_ratio", "settlement", "angular_distortion")
+
+
+def _mapped_use(res) -> tuple[float, str]:
+    """The largest utilisation of a mapped limit in a run, and that limit's label."""
+    rows = [r.row for r in res.limits.rows if r.row.limit.quantity in MAPPED]
+    top = max(rows, key=lambda r: r.utilisation)
+    return top.utilisation, top.limit.label
+
+
+def _distortion_site(tmp_path, soil, extra=""):
+    """The clay site with the published building limits (Bjerrum's 1/500 among them) and
+    no settlement limit of its own: the hall's angular distortion governs the map."""
+    text = CLAY_SITE.format(extra=extra).replace("published = false\nsettlement = 40.0\n", "")
+    text = text[:text.index("[[soil.layers]]")] + soil + text[text.index("[limits]"):]
+    path = tmp_path / "beta.toml"
+    path.write_text(text)
+    return load_site(path)
+
+
+SILT = """[[soil.layers]]
+name = "silt"
+top = 0.0
+bottom = 12.0
+unit_weight = 17.5
+saturated_unit_weight = 18.0
+mv = 0.0004
+"""
+OC_CLAY = CLAY_SITE[CLAY_SITE.index("[[soil.layers]]"):CLAY_SITE.index("[limits]")]
+
+
+def _placed(spec, cell, multiple) -> str:
+    j, i = cell
+    cx, cy = spec.x_centres[i], spec.y_centres[j]
+    return (f'[bodies.placed]\nkind = "footprint"\nunit_weight = 10.0\n'
+            f'height = {5.0 * float(multiple)!r}\noutline = [[{cx - 3}, {cy - 3}], [{cx + 3}, '
+            f'{cy - 3}], [{cx + 3}, {cy + 3}], [{cx - 3}, {cy + 3}]]')
+
+
+def test_on_a_linear_soil_the_distortion_map_is_exact_when_the_template_is_placed_for_real(
+        tmp_path):
+    """β is linear in the settlements and mv settlement linear in Δσz: the mapped multiple
+    is the one at which the first mapped limit is reached with the template placed for real,
+    and the full re-checks agree with the map."""
+    found = compute(_distortion_site(tmp_path, SILT)).headroom
+    spec = found.spec
+    labels = {found.receptors[g][3] for g in np.unique(found.governing[found.governing >= 0])}
+    assert "beta_no_cracking" in labels
+    checks = found.checks
+    np.testing.assert_allclose(checks["full_multiple"], checks["linearised_multiple"], rtol=1e-5)
+    assert found.factor == 1.0
+    rng = np.random.default_rng(11)
+    beta = np.argwhere(np.vectorize(lambda g: g >= 0 and found.receptors[g][3] ==
+                                    "beta_no_cracking")(found.governing)
+                       & (found.multiple > 0.05))
+    for cell in beta[rng.choice(len(beta), 2, replace=False)]:
+        m = found.multiple[tuple(cell)]
+        use, label = _mapped_use(compute(_distortion_site(tmp_path, SILT, _placed(spec, cell, m))))
+        assert use == pytest.approx(1.0, rel=2e-3) and label == "beta_no_cracking"
+
+
+def test_on_overconsolidated_clay_the_distortion_recheck_is_the_full_model(tmp_path):
+    """A lowest re-checked cell holds its full-model multiple: the template placed there
+    for real reaches the hall's angular distortion limit."""
+    found = compute(_distortion_site(tmp_path, OC_CLAY)).headroom
+    spec = found.spec
+    row = found.checks[found.checks["selection"] == "lowest"].iloc[0]
+    cell = (int(np.searchsorted(spec.y_centres, row["y"])),
+            int(np.searchsorted(spec.x_centres, row["x"])))
+    assert found.multiple[cell] == pytest.approx(row["full_multiple"])
+    use, label = _mapped_use(compute(_distortion_site(tmp_path, OC_CLAY,
+                                                      _placed(spec, cell, row["full_multiple"]))))
+    assert use == pytest.approx(1.0, rel=2e-3) and label.startswith("beta")

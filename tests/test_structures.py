@@ -252,3 +252,24 @@ def test_pipe_angular_change_and_curvature_of_a_parabola():
     half_spans = 0.5 * (ch[2:] - ch[:-2])
     assert r.angular_change_max == pytest.approx(2 * c * half_spans.max(), rel=1e-9)
     assert math.isnan(pipe_settlement("p", [0, 1], [0, 0.01], [0, 0], 1.0).curvature_max_per_m)
+
+
+@pytest.mark.parametrize("layout", ["walls", "delaunay", "collinear"])
+def test_the_distortion_operator_gives_the_angular_distortion_of_the_check(layout):
+    """max |R s| of structures.distortion_operator is building_settlement's β for any
+    settlements (the check itself is the slow reference: lstsq plane, edges, ratios)."""
+    from fillstress.structures import distortion_operator
+    rng = np.random.default_rng(7)
+    outline = np.array([[0.0, 0.0], [24.0, 0.0], [24.0, 12.0], [0.0, 12.0]])
+    if layout == "walls":
+        xy = np.array([[x, 0.0] for x in range(0, 25, 6)] + [[24.0, y] for y in (4.0, 8.0, 12.0)]
+                      + [[x, 12.0] for x in (18.0, 12.0, 6.0, 0.0)] + [[0.0, 6.0], [12.0, 6.0]])
+    elif layout == "delaunay":
+        xy, outline = rng.uniform(0, 30, (9, 2)), None
+    else:
+        xy, outline = np.column_stack([np.linspace(0, 20, 6), np.linspace(5, 15, 6)]), None
+    R, _ = distortion_operator(xy, outline=outline)
+    for _ in range(5):
+        s = rng.uniform(0.0, 0.08, len(xy))
+        expected = building_settlement("b", xy, s, outline=outline).angular_distortion
+        assert float(np.abs(R @ s).max()) == pytest.approx(expected, rel=1e-10, abs=1e-15)

@@ -182,23 +182,60 @@ class BuildingSettlement:
         return row
 
 
-def _best_fit_slope(xy: np.ndarray, s: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Residuals of `s` from its least-squares plane (a line for collinear points), and the
-    plane's gradient (ds/dx, ds/dy)."""
+def _plane_design(xy: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Design matrix of the least-squares tilt plane through the points (a line for
+    collinear points, a constant for one point) and the plan directions of its slopes."""
     n = xy.shape[0]
     if n < 2:
-        return s - s.mean(), np.zeros(2)
+        return np.ones((n, 1)), np.zeros((0, 2))
     centred = xy - xy.mean(axis=0)
     if _is_collinear(xy):
         axis = np.linalg.svd(centred, full_matrices=False)[2][0]
-        basis = (centred @ axis)[:, None]
-        directions = axis[None, :]
-    else:
-        basis = centred
-        directions = np.eye(2)
-    design = np.column_stack([np.ones(n), basis])
+        return np.column_stack([np.ones(n), centred @ axis]), axis[None, :]
+    return np.column_stack([np.ones(n), centred]), np.eye(2)
+
+
+def _best_fit_slope(xy: np.ndarray, s: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Residuals of `s` from its least-squares plane (a line for collinear points), and the
+    plane's gradient (ds/dx, ds/dy)."""
+    design, directions = _plane_design(xy)
     coef = np.linalg.lstsq(design, s, rcond=None)[0]
-    return s - design @ coef, coef[1:] @ directions
+    return s - design @ coef, coef[1:] @ directions if len(directions) else np.zeros(2)
+
+
+def _distortion_edges(pts: np.ndarray, n: int, pairs=None, outline=None):
+    """(edges for β, the wall lines): along each wall line of `outline` (Burland & Wroth
+    1974), else the given `pairs` or the Delaunay edges."""
+    if outline is not None:
+        lines = [w for w in wall_lines(outline, pts) if w.size >= 2]
+        edges = np.array([(a, b) for w in lines for a, b in zip(w[:-1], w[1:])],
+                         dtype=int).reshape(-1, 2)
+        return edges, lines
+    return (adjacent_pairs(pts) if pairs is None else _check_pairs(pairs, n)), []
+
+
+def distortion_operator(xy, pairs=None, outline=None) -> tuple[np.ndarray, np.ndarray]:
+    """The linear map from settlements to the relative rotation of each edge: ``R @ s``
+    (shape (E,)) is β of every edge of :func:`building_settlement` (the residuals from the
+    tilt plane differenced along the edge, over its length), so its angular distortion is
+    ``max |R @ s|``. Returns ``(R, edges)`` with R of shape (E, N).
+
+    Examples
+    --------
+    >>> xy = [[0, 0], [10, 0], [20, 0]]
+    >>> R, edges = distortion_operator(xy)
+    >>> float(np.abs(R @ [0.02, 0.03, 0.02]).max())      # 10 mm sag over 10 m: 1/1000
+    0.001
+    """
+    pts = _plan_points(xy)
+    n = pts.shape[0]
+    edges, _ = _distortion_edges(pts, n, pairs, outline)
+    design, _ = _plane_design(pts)
+    residual = np.eye(n) - design @ np.linalg.pinv(design)
+    length = np.hypot(*(pts[edges[:, 1]] - pts[edges[:, 0]]).T)
+    if np.any(length <= 0):
+        raise InputError("two points share one plan position; remove duplicates", argument="xy")
+    return (residual[edges[:, 1]] - residual[edges[:, 0]]) / length[:, None], edges
 
 
 def _limits(limits) -> dict[str, float]:
@@ -332,14 +369,9 @@ def building_settlement(receptor_id, xy, settlement, point_ids=None, pairs=None,
         raise InputError(f"must name each of the {s.size} points, got {len(ids)}", argument="point_ids")
     lim = _limits(limits)
     residual, gradient = _best_fit_slope(pts, s)
-    walls = ()
-    if outline is not None:
-        lines = [w for w in wall_lines(outline, pts) if w.size >= 2]
-        walls = tuple(wall_distortion(f"{ids[w[0]]}–{ids[w[-1]]}", pts[w], s[w], gradient,
-                                      [ids[i] for i in w]) for w in lines)
-        edges = np.array([(a, b) for w in lines for a, b in zip(w[:-1], w[1:])], dtype=int).reshape(-1, 2)
-    else:
-        edges = adjacent_pairs(pts) if pairs is None else _check_pairs(pairs, s.size)
+    edges, lines = _distortion_edges(pts, s.size, pairs, outline)
+    walls = tuple(wall_distortion(f"{ids[w[0]]}–{ids[w[-1]]}", pts[w], s[w], gradient,
+                                  [ids[i] for i in w]) for w in lines)
     distortion, worst_pair, span = _largest_distortion(pts, residual, edges)
     exceeded = tuple(name for name, v in sorted(lim.items(), key=lambda kv: kv[1], reverse=True)
                      if distortion >= v * (1 - 1e-12))      # reached, allowing for rounding

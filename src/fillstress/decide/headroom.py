@@ -290,15 +290,45 @@ def settlement_sensitivity(profile, z_mid, h, dsz_current, step_kpa=_SENSITIVITY
     return (sublayer_settlement(profile, z_mid, h, now + step) - base) / step
 
 
+def settlement_response(template, spec, xy, z_mid, sensitivity, method="boussinesq",
+                        poisson=None, *, workers=None) -> np.ndarray:
+    """Linearised settlement (m) of each receptor point from the template placed on every
+    cell, shape (N, ny, nx): ``Σ_k sensitivity[n, k]·T_nk(c)`` with T_nk(c) the template's
+    Δσz at the point's sublayer k (exact, by reciprocity).
+
+    Parameters are as for :func:`settlement_headroom_map`.
+
+    Examples
+    --------
+    >>> s = GridSpec(0.0, 0.0, 1.0, 1.0, 2, 1)
+    >>> settlement_response([[10.0]], s, [[0.5, 0.5]], [0.0], [[1e-3]]).round(9).tolist()
+    [[[0.01, 0.0]]]
+    """
+    t = _template(template)
+    spec = _lattice(spec)
+    plan_xy = finite_array(xy, "xy", ndim=2)
+    z = np.atleast_1d(finite_array(z_mid, "z_mid"))
+    sens = finite_array(sensitivity, "sensitivity", ndim=2)
+    n, k = plan_xy.shape[0], z.size
+    if plan_xy.shape[1] != 2 or sens.shape != (n, k):
+        raise InputError(f"need xy (N, 2) and sensitivity (N, K) with K = {k} sublayers; got "
+                         f"{plan_xy.shape} and {sens.shape}", argument="sensitivity")
+    pts = np.column_stack([np.repeat(plan_xy, k, axis=0), np.tile(z, n)])
+    total = np.zeros((n,) + spec.shape)
+    for p, field in template_influence(t, spec, pts, method, poisson, workers=workers):
+        total[p // k] += sens[p // k, p % k] * field
+    return total
+
+
 def settlement_headroom_map(template, spec, xy, z_mid, sensitivity, limit_m, current_m=0.0,
                             method="boussinesq", poisson=None, *, workers=None) -> HeadroomMap:
     """Linearised largest multiple of `template` on each cell before a settlement limit.
 
     The template's settlement at receptor n is taken as ``Σ_k sensitivity[n, k]·T_nk(c)``
-    with T_nk(c) its Δσz at the receptor's sublayer k (exact, by reciprocity); the multiple
-    is ``(limit_n − current_n) / that``, least over receptors. A documented linearisation
-    about the current state: see :func:`settlement_sensitivity`, and re-check with
-    :func:`recheck_settlement`.
+    with T_nk(c) its Δσz at the receptor's sublayer k (exact, by reciprocity;
+    :func:`settlement_response`); the multiple is ``(limit_n − current_n) / that``, least
+    over receptors. A documented linearisation about the current state: see
+    :func:`settlement_sensitivity`, and re-check with :func:`recheck_settlement`.
 
     Parameters
     ----------
@@ -320,22 +350,46 @@ def settlement_headroom_map(template, spec, xy, z_mid, sensitivity, limit_m, cur
     >>> m.multiple.round(9).tolist()        # 10 kPa · 1e-3 m/kPa = 10 mm per template
     [[5.0, inf]]
     """
-    t = _template(template)
+    response = settlement_response(template, spec, xy, z_mid, sensitivity, method, poisson,
+                                   workers=workers)
+    return response_headroom_map(_lattice(spec), response, limit_m, current_m)
+
+
+def response_headroom_map(spec, response, limit, current=0.0, *, two_sided=False
+                          ) -> HeadroomMap:
+    """Largest multiple on each cell before ``current_e + m·response_e(c)`` reaches `limit`
+    for some e (one-sided), or ``|current_e + m·response_e(c)|`` does (`two_sided`, e.g. a
+    relative rotation, which may turn either way); `governing` is that e.
+
+    Examples
+    --------
+    >>> s = GridSpec(0.0, 0.0, 1.0, 1.0, 2, 1)
+    >>> r = np.array([[[2.0, -1.0]]])
+    >>> response_headroom_map(s, r, 1.0, 0.5).multiple.tolist()
+    [[0.25, inf]]
+    >>> response_headroom_map(s, r, 1.0, 0.5, two_sided=True).multiple.tolist()
+    [[0.25, 1.5]]
+    """
     spec = _lattice(spec)
-    plan_xy = finite_array(xy, "xy", ndim=2)
-    z = np.atleast_1d(finite_array(z_mid, "z_mid"))
-    sens = finite_array(sensitivity, "sensitivity", ndim=2)
-    n, k = plan_xy.shape[0], z.size
-    if plan_xy.shape[1] != 2 or sens.shape != (n, k):
-        raise InputError(f"need xy (N, 2) and sensitivity (N, K) with K = {k} sublayers; got "
-                         f"{plan_xy.shape} and {sens.shape}", argument="sensitivity")
-    allowance = _receptor_arrays(limit_m, current_m, n, "m")
-    pts = np.column_stack([np.repeat(plan_xy, k, axis=0), np.tile(z, n)])
-    total = np.zeros((n,) + spec.shape)
-    for p, field in template_influence(t, spec, pts, method, poisson, workers=workers):
-        total[p // k] += sens[p // k, p % k] * field
-    peak = float(np.max(np.abs(sens))) * t.max()
-    return _map(spec, *_least_multiple(spec.shape, allowance, enumerate(total), peak))
+    values = finite_array(response, "response", ndim=3)
+    n = values.shape[0]
+    if values.shape[1:] != spec.shape:
+        raise InputError(f"must have shape (N, {spec.shape[0]}, {spec.shape[1]}), got "
+                         f"{values.shape}", argument="response")
+    lim = np.broadcast_to(finite_array(limit, "limit"), (n,))
+    now = np.broadcast_to(finite_array(current, "current"), (n,))
+    if np.any(lim <= 0):
+        raise InputError("must be > 0 for every entry", argument="limit")
+    peak = float(np.max(np.abs(values))) if values.size else 0.0
+    if not two_sided:
+        return _map(spec, *_least_multiple(spec.shape, lim - now, enumerate(values), peak))
+    over = np.abs(now) >= lim                # already reached: no room either way
+    rising = _least_multiple(spec.shape, np.where(over, 0.0, lim - now), enumerate(values), peak)
+    falling = _least_multiple(spec.shape, np.where(over, 0.0, lim + now), enumerate(-values),
+                              peak)
+    better = falling[0] < rising[0]
+    return _map(spec, np.where(better, falling[0], rising[0]),
+                np.where(better, falling[1], rising[1]))
 
 
 def lowest_cells(headroom: HeadroomMap, count: int = 5) -> np.ndarray:

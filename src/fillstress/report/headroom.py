@@ -17,14 +17,16 @@ CAUTION = ("Settlement-governed values between re-checked cells are linearised a
 NOTE = ("Each cell holds the largest multiple of the template that may be placed centred on "
         "it, every load of the run in place, before the first mapped limit is reached at any "
         "receptor point. Stress limits (Δσz, Δσz/σ'v0) are exact by reciprocity (one FFT "
-        "slice per receptor depth). Settlement limits are linearised about the present state "
+        "slice per receptor depth). Settlement limits (the settlement of buildings and pipes "
+        "and the angular distortion of buildings, Burland & Wroth 1974, which is linear in "
+        "the settlements) are linearised about the present state "
         "(the tangent of the 1-D e–log σ' law) and the lowest cells, with some spread over "
         "the rest of the map, re-checked with the template placed for real on the full "
         "settlement; where the full model allowed less, the settlement limits of every cell "
         "are scaled by the worst ratio found and each re-checked cell holds its full-model "
-        "value. A body template keeps its plan shape: its thickness is scaled. Differential "
-        "settlement, distortion, tilt and pipe curvature are not mapped. Blank cells reach no "
-        "mapped limit.")
+        "value. A body or pile template keeps its plan shape: its thickness is scaled. "
+        "Differential settlement, tilt, deflection ratio and the differential and curvature "
+        "of pipes are not mapped. Blank cells reach no mapped limit.")
 SHOWN_REGIONS = 4        # governing regions labelled on the map
 
 
@@ -51,7 +53,7 @@ def headroom_section(folder: ResultsFolder, img) -> str:
                           template=about.get("template", "template"),
                           height_per_multiple=_template_height(about, u),
                           length_unit=u.length)
-    keys = ("; hatched: a settlement limit governs" if settles else "") + (
+    keys = ("; hatched: a settlement or distortion limit governs" if settles else "") + (
         "; markers: the cells re-checked on the full model" if about.get("rechecked_cells")
         else "")
     parts.append(img(png, f"Largest multiple of the {about.get('template', 'template')} "
@@ -65,11 +67,15 @@ def headroom_section(folder: ResultsFolder, img) -> str:
     return "".join(parts)
 
 
+LINEARISED = ("settlement", "angular_distortion")     # quantities mapped by a linearisation
+
+
 def _settlement_rows(governing) -> set[int]:
-    """1-based rows of headroom_governing.csv whose limit is a settlement limit."""
+    """1-based rows of headroom_governing.csv whose limit is a settlement limit (settlement
+    or angular distortion: linearised)."""
     if governing is None or governing.empty:
         return set()
-    return {k + 1 for k, limit in enumerate(governing["limit"]) if str(limit) == "settlement"}
+    return {k + 1 for k, q in enumerate(governing["quantity"]) if str(q) in LINEARISED}
 
 
 def _template_height(about: dict, u) -> float | None:
@@ -198,7 +204,7 @@ def headroom_figure(field: PlanField, *, codes=None, settlement_rows=(), governi
             ax.contourf(field.x, field.y, mask.astype(float), levels=[0.5, 1.5],
                         colors="none", hatches=["//"])
             handles.append(Patch(facecolor="none", edgecolor="black", hatch="//",
-                                 label="a settlement limit governs"))
+                                 label="a settlement or distortion limit governs"))
     _draw_fill_outline(ax, fill)
     _draw_features(ax, buildings, pipes, boreholes)
     handles += _draw_checks(ax, checks)

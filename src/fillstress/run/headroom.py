@@ -3,16 +3,17 @@ placed centred on each map cell before the first limit in force is reached at an
 everything already on the site in place (decide/headroom.py).
 
 Stress limits (Δσz, Δσz/σ'v0 at every receptor point) are exact by reciprocity. The
-settlement limit (largest settlement of a building or pipe, at each of its settlement points)
-is linearised about the present state (decide.headroom.settlement_sensitivity, tangent of
-the 1-D model) and the `recheck` lowest cells of that map are re-checked with the template
-placed for real on the full nonlinear settlement, with some cells spread over the rest of
-the map. Where the full model allows less than the linearisation at a re-checked cell by more
+settlement limits (largest settlement of a building or pipe, at each of its settlement
+points; a building's angular distortion β, linear in those settlements,
+structures.distortion_operator) are linearised about the present state
+(decide.headroom.settlement_sensitivity, tangent of the 1-D model) and the `recheck` lowest
+cells of that map are re-checked with the template placed for real on the full nonlinear
+settlement, with some cells spread over the rest of the map. Where the full model allows less than the linearisation at a re-checked cell by more
 than RECHECK_TOLERANCE, the settlement map is scaled by the worst ratio found (re-checked cells
 take their full-model value) and the run warns: headroom.tif holds the scaled map,
 headroom_linearised.tif the linearisation (docs/method-decisions.md, "Headroom map").
-Differential settlement, distortion, tilt and pipe curvature are not mapped (stated in the
-report and in headroom_checks' note).
+Differential settlement, tilt, deflection ratio and pipe differential and curvature are not
+mapped (stated in the report).
 """
 from __future__ import annotations
 
@@ -24,12 +25,15 @@ import pandas as pd
 
 from ..decide import headroom as hd
 from ..decide.limits import limits_for
+from ..decide.max_height import scale_at_limit
 from ..grid import GridSpec
 from ..settlement import consolidation_settlement
+from ..solve import vertical_stress
+from ..structures import distortion_operator
 from . import limits as lm
 from .plan import PLAUSIBLE_FILL_M
 
-MAPPED = ("stress_increase", "stress_ratio", "settlement")
+MAPPED = ("stress_increase", "stress_ratio", "settlement", "angular_distortion")
 RECHECK_TOLERANCE = 0.01    # full model below the linearisation by more: the map is scaled
 # spread re-checks stay where the template weighs less than the highest earth fill
 # (PLAUSIBLE_FILL_M at 20 kN/m³, common practice for a heavy fill)
@@ -39,8 +43,8 @@ HEAVIEST_FILL_KPA = PLAUSIBLE_FILL_M * 20.0
 @dataclass(frozen=True)
 class HeadroomResults:
     """The map (multiple, shape of `spec`; inf where no mapped limit is reached), the height
-    it gives for a body template (None for a rectangle), the receptor (kind, id, point,
-    limit) governing each cell (index into `receptors`, -1 where inf) and the re-checked
+    it gives for a body or pile template (None for a rectangle), the receptor (kind, id,
+    point or edge, limit label, quantity) governing each cell (index into `receptors`, -1 where inf) and the re-checked
     cells (x, y, lowest or spread, linearised and full multiple, settlement full ÷
     linearised). `linearised` is the map before the re-checks' correction, `factor` the
     scale put on its settlement limits (1.0: none) and `worst_ratio` the least settlement
@@ -71,12 +75,13 @@ class HeadroomResults:
             return None
         j, i = np.unravel_index(int(np.argmin(np.where(finite, self.multiple, np.inf))),
                                 self.multiple.shape)
-        kind, rid, point, limit = self.receptors[self.governing[j, i]]
+        kind, rid, point, limit, quantity = self.receptors[self.governing[j, i]]
         m = float(self.multiple[j, i])
         return {"multiple": m, "x": float(self.spec.x_centres[i]),
                 "y": float(self.spec.y_centres[j]),
                 "height": None if self.template_height is None else m * self.template_height,
-                "limit": limit, "limit_type": "settlement" if limit == "settlement" else "stress",
+                "limit": limit, "limit_type": ("stress" if quantity in lm.POINT_QUANTITIES
+                                               else quantity),
                 "receptor_kind": kind, "receptor_id": rid, "point_id": point}
 
 
@@ -88,11 +93,14 @@ def headroom_results(res) -> HeadroomResults:
     receptors = []
     stress = _stress_map(res, template, spec, receptors)
     stress_maps = [] if stress is None else [stress]
-    settle_maps = _settlement_maps(res, template, spec, receptors)
-    lin_settle = _least([m for m, _ in settle_maps], spec.shape)
-    linearised, _ = _least(stress_maps + [m for m, _ in settle_maps], spec.shape)
-    checks, settled, factor, worst = _recheck(res, template, spec, settle_maps, lin_settle,
-                                              stress, how.recheck)
+    groups = _settlement_groups(res, template, spec)
+    distortions = _distortions(site, groups)
+    settle_maps = (_settlement_maps(groups, spec, receptors)
+                   + _distortion_maps(groups, distortions, spec, receptors))
+    lin_settle = _least(settle_maps, spec.shape)
+    linearised, _ = _least(stress_maps + settle_maps, spec.shape)
+    checks, settled, factor, worst = _recheck(res, template, spec, (groups, distortions),
+                                              lin_settle, stress, how.recheck)
     safe = hd.HeadroomMap(settled, lin_settle[1], spec.x_centres, spec.y_centres)
     multiple, governing = _least(stress_maps + [safe], spec.shape)
     return HeadroomResults(spec, multiple, None if height is None else multiple * height,
@@ -194,7 +202,7 @@ def _stress_map(res, template, spec, receptors):
             xyz.append(g[["x", "y", "depth"]].to_numpy(float)[keep])
             limit.append(lim.value * scale[keep])
             current.append(g["dsz"].to_numpy(float)[keep])
-            receptors += [(kind, str(rid), str(p), lim.label)
+            receptors += [(kind, str(rid), str(p), lim.label, lim.quantity)
                           for p in g["point_id"].to_numpy()[keep]]
     if not xyz or not sum(len(x) for x in xyz):
         return None
@@ -209,9 +217,24 @@ def _offset(m: hd.HeadroomMap, first: int) -> hd.HeadroomMap:
                           m.x, m.y)
 
 
-def _settlement_maps(res, template, spec, receptors):
-    """[(linearised map, (xy, z, h, Δσz now, limit))] per group of settlement points of
-    equal depth that have a settlement limit."""
+@dataclass(frozen=True)
+class _Group:
+    """Building and pipe settlement points of one depth group: their rows of the targets,
+    plan points, sublayers, Δσz in place (n, K), present settlement (n,), the template's
+    linearised settlement on every map cell (n, ny, nx) and the settlement limit (nan: none)."""
+
+    rows: np.ndarray
+    frame: pd.DataFrame
+    z: np.ndarray
+    h: np.ndarray
+    now: np.ndarray
+    current: np.ndarray
+    response: np.ndarray
+    limit: np.ndarray
+
+
+def _settlement_groups(res, template, spec) -> list[_Group]:
+    """The settlement points of buildings and pipes (not in tension), group by group."""
     cols, site = res.settlement_columns, res.site
     if cols is None:
         return []
@@ -221,22 +244,92 @@ def _settlement_maps(res, template, spec, receptors):
         if z is None:
             continue
         sub = cols.targets.iloc[idx]
-        limit = np.array([_settlement_limit(site.settings, k, r) for k, r in
-                          zip(sub["receptor_kind"], sub["receptor_id"])])
         now = np.einsum("b,nbk->nk", now_state, per_body)
-        keep = np.isfinite(limit) & ~np.any(site.soil.sigma_v0_eff(z) + now <= 0, axis=1)
+        keep = (sub["receptor_kind"].isin(["building", "pipe"]).to_numpy()
+                & ~np.any(site.soil.sigma_v0_eff(z) + now <= 0, axis=1))
         if not keep.any():
             continue
-        xy, now, limit = sub[["x", "y"]].to_numpy(float)[keep], now[keep], limit[keep]
-        current = consolidation_settlement(site.soil, z, h, now)
+        sub, now = sub[keep], now[keep]
         sens = hd.settlement_sensitivity(site.soil, z, h, now)
-        m = hd.settlement_headroom_map(template, spec, xy, z, sens, limit, current,
-                                       site.method, site.poisson)
+        response = hd.settlement_response(template, spec, sub[["x", "y"]].to_numpy(float), z,
+                                          sens, site.method, site.poisson)
+        limit = np.array([_settlement_limit(site.settings, k, r) for k, r in
+                          zip(sub["receptor_kind"], sub["receptor_id"])])
+        out.append(_Group(np.asarray(idx)[keep], sub, z, h, now,
+                          consolidation_settlement(site.soil, z, h, now), response, limit))
+    return out
+
+
+def _settlement_maps(groups, spec, receptors) -> list:
+    """The linearised settlement-limit map of each group with a settlement limit."""
+    out = []
+    for g in groups:
+        has = np.isfinite(g.limit)
+        if not has.any():
+            continue
+        m = hd.response_headroom_map(spec, g.response[has], g.limit[has], g.current[has])
         first = len(receptors)
-        receptors += [(k, str(r), str(p), "settlement") for k, r, p in
-                      zip(sub["receptor_kind"][keep], sub["receptor_id"][keep],
-                          sub["point_id"][keep])]
-        out.append((_offset(m, first), (xy, z, h, now, limit)))
+        sub = g.frame[has]
+        receptors += [(k, str(r), str(p), "settlement", "settlement") for k, r, p in
+                      zip(sub["receptor_kind"], sub["receptor_id"], sub["point_id"])]
+        out.append(_offset(m, first))
+    return out
+
+
+@dataclass(frozen=True)
+class _Distortion:
+    """A building's angular distortion limit on the map: its points (group, position in it),
+    the map from their settlements to each edge's relative rotation
+    (structures.distortion_operator), the edges' point ids, the limit and its label."""
+
+    receptor_id: str
+    parts: list
+    operator: np.ndarray
+    edge_ids: list
+    limit: float
+    label: str
+
+    def settlements(self, per_group: list) -> np.ndarray:
+        """This building's point settlements out of per-group arrays (first axis: points)."""
+        return np.concatenate([per_group[g][k] for g, k in self.parts])
+
+
+def _distortions(site, groups) -> list[_Distortion]:
+    """The buildings with an angular distortion limit and at least two settlement points."""
+    out = []
+    for b in site.receptors.buildings:
+        found = [lim for lim in _limits_at(site.settings, "building", b.id)
+                 if lim.quantity == "angular_distortion"]
+        parts = [(g, np.flatnonzero(groups[g].frame["receptor_id"].astype(str).to_numpy()
+                                    == str(b.id))) for g in range(len(groups))]
+        parts = [(g, k) for g, k in parts if len(k)]
+        if not found or sum(len(k) for _, k in parts) < 2:
+            continue
+        xy = np.concatenate([groups[g].frame[["x", "y"]].to_numpy(float)[k] for g, k in parts])
+        ids = np.concatenate([groups[g].frame["point_id"].astype(str).to_numpy()[k]
+                              for g, k in parts])
+        operator, edges = distortion_operator(xy, outline=np.asarray(b.geometry.exterior.coords))
+        lowest = min(found, key=lambda lim: lim.value)
+        out.append(_Distortion(str(b.id), parts, operator,
+                               [f"{ids[a]}–{ids[c]}" for a, c in edges], lowest.value,
+                               lowest.label))
+    return out
+
+
+def _distortion_maps(groups, distortions, spec, receptors) -> list:
+    """The linearised angular distortion map of each building: each edge's relative
+    rotation is linear in the point settlements, so |β_now + m·β_template(c)| reaching the
+    limit at any edge is found like a stress limit (two-sided: β may turn either way)."""
+    out = []
+    for d in distortions:
+        response = np.einsum("en,nyx->eyx", d.operator,
+                             d.settlements([g.response for g in groups]))
+        now = d.operator @ d.settlements([g.current for g in groups])
+        m = hd.response_headroom_map(spec, response, d.limit, now, two_sided=True)
+        first = len(receptors)
+        receptors += [("building", d.receptor_id, e, d.label, "angular_distortion")
+                      for e in d.edge_ids]
+        out.append(_offset(m, first))
     return out
 
 
@@ -256,23 +349,20 @@ def _least(maps, shape):
     return best, who
 
 
-def _recheck(res, template, spec, settle_maps, lin_settle, stress, count):
-    """The `count` re-checked cells of the settlement map on the full settlement (the
-    stress limits, exact, taken with them): (table, settlement map made safe by them,
-    factor applied, worst settlement full ÷ linearised)."""
+def _recheck(res, template, spec, points, lin_settle, stress, count):
+    """The `count` re-checked cells of the map of the settlement limits (settlement and
+    angular distortion) on the full settlement (the stress limits, exact, taken with them):
+    (table, that map made safe by them, factor applied, worst full ÷ linearised)."""
     columns = ["x", "y", "selection", "linearised_multiple", "full_multiple", "difference",
                "settlement_ratio"]
     none = pd.DataFrame(columns=columns), lin_settle[0], 1.0, math.nan
-    if not settle_maps or count == 0:
+    if not np.isfinite(lin_settle[0]).any() or count == 0:
         return none
     cells, lowest = hd.recheck_cells(lin_settle[0], count, HEAVIEST_FILL_KPA / template.max())
     if len(cells) == 0:
         return none
-    site = res.site
-    full_settle = np.full(len(cells), np.inf)
-    for _, (xy, z, h, now, limit) in settle_maps:
-        full_settle = np.minimum(full_settle, hd.recheck_settlement(
-            template, spec, cells, xy, site.soil, z, h, now, limit, site.method, site.poisson))
+    full_settle = np.array([_full_multiple(res.site, template, spec, cell, *points)
+                            for cell in cells])
     settled, factor, worst = hd.scaled_by_rechecks(lin_settle[0], cells, full_settle,
                                                    RECHECK_TOLERANCE)
     rc = (cells[:, 0], cells[:, 1])
@@ -286,6 +376,29 @@ def _recheck(res, template, spec, settle_maps, lin_settle, stress, count):
                          "linearised_multiple": lin, "full_multiple": full,
                          "difference": diff, "settlement_ratio": ratio},
                         columns=columns), settled, factor, worst
+
+
+def _full_multiple(site, template, spec, cell, groups, distortions) -> float:
+    """The template placed for real on `cell` (direct solver at every settlement point's
+    sublayers) and the multiple at which the full 1-D settlement first reaches a settlement
+    or angular distortion limit (decide.max_height.scale_at_limit)."""
+    placed = hd.placed_template(template, spec, cell)
+    added = []
+    for g in groups:
+        xy = g.frame[["x", "y"]].to_numpy(float)
+        pts = np.column_stack([np.repeat(xy, g.z.size, axis=0), np.tile(g.z, len(xy))])
+        added.append(vertical_stress(placed, pts, site.method, site.poisson).reshape(g.now.shape))
+
+    def utilisation(scale: float) -> float:
+        settled = [consolidation_settlement(site.soil, g.z, g.h, g.now + scale * a)
+                   for g, a in zip(groups, added)]
+        worst = max((float(np.nanmax(s / g.limit)) for g, s in zip(groups, settled)
+                     if np.isfinite(g.limit).any()), default=0.0)
+        for d in distortions:
+            worst = max(worst, float(np.abs(d.operator @ d.settlements(settled)).max()) / d.limit)
+        return worst
+
+    return scale_at_limit(utilisation, rtol=1e-6).scale
 
 
 def governing_table(found: HeadroomResults) -> pd.DataFrame:
@@ -310,14 +423,14 @@ def _governing_rows(found: HeadroomResults) -> pd.DataFrame:
         mask = found.governing == r
         values = np.where(mask, found.multiple, np.inf)
         j, i = np.unravel_index(int(np.argmin(values)), values.shape)
-        kind, rid, point, limit = found.receptors[r]
+        kind, rid, point, limit, quantity = found.receptors[r]
         rows.append({"receptor_kind": kind, "receptor_id": rid, "point_id": point,
-                     "limit": limit, "cells": int(mask.sum()),
+                     "limit": limit, "quantity": quantity, "cells": int(mask.sum()),
                      "area": float(mask.sum() * cell_area),
                      "multiple_min": float(values[j, i]),
                      "x_at_min": float(found.spec.x_centres[i]),
                      "y_at_min": float(found.spec.y_centres[j]), "receptor": int(r)})
     frame = pd.DataFrame(rows, columns=["receptor_kind", "receptor_id", "point_id", "limit",
-                                        "cells", "area", "multiple_min", "x_at_min",
+                                        "quantity", "cells", "area", "multiple_min", "x_at_min",
                                         "y_at_min", "receptor"])
     return frame.sort_values("multiple_min", kind="stable").reset_index(drop=True)

@@ -469,8 +469,9 @@ UNCERTAIN_CORRELATIONS = Table(
 
 # --- where the next load can go ([headroom]) --------------------------------------------
 HEADROOM = Table("headroom", "A headroom map: the largest multiple of a template load that "
-                 "may be placed centred on each plan cell before the first stress or "
-                 "settlement limit in force ([limits]) is reached at any receptor "
+                 "may be placed centred on each plan cell before the first stress, "
+                 "settlement or building angular distortion limit in force ([limits]) is "
+                 "reached at any receptor "
                  "(headroom.tif; stress limits exact by reciprocity, settlement limits "
                  "linearised about the present state and the lowest cells re-checked on "
                  "the full settlement).", (
