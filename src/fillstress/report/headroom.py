@@ -5,6 +5,8 @@ load placeable centred on each map cell (headroom.tif), which limit governs wher
 written by :mod:`fillstress.run.headroom`)."""
 from __future__ import annotations
 
+import textwrap
+
 import numpy as np
 
 from ..io.results import PlanField, ResultsFolder
@@ -225,8 +227,8 @@ def headroom_figure(field: PlanField, *, codes=None, settlement_rows=(), governi
         axis.set_major_formatter(plain_tick)
     k = float(height_per_multiple) if height_per_multiple else None
     bar = fig.colorbar(mesh, ax=ax, shrink=0.95, ticks=levels, spacing="uniform")
-    bar.set_label(f"largest multiple (×)\nof the {template}"
-                  + ("" if k is None else f"\n(in brackets: its height, {length_unit})"),
+    title = textwrap.fill(f"largest multiple (×) of the {template}", 44)
+    bar.set_label(title + ("" if k is None else f"\n(in brackets: its height, {length_unit})"),
                   fontsize=8)
     bar.ax.yaxis.set_major_formatter(FuncFormatter(
         lambda v, _: _level_text(v) + ("" if k is None else
