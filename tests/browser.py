@@ -17,6 +17,25 @@ import time
 import numpy as np
 
 CHROMIUM = "/usr/bin/chromium"
+INSTALL = "apt-get install -y chromium"
+
+
+def require(*paths: str, purpose: str, install: str = INSTALL) -> None:
+    """Skip (fail under CI=true, where .ci/run installs them) when a browser part is absent.
+
+    The README's test command must pass on a fresh machine with Python alone, so a missing
+    browser is reported as a skip with the line that installs it.
+    """
+    absent = [p for p in paths if not os.path.exists(p)]
+    if absent:
+        missing_part(", ".join(absent), purpose=purpose, install=install)
+
+
+def missing_part(what: str, purpose: str, install: str = INSTALL) -> None:
+    """Skip the test naming what is missing and how to install it; fail under CI=true."""
+    import pytest
+    missing = pytest.fail if os.environ.get("CI") == "true" else pytest.skip
+    missing(f"{what} is needed for {purpose}: {install}")
 
 
 class Browser:

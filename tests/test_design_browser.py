@@ -12,14 +12,13 @@ from __future__ import annotations
 import contextlib
 import io
 import json
-import os
 import shutil
 import threading
 
 import numpy as np
 import pytest
 
-from browser import CHROMIUM
+from browser import CHROMIUM, missing_part, require
 from fillstress.cli import main
 from fillstress.design.engine import movable_geometry
 from fillstress.design.server import DesignServer
@@ -32,22 +31,15 @@ INSTALL = "apt-get install -y chromium chromium-driver && pip install selenium"
 BOREHOLE = "BH-K1"
 
 
-def _missing(what: str):
-    # Required in CI (.ci/run installs them); a developer's machine may lack them.
-    missing = pytest.fail if os.environ.get("CI") == "true" else pytest.skip
-    missing(f"{what} is needed for the design-page browser test: {INSTALL}")
-
-
 @pytest.fixture(scope="module")
 def page(tmp_path_factory):
-    for path in (CHROMIUM, CHROMEDRIVER):
-        if not os.path.exists(path):
-            _missing(path)
+    require(CHROMIUM, CHROMEDRIVER, purpose="the design-page browser test", install=INSTALL)
     try:
         from selenium import webdriver
         from selenium.webdriver.chrome.service import Service
     except ImportError:
-        _missing("the selenium package")
+        missing_part("the selenium package", purpose="the design-page browser test",
+                     install=INSTALL)
     folder = tmp_path_factory.mktemp("yard") / "yard"
     shutil.copytree(example_site("stockpile_yard").parent, folder)
     server = DesignServer(DesignSession(folder / "site.toml", ratio_limit=0.1, stress_limit=50))

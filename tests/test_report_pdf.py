@@ -10,11 +10,16 @@ import pytest
 from fillstress.cli import main
 from fillstress.errors import InputError
 from fillstress.report.html import SECTIONS
-from fillstress.report.pdf import write_pdf
+from fillstress.report.pdf import find_browser, write_pdf
+from browser import missing_part
 from results_fixture import write_results_folder
 
 
 def test_report_pdf_carries_every_section_and_is_checksummed(tmp_path):
+    try:
+        find_browser()
+    except InputError:
+        missing_part("Chromium", purpose="printing the report to PDF")
     truth = write_results_folder(tmp_path / "run")
     assert main(["report", str(truth.path), "--pdf", "--quiet"]) == 0
     pdf = truth.path / "report.pdf"

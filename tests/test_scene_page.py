@@ -6,13 +6,12 @@ Data come from tests/results_fixture.py (invented site "Quillmere Yard preload t
 from __future__ import annotations
 
 import json
-import os
 import re
 
 import numpy as np
 import pytest
 
-from browser import CHROMIUM, Browser
+from browser import CHROMIUM, Browser, require
 from fillstress import scene_page, viewer
 from fillstress.scene_page import colour_index
 from guide_images import keep
@@ -26,10 +25,7 @@ def truth(tmp_path_factory):
 
 @pytest.fixture(scope="module")
 def page(truth, tmp_path_factory):
-    if not os.path.exists(CHROMIUM):
-        # Required in CI (.ci/run installs it); a developer's machine may lack it.
-        missing = pytest.fail if os.environ.get("CI") == "true" else pytest.skip
-        missing(f"{CHROMIUM} is needed for the browser tests: apt-get install -y chromium")
+    require(CHROMIUM, purpose="the browser scene tests")
     html = scene_page.export_scene_html(truth.path, tmp_path_factory.mktemp("html") / "scene.html",
                                     exaggeration=2.0)
     browser = Browser(tmp_path_factory.mktemp("profile"))
