@@ -1,6 +1,8 @@
 """A plain `pip install .` (no extras) runs the whole job: with the optional packages'
 imports blocked (a None entry in sys.modules makes `import` fail), a run writes every
-file, the 3D scene included; a distributed run is refused with the `dask` extra named."""
+file but the 3D scene and the VTK files, and says they need the `view` extra; a
+distributed run, the 3D view and those files asked for explicitly are refused with their
+extra named."""
 import json
 import sys
 
@@ -10,7 +12,7 @@ from fillstress.cli import main
 from fillstress.errors import InputError
 
 OPTIONAL = ("dask", "distributed", "trame", "trame_vtk", "trame_pyvista", "nest_asyncio2",
-            "compliance_checker", "rioxarray")
+            "compliance_checker", "rioxarray", "pyvista", "vtk")
 SITE = """
 # Invented: a stockpile pad on a US-foot state-plane CRS.
 [site]
@@ -44,17 +46,45 @@ depths = [5.0, 15.0]
 """
 
 
-def test_run_without_any_extra_writes_everything(tmp_path, monkeypatch, capsys):
+def _without_extras(monkeypatch):
     for name in OPTIONAL:
         monkeypatch.setitem(sys.modules, name, None)
+
+
+def test_run_without_any_extra_writes_everything(tmp_path, monkeypatch, capsys):
+    _without_extras(monkeypatch)
     (tmp_path / "site.toml").write_text(SITE)
     out = tmp_path / "out"
-    assert main(["run", str(tmp_path / "site.toml"), "-o", str(out), "-q"]) == 0
-    assert capsys.readouterr().err == ""
+    assert main(["run", str(tmp_path / "site.toml"), "-o", str(out)]) == 0
+    said = capsys.readouterr()
+    assert "Traceback" not in said.err
+    assert "fillstress[view]" in said.out + said.err
     manifest = json.loads((out / "manifest.json").read_text())
-    for name in ("report.html", "scene.html", "stress_cube.nc", "fill_thickness.tif",
-                 "layers.gpkg", "vtk/run.vtm", "summary.json"):
+    for name in ("report.html", "stress_cube.nc", "fill_thickness.tif",
+                 "layers.gpkg", "summary.json"):
         assert name in manifest["outputs"], name
+    assert not any(name.startswith("vtk/") or name == "scene.html"
+                   for name in manifest["outputs"])
+    assert not (out / "vtk").exists() and not (out / "scene.html").exists()
+    warnings = json.loads((out / "summary.json").read_text())["warnings"]
+    for what in ("vtk/", "scene.html"):
+        assert any(what in w and "fillstress[view]" in w for w in warnings), what
+    for option, name in (("--png", "v.png"), ("--html", "s.html")):
+        assert main(["view", str(out), option, str(tmp_path / name)]) == 2
+        assert "needs the 'view' extra" in capsys.readouterr().err
+        assert not (tmp_path / name).exists()
+
+
+@pytest.mark.parametrize("key", ["vtk", "scene"])
+def test_view_output_asked_for_without_its_extra_is_refused_before_any_work(
+        tmp_path, monkeypatch, capsys, key):
+    _without_extras(monkeypatch)
+    (tmp_path / "site.toml").write_text(SITE + f"\n[outputs]\n{key} = true\n")
+    out = tmp_path / "out"
+    assert main(["run", str(tmp_path / "site.toml"), "-o", str(out)]) == 2
+    err = capsys.readouterr().err
+    assert f"[outputs.{key}] needs the 'view' extra" in err and "Traceback" not in err
+    assert not out.exists()
 
 
 @pytest.mark.parametrize("missing", ["distributed", "dask"])

@@ -19,6 +19,7 @@ from pathlib import Path
 import numpy as np
 from scipy.interpolate import RegularGridInterpolator
 
+from ._lazy import require_extra
 from ._validate import finite, positive
 from .errors import InputError
 from .io.atomic import write_atomic
@@ -467,6 +468,7 @@ def scene_parts(results_dir, *, exaggeration: float | None = None, quantity: str
                 layers=LAYERS, colour_range=None) -> Scene:
     """The parts of the scene of a results folder (see :func:`build_scene`)."""
     folder = ResultsFolder(results_dir)
+    require_extra("view", argument="view")
     if exaggeration is not None:
         exaggeration = positive(exaggeration, "exaggeration")
     quantity_unit_key(quantity)
@@ -695,6 +697,7 @@ def build_scene(results_dir, *, exaggeration: float | None = None, quantity: str
     ...
     fillstress.errors.InputError: argument results_dir: is not a results folder (no such directory)
     """
+    require_extra("view", argument="view")
     slice_floor = _share(slice_floor, "slice_floor")
     if depth is not None:
         depth = finite(depth, "depth")

@@ -21,6 +21,7 @@ from pyproj import CRS
 from shapely.geometry import LineString, Point, Polygon
 
 from .. import crs as crsmod
+from .._lazy import EXTRAS, installed, require_extra
 from .._summary import Summarised, crs_text
 from ..decide.limits import BUILDING_LIMITS, Limit
 from ..drains import VerticalDrains
@@ -370,7 +371,7 @@ def build_site(cfg: SiteConfig) -> Site:
                 grid.get("method", "boussinesq"),
                 grid.get("poisson") if grid.get("method") == "westergaard" else None,
                 ctx.ground, soil, _points(ctx, receptors), receptors,
-                replace(_settings(cfg), **_limits(cfg, receptors),
+                replace(_settings(cfg, ctx.warnings), **_limits(cfg, receptors),
                         uncertainty=_uncertainty(cfg, soil),
                         headroom=_headroom(ctx, spec)),
                 input_files=tuple(cfg.input_files()), plan_grids=_plan_grids(ctx, spec),
@@ -384,7 +385,7 @@ def build_site(cfg: SiteConfig) -> Site:
                                           _profile_depths(cfg, receptors)))
 
 
-def _settings(cfg: SiteConfig) -> RunSettings:
+def _settings(cfg: SiteConfig, warnings: list) -> RunSettings:
     grid, soil = cfg.get("grid") or {}, cfg.get("soil") or {}
     settle, outputs = cfg.get("settlement") or {}, cfg.get("outputs") or {}
     monitoring = cfg.get("monitoring") or {}
@@ -404,8 +405,27 @@ def _settings(cfg: SiteConfig) -> RunSettings:
         distortion_limits={name: settle[key] for key, name in LIMIT_KEYS.items()
                            if settle.get(key) is not None},
         **{k: monitoring.get(k) for k in ("readings", "construction", "day0")},
+        **{k: _view_output(cfg, k, outputs.get(k), warnings) for k in VIEW_OUTPUTS},
         **{k: outputs.get(k, True) is not False for k in ("geotiff", "netcdf", "geopackage",
-                                                             "vtk", "report", "scene")})
+                                                             "report")})
+
+
+# [outputs] key → what it writes; its meshes are built with pyvista (the 'view' extra)
+VIEW_OUTPUTS = {"vtk": "VTK files (vtk/)", "scene": "The 3D scene (scene.html)"}
+
+
+def _view_output(cfg: SiteConfig, key: str, asked, warnings: list) -> bool:
+    """An output of the 'view' extra: written by default where it is installed (a warning
+    says it is not), and refused before any work when asked for explicitly without it."""
+    if asked is False:
+        return False
+    if asked is True:
+        require_extra("view", file=cfg.path, key=f"outputs.{key}")
+    if not all(installed(name) for name in EXTRAS["view"]):
+        warnings.append(f"{VIEW_OUTPUTS[key]} not written: it needs the 'view' extra "
+                        "(pip install 'fillstress[view]')")
+        return False
+    return True
 
 
 # [limits] key → (quantity of decide.limits, label in the tables)

@@ -361,9 +361,11 @@ OUTPUTS = Table("outputs", "Which files a run writes besides the point tables an
     Key("netcdf", "bool", "The NetCDF cube of the plan grids.", default=True),
     Key("geopackage", "bool", "layers.gpkg: every vector layer of the run in the site CRS.",
         default=True),
-    Key("vtk", "bool", "VTK files for 3D viewers.", default=True),
+    Key("vtk", "bool", "VTK files for 3D viewers (needs the 'view' extra; default: written "
+        "where it is installed, with a warning where it is not).", default=None),
     Key("report", "bool", "The HTML engineering report.", default=True),
-    Key("scene", "bool", "The standalone HTML 3D scene.", default=True),
+    Key("scene", "bool", "The standalone HTML 3D scene (needs the 'view' extra; default as "
+        "for vtk).", default=None),
 ))
 
 MONITORING = Table("monitoring", "Field readings for `fillstress monitor` (readings against "

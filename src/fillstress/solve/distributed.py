@@ -16,6 +16,7 @@ from typing import NamedTuple
 import numpy as np
 import xarray as xr
 
+from .._lazy import require_extra
 from .._validate import whole_number
 from ..errors import ClusterError, InputError
 from ..progress import silent
@@ -181,13 +182,7 @@ def _cluster_failures(what: str):
 
 def _require_dask(argument: str) -> None:
     """InputError naming the extra when Dask is not installed (it is optional)."""
-    import importlib
-    for name in ("dask", "distributed"):
-        try:
-            importlib.import_module(name)
-        except ImportError:
-            raise InputError(f"needs the 'dask' extra (pip install 'fillstress[dask]'); "
-                             f"{name} is not installed", argument=argument) from None
+    require_extra("dask", argument=argument)
 
 
 def _client(client):
