@@ -167,3 +167,34 @@ def test_worker_memory_below_what_a_worker_needs_is_refused():
     with pytest.raises(InputError, match="worker_memory"):
         with connect(1, worker_memory=1000):
             pass
+
+
+def _guarded_example() -> str:
+    """The docs/api.md example that keeps a local cluster under the ``__main__`` guard, as
+    the script a user would save from it."""
+    from pathlib import Path
+    text = (Path(__file__).parents[1] / "docs" / "api.md").read_text(encoding="utf-8")
+    block = next(b for b in text.split("```pycon")[1:] if 'if __name__ == "__main__":' in b)
+    lines = [line[4:] for line in block.split("```")[0].splitlines()
+             if line.startswith((">>> ", "... "))]
+    return "\n".join(lines) + "\n"
+
+
+def test_the_documented_local_cluster_example_runs_as_a_script(tmp_path):
+    # Workers of a local cluster import the script again: without the guard each would
+    # start a cluster of its own. The example, saved as a script, must run and agree with
+    # the serial path.
+    import subprocess
+    script = _guarded_example()
+    assert 'if __name__ == "__main__":' in script and "connect(2)" in script
+    script += ("        np.save('dsz.npy', dsz)\n"
+               "        np.save('stack.npy', np.asarray(stack))\n")
+    (tmp_path / "example.py").write_text(script)
+    done = subprocess.run([sys.executable, "example.py"], cwd=tmp_path, capture_output=True,
+                          text=True, timeout=300)
+    assert done.returncode == 0, done.stderr[-2000:]
+    grid = LoadGrid(np.full((40, 40), 50.0), x0=0.0, y0=0.0, dx=1.0, dy=1.0)
+    np.testing.assert_allclose(np.load(tmp_path / "dsz.npy"),
+                               stress_at_points(grid, [[20.0, 20.0, 5.0]]), rtol=1e-9)
+    serial = np.asarray(stress_slices(grid, [2.0, 5.0]))
+    np.testing.assert_allclose(np.load(tmp_path / "stack.npy"), serial, rtol=1e-9, atol=1e-9)

@@ -85,7 +85,7 @@ def connect(scheduler, *, worker_memory: int | None = None):
     it, each worker would start a cluster of its own):
 
     >>> import numpy as np
-    >>> from fillstress import LoadGrid
+    >>> from fillstress import LoadGrid, connect, distributed_points, distributed_slices
     >>> grid = LoadGrid(np.full((40, 40), 50.0), x0=0.0, y0=0.0, dx=1.0, dy=1.0)
     >>> if __name__ == "__main__":
     ...     with connect(2) as client:              # two local worker processes
