@@ -94,10 +94,13 @@ def test_higher_water_table_lowers_effective_stress(batch):
 
 @pytest.mark.parametrize("text, words", [
     ("[[variants]]\nname = \"a\"\nunit_weight_factr = 1.1\n", "did you mean 'unit_weight_factor'"),
-    ("[[variants]]\nname = \"a\"\nheight_factor = -1\n", "must be a number > 0"),
+    ("[[variants]]\nname = \"a\"\nheight_factor = -1\n", r"height_factor\] must be > 0"),
     ("[[variants]]\nname = \"a\"\n[[variants]]\nname = \"a\"\n", "unique"),
     ("[[variants]]\nname = \"a b\"\n", "needs a name"),
-    ("[[variants]]\nname = \"a\"\nmethod = \"elastic\"\n", "boussinesq or westergaard"),
+    ("[[variants]]\nname = \"a\"\nmethod = \"elastic\"\n", "boussinesq, westergaard"),
+    ("[[variant]]\nname = \"a\"\n", "did you mean 'variants'"),
+    ("[variants]\nname = \"a\"\n", "must be an array of tables"),
+    ("[[variants]]\nheight_factor = 1.2\n", r"variants\[0\].name\] required key is missing"),
 ])
 def test_bad_variants_file(tmp_path, text, words):
     p = tmp_path / "v.toml"
@@ -105,3 +108,13 @@ def test_bad_variants_file(tmp_path, text, words):
     with pytest.raises(InputError, match=words) as err:
         read_variants(p, SI)
     assert str(p) in str(err.value)
+
+
+def test_variants_file_lengths_are_in_the_site_units_and_defaults_keep_the_site(tmp_path):
+    from fillstress.units import US
+    p = tmp_path / "v.toml"
+    p.write_text('[[variants]]\nname = "wet"\nwater_table = 10.0\n\n'
+                 '[[variants]]\nname = "as_built"\n')
+    wet, as_built = read_variants(p, US)
+    assert wet.water_table == pytest.approx(3.048)        # 10 international feet (exact)
+    assert as_built == Variant("as_built")                # every other key the site's own

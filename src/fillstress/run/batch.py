@@ -1,21 +1,12 @@
 """Batch runs: one site over a list of variants, each with its own results folder, plus an
 envelope (the largest value over the variants at every receptor point).
 
-A variants file is TOML with one [[variants]] table per variant:
-
-    [[variants]]
-    name = "dense_fill"          # folder name of the variant's results
-    unit_weight_factor = 1.10    # every body's unit weight × this
-    height_factor = 1.0          # every body's thickness × this
-    water_table = 0.5            # site units; replaces [soil] water_table
-    method = "westergaard"       # or "boussinesq"
-    poisson = 0.3                # Westergaard only
+A variants file is TOML with one [[variants]] table per variant; its keys are declared in
+``site.schema.VARIANTS`` and listed in docs/site-file.md.
 """
 from __future__ import annotations
 
 import copy
-import difflib
-import math
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -29,16 +20,13 @@ from ..io.manifest import write_manifest
 from ..io.tables import write_table_csv
 from ..progress import silent
 from ..site.build import load_site, scaled_body
-from ..site.config import read_toml
+from ..site.config import read_toml, reject_unknown, validate_group
+from ..site.schema import VARIANTS
 from ..soil import SoilProfile
 from ..solve.distributed import connect, map_variants
 from .compute import ASSUMPTIONS, CAUTIONS, RunSummary, cluster_choice, compute
 from .plan import validate_run
 from .files import column_quantities, write_all
-
-VARIANT_KEYS = ("name", "unit_weight_factor", "height_factor", "water_table", "method",
-                "poisson")
-
 
 @dataclass(frozen=True)
 class Variant:
@@ -53,52 +41,24 @@ class Variant:
 
 
 def read_variants(path, units) -> list[Variant]:
-    """Read and validate a variants file; lengths are converted with the site's units."""
+    """Read and validate a variants file (schema: ``site.schema.VARIANTS``, documented in
+    docs/site-file.md); lengths are converted with the site's units."""
     path = Path(path)
     raw = read_toml(path, "variants file")
-    items = raw.get("variants")
-    if set(raw) - {"variants"} or not isinstance(items, list) or not items:
-        raise InputError("needs one or more [[variants]] tables and nothing else", file=path)
-    variants = [_variant(v, i, path, units) for i, v in enumerate(items)]
-    names = [v.name for v in variants]
+    reject_unknown(raw, ["variants"], path)
+    if "variants" not in raw:
+        raise InputError("needs one or more [[variants]] tables", file=path, key="variants")
+    tables = validate_group(raw["variants"], VARIANTS, path, units)
+    if not tables:
+        raise InputError("needs one or more [[variants]] tables", file=path, key="variants")
+    for i, t in enumerate(tables):
+        if not t["name"].replace("_", "").replace("-", "").isalnum():
+            raise InputError(f"needs a name of letters, digits, _ or -, got {t['name']!r}",
+                             file=path, key=f"variants[{i}].name")
+    names = [t["name"] for t in tables]
     if len(set(names)) != len(names):
         raise InputError("variant names must be unique", file=path, key="variants.name")
-    return variants
-
-
-def _variant(raw, i, path, units) -> Variant:
-    where = f"variants[{i}]"
-    if not isinstance(raw, dict):
-        raise InputError("must be a table", file=path, key=where)
-    for key in raw:
-        if key not in VARIANT_KEYS:
-            near = difflib.get_close_matches(key, VARIANT_KEYS, n=1)
-            hint = f"; did you mean '{near[0]}'?" if near else ""
-            raise InputError(f"unknown key{hint}", file=path, key=f"{where}.{key}")
-    name = raw.get("name")
-    if not isinstance(name, str) or not name.replace("_", "").replace("-", "").isalnum():
-        raise InputError("needs a name of letters, digits, _ or -", file=path, key=f"{where}.name")
-
-    def number(key, low, strict):
-        v = raw.get(key)
-        if v is None:
-            return None
-        if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v) \
-                or (v <= low if strict else v < low):
-            rel = ">" if strict else "≥"
-            raise InputError(f"must be a number {rel} {low:g}, got {v!r}", file=path,
-                             key=f"{where}.{key}")
-        return float(v)
-
-    method = raw.get("method")
-    if method is not None and method not in ("boussinesq", "westergaard"):
-        raise InputError(f"must be boussinesq or westergaard, got {method!r}", file=path,
-                         key=f"{where}.method")
-    wt = number("water_table", 0.0, False)
-    return Variant(name, number("unit_weight_factor", 0.0, True) or 1.0,
-                   number("height_factor", 0.0, True) or 1.0,
-                   None if wt is None else units.length_si(wt), method,
-                   number("poisson", 0.0, False))
+    return [Variant(**t) for t in tables]
 
 
 def apply_variant(site, v: Variant):

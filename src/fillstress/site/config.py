@@ -89,7 +89,7 @@ def read_toml(path: Path, what: str) -> dict:
 def validate(raw: dict, path: Path) -> SiteConfig:
     """Validate an already parsed TOML document (see `read_site_file`)."""
     path = Path(path)
-    _reject_unknown(raw, list(schema.TOP_LEVEL), path, where="")
+    reject_unknown(raw, list(schema.TOP_LEVEL), path, where="")
     site_raw = raw.get("site")
     if not isinstance(site_raw, dict):
         raise InputError("missing the [site] table (name, crs, units)", file=path, key="site")
@@ -116,6 +116,12 @@ def validate(raw: dict, path: Path) -> SiteConfig:
     return SiteConfig(path, units, tables)
 
 
+def validate_group(raw, table: schema.Table, path, units: UnitSystem):
+    """Validate one table (or array or named group of tables) of a TOML file other than
+    the site file against `table`, with the site file's checks, hints and unit conversion."""
+    return _Validator(Path(path), units).table_group(raw, table)
+
+
 # Arrays of tables inside a table, validated on their own (soil.layers, limits.overrides).
 SUB_TABLES = {"soil": ["layers"], "limits": ["overrides"],
               "uncertainty": ["parameters", "correlations"]}
@@ -128,7 +134,8 @@ def _units_name(site_raw, path):
     return name.upper()
 
 
-def _reject_unknown(data: dict, valid: list[str], path, where: str):
+def reject_unknown(data: dict, valid: list[str], path, where: str = ""):
+    """InputError for the first key of `data` not in `valid`, naming the nearest valid key."""
     for key in data:
         if key not in valid:
             near = difflib.get_close_matches(key, valid, n=1, cutoff=0.5)
@@ -168,7 +175,7 @@ class _Validator:
         keys = table.keys_for(kind)
         raw = self._spelled(raw, keys, where)
         valid = [k.name for k in keys] + SUB_TABLES.get(table.name, [])
-        _reject_unknown(raw, valid, self.path, where)
+        reject_unknown(raw, valid, self.path, where)
         out = {}
         for key in keys:
             if key.name in raw:

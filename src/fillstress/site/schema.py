@@ -524,3 +524,21 @@ TABLES: tuple[Table, ...] = (SITE, GRID, GROUND, BODIES, ALIGNMENT, SOIL, LAYER,
                              MONITORING, LIMITS, LIMIT_OVERRIDES, UNCERTAINTY,
                              UNCERTAIN_PARAMETERS, UNCERTAIN_CORRELATIONS, HEADROOM)
 TOP_LEVEL = {t.name: t for t in TABLES if "." not in t.name}
+
+# The variants file of `fillstress batch`: its own TOML file, lengths in the site's units.
+VARIANTS = Table("variants", "One table per variant of the site that `fillstress batch` runs; "
+                 "each gets its own results folder, and the envelope takes the largest value "
+                 "over the variants at every receptor point. A key left out keeps the site's "
+                 "own value.", (
+    Key("name", "str", "Folder name of the variant's results: letters, digits, _ or -.",
+        required=True, example='"dense_fill"'),
+    Key("unit_weight_factor", "float", "Every body's unit weight × this.", default=1.0, **_POS),
+    Key("height_factor", "float", "Every body's thickness × this.", default=1.0, **_POS),
+    Key("water_table", "float", "Depth of the water table below ground; replaces "
+        "`[soil] water_table` (needs a [soil] table).", unit=LENGTH, **_NONNEG,
+        example="0.5"),
+    Key("method", "str", "Stress solution of this variant (default: the site's).",
+        choices=("boussinesq", "westergaard")),
+    Key("poisson", "float", "Poisson's ratio for Westergaard (default: the site's).",
+        **_NONNEG),
+), many="array", required=True)

@@ -62,4 +62,15 @@ def site_reference() -> str:
         for kind, extra in table.variants.items():
             out += ["", f"### `kind = \"{kind}\"`", ""] + _rows(extra)
         out.append("")
+    out += VARIANTS_HEADER + _rows(schema.VARIANTS.keys) + [""]
     return "\n".join(out)
+
+
+VARIANTS_HEADER = ["# The variants file of `fillstress batch`", "",
+                   "`fillstress batch SITE VARIANTS` reads a second TOML file of its own, with "
+                   "lengths in the site's unit system and the same checks and nearest-key "
+                   "hints as the site file:", "",
+                   "```toml", "[[variants]]", 'name = "dense_fill"', "unit_weight_factor = 1.10",
+                   "", "[[variants]]", 'name = "wet_season"', "water_table = 0.5", "```", "",
+                   f"## `[[{schema.VARIANTS.name}]]`", "", schema.VARIANTS.doc + " Required.",
+                   ""]
