@@ -1,4 +1,6 @@
 """Batch runs over variants and their envelope."""
+import json
+
 import numpy as np
 import pandas as pd
 import pytest
@@ -118,3 +120,38 @@ def test_variants_file_lengths_are_in_the_site_units_and_defaults_keep_the_site(
     wet, as_built = read_variants(p, US)
     assert wet.water_table == pytest.approx(3.048)        # 10 international feet (exact)
     assert as_built == Variant("as_built")                # every other key the site's own
+
+
+def test_report_of_a_batch_folder_compares_the_variants(batch, tmp_path):
+    import re
+    from fillstress.report import write_report
+    page = write_report(batch, tmp_path / "batch.html").read_text(encoding="utf-8")
+    site_name = json.loads((batch / "as_designed" / "summary.json").read_text())["site"]["name"]
+    assert f"<title>Variants of {site_name}</title>" in page          # not the file's path
+    assert "licensed geotechnical engineer" in page and "data:image/png;base64," in page
+    text = re.sub(r"\s+", " ", re.sub(r"<[^>]+>", " ", re.sub(r"<style.*?</style>", "", page,
+                                                               flags=re.S)))
+    for name in ("as_designed", "heavy", "taller"):
+        assert name in text
+    assert "0.5" in text                                              # taller's water table
+    # the envelope rows name the variant and point of each column's maximum, as in the CSV
+    env = pd.read_csv(batch / "envelope_points.csv", dtype={"receptor_id": str})
+    for rid, group in env.groupby("receptor_id"):
+        at = group["dsz_kPa"].idxmax()
+        assert f"{group.at[at, 'variant_of_max_dsz']} at {group.at[at, 'point_id']}" in text, rid
+    # each variant's governing utilisation, from its own summary
+    summary = json.loads((batch / "heavy" / "summary.json").read_text())["receptors"]
+    worst = max(r["utilisation_max"] for rows in summary.values() for r in rows
+                if r.get("utilisation_max") is not None)
+    assert re.search(rf"heavy [^|]*? {worst:.4g}", text)
+
+
+def test_batch_run_writes_its_report_with_the_variants(tmp_path):
+    (tmp_path / "v.toml").write_text('[[variants]]\nname = "one"\n\n[[variants]]\n'
+                                     'name = "two"\nheight_factor = 0.5\n')
+    out = tmp_path / "out"
+    assert main(["batch", str(example_site("preload_surcharge")), str(tmp_path / "v.toml"),
+                 "-o", str(out), "--quiet"]) == 0
+    page = (out / "report.html").read_text(encoding="utf-8")
+    assert 'href="one/report.html"' in page and (out / "one" / "report.html").is_file()
+    assert "report.html" in json.loads((out / "manifest.json").read_text())["outputs"]

@@ -4,6 +4,7 @@ from __future__ import annotations
 import math
 
 from ..report import monitoring as page_parts
+from ..report.html import simple_page
 from ..report.tables import html_table, plain
 from .wording import ASSUMPTIONS, CAUTIONS, slug
 
@@ -48,8 +49,8 @@ def monitoring_page(res, summary: dict, pictures: dict) -> str:
     if res.structures is not None:
         sections.append(("Buildings and pipes", _structures(res)))
     sections.append(("Assumptions", page_parts.paragraph(ASSUMPTIONS)))
-    return page_parts.page(f"Monitoring: {res.site.name}", head, sections,
-                           [CAUTIONS, *res.cautions])
+    return simple_page(f"Monitoring: {res.site.name}", head, sections,
+                       [CAUTIONS, *res.cautions], by="fillstress monitor")
 
 
 def _method(res) -> str:

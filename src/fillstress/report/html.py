@@ -39,7 +39,7 @@ from .tables import (
     receptor_table,
 )
 
-__all__ = ["SECTIONS", "write_report", "esc", "html_table", "frame_table", "json_block",
+__all__ = ["SECTIONS", "write_run_report", "esc", "html_table", "frame_table", "json_block",
            "is_flag_column"]
 
 SECTIONS = (
@@ -119,6 +119,23 @@ code { font-size: .9em; word-break: break-all; }
   h2, h3 { break-after: avoid; page-break-after: avoid; }
 }
 """
+
+
+def simple_page(title: str, summary: list, sections: list, cautions: list, *, by: str) -> str:
+    """A report page of its own (monitoring, batch): `summary` (label, value) pairs,
+    `sections` of (heading, html) already escaped, `cautions` plain text, shown first and
+    last; `by` names the command that wrote it."""
+    stamp = datetime.now(timezone.utc).strftime("%Y-%m-%d %H:%M UTC")
+    caution_list = "<ul>" + "".join(f"<li>{esc(c)}</li>" for c in cautions) + "</ul>"
+    parts = [f"<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>"
+             f"<title>{esc(title)}</title><style>{CSS}</style></head><body>",
+             f"<h1>{esc(title)}</h1><p class='note'>Written {stamp} by {esc(by)}.</p>",
+             f"<div class='caution' id='cautions-top'>{caution_list}</div>",
+             html_table(["item", "value"], [(k, plain(v)) for k, v in summary])]
+    parts += [f"<section><h2>{esc(h)}</h2>{body}</section>" for h, body in sections]
+    parts.append(f"<section><h2>Cautions</h2><div class='caution'>{caution_list}</div></section>")
+    parts.append("</body></html>")
+    return "\n".join(parts)
 
 
 def _img(png: bytes, caption: str) -> str:
@@ -512,8 +529,8 @@ def _grid_text(grid, units: UnitLabels) -> str:
         return str(grid)
 
 
-def write_report(results_dir, path=None) -> Path:
-    """Write the engineering report of a results folder as one self-contained HTML file.
+def write_run_report(results_dir, path=None) -> Path:
+    """Write the engineering report of a run's results folder as one self-contained HTML file.
 
     Parameters
     ----------
@@ -529,7 +546,7 @@ def write_report(results_dir, path=None) -> Path:
 
     Examples
     --------
-    >>> write_report("/no/such/folder")
+    >>> write_run_report("/no/such/folder")
     Traceback (most recent call last):
     ...
     fillstress.errors.InputError: argument results_dir: is not a results folder (no such directory)

@@ -8,13 +8,11 @@ Every text from the inputs passes through `esc`.
 from __future__ import annotations
 
 import html as _html
-from datetime import datetime, timezone
 
 import numpy as np
 
 from .figures import _new_figure, png_bytes
-from .html import CSS, _img, _mpl_text
-from .tables import esc, html_table, plain
+from .html import _img, _mpl_text
 
 COLOURS = {"readings": "black", "design": "tab:gray", "built": "tab:blue",
            "revised": "tab:red"}
@@ -146,21 +144,6 @@ def piezometer_figure(name, days, predicted, revised, readings, *, unit: str,
     ax.grid(True, linewidth=0.4, alpha=0.5)
     ax.legend(fontsize=7)
     return png_bytes(fig)
-
-
-def page(title: str, summary: list, sections: list, cautions: list) -> str:
-    """The monitoring report page: `summary` (label, value) pairs, `sections` of
-    (heading, html) already escaped, `cautions` plain text."""
-    stamp = datetime.now(timezone.utc).strftime("%Y-%m-%d %H:%M UTC")
-    parts = [f"<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>"
-             f"<title>{esc(title)}</title><style>{CSS}</style></head><body>",
-             f"<h1>{esc(title)}</h1><p class='note'>Written {stamp} by fillstress monitor.</p>",
-             html_table(["item", "value"], [(k, plain(v)) for k, v in summary])]
-    parts += [f"<section><h2>{esc(h)}</h2>{body}</section>" for h, body in sections]
-    parts.append("<section><h2>Cautions</h2><div class='caution'><ul>"
-                 + "".join(f"<li>{esc(c)}</li>" for c in cautions) + "</ul></div></section>")
-    parts.append("</body></html>")
-    return "\n".join(parts)
 
 
 def paragraph(text: str) -> str:

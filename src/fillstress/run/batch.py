@@ -181,6 +181,9 @@ def run_batch(site_path, variants_path, out, *, overwrite=False, report=False,
                        units=site.units, inputs=[*site.input_files, Path(variants_path)],
                        site_file=site.path, crs=site.crs, grid=site.spec,
                        assumptions=ASSUMPTIONS, cautions=CAUTIONS)
+        if report:
+            from ..report.batch import write_batch_report
+            write_batch_report(folder.root)
     return [RunSummary(r, out / v.name) for v, r in zip(variants, results)], env
 
 
