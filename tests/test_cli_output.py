@@ -118,3 +118,75 @@ def test_point_at_one_point_loads_no_compiler(site):
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
                          check=True).stdout
     assert out.strip().splitlines()[-1] == "[]"
+
+
+def test_verbose_logs_each_step_with_its_time_and_keeps_the_answer(site, tmp_path, capsys):
+    import logging
+    try:
+        assert main(["run", str(site), "-o", str(tmp_path / "out"), "-v", "--json"]) == 0
+    finally:
+        logging.getLogger("fillstress").handlers.clear()      # the handler of this run only
+        logging.getLogger("fillstress").setLevel(logging.NOTSET)
+    said = capsys.readouterr()
+    assert json.loads(said.out)["site"]["name"] == "Ostrava siding pad"   # stdout: the answer
+    timings = json.loads((tmp_path / "out" / "summary.json").read_text())["timings_s"]
+    for step in ("receptor_points",):
+        assert f"{step.replace('_', ' ')}: {timings[step + '_s']:.2f} s" in said.err
+    import re
+    assert re.search(r"stress at 3 points by the \w+ algorithm", said.err)   # K-1: 1, 3, 5 m
+    assert main(["point", str(site), "500010", "500010", "2", "--json"]) == 0
+    assert "fillstress.run.compute" not in capsys.readouterr().err   # no log without -v
+
+
+class _Recorder:
+    """A progress factory that keeps what the library tells it."""
+
+    def __init__(self):
+        self.bars = []
+
+    def __call__(self, label, total, unit="steps"):
+        import contextlib
+        bar = {"label": label, "total": total, "unit": unit, "steps": [], "done": 0}
+        self.bars.append(bar)
+
+        class _Bar:
+            def advance(self, n=1):
+                bar["done"] += n
+
+            def describe(self, text):
+                bar["steps"].append(text)
+        return contextlib.nullcontext(_Bar())
+
+
+def test_progress_bars_name_each_step_and_their_unit(site, tmp_path):
+    from fillstress.run.compute import run_site_file
+    record = _Recorder()
+    run_site_file(site, tmp_path / "out", progress=record)
+    by_label = {b["label"]: b for b in record.bars}
+    computing = by_label["computing"]
+    timings = json.loads((tmp_path / "out" / "summary.json").read_text())["timings_s"]
+    steps = [k[:-2].replace("_", " ") for k in timings if k.endswith("_s")
+             and k not in ("compute_s", "write_s", "build_s", "total_s")]
+    assert computing["unit"] == "steps" and computing["done"] == computing["total"]
+    assert [s for s in computing["steps"] if s in steps] == computing["steps"]
+    assert "receptor points" in computing["steps"]
+    writing = by_label["writing results"]
+    assert writing["steps"][:3] == ["tables", "rasters", "NetCDF cube"]
+    assert writing["done"] == writing["total"]
+
+
+def test_only_fine_grained_bars_estimate_the_time_left():
+    import io
+    from rich.console import Console as RichConsole
+    from fillstress.console import FINE_GRAINED, Console
+    shown = {}
+    for unit, total in (("steps", 6), ("points", 10 * FINE_GRAINED)):
+        console = Console()
+        console.err = RichConsole(file=io.StringIO(), width=120, force_terminal=False)
+        with console.progress("work", total, unit=unit) as bar:
+            bar.describe("settlement")
+            bar.advance(total)
+        shown[unit] = console.err.file.getvalue()
+    assert "6/6 steps" in shown["steps"] and "0:00:00" in shown["steps"]
+    assert shown["steps"].count(":") < shown["points"].count(":")   # no time-left column
+    assert "points" in shown["points"]

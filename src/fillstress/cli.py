@@ -47,6 +47,8 @@ def main(argv=None) -> int:
     from .console import Console
     # --json: the answer alone on stdout; tables and progress bars stay off.
     console = Console(quiet=getattr(args, "quiet", False) or getattr(args, "json", False))
+    if getattr(args, "verbose", False):
+        console.log_to_stderr()
     try:
         with _warnings_to(console):
             return args.func(args, console) or 0
@@ -101,6 +103,8 @@ def _parser() -> argparse.ArgumentParser:
                        help=argparse.SUPPRESS)
         c.add_argument("-q", "--quiet", action="store_true",
                        help="no progress bars or tables; answers, warnings and errors still")
+        c.add_argument("-v", "--verbose", action="store_true",
+                       help="log what each step does and how long it takes (stderr)")
         if name in ("run", "check", "point"):
             c.add_argument("--json", action="store_true",
                            help="print the result as JSON on stdout (for scripts)")

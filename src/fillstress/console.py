@@ -24,6 +24,9 @@ from .progress import silent
 from .run.wording import CAUTIONS
 
 
+FINE_GRAINED = 20    # parts of work from which a time-remaining estimate means something
+
+
 class Console:
     def __init__(self, quiet: bool = False):
         self.quiet = quiet
@@ -32,6 +35,18 @@ class Console:
         # emoji off: input text such as "pad:x:.geojson" is printed as written
         self.out = _RichConsole(highlight=False, width=wide, emoji=False)
         self.err = _RichConsole(stderr=True, highlight=False, emoji=False)
+
+    def log_to_stderr(self) -> None:
+        """Show the package's INFO log (steps, solver choices, sizes, times) on stderr,
+        above any progress bar."""
+        import logging
+        from rich.logging import RichHandler
+        handler = RichHandler(console=self.err, show_path=False, show_level=False,
+                              log_time_format="%H:%M:%S", markup=False)
+        handler.setFormatter(logging.Formatter("%(name)s: %(message)s"))
+        log = logging.getLogger("fillstress")
+        log.addHandler(handler)
+        log.setLevel(logging.INFO)
 
     def error(self, message: str) -> None:
         self.err.print(f"[bold red]fillstress: error:[/] {escape(message)}", soft_wrap=True)
@@ -45,20 +60,31 @@ class Console:
             self.out.print(f"wrote {escape(str(path))}")
 
     @contextmanager
-    def progress(self, label: str, total: int):
+    def progress(self, label: str, total: int, unit: str = "steps"):
+        """A progress bar on stderr: the label and the step now running, work done in its
+        unit, time elapsed. A time remaining only where the work is in many even parts
+        (points, tiles): a few steps of unequal length would show an estimate that sits
+        at a few seconds through a long step."""
         if self.quiet:
             with silent(label, total) as bar:
                 yield bar
             return
-        with Progress(TextColumn("{task.description:<34}"), BarColumn(),
-                      TextColumn("{task.completed}/{task.total}"), TimeElapsedColumn(),
-                      TimeRemainingColumn(), console=self.err, transient=False) as bar:
+        columns = [TextColumn("{task.description:<44}"), BarColumn(),
+                   TextColumn("{task.completed:,.0f}/{task.total:,.0f} " + escape(unit)),
+                   TimeElapsedColumn()]
+        if total >= FINE_GRAINED and unit != "steps":
+            columns.append(TimeRemainingColumn())
+        with Progress(*columns, console=self.err, transient=False) as bar:
             task = bar.add_task(label, total=total)
 
-            class _Advance:
+            class _Bar:
                 def advance(self, n: int = 1):
                     bar.advance(task, n)
-            yield _Advance()
+
+                def describe(self, text: str):
+                    bar.update(task, description=f"{label}: {text}")
+            yield _Bar()
+            bar.update(task, description=label)         # done: the step names no longer apply
 
     # --- tables -----------------------------------------------------------------
     def table(self, title: str, columns: list[str], rows: list[list]) -> None:

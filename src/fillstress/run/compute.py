@@ -5,6 +5,7 @@ both inside a results-folder transaction. `check_site_file` shows what a run wou
 """
 from __future__ import annotations
 
+import logging
 import time
 import warnings
 from contextlib import contextmanager
@@ -19,7 +20,7 @@ from .._summary import Summarised
 from .._version import __version__
 from ..errors import FillstressWarning, InputError
 from ..io.atomic import ResultsWriter
-from ..progress import silent
+from ..progress import describe, open_bar, silent
 from ..site.build import Site, load_site
 from ..solve import stress_slices
 from ..solve.distributed import connect, distributed_slices
@@ -34,6 +35,8 @@ from .point import stress
 from .plan import describe_run, memory_cap, plan_pad, slices_need_tiles, validate_run
 
 from .wording import ASSUMPTIONS, CAUTIONS  # noqa: F401  (re-exported for the writers)
+
+log = logging.getLogger(__name__)
 
 
 # --- the numbers ----------------------------------------------------------------------
@@ -114,7 +117,7 @@ def compute(site: Site, progress=silent, client=None) -> RunResults:
     steps += site.settings.uncertainty is not None
     steps += site.settings.headroom is not None
     timings = {}
-    with progress("computing", steps) as bar:
+    with open_bar(progress, "computing", steps) as bar:
         step = _Steps(timings, bar)
         with step("receptor_points"):
             pts["dsz"] = stress(site, grid, pts[["x", "y", "depth"]].to_numpy(float), client)
@@ -166,10 +169,13 @@ class _Steps:
 
     @contextmanager
     def __call__(self, name: str):
+        describe(self.bar, name.replace("_", " "))
         t0 = time.perf_counter()
         yield
         key = f"{name}_s"
-        self.timings[key] = self.timings.get(key, 0.0) + time.perf_counter() - t0
+        seconds = time.perf_counter() - t0
+        self.timings[key] = self.timings.get(key, 0.0) + seconds
+        log.info("%s: %.2f s", name.replace("_", " "), seconds)
         self.bar.advance()
 
 

@@ -18,7 +18,7 @@ import shapely
 from ..grid import GridSpec
 from ..io import geotiff, manifest, netcdf, tables, vtk
 from ..io.atomic import write_atomic
-from ..progress import silent
+from ..progress import describe, open_bar, silent
 from ..report import write_report
 from ..site.receptors import summarise
 from ..scene_page import export_scene_html
@@ -160,15 +160,20 @@ def write_all(res, folder, *, report=True, progress=silent, assumptions="", caut
               version="") -> None:
     site = res.site
     steps = 6 + (2 if report else 0)
-    with progress("writing results", steps) as bar:
+    with open_bar(progress, "writing results", steps) as bar:
+        describe(bar, "tables")
         _write_tables(res, folder)
         bar.advance()
+        describe(bar, "rasters")
         _write_rasters(res, folder)
         bar.advance()
+        describe(bar, "NetCDF cube")
         _write_cube(res, folder, version)
         bar.advance()
+        describe(bar, "VTK")
         _write_vtk(res, folder)
         bar.advance()
+        describe(bar, "summary")
         _write_summary_json(res, folder, assumptions, cautions)
         bar.advance()
         fields = dict(settings=_settings(site), units=site.units,
@@ -181,6 +186,7 @@ def write_all(res, folder, *, report=True, progress=silent, assumptions="", caut
             # checksums them too.
             manifest.write_manifest(folder, **fields)
             _write_report_and_scene(folder, bar, site)
+        describe(bar, "manifest")
         manifest.write_manifest(folder, **fields)
         bar.advance()
 
@@ -558,9 +564,11 @@ def _soil_rows(site) -> list[dict]:
 
 def _write_report_and_scene(folder, bar, site) -> None:
     """The report and the scene, each unless the site file's [outputs] turns it off."""
+    describe(bar, "report")
     if _output(site, "report"):
         write_report(folder.root, folder.path("report.html"))
     bar.advance()
+    describe(bar, "3D scene")
     if _output(site, "scene"):
         export_scene_html(folder.root, folder.path("scene.html"))
     bar.advance()

@@ -7,14 +7,18 @@ points × non-zero nodes stays below :data:`DIRECT_WORK_LIMIT`, else the far fie
 """
 from __future__ import annotations
 
+import logging
+
 import numpy as np
 
 from .._validate import points_array
 from ..errors import InputError
 from ..kernels import resolve_method
-from ..progress import silent
+from ..progress import open_bar, silent
 from ._checks import DEFAULT_ORDER, checked_grid, points_per_chunk
 from .nodes import node_weights, numpy_node_sum
+
+log = logging.getLogger(__name__)
 
 # About 1 s of direct summation on the 2-core development machine (see solve/cost.py);
 # above it the far field is faster, see docs/performance.md "## Far field".
@@ -154,8 +158,10 @@ def stress_at_points(grid, points, method="boussinesq", poisson=None, *, algorit
                                           chunk_size=chunk_size, tol=tol, floor=floor,
                                           order=order)
     out = np.empty(pts.shape[0])
+    log.info("stress at %d points by the %s algorithm, on a %s-cell load grid",
+             pts.shape[0], chosen, " × ".join(map(str, np.shape(grid.pressure))))
     factory = progress or silent
-    with factory(f"stress at points ({chosen})", pts.shape[0]) as bar:
+    with open_bar(factory, f"stress at points ({chosen})", pts.shape[0], unit="points") as bar:
         for start in range(0, pts.shape[0], step):
             part = pts[start:start + step]
             out[start:start + part.shape[0]] = evaluate(part)

@@ -19,7 +19,7 @@ import xarray as xr
 from .._lazy import require_extra
 from .._validate import whole_number
 from ..errors import ClusterError, InputError
-from ..progress import silent
+from ..progress import open_bar, silent
 from .auto import prepare
 from ._checks import DEFAULT_ORDER
 from .slices import slice_at_depth, slice_setup
@@ -198,7 +198,7 @@ def _gather(client, futures, label, progress):
     """Results in submission order, advancing the progress bar as tasks finish."""
     from distributed import as_completed
     factory = progress or silent
-    with factory(label, len(futures)) as bar:
+    with open_bar(factory, label, len(futures), unit="tasks") as bar:
         for _ in as_completed(futures):
             bar.advance()
     return client.gather(futures)
@@ -350,7 +350,7 @@ def map_variants(fn, variants, client=None, *, retries=DEFAULT_RETRIES, progress
     factory = progress or silent
     if client is None:
         out = []
-        with factory("variants", len(variants)) as bar:
+        with open_bar(factory, "variants", len(variants), unit="variants") as bar:
             for v in variants:
                 out.append(fn(v))
                 bar.advance()

@@ -17,7 +17,7 @@ import xarray as xr
 from ..errors import InputError
 from .cost import check_capacity, estimate_slices, largest_tile
 from ..kernels import KernelSpec
-from ..progress import silent
+from ..progress import open_bar, silent
 from .._validate import whole_pair
 from ._checks import fft_workers
 from .slices import SlicePlan, slice_array, slice_setup
@@ -181,7 +181,7 @@ def tiled_slices(grid, depths, method="boussinesq", poisson=None, *, offset=(0.0
     jobs, frame = prepare_tiled(grid, depths, method, poisson, offset=offset, pad=pad,
                                 memory_cap=memory_cap, tile=tile, workers=workers)
     factory = progress or silent
-    with factory("stress slices (tiles)", len(jobs)) as bar:
+    with open_bar(factory, "stress slices", len(jobs), unit="tiles") as bar:
         def tiles():
             for job in jobs:
                 part = run_tile(job)
