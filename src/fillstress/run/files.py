@@ -197,13 +197,14 @@ def _write_tables(res, folder) -> None:
         q = column_quantities(pts)
         tables.write_table_csv(folder.path(f"{name}_points.csv"), pts, u, q, crs=site.crs)
         tables.write_points_geojson(folder.path(f"{name}_points.geojson"), pts, u,
-                                    crs=site.crs, quantities=q)
+                                    crs=site.crs, quantities=q, **_geojson_options(site))
         summary = kind_summary(res, kind)
         tables.write_table_csv(folder.path(f"{name}_summary.csv"), summary, u,
                                column_quantities(summary), crs=site.crs)
         layers[name] = _receptor_layer(res, kind, name, summary)
         tables.write_geojson(folder.path(f"{name}.geojson"), layers[name], u, crs=site.crs,
-                             quantities=column_quantities(layers[name].drop(columns="geometry")))
+                             quantities=column_quantities(layers[name].drop(columns="geometry")),
+                             **_geojson_options(site))
         layers[f"{name}_points"] = gpd.GeoDataFrame(
             pts.reset_index(drop=True), geometry=gpd.points_from_xy(pts["x"], pts["y"]))
     if layers and _output(site, "geopackage"):
@@ -570,11 +571,24 @@ def _output(site, key) -> bool:
     return getattr(site.settings, key)
 
 
+def _geojson_options(site) -> dict:
+    """RFC 7946 with the decimals the cell resolves, unless [outputs] keeps the site CRS."""
+    return {"site_coordinates": site.settings.geojson_crs == "site",
+            "decimals": tables.geojson_decimals(site.spec.dx)}
+
+
 def _settings(site) -> dict:
     return {"method": site.method, "poisson": site.poisson, "cell_m": site.spec.dx,
             "margin_m": site.settings.margin, "stages": site.stages,
             "convergence_check": site.settings.convergence_check,
-            "units": site.units.name}
+            "units": site.units.name, "geojson_crs": _geojson_crs(site)}
+
+
+def _geojson_crs(site) -> str:
+    """What the GeoJSON files' coordinates are (io.results reads them back by it)."""
+    if site.crs is None or site.settings.geojson_crs == "site":
+        return "site"
+    return "EPSG:4326"
 
 
 def write_corridor_tables(res, folder) -> None:

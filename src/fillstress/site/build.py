@@ -120,6 +120,7 @@ class RunSettings:
     geotiff: bool = True
     netcdf: bool = True
     geopackage: bool = True
+    geojson_crs: str = "wgs84"              # [outputs]: "wgs84" (RFC 7946) or "site"
     vtk: bool = True
     report: bool = True
     scene: bool = True
@@ -404,6 +405,7 @@ def _settings(cfg: SiteConfig) -> RunSettings:
         distortion_limits={name: settle[key] for key, name in LIMIT_KEYS.items()
                            if settle.get(key) is not None},
         **{k: monitoring.get(k) for k in ("readings", "construction", "day0")},
+        geojson_crs=outputs.get("geojson_crs", "wgs84"),
         **{k: outputs.get(k, True) is not False for k in ("geotiff", "netcdf", "geopackage",
                                                              "vtk", "report", "scene")})
 
