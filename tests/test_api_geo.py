@@ -1,0 +1,85 @@
+"""The Python API as a GeoPandas and xarray user meets it: point results as a GeoDataFrame
+and plan grids in the site's units with the site CRS, on an invented US-customary site."""
+import numpy as np
+import pyproj
+import pytest
+
+from fillstress import point_stresses
+
+FT_US = 1200 / 3937                 # metres per US survey foot (exact by definition)
+PSF_IN_KPA = 0.45359237 * 9.80665 / 0.3048**2 / 1000.0  # NIST SP 811 definitions
+
+SITE = """
+# Invented: a square stockpile pad beside "Wenlow Mill", NAD83 / Massachusetts Mainland.
+[site]
+name = "Wenlow Mill pad"
+crs = "EPSG:2249"
+units = "US"
+
+[grid]
+cell = 5.0
+margin = 40.0
+convergence_check = false
+
+[bodies.pad]
+kind = "footprint"
+outline = [[710000.0, 2960000.0], [710060.0, 2960000.0], [710060.0, 2960060.0],
+           [710000.0, 2960060.0]]
+height = 6.0
+unit_weight = 120.0
+
+[[boreholes]]
+id = "WM-1"
+x = 710030.0
+y = 2960030.0
+top = 0.0
+bottom = 30.0
+step = 15.0
+
+[[plan_grids]]
+name = "yard"
+depths = [15.0]
+
+[soil]
+water_table = 5.0
+
+[[soil.layers]]
+name = "clay"
+top = 0.0
+bottom = 40.0
+unit_weight = 110.0
+saturated_unit_weight = 115.0
+cc = 0.3
+cr = 0.05
+e0 = 1.0
+ocr = 1.5
+cv = 20.0
+"""
+
+
+@pytest.fixture(scope="module")
+def site_file(tmp_path_factory):
+    path = tmp_path_factory.mktemp("wenlow") / "site.toml"
+    path.write_text(SITE)
+    return path
+
+
+def test_point_results_as_a_geodataframe_in_site_crs_and_units(site_file):
+    res = point_stresses(site_file, [[710030.0, 2960030.0, 15.0], [710000.0, 2960000.0, 15.0]])
+    gdf = res.to_geodataframe()
+    assert list(gdf.columns) == ["stage", "depth_ft", "dsz_psf", "geometry"]
+    assert gdf.crs == pyproj.CRS("EPSG:2249")
+    assert gdf.geometry.x.tolist() == [710030.0, 710000.0]
+    assert gdf["depth_ft"].tolist() == pytest.approx([15.0, 15.0])
+    # Boussinesq under the centre of a 60 ft square at 15 ft: four corner rectangles with
+    # m = n = 2, influence factor 0.2325 each (Newmark 1935, as tabulated in standard
+    # foundation texts; value recalled from memory); q = 6 ft x 120 pcf = 720 psf.
+    assert gdf["dsz_psf"][0] == pytest.approx(4 * 0.2325 * 720.0, rel=2e-3)
+    # the corner: one rectangle of m = n = 4, influence factor 0.2473 (same table)
+    assert gdf["dsz_psf"][1] == pytest.approx(0.2473 * 720.0, rel=2e-3)
+    np.testing.assert_allclose(gdf["dsz_psf"] * PSF_IN_KPA, res.dsz, rtol=1e-12)
+    # longitude and latitude through geopandas are pyproj's answer for the point
+    lon, lat = pyproj.Transformer.from_crs(2249, 4326, always_xy=True).transform(
+        710030.0, 2960030.0)
+    ll = gdf.to_crs(4326).geometry[0]
+    assert (ll.x, ll.y) == (pytest.approx(lon, abs=1e-9), pytest.approx(lat, abs=1e-9))
