@@ -4,7 +4,7 @@ import numpy as np
 import pyproj
 import pytest
 
-from fillstress import point_stresses
+from fillstress import InputError, compute, load_site, point_stresses, vertical_stress
 
 FT_US = 1200 / 3937                 # metres per US survey foot (exact by definition)
 PSF_IN_KPA = 0.45359237 * 9.80665 / 0.3048**2 / 1000.0  # NIST SP 811 definitions
@@ -64,6 +64,11 @@ def site_file(tmp_path_factory):
     return path
 
 
+@pytest.fixture(scope="module")
+def run(site_file):
+    return compute(load_site(site_file))
+
+
 def test_point_results_as_a_geodataframe_in_site_crs_and_units(site_file):
     res = point_stresses(site_file, [[710030.0, 2960030.0, 15.0], [710000.0, 2960000.0, 15.0]])
     gdf = res.to_geodataframe()
@@ -83,3 +88,36 @@ def test_point_results_as_a_geodataframe_in_site_crs_and_units(site_file):
         710030.0, 2960030.0)
     ll = gdf.to_crs(4326).geometry[0]
     assert (ll.x, ll.y) == (pytest.approx(lon, abs=1e-9), pytest.approx(lat, abs=1e-9))
+
+
+def test_plan_grid_in_site_units_with_the_site_crs(run):
+    import rioxarray  # noqa: F401  (registers .rio)
+    site = run.site
+    da = run.plan_grid()
+    assert da.dims == ("depth", "y", "x")
+    assert da["depth"].values.tolist() == pytest.approx([15.0])
+    assert da.attrs["units"] == "lbf ft-2" and da["x"].attrs["units"] == "US_survey_foot"
+    assert da.rio.crs == pyproj.CRS("EPSG:2249")
+    assert da.rio.resolution() == pytest.approx((5.0, -5.0))
+    internal = run.slices["yard"]                       # SI, on the metre twin
+    np.testing.assert_allclose(da["x"], internal["x"] / FT_US, rtol=0, atol=1e-6)
+    # a node checked against direct summation over the load grid (metres, kPa)
+    j, i = 7, 9
+    x, y = float(da["x"][i]), float(da["y"][j])
+    expected = vertical_stress(site.load_grid(), [[x * FT_US, y * FT_US, 15.0 * 0.3048]])[0]
+    assert float(da.sel(depth=15.0).isel(y=j, x=i)) * PSF_IN_KPA == pytest.approx(
+        expected, rel=1e-5)
+    settlement = run.plan_grid(quantity="settlement")
+    assert settlement.dims == ("y", "x") and settlement.attrs["units"] == "in"
+    np.testing.assert_allclose(settlement.values * 0.0254,
+                               np.flipud(run.plan_settlement["yard"].values), rtol=1e-5)
+
+
+def test_plan_grids_are_the_cube_and_wrong_names_are_refused(run):
+    ds = run.plan_grids()
+    assert ds.attrs["Conventions"] == "CF-1.8, ACDD-1.3"
+    assert {"dsz_yard", "settlement_yard", "sigma_v0_yard", "fill_thickness"} <= set(ds)
+    with pytest.raises(InputError, match="no plan grid 'reach'; the run has yard"):
+        run.plan_grid("reach")
+    with pytest.raises(InputError, match="no 'volume' on plan grid 'yard'"):
+        run.plan_grid(quantity="volume")

@@ -401,21 +401,25 @@ def _slice_spec(site, da) -> GridSpec:
 
 
 def _write_cube(res, folder, version="") -> None:
-    site = res.site
-    if not res.slices or not _output(site, "netcdf"):
+    if not res.slices or not _output(res.site, "netcdf"):
         return
+    netcdf.write_stress_cube(folder.path("stress_cube.nc"), **cube_arguments(res, version))
+
+
+def cube_arguments(res, version="") -> dict:
+    """The arguments of :func:`fillstress.io.netcdf.stress_dataset` (and of the writer of
+    ``stress_cube.nc``) for a run: every stage's slices, fill, σ'v0 and settlement."""
+    site = res.site
     made_by = f"fillstress {version}".strip()
     attrs = {"title": f"Vertical stress increase below the fill of {site.name}",
              "source": f"{made_by}, method {site.method}",
              "history": f"{made_by}: fillstress run {site.path.name}"}
     slices, stages = ((res.stage_slices, site.stages) if res.stage_slices
                       else (res.slices, site.stages[-1:]))
-    netcdf.write_stress_cube(folder.path("stress_cube.nc"), slices, grid=site.spec,
-                             stages=stages,
-                             fill_thickness=[site.fill_thickness(k) for k in stages],
-                             units=site.units, crs=site.crs, attrs=attrs,
-                             sigma_v0=_slice_sigma_v0(site, res.slices),
-                             settlement=res.plan_settlement)
+    return dict(slices=slices, grid=site.spec, stages=stages,
+                fill_thickness=[site.fill_thickness(k) for k in stages],
+                units=site.units, crs=site.crs, attrs=attrs,
+                sigma_v0=_slice_sigma_v0(site, res.slices), settlement=res.plan_settlement)
 
 
 def _slice_sigma_v0(site, slices) -> dict | None:

@@ -175,9 +175,11 @@ def stress_slices(grid, depths, method="boussinesq", poisson=None, *, offset=(0.
     -------
     xarray.DataArray
         Dims ("depth", "y", "x"); coordinates in m (cell centres + offset), attrs
-        ``units="kPa"``, ``long_name``, ``method``, ``poisson``.  Depths are
-        processed one at a time, so the peak memory is the output plus a few arrays
-        of the padded FFT size.
+        ``units="kPa"``, ``long_name``, ``method``, ``poisson``; with ``grid.crs`` a
+        ``spatial_ref`` grid mapping of that CRS (a site's load grid carries the metre
+        form of the site CRS; ``RunResults.plan_grid`` gives a run's slices in site
+        units). Depths are processed one at a time, so the peak memory is the output
+        plus a few arrays of the padded FFT size.
 
     Examples
     --------
