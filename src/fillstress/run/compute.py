@@ -310,16 +310,22 @@ def run_site_file(path, out=None, *, overwrite=False, report=True, progress=sile
         Results folder; default ``results-<site file stem>`` in the current folder. An
         existing folder is refused unless `overwrite`, and then replaced only once the new
         one is complete.
+    overwrite : bool
+        Replace an existing results folder (only a results folder, never an input).
     report : bool
         Also write ``report.html`` and ``scene.html``.
     progress : progress factory, optional
-    workers, scheduler : int or str, optional
-        Run on a local Dask cluster of `workers` processes or on the scheduler at
-        `scheduler`.
+        See :mod:`fillstress.progress`; silent by default.
+    workers : int, optional
+        Run on a local Dask cluster of this many worker processes.
+    scheduler : str, optional
+        Run on the Dask scheduler at this address.
 
     Returns
     -------
     RunSummary
+        ``results`` (the :class:`RunResults`, SI) and ``folder``, the results folder
+        written.
 
     Examples
     --------
@@ -379,6 +385,17 @@ class CheckReport:
 
 def check_site_file(path) -> CheckReport:
     """Validate a site file and describe the run without computing it.
+
+    Parameters
+    ----------
+    path : str or path-like
+        The site file (TOML).
+
+    Returns
+    -------
+    CheckReport
+        ``site`` and ``plan``, the rows (item, value) describing the run: bodies, loads,
+        grid, receptors, estimated time and memory.
 
     Examples
     --------

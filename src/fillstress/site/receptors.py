@@ -294,6 +294,22 @@ def borehole_points(receptor_id, x: float, y: float, top: float, bottom: float,
     The bottom is always included, so the last interval may be shorter than `step`.
     Role ``borehole``; ids ``-d1…`` from the top down.
 
+    Parameters
+    ----------
+    receptor_id : str
+        The borehole's id.
+    x, y : float
+        Plan position, m.
+    top, bottom : float
+        Depth range, m below ground, ``0 <= top <= bottom``.
+    step : float
+        Spacing of the points, m.
+
+    Returns
+    -------
+    pandas.DataFrame
+        One row per point with the columns of :data:`POINT_COLUMNS`.
+
     Examples
     --------
     >>> borehole_points("BH1", 10, 20, 1.0, 4.5, 1.0)["depth"].tolist()
@@ -438,6 +454,11 @@ def plan_grid(extent, spacing: float, depths, *, name: str = "plan") -> PlanGrid
         Slice depths, m below ground, >= 0, distinct; stored in increasing order.
     name : str
         Used in output file names (letters, digits, ``_`` and ``-``).
+
+    Returns
+    -------
+    PlanGrid
+        The nodes (``x``, ``y``, ``nx``, ``ny``) and depths of the grid.
 
     Examples
     --------

@@ -125,8 +125,10 @@ def slice_at_depth(pressure, dx, dy, depth, method="boussinesq", poisson=None, *
         Cell size (m).
     depth : float
         Depth (m, >= 0); 0 gives the surface limit (q inside, q/2 on an edge, ...).
-    method, poisson
-        As for :func:`fillstress.solve.vertical_stress`.
+    method : {"boussinesq", "westergaard"}
+        Stress distribution (as for :func:`fillstress.solve.vertical_stress`).
+    poisson : float, optional
+        Poisson's ratio for Westergaard (default 0); None for Boussinesq.
     offset : (float, float)
         Shift (m) of every sample from the cell centres.
     pad_cells : (int, int)
@@ -160,8 +162,10 @@ def stress_slices(grid, depths, method="boussinesq", poisson=None, *, offset=(0.
         Surface pressure per cell (kPa).
     depths : float or sequence of float
         Depths (m, >= 0).
-    method, poisson
-        As for :func:`fillstress.solve.vertical_stress`.
+    method : {"boussinesq", "westergaard"}
+        Stress distribution (as for :func:`fillstress.solve.vertical_stress`).
+    poisson : float, optional
+        Poisson's ratio for Westergaard (default 0); None for Boussinesq.
     offset : (float, float)
         Shift (m) of every sample point from the cell centres (sub-cell shifts are the
         usual use; any shift is exact).
