@@ -121,3 +121,38 @@ def test_plan_grids_are_the_cube_and_wrong_names_are_refused(run):
         run.plan_grid("reach")
     with pytest.raises(InputError, match="no 'volume' on plan grid 'yard'"):
         run.plan_grid(quantity="volume")
+
+
+@pytest.mark.parametrize("choice", ["wgs84", "site"])
+def test_outputs_geojson_crs_chooses_the_geojson_coordinates(tmp_path, choice):
+    import json
+
+    from fillstress import run_site_file
+    from fillstress.io.results import ResultsFolder
+    site = tmp_path / "site.toml"
+    site.write_text(SITE + f'\n[outputs]\ngeojson_crs = "{choice}"\nvtk = false\n'
+                    'netcdf = false\ngeotiff = false\n')
+    run_site_file(site, tmp_path / "out", report=False)
+    doc = json.loads((tmp_path / "out" / "boreholes.geojson").read_text())
+    manifest = json.loads((tmp_path / "out" / "manifest.json").read_text())
+    x, y = doc["features"][0]["geometry"]["coordinates"][:2]
+    if choice == "site":
+        assert doc["crs"]["properties"]["name"].endswith("EPSG::2249")
+        assert (x, y) == pytest.approx((710030.0, 2960030.0), abs=1e-6)
+        assert manifest["settings"]["geojson_crs"] == "site"
+    else:
+        assert "crs" not in doc
+        lon, lat = pyproj.Transformer.from_crs(2249, 4326, always_xy=True).transform(
+            710030.0, 2960030.0)
+        assert (x, y) == pytest.approx((lon, lat), abs=0.6e-7)     # 7 decimals
+        assert manifest["settings"]["geojson_crs"] == "EPSG:4326"
+    # either way the package's own reader gives site-CRS coordinates back
+    point = ResultsFolder(tmp_path / "out").features("boreholes")[0].geometry
+    assert (point.x, point.y) == pytest.approx((710030.0, 2960030.0), abs=0.03)
+
+
+def test_a_misspelt_geojson_crs_is_refused_naming_the_key(tmp_path):
+    site = tmp_path / "site.toml"
+    site.write_text(SITE + '\n[outputs]\ngeojson_crs = "utm"\n')
+    with pytest.raises(InputError, match=r"outputs.geojson_crs.*one of wgs84, site"):
+        load_site(site)
