@@ -9,9 +9,11 @@ import pytest
 
 from fillstress.cli import main
 from fillstress.examples import example_site, list_examples
+from fillstress.io.tables import geojson_decimals
 from fillstress.site.build import load_site
 from fillstress.solve import vertical_stress
 from test_io_netcdf import checker_problems
+from test_io_tables import rfc7946_problems
 
 SITES = ["stockpile_yard", "bridge_approach", "preload_surcharge"]
 
@@ -96,7 +98,11 @@ def test_outputs_exist_and_open(runs, name):
             [float(k) for k in load_site(example_site(name)).stages]
     for geo in folder.glob("*_points.geojson"):
         frame = gpd.read_file(geo)
-        assert len(frame) > 0 and frame.crs is not None
+        assert len(frame) > 0 and frame.crs.to_epsg() == 4326
+    assert manifest["settings"]["geojson_crs"] == "EPSG:4326"
+    cell = manifest["settings"]["cell_m"]
+    for geo in folder.glob("*.geojson"):                    # RFC 7946, rounded to the cell
+        assert rfc7946_problems(json.loads(geo.read_text()), geojson_decimals(cell)) == [], geo
     # no half-written temporary files or partial folders left behind
     assert not list(folder.parent.glob(".*partial*"))
     assert not [p for p in folder.rglob("*") if ".tmp" in p.name]
@@ -135,18 +141,23 @@ def test_geotiff_slice_matches_points_in_crs_units(runs):
 
 @pytest.mark.parametrize("name", SITES)
 def test_every_file_uses_the_same_site_crs_coordinates(runs, name):
-    """CSV, GeoJSON, NetCDF and GeoTIFF agree on plan coordinates (site-CRS units), and the
-    site file's own vertices come back unchanged."""
+    """CSV, NetCDF and GeoTIFF agree on plan coordinates (site-CRS units), the RFC 7946
+    GeoJSON comes back to them with pyproj within its rounding, and the site file's own
+    vertices come back unchanged."""
     import geopandas as gpd
     import rasterio
     import xarray as xr
     folder = runs[name]
-    u = load_site(example_site(name)).units.length
+    site = load_site(example_site(name))
+    u = site.units.length
+    # half a unit of the last decimal in lon and lat, 111.7 km a degree at most
+    tolerance = 0.5 * 10.0 ** -geojson_decimals(site.spec.dx) * 111_700 * np.sqrt(2) \
+        / site.metres_per_unit
     for csv in folder.glob("*_points.csv"):
         table = pd.read_csv(csv)
-        geo = gpd.read_file(csv.with_suffix(".geojson"))
-        np.testing.assert_allclose(geo.geometry.x, table[f"x_{u}"], rtol=0, atol=1e-6)
-        np.testing.assert_allclose(geo.geometry.y, table[f"y_{u}"], rtol=0, atol=1e-6)
+        geo = gpd.read_file(csv.with_suffix(".geojson")).to_crs(site.crs)
+        np.testing.assert_allclose(geo.geometry.x, table[f"x_{u}"], rtol=0, atol=tolerance)
+        np.testing.assert_allclose(geo.geometry.y, table[f"y_{u}"], rtol=0, atol=tolerance)
     with rasterio.open(folder / "fill_thickness.tif") as src, \
             xr.open_dataset(folder / "stress_cube.nc") as cube:
         x_first = src.xy(0, 0)[0]
@@ -154,8 +165,11 @@ def test_every_file_uses_the_same_site_crs_coordinates(runs, name):
     if name == "bridge_approach":          # sewer start vertex as typed in site.toml
         pipe = pd.read_csv(folder / "pipes_points.csv").iloc[0]
         assert (pipe["x_ft"], pipe["y_ft"]) == pytest.approx((3115473.5, 10071841.2), abs=1e-6)
-        house = gpd.read_file(folder / "buildings.geojson").geometry[0]
+        house = gpd.read_file(folder / "layers.gpkg", layer="buildings").geometry[0]
         assert house.exterior.coords[0] == pytest.approx((3115579.7, 10072298.8), abs=1e-6)
+        house = gpd.read_file(folder / "buildings.geojson").to_crs(site.crs).geometry[0]
+        assert np.linalg.norm(np.array(house.exterior.coords) - (3115579.7, 10072298.8),
+                              axis=1).min() < tolerance
 
 
 def _plan_grids(folder):

@@ -326,6 +326,49 @@ def test_read_layer_errors(tmp_path):
     assert err.value.argument == "kind"
 
 
+def test_read_layer_from_a_geodataframe_reprojects_to_the_site_crs():
+    """Pipes given in UTM 18N (metres) to a NAD83 / New York Long Island (ftUS) site:
+    reprojected with pyproj and held in internal metres, as the site file's layers are."""
+    import pyproj
+    pipes = gpd.GeoDataFrame({"tag": ["W-12"], "crown": [6.0]},
+                             geometry=[LineString([(583000, 4507000), (583120, 4507050)])],
+                             crs="EPSG:32618")
+    out = read_receptor_layer(pipes, "pipe", id_field="tag", required_fields=["crown"],
+                              target_crs="EPSG:2263")
+    to_ft = pyproj.Transformer.from_crs(32618, 2263, always_xy=True)
+    expected_ft = np.column_stack(to_ft.transform([583000, 583120], [4507000, 4507050]))
+    np.testing.assert_allclose(np.asarray(out.geometry.iloc[0].coords),
+                               expected_ft * 1200 / 3937, rtol=0, atol=1e-6)
+    assert out.crs.axis_info[0].unit_name == "metre"
+    assert out["receptor_id"].tolist() == ["W-12"] and out["crown"].tolist() == [6.0]
+    # the frame itself is not changed, and without target_crs its own CRS is kept
+    assert pipes.crs.to_epsg() == 32618
+    assert read_receptor_layer(pipes, "pipe", id_field="tag").crs.to_epsg() == 32618
+
+
+def test_read_layer_from_a_geoseries_takes_ids_from_its_index():
+    holes = gpd.GeoSeries([Point(500, 600), Point(520, 610)], index=["BH-1", "BH-2"])
+    out = read_receptor_layer(holes, "borehole", crs="EPSG:32633", target_crs="EPSG:32633")
+    assert out["receptor_id"].tolist() == ["BH-1", "BH-2"]
+    assert out.geometry.x.tolist() == [500.0, 520.0]
+
+
+def test_read_layer_from_memory_refuses_with_the_frame_named():
+    with pytest.raises(InputError, match="the building receptors GeoDataFrame: feature 0 "
+                                         "is a Point"):
+        read_receptor_layer(gpd.GeoDataFrame({"id": ["A"]}, geometry=[Point(0, 0)]),
+                            "building")
+    with pytest.raises(InputError, match="argument target_crs: EPSG:4326 is geographic"):
+        read_receptor_layer(gpd.GeoSeries([Point(0, 0)], index=["H1"]), "borehole",
+                            target_crs="EPSG:4326")
+    with pytest.raises(InputError, match="must be a vector file path, a GeoDataFrame or a "
+                                         "GeoSeries, got list"):
+        read_receptor_layer([Point(0, 0)], "borehole")
+    degrees_wrong = gpd.GeoSeries([Point(583000, 4507000)], index=["H1"], crs="EPSG:4326")
+    with pytest.raises(InputError, match="GeoSeries: coordinates reach .* cannot be degrees"):
+        read_receptor_layer(degrees_wrong, "borehole", target_crs="EPSG:32618")
+
+
 # --- summaries -------------------------------------------------------------------------
 def test_summarise_matches_a_plain_loop():
     rng = np.random.default_rng(7)

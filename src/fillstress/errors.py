@@ -7,7 +7,18 @@ from __future__ import annotations
 
 
 class FillstressError(Exception):
-    """Base of every error fillstress raises on purpose."""
+    """Base of every error fillstress raises on purpose.
+
+    Examples
+    --------
+    Catch it to handle every error of the package's own making at once:
+
+    >>> try:
+    ...     raise InputError("must be positive, got -1.0", argument="dx")
+    ... except FillstressError as exc:
+    ...     print(type(exc).__name__, exc)
+    InputError argument dx: must be positive, got -1.0
+    """
 
 
 class InputError(FillstressError, ValueError):

@@ -90,6 +90,24 @@ class LoadGrid(Summarised, _Lattice):
     def from_thickness(cls, thickness, unit_weight, x0, y0, dx, dy, crs=None) -> "LoadGrid":
         """Build a grid from fill thickness (m) and unit weight (kN/m³, scalar or per cell).
 
+        Parameters
+        ----------
+        thickness : array_like, shape (ny, nx)
+            Fill thickness of each cell (m); negative for a cut.
+        unit_weight : float or array_like, shape (ny, nx)
+            Unit weight of the fill (kN/m³, >= 0).
+        x0, y0 : float
+            Coordinates (m) of the south-west corner of cell ``[0, 0]``.
+        dx, dy : float
+            Cell size (m), positive.
+        crs : str or pyproj.CRS, optional
+            Coordinate reference system of x and y.
+
+        Returns
+        -------
+        LoadGrid
+            Pressure = thickness × unit weight (kPa).
+
         Examples
         --------
         >>> g = LoadGrid.from_thickness([[2.0, 0.0]], 20.0, 0, 0, 1, 1)
@@ -138,7 +156,18 @@ class LoadGrid(Summarised, _Lattice):
                  ("crs", crs_text(self.crs))])
 
     def with_pressure(self, pressure) -> "LoadGrid":
-        """A grid on the same lattice with new pressures."""
+        """A grid on the same lattice with new pressures.
+
+        Parameters
+        ----------
+        pressure : array_like, shape ``self.shape``
+            Surface pressure of each cell (kPa).
+
+        Returns
+        -------
+        LoadGrid
+            Same origin, cell size and CRS.
+        """
         return LoadGrid(pressure, self.x0, self.y0, self.dx, self.dy, self.crs)
 
     def __add__(self, other: "LoadGrid") -> "LoadGrid":
@@ -155,6 +184,17 @@ class GridSpec(_Lattice):
     """The analysis lattice shared by every fill body of a site: origin, cell size, shape, CRS.
 
     Cell ``[j, i]`` covers ``x0 + i*dx … x0 + (i+1)*dx`` and ``y0 + j*dy … y0 + (j+1)*dy``.
+
+    Parameters
+    ----------
+    x0, y0 : float
+        Coordinates (m) of the south-west corner of cell ``[0, 0]``.
+    dx, dy : float
+        Cell size (m), positive.
+    nx, ny : int
+        Number of columns (x) and rows (y), at least 1.
+    crs : str or pyproj.CRS, optional
+        Coordinate reference system of x and y.
 
     Examples
     --------
@@ -189,6 +229,26 @@ class GridSpec(_Lattice):
         5-digit value in CRS units is taken as that value (4 ft asked on a US-survey-foot
         CRS is 4 US ft, not 3.999992).
 
+        Parameters
+        ----------
+        bounds : sequence of 4 float
+            (xmin, ymin, xmax, ymax) in metres.
+        cell : float
+            Cell size (m), positive.
+        margin : float
+            Growth of the bounds on every side (m).
+        crs : str or pyproj.CRS, optional
+            Coordinate reference system of x and y.
+        unit : float
+            Metres per unit of the site CRS (1 for metres).
+
+        Returns
+        -------
+        GridSpec
+            The covering lattice.
+
+        Examples
+        --------
         >>> s = GridSpec.covering((0.0, 0.0, 10.0, 10.0), 1.2192, unit=0.3048006096012192)
         >>> round(s.dx / 0.3048006096012192, 12), round(s.x0, 9)
         (4.0, 0.0)
@@ -212,14 +272,42 @@ class GridSpec(_Lattice):
         return (int(self.ny), int(self.nx))
 
     def zeros(self) -> np.ndarray:
-        """A float array of zeros on this lattice (shape ``(ny, nx)``)."""
+        """A float array of zeros on this lattice.
+
+        Returns
+        -------
+        numpy.ndarray
+            Zeros of shape ``(ny, nx)``.
+        """
         return np.zeros(self.shape)
 
     def load_grid(self, pressure) -> LoadGrid:
-        """A LoadGrid of `pressure` (kPa, shape ``self.shape``) on this lattice."""
+        """A LoadGrid of `pressure` on this lattice.
+
+        Parameters
+        ----------
+        pressure : array_like, shape ``self.shape``
+            Surface pressure of each cell (kPa).
+
+        Returns
+        -------
+        LoadGrid
+            Same origin, cell size and CRS.
+        """
         return LoadGrid(pressure, self.x0, self.y0, self.dx, self.dy, self.crs)
 
     def refined(self, factor: int = 2) -> "GridSpec":
-        """The same extent with cells `factor` times smaller (convergence checks)."""
+        """The same extent with cells `factor` times smaller (convergence checks).
+
+        Parameters
+        ----------
+        factor : int
+            How many cells across each cell becomes.
+
+        Returns
+        -------
+        GridSpec
+            `factor` times as many cells in x and in y.
+        """
         return GridSpec(self.x0, self.y0, self.dx / factor, self.dy / factor,
                         self.nx * factor, self.ny * factor, self.crs)

@@ -71,6 +71,7 @@ def sublayers(profile: SoilProfile, top_depth: float = 0.0,
     Parameters
     ----------
     profile : SoilProfile
+        The soil layers, water table and rigid base.
     top_depth : float
         Depth (m) below which soil counts, e.g. a foundation level. Default 0.
     max_thickness : float, optional
@@ -78,7 +79,10 @@ def sublayers(profile: SoilProfile, top_depth: float = 0.0,
 
     Returns
     -------
-    z_mid, thickness : ndarray, shape (K,)
+    z_mid : numpy.ndarray, shape (K,)
+        Sublayer mid-depths, m, top down.
+    thickness : numpy.ndarray, shape (K,)
+        Sublayer thicknesses, m.
 
     Examples
     --------
@@ -216,6 +220,7 @@ def stress_path(profile: SoilProfile, z_mid, h, dsz_states) -> StressPath:
     Parameters
     ----------
     profile : SoilProfile
+        The soil layers, water table and rigid base.
     z_mid, h : array_like, shape (K,)
         Sublayer mid-depths and thicknesses (m).
     dsz_states : array_like, shape (N, S, K) or (S, K)
@@ -344,6 +349,7 @@ def consolidation_settlement(profile: SoilProfile, z_mid, h, dsz) -> np.ndarray:
     Parameters
     ----------
     profile : SoilProfile
+        The soil layers, water table and rigid base.
     z_mid, h : array_like, shape (K,)
         Sublayer mid-depths and thicknesses (m), e.g. from `sublayers`.
     dsz : array_like, shape (N, K)
@@ -374,6 +380,20 @@ def settlement_by_layer(profile: SoilProfile, z_mid, h, dsz) -> np.ndarray:
 
     Columns follow ``profile.layers``; layers without sublayers have zeros. Rows sum to
     `consolidation_settlement`.
+
+    Parameters
+    ----------
+    profile : SoilProfile
+        The soil layers, water table and rigid base.
+    z_mid, h : array_like, shape (K,)
+        Sublayer mid-depths and thicknesses (m), e.g. from `sublayers`.
+    dsz : array_like, shape (N, K)
+        Δσz (kPa) at each point and sublayer mid-depth.
+
+    Returns
+    -------
+    numpy.ndarray, shape (N, len(profile.layers))
+        Settlement of each layer at each point, m, positive downward.
 
     Examples
     --------
@@ -417,6 +437,7 @@ def converged_settlement(profile: SoilProfile, dsz_at: Callable[[np.ndarray], np
     Parameters
     ----------
     profile : SoilProfile
+        The soil layers, water table and rigid base.
     dsz_at : callable
         ``dsz_at(z_mid)`` returns Δσz (kPa), shape (N, K), at the sublayer mid-depths.
     top_depth, max_thickness : float
@@ -425,6 +446,12 @@ def converged_settlement(profile: SoilProfile, dsz_at: Callable[[np.ndarray], np
         Relative change (max over points of |Δs| / max |s|) accepted, default 1 %.
     max_halvings : int
         Give up (``converged=False``) after this many halvings.
+
+    Returns
+    -------
+    ConvergedSettlement
+        The settlement (m) at the points with the final sublayers, the last relative
+        change and whether it met `tolerance`.
 
     Examples
     --------
@@ -486,7 +513,8 @@ def degree_of_consolidation(tv):
 
     Returns
     -------
-    float or ndarray
+    float or numpy.ndarray
+        U, the shape of `tv` (a float for a scalar).
 
     Examples
     --------
@@ -514,6 +542,11 @@ def time_factor(u):
     ----------
     u : float or array_like
         Average degree of consolidation, 0 <= u < 1.
+
+    Returns
+    -------
+    float or numpy.ndarray
+        Tv, the shape of `u` (a float for a scalar).
 
     Examples
     --------
@@ -548,6 +581,11 @@ def time_to_degree(u, cv, drainage_path_m):
         Coefficient of consolidation, m²/year.
     drainage_path_m : float
         Longest drainage path H_dr, m (see `drainage_path`).
+
+    Returns
+    -------
+    float or numpy.ndarray
+        Time in years, the shape of `u`.
 
     Examples
     --------
@@ -722,7 +760,8 @@ def settlement_time_curve(stage_settlements, stage_times, times, cv, drainage_pa
 
     Returns
     -------
-    ndarray, shape (..., T)
+    numpy.ndarray, shape (..., T)
+        Settlement (m) at each of `times`, summed over stages and layers.
 
     Examples
     --------
@@ -875,7 +914,8 @@ def influence_depth(z, dsz, sigma_v0_eff, fraction: float = 0.1):
 
     Returns
     -------
-    float (for 1-D `dsz`) or ndarray (N,)
+    float or numpy.ndarray, shape (N,)
+        Influence depth, m (a float for 1-D `dsz`); NaN where not reached.
 
     Examples
     --------

@@ -87,6 +87,10 @@ class SoilLayer:
         True for a layer that does not settle.
     cv_m2_per_yr : float, optional
         Coefficient of consolidation (m²/year) for the time rate.
+    drainage : str
+        ``"double"`` (drains at top and bottom) or ``"single"`` (one face drains;
+        ``"single-top"``/``"single-bottom"`` say which, and give the same average degree of
+        consolidation for a uniform initial excess pore pressure).
     unloading_modulus_kpa : float, optional
         Constrained modulus (kPa) for unloading and reloading below the largest past
         effective stress, ``"mv"`` and ``"modulus"`` layers; default the loading value.
@@ -103,10 +107,6 @@ class SoilLayer:
     end_of_primary_yr : float, optional
         Time (years after loading) of the end of primary consolidation for secondary
         compression; default the time at which the layer reaches U = 95 %.
-    drainage : str
-        ``"double"`` (drains at top and bottom) or ``"single"`` (one face drains;
-        ``"single-top"``/``"single-bottom"`` say which, and give the same average degree of
-        consolidation for a uniform initial excess pore pressure).
 
     Examples
     --------
@@ -238,18 +238,22 @@ class SoilLayer:
 
     @property
     def thickness_m(self) -> float:
+        """Thickness of the layer, m."""
         return self.bottom_m - self.top_m
 
     @property
     def mid_depth_m(self) -> float:
+        """Depth of the middle of the layer, m."""
         return 0.5 * (self.top_m + self.bottom_m)
 
     @property
     def compressible(self) -> bool:
+        """Whether the layer settles (any kind but incompressible)."""
         return self._kind != "incompressible"
 
     @property
     def double_drained(self) -> bool:
+        """Whether both faces of the layer drain."""
         return self.drainage == "double"
 
     @property
@@ -259,6 +263,7 @@ class SoilLayer:
 
     @property
     def has_secondary(self) -> bool:
+        """Whether a secondary compression coefficient is given."""
         return self.c_alpha is not None or self.c_alpha_eps is not None
 
 
@@ -370,10 +375,21 @@ class SoilProfile:
 
     @property
     def names(self) -> list[str]:
+        """The layer names, top down."""
         return [layer.name for layer in self.layers]
 
     def layer_index(self, z) -> np.ndarray:
         """Index of the layer holding each depth (a boundary depth belongs to the lower layer).
+
+        Parameters
+        ----------
+        z : float or array_like
+            Depths below the ground surface, m (>= 0).
+
+        Returns
+        -------
+        numpy.ndarray
+            Layer index (0 = top layer), the shape of `z`.
 
         Examples
         --------
@@ -411,6 +427,16 @@ class SoilProfile:
     def sigma_v0(self, z) -> np.ndarray:
         """Total vertical stress (kPa) at depths `z` (m) before any fill.
 
+        Parameters
+        ----------
+        z : float or array_like
+            Depths below the ground surface, m (>= 0).
+
+        Returns
+        -------
+        numpy.ndarray
+            σv0, kPa, the shape of `z`.
+
         Examples
         --------
         >>> p = SoilProfile([SoilLayer("silt", 0, 6, 17.0, 19.0, modulus_kpa=8000)], water_table_m=2.0)
@@ -421,6 +447,16 @@ class SoilProfile:
 
     def u0(self, z) -> np.ndarray:
         """Hydrostatic pore pressure (kPa) at depths `z` (m): γw · max(z − z_w, 0).
+
+        Parameters
+        ----------
+        z : float or array_like
+            Depths below the ground surface, m (>= 0).
+
+        Returns
+        -------
+        numpy.ndarray
+            u0, kPa, the shape of `z`.
 
         Examples
         --------
@@ -433,6 +469,16 @@ class SoilProfile:
 
     def sigma_v0_eff(self, z) -> np.ndarray:
         """Effective vertical stress σ'v0 = σv0 − u0 (kPa) at depths `z` (m).
+
+        Parameters
+        ----------
+        z : float or array_like
+            Depths below the ground surface, m (>= 0).
+
+        Returns
+        -------
+        numpy.ndarray
+            σ'v0, kPa, the shape of `z`.
 
         Examples
         --------

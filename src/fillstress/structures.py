@@ -334,6 +334,7 @@ def building_settlement(receptor_id, xy, settlement, point_ids=None, pairs=None,
     Parameters
     ----------
     receptor_id : str
+        The building's id, carried into the result and its table rows.
     xy : array_like, shape (N, 2)
         Plan positions (m) of the building's sample points.
     settlement : array_like, shape (N,)
@@ -349,6 +350,13 @@ def building_settlement(receptor_id, xy, settlement, point_ids=None, pairs=None,
     outline : array_like, shape (V, 2), optional
         Footprint exterior ring: β and Δ/L are then taken along each wall line (the points
         on each edge, `wall_lines`), as Burland & Wroth (1974) define them.
+
+    Returns
+    -------
+    BuildingSettlement
+        Largest and smallest settlement, differential settlement, tilt, angular
+        distortion β with the pair that gives it, deflection ratio and the limits each
+        exceeds.
 
     Examples
     --------
@@ -503,6 +511,7 @@ def pipe_settlement(receptor_id, chainage, settlement, dsz_crown, length_m) -> P
     Parameters
     ----------
     receptor_id : str
+        The pipe's id, carried into the result and its table rows.
     chainage : array_like, shape (N,)
         Distance (m) along the pipe of each sample point; distinct values, any order.
     settlement : array_like, shape (N,)
@@ -512,6 +521,12 @@ def pipe_settlement(receptor_id, chainage, settlement, dsz_crown, length_m) -> P
     length_m : float
         Length over which differential settlement is judged (e.g. a pipe section or
         joint spacing).
+
+    Returns
+    -------
+    PipeSettlement
+        The settlement profile sorted by chainage, the largest differential over
+        `length_m`, the largest curvature and the largest crown Δσz.
 
     Examples
     --------

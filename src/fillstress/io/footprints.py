@@ -4,13 +4,12 @@ internal site metres."""
 from __future__ import annotations
 
 import numpy as np
-import pyproj
 import shapely
 
 from .. import crs as crsmod
 from .._validate import positive
 from ..errors import InputError
-from .vectors import read_vector, source_name
+from .vectors import layer_and_site_crs, read_vector, source_name
 
 DEFAULT_HEIGHT_FIELDS = ("height_m", "height")
 
@@ -57,13 +56,7 @@ def read_footprints(path, height_field: str | None = None, crs=None, target_crs=
     factor = positive(height_to_m, "height_to_m")
     gdf = read_vector(path, "Polygon", what="footprints")
     path = source_name(path, "footprints")
-    source = _layer_crs(gdf, crs, target_crs, path)
-    if target_crs is None:
-        site = _own_crs_as_site(gdf, source, path)
-    elif isinstance(target_crs, tuple):
-        site = target_crs
-    else:
-        site = crsmod.site_crs(target_crs, argument="target_crs")
+    source, site = layer_and_site_crs(gdf, crs, target_crs, path)
     field = _height_field(gdf, height_field, path)
     geoms = np.asarray(gdf.geometry.values, dtype=object)
     if field is None:
@@ -76,36 +69,6 @@ def read_footprints(path, height_field: str | None = None, crs=None, target_crs=
     out["sloping_top"] = field is None
     out = out.set_geometry(crsmod.to_site(geoms, source, site, file=path), crs=None)
     return out.set_crs(crsmod.metric_twin(site[0]), allow_override=True)
-
-
-def _layer_crs(gdf, crs, target_crs, path):
-    if gdf.crs is not None:
-        return gdf.crs
-    if crs is not None:
-        return crsmod.as_crs(crs, "crs")
-    if target_crs is not None:
-        return target_crs[0] if isinstance(target_crs, tuple) else crsmod.as_crs(target_crs,
-                                                                                 "target_crs")
-    raise InputError("the layer has no CRS and none was given (pass crs= or a site CRS)",
-                     file=path)
-
-
-def _own_crs_as_site(gdf, source, path):
-    """With no site CRS the layer's own CRS is used; it must be projected."""
-
-    source = crsmod.as_crs(source, "crs")
-    if source.is_geographic:
-        crsmod.check_degrees(gdf.geometry.values, source, file=path)  # before the hint uses them
-        xmin, ymin, xmax, ymax = gdf.total_bounds
-        to_lonlat = pyproj.Transformer.from_crs(source, "EPSG:4326", always_xy=True)
-        lonlat = to_lonlat.transform((xmin + xmax) / 2, (ymin + ymax) / 2)
-        raise InputError(f"the layer is in geographic {source.to_string()} (degrees) and no "
-                         f"site CRS was given; use a projected one, e.g. "
-                         f"{crsmod.suggest_projected(*lonlat)}", file=path)
-    try:
-        return crsmod.site_crs(source)
-    except InputError as exc:
-        raise InputError(exc.reason, file=path) from None
 
 
 def _height_field(gdf, height_field, path):

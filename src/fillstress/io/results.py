@@ -20,6 +20,7 @@ import shapely.geometry
 import xarray as xr
 
 from .._validate import regular_file
+from ..crs import from_site, site_crs, to_site
 from ..errors import InputError
 from .tables import plan_unit, restored
 from ..units import SYSTEMS, UnitSystem
@@ -267,18 +268,40 @@ class ResultsFolder:
 
     # --- vectors ---------------------------------------------------------------
     def features(self, name: str) -> list[Feature]:
-        """Features of ``<name>.geojson`` (empty list when the file is absent)."""
+        """Features of ``<name>.geojson`` in plan coordinates of the site CRS (empty list
+        when the file is absent).
+
+        An RFC 7946 file (``manifest.json`` → ``settings.geojson_crs`` is ``EPSG:4326``)
+        is reprojected from WGS 84 to the site CRS; a file kept in the site CRS, or one of
+        a folder that does not say (written before RFC 7946 output), is read as it is.
+        """
         path = self.path / f"{name}.geojson"
         data = _read_json(self.path, path, required=False)
-        feats = []
+        geoms, props = [], []
         for k, feat in enumerate(data.get("features", [])):
             try:
-                geom = shapely.geometry.shape(feat["geometry"])
+                geoms.append(shapely.geometry.shape(feat["geometry"]))
             except (KeyError, TypeError, ValueError, AttributeError) as exc:
                 raise InputError(f"feature {k} has no valid geometry ({exc})", file=path) from None
-            props = feat.get("properties") or {}
-            feats.append(Feature(str(props.get("receptor_id", f"{name}-{k}")), geom, props))
-        return feats
+            props.append(feat.get("properties") or {})
+        geoms = self._geojson_to_plan(np.array(geoms, dtype=object), path)
+        return [Feature(str(p.get("receptor_id", f"{name}-{k}")), g, p)
+                for k, (g, p) in enumerate(zip(geoms, props))]
+
+    def _geojson_to_plan(self, geoms: np.ndarray, path: Path) -> np.ndarray:
+        settings = self.manifest.get("settings") or {}
+        stated = settings.get("geojson_crs", "site") if isinstance(settings, dict) else "site"
+        if stated == "site" or not len(geoms):
+            return geoms
+        site = self.manifest.get("crs")
+        if not site:
+            raise InputError(f"holds {stated} coordinates but manifest.json names no site CRS "
+                             "to bring them back to", file=path)
+        try:
+            parsed = site_crs(site, argument="crs")
+            return from_site(to_site(geoms, stated, parsed, file=path), parsed)
+        except InputError as exc:
+            raise InputError(exc.reason, file=path) from None
 
     # --- rasters and the stress cube ---------------------------------------------
     def raster(self, relpath: str, quantity: str, units: str) -> PlanField | None:

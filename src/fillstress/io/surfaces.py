@@ -17,6 +17,25 @@ def read_surface(path, site_crs=None, *, z_to_m: float = 1.0, surface_name=None,
     `z_to_m` only when the file declares no units), anything else → survey points
     (:func:`fillstress.io.survey.read_survey_points`).
 
+    Parameters
+    ----------
+    path : str or path-like
+        The surface file.
+    site_crs : (pyproj.CRS, float) or CRS-like, optional
+        The site CRS; a surface in another CRS is reprojected. None: the file's own CRS
+        becomes the site CRS.
+    z_to_m : float
+        Metres per elevation unit (0.3048 for feet).
+    surface_name : str, optional
+        Which ``Surface`` of a LandXML file (its ``name``); default the first.
+    crs : CRS-like, optional
+        CRS to assume when the file states none.
+
+    Returns
+    -------
+    RasterSurface or TinSurface
+        Elevations (m) in internal site metres: ``sample(x, y)``, ``bounds``.
+
     Examples
     --------
     >>> import tempfile, os

@@ -3,8 +3,9 @@
 Values arrive in SI (m, kPa, kN/m³, settlement in m) and leave in the site's
 :class:`~fillstress.units.UnitSystem`; each quantity column is renamed ``<name>_<unit>``
 (``depth_m``, ``dsz_psf``, ``unit_weight_kN/m3``). Plan coordinates (``x``, ``y`` and
-GeoJSON geometry) are internal metres scaled to the site CRS's own axis unit, so they are
-the CRS's coordinates; see :func:`plan_unit` for their suffix.
+GeoPackage geometry) are internal metres scaled to the site CRS's own axis unit, so they
+are the CRS's coordinates; see :func:`plan_unit` for their suffix. GeoJSON follows
+RFC 7946 (WGS 84 longitude and latitude) unless asked to keep the site CRS.
 """
 from __future__ import annotations
 
@@ -265,29 +266,103 @@ def _pyproj_crs(crs):
     return as_crs(crs, "crs")
 
 
-def write_geojson(path, frame, units: UnitSystem, *, crs=None,
-                  quantities: Mapping[str, str | None] | None = None) -> os.PathLike:
-    """Write a GeoDataFrame in internal metres to GeoJSON in the site CRS (atomic).
+#: Ground length of one degree along a meridian at the poles, the longest degree of
+#: WGS 84 (111.69 km; NGA, "Length of a degree" tables, recalled from memory): the bound
+#: used to turn a coordinate resolution in metres into decimals of degrees.
+METRES_PER_DEGREE_MAX = 111_700.0
+#: GeoJSON coordinates in degrees keep at least this many decimals (about 1 cm).
+GEOJSON_DECIMALS_MIN = 7
 
-    Geometry is scaled from metres to the CRS's axis unit; attributes go to output units.
-    `crs` (the site CRS) overrides the frame's own CRS.
+
+def geojson_decimals(cell_m: float | None = None) -> int:
+    """Decimals of degrees that GeoJSON coordinates keep for a survey on `cell_m` cells.
+
+    Rounding to d decimals moves a point by at most half a unit of the last decimal,
+    ``0.5 * 10**-d`` degrees; the decimals are the fewest that keep that within a
+    hundredth of the cell and within 1 cm (a site survey's precision, common practice),
+    never fewer than :data:`GEOJSON_DECIMALS_MIN`.
+
+    Parameters
+    ----------
+    cell_m : float, optional
+        The analysis cell in metres; None gives the 1 cm rule alone.
+
+    Returns
+    -------
+    int
+        Decimals of degrees (7 for cells of 1 m and more, 8 down to 0.06 m).
 
     Examples
     --------
-    >>> import tempfile, os, geopandas as gpd
+    >>> geojson_decimals(), geojson_decimals(1.524), geojson_decimals(0.25)
+    (7, 7, 8)
+    """
+    resolution = 0.01 if cell_m is None else min(0.01, cell_m / 100.0)
+    if not resolution > 0:
+        raise InputError(f"cell must be positive, got {cell_m!r}", argument="cell_m")
+    needed = int(np.ceil(np.log10(0.5 * METRES_PER_DEGREE_MAX / resolution)))
+    return max(GEOJSON_DECIMALS_MIN, needed)
+
+
+def write_geojson(path, frame, units: UnitSystem, *, crs=None,
+                  quantities: Mapping[str, str | None] | None = None,
+                  site_coordinates: bool = False,
+                  decimals: int = GEOJSON_DECIMALS_MIN) -> os.PathLike:
+    """Write a GeoDataFrame in internal metres to GeoJSON (atomic).
+
+    With a CRS (`crs`, the site CRS, or else the frame's own), the file follows RFC 7946:
+    longitude and latitude of WGS 84 (reprojected with pyproj), no ``crs`` member,
+    polygon rings by the right-hand rule (exterior counterclockwise), a ``bbox``, and
+    coordinates rounded to `decimals` of a degree (:func:`geojson_decimals`). With
+    `site_coordinates`, or without any CRS, the geometry stays in plan coordinates of the
+    site (the CRS's axis unit, or the unit system's length for a local site), and GDAL
+    names the CRS in a ``crs`` member where it has an authority code. Attributes go to
+    output units either way.
+
+    Parameters
+    ----------
+    path : str or path-like
+        Output ``.geojson``; the layer is named after its stem.
+    frame : geopandas.GeoDataFrame
+        Features in internal metres.
+    units : UnitSystem
+        Output unit system of the attributes.
+    crs : optional
+        The site CRS; overrides the frame's own.
+    quantities : mapping, optional
+        Quantities of the numeric columns beyond :data:`DEFAULT_QUANTITIES`.
+    site_coordinates : bool
+        Keep the site CRS instead of WGS 84 (not RFC 7946).
+    decimals : int
+        Decimals of degrees kept in the RFC 7946 file.
+
+    Returns
+    -------
+    path-like
+        `path`.
+
+    Examples
+    --------
+    >>> import tempfile, os, json, geopandas as gpd
     >>> from shapely.geometry import box
     >>> from fillstress.units import SI
     >>> f = os.path.join(tempfile.mkdtemp(), "buildings.geojson")
     >>> g = gpd.GeoDataFrame({"receptor_id": ["B1"], "foundation_depth": [1.2]},
-    ...                      geometry=[box(0, 0, 8, 5)], crs="EPSG:32633")
+    ...                      geometry=[box(500000, 0, 500008, 5)], crs="EPSG:32633")
     >>> _ = write_geojson(f, g, SI)
+    >>> doc = json.load(open(f))
+    >>> "crs" in doc, doc["features"][0]["geometry"]["coordinates"][0][0]
+    (False, [15.0000718, 0.0])
     >>> list(gpd.read_file(f).columns)
     ['receptor_id', 'foundation_depth_m', 'geometry']
     """
     out = output_frame(frame, units, crs=crs, quantities=quantities)
     # the layer is named after the final file, not the temporary one (same bytes every run)
-    layer = Path(os.fspath(path)).name.removesuffix(".geojson")
-    return write_atomic(path, lambda tmp: out.to_file(tmp, driver="GeoJSON", layer=layer))
+    options = {"layer": Path(os.fspath(path)).name.removesuffix(".geojson")}
+    if out.crs is not None and not site_coordinates:
+        out = out.to_crs("EPSG:4326")
+        options.update(RFC7946="YES", COORDINATE_PRECISION=int(decimals), WRITE_BBOX="YES")
+    return write_atomic(path, lambda tmp: out.to_file(tmp, driver="GeoJSON", **options))
 
 
 def output_frame(frame, units: UnitSystem, *, crs=None,
@@ -300,7 +375,7 @@ def output_frame(frame, units: UnitSystem, *, crs=None,
     if not isinstance(frame, gpd.GeoDataFrame):
         raise InputError(f"must be a GeoDataFrame, got {type(frame).__name__}", argument="frame")
     site = _pyproj_crs(crs) if crs is not None else frame.crs
-    factor = plan_unit(site, units)[1] if site is not None else 1.0
+    factor = plan_unit(site, units)[1]
     geometry = shapely.transform(frame.geometry.to_numpy(), lambda xy: xy / factor)
     attrs = pd.DataFrame(frame.drop(columns=frame.geometry.name))
     empty = [c for c in attrs.columns if attrs[c].dtype == object and
@@ -358,10 +433,12 @@ def write_geopackage(path, layers: Mapping, units: UnitSystem, *, crs=None,
 
 
 def write_points_geojson(path, points: pd.DataFrame, units: UnitSystem, *, crs=None,
-                         quantities: Mapping[str, str | None] | None = None) -> os.PathLike:
+                         quantities: Mapping[str, str | None] | None = None,
+                         **options) -> os.PathLike:
     """Write a point table (``x``, ``y`` in internal metres) as GeoJSON points.
 
-    The properties are the same unit-suffixed columns as the CSV.
+    The properties are the same unit-suffixed columns as the CSV; `options`
+    (``site_coordinates``, ``decimals``) are those of :func:`write_geojson`.
 
     Examples
     --------
@@ -370,7 +447,7 @@ def write_points_geojson(path, points: pd.DataFrame, units: UnitSystem, *, crs=N
     >>> from fillstress.units import SI
     >>> f = os.path.join(tempfile.mkdtemp(), "borehole_points.geojson")
     >>> _ = write_points_geojson(f, borehole_points("BH1", 500, 600, 0, 1, 1), SI,
-    ...                          crs="EPSG:32633")
+    ...                          crs="EPSG:32633", site_coordinates=True)
     >>> gpd.read_file(f).geometry.x.tolist()
     [500.0, 500.0]
     """
@@ -381,4 +458,4 @@ def write_points_geojson(path, points: pd.DataFrame, units: UnitSystem, *, crs=N
             raise InputError(f"point table has no {col!r} column", argument="points")
     geometry = gpd.points_from_xy(points["x"].to_numpy(float), points["y"].to_numpy(float))
     frame = gpd.GeoDataFrame(points.reset_index(drop=True), geometry=geometry)
-    return write_geojson(path, frame, units, crs=crs, quantities=quantities)
+    return write_geojson(path, frame, units, crs=crs, quantities=quantities, **options)

@@ -16,6 +16,7 @@ import os
 from pathlib import Path
 
 import numpy as np
+import pyproj
 import shapely
 
 from .. import crs as crsmod
@@ -138,3 +139,77 @@ def to_site(frame, site_crs, path) -> np.ndarray:
     # crs.to_site also refuses "degrees" that cannot be (GeoJSON without a crs member)
     return crsmod.to_site(np.asarray(frame.geometry.values, dtype=object), frame.crs, site_crs,
                           argument="crs", file=path)
+
+
+def layer_and_site_crs(frame, crs, target_crs, path):
+    """The CRS a layer read by a public reader is in, and the site CRS it goes to.
+
+    The layer's own CRS wins; `crs` is assumed when it states none; a layer without
+    either is taken to be in `target_crs`. With no `target_crs` the layer's own (projected)
+    CRS becomes the site CRS. A layer in another CRS than `target_crs` is reprojected by
+    the caller (:func:`fillstress.crs.to_site`).
+
+    Parameters
+    ----------
+    frame : geopandas.GeoDataFrame
+        The layer as read.
+    crs : CRS-like or None
+        The CRS to assume when the layer states none.
+    target_crs : CRS-like, (pyproj.CRS, float) or None
+        The site CRS.
+    path : str
+        The layer's name in messages.
+
+    Returns
+    -------
+    (pyproj.CRS, (pyproj.CRS, float))
+        The layer's CRS, and the site CRS with its metres per unit.
+
+    Examples
+    --------
+    >>> import geopandas, shapely
+    >>> pads = geopandas.GeoDataFrame(geometry=[shapely.box(0, 0, 1, 1)])
+    >>> layer, (site, factor) = layer_and_site_crs(pads, None, "EPSG:2263", "pads")
+    >>> layer.to_epsg(), site.to_epsg(), round(factor, 6)
+    (2263, 2263, 0.304801)
+    >>> layer_and_site_crs(pads, None, None, "the pads GeoDataFrame")
+    Traceback (most recent call last):
+    ...
+    fillstress.errors.InputError: the pads GeoDataFrame: the layer has no CRS and none was given (pass crs= or a site CRS)
+    """
+    source = _layer_crs(frame, crs, target_crs, path)
+    if target_crs is None:
+        return source, _own_crs_as_site(frame, source, path)
+    if isinstance(target_crs, tuple):
+        return source, target_crs
+    return source, crsmod.site_crs(target_crs, argument="target_crs")
+
+
+def _layer_crs(gdf, crs, target_crs, path):
+    if gdf.crs is not None:
+        return gdf.crs
+    if crs is not None:
+        return crsmod.as_crs(crs, "crs")
+    if target_crs is not None:
+        return target_crs[0] if isinstance(target_crs, tuple) else crsmod.as_crs(target_crs,
+                                                                                 "target_crs")
+    raise InputError("the layer has no CRS and none was given (pass crs= or a site CRS)",
+                     file=path)
+
+
+def _own_crs_as_site(gdf, source, path):
+    """With no site CRS the layer's own CRS is used; it must be projected."""
+
+    source = crsmod.as_crs(source, "crs")
+    if source.is_geographic:
+        crsmod.check_degrees(gdf.geometry.values, source, file=path)  # before the hint uses them
+        xmin, ymin, xmax, ymax = gdf.total_bounds
+        to_lonlat = pyproj.Transformer.from_crs(source, "EPSG:4326", always_xy=True)
+        lonlat = to_lonlat.transform((xmin + xmax) / 2, (ymin + ymax) / 2)
+        raise InputError(f"the layer is in geographic {source.to_string()} (degrees) and no "
+                         f"site CRS was given; use a projected one, e.g. "
+                         f"{crsmod.suggest_projected(*lonlat)}", file=path)
+    try:
+        return crsmod.site_crs(source)
+    except InputError as exc:
+        raise InputError(exc.reason, file=path) from None

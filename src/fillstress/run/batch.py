@@ -127,11 +127,16 @@ def run_batch(site_path, variants_path, out, *, overwrite=False, report=False,
     out : path-like, optional
         Folder of the batch; default ``results-<site>-batch``. Refused if it exists
         unless `overwrite`.
+    overwrite : bool
+        Replace an existing batch folder.
     report : bool
         Write each variant's report and scene too (off by default: batches are big).
-    progress, workers, scheduler
-        As for :func:`fillstress.run.compute.run_site_file`; with Dask, whole variants run on
-        the workers.
+    progress : progress factory, optional
+        As for :func:`fillstress.run.compute.run_site_file`.
+    workers : int, optional
+        Local Dask worker processes; whole variants run on the workers.
+    scheduler : str, optional
+        Address of a running Dask scheduler, instead of `workers`.
 
     Returns
     -------

@@ -79,6 +79,80 @@ class RunResults(Summarised):
                  ("warnings", str(len(self.warnings)))]
         return f"RunResults of {self.site.name}", rows
 
+    def plan_grids(self) -> xr.Dataset:
+        """Every plan grid in the site's units and CRS, as ``stress_cube.nc`` holds them.
+
+        ``slices`` and ``plan_settlement`` stay in internal SI (metres on the metre twin
+        of the site CRS); this is what a user of xarray and GIS wants: x and y in the site
+        CRS's unit, depths in the site's length unit, Δσz, σ'v0 and settlement in its
+        units, CF-1.8 attributes, the site CRS on the ``spatial_ref`` grid mapping
+        (rioxarray's ``.rio.crs``) and longitude/latitude auxiliary coordinates
+        (docs/results-folder.md, ``stress_cube.nc``).
+
+        Returns
+        -------
+        xarray.Dataset
+            Variables ``dsz_<grid>`` (stage, depth, y, x), ``fill_thickness`` and, where
+            computed, ``sigma_v0_<grid>`` and ``settlement_<grid>``; y north-down.
+
+        Raises
+        ------
+        InputError
+            When the site has no ``[[plan_grids]]``.
+        """
+        from ..io.netcdf import stress_dataset
+        from .files import cube_arguments
+        if not self.slices:
+            raise InputError("the site has no [[plan_grids]], so the run has no plan grid",
+                             argument="plan_grids")
+        return stress_dataset(**cube_arguments(self, __version__))
+
+    def plan_grid(self, name: str | None = None, quantity: str = "dsz") -> xr.DataArray:
+        """One plan grid of the last stage in site units, with plain ``x``/``y``/``depth``.
+
+        Parameters
+        ----------
+        name : str, optional
+            The plan grid's name in the site file; may be left out when there is one.
+        quantity : {"dsz", "settlement", "sigma_v0"}
+            Δσz (depth, y, x), the final surface settlement (y, x) or σ'v0 (depth).
+
+        Returns
+        -------
+        xarray.DataArray
+            A variable of :meth:`plan_grids` with its dimensions renamed, the ``stage``
+            of the last stage kept as a scalar coordinate, CF attributes, and the site
+            CRS (``da.rio.crs``, ``da.rio.to_raster`` with rioxarray).
+
+        Examples
+        --------
+        >>> from fillstress.examples import example_site
+        >>> res = compute(load_site(example_site("preload_surcharge")))
+        >>> da = res.plan_grid()
+        >>> da.dims, da.attrs["units"], da["x"].attrs["standard_name"]
+        (('depth', 'y', 'x'), 'kPa', 'projection_x_coordinate')
+        """
+        names = list(self.slices)
+        if name is None and len(names) == 1:
+            name = names[0]
+        if name not in self.slices:
+            raise InputError(f"no plan grid {name!r}; the run has {', '.join(names) or 'none'}",
+                             argument="name")
+        ds = self.plan_grids()
+        if f"{quantity}_{name}" not in ds:
+            have = [v[: -len(name) - 1] for v in ds.data_vars if v.endswith(f"_{name}")]
+            raise InputError(f"no {quantity!r} on plan grid {name!r}; the run has "
+                             f"{', '.join(have)}", argument="quantity")
+        da = ds[f"{quantity}_{name}"]
+        if "stage" in da.dims:
+            da = da.isel(stage=-1)
+        da = da.rename({f"{d}_{name}": d for d in ("depth", "y", "x", "lon", "lat")
+                        if f"{d}_{name}" in da.coords})
+        # the cube names one x, y pair only (CF checkers ask for one); here it is this one
+        named = {axis: da[axis].assign_attrs(standard_name=f"projection_{axis}_coordinate")
+                 for axis in ("x", "y") if axis in da.dims}
+        return da.assign_coords(named)
+
 
 def compute(site: Site, progress=silent, client=None) -> RunResults:
     """Every number of a run, in SI; nothing is written.
@@ -96,8 +170,11 @@ def compute(site: Site, progress=silent, client=None) -> RunResults:
     -------
     RunResults
         ``points`` (every receptor point with ``dsz`` in kPa and, with a soil profile,
-        ``sigma_v0``, ``stress_ratio``, ``settlement`` in m), ``slices`` (plan grids),
-        ``buildings``/``pipes`` checks, ``time_curves`` and ``convergence``.
+        ``sigma_v0``, ``stress_ratio``, ``settlement`` in m), ``slices`` (plan grids,
+        SI), ``buildings``/``pipes`` checks, ``time_curves`` and ``convergence``.
+        ``RunResults.plan_grid(name)`` gives a plan grid in the site's units and CRS as an
+        xarray DataArray with CF attributes (``.rio.crs`` with rioxarray), and
+        ``RunResults.plan_grids()`` all of them as ``stress_cube.nc`` holds them.
 
     Examples
     --------
@@ -239,16 +316,22 @@ def run_site_file(path, out=None, *, overwrite=False, report=True, progress=sile
         Results folder; default ``results-<site file stem>`` in the current folder. An
         existing folder is refused unless `overwrite`, and then replaced only once the new
         one is complete.
+    overwrite : bool
+        Replace an existing results folder (only a results folder, never an input).
     report : bool
         Also write ``report.html`` and ``scene.html``.
     progress : progress factory, optional
-    workers, scheduler : int or str, optional
-        Run on a local Dask cluster of `workers` processes or on the scheduler at
-        `scheduler`.
+        See :mod:`fillstress.progress`; silent by default.
+    workers : int, optional
+        Run on a local Dask cluster of this many worker processes.
+    scheduler : str, optional
+        Run on the Dask scheduler at this address.
 
     Returns
     -------
     RunSummary
+        ``results`` (the :class:`RunResults`, SI) and ``folder``, the results folder
+        written.
 
     Examples
     --------
@@ -308,6 +391,17 @@ class CheckReport:
 
 def check_site_file(path) -> CheckReport:
     """Validate a site file and describe the run without computing it.
+
+    Parameters
+    ----------
+    path : str or path-like
+        The site file (TOML).
+
+    Returns
+    -------
+    CheckReport
+        ``site`` and ``plan``, the rows (item, value) describing the run: bodies, loads,
+        grid, receptors, estimated time and memory.
 
     Examples
     --------

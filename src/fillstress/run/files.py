@@ -203,13 +203,14 @@ def _write_tables(res, folder) -> None:
         q = column_quantities(pts)
         tables.write_table_csv(folder.path(f"{name}_points.csv"), pts, u, q, crs=site.crs)
         tables.write_points_geojson(folder.path(f"{name}_points.geojson"), pts, u,
-                                    crs=site.crs, quantities=q)
+                                    crs=site.crs, quantities=q, **_geojson_options(site))
         summary = kind_summary(res, kind)
         tables.write_table_csv(folder.path(f"{name}_summary.csv"), summary, u,
                                column_quantities(summary), crs=site.crs)
         layers[name] = _receptor_layer(res, kind, name, summary)
         tables.write_geojson(folder.path(f"{name}.geojson"), layers[name], u, crs=site.crs,
-                             quantities=column_quantities(layers[name].drop(columns="geometry")))
+                             quantities=column_quantities(layers[name].drop(columns="geometry")),
+                             **_geojson_options(site))
         layers[f"{name}_points"] = gpd.GeoDataFrame(
             pts.reset_index(drop=True), geometry=gpd.points_from_xy(pts["x"], pts["y"]))
     if layers and _output(site, "geopackage"):
@@ -406,21 +407,25 @@ def _slice_spec(site, da) -> GridSpec:
 
 
 def _write_cube(res, folder, version="") -> None:
-    site = res.site
-    if not res.slices or not _output(site, "netcdf"):
+    if not res.slices or not _output(res.site, "netcdf"):
         return
+    netcdf.write_stress_cube(folder.path("stress_cube.nc"), **cube_arguments(res, version))
+
+
+def cube_arguments(res, version="") -> dict:
+    """The arguments of :func:`fillstress.io.netcdf.stress_dataset` (and of the writer of
+    ``stress_cube.nc``) for a run: every stage's slices, fill, σ'v0 and settlement."""
+    site = res.site
     made_by = f"fillstress {version}".strip()
     attrs = {"title": f"Vertical stress increase below the fill of {site.name}",
              "source": f"{made_by}, method {site.method}",
              "history": f"{made_by}: fillstress run {site.path.name}"}
     slices, stages = ((res.stage_slices, site.stages) if res.stage_slices
                       else (res.slices, site.stages[-1:]))
-    netcdf.write_stress_cube(folder.path("stress_cube.nc"), slices, grid=site.spec,
-                             stages=stages,
-                             fill_thickness=[site.fill_thickness(k) for k in stages],
-                             units=site.units, crs=site.crs, attrs=attrs,
-                             sigma_v0=_slice_sigma_v0(site, res.slices),
-                             settlement=res.plan_settlement)
+    return dict(slices=slices, grid=site.spec, stages=stages,
+                fill_thickness=[site.fill_thickness(k) for k in stages],
+                units=site.units, crs=site.crs, attrs=attrs,
+                sigma_v0=_slice_sigma_v0(site, res.slices), settlement=res.plan_settlement)
 
 
 def _slice_sigma_v0(site, slices) -> dict | None:
@@ -578,11 +583,24 @@ def _output(site, key) -> bool:
     return getattr(site.settings, key)
 
 
+def _geojson_options(site) -> dict:
+    """RFC 7946 with the decimals the cell resolves, unless [outputs] keeps the site CRS."""
+    return {"site_coordinates": site.settings.geojson_crs == "site",
+            "decimals": tables.geojson_decimals(site.spec.dx)}
+
+
 def _settings(site) -> dict:
     return {"method": site.method, "poisson": site.poisson, "cell_m": site.spec.dx,
             "margin_m": site.settings.margin, "stages": site.stages,
             "convergence_check": site.settings.convergence_check,
-            "units": site.units.name}
+            "units": site.units.name, "geojson_crs": _geojson_crs(site)}
+
+
+def _geojson_crs(site) -> str:
+    """What the GeoJSON files' coordinates are (io.results reads them back by it)."""
+    if site.crs is None or site.settings.geojson_crs == "site":
+        return "site"
+    return "EPSG:4326"
 
 
 def write_corridor_tables(res, folder) -> None:

@@ -11,18 +11,78 @@ from ..site.build import Site, load_site
 
 @dataclass
 class PointStresses:
-    """Δσz (kPa) at points given as x, y, depth in site units, for one stage."""
+    """Δσz (kPa) at points given as x, y, depth in site units, for one stage.
+
+    Attributes
+    ----------
+    site : Site
+        The site the points were computed on.
+    xyz : numpy.ndarray
+        (N, 3) as given: plan in site-CRS units, depth in site units.
+    dsz : numpy.ndarray
+        Δσz at each point, kPa.
+    stage : int
+        The construction stage whose fill was loaded.
+    warnings : list of str
+        One line per point outside the site's grid (a coordinate typo, the wrong CRS).
+    """
 
     site: Site
-    xyz: np.ndarray          # (N, 3) as given: plan in site-CRS units, depth in site units
-    dsz: np.ndarray          # kPa
+    xyz: np.ndarray
+    dsz: np.ndarray
     stage: int
-    warnings: list = field(default_factory=list)   # points far outside the site, ...
+    warnings: list = field(default_factory=list)
+
+    def to_geodataframe(self):
+        """The points as a GeoDataFrame in the site CRS and the site's units.
+
+        Returns
+        -------
+        geopandas.GeoDataFrame
+            One row per point in the order given: ``stage``, ``depth_<len>`` and
+            ``dsz_<pressure>`` in the site's unit system (the columns of the results
+            folder's point tables) and point geometry at x, y as given, with the site CRS
+            (None for a site without one), so ``.to_crs(4326)`` and ``.explore()`` work.
+
+        Examples
+        --------
+        >>> from fillstress.examples import example_site
+        >>> res = point_stresses(example_site("preload_surcharge"), [452100.0, 218300.0, 2.0])
+        >>> gdf = res.to_geodataframe()
+        >>> list(gdf.columns), gdf.crs == res.site.crs, round(float(gdf["dsz_kPa"][0]), 1)
+        (['stage', 'depth_m', 'dsz_kPa', 'geometry'], True, 104.3)
+        """
+        import geopandas as gpd
+        import pandas as pd
+
+        from ..io.tables import labelled_table
+        u = self.site.units
+        table = pd.DataFrame({"stage": np.full(len(self.dsz), self.stage),
+                              "depth": u.length_si(self.xyz[:, 2]), "dsz": self.dsz})
+        return gpd.GeoDataFrame(labelled_table(table, u),
+                                geometry=gpd.points_from_xy(self.xyz[:, 0], self.xyz[:, 1]),
+                                crs=self.site.crs)
 
 
 def point_stresses(path, xyz, stage=None) -> PointStresses:
     """Δσz at x, y, depth triples given in site units, under the fill of `stage` (default:
     the last).
+
+    Parameters
+    ----------
+    path : str or path-like
+        The site file.
+    xyz : array-like
+        x, y, depth triples (one or an (N, 3) array): plan coordinates in the site CRS's
+        unit, depth below the existing ground in the site's length unit.
+    stage : int, optional
+        Construction stage whose fill is loaded; the last by default.
+
+    Returns
+    -------
+    PointStresses
+        Δσz in kPa with the points as given; :meth:`PointStresses.to_geodataframe` gives
+        them as a GeoDataFrame in the site CRS and units.
 
     Examples
     --------

@@ -191,6 +191,7 @@ def embankment_thickness(centreline, spec: GridSpec, *, crest_width: float,
     Returns
     -------
     numpy.ndarray, shape ``spec.shape``
+        Cell-average embankment thickness, m (row 0 south).
 
     Examples
     --------

@@ -95,6 +95,7 @@ def sloping_footprint_thickness(geometry, spec: GridSpec) -> np.ndarray:
     Returns
     -------
     numpy.ndarray, shape ``spec.shape``
+        Cell-average fill thickness, m (row 0 south).
 
     Examples
     --------

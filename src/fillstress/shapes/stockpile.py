@@ -106,6 +106,7 @@ def pile_thickness(toe, repose_angle_deg: float, spec: GridSpec, *,
     Returns
     -------
     numpy.ndarray, shape ``spec.shape``
+        Cell-average pile thickness, m (row 0 south).
 
     Examples
     --------

@@ -361,7 +361,9 @@ def fill_from_surfaces(design, existing, spec: GridSpec, *, cut: str = "ignore",
     Returns
     -------
     thickness : numpy.ndarray, shape ``spec.shape``
+        Cell-average fill thickness between the surfaces, m (row 0 south).
     report : CutReport
+        Where the design surface lies below the existing one, and how it was treated.
 
     Examples
     --------

@@ -121,6 +121,7 @@ class RunSettings:
     geotiff: bool = True
     netcdf: bool = True
     geopackage: bool = True
+    geojson_crs: str = "wgs84"              # [outputs]: "wgs84" (RFC 7946) or "site"
     vtk: bool = True
     report: bool = True
     scene: bool = True
@@ -138,38 +139,104 @@ class RunSettings:
 @dataclass(repr=False)
 class Site(Summarised):
     """Everything a run needs, in SI and internal metres (site CRS coordinates × factor).
-    Nothing after the build reads the site file's raw tables: later stages take these."""
 
-    path: Path                       # the site file
+    Built by :func:`load_site`; nothing after the build reads the site file's raw
+    tables: later stages take these.
+
+    Parameters
+    ----------
+    path : pathlib.Path
+        The site file.
+    name, description : str
+        The site's name and its description from ``[site]``.
+    units : UnitSystem
+        The unit system of the site file and the outputs.
+    crs : pyproj.CRS or None
+        The site CRS as stated (None: no CRS given).
+    metres_per_unit : float
+        Metres per site-CRS unit (1, 0.3048, 1200/3937).
+    spec : GridSpec
+        The analysis lattice, internal metres.
+    bodies : list of Body
+        The fill and cut bodies on the lattice.
+    method : str
+        ``"boussinesq"`` or ``"westergaard"``.
+    poisson : float or None
+        Poisson's ratio for Westergaard; None for Boussinesq.
+    ground : callable or None
+        Existing ground elevation ``z(x, y)`` in metres; None without ``[ground]``.
+    soil : SoilProfile or None
+        The soil profile; None without ``[soil]``.
+    points : pandas.DataFrame
+        Every receptor sample point (internal metres).
+    receptors : Receptors
+        The buildings, pipes and boreholes.
+    settings : RunSettings
+        How the run is done and which files it writes.
+    input_files : tuple of pathlib.Path
+        Every file the site refers to.
+    plan_grids : list of PlanGrid
+        The ``[[plan_grids]]`` to slice.
+    cut_reports : dict of str to CutReport
+        Body name → the report of its cut.
+    existing_surfaces : dict of str to pathlib.Path
+        Body name → the existing-surface file it was built from.
+    body_factors : (float, float)
+        (unit weight, thickness) factors of a batch variant; (1, 1) otherwise.
+    build_seconds : float
+        Time the bodies took to rasterise.
+    cell_rule : str
+        Why the cell is the size it is.
+    warnings : list of str
+        What the build found doubtful.
+    alignment : Alignment or None
+        ``[alignment]``: stations along a line.
+    drains : list of DrainZone
+        The ``[[drains]]`` zones.
+    removal_days : dict of str to float
+        Body name → the day it is taken away.
+    context : object, optional
+        The build context, kept to rebuild the bodies on another lattice.
+
+    Examples
+    --------
+    >>> from fillstress.examples import example_site
+    >>> site = load_site(example_site("bridge_approach"))
+    >>> site.units.name, site.crs.to_epsg(), round(site.metres_per_unit, 9), site.stages
+    ('US', 2277, 0.30480061, [1])
+    """
+
+    path: Path
     name: str
     description: str
     units: UnitSystem
-    crs: CRS | None                  # the site CRS as stated (None: no CRS given)
-    metres_per_unit: float           # site-CRS unit → metres (1, 0.3048, 1200/3937)
+    crs: CRS | None
+    metres_per_unit: float
     spec: GridSpec
     bodies: list[Body]
     method: str
     poisson: float | None
-    ground: Callable[[np.ndarray, np.ndarray], np.ndarray] | None   # z(x, y) in metres
+    ground: Callable[[np.ndarray, np.ndarray], np.ndarray] | None
     soil: SoilProfile | None
-    points: pd.DataFrame             # every receptor sample point
+    points: pd.DataFrame
     receptors: Receptors
     settings: RunSettings
-    input_files: tuple[Path, ...] = ()                 # every file the site refers to
+    input_files: tuple[Path, ...] = ()
     plan_grids: list[PlanGrid] = field(default_factory=list)
-    cut_reports: dict[str, CutReport] = field(default_factory=dict)   # body → its cut
-    existing_surfaces: dict[str, Path] = field(default_factory=dict)  # body → that file
-    body_factors: tuple[float, float] = (1.0, 1.0)  # (unit weight, thickness) of a variant
-    build_seconds: float = 0.0                      # time the bodies took to rasterise
-    cell_rule: str = "given"                        # why the cell is the size it is
-    warnings: list[str] = field(default_factory=list)  # what the build found doubtful
-    alignment: Alignment | None = None              # [alignment]: stations along a line
-    drains: list[DrainZone] = field(default_factory=list)  # [[drains]] zones
-    removal_days: dict[str, float] = field(default_factory=dict)  # body → day taken away
-    context: _Context | None = field(default=None, repr=False)  # to rebuild the bodies
+    cut_reports: dict[str, CutReport] = field(default_factory=dict)
+    existing_surfaces: dict[str, Path] = field(default_factory=dict)
+    body_factors: tuple[float, float] = (1.0, 1.0)
+    build_seconds: float = 0.0
+    cell_rule: str = "given"
+    warnings: list[str] = field(default_factory=list)
+    alignment: Alignment | None = None
+    drains: list[DrainZone] = field(default_factory=list)
+    removal_days: dict[str, float] = field(default_factory=dict)
+    context: _Context | None = field(default=None, repr=False)
 
     @property
     def stages(self) -> list[int]:
+        """The construction stage numbers, ascending."""
         return sorted({b.stage for b in self.bodies})
 
     def _summary(self):
@@ -188,19 +255,43 @@ class Site(Summarised):
                  ("soil", soil), ("warnings", str(len(self.warnings)))])
 
     def stage_start_days(self) -> list[float]:
-        """Start of each stage in days, one per stage ([settlement] stage_days, the last
-        repeated when too few are given: plan.site_warnings warns of a mismatch)."""
+        """Start of each stage in days, one per stage.
+
+        Returns
+        -------
+        list of float
+            [settlement] stage_days, the last repeated when too few are given
+            (plan.site_warnings warns of a mismatch).
+        """
         days = list(self.settings.stage_days or [0.0])
         return (days + [days[-1]] * len(self.stages))[:len(self.stages)]
 
     def stage_build_days(self) -> list[float]:
-        """Build duration of each stage in days, one per stage ([settlement]
-        stage_durations; a stage given none is placed at once)."""
+        """Build duration of each stage in days, one per stage.
+
+        Returns
+        -------
+        list of float
+            [settlement] stage_durations; a stage given none is placed at once (0).
+        """
         given = list(self.settings.stage_durations)
         return (given + [0.0] * len(self.stages))[:len(self.stages)]
 
     def load_grid(self, stage: int | None = None, spec: GridSpec | None = None) -> LoadGrid:
-        """Surface pressure (kPa) of all bodies up to `stage` (default: the last)."""
+        """Surface pressure (kPa) of all bodies up to `stage`.
+
+        Parameters
+        ----------
+        stage : int, optional
+            A construction stage; the last by default.
+        spec : GridSpec, optional
+            Another lattice to rasterise the bodies on; the site's by default.
+
+        Returns
+        -------
+        LoadGrid
+            The pressure of every body of stage <= `stage`.
+        """
         stage = self.stages[-1] if stage is None else stage
         if stage not in self.stages:
             raise InputError(f"no construction stage {stage}; stages are {self.stages}",
@@ -210,20 +301,53 @@ class Site(Summarised):
         return spec.load_grid(stage_pressure(bodies, spec, stage))
 
     def rebuild_bodies(self, spec: GridSpec) -> list:
-        """The same bodies rasterised on another lattice (the convergence check)."""
+        """The same bodies rasterised on another lattice (the convergence check).
+
+        Parameters
+        ----------
+        spec : GridSpec
+            The lattice.
+
+        Returns
+        -------
+        list of Body
+            One per body of the site, in the site file's order.
+        """
         gamma, height = self.body_factors
         return [scaled_body(_build_body(self.context, name, raw, spec)[0], gamma, height)
                 for name, raw in self.context.cfg["bodies"].items()]
 
     def fill_thickness(self, stage: int | None = None) -> np.ndarray:
+        """Net fill thickness (m, cuts negative) of the bodies up to `stage`.
+
+        Parameters
+        ----------
+        stage : int, optional
+            A construction stage; the last by default.
+
+        Returns
+        -------
+        numpy.ndarray
+            Shape ``spec.shape``, row 0 south.
+        """
         stage = self.stages[-1] if stage is None else stage
         return sum((b.sign * b.thickness for b in self.bodies if b.stage <= stage),
                    self.spec.zeros())
 
     def ground_elevation_grid(self, filled: bool = False):
-        """Existing ground elevation at the cell centres (m), or None without [ground];
-        NaN where the ground has no data, or with `filled` the nearest cell's value there
-        (for drawing only: nothing is computed where the ground is missing)."""
+        """Existing ground elevation at the cell centres (m), or None without [ground].
+
+        Parameters
+        ----------
+        filled : bool
+            Fill cells where the ground has no data with the nearest cell's value (for
+            drawing only: nothing is computed where the ground is missing).
+
+        Returns
+        -------
+        numpy.ndarray or None
+            Shape ``spec.shape``; NaN where the ground has no data unless `filled`.
+        """
         if self.ground is None:
             return None
         gx, gy = np.meshgrid(self.spec.x_centres, self.spec.y_centres)
@@ -339,6 +463,21 @@ class _Context:
 def load_site(path) -> Site:
     """Read a site file and build its model.
 
+    Parameters
+    ----------
+    path : str or path-like
+        The site file (TOML).
+
+    Returns
+    -------
+    Site
+        The typed site: bodies on the lattice, receptors, soil, run settings (SI).
+
+    Raises
+    ------
+    InputError
+        Naming the file and key of the first thing wrong.
+
     Examples
     --------
     >>> from fillstress.examples import example_site
@@ -405,6 +544,7 @@ def _settings(cfg: SiteConfig, warnings: list) -> RunSettings:
         distortion_limits={name: settle[key] for key, name in LIMIT_KEYS.items()
                            if settle.get(key) is not None},
         **{k: monitoring.get(k) for k in ("readings", "construction", "day0")},
+        geojson_crs=outputs.get("geojson_crs", "wgs84"),
         **{k: _view_output(cfg, k, outputs.get(k), warnings) for k in VIEW_OUTPUTS},
         **{k: outputs.get(k, True) is not False for k in ("geotiff", "netcdf", "geopackage",
                                                              "report")})

@@ -23,7 +23,7 @@ from shapely.geometry import LineString, Point, Polygon
 from .. import crs as crsmod
 from .._validate import depths_array, finite, finite_array, positive
 from ..errors import InputError
-from ..io.vectors import read_vector
+from ..io.vectors import layer_and_site_crs, read_vector, source_name
 
 
 POINT_COLUMNS = ["receptor_kind", "receptor_id", "point_id", "role", "x", "y", "depth", "chainage"]
@@ -294,6 +294,22 @@ def borehole_points(receptor_id, x: float, y: float, top: float, bottom: float,
     The bottom is always included, so the last interval may be shorter than `step`.
     Role ``borehole``; ids ``-d1…`` from the top down.
 
+    Parameters
+    ----------
+    receptor_id : str
+        The borehole's id.
+    x, y : float
+        Plan position, m.
+    top, bottom : float
+        Depth range, m below ground, ``0 <= top <= bottom``.
+    step : float
+        Spacing of the points, m.
+
+    Returns
+    -------
+    pandas.DataFrame
+        One row per point with the columns of :data:`POINT_COLUMNS`.
+
     Examples
     --------
     >>> borehole_points("BH1", 10, 20, 1.0, 4.5, 1.0)["depth"].tolist()
@@ -439,6 +455,11 @@ def plan_grid(extent, spacing: float, depths, *, name: str = "plan") -> PlanGrid
     name : str
         Used in output file names (letters, digits, ``_`` and ``-``).
 
+    Returns
+    -------
+    PlanGrid
+        The nodes (``x``, ``y``, ``nx``, ``ny``) and depths of the grid.
+
     Examples
     --------
     >>> g = plan_grid((0, 0, 20, 10), 5, [4, 1])
@@ -506,13 +527,16 @@ _GEOMETRY = {"building": "Polygon", "pipe": "LineString", "borehole": "Point"}
 
 
 def read_receptor_layer(path, kind: str, *, id_field: str = "id", required_fields=(),
-                        layer=None, to_site_crs: Callable | None = None):
-    """Read buildings, pipes or boreholes from a vector file with clear errors.
+                        layer=None, to_site_crs: Callable | None = None, crs=None,
+                        target_crs=None):
+    """Read buildings, pipes or boreholes from a vector file or a GeoDataFrame.
 
     Parameters
     ----------
-    path : str or path-like
-        Any vector format GDAL reads (GeoJSON, GeoPackage, shapefile…).
+    path : str, path-like, geopandas.GeoDataFrame or geopandas.GeoSeries
+        Any vector format GDAL reads (GeoJSON, GeoPackage, shapefile…), or the receptors
+        already in memory, checked the same way. A GeoSeries has no attributes: its index
+        gives the receptor ids.
     kind : {"building", "pipe", "borehole"}
         Sets the geometry type every feature must have (Polygon, LineString, Point).
     id_field : str
@@ -524,11 +548,24 @@ def read_receptor_layer(path, kind: str, *, id_field: str = "id", required_field
     to_site_crs : callable, optional
         ``to_site_crs(frame) -> frame``: reprojects or checks the CRS (the caller decides
         the policy and raises InputError itself when the CRS is unusable).
+    crs : CRS-like, optional
+        CRS to assume when the layer states none (with `target_crs`).
+    target_crs : CRS-like, optional
+        The site CRS: the geometry is reprojected to it (pyproj) and returned in internal
+        metres with the metre twin of the site CRS (:func:`fillstress.crs.metric_twin`),
+        by the rules of :func:`fillstress.read_footprints`. Not with `to_site_crs`.
 
     Returns
     -------
     geopandas.GeoDataFrame
-        The attributes with a ``receptor_id`` string column first and the geometry.
+        The attributes with a ``receptor_id`` string column first and the geometry (in
+        the layer's own CRS unless `to_site_crs` or `target_crs` says otherwise).
+
+    Raises
+    ------
+    InputError
+        Naming the file (or the GeoDataFrame) for a wrong geometry, a missing or repeated
+        id, a missing field, degrees that cannot be, or a layer and site without a CRS.
 
     Examples
     --------
@@ -539,23 +576,44 @@ def read_receptor_layer(path, kind: str, *, id_field: str = "id", required_field
     >>> gpd.GeoDataFrame({"id": ["BH1"]}, geometry=[Point(1, 2)], crs="EPSG:32633").to_file(f)
     >>> read_receptor_layer(f, "borehole")["receptor_id"].tolist()
     ['BH1']
+    >>> holes = gpd.GeoSeries([Point(990000, 210000)], index=["BH-7"], crs="EPSG:2263")
+    >>> frame = read_receptor_layer(holes, "borehole", target_crs="EPSG:2263")
+    >>> frame["receptor_id"].tolist(), round(frame.geometry.iloc[0].x, 3)
+    (['BH-7'], 301752.603)
     """
     if kind not in _GEOMETRY:
         raise InputError(f"must be one of {', '.join(KINDS)}, got {kind!r}", argument="kind")
-    path = Path(os.fspath(path))
+    if to_site_crs is not None and target_crs is not None:
+        raise InputError("give to_site_crs or target_crs, not both", argument="target_crs")
+    what = f"{kind} receptors"
     # one outline or line a receptor: multi-part features are refused (split them)
-    frame = read_vector(path, _GEOMETRY[kind], parts=False, layer=layer,
-                        what=f"{kind} receptors")
+    frame = read_vector(path, _GEOMETRY[kind], parts=False, layer=layer, what=what)
+    if _is_series(path) and id_field not in frame.columns:
+        frame[id_field] = frame.index.astype(str)
+    path = Path(path) if isinstance(path, (str, os.PathLike)) else source_name(path, what)
     for field in (id_field, *required_fields):
         _check_field(frame, field, path)
     ids = frame[id_field].astype(str).str.strip()
     dup = ids[ids.duplicated()]
     if len(dup):
         raise InputError(f"duplicate receptor id {dup.iloc[0]!r}", file=path, key=id_field)
-    crsmod.check_degrees(frame.geometry.values, frame.crs, file=path)
+    crsmod.check_degrees(frame.geometry.values, frame.crs if frame.crs is not None else crs,
+                         file=path)
     frame = frame.assign(receptor_id=ids.to_numpy())
     frame = frame[["receptor_id"] + [c for c in frame.columns if c != "receptor_id"]]
-    return to_site_crs(frame) if to_site_crs is not None else frame
+    if to_site_crs is not None:
+        return to_site_crs(frame)
+    if target_crs is None:
+        return frame
+    source, site = layer_and_site_crs(frame, crs, target_crs, path)
+    moved = frame.set_geometry(crsmod.to_site(np.asarray(frame.geometry.values, dtype=object),
+                                              source, site, file=path), crs=None)
+    return moved.set_crs(crsmod.metric_twin(site[0]), allow_override=True)
+
+
+def _is_series(source) -> bool:
+    import geopandas as gpd
+    return isinstance(source, gpd.GeoSeries)
 
 
 def _check_field(frame, field: str, path: Path) -> None:

@@ -361,6 +361,11 @@ OUTPUTS = Table("outputs", "Which files a run writes besides the point tables an
     Key("netcdf", "bool", "The NetCDF cube of the plan grids.", default=True),
     Key("geopackage", "bool", "layers.gpkg: every vector layer of the run in the site CRS.",
         default=True),
+    Key("geojson_crs", "str", "Coordinates of the GeoJSON files: `wgs84` writes RFC 7946 "
+        "(WGS 84 longitude and latitude, no `crs` member, rounded to what the cell "
+        "resolves); `site` keeps the site CRS with a `crs` member, for tools that want "
+        "projected GeoJSON (not RFC 7946). A site without a CRS writes its local "
+        "coordinates either way.", default="wgs84", choices=("wgs84", "site")),
     Key("vtk", "bool", "VTK files for 3D viewers (needs the 'view' extra; default: written "
         "where it is installed, with a warning where it is not).", default=None),
     Key("report", "bool", "The HTML engineering report.", default=True),

@@ -132,17 +132,26 @@ def stress_at_points(grid, points, method="boussinesq", poisson=None, *, algorit
         Surface pressure per cell (kPa).
     points : array_like, shape (N, 3)
         x (m), y (m), depth (m, >= 0).
-    method, poisson
-        As for :func:`fillstress.solve.vertical_stress`.
+    method : {"boussinesq", "westergaard"}
+        Stress distribution (as for :func:`fillstress.solve.vertical_stress`).
+    poisson : float, optional
+        Poisson's ratio for Westergaard (default 0); None for Boussinesq.
     algorithm : {"auto", "direct", "far"}
         "auto" picks by points × non-zero nodes (see :func:`choose_algorithm`).
     chunk_size : int, optional
         Points per chunk (default 20 000); the result does not depend on it.
     progress : callable, optional
         Progress factory ``progress(label, total)``, advanced by points done.
-    tol, floor, order
+    tol, floor : float
         Far-field accuracy (see :func:`fillstress.solve.farfield.vertical_stress_far`):
         ``|error| <= tol · max(|Δσz|, floor · max|p|)``.  Direct summation is exact.
+    order : int
+        Far-field expansion order (the default meets `tol`).
+
+    Returns
+    -------
+    numpy.ndarray, shape (N,)
+        Δσz (kPa) at each point.
 
     Examples
     --------

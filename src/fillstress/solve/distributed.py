@@ -219,19 +219,46 @@ def distributed_points(grid, points, method="boussinesq", poisson=None, *, clien
         Surface pressures.
     points : array_like, shape (N, 3)
         x, y (m, the grid's coordinates) and depth (m, > 0) of each point.
-    method, poisson, algorithm, chunk_size, tol, floor, order
-        As :func:`fillstress.solve.auto.stress_at_points`.
+    method : {"boussinesq", "westergaard"}
+        Stress distribution (as for :func:`fillstress.solve.vertical_stress`).
+    poisson : float, optional
+        Poisson's ratio for Westergaard (default 0); None for Boussinesq.
     client : distributed.Client
         From :func:`connect` (see its example for the ``__main__`` guard).
+    algorithm : {"auto", "direct", "far"}
+        As :func:`fillstress.solve.auto.stress_at_points`.
+    chunk_size : int, optional
+        Points per task (default 20 000).
+    tol, floor : float
+        Far-field accuracy, as :func:`fillstress.solve.auto.stress_at_points`.
+    order : int
+        Far-field expansion order.
     retries : int
         Times a task lost with its worker is run again.
-    progress : optional
+    progress : callable, optional
         A progress factory (``progress(label, total)``), one step per chunk.
 
     Returns
     -------
     numpy.ndarray, shape (N,)
         Δσz (kPa), equal to the serial path's.
+
+    Examples
+    --------
+    Under the ``__main__`` guard of a script (see :func:`connect`):
+
+    >>> from fillstress import LoadGrid
+    >>> grid = LoadGrid([[50.0]], x0=0.0, y0=0.0, dx=1.0, dy=1.0)
+    >>> if __name__ == "__main__":
+    ...     with connect(2) as client:
+    ...         dsz = distributed_points(grid, [[0.5, 0.5, 1.0]], client=client)
+
+    Anything but a client is refused before work starts:
+
+    >>> distributed_points(grid, [[0.5, 0.5, 1.0]], client="tcp://127.0.0.1:8786")
+    Traceback (most recent call last):
+    ...
+    fillstress.errors.InputError: argument client: must be a distributed.Client, got str
     """
     client = _client(client)
     retries = whole_number(retries, "retries", minimum=0)
@@ -270,21 +297,45 @@ def distributed_slices(grid, depths, method="boussinesq", poisson=None, *, clien
         Surface pressures.
     depths : sequence of float
         Slice depths (m, > 0).
-    method, poisson, offset, pad
-        As :func:`fillstress.solve.slices.stress_slices`.
+    method : {"boussinesq", "westergaard"}
+        Stress distribution (as for :func:`fillstress.solve.vertical_stress`).
+    poisson : float, optional
+        Poisson's ratio for Westergaard (default 0); None for Boussinesq.
     client : distributed.Client
         From :func:`connect` (see its example for the ``__main__`` guard).
-    memory_cap, tile
-        As :func:`fillstress.solve.tiled.tiled_slices`; either makes one task per tile.
+    offset : (float, float)
+        Shift (m) of the sample points, as :func:`fillstress.solve.slices.stress_slices`.
+    pad : float
+        Extension (m) of the sample lattice, as :func:`fillstress.solve.slices.stress_slices`.
+    memory_cap : float, optional
+        Bytes each task may use, as :func:`fillstress.solve.tiled.tiled_slices`; makes
+        one task per tile.
+    tile : (int, int), optional
+        Tile size (rows, columns) in cells, as :func:`fillstress.solve.tiled.tiled_slices`;
+        makes one task per tile.
     retries : int
         Times a task lost with its worker is run again.
-    progress : optional
+    progress : callable, optional
         A progress factory (``progress(label, total)``), one step per task.
 
     Returns
     -------
     xarray.DataArray
         Δσz (kPa) on dims ``(depth, y, x)``, as the serial functions return it.
+
+    Examples
+    --------
+    Under the ``__main__`` guard of a script (see :func:`connect`):
+
+    >>> from fillstress import LoadGrid
+    >>> grid = LoadGrid([[50.0]], x0=0.0, y0=0.0, dx=1.0, dy=1.0)
+    >>> if __name__ == "__main__":
+    ...     with connect(2) as client:
+    ...         stack = distributed_slices(grid, [1.0, 2.0], client=client, pad=2.0)
+    >>> distributed_slices(grid, [1.0], client=None)
+    Traceback (most recent call last):
+    ...
+    fillstress.errors.InputError: argument client: must be a distributed.Client, got NoneType
     """
     client = _client(client)
     retries = whole_number(retries, "retries", minimum=0)

@@ -125,8 +125,10 @@ def slice_at_depth(pressure, dx, dy, depth, method="boussinesq", poisson=None, *
         Cell size (m).
     depth : float
         Depth (m, >= 0); 0 gives the surface limit (q inside, q/2 on an edge, ...).
-    method, poisson
-        As for :func:`fillstress.solve.vertical_stress`.
+    method : {"boussinesq", "westergaard"}
+        Stress distribution (as for :func:`fillstress.solve.vertical_stress`).
+    poisson : float, optional
+        Poisson's ratio for Westergaard (default 0); None for Boussinesq.
     offset : (float, float)
         Shift (m) of every sample from the cell centres.
     pad_cells : (int, int)
@@ -160,8 +162,10 @@ def stress_slices(grid, depths, method="boussinesq", poisson=None, *, offset=(0.
         Surface pressure per cell (kPa).
     depths : float or sequence of float
         Depths (m, >= 0).
-    method, poisson
-        As for :func:`fillstress.solve.vertical_stress`.
+    method : {"boussinesq", "westergaard"}
+        Stress distribution (as for :func:`fillstress.solve.vertical_stress`).
+    poisson : float, optional
+        Poisson's ratio for Westergaard (default 0); None for Boussinesq.
     offset : (float, float)
         Shift (m) of every sample point from the cell centres (sub-cell shifts are the
         usual use; any shift is exact).
@@ -175,9 +179,11 @@ def stress_slices(grid, depths, method="boussinesq", poisson=None, *, offset=(0.
     -------
     xarray.DataArray
         Dims ("depth", "y", "x"); coordinates in m (cell centres + offset), attrs
-        ``units="kPa"``, ``long_name``, ``method``, ``poisson``.  Depths are
-        processed one at a time, so the peak memory is the output plus a few arrays
-        of the padded FFT size.
+        ``units="kPa"``, ``long_name``, ``method``, ``poisson``; with ``grid.crs`` a
+        ``spatial_ref`` grid mapping of that CRS (a site's load grid carries the metre
+        form of the site CRS; ``RunResults.plan_grid`` gives a run's slices in site
+        units). Depths are processed one at a time, so the peak memory is the output
+        plus a few arrays of the padded FFT size.
 
     Examples
     --------
