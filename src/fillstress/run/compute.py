@@ -215,6 +215,7 @@ def compute(site: Site, progress=silent, client=None) -> RunResults:
                     res.plan_settlement = settle.plan_settlement(
                         site, lambda plan, z, g: _plan_slices(site, g, replace(plan, depths=z),
                                                               client))
+                    res.warnings += _plan_cutoff_notes(res.plan_settlement)
         res.limits = limit_results(res)
         if site.settings.max_heights:
             with step("max_heights"):
@@ -260,6 +261,14 @@ def _conv_steps(site: Site) -> int:
     return int(site.settings.convergence_check and len(site.points) > 0)
 
 
+def _plan_cutoff_notes(plans: dict) -> list[str]:
+    """One note per plan grid with nodes left out as below the stated cut-off."""
+    return [f"plan grid {name!r}: {da.attrs['not_analysed_nodes']} of {da.size} nodes not analysed "
+            f"(nodata): |dsz| below {da.attrs['not_analysed_below_kpa']:.3g} kPa at every "
+            f"sublayer, settlement there at most {1000 * da.attrs['not_analysed_settlement_bound_m']:.3g} mm"
+            for name, da in plans.items() if da.attrs.get('not_analysed_nodes')]
+
+
 def _stage_stack(stack: list, stages: list):
     """Slices of each stage along a leading ``stage`` axis (a view for one stage)."""
     if len(stack) == 1:
@@ -294,13 +303,13 @@ def convergence_check(site: Site, pts: pd.DataFrame, client=None) -> dict:
     coarse_vals = pts["dsz"].to_numpy()
     fine_vals = stress(site, fine, xyz, client)
     qmax = float(np.abs(fine.pressure).max()) or 1.0
-    mask = np.abs(fine_vals) >= 0.01 * qmax
+    mask = np.abs(fine_vals) >= settle.NEGLIGIBLE_FRACTION * qmax
     rel = np.abs(coarse_vals - fine_vals)[mask] / np.abs(fine_vals[mask]) if mask.any() else [0.0]
     k = int(np.argmax(rel))
     where = pts[mask].iloc[k]["point_id"] if mask.any() else ""
     return {"cell": site.spec.dx, "fine_cell": fine_spec.dx, "points_compared": int(mask.sum()),
             "max_relative_change": float(np.max(rel)), "at_point": str(where),
-            "threshold_fraction_of_qmax": 0.01}
+            "threshold_fraction_of_qmax": settle.NEGLIGIBLE_FRACTION}
 
 
 # --- the files ------------------------------------------------------------------------

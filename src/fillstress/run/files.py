@@ -324,7 +324,8 @@ def _write_rasters(res, folder) -> None:
     for name, da in res.plan_settlement.items():          # the settlement plan of each grid
         geotiff.write_geotiff(folder.path(f"slices/settlement_{name}.tif"), da.values,
                               _slice_spec(site, da), quantity="settlement", units=u,
-                              description="final settlement at the ground surface",
+                              description="final settlement at the ground surface; nodata: heave, or "
+                              "dsz below the run's stated cut-off (not analysed)",
                               crs=site.crs)
 
 

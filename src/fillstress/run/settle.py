@@ -10,6 +10,7 @@ import pandas as pd
 
 from .. import settlement as st
 from . import history, timeline as tl
+from ..kernels.spec import eta as westergaard_eta
 from ..settlement import influence_depth
 from ..structures import DEFAULT_LIMITS, building_settlement, pipe_settlement
 
@@ -137,6 +138,12 @@ def _one(path: st.StressPath, n: int) -> st.StressPath:
                          path.strain[n:n + 1], path.s0, path.sp, path.is_index)
 
 
+# Δσz below this fraction of the largest applied pressure is not analysed on a plan grid
+# (and not compared by the run's half-cell convergence check): the one stated cut-off
+NEGLIGIBLE_FRACTION = 0.01
+_BLOCK = 16                  # cells a side of a load block, nodes a side of a plan tile
+
+
 def plan_settlement(site, slices_at) -> dict:
     """Final settlement (m) at the ground surface over every plan grid, along the load
     history (a surcharge removed on its day rebounds on Cr, as at the receptor points).
@@ -146,7 +153,11 @@ def plan_settlement(site, slices_at) -> dict:
     nodes, dims depth, y, x), one load state and as many depths at a time as the plan grid
     has slices, so the memory stays what the run estimate counted for its slices. Sublayers
     settle independently (1-D compression), so their settlements add up by the rule the
-    receptor points use; nodes where unloading exceeds σ'v0 (heave) get NaN.
+    receptor points use. NaN (nodata) marks nodes where unloading exceeds σ'v0 (heave) and
+    nodes in tiles where an upper bound on |Δσz| (`stress_bound`) stays below
+    ``NEGLIGIBLE_FRACTION`` of the largest applied pressure at every sublayer: those are
+    not analysed; attrs ``not_analysed_below_kpa`` and ``not_analysed_settlement_bound_m``
+    (the settlement of the column under that stress at every sublayer) state the cut-off.
     """
     z, h = st.sublayers(site.soil, top_depth=0.0)
     if len(z) == 0:
@@ -155,27 +166,98 @@ def plan_settlement(site, slices_at) -> dict:
     grids = [site.spec.load_grid(sum((b.pressure for b, on in zip(site.bodies, s.active) if on),
                                      site.spec.zeros()))
              for s in tl.load_states(site)]
+    cutoff = NEGLIGIBLE_FRACTION * max(float(np.abs(g.pressure).max()) for g in grids)
     out = {}
     for plan in site.plan_grids:
         step = max(1, len(plan.depths))
-        total = tension = da = None
+        total = tension = keep = da = None
         for k in range(0, len(z), step):
             part = slice(k, k + step)
             depths = tuple(float(d) for d in z[part])
             states = []
             for g in grids:
                 da = slices_at(plan, depths, g)
-                states.append(np.moveaxis(np.asarray(da.values, float), 0, -1).reshape(-1, len(depths)))
-            dsz = np.stack(states, axis=1)                                  # (N, E, K)
+                if keep is None:
+                    keep = (stress_bound(site, grids, da.x.values, da.y.values, float(z[-1]))
+                            >= cutoff).ravel()
+                values = np.moveaxis(np.asarray(da.values, float), 0, -1).reshape(-1, len(depths))
+                states.append(values[keep])
+            dsz = np.stack(states, axis=1)                                  # (N kept, E, K)
             heave = np.any(s0[part] + dsz <= 0, axis=(1, 2))
             path = st.stress_path(site.soil, z[part], h[part],
                                   np.where(heave[:, None, None], 0.0, dsz))
             total = path.settlement[:, -1].sum(axis=1) + (0.0 if total is None else total)
             tension = heave if tension is None else tension | heave
         total[tension] = np.nan
+        full = np.full(keep.shape, np.nan)
+        full[keep] = total
         surface = da.isel(depth=0, drop=True)
-        out[plan.name] = surface.copy(data=total.reshape(surface.shape))
+        out[plan.name] = surface.copy(data=full.reshape(surface.shape)).assign_attrs(
+            not_analysed_below_kpa=cutoff, not_analysed_nodes=int((~keep).sum()),
+            not_analysed_settlement_bound_m=_column_settlement(site.soil, z, h, cutoff))
     return out
+
+
+def _column_settlement(soil, z, h, dsz: float) -> float:
+    """Settlement (m) of the soil column under Δσz = `dsz` at every sublayer (settlement
+    grows with Δσz, so it bounds every node whose Δσz stays below `dsz`)."""
+    path = st.stress_path(soil, z, h, np.full((1, 1, len(z)), dsz))
+    return float(path.settlement[0, -1].sum())
+
+
+def stress_bound(site, grids, x, y, max_depth: float) -> np.ndarray:
+    """Upper bound (kPa) on |Δσz| at depths 0 to `max_depth` below the nodes (y, x) of a
+    plan lattice, any of the load `grids`, shape (len(y), len(x)).
+
+    Each block of ``_BLOCK``² cells acts with its total |load| Q at its nearest distance d
+    from a tile of ``_BLOCK``² nodes, through the point-load influence maximised over depth
+    (`_point_bound`); a point-load influence falls with the distance, so every cell of the
+    block gives at most that. A node within a loaded block's plan gets +inf.
+    """
+    spec = site.spec
+    load = np.max([np.abs(g.pressure) for g in grids], axis=0) * spec.dx * spec.dy
+    bj, bi = np.nonzero(_block_sums(load) > 0)
+    q = _block_sums(load)[bj, bi]
+    bx0, by0 = spec.x0 + bi * _BLOCK * spec.dx, spec.y0 + bj * _BLOCK * spec.dy
+    bx1, by1 = bx0 + _BLOCK * spec.dx, by0 + _BLOCK * spec.dy
+    tx0, tx1 = _tile_ranges(np.asarray(x, float))
+    ty0, ty1 = _tile_ranges(np.asarray(y, float))
+    gap_x = np.maximum(0.0, np.maximum(bx0[None, :] - tx1[:, None], tx0[:, None] - bx1[None, :]))
+    gap_y = np.maximum(0.0, np.maximum(by0[None, :] - ty1[:, None], ty0[:, None] - by1[None, :]))
+    tiles = np.empty((len(ty0), len(tx0)))
+    for j in range(len(ty0)):                      # one row of tiles at a time bounds memory
+        d = np.hypot(gap_x, gap_y[j][None, :])
+        tiles[j] = _point_bound(d, max_depth, site.method, site.poisson) @ q
+    return np.repeat(np.repeat(tiles, _BLOCK, axis=0), _BLOCK, axis=1)[:len(y), :len(x)]
+
+
+def _block_sums(a: np.ndarray) -> np.ndarray:
+    ny, nx = (-(-n // _BLOCK) * _BLOCK for n in a.shape)
+    padded = np.zeros((ny, nx))
+    padded[:a.shape[0], :a.shape[1]] = a
+    return padded.reshape(ny // _BLOCK, _BLOCK, nx // _BLOCK, _BLOCK).sum(axis=(1, 3))
+
+
+def _tile_ranges(v: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """First and last coordinate of each run of ``_BLOCK`` nodes."""
+    starts = np.arange(0, len(v), _BLOCK)
+    return v[starts], v[np.minimum(starts + _BLOCK, len(v)) - 1]
+
+
+def _point_bound(d: np.ndarray, max_depth: float, method: str, poisson) -> np.ndarray:
+    """Largest Δσz/Q (1/m²) of a point load at plan distance `d` over depths 0 to
+    `max_depth`: Boussinesq 3z³/(2πR⁵) peaks at z = √1.5·d, Westergaard
+    ηz/(2π(η²z² + d²)^1.5) at ηz = d/√2 (both rise with z up to there); +inf at d = 0."""
+    with np.errstate(divide="ignore", invalid="ignore"):
+        if method == "westergaard":
+            et = westergaard_eta(poisson or 0.0)
+            zc = np.minimum(max_depth, d / (et * np.sqrt(2.0))) if et > 0 else 0.0 * d + max_depth
+            c = et * zc
+            out = c / (2.0 * np.pi * (c * c + d * d) ** 1.5)
+        else:
+            zc = np.minimum(max_depth, np.sqrt(1.5) * d)
+            out = 3.0 * zc ** 3 / (2.0 * np.pi * (d * d + zc * zc) ** 2.5)
+    return np.where(d > 0, out, np.inf)
 
 
 class SettlementColumns(NamedTuple):
