@@ -4,11 +4,11 @@ file but the 3D scene and the VTK files, and says they need the `view` extra; a
 distributed run, the 3D view and those files asked for explicitly are refused with their
 extra named."""
 import json
+import subprocess
 import sys
 
 import pytest
 
-from fillstress.cli import main
 from fillstress.errors import InputError
 
 OPTIONAL = ("dask", "distributed", "trame", "trame_vtk", "trame_pyvista", "nest_asyncio2",
@@ -46,19 +46,24 @@ depths = [5.0, 15.0]
 """
 
 
-def _without_extras(monkeypatch):
-    for name in OPTIONAL:
-        monkeypatch.setitem(sys.modules, name, None)
+def _without_extras(*argv: str) -> subprocess.CompletedProcess:
+    """`fillstress argv` in a fresh interpreter with the extras blocked: in this process
+    earlier tests have loaded them, and libraries (xarray) remember what they found."""
+    script = ("import sys\n"
+              f"for name in {OPTIONAL!r}:\n    sys.modules[name] = None\n"
+              "from fillstress.cli import main\n"
+              f"sys.exit(main({list(argv)!r}))\n")
+    return subprocess.run([sys.executable, "-c", script], capture_output=True, text=True,
+                          timeout=600)
 
 
-def test_run_without_any_extra_writes_everything(tmp_path, monkeypatch, capsys):
-    _without_extras(monkeypatch)
+def test_run_without_any_extra_writes_everything(tmp_path):
     (tmp_path / "site.toml").write_text(SITE)
     out = tmp_path / "out"
-    assert main(["run", str(tmp_path / "site.toml"), "-o", str(out)]) == 0
-    said = capsys.readouterr()
-    assert "Traceback" not in said.err
-    assert "fillstress[view]" in said.out + said.err
+    said = _without_extras("run", str(tmp_path / "site.toml"), "-o", str(out))
+    assert said.returncode == 0, said.stderr[-2000:]
+    assert "Traceback" not in said.stderr
+    assert "fillstress[view]" in said.stdout + said.stderr
     manifest = json.loads((out / "manifest.json").read_text())
     for name in ("report.html", "stress_cube.nc", "fill_thickness.tif",
                  "layers.gpkg", "summary.json"):
@@ -70,20 +75,18 @@ def test_run_without_any_extra_writes_everything(tmp_path, monkeypatch, capsys):
     for what in ("vtk/", "scene.html"):
         assert any(what in w and "fillstress[view]" in w for w in warnings), what
     for option, name in (("--png", "v.png"), ("--html", "s.html")):
-        assert main(["view", str(out), option, str(tmp_path / name)]) == 2
-        assert "needs the 'view' extra" in capsys.readouterr().err
+        said = _without_extras("view", str(out), option, str(tmp_path / name))
+        assert said.returncode == 2 and "needs the 'view' extra" in said.stderr
         assert not (tmp_path / name).exists()
 
 
 @pytest.mark.parametrize("key", ["vtk", "scene"])
-def test_view_output_asked_for_without_its_extra_is_refused_before_any_work(
-        tmp_path, monkeypatch, capsys, key):
-    _without_extras(monkeypatch)
+def test_view_output_asked_for_without_its_extra_is_refused_before_any_work(tmp_path, key):
     (tmp_path / "site.toml").write_text(SITE + f"\n[outputs]\n{key} = true\n")
     out = tmp_path / "out"
-    assert main(["run", str(tmp_path / "site.toml"), "-o", str(out)]) == 2
-    err = capsys.readouterr().err
-    assert f"[outputs.{key}] needs the 'view' extra" in err and "Traceback" not in err
+    said = _without_extras("run", str(tmp_path / "site.toml"), "-o", str(out))
+    err = said.stderr
+    assert said.returncode == 2 and f"[outputs.{key}] needs the 'view' extra" in err and "Traceback" not in err
     assert not out.exists()
 
 
