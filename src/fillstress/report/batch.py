@@ -95,7 +95,10 @@ class _BatchReport:
                 parts.append(f"<h3>{esc(heading(table.attrs['column'], self.u))} by variant</h3>"
                              + _raw_table(["kind", "receptor", *names], rows))
         figure = self.maxima_figure(frames)
-        return "".join(parts) + figure
+        note = ('<p class="note">From each variant\'s summary.json: for buildings the '
+                'maxima at foundation level; the envelope below covers every point, the '
+                'profile points below a building included.</p>')
+        return note + "".join(parts) + figure
 
     def maxima_figure(self, frames) -> str:
         prefix = "settlement_max_" if _side_by_side(frames, "settlement_max_") is not None \
@@ -159,7 +162,7 @@ class _BatchReport:
                     ("Method and assumptions", self.method())]
         cautions = _text_list(self.f.manifest.get("cautions")) or list(CAUTIONS)
         return simple_page(f"Variants of {self.site_name()}", self.summary_rows(), sections,
-                           cautions, by="fillstress batch")
+                           cautions, by="fillstress")
 
 
 def _raw_table(heads, rows) -> str:
