@@ -88,8 +88,19 @@ def _write_raster(path, south_first, crs):
 
 
 def _geojson(path, features):
+    """RFC 7946, as a run writes it: WGS 84 longitude/latitude, no crs member."""
+    import shapely
+    from pyproj import Transformer
+    to_wgs84 = Transformer.from_crs(CRS_EPSG, 4326, always_xy=True)
+
+    def lonlat(geom):
+        shape = shapely.transform(shapely.geometry.shape(geom),
+                                  lambda xy: np.column_stack(to_wgs84.transform(*xy.T)))
+        return shapely.geometry.mapping(shape)
+
     path.write_text(json.dumps({"type": "FeatureCollection", "features": [
-        {"type": "Feature", "properties": props, "geometry": geom} for props, geom in features]}))
+        {"type": "Feature", "properties": props, "geometry": lonlat(geom)}
+        for props, geom in features]}))
 
 
 def _points_frame(rows):
@@ -290,7 +301,8 @@ def write_results_folder(folder) -> FixtureTruth:
     manifest = {
         "program": "fillstress", "version": "0.1.0", "created": "2031-04-17T09:12:44Z",
         "site_file": "quillmere_yard.toml",
-        "settings": {"method": "boussinesq", "cell_m": DX, "depths_m": list(DEPTHS)},
+        "settings": {"method": "boussinesq", "cell_m": DX, "depths_m": list(DEPTHS),
+                     "geojson_crs": "EPSG:4326"},
         "units": {"system": "SI", "length": "m", "pressure": "kPa", "unit_weight": "kN/m3",
                   "settlement": "mm", "plan": "m"},
         "inputs": {"quillmere_yard.toml": "3f" * 32, "east_pile_<crest>.geojson": "a7" * 32},

@@ -111,6 +111,9 @@ def test_plan_grid_in_site_units_with_the_site_crs(run):
     assert settlement.dims == ("y", "x") and settlement.attrs["units"] == "in"
     np.testing.assert_allclose(settlement.values * 0.0254,
                                np.flipud(run.plan_settlement["yard"].values), rtol=1e-5)
+    # the internal SI grid says what it holds: metres of settlement, not the slice's kPa
+    assert run.plan_settlement["yard"].attrs["units"] == "m"
+    assert "settlement" in run.plan_settlement["yard"].attrs["long_name"]
 
 
 def test_plan_grids_are_the_cube_and_wrong_names_are_refused(run):

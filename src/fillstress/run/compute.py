@@ -42,6 +42,62 @@ log = logging.getLogger(__name__)
 # --- the numbers ----------------------------------------------------------------------
 @dataclass(repr=False)
 class RunResults(Summarised):
+    """Everything a run computed, in internal SI (m, kPa), before any file is written.
+
+    What :func:`compute` returns; ``fillstress run`` writes it as the results folder.
+    :meth:`plan_grids` and :meth:`plan_grid` give the plan grids in the site's units.
+
+    Parameters
+    ----------
+    site : Site
+        The site as built from its file.
+    grid : LoadGrid
+        The load grid of the final stage.
+    points : pandas.DataFrame
+        Every receptor point with its results (SI).
+    slices : dict
+        Plan-grid name → Δσz DataArray (depth, y, x), kPa, final stage.
+    plan_settlement : dict
+        Plan-grid name → final surface settlement DataArray (y, x), m.
+    stage_slices : dict
+        As `slices` with a leading stage axis.
+    buildings : list
+        ``structures.BuildingSettlement`` of each building.
+    pipes : list
+        ``structures.PipeSettlement`` of each pipe.
+    profiles : list
+        One dict per settlement profile: receptor id and its influence depth.
+    time_curves : dict
+        Receptor id → (days, settlement m).
+    record : dict
+        The settlement calculation tables (SI).
+    convergence : dict
+        The half-cell convergence check.
+    timings : dict
+        Seconds per step (``fillstress run --timings``).
+    warnings : list
+        Warnings shown by the command and written to the summary.
+    corridor : dict
+        Alignment tables of an embankment along an alignment.
+    limits : LimitResults or None
+        Utilisation of each limit in force.
+    settlement_columns : object
+        The settlement columns of the receptor points.
+    max_heights : list
+        The maximum height of each body (``[limits]``).
+    odds : object
+        Odds of exceeding each limit (``[uncertainty]``), or None.
+    headroom : object
+        The headroom map (``[headroom]``), or None.
+
+    Examples
+    --------
+    >>> from fillstress.examples import example_site
+    >>> res = compute(load_site(example_site("preload_surcharge")))
+    >>> sorted(res.slices), res.plan_settlement["pad"].attrs["units"]
+    (['pad'], 'm')
+    """
+
     site: Site
     grid: object                          # LoadGrid of the final stage
     points: pd.DataFrame                  # every receptor point with its results (SI)

@@ -13,7 +13,9 @@ from ..site.build import Site, load_site
 class PointStresses:
     """Δσz (kPa) at points given as x, y, depth in site units, for one stage.
 
-    Attributes
+    What :func:`point_stresses` (and ``fillstress point``) returns.
+
+    Parameters
     ----------
     site : Site
         The site the points were computed on.
@@ -25,6 +27,13 @@ class PointStresses:
         The construction stage whose fill was loaded.
     warnings : list of str
         One line per point outside the site's grid (a coordinate typo, the wrong CRS).
+
+    Examples
+    --------
+    >>> from fillstress.examples import example_site
+    >>> res = point_stresses(example_site("preload_surcharge"), [452100.0, 218300.0, 2.0])
+    >>> res.stage, round(float(res.dsz[0]), 1), res.warnings
+    (2, 104.3, [])
     """
 
     site: Site

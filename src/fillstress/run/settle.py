@@ -192,7 +192,10 @@ def plan_settlement(site, slices_at) -> dict:
         full = np.full(keep.shape, np.nan)
         full[keep] = total
         surface = da.isel(depth=0, drop=True)
-        out[plan.name] = surface.copy(data=full.reshape(surface.shape)).assign_attrs(
+        settled = surface.copy(data=full.reshape(surface.shape))
+        settled.attrs = {"units": "m", "long_name": "final settlement of the ground surface",
+                         "positive": "down"}       # not the Δσz slice's attributes it came from
+        out[plan.name] = settled.assign_attrs(
             not_analysed_below_kpa=cutoff, not_analysed_nodes=int((~keep).sum()),
             not_analysed_settlement_bound_m=_column_settlement(site.soil, z, h, cutoff))
     return out
