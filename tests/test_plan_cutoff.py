@@ -121,3 +121,17 @@ def test_stress_bound_is_above_the_stress_everywhere(site):
     bound = settle.stress_bound(site, [g], da.x.values, da.y.values, max(z))
     assert np.all(np.abs(da.values) <= bound[None, :, :] * (1 + 1e-12))
     assert np.isfinite(bound).any() and np.isinf(bound).any()
+
+
+def test_cut_off_note_is_in_the_sites_units():
+    import xarray as xr
+
+    from fillstress.run.compute import _plan_cutoff_notes
+    from fillstress.units import US
+    da = xr.DataArray(np.zeros((4, 5)), dims=("y", "x"), attrs={
+        "not_analysed_nodes": 7, "not_analysed_below_kpa": 0.4788026,   # 10 psf
+        "not_analysed_settlement_bound_m": 0.00254})                   # 0.1 in
+    (note,) = _plan_cutoff_notes({"levee": da}, US)
+    assert note == ("plan grid 'levee': 7 of 20 nodes left as nodata (Δσz < 10 psf at every "
+                    "sublayer, settlement there ≤ 0.1 in)")
+    assert _plan_cutoff_notes({"levee": da.assign_attrs(not_analysed_nodes=0)}, US) == []

@@ -402,7 +402,11 @@ class _Report:
         return "".join(parts)
 
     def _caution_items(self) -> list[str]:
-        return list(CAUTIONS) + _text_list(self.f.manifest.get("cautions"))
+        # the folder's own cautions, after the standard ones unless they already say them
+        # (a run's manifest does: the page would repeat them)
+        stated = _text_list(self.f.manifest.get("cautions"))
+        says_core = any("licensed geotechnical engineer" in t for t in stated)
+        return ([] if says_core else list(CAUTIONS)) + stated
 
     def cautions(self) -> str:
         return ('<div class="caution"><ul>'

@@ -271,7 +271,7 @@ def compute(site: Site, progress=silent, client=None) -> RunResults:
                     res.plan_settlement = settle.plan_settlement(
                         site, lambda plan, z, g: _plan_slices(site, g, replace(plan, depths=z),
                                                               client))
-                    res.warnings += _plan_cutoff_notes(res.plan_settlement)
+                    res.warnings += _plan_cutoff_notes(res.plan_settlement, site.units)
         res.limits = limit_results(res)
         if site.settings.max_heights:
             with step("max_heights"):
@@ -317,11 +317,14 @@ def _conv_steps(site: Site) -> int:
     return int(site.settings.convergence_check and len(site.points) > 0)
 
 
-def _plan_cutoff_notes(plans: dict) -> list[str]:
-    """One note per plan grid with nodes left out as below the stated cut-off."""
-    return [f"plan grid {name!r}: {da.attrs['not_analysed_nodes']} of {da.size} nodes not analysed "
-            f"(nodata): |dsz| below {da.attrs['not_analysed_below_kpa']:.3g} kPa at every "
-            f"sublayer, settlement there at most {1000 * da.attrs['not_analysed_settlement_bound_m']:.3g} mm"
+def _plan_cutoff_notes(plans: dict, units) -> list[str]:
+    """One note per plan grid with nodes left out as below the stated cut-off, in the
+    site's units."""
+    return [f"plan grid {name!r}: {da.attrs['not_analysed_nodes']} of {da.size} nodes left as "
+            f"nodata (Δσz < {units.pressure_out(da.attrs['not_analysed_below_kpa']):.3g} "
+            f"{units.pressure} at every sublayer, settlement there ≤ "
+            f"{units.settlement_out(da.attrs['not_analysed_settlement_bound_m']):.2g} "
+            f"{units.settlement})"
             for name, da in plans.items() if da.attrs.get('not_analysed_nodes')]
 
 
