@@ -275,6 +275,42 @@ def _aggregate(child_lo, child_hi, child_m, child_abs, cnx, cny, pnx, pny,
                         _shift_add(child_m[c], par_m[p], cx - mx, cy - my, idx, binom, order)
 
 
+@numba.njit(cache=True)
+def _aggregate_cells(pressure, x0, y0, dx, dy, unit_cell, idx, binom, order, pnx, pny,
+                     par_lo, par_hi, par_m, par_abs):
+    # level 1 straight from the cells (no level-0 arrays): box of loaded cells, Σ|q|·area,
+    # moments of each uniform cell moved to the block centre
+    ny, nx = pressure.shape
+    area = dx * dy
+    moved = np.empty(unit_cell.size)
+    for pj in range(pny):
+        for pi in range(pnx):
+            p = pj * pnx + pi
+            x_lo, y_lo, x_hi, y_hi, mass = np.inf, np.inf, -np.inf, -np.inf, 0.0
+            for j in range(2 * pj, min(2 * pj + 2, ny)):
+                for i in range(2 * pi, min(2 * pi + 2, nx)):
+                    if pressure[j, i] != 0.0:
+                        x_lo = min(x_lo, x0 + i * dx)
+                        y_lo = min(y_lo, y0 + j * dy)
+                        x_hi = max(x_hi, x0 + (i + 1) * dx)
+                        y_hi = max(y_hi, y0 + (j + 1) * dy)
+                        mass += abs(pressure[j, i]) * area
+            par_abs[p] = mass
+            par_m[p, :] = 0.0
+            if mass == 0.0:
+                continue
+            par_lo[p, 0], par_lo[p, 1], par_hi[p, 0], par_hi[p, 1] = x_lo, y_lo, x_hi, y_hi
+            mx, my = 0.5 * (x_lo + x_hi), 0.5 * (y_lo + y_hi)
+            for j in range(2 * pj, min(2 * pj + 2, ny)):
+                for i in range(2 * pi, min(2 * pi + 2, nx)):
+                    q = pressure[j, i]
+                    if q != 0.0:
+                        for u in range(unit_cell.size):
+                            moved[u] = q * unit_cell[u]
+                        _shift_add(moved, par_m[p], x0 + (i + 0.5) * dx - mx,
+                                   y0 + (j + 0.5) * dy - my, idx, binom, order)
+
+
 def _weight_recipe(terms: np.ndarray, factors: np.ndarray, idx: np.ndarray):
     """W_t = factor_t · Σ_l C(m,l) M[i+2l, b+2m-2l] as flat (start, moment, coefficient)."""
     start, moment, coef = [0], [], []
@@ -353,37 +389,35 @@ def build_pyramid(grid, method="boussinesq", poisson=None, *, order: int = DEFAU
     binom = np.array([[math.comb(a, i) for i in range(kept + 1)] for a in range(kept + 1)], float)
     unit_cell = _cell_moments(kept, grid.dx, grid.dy)
     ny, nx = grid.shape
-    # level 0 as flat arrays: cell boxes, masses and moments about each cell centre
-    jj, ii = np.meshgrid(np.arange(ny), np.arange(nx), indexing="ij")
-    lo = np.stack([grid.x0 + ii.ravel() * grid.dx, grid.y0 + jj.ravel() * grid.dy], axis=1)
-    hi = lo + np.array([grid.dx, grid.dy])
-    q = grid.pressure.ravel()
-    mass = np.abs(q) * grid.cell_area
-    moments = q[:, None] * unit_cell[None, :]
     shapes = _level_shapes(nx, ny)
-    centres, halves, masses, weights = [], [], [], []
-    for (cnx, cny), (pnx, pny) in zip(shapes[:-1], shapes[1:]):
-        n = pnx * pny
-        plo, phi = np.zeros((n, 2)), np.zeros((n, 2))
-        pm, pabs = np.zeros((n, unit_cell.size)), np.zeros(n)
-        _aggregate(lo, hi, moments, mass, cnx, cny, pnx, pny, idx, binom, kept,
-                   plo, phi, pm, pabs)
-        centres.append(0.5 * (plo + phi))
-        halves.append(0.5 * np.hypot(phi[:, 0] - plo[:, 0], phi[:, 1] - plo[:, 1]))
-        masses.append(pabs)
-        weights.append(_to_weights(pm, terms, factors, idx))
-        lo, hi, moments, mass = plo, phi, pm, pabs
     counts = [bx * by for bx, by in shapes]
     offset = np.concatenate([[0, 0], np.cumsum(counts[1:])]).astype(np.int64)[:len(shapes)]
     nbx = np.array([s[0] for s in shapes], np.int64)
-    cat = (lambda parts, width: np.concatenate(parts) if parts else np.zeros((0,) + width))
-    centre = cat(centres, (2,))
+    total = int(sum(counts[1:]))
+    centre, half, mass_abs = np.zeros((total, 2)), np.zeros(total), np.zeros(total)
+    weights = np.empty((total, len(terms)))
+    recipe = _weight_recipe(terms, factors, idx)
+    lo = hi = moments = None
+    for lev, (cnx, cny), (pnx, pny) in zip(range(1, len(shapes)), shapes[:-1], shapes[1:]):
+        part = slice(int(offset[lev]), int(offset[lev]) + pnx * pny)
+        plo, phi = np.zeros((pnx * pny, 2)), np.zeros((pnx * pny, 2))
+        pm = np.zeros((pnx * pny, unit_cell.size))
+        if lev == 1:
+            _aggregate_cells(grid.pressure, float(grid.x0), float(grid.y0), float(grid.dx),
+                             float(grid.dy), unit_cell, idx, binom, kept, pnx, pny,
+                             plo, phi, pm, mass_abs[part])
+        else:
+            _aggregate(lo, hi, moments, mass_abs[offset[lev - 1]:part.start], cnx, cny,
+                       pnx, pny, idx, binom, kept, plo, phi, pm, mass_abs[part])
+        centre[part] = 0.5 * (plo + phi)
+        half[part] = 0.5 * np.hypot(phi[:, 0] - plo[:, 0], phi[:, 1] - plo[:, 1])
+        _apply_recipe(pm, *recipe, weights[part])
+        lo, hi, moments = plo, phi, pm
     radial = np.zeros(centre.shape[0])
     _radial_moments(grid.pressure, float(grid.x0), float(grid.y0), float(grid.dx),
                     float(grid.dy), centre, offset, nbx, kept + 1, radial)
     return Pyramid(grid, spec, order, nbx, np.array([s[1] for s in shapes], np.int64),
-                   offset, centre, cat(halves, ()), cat(masses, ()), radial,
-                   cat(weights, (len(terms),)),
+                   offset, centre, half, mass_abs, radial, weights,
                    _to_weights(unit_cell[None, :], terms, factors, idx)[0], terms)
 
 
