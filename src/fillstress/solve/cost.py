@@ -21,8 +21,8 @@ from ..errors import CapacityError, InputError
 # measures each (the figures are in docs/performance.md, "## The run-time estimate").
 CORNERS_PER_SECOND = 5.5e7       # node-kernel corner evaluations, direct summation
 DIRECT_SETUP_SECONDS_PER_NODE = 2.0e-8  # a direct call's node weights and rows, per node
-FAR_SECONDS_PER_POINT = 1.0e-4   # far-field walk at the default accuracy, per point below a fill
-PYRAMID_SECONDS_PER_CELL = 3.0e-7  # a far-field call's block pyramid, per cell
+FAR_SECONDS_PER_POINT = 5.0e-5   # far-field walk at the default accuracy, per point below a fill
+PYRAMID_SECONDS_PER_CELL = 2.0e-7  # a far-field call's block pyramid, per cell
 FFT_FLOPS_PER_SECOND = 4.0e9     # scipy.fft real transforms, 5 n log2 n flops each
 _FLOAT = 8
 _COMPLEX = 16
