@@ -12,15 +12,16 @@ the block centre (c = z for Boussinesq, c = ηz for Westergaard), s the plan off
 source inside the block, (A, k) = (3/2π, 5) or (1/2π, 3).  The generating function of the
 Gegenbauer polynomials (Abramowitz & Stegun 1964, 22.9.3) gives::
 
-    |r - s|^-k = R^-k Σ_n (|s|/R)^n C_n^(k/2)(cos γ),     |C_n^(k/2)| <= C(n+k-1, k-1)
+    |r - s|^-k = R^-k Σ_n (|s|/R)^n C_n^(k/2)(cos γ)
 
-(A&S 22.14.2), so truncating after order p leaves at most
-``A c^(k-2) M_abs R^-k T_p(θ)`` with θ = h/R (h: half-diagonal of the loaded part of the
-block, R: 3-D distance from the point to its centre, M_abs = Σ|q|·area) and
-``T_p(θ) = Σ_{n>p} C(n+k-1, k-1) θ^n``.  The per-block bounds of the accepted blocks are
-summed for every point; a point whose sum exceeds ``tol · max(|Δσz|, floor · max|p|)`` is
-walked again with a stricter acceptance threshold (at worst everything is summed
-exactly), so the returned values carry that guarantee.
+and the value keeps n <= p.  The terms of orders p+1 and p+2 are summed exactly, with
+their signs, into the bound; the remainder after them is bounded per block by its radial
+moment ∫|q||s|^(p+3) times the smaller of the series tail (|C_n| <= C(n+k-1, k-1),
+A&S 22.14.2) and the Lagrange form of Taylor's remainder (nearest distance from the
+point to the block, and the largest |C_(p+3)| over the directions the block subtends).
+A point whose bound exceeds ``tol · max(|Δσz|, floor · max|p|)`` is walked again with a
+stricter acceptance threshold (at worst everything is summed exactly), so the returned
+values carry that guarantee.
 """
 from __future__ import annotations
 
