@@ -74,6 +74,7 @@ def far_figures(cells: int, n_points: int, subset: int) -> dict:
     rel = err / np.maximum(np.abs(exact), floor)
     # how far below its certified bound the actual error stays (docs/method-farfield.md)
     slack = bound[:subset][err > 0] / err[err > 0]
+    load = os.getloadavg()[0]   # the machine is shared: the times scale with the load
     extrapolated = t_sub * n_points / subset
     corners = subset * direct_work(grid, 1)
     lines = [
@@ -86,6 +87,8 @@ def far_figures(cells: int, n_points: int, subset: int) -> dict:
         f"| direct summation, first {subset} points | {t_sub:.2f} s |",
         f"| direct summation, all points (extrapolated from the subset) | {extrapolated:.0f} s |",
         f"| speed-up (extrapolated direct / far) | {extrapolated / (t_build + t_far):.0f}× |",
+        "",
+        f"Pyramid + walk: {t_build + t_far:.2f} s; load average (1 min) at the end {load:.2f}.",
         "",
         f"Largest error / max(|Δσz|, 1 % of max p) on the subset: {rel.max():.2e} "
         f"(bound certified at every point: 1e-3).  Per point on average: "
@@ -101,7 +104,7 @@ def far_figures(cells: int, n_points: int, subset: int) -> dict:
         f"FAR_SECONDS_PER_POINT {t_far / n_points:.2g}.",
         "",
     ]
-    return {"build": t_build, "far": t_far, "slack_median": float(np.median(slack)),
+    return {"build": t_build, "far": t_far, "load": load, "slack_median": float(np.median(slack)),
             "slack_min": float(slack.min()), "slack_max": float(slack.max()), "lines": lines}
 
 

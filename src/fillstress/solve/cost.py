@@ -21,8 +21,8 @@ from ..errors import CapacityError, InputError
 # measures each (the figures are in docs/performance.md, "## The run-time estimate").
 CORNERS_PER_SECOND = 5.5e7       # node-kernel corner evaluations, direct summation
 DIRECT_SETUP_SECONDS_PER_NODE = 2.0e-8  # a direct call's node weights and rows, per node
-FAR_SECONDS_PER_POINT = 1.0e-4   # far-field walk at the default accuracy, per point below a fill
-PYRAMID_SECONDS_PER_CELL = 3.0e-7  # a far-field call's block pyramid, per cell
+FAR_SECONDS_PER_POINT = 5.0e-5   # far-field walk at the default accuracy, per point below a fill
+PYRAMID_SECONDS_PER_CELL = 2.0e-7  # a far-field call's block pyramid, per cell
 FFT_FLOPS_PER_SECOND = 4.0e9     # scipy.fft real transforms, 5 n log2 n flops each
 _FLOAT = 8
 _COMPLEX = 16
@@ -190,14 +190,15 @@ def estimate_points(shape, n_points: int, *, algorithm: str = "direct", order: i
         return Estimate("points-direct", memory, seconds,
                         f"{cells} cells, {n_points} points, direct summation")
     if algorithm == "far":
-        n_mom = (order + 1) * (order + 2) // 2
-        n_terms = sum(n - 2 * m + 1 for n in range(order + 1) for m in range(n // 2 + 1))
-        from .farfield import pyramid_blocks   # numba: only when the far field is priced
+        from .farfield import BOUND_ORDERS, pyramid_blocks   # numba: only when priced
+        kept = order + BOUND_ORDERS   # moments and terms kept for the bound as well
+        n_mom = (kept + 1) * (kept + 2) // 2
+        n_terms = sum(n - 2 * m + 1 for n in range(kept + 1) for m in range(n // 2 + 1))
         blocks = pyramid_blocks(nx, ny)
         # level-0 boxes, masses and moments while building; blocks keep centre,
-        # half-diagonal, mass and weights; two levels of raw moments at a time
+        # half-diagonal, mass, radial moment and weights; two levels of raw moments at a time
         build = cells * _FLOAT * (4 + 2 + 2 + n_mom)
-        memory = build + blocks * _FLOAT * (4 + n_terms + n_mom) + point_arrays + n_points * 24
+        memory = build + blocks * _FLOAT * (5 + n_terms + n_mom) + point_arrays + n_points * 24
         seconds = (n_points * FAR_SECONDS_PER_POINT * max(1.0, math.log2(max(cells, 2)) / 20.0)
                    + cells * PYRAMID_SECONDS_PER_CELL)
         return Estimate("points-far", memory, seconds,
