@@ -238,6 +238,24 @@ def distortion_operator(xy, pairs=None, outline=None) -> tuple[np.ndarray, np.nd
     return (residual[edges[:, 1]] - residual[edges[:, 0]]) / length[:, None], edges
 
 
+def tilt_operator(xy) -> np.ndarray:
+    """The linear map from settlements to the tilt plane's gradient (ds/dx, ds/dy): ``G @ s``
+    (shape (2,)) is the gradient :func:`building_settlement` fits, so its tilt ω is
+    ``|G @ s|``. Returns G of shape (2, N) (zeros for one point).
+
+    Examples
+    --------
+    >>> G = tilt_operator([[0, 0], [20, 0], [20, 10], [0, 10]])
+    >>> float(np.hypot(*(G @ [0.01, 0.06, 0.06, 0.01])))      # 50 mm over 20 m: 1/400
+    0.0025
+    """
+    pts = _plan_points(xy)
+    design, directions = _plane_design(pts)
+    if not len(directions):
+        return np.zeros((2, pts.shape[0]))
+    return directions.T @ np.linalg.pinv(design)[1:]
+
+
 def _limits(limits) -> dict[str, float]:
     if limits is None:
         return dict(DEFAULT_LIMITS)
@@ -491,8 +509,7 @@ def largest_differential_within(chainage, settlement, length_m) -> tuple[float, 
                          argument="settlement")
     if np.any(np.diff(ch) <= 0):
         raise InputError("chainage must be strictly increasing", argument="chainage")
-    reach = length * (1 + 1e-12) + 1e-12
-    ends = np.searchsorted(ch, ch + reach, side="right")
+    ends = np.searchsorted(ch, ch + _reach(length), side="right")
     best, pair = 0.0, None
     for i in range(ch.size):
         window = s[i:ends[i]]
@@ -565,13 +582,58 @@ def pipe_settlement(receptor_id, chainage, settlement, dsz_crown, length_m) -> P
         **bend)
 
 
+def _slope_change(ch: np.ndarray, s: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """(change of slope at each inner point, curvature there: the second difference on the
+    chainages) of `s` (N,) or of each column of `s` (N, M)."""
+    slope = np.diff(s, axis=0) / np.diff(ch).reshape((-1,) + (1,) * (s.ndim - 1))
+    change = np.diff(slope, axis=0)
+    return change, 2.0 * change / (ch[2:] - ch[:-2]).reshape((-1,) + (1,) * (s.ndim - 1))
+
+
+def curvature_operator(chainage) -> np.ndarray:
+    """The linear map from settlements at increasing chainages to the curvature at each inner
+    point (:func:`pipe_settlement`'s second difference): ``C @ s``, C of shape (N − 2, N), so
+    the largest curvature is ``max |C @ s|``.
+
+    Examples
+    --------
+    >>> C = curvature_operator([0.0, 5.0, 10.0])
+    >>> (C @ [0.0, 0.01, 0.0]).round(6).tolist()       # −2·0.01/5² per m
+    [-0.0008]
+    """
+    ch = np.atleast_1d(finite_array(chainage, "chainage"))
+    if ch.ndim != 1 or np.any(np.diff(ch) <= 0):
+        raise InputError("must be strictly increasing", argument="chainage")
+    if ch.size < 3:
+        return np.zeros((0, ch.size))
+    return _slope_change(ch, np.eye(ch.size))[1]
+
+
+def pairs_within(chainage, length_m) -> np.ndarray:
+    """(i, j), i < j, of the points at increasing chainages at most `length_m` apart (the
+    pairs :func:`largest_differential_within` compares), shape (P, 2).
+
+    Examples
+    --------
+    >>> pairs_within([0.0, 5.0, 10.0, 15.0], 5.0).tolist()
+    [[0, 1], [1, 2], [2, 3]]
+    """
+    ch = np.atleast_1d(finite_array(chainage, "chainage"))
+    ends = np.searchsorted(ch, ch + _reach(positive(length_m, "length_m")), side="right")
+    pairs = [(i, j) for i in range(ch.size) for j in range(i + 1, ends[i])]
+    return np.array(pairs, dtype=np.int64).reshape(-1, 2)
+
+
+def _reach(length: float) -> float:
+    """A length with the round-off allowance of chainage comparisons."""
+    return length * (1 + 1e-12) + 1e-12
+
+
 def _bending(ch: np.ndarray, s: np.ndarray) -> dict:
     """Largest angular change between neighbouring segments and the largest curvature."""
     if ch.size < 3:
         return {}
-    slope = np.diff(s) / np.diff(ch)
-    change = np.diff(slope)
-    curvature = 2.0 * change / (ch[2:] - ch[:-2])
+    change, curvature = _slope_change(ch, s)
     k = int(np.argmax(np.abs(curvature)))
     return {"angular_change_max": float(np.max(np.abs(change))),
             "curvature_max_per_m": float(abs(curvature[k])),

@@ -392,6 +392,85 @@ def response_headroom_map(spec, response, limit, current=0.0, *, two_sided=False
                 np.where(better, falling[1], rising[1]))
 
 
+def norm_headroom_map(spec, response, limit: float, current=0.0) -> HeadroomMap:
+    """Largest multiple on each cell before the length ``|current + m·response(c)|`` of a
+    vector quantity linear in the load (e.g. a tilt plane's gradient, shape (D,)) reaches
+    `limit`: the positive root of ``|r|²m² + 2(c·r)m + |c|² − limit² = 0``. 0 where
+    ``|current| >= limit``, inf where the response is nil; `governing` is 0 (-1 where inf).
+
+    Examples
+    --------
+    >>> s = GridSpec(0.0, 0.0, 1.0, 1.0, 2, 1)
+    >>> r = np.array([[[3.0, 0.0]], [[4.0, 0.0]]])          # |r| = 5 on the first cell
+    >>> norm_headroom_map(s, r, 10.0).multiple.tolist()
+    [[2.0, inf]]
+    >>> norm_headroom_map(s, r, 10.0, [0.0, 6.0]).multiple.round(6).tolist()  # 25m² + 48m = 64
+    [[0.905905, inf]]
+    """
+    spec = _lattice(spec)
+    values = finite_array(response, "response", ndim=3)
+    if values.shape[1:] != spec.shape:
+        raise InputError(f"must have shape (D, {spec.shape[0]}, {spec.shape[1]}), got "
+                         f"{values.shape}", argument="response")
+    lim = positive(limit, "limit")
+    now = np.broadcast_to(finite_array(current, "current"), values.shape[:1])
+    a = np.einsum("dyx,dyx->yx", values, values)
+    b = np.einsum("d,dyx->yx", now, values)
+    c = float(now @ now) - lim * lim
+    peak = float(np.max(np.abs(values))) if values.size else 0.0
+    moving = a > (_NO_STRESS * peak) ** 2
+    multiple = np.full(spec.shape, np.inf)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        root = (-b + np.sqrt(np.maximum(b * b - a * c, 0.0))) / a
+    multiple[moving] = 0.0 if c >= 0 else root[moving]
+    return _map(spec, multiple, np.where(np.isfinite(multiple), 0, -1))
+
+
+def combination_headroom_map(spec, operator, response, current, limit: float, *,
+                             norm: bool = False, cells_per_chunk: int = 4_000_000
+                             ) -> HeadroomMap:
+    """Largest multiple on each cell before a quantity linear in point values reaches `limit`:
+    ``q = operator @ (current + m·response(c))``, with |q_e| <= limit for every row e
+    (e.g. pair differences, a pipe's curvature; `governing` is that row) or, with `norm`,
+    ``|q| <= limit`` (a tilt plane's gradient). Rows are taken in chunks of about
+    `cells_per_chunk` values so that many rows (every pair of a large building) fit in memory.
+
+    Parameters
+    ----------
+    spec : GridSpec or LoadGrid
+    operator : array_like, shape (E, N)
+    response : array_like, shape (N, ny, nx)
+        Each point's value per unit multiple of the template placed on each cell.
+    current : array_like, shape (N,)
+        Each point's present value.
+    limit : float
+        Largest |q_e| (or |q|), > 0.
+
+    Examples
+    --------
+    >>> s = GridSpec(0.0, 0.0, 1.0, 1.0, 2, 1)
+    >>> r = np.array([[[0.01, 0.0]], [[0.0, 0.0]]])     # the first point settles 10 mm
+    >>> m = combination_headroom_map(s, [[1.0, -1.0]], r, [0.0, 0.004], 0.02)
+    >>> m.multiple.tolist(), m.governing.tolist()       # (20 + 4) / 10: s1 − s2 from −4 mm
+    ([[2.4, inf]], [[0, -1]])
+    """
+    spec = _lattice(spec)
+    op = finite_array(operator, "operator", ndim=2)
+    values = finite_array(response, "response", ndim=3)
+    now = op @ np.broadcast_to(finite_array(current, "current"), values.shape[:1])
+    if norm:
+        return norm_headroom_map(spec, np.einsum("en,nyx->eyx", op, values), limit, now)
+    step = max(1, cells_per_chunk // max(1, values[0].size))
+    best, who = np.full(spec.shape, np.inf), np.full(spec.shape, -1, dtype=np.int64)
+    for first in range(0, op.shape[0], step):
+        part = slice(first, first + step)
+        m = response_headroom_map(spec, np.einsum("en,nyx->eyx", op[part], values), limit,
+                                  now[part], two_sided=True)
+        better = m.multiple < best
+        best[better], who[better] = m.multiple[better], m.governing[better] + first
+    return _map(spec, best, who)
+
+
 def lowest_cells(headroom: HeadroomMap, count: int = 5) -> np.ndarray:
     """(row, col) of the `count` cells with the smallest finite multiples, smallest first.
 
