@@ -3,17 +3,19 @@ placed centred on each map cell before the first limit in force is reached at an
 everything already on the site in place (decide/headroom.py).
 
 Stress limits (Δσz, Δσz/σ'v0 at every receptor point) are exact by reciprocity. The
-settlement limits (largest settlement of a building or pipe, at each of its settlement
-points; a building's angular distortion β, linear in those settlements,
-structures.distortion_operator) are linearised about the present state
-(decide.headroom.settlement_sensitivity, tangent of the 1-D model) and the `recheck` lowest
-cells of that map are re-checked with the template placed for real on the full nonlinear
-settlement, with some cells spread over the rest of the map. Where the full model allows less than the linearisation at a re-checked cell by more
-than RECHECK_TOLERANCE, the settlement map is scaled by the worst ratio found (re-checked cells
-take their full-model value) and the run warns: headroom.tif holds the scaled map,
-headroom_linearised.tif the linearisation (docs/method-decisions.md, "Headroom map").
-Differential settlement, tilt, deflection ratio and pipe differential and curvature are not
-mapped (stated in the report).
+settlement limits are linearised about the present state (decide.headroom.
+settlement_sensitivity, tangent of the 1-D model): the largest settlement of a building or
+pipe at each of its settlement points, and the quantities linear in those settlements — a
+building's angular distortion β (structures.distortion_operator), differential settlement
+(every pair of its points) and tilt (structures.tilt_operator), a pipe's differential
+within each length in force (structures.pairs_within) and its curvature
+(structures.curvature_operator). The `recheck` lowest cells of that map, and some spread
+over the rest, are re-checked with the template placed for real on the full nonlinear
+settlement. Where the full model allows less than the linearisation at a re-checked cell by
+more than RECHECK_TOLERANCE, every settlement-governed cell is scaled by the worst ratio
+found (re-checked cells take their full-model value) and the run warns: headroom.tif holds
+the scaled map, headroom_linearised.tif the linearisation (docs/method-decisions.md,
+"Headroom map"). The deflection ratio has no limit in [limits] and is not mapped.
 """
 from __future__ import annotations
 
@@ -29,11 +31,13 @@ from ..decide.max_height import scale_at_limit
 from ..grid import GridSpec
 from ..settlement import consolidation_settlement
 from ..solve import vertical_stress
-from ..structures import distortion_operator
+from ..structures import (curvature_operator, distortion_operator, pairs_within,
+                          tilt_operator)
 from . import limits as lm
 from .plan import PLAUSIBLE_FILL_M
 
-MAPPED = ("stress_increase", "stress_ratio", "settlement", "angular_distortion")
+MAPPED = ("stress_increase", "stress_ratio", "settlement", "angular_distortion",
+          "differential_settlement", "tilt", "pipe_curvature")
 RECHECK_TOLERANCE = 0.01    # full model below the linearisation by more: the map is scaled
 # spread re-checks stay where the template weighs less than the highest earth fill
 # (PLAUSIBLE_FILL_M at 20 kN/m³, common practice for a heavy fill)
@@ -94,12 +98,12 @@ def headroom_results(res) -> HeadroomResults:
     stress = _stress_map(res, template, spec, receptors)
     stress_maps = [] if stress is None else [stress]
     groups = _settlement_groups(res, template, spec)
-    distortions = _distortions(site, groups)
+    combinations = _combinations(site, groups)
     settle_maps = (_settlement_maps(groups, spec, receptors)
-                   + _distortion_maps(groups, distortions, spec, receptors))
+                   + _combination_maps(groups, combinations, spec, receptors))
     lin_settle = _least(settle_maps, spec.shape)
     linearised, _ = _least(stress_maps + settle_maps, spec.shape)
-    checks, settled, factor, worst = _recheck(res, template, spec, (groups, distortions),
+    checks, settled, factor, worst = _recheck(res, template, spec, (groups, combinations),
                                               lin_settle, stress, how.recheck)
     safe = hd.HeadroomMap(settled, lin_settle[1], spec.x_centres, spec.y_centres)
     multiple, governing = _least(stress_maps + [safe], spec.shape)
@@ -277,58 +281,144 @@ def _settlement_maps(groups, spec, receptors) -> list:
 
 
 @dataclass(frozen=True)
-class _Distortion:
-    """A building's angular distortion limit on the map: its points (group, position in it),
-    the map from their settlements to each edge's relative rotation
-    (structures.distortion_operator), the edges' point ids, the limit and its label."""
+class _Combination:
+    """A limit on a quantity linear in a receptor's point settlements: its points (group,
+    position in it), the operator from their settlements to the quantity's rows (E, N), the
+    label of each row, the limit, its label and quantity; `norm`: the limit is on the length
+    of the rows' vector (tilt), else on every |row| (β of each edge, the differential of
+    each pair, the curvature at each inner point of a pipe)."""
 
+    kind: str
     receptor_id: str
     parts: list
     operator: np.ndarray
-    edge_ids: list
+    row_ids: list
     limit: float
     label: str
+    quantity: str
+    norm: bool = False
 
     def settlements(self, per_group: list) -> np.ndarray:
-        """This building's point settlements out of per-group arrays (first axis: points)."""
+        """This receptor's point settlements out of per-group arrays (first axis: points)."""
         return np.concatenate([per_group[g][k] for g, k in self.parts])
 
+    def value(self, settled: list) -> float:
+        """The quantity for the groups' settlements (m): largest |row|, or the length."""
+        q = self.operator @ self.settlements(settled)
+        return float(np.hypot(*q)) if self.norm else float(np.abs(q).max(initial=0.0))
 
-def _distortions(site, groups) -> list[_Distortion]:
-    """The buildings with an angular distortion limit and at least two settlement points."""
+
+def _combinations(site, groups) -> list[_Combination]:
+    """Every linear settlement limit in force at the buildings and pipes on the map: the
+    lowest of each quantity (and, for pipes, of each differential length)."""
     out = []
     for b in site.receptors.buildings:
-        found = [lim for lim in _limits_at(site.settings, "building", b.id)
-                 if lim.quantity == "angular_distortion"]
-        parts = [(g, np.flatnonzero(groups[g].frame["receptor_id"].astype(str).to_numpy()
-                                    == str(b.id))) for g in range(len(groups))]
-        parts = [(g, k) for g, k in parts if len(k)]
-        if not found or sum(len(k) for _, k in parts) < 2:
-            continue
-        xy = np.concatenate([groups[g].frame[["x", "y"]].to_numpy(float)[k] for g, k in parts])
-        ids = np.concatenate([groups[g].frame["point_id"].astype(str).to_numpy()[k]
-                              for g, k in parts])
-        operator, edges = distortion_operator(xy, outline=np.asarray(b.geometry.exterior.coords))
-        lowest = min(found, key=lambda lim: lim.value)
-        out.append(_Distortion(str(b.id), parts, operator,
-                               [f"{ids[a]}–{ids[c]}" for a, c in edges], lowest.value,
-                               lowest.label))
+        out += _building_combinations(site, groups, b)
+    for pipe in site.receptors.pipes:
+        out += _pipe_combinations(site, groups, pipe)
     return out
 
 
-def _distortion_maps(groups, distortions, spec, receptors) -> list:
-    """The linearised angular distortion map of each building: each edge's relative
-    rotation is linear in the point settlements, so |β_now + m·β_template(c)| reaching the
-    limit at any edge is found like a stress limit (two-sided: β may turn either way)."""
+def _points_of(groups, rid: str, order_by=None):
+    """(parts, plan xy, point ids, chainage) of one receptor's settlement points, in
+    chainage order when `order_by` is "chainage"."""
+    parts = [(g, np.flatnonzero(groups[g].frame["receptor_id"].astype(str).to_numpy() == rid))
+             for g in range(len(groups))]
+    parts = [(g, k) for g, k in parts if len(k)]
+    if not parts:
+        return [], np.zeros((0, 2)), np.array([], dtype=str), np.zeros(0)
+    frame = pd.concat([groups[g].frame.iloc[k] for g, k in parts])
+    chainage = frame["chainage"].to_numpy(float) if "chainage" in frame else np.zeros(len(frame))
+    if order_by == "chainage":
+        order = np.argsort(chainage, kind="stable")
+        where = [(g, i) for g, k in parts for i in k]
+        parts = [(g, np.array([i])) for g, i in (where[o] for o in order)]
+        frame, chainage = frame.iloc[order], chainage[order]
+    return parts, frame[["x", "y"]].to_numpy(float), frame["point_id"].astype(str).to_numpy(), \
+        chainage
+
+
+def _lowest(settings, kind, rid, quantity, length=None):
+    """The lowest limit of `quantity` in force at a receptor, of a differential judged over
+    `length` (None: a pipe's own differential length); None where there is none."""
+    found = [lim for lim in _limits_at(settings, kind, rid) if lim.quantity == quantity
+             and lim.length_m == length]
+    return min(found, key=lambda lim: lim.value) if found else None
+
+
+def _pair_rows(n: int, pairs: np.ndarray) -> np.ndarray:
+    rows = np.zeros((len(pairs), n))
+    rows[np.arange(len(pairs)), pairs[:, 0]] = 1.0
+    rows[np.arange(len(pairs)), pairs[:, 1]] = -1.0
+    return rows
+
+
+def _pair_ids(ids, pairs) -> list:
+    return [f"{ids[a]}–{ids[c]}" for a, c in pairs]
+
+
+def _building_combinations(site, groups, b) -> list[_Combination]:
+    """Angular distortion (each wall edge), differential settlement (every pair of points)
+    and tilt (the tilt plane's gradient) of one building with two or more points."""
+    rid = str(b.id)
+    parts, xy, ids, _ = _points_of(groups, rid)
+    if len(ids) < 2:
+        return []
     out = []
-    for d in distortions:
-        response = np.einsum("en,nyx->eyx", d.operator,
-                             d.settlements([g.response for g in groups]))
-        now = d.operator @ d.settlements([g.current for g in groups])
-        m = hd.response_headroom_map(spec, response, d.limit, now, two_sided=True)
+    beta = _lowest(site.settings, "building", rid, "angular_distortion")
+    if beta is not None:
+        operator, edges = distortion_operator(xy, outline=np.asarray(b.geometry.exterior.coords))
+        out.append(_Combination("building", rid, parts, operator, _pair_ids(ids, edges),
+                                beta.value, beta.label, beta.quantity))
+    diff = _lowest(site.settings, "building", rid, "differential_settlement")
+    if diff is not None:
+        pairs = np.array([(i, j) for i in range(len(ids)) for j in range(i + 1, len(ids))])
+        out.append(_Combination("building", rid, parts, _pair_rows(len(ids), pairs),
+                                _pair_ids(ids, pairs), diff.value, diff.label, diff.quantity))
+    tilt = _lowest(site.settings, "building", rid, "tilt")
+    if tilt is not None:
+        out.append(_Combination("building", rid, parts, tilt_operator(xy), ["tilt plane"],
+                                tilt.value, tilt.label, tilt.quantity, norm=True))
+    return out
+
+
+def _pipe_combinations(site, groups, pipe) -> list[_Combination]:
+    """Differential settlement within each length in force (pairs of points at most that
+    far apart in chainage) and curvature (each inner point) of one pipe."""
+    rid = str(pipe.id)
+    parts, _, ids, chainage = _points_of(groups, rid, order_by="chainage")
+    if len(ids) < 2:
+        return []
+    out = []
+    lengths = {lim.length_m for lim in _limits_at(site.settings, "pipe", rid)
+               if lim.quantity == "differential_settlement"}
+    for length in sorted(lengths, key=lambda v: (v is not None, v or 0.0)):
+        lim = _lowest(site.settings, "pipe", rid, "differential_settlement", length)
+        pairs = pairs_within(chainage, pipe.differential_length if length is None else length)
+        if len(pairs):
+            out.append(_Combination("pipe", rid, parts, _pair_rows(len(ids), pairs),
+                                    _pair_ids(ids, pairs), lim.value, lim.label, lim.quantity))
+    bend = _lowest(site.settings, "pipe", rid, "pipe_curvature")
+    if bend is not None and len(ids) >= 3:
+        out.append(_Combination("pipe", rid, parts, curvature_operator(chainage),
+                                [str(p) for p in ids[1:-1]], bend.value, bend.label,
+                                bend.quantity))
+    return out
+
+
+def _combination_maps(groups, combinations, spec, receptors) -> list:
+    """The linearised map of each linear settlement limit: the quantity of the present
+    settlement plus m times that of the template's linearised settlement reaching the
+    limit (decide.headroom.combination_headroom_map; two-sided: β, a differential or a
+    curvature may turn either way)."""
+    out = []
+    for c in combinations:
+        m = hd.combination_headroom_map(spec, c.operator,
+                                        c.settlements([g.response for g in groups]),
+                                        c.settlements([g.current for g in groups]), c.limit,
+                                        norm=c.norm)
         first = len(receptors)
-        receptors += [("building", d.receptor_id, e, d.label, "angular_distortion")
-                      for e in d.edge_ids]
+        receptors += [(c.kind, c.receptor_id, r, c.label, c.quantity) for r in c.row_ids]
         out.append(_offset(m, first))
     return out
 
@@ -378,7 +468,7 @@ def _recheck(res, template, spec, points, lin_settle, stress, count):
                         columns=columns), settled, factor, worst
 
 
-def _full_multiple(site, template, spec, cell, groups, distortions) -> float:
+def _full_multiple(site, template, spec, cell, groups, combinations) -> float:
     """The template placed for real on `cell` (direct solver at every settlement point's
     sublayers) and the multiple at which the full 1-D settlement first reaches a settlement
     or angular distortion limit (decide.max_height.scale_at_limit)."""
@@ -394,8 +484,8 @@ def _full_multiple(site, template, spec, cell, groups, distortions) -> float:
                    for g, a in zip(groups, added)]
         worst = max((float(np.nanmax(s / g.limit)) for g, s in zip(groups, settled)
                      if np.isfinite(g.limit).any()), default=0.0)
-        for d in distortions:
-            worst = max(worst, float(np.abs(d.operator @ d.settlements(settled)).max()) / d.limit)
+        for c in combinations:
+            worst = max(worst, c.value(settled) / c.limit)
         return worst
 
     return scale_at_limit(utilisation, rtol=1e-6).scale
