@@ -372,3 +372,120 @@ def test_on_overconsolidated_clay_the_distortion_recheck_is_the_full_model(tmp_p
     use, label = _mapped_use(compute(_distortion_site(tmp_path, OC_CLAY,
                                                       _placed(spec, cell, row["full_multiple"]))))
     assert use == pytest.approx(1.0, rel=2e-3) and label.startswith("beta")
+
+
+# The limits linear in a receptor's point settlements (issue 16): differential settlement
+# of a building (any two points) and of a pipe (within a length), a building's tilt and a
+# pipe's curvature. Invented site: a ballast heap in place beside a cabin and a gas main.
+SIDINGS = """
+[site]
+name = "Wrenfold sidings"
+crs = "EPSG:32630"
+[grid]
+cell = 2.0
+margin = 8.0
+convergence_check = false
+[bodies.ballast]
+kind = "footprint"
+outline = [[450000, 5800000], [450014, 5800000], [450014, 5800010], [450000, 5800010]]
+height = 2.5
+unit_weight = 16.0
+{extra}
+[[buildings]]
+id = "cabin"
+outline = [[450024, 5799998], [450034, 5799998], [450034, 5800006], [450024, 5800006]]
+foundation_depth = 0.6
+interior_spacing = 4.0
+[[pipes]]
+id = "gas_main"
+line = [[449996, 5800018], [450040, 5800020]]
+crown_depth = 1.2
+diameter = 0.3
+spacing = 2.0
+differential_length = 6.0
+[soil]
+water_table = 1.5
+rigid_base = 10.0
+{soil}
+[limits]
+published = false
+{limits}
+[headroom]
+kind = "rectangle"
+size_x = 6.0
+size_y = 6.0
+pressure = 50.0
+recheck = 4
+"""
+SIDINGS_SILT = SILT.replace("bottom = 12.0", "bottom = 10.0").replace("0.0004", "0.0003")
+SIDINGS_CLAY = OC_CLAY.replace("bottom = 12.0", "bottom = 10.0")
+# (limits text, the limit label and quantity it maps): each alone, so that it governs
+LINEAR_LIMITS = [
+    ("differential_settlement = 10.0", "differential_settlement", "differential_settlement"),
+    ("tilt = 0.001", "tilt", "tilt"),
+    ("pipe_differential = 5.0\npipe_differential_length = 4.0", "pipe_differential",
+     "differential_settlement"),
+    ("pipe_radius_min = 2000.0", "pipe_radius_min", "pipe_curvature"),
+]
+
+
+def _sidings(tmp_path, limits, soil=SIDINGS_SILT, extra=""):
+    path = tmp_path / "sidings.toml"
+    path.write_text(SIDINGS.format(extra=extra, soil=soil, limits=limits))
+    return load_site(path)
+
+
+def _use_of(res, receptor_id, label) -> tuple[float, float]:
+    """(utilisation of `label` at `receptor_id`, largest utilisation of the run)."""
+    rows = [r.row for r in res.limits.rows]
+    mine = [r.utilisation for r in rows if (r.receptor_id, r.limit.label) == (receptor_id, label)]
+    return max(mine), max(r.utilisation for r in rows)
+
+
+@pytest.mark.parametrize("limits, label, quantity", LINEAR_LIMITS)
+def test_on_a_linear_soil_each_linear_settlement_limit_is_reached_at_the_mapped_multiple(
+        tmp_path, limits, label, quantity):
+    """mv settlement is linear in Δσz and each quantity linear in the settlements: the map is
+    the brute force (the full re-checks agree with it), and the template placed for real at
+    random cells governed by the limit reaches it at the mapped multiple."""
+    found = compute(_sidings(tmp_path, limits)).headroom
+    kinds = {found.receptors[g][3:] for g in np.unique(found.governing[found.governing >= 0])}
+    assert kinds == {(label, quantity)}
+    np.testing.assert_allclose(found.checks["full_multiple"],
+                               found.checks["linearised_multiple"], rtol=1e-5)
+    assert found.factor == 1.0
+    rng = np.random.default_rng(16)
+    cells = np.argwhere(np.isfinite(found.multiple) & (found.multiple > 0.05)
+                        & (found.multiple < 20))
+    for cell in cells[rng.choice(len(cells), 2, replace=False)]:
+        rid = found.receptors[found.governing[tuple(cell)]][1]
+        res = compute(_sidings(tmp_path, limits,
+                               extra=_placed(found.spec, cell, found.multiple[tuple(cell)])))
+        use, top = _use_of(res, rid, label)
+        assert use == pytest.approx(1.0, rel=5e-3) and top == pytest.approx(use)
+
+
+@pytest.mark.parametrize("limits, label, quantity", LINEAR_LIMITS)
+def test_on_overconsolidated_clay_each_linear_settlement_limit_is_rechecked_on_the_full_model(
+        tmp_path, limits, label, quantity):
+    """OCR 1.4 clay: the lowest re-checked cell holds its full-model multiple, which the
+    template placed for real reaches; the other settlement-governed cells are the
+    linearisation times the factor of the re-checks."""
+    found = compute(_sidings(tmp_path, limits, SIDINGS_CLAY)).headroom
+    spec, checks = found.spec, found.checks
+    row = checks[checks["selection"] == "lowest"].iloc[0]
+    cell = (int(np.searchsorted(spec.y_centres, row["y"])),
+            int(np.searchsorted(spec.x_centres, row["x"])))
+    assert found.multiple[cell] == pytest.approx(row["full_multiple"])
+    assert found.factor == (found.worst_ratio if found.unsafe else 1.0)
+    rc = np.column_stack([np.searchsorted(spec.y_centres, checks["y"]),
+                          np.searchsorted(spec.x_centres, checks["x"])])
+    others = np.isfinite(found.linearised)
+    others[rc[:, 0], rc[:, 1]] = False
+    np.testing.assert_allclose(found.multiple[others], found.linearised[others] * found.factor,
+                               rtol=1e-12)
+    rid = found.receptors[found.governing[cell]][1]
+    res = compute(_sidings(tmp_path, limits, SIDINGS_CLAY,
+                           _placed(spec, cell, row["full_multiple"])))
+    use, top = _use_of(res, rid, label)
+    assert use == pytest.approx(1.0, rel=5e-3) and top == pytest.approx(use)
