@@ -154,3 +154,57 @@ def test_sensitivity_is_the_tangent_or_the_secant_of_the_log_law():
     assert secant == pytest.approx(2 * 0.3 / 1.9 * np.log10(70 / 30) / 40, rel=1e-12)
     with pytest.raises(InputError, match="step_kpa"):
         settlement_sensitivity(p, [3.0], [2.0], [[0.0]], step_kpa=0.0)
+
+
+def _first_reached(quantity, limit, hi=1e3) -> float:
+    """Slow reference: the least m >= 0 with quantity(m) >= limit, by a scan and bisection
+    (inf when not reached by `hi`)."""
+    grid = np.concatenate([[0.0], np.geomspace(1e-6, hi, 4000)])
+    over = np.flatnonzero([quantity(m) >= limit for m in grid])
+    if not len(over):
+        return np.inf
+    if over[0] == 0:
+        return 0.0
+    lo, up = grid[over[0] - 1], grid[over[0]]
+    for _ in range(80):
+        mid = 0.5 * (lo + up)
+        lo, up = (lo, mid) if quantity(mid) >= limit else (mid, up)
+    return up
+
+
+@pytest.mark.parametrize("norm", [False, True])
+def test_a_combination_map_is_where_the_quantity_first_reaches_its_limit(norm):
+    """combination_headroom_map against a brute-force search of m on each cell, for random
+    operators, responses of either sign and a present state (rows chunked: 2 cells a chunk)."""
+    from fillstress.decide.headroom import combination_headroom_map
+    rng = np.random.default_rng(21)
+    spec = GridSpec(0.0, 0.0, 1.0, 1.0, 4, 3)
+    op = rng.normal(size=(2 if norm else 5, 6))
+    response = rng.normal(size=(6,) + spec.shape) * 1e-3
+    response[:, 0, 0] = 0.0                                   # a cell the load does not reach
+    current = rng.normal(size=6) * 1e-3
+    limit = 1.5 * float(np.abs(op @ current).max()) if not norm else 1.5 * float(
+        np.hypot(*(op @ current)))
+    found = combination_headroom_map(spec, op, response, current, limit, norm=norm,
+                                     cells_per_chunk=2 * spec.nx * spec.ny)
+    for j in range(spec.ny):
+        for i in range(spec.nx):
+            def quantity(m):
+                q = op @ (current + m * response[:, j, i])
+                return float(np.hypot(*q)) if norm else float(np.abs(q).max())
+            expected = _first_reached(quantity, limit)
+            assert found.multiple[j, i] == pytest.approx(expected, rel=1e-9)
+            if not norm and np.isfinite(expected):
+                q = op @ (current + expected * response[:, j, i])
+                assert found.governing[j, i] == int(np.argmax(np.abs(q)))
+    assert found.multiple[0, 0] == np.inf and found.governing[0, 0] == -1
+
+
+def test_a_combination_already_over_its_limit_has_no_headroom():
+    from fillstress.decide.headroom import combination_headroom_map
+    spec = GridSpec(0.0, 0.0, 1.0, 1.0, 2, 1)
+    response = np.array([[[1e-3, 0.0]], [[0.0, 0.0]]])
+    for norm in (False, True):
+        m = combination_headroom_map(spec, [[1.0, -1.0], [0.5, 0.5]], response, [0.03, 0.0],
+                                     0.02, norm=norm)
+        assert m.multiple.tolist() == [[0.0, np.inf]]

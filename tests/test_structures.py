@@ -273,3 +273,32 @@ def test_the_distortion_operator_gives_the_angular_distortion_of_the_check(layou
         s = rng.uniform(0.0, 0.08, len(xy))
         expected = building_settlement("b", xy, s, outline=outline).angular_distortion
         assert float(np.abs(R @ s).max()) == pytest.approx(expected, rel=1e-10, abs=1e-15)
+
+
+@pytest.mark.parametrize("collinear", [False, True])
+def test_the_tilt_operator_gives_the_tilt_of_the_check(collinear):
+    """|G s| of structures.tilt_operator is building_settlement's tilt (its lstsq plane)."""
+    from fillstress.structures import tilt_operator
+    rng = np.random.default_rng(12)
+    xy = (np.column_stack([np.linspace(0, 20, 5), np.linspace(3, 9, 5)]) if collinear
+          else rng.uniform(0, 25, (8, 2)))
+    G = tilt_operator(xy)
+    for _ in range(5):
+        s = rng.uniform(0.0, 0.06, len(xy))
+        expected = building_settlement("b", xy, s).tilt
+        assert float(np.hypot(*(G @ s))) == pytest.approx(expected, rel=1e-10, abs=1e-15)
+
+
+def test_the_curvature_operator_and_pairs_within_give_the_pipe_check():
+    """max |C s| is pipe_settlement's curvature and the largest |s_i − s_j| over
+    pairs_within its differential, for any settlements on uneven chainages."""
+    from fillstress.structures import curvature_operator, pairs_within
+    rng = np.random.default_rng(4)
+    ch = np.cumsum(rng.uniform(0.5, 4.0, 12))
+    C, pairs = curvature_operator(ch), pairs_within(ch, 5.0)
+    for _ in range(5):
+        s = rng.uniform(0.0, 0.05, ch.size)
+        r = pipe_settlement("main", ch, s, np.zeros_like(ch), 5.0)
+        assert float(np.abs(C @ s).max()) == pytest.approx(r.curvature_max_per_m, rel=1e-10)
+        diff = float(np.abs(s[pairs[:, 0]] - s[pairs[:, 1]]).max())
+        assert diff == pytest.approx(r.differential_max_m, rel=1e-12)
