@@ -19,16 +19,18 @@ CAUTION = ("Settlement-governed values between re-checked cells are linearised a
 NOTE = ("Each cell holds the largest multiple of the template that may be placed centred on "
         "it, every load of the run in place, before the first mapped limit is reached at any "
         "receptor point. Stress limits (Δσz, Δσz/σ'v0) are exact by reciprocity (one FFT "
-        "slice per receptor depth). Settlement limits (the settlement of buildings and pipes "
-        "and the angular distortion of buildings, Burland & Wroth 1974, which is linear in "
-        "the settlements) are linearised about the present state "
-        "(the tangent of the 1-D e–log σ' law) and the lowest cells, with some spread over "
-        "the rest of the map, re-checked with the template placed for real on the full "
-        "settlement; where the full model allowed less, the settlement limits of every cell "
-        "are scaled by the worst ratio found and each re-checked cell holds its full-model "
-        "value. A body or pile template keeps its plan shape: its thickness is scaled. "
-        "Differential settlement, tilt, deflection ratio and the differential and curvature "
-        "of pipes are not mapped. Blank cells reach no mapped limit.")
+        "slice per receptor depth). Settlement limits are linearised about the present state "
+        "(the tangent of the 1-D e–log σ' law): the settlement of buildings and pipes and the "
+        "quantities linear in those settlements — a building's angular distortion (Burland & "
+        "Wroth 1974), differential settlement between any two of its points and tilt (the "
+        "least-squares plane), a pipe's differential settlement within each length in force "
+        "and its curvature. The lowest cells, with some spread over the rest of the map, are "
+        "re-checked with the template placed for real on the full settlement; where the full "
+        "model allowed less, the settlement limits of every cell are scaled by the worst "
+        "ratio found and each re-checked cell holds its full-model value. That scale is a "
+        "correction, not a bound: a cell between re-checks may allow less. A body or pile "
+        "template keeps its plan shape: its thickness is scaled. The deflection ratio has no "
+        "limit and is not mapped. Blank cells reach no mapped limit.")
 SHOWN_REGIONS = 4        # governing regions labelled on the map
 
 
@@ -55,7 +57,7 @@ def headroom_section(folder: ResultsFolder, img) -> str:
                           template=about.get("template", "template"),
                           height_per_multiple=_template_height(about, u),
                           length_unit=u.length)
-    keys = ("; hatched: a settlement or distortion limit governs" if settles else "") + (
+    keys = ("; hatched: a settlement-derived limit governs" if settles else "") + (
         "; markers: the cells re-checked on the full model" if about.get("rechecked_cells")
         else "")
     parts.append(img(png, f"Largest multiple of the {about.get('template', 'template')} "
@@ -69,15 +71,15 @@ def headroom_section(folder: ResultsFolder, img) -> str:
     return "".join(parts)
 
 
-LINEARISED = ("settlement", "angular_distortion")     # quantities mapped by a linearisation
+STRESS = ("stress_increase", "stress_ratio")     # exact by reciprocity; the rest linearised
 
 
 def _settlement_rows(governing) -> set[int]:
-    """1-based rows of headroom_governing.csv whose limit is a settlement limit (settlement
-    or angular distortion: linearised)."""
+    """1-based rows of headroom_governing.csv whose limit is derived from settlement
+    (settlement, angular distortion, differential, tilt, curvature: linearised)."""
     if governing is None or governing.empty:
         return set()
-    return {k + 1 for k, q in enumerate(governing["quantity"]) if str(q) in LINEARISED}
+    return {k + 1 for k, q in enumerate(governing["quantity"]) if str(q) not in STRESS}
 
 
 def _template_height(about: dict, u) -> float | None:
@@ -121,17 +123,26 @@ def _scaled_text(about: dict) -> str:
 
 
 def _regions_table(governing, u) -> str:
+    """Each receptor and limit that governs somewhere: its cells and area in all, and its
+    least multiple with the point, edge or pair giving it (headroom_governing.csv has a row
+    per point)."""
     if governing is None or governing.empty:
         return ""
     area = next(c for c in governing.columns if c.startswith("area"))
     x, y = (next(c for c in governing.columns if c.startswith(k)) for k in ("x_at", "y_at"))
-    rows = [[k + 1, r["receptor_kind"], r["receptor_id"], r["point_id"], r["limit"], r["cells"],
-             r[area], r["multiple_min"], r[x], r[y]]
-            for k, r in enumerate(governing.to_dict("records"))]
+    keys = ["receptor_kind", "receptor_id", "limit"]
+    grouped = governing.groupby(keys, sort=False)       # rows are by least multiple first
+    least = grouped.head(1).set_index(keys)
+    total = grouped[["cells", area]].sum()
+    rows = [[kind, rid, limit, r["quantity"], int(total.loc[key, "cells"]),
+             float(total.loc[key, area]),
+             r["multiple_min"], r["point_id"], r[x], r[y]]
+            for key, r in least.iterrows() for kind, rid, limit in [key]]
     unit = area.removeprefix("area_")
     return ("<h3>Where each limit governs</h3>"
-            + html_table(["row", "receptor", "id", "point", "limit", "cells", f"area ({unit})",
-                          "least multiple", f"x ({u.plan})", f"y ({u.plan})"], rows))
+            + html_table(["receptor", "id", "limit", "quantity", "cells", f"area ({unit})",
+                          "least multiple", "at point, edge or pair", f"x ({u.plan})",
+                          f"y ({u.plan})"], rows))
 
 
 def _checks_table(checks, u) -> str:
@@ -206,7 +217,7 @@ def headroom_figure(field: PlanField, *, codes=None, settlement_rows=(), governi
             ax.contourf(field.x, field.y, mask.astype(float), levels=[0.5, 1.5],
                         colors="none", hatches=["//"])
             handles.append(Patch(facecolor="none", edgecolor="black", hatch="//",
-                                 label="a settlement or distortion limit governs"))
+                                 label="a settlement-derived limit governs"))
     _draw_fill_outline(ax, fill)
     _draw_features(ax, buildings, pipes, boreholes)
     handles += _draw_checks(ax, checks)
