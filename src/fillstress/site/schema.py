@@ -476,8 +476,9 @@ UNCERTAIN_CORRELATIONS = Table(
 
 # --- where the next load can go ([headroom]) --------------------------------------------
 HEADROOM = Table("headroom", "A headroom map: the largest multiple of a template load that "
-                 "may be placed centred on each plan cell before the first stress, "
-                 "settlement or building angular distortion limit in force ([limits]) is "
+                 "may be placed centred on each plan cell before the first stress or "
+                 "settlement-derived limit in force ([limits]: settlement, differential "
+                 "settlement, angular distortion, tilt, pipe differential and curvature) is "
                  "reached at any receptor "
                  "(headroom.tif; stress limits exact by reciprocity, settlement limits "
                  "linearised about the present state and the lowest cells re-checked on "
