@@ -441,10 +441,14 @@ def test_stockpile_yard_maps_the_headroom_for_another_ore_pile(runs):
     about = json.loads((folder / "summary.json").read_text())["headroom"]
     assert about["template"] == "body ore_east" and about["rechecked_cells"] == 12
     assert float(multiple.min()) == pytest.approx(about["least"]["multiple"], rel=1e-6)
-    assert about["least"]["receptor_id"] in {"water_main_DN600", "warehouse"}
+    # the main's 20 mm within 12 m governs the least cell, beside the pile (issue 16)
+    assert (about["least"]["receptor_id"], about["least"]["limit"]) == ("water_main_DN600",
+                                                                        "pipe_differential")
+    assert about["governing_limit_type"] == "differential_settlement"
     checks = pd.read_csv(folder / "headroom_checks.csv", encoding="utf-8-sig")
     governing = pd.read_csv(folder / "headroom_governing.csv", encoding="utf-8-sig")
-    assert len(checks) == 12 and set(governing["limit"]) <= {"settlement", "beta_no_cracking"}
+    assert len(checks) == 12 and set(governing["limit"]) <= {
+        "settlement", "beta_no_cracking", "pipe_differential", "differential_max", "tilt_visible"}
     beta = governing[governing["limit"] == "beta_no_cracking"]      # Bjerrum (1963), 1/500
     assert set(beta["receptor_id"]) == {"warehouse"} and beta["cells"].sum() > 0
     assert (checks["full_multiple"] >= multiple.min() * (1 - 1e-6)).all()
