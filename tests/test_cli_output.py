@@ -120,6 +120,21 @@ def test_point_at_one_point_loads_no_compiler(site):
     assert out.strip().splitlines()[-1] == "[]"
 
 
+def test_point_on_a_site_with_uncertainty_loads_no_solver_library():
+    """The stockpile sample has [uncertainty]: its samples (scipy.stats) are drawn by a
+    run, not by `fillstress point`, which needs no root finder or triangulation either."""
+    src = str(Path(__file__).resolve().parents[1] / "src")
+    site = Path(__file__).resolve().parents[1] / "sample_sites" / "stockpile_yard" / "site.toml"
+    code = ("import sys; sys.path.insert(0, %r); from fillstress.cli import main\n"
+            "assert main(['point', '-q', %r, '512380', '5763470', '3.5']) == 0\n"
+            "print(sorted(m for m in %r if m in sys.modules))"
+            % (src, str(site), ("numba", "scipy.stats", "scipy.optimize", "scipy.spatial",
+                                "matplotlib", "xarray")))
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                         check=True).stdout
+    assert out.strip().splitlines()[-1] == "[]"
+
+
 def test_verbose_logs_each_step_with_its_time_and_keeps_the_answer(site, tmp_path, capsys):
     import logging
     try:

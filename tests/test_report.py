@@ -253,3 +253,22 @@ def test_boolean_flag_columns_mark_rows():
     rows = table.split("<tr")[2:]                     # skip the header row
     assert 'class="flagged"' not in rows[0]
     assert 'class="flagged"' in rows[1]
+
+
+def test_maps_sharing_a_layout_are_drawn_as_each_alone(truth):
+    """plan_maps places the later maps of a grid where the first's constrained layout put
+    its axes: each image equals the map drawn alone (its own layout), pixel for pixel."""
+    import io
+
+    from matplotlib.image import imread
+
+    from fillstress.report import figures
+    folder = ResultsFolder(truth.path)
+    slices, pipes = folder.plan_slices("dsz"), folder.features("pipes")
+    assert len(slices) >= 2
+    levels = figures.nice_levels(min(s.value_range()[0] for s in slices),
+                                 max(s.value_range()[1] for s in slices))
+    shared = figures.plan_maps(slices, levels=levels, pipes=pipes, fill=folder.fill_thickness())
+    for s, png in zip(slices, shared):
+        alone = figures.plan_map(s, levels=levels, pipes=pipes, fill=folder.fill_thickness())
+        np.testing.assert_array_equal(imread(io.BytesIO(png)), imread(io.BytesIO(alone)))

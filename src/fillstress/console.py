@@ -19,7 +19,6 @@ from rich.progress import (
 )
 from rich.table import Table
 
-from .io import tables
 from .progress import silent
 from .run.wording import CAUTIONS
 
@@ -150,6 +149,7 @@ class Console:
 
 # --- tables ---------------------------------------------------------------------------
 def body_rows(site):
+    from .io import tables      # with its table libraries: not loaded by `point`
     u = site.units
     out = tables.to_output_units
     rows = [[b.name, b.kind, b.stage, out(b.unit_weight, u, "unit_weight"),
@@ -279,6 +279,7 @@ def _plain(value):
 
 def point_json(result) -> dict:
     """`fillstress point --json`: the points as given and Δσz, in site units."""
+    from .io import tables
     site, u = result.site, result.site.units
     plan = tables.plan_unit(site.crs, u)[0] if site.crs is not None else u.length
     return {"site": site.name, "stage": result.stage, "method": site.method,

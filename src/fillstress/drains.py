@@ -26,7 +26,6 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.optimize import brentq
 
 from ._validate import finite, positive
 from .errors import InputError
@@ -271,4 +270,5 @@ def spacing_for_degree(drains: VerticalDrains, ch: float, target_u: float, years
         hi *= 1.5
         if hi > 1e3:
             return math.inf
+    from scipy.optimize import brentq  # loaded when solved: reading a site stays quick
     return brentq(shortfall, lo, hi, xtol=1e-6)

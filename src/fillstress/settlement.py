@@ -21,7 +21,6 @@ from dataclasses import dataclass
 from typing import Callable
 
 import numpy as np
-from scipy.optimize import brentq
 
 from ._validate import finite, finite_array, positive
 from .errors import InputError
@@ -567,6 +566,7 @@ def _invert_degree(u: float) -> float:
     hi = 1.0
     while degree_of_consolidation(hi) < u:
         hi *= 2.0
+    from scipy.optimize import brentq   # loaded when solved: reading a site stays quick
     return brentq(lambda t: degree_of_consolidation(t) - u, 0.0, hi, xtol=1e-15, rtol=1e-13)
 
 
@@ -825,6 +825,7 @@ def time_to_fraction(curve: Callable[[np.ndarray], np.ndarray], fraction: float,
     k = int(reached[0])
     if k == 0:
         return 0.0
+    from scipy.optimize import brentq
     return brentq(lambda x: float(np.asarray(curve(np.array([x])))[0]) - target,
                   grid[k - 1], grid[k], xtol=1e-9 * t_max)
 

@@ -350,8 +350,9 @@ class ResultsFolder:
         path = self.path / "stress_cube.nc"
         if own_file(self.path, path) is None:
             return None
-        try:
-            with xr.open_dataset(path) as ds:
+        from xarray.backends.h5netcdf_ import H5netcdfBackendEntrypoint
+        try:      # the writer's engine given as its class: naming it would load every engine
+            with xr.open_dataset(path, engine=H5netcdfBackendEntrypoint) as ds:
                 return ds.load()
         except (OSError, ValueError) as exc:
             raise InputError(f"cannot be read as NetCDF ({exc})", file=path) from None

@@ -132,10 +132,47 @@ def plan_map(field: PlanField, *, fill: PlanField | None = None, buildings=(), p
     >>> plan_map(f)[:4] == b"\\x89PNG"
     True
     """
+    return plan_maps([field], fill=fill, buildings=buildings, pipes=pipes,
+                     boreholes=boreholes, length_unit=length_unit, label=label,
+                     levels=levels)[0]
+
+
+def plan_maps(fields, *, levels=None, **common) -> list[bytes]:
+    """:func:`plan_map` of each field, sharing one layout when they share the levels.
+
+    Maps of one plan grid have the same extent, receptors, colour bar and ticks, so the
+    constrained layout solved for the first (the slow part of drawing a map: it draws the
+    figure once more to measure it) places the others exactly as it would place them.
+    `levels` (default: :func:`nice_levels` of all the fields) and the keywords of
+    :func:`plan_map` apply to every map.
+
+    Examples
+    --------
+    >>> f = PlanField("dsz", "plan", 2.0, np.arange(4.0), np.arange(3.0),
+    ...               np.arange(12.0).reshape(3, 4), "kPa")
+    >>> [png[:4] for png in plan_maps([f, f])] == [b"\\x89PNG"] * 2
+    True
+    """
+    if levels is None:
+        ranges = np.array([f.value_range() for f in fields], float)
+        levels = nice_levels(ranges[:, 0].min(), ranges[:, 1].max())
+    levels = np.asarray(levels, float)
+    out, positions = [], None
+    for field in fields:
+        fig, axes = _plan_figure(field, levels, positions, **common)
+        out.append(png_bytes(fig))
+        positions = positions or [a.get_position(original=True) for a in axes]  # the first
+    return out
+
+
+def _plan_figure(field: PlanField, levels, positions=None, *, fill=None, buildings=(),
+                 pipes=(), boreholes=(), length_unit="m", label=r"$\Delta\sigma_z$"):
+    """The map's figure and its (map, colour bar) axes; with `positions` (from a map of
+    the same layout) the axes are placed there instead of by the constrained layout."""
     from matplotlib.ticker import FuncFormatter, MaxNLocator
-    lo, hi = field.value_range()
-    levels = nice_levels(lo, hi) if levels is None else np.asarray(levels, float)
     fig = _new_figure(*_figure_size(field))
+    if positions is not None:
+        fig.set_layout_engine("none")
     ax = fig.add_subplot()
     filled = ax.contourf(field.x, field.y, field.values, levels=levels, cmap=PLAN_CMAP,
                          extend="both")
@@ -160,7 +197,10 @@ def plan_map(field: PlanField, *, fill: PlanField | None = None, buildings=(), p
     bar = fig.colorbar(filled, ax=ax, label=f"{label} ({field.units})", shrink=0.9,
                        ticks=levels)
     bar.ax.yaxis.set_major_formatter(FuncFormatter(lambda v, _: _level_text(v)))
-    return png_bytes(fig)
+    axes = (ax, bar.ax)
+    for a, pos in zip(axes, positions or ()):
+        a.set_position(pos)
+    return fig, axes
 
 
 def depth_profile(depth, series: dict, *, length_unit: str, value_label: str,

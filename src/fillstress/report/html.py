@@ -278,18 +278,18 @@ class _Report:
             lo, hi = levels.get(s.grid, (0.0, 0.0))
             slo, shi = s.value_range()
             levels[s.grid] = (min(lo, slo), max(hi, shi))
-        for s in slices:
-            png = figures.plan_map(s, fill=self.fill, buildings=self.buildings, pipes=self.pipes,
-                                   boreholes=self.boreholes, length_unit=plan_unit,
-                                   levels=figures.nice_levels(*levels[s.grid]))
-            parts.append(_img(png, f"Δσz ({self.u.pressure}) at depth {s.depth:g} "
-                                   f"{self.u.length} below the existing ground, plan grid "
-                                   f"'{s.grid}'"))
+        common = dict(fill=self.fill, buildings=self.buildings, pipes=self.pipes,
+                      boreholes=self.boreholes, length_unit=plan_unit)
+        for grid, (lo, hi) in levels.items():        # the maps of a grid share one layout
+            of_grid = [s for s in slices if s.grid == grid]
+            pngs = figures.plan_maps(of_grid, levels=figures.nice_levels(lo, hi), **common)
+            for s, png in zip(of_grid, pngs):
+                parts.append(_img(png, f"Δσz ({self.u.pressure}) at depth {s.depth:g} "
+                                       f"{self.u.length} below the existing ground, plan grid "
+                                       f"'{s.grid}'"))
         for s in self.f.plan_slices("settlement"):
-            png = figures.plan_map(s, fill=self.fill, buildings=self.buildings, pipes=self.pipes,
-                                   boreholes=self.boreholes, length_unit=plan_unit,
-                                   levels=figures.nice_levels(*s.value_range()),
-                                   label="settlement")
+            png = figures.plan_map(s, levels=figures.nice_levels(*s.value_range()),
+                                   label="settlement", **common)
             parts.append(_img(png, f"Final settlement ({self.u.settlement}) at the ground "
                                    f"surface along the load history, plan grid '{s.grid}'"))
         return "".join(parts)

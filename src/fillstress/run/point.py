@@ -6,7 +6,8 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..errors import InputError
-from ..site.build import Site, load_site
+from ..site.build import Site, build_site
+from ..site.config import read_site_file
 
 
 @dataclass
@@ -100,7 +101,7 @@ def point_stresses(path, xyz, stage=None) -> PointStresses:
     >>> res.stage, round(float(res.dsz[0]), 1)      # BH-01, 2 m below the pad centre (kPa)
     (2, 104.3)
     """
-    site = load_site(path)
+    site = build_site(read_site_file(path), draw_samples=False)   # no odds at points
     arr = np.asarray(xyz, float).reshape(-1, 3)
     pts = np.column_stack([arr[:, :2] * site.metres_per_unit, site.units.length_si(arr[:, 2])])
     if np.any(pts[:, 2] < 0):

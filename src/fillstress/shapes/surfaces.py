@@ -20,7 +20,6 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.spatial import Delaunay, QhullError
 
 from .. import crs as crsmod
 from .._validate import finite
@@ -156,6 +155,7 @@ def survey_triangles(pts, where=None) -> np.ndarray:
     xy = np.asarray(pts, dtype=float)[:, :2]
     if len(np.unique(xy, axis=0)) < len(xy):
         raise InputError("has two points at the same x, y", **where)
+    from scipy.spatial import Delaunay, QhullError   # scipy.spatial: only for survey points
     try:
         dt = Delaunay(xy)
     except QhullError:

@@ -488,7 +488,10 @@ def load_site(path) -> Site:
     return build_site(read_site_file(path))
 
 
-def build_site(cfg: SiteConfig) -> Site:
+def build_site(cfg: SiteConfig, *, draw_samples: bool = True) -> Site:
+    """The typed site of a validated site file; `draw_samples=False` leaves the
+    [uncertainty] samples undrawn until a run's odds (`fillstress point` needs none of
+    them, nor scipy.stats to draw them)."""
     s = cfg["site"]
     _check_method(cfg)
     with _located(cfg, "site"):            # the error names its argument: crs
@@ -511,7 +514,7 @@ def build_site(cfg: SiteConfig) -> Site:
                 grid.get("poisson") if grid.get("method") == "westergaard" else None,
                 ctx.ground, soil, _points(ctx, receptors), receptors,
                 replace(_settings(cfg, ctx.warnings), **_limits(cfg, receptors),
-                        uncertainty=_uncertainty(cfg, soil),
+                        uncertainty=_uncertainty(cfg, soil, draw_samples),
                         headroom=_headroom(ctx, spec)),
                 input_files=tuple(cfg.input_files()), plan_grids=_plan_grids(ctx, spec),
                 cut_reports={n: cut for n, (_, cut) in built.items() if cut is not None},
@@ -597,14 +600,14 @@ def _limits(cfg: SiteConfig, receptors: Receptors) -> dict:
                 limit_overrides=overrides, max_heights=bool(raw["max_heights"]))
 
 
-def _uncertainty(cfg: SiteConfig, soil):
+def _uncertainty(cfg: SiteConfig, soil, draw_samples: bool = True):
     """[uncertainty], typed (site/uncertainty.py); None without it."""
     layers = (cfg.get("soil") or {}).get("layers", [])
     try:
         return build_uncertainty(cfg.get("uncertainty"), soil,
                                  {n: b["unit_weight"] for n, b in cfg["bodies"].items()},
                                  {L["name"]: L.get("saturated_unit_weight") is not None
-                                  for L in layers}, cfg.path)
+                                  for L in layers}, cfg.path, draw_samples=draw_samples)
     except InputError as err:           # a sample's soil-model message in site-file words
         raise InputError(site_words(err.reason), file=err.file, key=err.key) from None
 

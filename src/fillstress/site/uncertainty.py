@@ -100,10 +100,10 @@ class Uncertainty:
 
 
 def build_uncertainty(raw: dict | None, soil, body_weights: dict, given_saturated: dict,
-                      where_file) -> Uncertainty | None:
+                      where_file, *, draw_samples: bool = True) -> Uncertainty | None:
     """The typed [uncertainty] of a validated site file (SI); `body_weights` maps each body
     to its unit weight, `given_saturated` each layer to whether its file gives a saturated
-    unit weight."""
+    unit weight. The samples are drawn and checked here unless `draw_samples` is False."""
     if raw is None:
         return None
     if soil is None:
@@ -119,6 +119,8 @@ def build_uncertainty(raw: dict | None, soil, body_weights: dict, given_saturate
                              key=f"uncertainty.parameters[{i}]")
     out = Uncertainty(params, _correlations(raw["correlations"], names, where_file),
                       int(raw["samples"]), int(raw["seed"]))
+    if not draw_samples:
+        return out
     try:                 # refused now, not after the stresses: the samples are seeded
         out.soil_profiles(soil, out.draw())
     except InputError as err:
