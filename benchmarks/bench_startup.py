@@ -2,6 +2,8 @@
 
     PYTHONPATH=src python benchmarks/bench_startup.py                    # this tree only
     PYTHONPATH=src python benchmarks/bench_startup.py --before aa69085   # and an older one
+    PYTHONPATH=src python benchmarks/bench_startup.py --before main --runs --repeat 3
+                                         # also whole `fillstress run`s of the sample sites
 
 Each command runs in a fresh process (numba cache warm: every tree runs once before
 timing), `--repeat` times, the trees alternating so both see the same load; the best
@@ -27,6 +29,14 @@ COMMANDS = {
     "`fillstress check`": ["check", str(SITE)],
 }
 IMPORTS = "import fillstress.cli, fillstress.console, fillstress.run.point"
+SAMPLE_SITES = ("stockpile_yard", "preload_surcharge", "bridge_approach")
+
+
+def run_commands(out: Path) -> dict:
+    """Whole runs of the sample sites, report and scene included, into `out`."""
+    return {f"`fillstress run` {name}": ["run", "-q", "--overwrite", "-o", str(out / name),
+                                         str(ROOT / "sample_sites" / name / "site.toml")]
+            for name in SAMPLE_SITES}
 
 
 def wall(args: list[str], src: Path) -> float:
@@ -44,12 +54,14 @@ def unpack(ref: str, into: Path) -> Path:
     return into / "src"
 
 
-def measure(trees: dict[str, Path], repeat: int) -> dict:
-    jobs = {name: ["-m", "fillstress.cli", *args] for name, args in COMMANDS.items()}
+def measure(trees: dict[str, Path], repeat: int, commands: dict = COMMANDS) -> dict:
+    jobs = {name: ["-m", "fillstress.cli", *args] for name, args in commands.items()}
     jobs["imports of `point` (no work)"] = ["-c", IMPORTS]
     jobs["bare `python -c pass`"] = ["-c", "pass"]
-    for src in trees.values():                       # compile or load the numba cache
-        wall(jobs["`fillstress point` (one point)"], src)
+    for src in trees.values():              # compile or load the numba cache, warm the files
+        for job in jobs:
+            if job.startswith(("`fillstress point`", "`fillstress run`")):
+                wall(jobs[job], src)
     best = {(job, tree): float("inf") for job in jobs for tree in trees}
     for _ in range(repeat):
         for job, args in jobs.items():
@@ -58,14 +70,15 @@ def measure(trees: dict[str, Path], repeat: int) -> dict:
     return best
 
 
-def markdown(before: str | None, repeat: int) -> tuple[list[str], dict]:
+def markdown(before: str | None, repeat: int, runs: bool = False) -> tuple[list[str], dict]:
     """The Markdown table and the best times {(job, tree): seconds}."""
     with tempfile.TemporaryDirectory() as tmp:
         trees = {"this tree": ROOT / "src"}
         if before:
             trees = {f"before ({before})": unpack(before, Path(tmp)), **trees}
+        commands = {**COMMANDS, **(run_commands(Path(tmp) / "runs") if runs else {})}
         load = os.getloadavg()[0]
-        best = measure(trees, repeat)
+        best = measure(trees, repeat, commands)
     bare = {tree: best["bare `python -c pass`", tree] for tree in trees}
     lines = [f"Best of {repeat} runs; load average {load:.1f} before, "
              f"{os.getloadavg()[0]:.1f} after (1 min).", "",
@@ -80,8 +93,10 @@ def main(argv=None) -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--before", help="a commit to compare with (its src/ via git archive)")
     ap.add_argument("--repeat", type=int, default=5)
+    ap.add_argument("--runs", action="store_true",
+                    help="also whole runs of the sample sites (report and scene included)")
     args = ap.parse_args(argv)
-    print("\n".join(markdown(args.before, args.repeat)[0]))
+    print("\n".join(markdown(args.before, args.repeat, args.runs)[0]))
 
 
 if __name__ == "__main__":

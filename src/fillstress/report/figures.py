@@ -296,5 +296,5 @@ def settlement_time(days, settlement, *, settlement_unit: str, title: str = "",
     return png_bytes(fig)
 
 
-__all__ = ["plan_map", "depth_profile", "chainage_profile", "settlement_time", "nice_levels",
+__all__ = ["plan_map", "plan_maps", "depth_profile", "chainage_profile", "settlement_time", "nice_levels",
            "png_bytes", "Feature"]
