@@ -122,14 +122,14 @@ def test_point_at_one_point_loads_no_compiler(site):
 
 def test_point_on_a_site_with_uncertainty_loads_no_solver_library():
     """The stockpile sample has [uncertainty]: its samples (scipy.stats) are drawn by a
-    run, not by `fillstress point`, which needs no root finder or triangulation either."""
+    run, not by `fillstress point`, which needs no root finder, triangulation or FFT."""
     src = str(Path(__file__).resolve().parents[1] / "src")
     site = Path(__file__).resolve().parents[1] / "sample_sites" / "stockpile_yard" / "site.toml"
     code = ("import sys; sys.path.insert(0, %r); from fillstress.cli import main\n"
             "assert main(['point', '-q', %r, '512380', '5763470', '3.5']) == 0\n"
             "print(sorted(m for m in %r if m in sys.modules))"
             % (src, str(site), ("numba", "scipy.stats", "scipy.optimize", "scipy.spatial",
-                                "matplotlib", "xarray")))
+                                "scipy.fft", "matplotlib", "xarray")))
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
                          check=True).stdout
     assert out.strip().splitlines()[-1] == "[]"

@@ -11,7 +11,6 @@ import math
 from dataclasses import dataclass
 
 import psutil
-import scipy.fft
 
 from .._validate import positive, whole_number, whole_pair
 from ..errors import CapacityError, InputError
@@ -90,6 +89,13 @@ def _fft_seconds(n: int) -> float:
     return 5.0 * n * math.log2(max(n, 2)) / FFT_FLOPS_PER_SECOND
 
 
+def _fast_len(n: int) -> int:
+    """scipy.fft.next_fast_len of a real transform; scipy.fft is loaded on first use
+    (reading a site needs none)."""
+    from scipy.fft import next_fast_len
+    return next_fast_len(n, real=True)
+
+
 def fft_working_bytes(tile_shape, out_shape) -> int:
     """Peak bytes of one exact FFT slice of a (ny, nx) load array onto an (my, mx) lattice.
 
@@ -103,8 +109,8 @@ def fft_working_bytes(tile_shape, out_shape) -> int:
     """
     ny, nx = _shape(tile_shape, "tile_shape")
     my, mx = _shape(out_shape, "out_shape")
-    fy = scipy.fft.next_fast_len(ny + my - 1, real=True)
-    fx = scipy.fft.next_fast_len(nx + mx - 1, real=True)
+    fy = _fast_len(ny + my - 1)
+    fx = _fast_len(nx + mx - 1)
     spectrum = _COMPLEX * fy * (fx // 2 + 1)
     real = _FLOAT * fy * fx
     nodes = _FLOAT * (ny + my) * (nx + mx)
@@ -141,8 +147,8 @@ def estimate_slices(shape, n_depths: int, *, pad_cells=(0, 0), tile=None) -> Est
     output = _FLOAT * n_depths * my * mx
     if tile is None:
         work = fft_working_bytes((ny, nx), (my, mx))
-        fy = scipy.fft.next_fast_len(ny + my - 1, real=True)
-        fx = scipy.fft.next_fast_len(nx + mx - 1, real=True)
+        fy = _fast_len(ny + my - 1)
+        fx = _fast_len(nx + mx - 1)
         # each depth also evaluates the corner function on the (ny+my) × (nx+mx) nodes
         seconds = ((1 + 2 * n_depths) * _fft_seconds(fy * fx)
                    + n_depths * (ny + my) * (nx + mx) / CORNERS_PER_SECOND)
@@ -150,8 +156,8 @@ def estimate_slices(shape, n_depths: int, *, pad_cells=(0, 0), tile=None) -> Est
                         f"{ny} × {nx} cells, {n_depths} depth(s), one transform of {fy} × {fx}")
     ty, tx = _shape(tile, "tile")
     pairs = math.ceil(ny / ty) * math.ceil(nx / tx) * math.ceil(my / ty) * math.ceil(mx / tx)
-    fy = scipy.fft.next_fast_len(2 * ty - 1, real=True)
-    fx = scipy.fft.next_fast_len(2 * tx - 1, real=True)
+    fy = _fast_len(2 * ty - 1)
+    fx = _fast_len(2 * tx - 1)
     work = fft_working_bytes((ty, tx), (ty, tx)) + _FLOAT * n_depths * ty * tx
     seconds = pairs * ((1 + 2 * n_depths) * _fft_seconds(fy * fx)
                        + n_depths * 4 * ty * tx / CORNERS_PER_SECOND)
