@@ -205,3 +205,20 @@ def test_only_fine_grained_bars_estimate_the_time_left():
     assert "6/6 steps" in shown["steps"] and "0:00:00" in shown["steps"]
     assert shown["steps"].count(":") < shown["points"].count(":")   # no time-left column
     assert "points" in shown["points"]
+
+
+def test_point_answers_where_only_the_odds_samples_are_refused(tmp_path, capsys):
+    """A normal Cc with COV 0.9 draws negative samples: `check` (and so `run`) refuses
+    them naming the key, while `fillstress point`, which computes no odds, answers."""
+    soil = ('\n[soil]\nwater_table = 1.0\nrigid_base = 12.0\n\n[[soil.layers]]\n'
+            'name = "soft clay"\ntop = 0.0\nbottom = 12.0\nunit_weight = 16.0\n'
+            'cc = 0.4\ncr = 0.05\ne0 = 1.4\nocr = 1.2\ncv = 1.0\n\n'
+            '[uncertainty]\nsamples = 200\nseed = 3\n\n[[uncertainty.parameters]]\n'
+            'layer = "soft clay"\nparameter = "cc"\ndistribution = "normal"\ncov = 0.9\n')
+    path = tmp_path / "site.toml"
+    path.write_text(SITE + soil, encoding="utf-8")
+    assert main(["check", str(path)]) != 0
+    assert "uncertainty.parameters[0]" in capsys.readouterr().err
+    assert main(["point", str(path), "500010", "5500010", "5", "--json"]) == 0
+    (p,) = json.loads(capsys.readouterr().out)["points"]
+    assert p["dsz"] == pytest.approx(4 * 0.2325 * 40.0, rel=2e-3)   # as the test above
