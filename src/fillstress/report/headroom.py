@@ -226,7 +226,7 @@ def headroom_figure(field: PlanField, *, codes=None, settlement_rows=(), governi
                 markeredgecolor="white", linestyle="none", zorder=7)
         handles.append(_line_handle("red", f"least: × {float(least['multiple']):.3g}",
                                     marker="*"))
-    _label_regions(ax, governing)
+    handles += _label_regions(ax, governing)
     ax.set_xlim(field.x[0] - _step(field.x) / 2, field.x[-1] + _step(field.x) / 2)
     ax.set_ylim(field.y[0] - _step(field.y) / 2, field.y[-1] + _step(field.y) / 2)
     ax.set_aspect("equal")
@@ -288,21 +288,26 @@ def _point_handle(style, label):
     return Line2D([], [], linestyle="none", markersize=6, label=label, **style)
 
 
-def _label_regions(ax, governing) -> None:
-    """The governing limit written at the least cell of the first few governing rows."""
+def _label_regions(ax, governing) -> list:
+    """A number at the least cell of the first few governing limits, and the legend
+    entries that name them (names written on the map overlap where limits meet)."""
     if governing is None or governing.empty:
-        return
+        return []
     x, y = (next(c for c in governing.columns if c.startswith(k)) for k in ("x_at", "y_at"))
-    seen = set()
+    seen, handles = set(), []
     for r in governing.to_dict("records"):
         key = (r["receptor_kind"], r["receptor_id"], r["limit"])
         if key in seen:
             continue
         seen.add(key)
+        number = str(len(seen))
+        ax.annotate(number, (r[x], r[y]), xytext=(6, -10), textcoords="offset points",
+                    fontsize=7, zorder=7, bbox=dict(boxstyle="circle,pad=0.2",
+                                                    facecolor="white", alpha=0.85,
+                                                    edgecolor="black", linewidth=0.5))
         text = f"{r['limit']} at {r['receptor_id']}".replace("$", r"\$")
-        ax.annotate(text, (r[x], r[y]), xytext=(8, -14), textcoords="offset points",
-                    fontsize=7, zorder=5, bbox=dict(boxstyle="round,pad=0.15",
-                                                    facecolor="white", alpha=0.7,
-                                                    edgecolor="none"))
+        handles.append(_point_handle(dict(marker=f"${number}$", color="black"),
+                                     f"{number}: {text} governs"))
         if len(seen) >= SHOWN_REGIONS:
             break
+    return handles
