@@ -15,7 +15,7 @@ PACKAGE = Path(__file__).resolve().parents[1] / "src" / "fillstress"
 
 # Lowest first. A module belongs to the first entry that is its name or a prefix of it.
 LAYERS = [
-    ["errors", "_validate", "progress", "units", "crs", "_version", "_lazy", "_summary"],
+    ["errors", "cautions", "_validate", "progress", "units", "crs", "_version", "_lazy", "_summary"],
     ["grid"],
     ["kernels"],
     ["solve"],

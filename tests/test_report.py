@@ -137,7 +137,7 @@ def test_inputs_convergence_provenance_cautions(page, truth):
             f"changes Δσz at the sample points by at most "
             f"{100 * conv['max_relative_change']:.2f} % (at point {conv['at_point']})") in body
     assert "licensed geotechnical engineer" in body
-    assert "Local codes and regulations govern" in body
+    assert "local codes and regulations govern" in body
     assert "Westergaard" in body and "superposition" in body
 
 

@@ -65,7 +65,7 @@ def test_title_heading_and_caution_name_the_site_and_date(page, truth):
     assert heading.startswith("Quillmere Yard preload trial") and "Δσz (kPa)" in heading
     body = browser.evaluate("document.body.innerText")
     assert date in body
-    assert "licensed geotechnical engineer" in body and "local codes govern" in body
+    assert "licensed geotechnical engineer" in body and "local codes and regulations govern" in body
     assert "elastic half-space" in body
     assert "PyVista" not in html.read_text(encoding="utf-8")
 

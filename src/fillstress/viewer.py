@@ -21,6 +21,7 @@ from scipy.interpolate import RegularGridInterpolator
 
 from ._lazy import require_extra
 from ._validate import finite, positive
+from .cautions import CORE_CAUTION
 from .errors import InputError
 from .io.atomic import write_atomic
 from .io.results import QUANTITIES, PlanField, ResultsFolder, quantity_unit_key
@@ -55,8 +56,7 @@ LATIN_TITLES = {"dsz": "stress increase dsz", "stress_ratio": "dsz / s'v0",
                 "settlement": "settlement", "sigma_v0": "s'v0 (initial effective)"}
 QUANTITY_WORDS = {"dsz": "vertical stress increase", "stress_ratio": "stress ratio",
                   "settlement": "settlement", "sigma_v0": "initial effective vertical stress"}
-CAUTION = ("For checking by a licensed geotechnical engineer; local codes govern. "
-           "Homogeneous elastic half-space, flexible load, superposition.")
+CAUTION = CORE_CAUTION + " Homogeneous elastic half-space, flexible load, superposition."
 KEYS_HELP = ("h  show or hide this list\n"
              "left drag  rotate    shift + left drag  pan    wheel  zoom\n"
              "r  re-frame    v  isometric view    w / s  wireframe / surface\n"

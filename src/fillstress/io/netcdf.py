@@ -29,6 +29,7 @@ from typing import Mapping, Sequence
 import numpy as np
 import xarray as xr
 
+from ..cautions import CORE_CAUTION
 from ..crs import as_crs, cf_grid_mapping
 from ..errors import InputError
 from ..grid import GridSpec
@@ -263,8 +264,7 @@ def _global_attrs(ds, units: UnitSystem, crs) -> dict:
              "summary": "Vertical stress increase (Boussinesq or Westergaard) in a "
                         "homogeneous elastic half-space under flexible fill loads, on "
                         "horizontal slices below existing ground, with the fill thickness, "
-                        "for each construction stage. For checking by a licensed "
-                        "geotechnical engineer; local codes govern.",
+                        "for each construction stage. " + CORE_CAUTION,
              "keywords": "vertical stress, fill, embankment, settlement, elastic half-space",
              "cdm_data_type": "Grid", "processing_level": "model output",
              "units_system": units.name}

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import re
 
+from ..cautions import CORE_CAUTION
+
 ASSUMPTIONS = (
     "Readings are compared with the project's own prediction: Δσz from linear elasticity "
     "(homogeneous elastic half-space, flexible fill, superposition), 1-D primary "
@@ -12,9 +14,8 @@ ASSUMPTIONS = (
     "after the last placement; the model fit scales compressibility and cv of every "
     "consolidating layer by one factor each (least squares, 95 % intervals from the "
     "Jacobian).")
-CAUTIONS = (
-    "Results are for checking by a licensed geotechnical engineer; local codes and "
-    "regulations govern. A forecast is only as good as the readings and the construction "
+CAUTIONS = CORE_CAUTION + (
+    " A forecast is only as good as the readings and the construction "
     "record it is fitted to.")
 
 

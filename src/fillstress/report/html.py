@@ -15,6 +15,7 @@ from pathlib import Path
 
 from pyproj import CRS
 
+from ..cautions import CHECKED_BY, CORE_CAUTION
 from ..errors import InputError
 from ..io.atomic import write_atomic
 from .corridor import alignment_section
@@ -82,10 +83,8 @@ LIMITATIONS = (
     "Building and pipe stiffness, and the interaction of structures with the ground, are "
     "ignored.",
 )
-CAUTIONS = (
-    "These results are for checking by a licensed geotechnical engineer before any use.",
-    "Local codes and regulations govern design and take precedence over this report.",
-)
+#: Shown when the folder's manifest does not carry the core caution itself.
+CAUTIONS = (CORE_CAUTION,)
 
 CSS = """
 body { font-family: "Helvetica Neue", Arial, sans-serif; color: #1d1d1d; margin: 2em auto;
@@ -405,7 +404,7 @@ class _Report:
         # the folder's own cautions, after the standard ones unless they already say them
         # (a run's manifest does: the page would repeat them)
         stated = _text_list(self.f.manifest.get("cautions"))
-        says_core = any("licensed geotechnical engineer" in t for t in stated)
+        says_core = any(CHECKED_BY in t for t in stated)
         return ([] if says_core else list(CAUTIONS)) + stated
 
     def cautions(self) -> str:

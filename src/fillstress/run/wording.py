@@ -2,6 +2,8 @@
 (one place, imported without the numerical stack)."""
 from __future__ import annotations
 
+from ..cautions import CORE_CAUTION
+
 ASSUMPTIONS = (
     "Vertical stress increase from linear elasticity: a homogeneous, isotropic, linear-elastic "
     "half-space (Boussinesq) or a half-space reinforced by thin rigid horizontal layers "
@@ -12,7 +14,6 @@ ASSUMPTIONS = (
     "reloading on Cr), with time by Terzaghi's 1-D theory, stages ramped over their build "
     "time (Olson 1977), radial drainage to vertical drains (Hansbo 1981, combined by "
     "Carrillo 1942) and secondary compression after the end of primary consolidation.")
-CAUTIONS = (
-    "Results are for checking by a licensed geotechnical engineer; local codes and regulations "
-    "govern. The elastic solutions do not represent stiff crusts over soft layers, rigid "
+CAUTIONS = CORE_CAUTION + (
+    " The elastic solutions do not represent stiff crusts over soft layers, rigid "
     "foundations, large strains, bearing failure or dynamic loads; check stability separately.")
