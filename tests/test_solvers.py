@@ -317,10 +317,65 @@ def test_direct_points_use_numpy_below_the_work_limit(monkeypatch):
     pts = random_points(grid, 5)
     calls = []
     real = auto.numpy_node_sum
-    monkeypatch.setattr(auto, "numpy_node_sum", lambda *a: calls.append(1) or real(*a))
+    monkeypatch.setattr(auto, "numpy_node_sum",
+                        lambda *a, **k: calls.append(1) or real(*a, **k))
     small = auto.stress_at_points(grid, pts, algorithm="direct")
     assert calls == [1]
     monkeypatch.setattr(auto, "NUMPY_WORK_LIMIT", 0)
     large = auto.stress_at_points(grid, pts, algorithm="direct")
     assert calls == [1]
     np.testing.assert_allclose(small, large, rtol=0, atol=1e-12 * np.abs(grid.pressure).max())
+
+
+@pytest.mark.parametrize("method,poisson", METHODS)
+def test_point_solver_called_many_times_equals_separate_calls(method, poisson, monkeypatch):
+    """A solver prepared once answers each call as a separate stress_at_points call would:
+    its own algorithm by its own size, the node weights and pyramid reused."""
+    from fillstress.solve import auto
+    grid = random_grid(8)
+    solver = auto.PointSolver(grid, method, poisson)
+    monkeypatch.setattr(auto, "DIRECT_WORK_LIMIT", 40 * solver.direct.nodes)
+    scale = np.abs(grid.pressure).max()
+    for seed, n in [(1, 7), (2, 300), (3, 25), (4, 300)]:       # direct, far, direct, far
+        pts = random_points(grid, seed, n=n)
+        chosen = solver.choose(n)
+        assert chosen == auto.choose_algorithm(grid, n)
+        alone = auto.stress_at_points(grid, pts, method, poisson)
+        np.testing.assert_allclose(solver(pts), alone, rtol=0, atol=1e-12 * scale)
+        exact = vertical_stress(grid, pts, method, poisson)
+        bound = 1e-3 * np.maximum(np.abs(exact), 0.01 * scale) if chosen == "far" else 1e-12 * scale
+        assert np.all(np.abs(solver(pts) - exact) <= bound)
+    assert solver.evaluator("far") is solver.evaluator("far")        # one pyramid
+
+
+def test_point_solver_leaves_numpy_once_its_work_adds_up(monkeypatch):
+    """numpy answers the first small calls; once the calls' work passes NUMPY_WORK_LIMIT
+    the compiled kernel takes over, with the same numbers."""
+    from fillstress.solve import auto
+    grid = random_grid(9)
+    pts = random_points(grid, 9, n=10)
+    solver = auto.PointSolver(grid)
+    calls = []
+    real = auto.numpy_node_sum
+    monkeypatch.setattr(auto, "numpy_node_sum",
+                        lambda *a, **k: calls.append(1) or real(*a, **k))
+    monkeypatch.setattr(auto, "NUMPY_WORK_LIMIT", 25 * solver.direct.nodes)
+    first, second, third = solver(pts), solver(pts), solver(pts)
+    assert len(calls) == 2                                   # 10 + 10 points, not 30
+    np.testing.assert_allclose(third, first, rtol=0, atol=1e-12 * np.abs(grid.pressure).max())
+    np.testing.assert_array_equal(first, second)
+
+
+def test_run_stress_prepares_each_new_grid():
+    """The run's evaluator keeps one grid's solver and builds a new one for another grid."""
+    from fillstress.examples import example_site
+    from fillstress.run.point import RunStress
+    from fillstress.site.build import load_site
+    site = load_site(example_site("preload_surcharge"))
+    a, b = (site.spec.load_grid(body.pressure) for body in site.bodies[:2])
+    pts = site.points[["x", "y", "depth"]].to_numpy(float)
+    evaluate = RunStress(site)
+    for g in (a, b, a):
+        np.testing.assert_allclose(evaluate(g, pts), vertical_stress(g, pts), rtol=0,
+                                   atol=1e-12 * np.abs(g.pressure).max())
+    assert evaluate(a, np.zeros((0, 3))).shape == (0,)

@@ -31,7 +31,7 @@ from .decisions import max_heights
 from .headroom import headroom_results, headroom_warnings
 from .limits import LimitResults, limit_results
 from .odds import odds_results
-from .point import stress
+from .point import RunStress, stress
 from .plan import describe_run, memory_cap, plan_pad, slices_need_tiles, validate_run
 
 from .wording import ASSUMPTIONS, CAUTIONS  # noqa: F401  (re-exported for the writers)
@@ -250,6 +250,7 @@ def compute(site: Site, progress=silent, client=None) -> RunResults:
     steps += site.settings.uncertainty is not None
     steps += site.settings.headroom is not None
     timings = {}
+    points_at = RunStress(site, client)
     with open_bar(progress, "computing", steps) as bar:
         step = _Steps(timings, bar)
         with step("receptor_points"):
@@ -265,7 +266,7 @@ def compute(site: Site, progress=silent, client=None) -> RunResults:
             with step("stress_ratios"):
                 settle.soil_results(res)
             with step("settlement"):
-                settle.settlement_results(res, lambda g, xyz: stress(site, g, xyz, client))
+                settle.settlement_results(res, points_at)
             if site.plan_grids:
                 with step("plan_settlement"):
                     res.plan_settlement = settle.plan_settlement(
@@ -275,7 +276,7 @@ def compute(site: Site, progress=silent, client=None) -> RunResults:
         res.limits = limit_results(res)
         if site.settings.max_heights:
             with step("max_heights"):
-                res.max_heights = max_heights(res, lambda g, xyz: stress(site, g, xyz, client))
+                res.max_heights = max_heights(res, points_at)
         if site.settings.headroom is not None:
             with step("headroom"):
                 res.headroom = headroom_results(res)
@@ -285,7 +286,7 @@ def compute(site: Site, progress=silent, client=None) -> RunResults:
                 res.odds = odds_results(res, client)
         if site.alignment is not None:
             with step("alignment"):
-                res.corridor = corridor_results(site, lambda g, xyz: stress(site, g, xyz, client))
+                res.corridor = corridor_results(site, points_at)
         if _conv_steps(site):
             with step("convergence_check"):
                 res.convergence = convergence_check(site, pts, client)

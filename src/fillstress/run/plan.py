@@ -85,13 +85,17 @@ def run_estimates(site) -> list[Estimate]:
     active = {k: direct_work(site.load_grid(k), 1) for k in site.stages}   # weighted nodes
     active |= {b.name: direct_work(site.spec.load_grid(b.pressure), 1) for b in site.bodies}
     steps: dict[str, list[Estimate]] = {}
+    prepared = set()               # a step's later calls on one load reuse its preparation
     for call in solver_calls(site):
         # half-size cells: about twice the weighted nodes along the fill's edges, four
         # times where the fill varies everywhere; take the upper bound
         g_shape, nodes = ((2 * shape[0], 2 * shape[1]), 4 * active[call.load]) if call.fine \
             else (shape, active[call.load])
+        algorithm = algorithm_for(call.n * nodes)
+        key = (call.step, call.load, algorithm)
         steps.setdefault(call.step, []).append(estimate_points(
-            g_shape, call.n, algorithm=algorithm_for(call.n * nodes), active_nodes=nodes))
+            g_shape, call.n, algorithm=algorithm, active_nodes=nodes, prepared=key in prepared))
+        prepared.add(key)
     for step, plan, n_depths in slice_calls(site):
         steps.setdefault(step, []).append(
             estimate_slices(shape, n_depths, pad_cells=_pad_cells(site, plan)))

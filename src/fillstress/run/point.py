@@ -145,3 +145,25 @@ def stress(site: Site, grid, xyz: np.ndarray, client=None) -> np.ndarray:
         return distributed_points(grid, xyz, site.method, site.poisson, client=client)
     from ..solve.auto import stress_at_points
     return stress_at_points(grid, xyz, site.method, site.poisson)
+
+
+class RunStress:
+    """``evaluate(grid, xyz)`` of a run's steps: Δσz (kPa) at (N, 3) points, as
+    :func:`stress` gives them. The last grid's solver (solve.auto.PointSolver: node
+    weights, far-field pyramid) is kept, so a step that asks depth after depth on one grid
+    (settlement columns, alignment profiles) prepares that grid once; one grid is kept at
+    a time, so the memory stays that of one call."""
+
+    def __init__(self, site: Site, client=None):
+        self.site, self.client = site, client
+        self._grid = self._solver = None
+
+    def __call__(self, grid, xyz: np.ndarray) -> np.ndarray:
+        if len(xyz) == 0 or self.client is not None:
+            return stress(self.site, grid, xyz, self.client)
+        if grid is not self._grid:
+            from ..solve.auto import PointSolver
+            self._solver = None                   # free the old solver before the new one
+            self._solver = PointSolver(grid, self.site.method, self.site.poisson)
+            self._grid = grid
+        return self._solver(xyz)

@@ -87,18 +87,17 @@ def settlement_results(res, evaluate) -> None:
     per_state = np.full((len(targets), len(states)), np.nan)
     points = {}                                  # row → (z, h, dsz per body, path)
     groups = []                                  # (rows, z, h, Δσz per body) by depth
-    for depth, idx in targets.groupby("depth").indices.items():
-        z, h = st.sublayers(soil, top_depth=float(depth))
+    columns = _columns_by_depth(soil, targets)
+    # body by body: evaluate prepares each body's grid once for the columns of all depths
+    by_body = [[evaluate(g, xyz).reshape(len(idx), len(z)) if len(z) else None
+                for idx, z, _, xyz in columns] for g in body_grids]
+    for k, (idx, z, h, _) in enumerate(columns):
         if len(z) == 0:
             per_state[idx] = 0.0
             groups.append((idx, None, None, None))
             continue
         sub = targets.iloc[idx]
-        xyz = np.column_stack([np.repeat(sub["x"].to_numpy(), len(z)),
-                               np.repeat(sub["y"].to_numpy(), len(z)),
-                               np.tile(z, len(sub))])
-        per_body = np.stack([evaluate(g, xyz).reshape(len(sub), len(z)) for g in body_grids],
-                            axis=1)                                        # (N, B, K)
+        per_body = np.stack([body[k] for body in by_body], axis=1)         # (N, B, K)
         dsz = np.einsum("eb,nbk->nek", active, per_body)                   # (N, E, K)
         groups.append((idx, z, h, per_body))
         # Unloading beyond σ'v0 (a deep excavation) leaves 1-D consolidation: those
@@ -130,6 +129,21 @@ def settlement_results(res, evaluate) -> None:
     res.settlement_columns = SettlementColumns(targets, active, groups)
     res.buildings, res.pipes = structure_checks(site, targets)
     history.settlement_record(res, targets, states, points)
+
+
+def _columns_by_depth(soil, targets: pd.DataFrame) -> list:
+    """(rows, sublayer mid-depths z, thicknesses h, (N·K, 3) points) of the settlement
+    columns, one entry per founding depth of `targets` (z empty where no compressible
+    soil lies below)."""
+    out = []
+    for depth, idx in targets.groupby("depth").indices.items():
+        z, h = st.sublayers(soil, top_depth=float(depth))
+        sub = targets.iloc[idx]
+        xyz = np.column_stack([np.repeat(sub["x"].to_numpy(), len(z)),
+                               np.repeat(sub["y"].to_numpy(), len(z)),
+                               np.tile(z, len(sub))])
+        out.append((idx, z, h, xyz))
+    return out
 
 
 def _one(path: st.StressPath, n: int) -> st.StressPath:

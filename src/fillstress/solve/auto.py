@@ -16,7 +16,7 @@ from ..errors import InputError
 from ..kernels import resolve_method
 from ..progress import open_bar, silent
 from ._checks import DEFAULT_ORDER, checked_grid, points_per_chunk
-from .nodes import node_weights, numpy_node_sum
+from .nodes import listed_nodes, node_weights, numpy_node_sum
 
 log = logging.getLogger(__name__)
 
@@ -53,12 +53,16 @@ def choose_algorithm(grid, n_points: int, algorithm: str = "auto") -> str:
     >>> choose_algorithm(g, 10), choose_algorithm(g, 10, "far")
     ('direct', 'far')
     """
+    if _checked_algorithm(algorithm) != "auto":
+        return algorithm
+    return algorithm_for(direct_work(grid, n_points))
+
+
+def _checked_algorithm(algorithm: str) -> str:
     if algorithm not in ALGORITHMS:
         raise InputError(f"must be one of {', '.join(ALGORITHMS)}; got {algorithm!r}",
                          argument="algorithm")
-    if algorithm != "auto":
-        return algorithm
-    return algorithm_for(direct_work(grid, n_points))
+    return algorithm
 
 
 def algorithm_for(work: int) -> str:
@@ -97,19 +101,32 @@ def point_evaluator(grid, method="boussinesq", poisson=None, *, algorithm="direc
 
 
 class _Direct:
-    """Direct summation: numpy for small work, the compiled node kernel otherwise."""
+    """Direct summation: numpy for small work, the compiled node kernel otherwise. The
+    node weights, their rows and the numpy path's listed nodes are prepared once, so a
+    solver called many times on one grid (a run's settlement columns) pays them once;
+    numpy serves only while the calls' work adds up to NUMPY_WORK_LIMIT (beyond that,
+    loading numba pays for itself)."""
 
     def __init__(self, grid, method, poisson):
-        self.grid, self.method, self.poisson = grid, method, poisson
-        self.nodes = int(np.count_nonzero(node_weights(grid.pressure)))
+        self.grid, self.spec = grid, resolve_method(method, poisson)
+        self.weights = node_weights(grid.pressure)
+        self.nodes = int(np.count_nonzero(self.weights))
+        self._rows = self._listed = None
+        self.work = 0                         # corner evaluations asked of this solver
 
     def __call__(self, points):
         pts = points_array(points)
-        if pts.shape[0] * self.nodes <= NUMPY_WORK_LIMIT:
-            spec = resolve_method(self.method, self.poisson)
-            return numpy_node_sum(self.grid, pts, spec.depth_scale, spec.second_term)
-        from .direct import vertical_stress
-        return vertical_stress(self.grid, pts, self.method, self.poisson)
+        self.work += pts.shape[0] * self.nodes
+        if self.work <= NUMPY_WORK_LIMIT:
+            if self._listed is None:
+                self._listed = listed_nodes(self.grid, self.weights)
+            return numpy_node_sum(self.grid, pts, self.spec.depth_scale,
+                                  self.spec.second_term, listed=self._listed)
+        from .direct import node_rows, vertical_stress
+        if self._rows is None:
+            self._rows = node_rows(self.weights)
+        return vertical_stress(self.grid, pts, self.spec.method, self.spec.poisson,
+                               node=self._rows)
 
 
 class _Far:
@@ -119,6 +136,62 @@ class _Far:
     def __call__(self, points):
         from .farfield import evaluate_pyramid
         return evaluate_pyramid(self.pyramid, points, tol=self.tol, floor=self.floor)
+
+
+class PointSolver:
+    """Δσz (kPa) at points below one load grid, for many calls: what does not depend on
+    the points (node weights, their rows, the far-field pyramid) is prepared once, and
+    each call chooses its algorithm by its own size as :func:`stress_at_points` does, so
+    its values are those of a :func:`stress_at_points` call with the same points.
+
+    The grid's pressures are read once: a solver does not see later changes to them.
+
+    Examples
+    --------
+    >>> from fillstress import LoadGrid
+    >>> solve = PointSolver(LoadGrid([[100.0]], x0=0.0, y0=0.0, dx=2.0, dy=2.0))
+    >>> solve([[0, 0, 2.0]]).round(2).tolist(), solve([[1, 1, 0.0]], algorithm="far").tolist()
+    ([17.52], [100.0])
+    """
+
+    def __init__(self, grid, method="boussinesq", poisson=None, *, tol=1e-3, floor=0.01,
+                 order=DEFAULT_ORDER):
+        self.grid = checked_grid(grid)
+        self.spec = resolve_method(method, poisson)
+        self.far_options = {"tol": tol, "floor": floor, "order": order}
+        self.direct = _Direct(self.grid, self.spec.method, self.spec.poisson)
+        self._far = None
+
+    def choose(self, n_points: int, algorithm: str = "auto") -> str:
+        """"direct" or "far" for `n_points` points (see :func:`choose_algorithm`)."""
+        if _checked_algorithm(algorithm) != "auto":
+            return algorithm
+        return algorithm_for(n_points * self.direct.nodes)
+
+    def evaluator(self, algorithm: str):
+        """The picklable callable ``f(points)`` of "direct" or "far" (built on first use)."""
+        if algorithm == "direct":
+            return self.direct
+        if self._far is None:
+            self._far = point_evaluator(self.grid, self.spec.method, self.spec.poisson,
+                                        algorithm="far", **self.far_options)
+        return self._far
+
+    def __call__(self, points, *, algorithm="auto", chunk_size=None, progress=None):
+        pts = points_array(points)
+        step = points_per_chunk(chunk_size, "chunk_size", DEFAULT_CHUNK)
+        chosen = self.choose(pts.shape[0], algorithm)
+        evaluate = self.evaluator(chosen)
+        out = np.empty(pts.shape[0])
+        log.info("stress at %d points by the %s algorithm, on a %s-cell load grid",
+                 pts.shape[0], chosen, " × ".join(map(str, np.shape(self.grid.pressure))))
+        with open_bar(progress or silent, f"stress at points ({chosen})", pts.shape[0],
+                      unit="points") as bar:
+            for start in range(0, pts.shape[0], step):
+                part = pts[start:start + step]
+                out[start:start + part.shape[0]] = evaluate(part)
+                bar.advance(part.shape[0])
+        return out
 
 
 def stress_at_points(grid, points, method="boussinesq", poisson=None, *, algorithm="auto",
@@ -163,33 +236,20 @@ def stress_at_points(grid, points, method="boussinesq", poisson=None, *, algorit
     >>> bool(np.all(np.abs(a - b) <= 1e-3 * np.maximum(np.abs(a), 1.0))), a.round(2).tolist()
     (True, [17.52, 100.0])
     """
-    pts, step, chosen, evaluate = prepare(grid, points, method, poisson, algorithm=algorithm,
-                                          chunk_size=chunk_size, tol=tol, floor=floor,
-                                          order=order)
-    out = np.empty(pts.shape[0])
-    log.info("stress at %d points by the %s algorithm, on a %s-cell load grid",
-             pts.shape[0], chosen, " × ".join(map(str, np.shape(grid.pressure))))
-    factory = progress or silent
-    with open_bar(factory, f"stress at points ({chosen})", pts.shape[0], unit="points") as bar:
-        for start in range(0, pts.shape[0], step):
-            part = pts[start:start + step]
-            out[start:start + part.shape[0]] = evaluate(part)
-            bar.advance(part.shape[0])
-    return out
+    solver = PointSolver(grid, method, poisson, tol=tol, floor=floor, order=order)
+    return solver(points, algorithm=algorithm, chunk_size=chunk_size, progress=progress)
 
 
 __all__ = ["stress_at_points", "choose_algorithm", "algorithm_for", "direct_work",
-           "point_evaluator", "DIRECT_WORK_LIMIT", "NUMPY_WORK_LIMIT", "ALGORITHMS"]
+           "point_evaluator", "PointSolver", "DIRECT_WORK_LIMIT", "NUMPY_WORK_LIMIT", "ALGORITHMS"]
 
 
 def prepare(grid, points, method="boussinesq", poisson=None, *, algorithm="auto",
             chunk_size=None, tol=1e-3, floor=0.01, order=DEFAULT_ORDER):
     """Checked points, chunk size, the chosen algorithm and its evaluator: what the serial
     and the Dask point paths share."""
-    grid = checked_grid(grid)
     pts = points_array(points)
     step = points_per_chunk(chunk_size, "chunk_size", DEFAULT_CHUNK)
-    chosen = choose_algorithm(grid, pts.shape[0], algorithm)
-    evaluate = point_evaluator(grid, method, poisson, algorithm=chosen, tol=tol, floor=floor,
-                               order=order)
-    return pts, step, chosen, evaluate
+    solver = PointSolver(grid, method, poisson, tol=tol, floor=floor, order=order)
+    chosen = solver.choose(pts.shape[0], algorithm)
+    return pts, step, chosen, solver.evaluator(chosen)

@@ -167,11 +167,13 @@ def estimate_slices(shape, n_depths: int, *, pad_cells=(0, 0), tile=None) -> Est
 
 
 def estimate_points(shape, n_points: int, *, algorithm: str = "direct", order: int = 4,
-                    active_nodes: int | None = None) -> Estimate:
+                    active_nodes: int | None = None, prepared: bool = False) -> Estimate:
     """Estimate one call of Δσz at `n_points` points below an (ny, nx) grid.
 
-    The time includes what each call prepares before its points (the node weights of
-    direct summation, the block pyramid of the far field).  ``algorithm="direct"`` counts `active_nodes` corner evaluations a point — the grid
+    The time includes what the call prepares before its points (the node weights of
+    direct summation, the block pyramid of the far field), unless `prepared` (a later
+    call of a ``solve.auto.PointSolver`` on the same grid).  ``algorithm="direct"``
+    counts `active_nodes` corner evaluations a point — the grid
     nodes with a non-zero weight, when the caller knows them (``solve.auto.direct_work``
     counts them) — or every grid node (an upper bound: nodes inside uniform fill are
     skipped); ``"far"`` the block pyramid and a per-point walk.
@@ -192,7 +194,7 @@ def estimate_points(shape, n_points: int, *, algorithm: str = "direct", order: i
         memory = _FLOAT * nodes + _FLOAT * (ny + 2) * (nx + 2) + 16 * nodes + point_arrays
         evaluated = nodes if active_nodes is None else whole_number(active_nodes, "active_nodes")
         seconds = (n_points * evaluated / CORNERS_PER_SECOND
-                   + nodes * DIRECT_SETUP_SECONDS_PER_NODE)
+                   + (not prepared) * nodes * DIRECT_SETUP_SECONDS_PER_NODE)
         return Estimate("points-direct", memory, seconds,
                         f"{cells} cells, {n_points} points, direct summation")
     if algorithm == "far":
@@ -206,7 +208,7 @@ def estimate_points(shape, n_points: int, *, algorithm: str = "direct", order: i
         build = cells * _FLOAT * (4 + 2 + 2 + n_mom)
         memory = build + blocks * _FLOAT * (5 + n_terms + n_mom) + point_arrays + n_points * 24
         seconds = (n_points * FAR_SECONDS_PER_POINT * max(1.0, math.log2(max(cells, 2)) / 20.0)
-                   + cells * PYRAMID_SECONDS_PER_CELL)
+                   + (not prepared) * cells * PYRAMID_SECONDS_PER_CELL)
         return Estimate("points-far", memory, seconds,
                         f"{cells} cells, {n_points} points, far-field order {order}")
     raise InputError(f"must be 'direct' or 'far', got {algorithm!r}", argument="algorithm")

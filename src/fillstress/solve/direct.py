@@ -151,9 +151,10 @@ def _cell_kernel(points, x_nodes, y_nodes, pressure, depth_scale, second_term, o
         out[p] = total
 
 
-def _run_node_kernel(grid: LoadGrid, pts: np.ndarray, spec: KernelSpec, chunk: int) -> np.ndarray:
+def _run_node_kernel(grid: LoadGrid, pts: np.ndarray, spec: KernelSpec, chunk: int,
+                     node: NodeRows | None = None) -> np.ndarray:
     x_nodes, y_nodes = node_coordinates(grid)
-    node = node_rows(node_weights(grid.pressure))
+    node = node_rows(node_weights(grid.pressure)) if node is None else node
     out = np.zeros(pts.shape[0])
     for start in range(0, pts.shape[0], chunk):
         part = pts[start:start + chunk]
@@ -172,7 +173,7 @@ def _run_cell_kernel(grid: LoadGrid, pts: np.ndarray, spec: KernelSpec, chunk: i
 
 
 def vertical_stress(grid, points, method="boussinesq", poisson=None, *, chunk=None,
-                    kernel="nodes") -> np.ndarray:
+                    kernel="nodes", node: NodeRows | None = None) -> np.ndarray:
     """Vertical stress increase Δσz (kPa) at points below a loaded grid.
 
     Parameters
@@ -191,6 +192,9 @@ def vertical_stress(grid, points, method="boussinesq", poisson=None, *, chunk=No
         interrupts on huge runs); the result does not depend on it.
     kernel : {"nodes", "cells"}
         "nodes" (default, faster) or the plain per-cell loop; equal to round-off.
+    node : NodeRows, optional
+        ``node_rows(node_weights(grid.pressure))`` when already at hand (a caller that
+        sums over one grid many times); computed here otherwise.
 
     Returns
     -------
@@ -209,7 +213,7 @@ def vertical_stress(grid, points, method="boussinesq", poisson=None, *, chunk=No
     spec = resolve_method(method, poisson)
     step = points_per_chunk(chunk, "chunk", max(pts.shape[0], 1))
     if kernel == "nodes":
-        return _run_node_kernel(grid, pts, spec, step)
+        return _run_node_kernel(grid, pts, spec, step, node)
     if kernel == "cells":
         return _run_cell_kernel(grid, pts, spec, step)
     raise InputError(f"must be 'nodes' or 'cells', got {kernel!r}", argument="kernel")

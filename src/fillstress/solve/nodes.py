@@ -72,12 +72,29 @@ def corner_terms(a: np.ndarray, b: np.ndarray, z: np.ndarray, depth_scale: float
     return np.where(r > 0.0, angle + second, 0.0)
 
 
+def listed_nodes(grid: LoadGrid, weights: np.ndarray | None = None):
+    """x, y (m) and weight of every node with a non-zero weight (`weights`: the grid's
+    :func:`node_weights`, computed when not given).
+
+    Examples
+    --------
+    >>> xn, yn, w = listed_nodes(LoadGrid([[2.0]], x0=0.0, y0=0.0, dx=1.0, dy=1.0))
+    >>> xn.tolist(), yn.tolist(), w.tolist()
+    ([0.0, 1.0, 0.0, 1.0], [0.0, 0.0, 1.0, 1.0], [2.0, -2.0, -2.0, 2.0])
+    """
+    weights = node_weights(grid.pressure) if weights is None else weights
+    rows, cols = np.nonzero(weights)
+    x_nodes, y_nodes = node_coordinates(grid)
+    return x_nodes[cols], y_nodes[rows], weights[rows, cols]
+
+
 def numpy_node_sum(grid: LoadGrid, points: np.ndarray, depth_scale: float,
-                   second_term: float) -> np.ndarray:
+                   second_term: float, *, listed=None) -> np.ndarray:
     """Δσz (kPa) at (N, 3) checked points by the node form in numpy (no compiled code).
 
     Equal to the compiled node kernel to round-off; meant for points × non-zero nodes up
-    to about 10⁶ (the work is done in blocks of :data:`NUMPY_BLOCK` terms).
+    to about 10⁶ (the work is done in blocks of :data:`NUMPY_BLOCK` terms). `listed`: the
+    grid's :func:`listed_nodes`, when already at hand.
 
     Examples
     --------
@@ -85,11 +102,7 @@ def numpy_node_sum(grid: LoadGrid, points: np.ndarray, depth_scale: float,
     >>> numpy_node_sum(g, np.array([[0, 0, 2.0], [1, 1, 0.0]]), 1.0, 1.0).round(2).tolist()
     [17.52, 100.0]
     """
-    weights = node_weights(grid.pressure)
-    rows, cols = np.nonzero(weights)
-    w = weights[rows, cols]
-    x_nodes, y_nodes = node_coordinates(grid)
-    xn, yn = x_nodes[cols], y_nodes[rows]
+    xn, yn, w = listed_nodes(grid) if listed is None else listed
     out = np.zeros(points.shape[0])
     step = max(1, NUMPY_BLOCK // max(w.size, 1))
     for start in range(0, points.shape[0], step):
