@@ -334,18 +334,31 @@ def test_point_solver_called_many_times_equals_separate_calls(method, poisson, m
     from fillstress.solve import auto
     grid = random_grid(8)
     solver = auto.PointSolver(grid, method, poisson)
-    monkeypatch.setattr(auto, "DIRECT_WORK_LIMIT", 40 * solver.direct.nodes)
     scale = np.abs(grid.pressure).max()
-    for seed, n in [(1, 7), (2, 300), (3, 25), (4, 300)]:       # direct, far, direct, far
+    for seed, n, algorithm in [(1, 7, "auto"), (2, 300, "far"), (3, 25, "direct"),
+                               (4, 300, "far")]:
         pts = random_points(grid, seed, n=n)
-        chosen = solver.choose(n)
-        assert chosen == auto.choose_algorithm(grid, n)
-        alone = auto.stress_at_points(grid, pts, method, poisson)
-        np.testing.assert_allclose(solver(pts), alone, rtol=0, atol=1e-12 * scale)
+        chosen = solver.choose(n, algorithm)
+        assert chosen == auto.choose_algorithm(grid, n, algorithm)
+        alone = auto.stress_at_points(grid, pts, method, poisson, algorithm=algorithm)
+        np.testing.assert_allclose(solver(pts, algorithm=algorithm), alone, rtol=0,
+                                   atol=1e-12 * scale)
         exact = vertical_stress(grid, pts, method, poisson)
         bound = 1e-3 * np.maximum(np.abs(exact), 0.01 * scale) if chosen == "far" else 1e-12 * scale
-        assert np.all(np.abs(solver(pts) - exact) <= bound)
+        assert np.all(np.abs(solver(pts, algorithm=algorithm) - exact) <= bound)
     assert solver.evaluator("far") is solver.evaluator("far")        # one pyramid
+
+
+def test_auto_goes_far_only_where_the_far_field_is_estimated_faster():
+    """Beyond the work limit the far field is taken only when its pyramid and walk are
+    estimated faster than direct summation (solve/cost.py rates): a few points below a
+    large grid stay exact."""
+    from fillstress.solve import auto
+    work, cells = 10 * auto.DIRECT_WORK_LIMIT, 4_000_000
+    assert auto.algorithm_for(work, cells, 50) == "far"           # 9.2 s direct, 0.8 s far
+    assert auto.algorithm_for(work, None, 50) == "far"            # by the work alone
+    assert auto.algorithm_for(work / 5, 40 * cells, 50) == "direct"   # 5 s direct, 32 s far
+    assert auto.algorithm_for(auto.DIRECT_WORK_LIMIT, 10 ** 9, 1) == "direct"
 
 
 def test_point_solver_leaves_numpy_once_its_work_adds_up(monkeypatch):

@@ -91,7 +91,7 @@ def run_estimates(site) -> list[Estimate]:
         # times where the fill varies everywhere; take the upper bound
         g_shape, nodes = ((2 * shape[0], 2 * shape[1]), 4 * active[call.load]) if call.fine \
             else (shape, active[call.load])
-        algorithm = algorithm_for(call.n * nodes)
+        algorithm = algorithm_for(call.n * nodes, g_shape[0] * g_shape[1], call.n)
         key = (call.step, call.load, algorithm)
         steps.setdefault(call.step, []).append(estimate_points(
             g_shape, call.n, algorithm=algorithm, active_nodes=nodes, prepared=key in prepared))

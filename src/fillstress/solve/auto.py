@@ -3,7 +3,8 @@
 Direct summation (exact) costs one corner evaluation per non-zero node weight per
 point; the far-field method (certified to ``tol``) costs a pyramid build plus a few
 hundred block visits per point.  ``algorithm="auto"`` uses direct summation while
-points × non-zero nodes stays below :data:`DIRECT_WORK_LIMIT`, else the far field.
+points × non-zero nodes stays below :data:`DIRECT_WORK_LIMIT`, and beyond it while
+direct summation is estimated no slower than the far field (:func:`algorithm_for`).
 """
 from __future__ import annotations
 
@@ -55,7 +56,7 @@ def choose_algorithm(grid, n_points: int, algorithm: str = "auto") -> str:
     """
     if _checked_algorithm(algorithm) != "auto":
         return algorithm
-    return algorithm_for(direct_work(grid, n_points))
+    return algorithm_for(direct_work(grid, n_points), grid.pressure.size, n_points)
 
 
 def _checked_algorithm(algorithm: str) -> str:
@@ -65,15 +66,29 @@ def _checked_algorithm(algorithm: str) -> str:
     return algorithm
 
 
-def algorithm_for(work: int) -> str:
-    """What "auto" picks for `work` corner evaluations (see :func:`direct_work`).
+def algorithm_for(work: int, cells: int | None = None, n_points: int = 0) -> str:
+    """What "auto" picks for `work` corner evaluations (see :func:`direct_work`) at
+    `n_points` points below a grid of `cells` cells: direct summation (exact) up to
+    :data:`DIRECT_WORK_LIMIT`, and beyond it while it is estimated no slower than the far
+    field with its block pyramid (solve/cost.py: a few hundred points below a large fine
+    grid); the far field otherwise. Without `cells`, by the work alone.
 
     Examples
     --------
     >>> algorithm_for(DIRECT_WORK_LIMIT), algorithm_for(DIRECT_WORK_LIMIT + 1)
     ('direct', 'far')
+    >>> algorithm_for(2e8, cells=15_000_000, n_points=500)   # 3.9 s direct, 3.0 s pyramid
+    'far'
+    >>> algorithm_for(1.4e8, cells=15_000_000, n_points=500)
+    'direct'
     """
-    return "direct" if work <= DIRECT_WORK_LIMIT else "far"
+    if work <= DIRECT_WORK_LIMIT:
+        return "direct"
+    if cells is None:
+        return "far"
+    from .cost import direct_seconds, far_seconds
+    faster = direct_seconds(work, cells) <= far_seconds(cells, n_points)
+    return "direct" if faster else "far"
 
 
 def point_evaluator(grid, method="boussinesq", poisson=None, *, algorithm="direct",
@@ -166,7 +181,7 @@ class PointSolver:
         """"direct" or "far" for `n_points` points (see :func:`choose_algorithm`)."""
         if _checked_algorithm(algorithm) != "auto":
             return algorithm
-        return algorithm_for(n_points * self.direct.nodes)
+        return algorithm_for(n_points * self.direct.nodes, self.grid.pressure.size, n_points)
 
     def evaluator(self, algorithm: str):
         """The picklable callable ``f(points)`` of "direct" or "far" (built on first use)."""

@@ -193,8 +193,7 @@ def estimate_points(shape, n_points: int, *, algorithm: str = "direct", order: i
         # node weights, padded pressure, compressed rows (int64 column + float value)
         memory = _FLOAT * nodes + _FLOAT * (ny + 2) * (nx + 2) + 16 * nodes + point_arrays
         evaluated = nodes if active_nodes is None else whole_number(active_nodes, "active_nodes")
-        seconds = (n_points * evaluated / CORNERS_PER_SECOND
-                   + (not prepared) * nodes * DIRECT_SETUP_SECONDS_PER_NODE)
+        seconds = direct_seconds(n_points * evaluated, nodes, prepared=prepared)
         return Estimate("points-direct", memory, seconds,
                         f"{cells} cells, {n_points} points, direct summation")
     if algorithm == "far":
@@ -207,11 +206,23 @@ def estimate_points(shape, n_points: int, *, algorithm: str = "direct", order: i
         # half-diagonal, mass, radial moment and weights; two levels of raw moments at a time
         build = cells * _FLOAT * (4 + 2 + 2 + n_mom)
         memory = build + blocks * _FLOAT * (5 + n_terms + n_mom) + point_arrays + n_points * 24
-        seconds = (n_points * FAR_SECONDS_PER_POINT * max(1.0, math.log2(max(cells, 2)) / 20.0)
-                   + (not prepared) * cells * PYRAMID_SECONDS_PER_CELL)
+        seconds = far_seconds(cells, n_points, prepared=prepared)
         return Estimate("points-far", memory, seconds,
                         f"{cells} cells, {n_points} points, far-field order {order}")
     raise InputError(f"must be 'direct' or 'far', got {algorithm!r}", argument="algorithm")
+
+
+def direct_seconds(work: int, nodes: int, *, prepared: bool = False) -> float:
+    """Seconds of direct summation: `work` corner evaluations on a grid of `nodes` nodes
+    (its node weights and rows included unless `prepared`)."""
+    return work / CORNERS_PER_SECOND + (not prepared) * nodes * DIRECT_SETUP_SECONDS_PER_NODE
+
+
+def far_seconds(cells: int, n_points: int, *, prepared: bool = False) -> float:
+    """Seconds of the far field at `n_points` points below `cells` cells (the block
+    pyramid included unless `prepared`)."""
+    walk = n_points * FAR_SECONDS_PER_POINT * max(1.0, math.log2(max(cells, 2)) / 20.0)
+    return walk + (not prepared) * cells * PYRAMID_SECONDS_PER_CELL
 
 
 def check_capacity(estimate: Estimate, memory_cap, *, hint: str = "") -> Estimate:
