@@ -256,6 +256,28 @@ def test_profile_settlement_equals_the_borehole_at_the_same_place(levee):
     assert np.all(np.diff(values) >= 0) and values[-1] <= row["settlement"] * (1 + 1e-9)
 
 
+def test_alignment_asks_grid_by_grid_with_the_values_of_separate_calls(corridor):
+    """The alignment asks for Δσz one stage grid after another (so the run's evaluator
+    prepares each grid once), with the tables a plain call per request gives."""
+    from fillstress.run.corridor import corridor_results
+    from fillstress.run.point import RunStress, stress
+    site = load_site(corridor)
+    asked = []
+
+    def plain(grid, xyz):
+        if not asked or asked[-1] is not grid:
+            asked.append(grid)
+        return stress(site, grid, xyz)
+
+    separate = corridor_results(site, plain)
+    assert len(asked) == len(site.stages) == 2              # one run of calls per grid
+    kept = corridor_results(site, RunStress(site))
+    for name, table in separate.items():
+        assert len(table) and list(kept[name].columns) == list(table.columns)
+        np.testing.assert_allclose(kept[name].to_numpy(float), table.to_numpy(float),
+                                   rtol=1e-12, atol=1e-12)
+
+
 def test_cross_section_of_a_straight_levee_is_symmetric(levee):
     surface = levee.corridor["alignment_section_surface"]
     panel = levee.corridor["alignment_section_dsz"]

@@ -41,10 +41,19 @@ def _stage_years(site) -> np.ndarray:
     return np.asarray(site.stage_start_days(), float) / 365.25
 
 
-def _settlements(site, xy, evaluate, with_time: bool) -> dict:
-    """Columns of surface settlement (m) at plan points: per stage, and at PROFILE_YEARS."""
-    grids = [site.load_grid(k) for k in site.stages]
-    layers = column_layers(site.soil, xy[:, 0], xy[:, 1], 0.0, grids, evaluate)
+def _stage_layers(site, point_sets, grids, evaluate) -> list:
+    """Settlement by soil layer (N, S, L) of the columns below each (N, 2) plan point set
+    after each stage (settle.column_layers), or None per set where nothing settles; grid
+    by grid, so that `evaluate` prepares each stage's grid once for every set."""
+    by_grid = [[column_layers(site.soil, xy[:, 0], xy[:, 1], 0.0, [g], evaluate)
+                for xy in point_sets] for g in grids]
+    return [None if parts[0] is None else np.concatenate(parts, axis=1)
+            for parts in zip(*by_grid)]
+
+
+def _settlements(site, layers, with_time: bool) -> dict:
+    """Columns of surface settlement (m) at plan points from their stage `layers`
+    (:func:`_stage_layers`): per stage, and at PROFILE_YEARS."""
     if layers is None:
         return {}
     cols = {f"settlement_stage{k}": layers[:, s].sum(axis=1)
@@ -53,8 +62,8 @@ def _settlements(site, xy, evaluate, with_time: bool) -> dict:
     if with_time and any(L.compressible and L.cv_m2_per_yr for L in site.soil.layers):
         cv, hdr = st.time_parameters(site.soil, no_cv="immediate")
         years = np.asarray(PROFILE_YEARS)
-        at = np.full((len(xy), len(years)), np.nan)
-        for n in range(len(xy)):
+        at = np.full((len(layers), len(years)), np.nan)
+        for n in range(len(layers)):
             if not np.isnan(layers[n]).any():
                 at[n] = st.settlement_time_curve(st.stage_increments(layers[n]),
                                                  _stage_years(site), years, cv, hdr)
@@ -75,20 +84,13 @@ def profile_stations(site) -> np.ndarray:
     return np.unique(np.r_[np.arange(a.start, a.end, profile_step(site)), a.end])
 
 
-def profile(site, evaluate) -> pd.DataFrame:
-    """The longitudinal profile along the centreline (SI; ``station`` in m)."""
-    a = site.alignment
+def profile_table(site) -> pd.DataFrame:
+    """The profile's points along the centreline: station (m), x, y, ground, fill."""
     stations = profile_stations(site)
-    xy, _ = a.points(stations)
-    out = pd.DataFrame({"station": stations, "x": xy[:, 0], "y": xy[:, 1],
-                        "ground_elevation": _ground_at(site, xy), "fill_height": _fill_at(site, xy)})
-    grid = site.load_grid()
-    for depth in a.profile_depths:
-        xyz = np.column_stack([xy, np.full(len(xy), depth)])
-        out[f"dsz_z{depth:g}"] = evaluate(grid, xyz)
-    if site.soil is not None:
-        out = out.assign(**_settlements(site, xy, evaluate, with_time=True))
-    return out
+    xy, _ = site.alignment.points(stations)
+    return pd.DataFrame({"station": stations, "x": xy[:, 0], "y": xy[:, 1],
+                         "ground_elevation": _ground_at(site, xy),
+                         "fill_height": _fill_at(site, xy)})
 
 
 def _fill_width(site, centre, normal) -> float:
@@ -99,15 +101,13 @@ def _fill_width(site, centre, normal) -> float:
     return float(loaded.max() - loaded.min()) if loaded.size else 0.0
 
 
-def sections(site, evaluate) -> tuple[pd.DataFrame, pd.DataFrame]:
-    """(surface, panel): per station, the fill, ground and settlement across it, and Δσz
-    on offsets × depths (SI; offsets positive to the left of the direction of stationing)."""
+def section_cuts(site) -> list[tuple[pd.DataFrame, pd.DataFrame]]:
+    """Per chosen station (surface, panel): the points across it with their fill and
+    ground, and the panel of offsets × depths for Δσz (SI; offsets positive to the left of
+    the direction of stationing); nothing computed yet."""
     a = site.alignment
-    if not a.chainages:
-        return pd.DataFrame(), pd.DataFrame()
     centres, tangents = a.points(a.chainages)
-    grid = site.load_grid()
-    surfaces, panels = [], []
+    cuts = []
     for station, centre, t in zip(a.chainages, centres, tangents):
         normal = np.array([-t[1], t[0]])
         width = _fill_width(site, centre, normal)
@@ -117,19 +117,16 @@ def sections(site, evaluate) -> tuple[pd.DataFrame, pd.DataFrame]:
         surface = pd.DataFrame({"station": station, "offset": offsets, "x": xy[:, 0],
                                 "y": xy[:, 1], "ground_elevation": _ground_at(site, xy),
                                 "fill_height": _fill_at(site, xy)})
-        if site.soil is not None:
-            surface = surface.assign(**_settlements(site, xy, evaluate, with_time=False))
-        surfaces.append(surface)
         bottom = a.section_depth or max(width, 10 * site.spec.dx)
         if a.section_depth is None and site.soil is not None:
             bottom = min(bottom, site.soil.bottom_m)      # the stated profile
         depths = np.linspace(bottom / SECTION_DEPTHS, bottom, SECTION_DEPTHS)
         off, dep = np.meshgrid(offsets, depths)
         pts = centre + off.ravel()[:, None] * normal
-        dsz = evaluate(grid, np.column_stack([pts, dep.ravel()]))
-        panels.append(pd.DataFrame({"station": station, "offset": off.ravel(),
-                                    "depth": dep.ravel(), "dsz": dsz}))
-    return pd.concat(surfaces, ignore_index=True), pd.concat(panels, ignore_index=True)
+        panel = pd.DataFrame({"station": station, "offset": off.ravel(), "depth": dep.ravel(),
+                              "x": pts[:, 0], "y": pts[:, 1]})
+        cuts.append((surface, panel))
+    return cuts
 
 
 def solver_calls(site) -> list[tuple[str, int, int]]:
@@ -155,9 +152,28 @@ def solver_calls(site) -> list[tuple[str, int, int]]:
 
 def corridor_results(site, evaluate) -> dict:
     """``{"alignment_profile", "alignment_section_surface", "alignment_section_dsz"}``
-    DataFrames (SI), or {} without an [alignment]."""
-    if site.alignment is None:
+    DataFrames (SI), or {} without an [alignment]; `evaluate(grid, xyz)` gives Δσz (kPa)."""
+    a = site.alignment
+    if a is None:
         return {}
-    surface, panel = sections(site, evaluate)
-    return {"alignment_profile": profile(site, evaluate),
-            "alignment_section_surface": surface, "alignment_section_dsz": panel}
+    line, cuts = profile_table(site), section_cuts(site) if a.chainages else []
+    grids = [site.load_grid(k) for k in site.stages]   # one object each, prepared once
+    surfaces = [surface for surface, _ in cuts] + [line]
+    layers = (_stage_layers(site, [t[["x", "y"]].to_numpy() for t in surfaces], grids, evaluate)
+              if site.soil is not None else [None] * len(surfaces))
+    final = grids[-1]
+    for depth in a.profile_depths:
+        xyz = np.column_stack([line[["x", "y"]].to_numpy(), np.full(len(line), depth)])
+        line[f"dsz_z{depth:g}"] = evaluate(final, xyz)
+    line = line.assign(**_settlements(site, layers[-1], with_time=True))
+    out = {"alignment_profile": line, "alignment_section_surface": pd.DataFrame(),
+           "alignment_section_dsz": pd.DataFrame()}
+    if cuts:
+        out["alignment_section_surface"] = pd.concat(
+            [t.assign(**_settlements(site, L, with_time=False))
+             for (t, _), L in zip(cuts, layers)], ignore_index=True)
+        out["alignment_section_dsz"] = pd.concat(
+            [panel[["station", "offset", "depth"]].assign(
+                dsz=evaluate(final, panel[["x", "y", "depth"]].to_numpy()))
+             for _, panel in cuts], ignore_index=True)
+    return out
