@@ -153,6 +153,13 @@ def test_verbose_logs_each_step_with_its_time_and_keeps_the_answer(site, tmp_pat
     assert "fillstress.run.compute" not in capsys.readouterr().err   # no log without -v
 
 
+def test_run_closes_with_the_whole_core_caution(site, tmp_path, capsys):
+    """The console's last line is the caution every output carries, both halves of it."""
+    assert main(["run", str(site), "-o", str(tmp_path / "out"), "--no-report"]) == 0
+    last = capsys.readouterr().out.strip().splitlines()[-1]
+    assert "licensed geotechnical engineer" in last and "local codes" in last
+
+
 class _Recorder:
     """A progress factory that keeps what the library tells it."""
 

@@ -20,7 +20,7 @@ from rich.progress import (
 from rich.table import Table
 
 from .progress import silent
-from .run.wording import CAUTIONS
+from .cautions import CORE_CAUTION
 
 
 FINE_GRAINED = 20    # parts of work from which a time-remaining estimate means something
@@ -228,7 +228,7 @@ def closing_lines(summary) -> list[str]:
         lines.append(headroom_line(r.headroom, r.site))
     lines += [f"warning: {w}" for w in r.warnings]
     lines.append(f"results written to {summary.folder}")
-    lines.append(CAUTIONS.split(";")[0] + ".")
+    lines.append(CORE_CAUTION)
     return lines
 
 
