@@ -229,3 +229,13 @@ def test_point_answers_where_only_the_odds_samples_are_refused(tmp_path, capsys)
     assert main(["point", str(path), "500010", "5500010", "5", "--json"]) == 0
     (p,) = json.loads(capsys.readouterr().out)["points"]
     assert p["dsz"] == pytest.approx(4 * 0.2325 * 40.0, rel=2e-3)   # as the test above
+
+
+def test_command_lets_waiting_threads_sleep_unless_the_user_chose():
+    from fillstress.cli import quiet_waiting_threads
+    env = {}
+    quiet_waiting_threads(env)
+    assert env == {"OMP_WAIT_POLICY": "PASSIVE"}
+    mine = {"OMP_WAIT_POLICY": "ACTIVE"}
+    quiet_waiting_threads(mine)
+    assert mine == {"OMP_WAIT_POLICY": "ACTIVE"}

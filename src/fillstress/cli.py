@@ -5,6 +5,7 @@ Exit codes: 0 success, 2 bad input (one line, no traceback), 1 internal error.
 from __future__ import annotations
 
 import argparse
+import os
 import sys
 import warnings
 from pathlib import Path
@@ -38,7 +39,18 @@ class _Parser(argparse.ArgumentParser):
         raise SystemExit(2)
 
 
+def quiet_waiting_threads(environ=os.environ) -> None:
+    """Let numba's OpenMP threads sleep between parallel regions unless the user said
+    otherwise (OMP_WAIT_POLICY). By default they spin; on a machine whose cores are busy
+    the spinning threads take the cores from the working ones, and a run's many short
+    parallel calls (a headroom map's small slices) took 15 ms each instead of 0.1 ms
+    (benchmarks/bench_threads.py). Set before numba starts its threads: the command owns
+    its process, so it decides here; a library user sets it in their own environment."""
+    environ.setdefault("OMP_WAIT_POLICY", "PASSIVE")
+
+
 def main(argv=None) -> int:
+    quiet_waiting_threads()
     parser = _parser()
     args = parser.parse_args(argv)       # --help, --version, usage errors: SystemExit
     if not getattr(args, "func", None):
