@@ -172,14 +172,23 @@ def _first_reached(quantity, limit, hi=1e3) -> float:
     return up
 
 
-@pytest.mark.parametrize("norm", [False, True])
-def test_a_combination_map_is_where_the_quantity_first_reaches_its_limit(norm):
+def _pair_operator(n: int) -> np.ndarray:
+    """Rows s_a − s_b of every pair of n points: two non-zeros a row."""
+    a, b = np.triu_indices(n, 1)
+    op = np.zeros((len(a), n))
+    op[np.arange(len(a)), a], op[np.arange(len(a)), b] = 1.0, -1.0
+    return op
+
+
+@pytest.mark.parametrize("norm,kind", [(False, "dense"), (True, "dense"), (False, "pairs")])
+def test_a_combination_map_is_where_the_quantity_first_reaches_its_limit(norm, kind):
     """combination_headroom_map against a brute-force search of m on each cell, for random
-    operators, responses of either sign and a present state (rows chunked: 2 cells a chunk)."""
+    operators (dense, or the pair differences a pipe's limit makes), responses of either
+    sign and a present state (rows chunked: 2 cells a chunk)."""
     from fillstress.decide.headroom import combination_headroom_map
     rng = np.random.default_rng(21)
     spec = GridSpec(0.0, 0.0, 1.0, 1.0, 4, 3)
-    op = rng.normal(size=(2 if norm else 5, 6))
+    op = rng.normal(size=(2 if norm else 5, 6)) if kind == "dense" else _pair_operator(6)
     response = rng.normal(size=(6,) + spec.shape) * 1e-3
     response[:, 0, 0] = 0.0                                   # a cell the load does not reach
     current = rng.normal(size=6) * 1e-3
@@ -208,3 +217,13 @@ def test_a_combination_already_over_its_limit_has_no_headroom():
         m = combination_headroom_map(spec, [[1.0, -1.0], [0.5, 0.5]], response, [0.03, 0.0],
                                      0.02, norm=norm)
         assert m.multiple.tolist() == [[0.0, np.inf]]
+
+
+def test_sparse_rows_apply_as_the_dense_operator():
+    from fillstress.decide.headroom import apply_rows, sparse_rows
+    rng = np.random.default_rng(4)
+    values = rng.normal(size=(7, 5, 3))
+    for op in (_pair_operator(7), rng.normal(size=(3, 7))):
+        np.testing.assert_allclose(apply_rows(sparse_rows(op), values),
+                                   np.einsum("en,nyx->eyx", op, values), rtol=1e-13,
+                                   atol=1e-15)

@@ -298,13 +298,16 @@ class _Combination:
     quantity: str
     norm: bool = False
 
+    def __post_init__(self):
+        object.__setattr__(self, "rows", hd.sparse_rows(self.operator))   # a few terms a row
+
     def settlements(self, per_group: list) -> np.ndarray:
         """This receptor's point settlements out of per-group arrays (first axis: points)."""
         return np.concatenate([per_group[g][k] for g, k in self.parts])
 
     def value(self, settled: list) -> float:
         """The quantity for the groups' settlements (m): largest |row|, or the length."""
-        q = self.operator @ self.settlements(settled)
+        q = self.rows @ self.settlements(settled)
         return float(np.hypot(*q)) if self.norm else float(np.abs(q).max(initial=0.0))
 
 
