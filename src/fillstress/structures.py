@@ -510,16 +510,18 @@ def largest_differential_within(chainage, settlement, length_m) -> tuple[float, 
     if np.any(np.diff(ch) <= 0):
         raise InputError("chainage must be strictly increasing", argument="chainage")
     ends = np.searchsorted(ch, ch + _reach(length), side="right")
-    best, pair = 0.0, None
-    for i in range(ch.size):
-        window = s[i:ends[i]]
-        if window.size < 2:
-            continue
-        hi, lo = int(np.argmax(window)), int(np.argmin(window))
-        diff = float(window[hi] - window[lo])
-        if diff > best:
-            best, pair = diff, tuple(sorted((i + hi, i + lo)))
-    return best, pair
+    # the window of point i is s[i:ends[i]] (ends[i] > i): its spread by reduceat over the
+    # bounds (i, ends[i]) interleaved, one padding value so that ends[i] = N is a valid index
+    bounds = np.column_stack([np.arange(ch.size), ends]).ravel()
+    padded = np.append(s, 0.0)
+    spread = (np.maximum.reduceat(padded, bounds)[::2]
+              - np.minimum.reduceat(padded, bounds)[::2])
+    i = int(np.argmax(spread))                     # the first window with the largest spread
+    if spread[i] <= 0.0:
+        return 0.0, None
+    window = s[i:ends[i]]
+    hi, lo = int(np.argmax(window)), int(np.argmin(window))
+    return float(window[hi] - window[lo]), tuple(sorted((i + hi, i + lo)))
 
 
 def pipe_settlement(receptor_id, chainage, settlement, dsz_crown, length_m) -> PipeSettlement:
