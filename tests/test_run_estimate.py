@@ -39,17 +39,26 @@ def _counted_run(site, monkeypatch):
     points, slices = Counter(), Counter()
     real_stress, real_slices = run_compute.stress, run_compute._plan_slices
 
-    def stress(s, grid, xyz, client=None):
+    def count(grid, xyz):
         if len(xyz):
             key = "fine" if grid.shape != site.spec.shape else _load_key(grid.pressure)
             points[(len(xyz), key)] += 1
-        return real_stress(s, grid, xyz, client)
+
+    def stress(s, grid, xyz, client=None, memory_cap=None):
+        count(grid, xyz)
+        return real_stress(s, grid, xyz, client, memory_cap)
+
+    class CountedStress(run_compute.RunStress):       # the steps' evaluator
+        def __call__(self, grid, xyz):
+            count(grid, xyz)
+            return super().__call__(grid, xyz)
 
     def plan_slices(s, grid, plan, client=None):
         slices[(plan.name, len(plan.depths))] += 1
         return real_slices(s, grid, plan, client)
 
     monkeypatch.setattr(run_compute, "stress", stress)
+    monkeypatch.setattr(run_compute, "RunStress", CountedStress)
     monkeypatch.setattr(run_compute, "_plan_slices", plan_slices)
     run_compute.compute(site)
     return points, slices

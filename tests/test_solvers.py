@@ -354,11 +354,19 @@ def test_auto_goes_far_only_where_the_far_field_is_estimated_faster():
     estimated faster than direct summation (solve/cost.py rates): a few points below a
     large grid stay exact."""
     from fillstress.solve import auto
-    work, cells = 10 * auto.DIRECT_WORK_LIMIT, 4_000_000
-    assert auto.algorithm_for(work, cells, 50) == "far"           # 9.2 s direct, 0.8 s far
+    from fillstress.solve.cost import estimate_points
+    work, shape = 10 * auto.DIRECT_WORK_LIMIT, (2000, 2000)
+    assert auto.algorithm_for(work, shape, 50) == "far"           # 9.2 s direct, 0.8 s far
     assert auto.algorithm_for(work, None, 50) == "far"            # by the work alone
-    assert auto.algorithm_for(work / 5, 40 * cells, 50) == "direct"   # 5 s direct, 32 s far
-    assert auto.algorithm_for(auto.DIRECT_WORK_LIMIT, 10 ** 9, 1) == "direct"
+    assert auto.algorithm_for(work / 5, (8000, 20000), 50) == "direct"   # 5 s direct, 32 s far
+    assert auto.algorithm_for(auto.DIRECT_WORK_LIMIT, (10 ** 5, 10 ** 4), 1) == "direct"
+    # where the far field's pyramid would not fit the cap but direct summation does
+    far = estimate_points(shape, 50, algorithm="far").bytes
+    direct = estimate_points(shape, 50).bytes
+    assert direct < far
+    assert auto.algorithm_for(work, shape, 50, memory_cap=far) == "far"
+    assert auto.algorithm_for(work, shape, 50, memory_cap=(far + direct) / 2) == "direct"
+    assert auto.algorithm_for(work, shape, 50, memory_cap=direct / 2) == "far"   # neither fits
 
 
 def test_point_solver_leaves_numpy_once_its_work_adds_up(monkeypatch):

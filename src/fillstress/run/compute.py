@@ -250,11 +250,12 @@ def compute(site: Site, progress=silent, client=None) -> RunResults:
     steps += site.settings.uncertainty is not None
     steps += site.settings.headroom is not None
     timings = {}
-    points_at = RunStress(site, client)
+    cap = memory_cap(site)
+    points_at = RunStress(site, client, cap)
     with open_bar(progress, "computing", steps) as bar:
         step = _Steps(timings, bar)
         with step("receptor_points"):
-            pts["dsz"] = stress(site, grid, pts[["x", "y", "depth"]].to_numpy(float), client)
+            pts["dsz"] = points_at(grid, pts[["x", "y", "depth"]].to_numpy(float))
         res = RunResults(site, grid, pts, warnings=list(site.warnings), timings=timings)
         earlier = [site.load_grid(k) for k in site.stages[:-1]]
         for plan in site.plan_grids:
@@ -361,7 +362,7 @@ def convergence_check(site: Site, pts: pd.DataFrame, client=None) -> dict:
     fine = site.load_grid(spec=fine_spec)
     xyz = pts[["x", "y", "depth"]].to_numpy(float)
     coarse_vals = pts["dsz"].to_numpy()
-    fine_vals = stress(site, fine, xyz, client)
+    fine_vals = stress(site, fine, xyz, client, memory_cap(site))
     qmax = float(np.abs(fine.pressure).max()) or 1.0
     mask = np.abs(fine_vals) >= settle.NEGLIGIBLE_FRACTION * qmax
     rel = np.abs(coarse_vals - fine_vals)[mask] / np.abs(fine_vals[mask]) if mask.any() else [0.0]

@@ -81,7 +81,7 @@ def _pad_cells(site, plan) -> tuple[int, int]:
 def run_estimates(site) -> list[Estimate]:
     """One estimate per step of a run (:func:`solver_calls`, :func:`slice_calls` and the
     rebuild of the bodies on half cells): memory of its largest call, time of all."""
-    shape = site.spec.shape
+    shape, cap = site.spec.shape, memory_cap(site)
     active = {k: direct_work(site.load_grid(k), 1) for k in site.stages}   # weighted nodes
     active |= {b.name: direct_work(site.spec.load_grid(b.pressure), 1) for b in site.bodies}
     steps: dict[str, list[Estimate]] = {}
@@ -91,7 +91,7 @@ def run_estimates(site) -> list[Estimate]:
         # times where the fill varies everywhere; take the upper bound
         g_shape, nodes = ((2 * shape[0], 2 * shape[1]), 4 * active[call.load]) if call.fine \
             else (shape, active[call.load])
-        algorithm = algorithm_for(call.n * nodes, g_shape[0] * g_shape[1], call.n)
+        algorithm = algorithm_for(call.n * nodes, g_shape, call.n, cap)
         key = (call.step, call.load, algorithm)
         steps.setdefault(call.step, []).append(estimate_points(
             g_shape, call.n, algorithm=algorithm, active_nodes=nodes, prepared=key in prepared))

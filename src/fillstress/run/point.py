@@ -134,17 +134,20 @@ def _far_points(site: Site, grid, given: np.ndarray, pts: np.ndarray) -> list[st
     return out
 
 
-def stress(site: Site, grid, xyz: np.ndarray, client=None) -> np.ndarray:
+def stress(site: Site, grid, xyz: np.ndarray, client=None, memory_cap=None) -> np.ndarray:
     """Δσz (kPa) at (N, 3) points for a load grid, with the site's method: direct
-    summation, or the far-field method for very large problems (solve.auto), on Dask
-    workers when a client is given."""
+    summation, or the far-field method for very large problems (solve.auto; direct where
+    only it fits `memory_cap` bytes), on Dask workers when a client is given."""
     if len(xyz) == 0:
         return np.zeros(0)
     if client is not None:
+        from ..solve.auto import choose_algorithm
         from ..solve.distributed import distributed_points
-        return distributed_points(grid, xyz, site.method, site.poisson, client=client)
-    from ..solve.auto import stress_at_points
-    return stress_at_points(grid, xyz, site.method, site.poisson)
+        return distributed_points(grid, xyz, site.method, site.poisson, client=client,
+                                  algorithm=choose_algorithm(grid, len(xyz),
+                                                             memory_cap=memory_cap))
+    from ..solve.auto import PointSolver
+    return PointSolver(grid, site.method, site.poisson, memory_cap=memory_cap)(xyz)
 
 
 class RunStress:
@@ -154,16 +157,17 @@ class RunStress:
     (settlement columns, alignment profiles) prepares that grid once; one grid is kept at
     a time, so the memory stays that of one call."""
 
-    def __init__(self, site: Site, client=None):
-        self.site, self.client = site, client
+    def __init__(self, site: Site, client=None, memory_cap=None):
+        self.site, self.client, self.memory_cap = site, client, memory_cap
         self._grid = self._solver = None
 
     def __call__(self, grid, xyz: np.ndarray) -> np.ndarray:
         if len(xyz) == 0 or self.client is not None:
-            return stress(self.site, grid, xyz, self.client)
+            return stress(self.site, grid, xyz, self.client, self.memory_cap)
         if grid is not self._grid:
             from ..solve.auto import PointSolver
             self._solver = None                   # free the old solver before the new one
-            self._solver = PointSolver(grid, self.site.method, self.site.poisson)
+            self._solver = PointSolver(grid, self.site.method, self.site.poisson,
+                                       memory_cap=self.memory_cap)
             self._grid = grid
         return self._solver(xyz)

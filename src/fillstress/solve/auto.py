@@ -44,8 +44,9 @@ def direct_work(grid, n_points: int) -> int:
     return int(n_points) * int(np.count_nonzero(node_weights(grid.pressure)))
 
 
-def choose_algorithm(grid, n_points: int, algorithm: str = "auto") -> str:
-    """"direct" or "far" for `n_points` points below `grid` (`algorithm` overrides "auto").
+def choose_algorithm(grid, n_points: int, algorithm: str = "auto", memory_cap=None) -> str:
+    """"direct" or "far" for `n_points` points below `grid` (`algorithm` overrides "auto";
+    `memory_cap`: bytes the call may use, see :func:`algorithm_for`).
 
     Examples
     --------
@@ -56,7 +57,8 @@ def choose_algorithm(grid, n_points: int, algorithm: str = "auto") -> str:
     """
     if _checked_algorithm(algorithm) != "auto":
         return algorithm
-    return algorithm_for(direct_work(grid, n_points), grid.pressure.size, n_points)
+    return algorithm_for(direct_work(grid, n_points), grid.pressure.shape, n_points,
+                         memory_cap)
 
 
 def _checked_algorithm(algorithm: str) -> str:
@@ -66,29 +68,37 @@ def _checked_algorithm(algorithm: str) -> str:
     return algorithm
 
 
-def algorithm_for(work: int, cells: int | None = None, n_points: int = 0) -> str:
+def algorithm_for(work: int, shape=None, n_points: int = 0, memory_cap=None) -> str:
     """What "auto" picks for `work` corner evaluations (see :func:`direct_work`) at
-    `n_points` points below a grid of `cells` cells: direct summation (exact) up to
-    :data:`DIRECT_WORK_LIMIT`, and beyond it while it is estimated no slower than the far
-    field with its block pyramid (solve/cost.py: a few hundred points below a large fine
-    grid); the far field otherwise. Without `cells`, by the work alone.
+    `n_points` points below a grid of `shape` (ny, nx): direct summation (exact) up to
+    :data:`DIRECT_WORK_LIMIT`; beyond it direct summation still where it is estimated no
+    slower than the far field with its block pyramid (a few hundred points below a large
+    fine grid), or where only it fits `memory_cap` bytes (solve/cost.py); the far field
+    otherwise. Without `shape`, by the work alone.
 
     Examples
     --------
     >>> algorithm_for(DIRECT_WORK_LIMIT), algorithm_for(DIRECT_WORK_LIMIT + 1)
     ('direct', 'far')
-    >>> algorithm_for(2e8, cells=15_000_000, n_points=500)   # 3.9 s direct, 3.0 s pyramid
+    >>> algorithm_for(2e8, (3000, 5000), 500)     # 3.9 s direct, 3.0 s pyramid
     'far'
-    >>> algorithm_for(1.4e8, cells=15_000_000, n_points=500)
-    'direct'
+    >>> algorithm_for(1.4e8, (3000, 5000), 500), algorithm_for(2e8, (3000, 5000), 500, 1e9)
+    ('direct', 'direct')
     """
     if work <= DIRECT_WORK_LIMIT:
         return "direct"
-    if cells is None:
+    if shape is None:
         return "far"
-    from .cost import direct_seconds, far_seconds
-    faster = direct_seconds(work, cells) <= far_seconds(cells, n_points)
-    return "direct" if faster else "far"
+    from .cost import direct_seconds, estimate_points, far_seconds
+    cells = int(np.prod(shape))
+    if direct_seconds(work, cells) <= far_seconds(cells, n_points):
+        return "direct"
+    if memory_cap is not None:
+        far = estimate_points(shape, n_points, algorithm="far")
+        direct = estimate_points(shape, n_points, algorithm="direct")
+        if far.bytes > memory_cap >= direct.bytes:
+            return "direct"
+    return "far"
 
 
 def point_evaluator(grid, method="boussinesq", poisson=None, *, algorithm="direct",
@@ -160,6 +170,8 @@ class PointSolver:
     its values are those of a :func:`stress_at_points` call with the same points.
 
     The grid's pressures are read once: a solver does not see later changes to them.
+    `memory_cap` (bytes) keeps a call that would not fit in the far field's memory on
+    direct summation (:func:`algorithm_for`).
 
     Examples
     --------
@@ -170,8 +182,8 @@ class PointSolver:
     """
 
     def __init__(self, grid, method="boussinesq", poisson=None, *, tol=1e-3, floor=0.01,
-                 order=DEFAULT_ORDER):
-        self.grid = checked_grid(grid)
+                 order=DEFAULT_ORDER, memory_cap=None):
+        self.grid, self.memory_cap = checked_grid(grid), memory_cap
         self.spec = resolve_method(method, poisson)
         self.far_options = {"tol": tol, "floor": floor, "order": order}
         self.direct = _Direct(self.grid, self.spec.method, self.spec.poisson)
@@ -181,7 +193,8 @@ class PointSolver:
         """"direct" or "far" for `n_points` points (see :func:`choose_algorithm`)."""
         if _checked_algorithm(algorithm) != "auto":
             return algorithm
-        return algorithm_for(n_points * self.direct.nodes, self.grid.pressure.size, n_points)
+        return algorithm_for(n_points * self.direct.nodes, self.grid.pressure.shape, n_points,
+                             self.memory_cap)
 
     def evaluator(self, algorithm: str):
         """The picklable callable ``f(points)`` of "direct" or "far" (built on first use)."""
