@@ -141,6 +141,22 @@ def test_inputs_convergence_provenance_cautions(page, truth):
     assert "Westergaard" in body and "superposition" in body
 
 
+def test_method_section_states_the_soil_model_of_the_run(page, truth, tmp_path):
+    """A Boussinesq run is said to be on a homogeneous half-space; a Westergaard run on
+    the layered one, not opened with the homogeneous wording."""
+    body = "".join(page[1].text)
+    assert "homogeneous, isotropic, linear-elastic half-space" in body
+    assert "Boussinesq, 1885" in body and "Westergaard, 1938" not in body
+    copy = tmp_path / "layered"
+    shutil.copytree(truth.path, copy)
+    manifest = json.loads((copy / "manifest.json").read_text())
+    manifest["settings"]["method"] = "westergaard"
+    (copy / "manifest.json").write_text(json.dumps(manifest))
+    text = write_report(copy).read_text(encoding="utf-8")
+    assert "Westergaard, 1938" in text and "thin, rigid horizontal layers" in text
+    assert "homogeneous, isotropic, linear-elastic half-space below" not in text
+
+
 def test_print_css(page):
     text, _ = page
     assert "@media print" in text and "break-before: page" in text and "@page" in text

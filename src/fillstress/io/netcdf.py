@@ -261,10 +261,11 @@ def _global_attrs(ds, units: UnitSystem, crs) -> dict:
     same run writes the same file)."""
     attrs = {"Conventions": "CF-1.8, ACDD-1.3",
              "title": "Vertical stress increase below a fill",
-             "summary": "Vertical stress increase (Boussinesq or Westergaard) in a "
-                        "homogeneous elastic half-space under flexible fill loads, on "
-                        "horizontal slices below existing ground, with the fill thickness, "
-                        "for each construction stage. " + CORE_CAUTION,
+             "summary": "Vertical stress increase in an elastic half-space (Boussinesq: "
+                        "homogeneous; Westergaard: reinforced by thin rigid horizontal "
+                        "layers) under flexible fill loads, on horizontal slices below "
+                        "existing ground, with the fill thickness, for each construction "
+                        "stage. " + CORE_CAUTION,
              "keywords": "vertical stress, fill, embankment, settlement, elastic half-space",
              "cdm_data_type": "Grid", "processing_level": "model output",
              "units_system": units.name}

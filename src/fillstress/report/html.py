@@ -62,15 +62,22 @@ SECTIONS = (
     ("cautions", "Cautions"),
 )
 
+#: The stress solution of a run, by its method: what the soil is taken to be.
+SOIL_MODEL = {
+    "boussinesq": "The soil is taken as a homogeneous, isotropic, linear-elastic half-space "
+                  "below the existing ground surface (Boussinesq, 1885).",
+    "westergaard": "The soil is taken as a linear-elastic half-space reinforced by thin, "
+                   "rigid horizontal layers that prevent lateral strain (Westergaard, 1938), "
+                   "the model for layered deposits such as varved clays with silt or sand "
+                   "seams.",
+}
 METHOD_TEXT = (
-    "The soil is taken as a homogeneous, isotropic, linear-elastic half-space below the "
-    "existing ground surface (Boussinesq, 1885). Each fill body acts as a flexible surface "
-    "load: its weight per unit area (thickness × unit weight) is applied on the existing "
-    "ground, cell by cell, with no stiffness of its own. The vertical stress increase Δσz "
-    "at a point is the sum of the contributions of every loaded cell (superposition, "
-    "valid for a linear-elastic medium). For layered deposits, in which thin stiff "
-    "horizontal seams restrain lateral strain, the Westergaard (1938) solution replaces "
-    "Boussinesq's.",
+    "Each fill body acts as a flexible surface load: its weight per unit area (thickness × "
+    "unit weight) is applied on the existing ground, cell by cell, with no stiffness of its "
+    "own. The vertical stress increase Δσz at a point is the sum of the contributions of "
+    "every loaded cell (superposition, valid for a linear-elastic medium). Boussinesq's "
+    "homogeneous half-space and Westergaard's layered one are the two solutions offered; "
+    "the site file's [grid] method chooses.",
 )
 LIMITATIONS = (
     "Real soil is neither homogeneous nor linear-elastic; stiff layers over soft ones "
@@ -251,11 +258,11 @@ class _Report:
 
     def method(self) -> str:
         given = _text_list(self.f.manifest.get("assumptions"))
-        parts = [f"<p>{esc(t)}</p>" for t in METHOD_TEXT]
-        method = (self.f.manifest.get("settings") or {}).get("method")
+        method = str((self.f.manifest.get("settings") or {}).get("method") or "").lower()
+        parts = [f"<p>{esc(t)}</p>" for t in (SOIL_MODEL.get(method, ""), *METHOD_TEXT) if t]
         if method:
             parts.append(f"<p>Solution used for this run: <strong>"
-                         f"{esc(str(method).capitalize())}</strong>.</p>")
+                         f"{esc(method.capitalize())}</strong>.</p>")
         if given:
             parts.append("<h3>Assumptions recorded with this run</h3><ul>"
                          + "".join(f"<li>{esc(t)}</li>" for t in given) + "</ul>")
