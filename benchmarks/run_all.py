@@ -287,14 +287,13 @@ def markdown(ratios, compile_s, commands, far, calibration, startup, headroom, a
         "- Numba first compile: every kernel a run may use is compiled on first call "
         "(`cache=True` keeps them afterwards); the figure was taken at the load shown above "
         "and scales with it.",
-        "- `fillstress point`: it no longer loads the writers, report, viewer or geopandas, "
-        "and a pile's toe distance is a numpy loop over its outline (about 30x the tree "
-        f"query). It still takes {point_s:.2f} s: its imports alone (numba, scipy, pandas, "
-        f"xarray) took {imports_s:.2f} s in the same run (each row is the best of a few runs "
-        "on a loaded machine, so the two are comparable, not additive), and numba's first "
-        "call in a process loads the cached kernel and sets up its CPU target (about a second "
-        "at this load, in cProfile). A numpy path for a handful of points would skip that; "
-        "it is not built.",
+        "- `fillstress point`: it loads neither the writers, report, viewer and geopandas nor "
+        "numba (a handful of points is summed by numpy, solve/nodes.py). It still takes "
+        f"{point_s:.2f} s, and its imports alone took {imports_s:.2f} s in the same run "
+        "(each row is the best of a few runs, so the two are comparable, not additive): "
+        "the site is built as for a run, with pandas tables of its receptors (about "
+        "0.15 s of imports), pyproj and shapely, and the console loads rich. A site reader "
+        "for `point` without the receptor tables is not built.",
         "- Whole runs: the steps are in the table above (`--timings`); the report's figures, "
         "the plan slices of every stage and the half-cell convergence rebuild were not "
         "changed in this round.",
