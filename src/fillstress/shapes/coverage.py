@@ -101,6 +101,39 @@ def grid_window(bounds, spec: GridSpec) -> tuple[int, int, int, int]:
     return j0, j1, i0, i1
 
 
+def cells_meeting_boxes(boxes, spec: GridSpec, margin: int = 1) -> np.ndarray:
+    """Mask (shape ``spec.shape``) of the cells within `margin` cells of any of the
+    `boxes`, rows ``(xmin, ymin, xmax, ymax)`` (m); the margin keeps a point that
+    rounding moves across a box edge among the cells found.
+
+    Each box marks the corners of its index range in a difference array, whose running
+    sums along both axes count the boxes over every cell: O(boxes + cells), however
+    large or many the boxes.
+
+    Examples
+    --------
+    >>> spec = GridSpec(0.0, 0.0, 1.0, 1.0, 6, 3)
+    >>> cells_meeting_boxes([(2.2, 0.5, 2.8, 0.6)], spec, margin=0).astype(int).tolist()
+    [[0, 0, 1, 0, 0, 0], [0, 0, 0, 0, 0, 0], [0, 0, 0, 0, 0, 0]]
+    """
+    b = np.asarray(boxes, dtype=float).reshape(-1, 4)
+
+    def index_range(low, high, origin, step, n):
+        first = np.floor((low - origin) / step) - margin
+        last = np.floor((high - origin) / step) + margin + 1
+        return np.clip(first, 0, n).astype(int), np.clip(last, 0, n).astype(int)
+
+    i0, i1 = index_range(b[:, 0], b[:, 2], spec.x0, spec.dx, spec.nx)
+    j0, j1 = index_range(b[:, 1], b[:, 3], spec.y0, spec.dy, spec.ny)
+    some = (i0 < i1) & (j0 < j1)
+    i0, i1, j0, j1 = i0[some], i1[some], j0[some], j1[some]
+    marks = np.zeros((spec.ny + 1, spec.nx + 1), np.int32)
+    for rows, cols, sign in ((j0, i0, 1), (j0, i1, -1), (j1, i0, -1), (j1, i1, 1)):
+        np.add.at(marks, (rows, cols), sign)
+    count = np.cumsum(np.cumsum(marks, axis=0, dtype=np.int32), axis=1, dtype=np.int32)
+    return count[:spec.ny, :spec.nx] > 0
+
+
 def _window_cells(spec: GridSpec, window):
     """Flattened row/column indices and shapely boxes of the cells in `window`."""
     j0, j1, i0, i1 = window
