@@ -106,9 +106,8 @@ def cells_meeting_boxes(boxes, spec: GridSpec, margin: int = 1) -> np.ndarray:
     `boxes`, rows ``(xmin, ymin, xmax, ymax)`` (m); the margin keeps a point that
     rounding moves across a box edge among the cells found.
 
-    Each box marks the corners of its index range in a difference array, whose running
-    sums along both axes count the boxes over every cell: O(boxes + cells), however
-    large or many the boxes.
+    Each box marks where its column range starts and ends on every row it spans; a
+    running sum along each row counts the boxes over every cell.
 
     Examples
     --------
@@ -125,13 +124,15 @@ def cells_meeting_boxes(boxes, spec: GridSpec, margin: int = 1) -> np.ndarray:
 
     i0, i1 = index_range(b[:, 0], b[:, 2], spec.x0, spec.dx, spec.nx)
     j0, j1 = index_range(b[:, 1], b[:, 3], spec.y0, spec.dy, spec.ny)
-    some = (i0 < i1) & (j0 < j1)
-    i0, i1, j0, j1 = i0[some], i1[some], j0[some], j1[some]
-    marks = np.zeros((spec.ny + 1, spec.nx + 1), np.int32)
-    for rows, cols, sign in ((j0, i0, 1), (j0, i1, -1), (j1, i0, -1), (j1, i1, 1)):
-        np.add.at(marks, (rows, cols), sign)
-    count = np.cumsum(np.cumsum(marks, axis=0, dtype=np.int32), axis=1, dtype=np.int32)
-    return count[:spec.ny, :spec.nx] > 0
+    some = np.flatnonzero((i0 < i1) & (j0 < j1))
+    rows = j1[some] - j0[some]
+    box = np.repeat(some, rows)
+    row = j0[box] + np.arange(rows.sum()) - np.repeat(np.cumsum(rows) - rows, rows)
+    marks = np.zeros((spec.ny, spec.nx + 1), np.int32)
+    np.add.at(marks, (row, i0[box]), 1)
+    np.add.at(marks, (row, i1[box]), -1)
+    count = np.cumsum(marks, axis=1, dtype=np.int32)
+    return count[:, :spec.nx] > 0
 
 
 def _window_cells(spec: GridSpec, window):

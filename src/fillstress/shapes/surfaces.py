@@ -59,7 +59,7 @@ class TinSurface:
     """
 
     def __init__(self, points, triangles=None, crs=None, source=None):
-        from matplotlib.tri import LinearTriInterpolator, Triangulation
+        from matplotlib.tri import Triangulation
         pts = np.asarray(points, dtype=float)
         where = {"file": source} if source else {"argument": "points"}
         if pts.ndim != 2 or pts.shape[1] != 3 or len(pts) < 3:
@@ -81,8 +81,8 @@ class TinSurface:
             raise InputError("a triangle uses the same point twice", **where)
         try:
             self._tri = Triangulation(local[:, 0], local[:, 1], tri)
-            self._interp = LinearTriInterpolator(self._tri, local[:, 2])
-            self._tri.get_trifinder()
+            self._planes = self._tri.calculate_plane_coefficients(local[:, 2])
+            self._finder = self._tri.get_trifinder()
         except (ValueError, RuntimeError) as exc:
             raise InputError(f"is not a valid triangulation ({exc})", **where) from None
         used = pts[np.unique(tri)]
@@ -107,9 +107,16 @@ class TinSurface:
     def sample(self, x, y) -> np.ndarray:
         """Elevation (m) at (x, y), NaN off the surface."""
         x = np.asarray(x, dtype=float)
-        z = self._interp(x.ravel() - self.origin[0],
-                         np.asarray(y, dtype=float).ravel() - self.origin[1])
-        return np.ma.filled(z.astype(float), np.nan).reshape(x.shape)
+        xl = x.ravel() - self.origin[0]
+        yl = np.asarray(y, dtype=float).ravel() - self.origin[1]
+        # matplotlib's linear interpolation (a·x + b·y + c on the triangle found), without
+        # its masked-array round trip
+        found = self._finder(xl, yl)
+        on = found >= 0
+        plane = self._planes[found[on]]
+        z = np.full(xl.shape, np.nan)
+        z[on] = plane[:, 0] * xl[on] + plane[:, 1] * yl[on] + plane[:, 2]
+        return z.reshape(x.shape)
 
 
 #: A boundary triangle whose longest edge exceeds this multiple of the median edge of the
