@@ -9,6 +9,7 @@ from matplotlib.tri import LinearTriInterpolator
 
 import reference
 from fillstress.grid import GridSpec
+from fillstress.shapes import surfaces
 from fillstress.shapes.coverage import cells_meeting_boxes
 from fillstress.shapes.surfaces import (RasterSurface, TinSurface, elevation_at_centres,
                                         fill_from_surfaces, resample_to_grid)
@@ -80,8 +81,12 @@ def _assert_same_as_full_lattice(design, existing, spec, **kw):
 
 @pytest.mark.parametrize("units", UNITS)
 @pytest.mark.parametrize("cut, tolerance, samples", [("ignore", 0.0, 4), ("unload", 0.05, 3)])
+@pytest.mark.parametrize("chunk", ["one", "cells_of_a_row_split"])
 def test_curved_tin_over_a_survey_with_holes_matches_the_full_lattice(units, cut, tolerance,
-                                                                      samples):
+                                                                      samples, chunk,
+                                                                      monkeypatch):
+    if chunk != "one":      # a cell at a time: a row of samples spans many chunks
+        monkeypatch.setattr(surfaces, "_CHUNK_POINTS", samples**2)
     to_m, origin, cell = UNITS[units]
     design, centre = _ribbon(to_m, origin)
     ground = _survey_with_holes(to_m, centre)
