@@ -81,7 +81,7 @@ class TinSurface:
             raise InputError("a triangle uses the same point twice", **where)
         try:
             self._tri = Triangulation(local[:, 0], local[:, 1], tri)
-            self._planes = self._tri.calculate_plane_coefficients(local[:, 2])
+            self._planes = self._tri.calculate_plane_coefficients(local[:, 2])  # (T, 3)
             self._finder = self._tri.get_trifinder()
         except (ValueError, RuntimeError) as exc:
             raise InputError(f"is not a valid triangulation ({exc})", **where) from None
@@ -112,10 +112,10 @@ class TinSurface:
         # matplotlib's linear interpolation (a·x + b·y + c on the triangle found), without
         # its masked-array round trip
         found = self._finder(xl, yl)
-        on = found >= 0
-        plane = self._planes[found[on]]
-        z = np.full(xl.shape, np.nan)
-        z[on] = plane[:, 0] * xl[on] + plane[:, 1] * yl[on] + plane[:, 2]
+        t = np.maximum(found, 0)
+        a, b, c = (coefficient.take(t) for coefficient in self._planes.T)
+        z = a * xl + b * yl + c
+        z[found < 0] = np.nan
         return z.reshape(x.shape)
 
 
