@@ -81,7 +81,9 @@ class TinSurface:
             raise InputError("a triangle uses the same point twice", **where)
         try:
             self._tri = Triangulation(local[:, 0], local[:, 1], tri)
-            self._planes = self._tri.calculate_plane_coefficients(local[:, 2])  # (T, 3)
+            # a, b, c of z = a·x + b·y + c per triangle, one contiguous row each
+            self._planes = np.ascontiguousarray(
+                self._tri.calculate_plane_coefficients(local[:, 2]).T)
             self._finder = self._tri.get_trifinder()
         except (ValueError, RuntimeError) as exc:
             raise InputError(f"is not a valid triangulation ({exc})", **where) from None
@@ -113,7 +115,7 @@ class TinSurface:
         # its masked-array round trip
         found = self._finder(xl, yl)
         t = np.maximum(found, 0)
-        a, b, c = (coefficient.take(t) for coefficient in self._planes.T)
+        a, b, c = (coefficient.take(t) for coefficient in self._planes)
         z = a * xl + b * yl + c
         z[found < 0] = np.nan
         return z.reshape(x.shape)

@@ -1,0 +1,84 @@
+"""Building the corridor's fill from surfaces: the bodies, their half-cell rebuild and the
+ground elevation map, before and after.
+
+    PYTHONPATH=src nice python benchmarks/bench_build.py                   # this tree only
+    PYTHONPATH=src nice python benchmarks/bench_build.py --before 07691d3  # and an older one
+
+The site is the 3-mile corridor with 5 ft cells (`tools/make_corridor_site.py OUT --miles
+3.0 --cell 5 --plan-depths 5 15 30`: two lifts as LandXML TINs over a strip survey, a
+2832 x 1278 lattice of which 2 % is loaded). Each tree runs in a fresh process, the trees
+alternating so both see the same load, `--repeat` times; the best time of each step is
+reported: `load_site` (the whole site), `bodies` (`Site.build_seconds`), the half-cell
+rebuild of the convergence check (`site.load_grid(spec=site.spec.refined(2))`, 14.5
+million cells) and `Site.ground_elevation_grid()`. `--before REF` unpacks `src/` of that
+commit (git archive) into a temporary folder.
+"""
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import subprocess
+import sys
+import tempfile
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parents[1]
+sys.path.insert(0, str(ROOT / "tools"))
+sys.path.insert(0, str(ROOT / "benchmarks"))
+
+from bench_startup import unpack  # noqa: E402
+from make_corridor_site import write_corridor_site  # noqa: E402
+
+STEPS = ("load_site", "bodies", "half_cell_rebuild", "ground_map")
+_CHILD = """
+import json, sys, time
+from fillstress.site.build import load_site
+t0 = time.perf_counter(); site = load_site(sys.argv[1]); t1 = time.perf_counter()
+site.load_grid(spec=site.spec.refined(2)); t2 = time.perf_counter()
+site.ground_elevation_grid(); t3 = time.perf_counter()
+print(json.dumps({"load_site": t1 - t0, "bodies": site.build_seconds,
+                  "half_cell_rebuild": t2 - t1, "ground_map": t3 - t2}))
+"""
+
+
+def measure_tree(src: Path, site: Path) -> dict:
+    """Seconds of each step in a fresh process on the tree `src`."""
+    done = subprocess.run([sys.executable, "-c", _CHILD, str(site)], check=True,
+                          capture_output=True, text=True,
+                          env={**os.environ, "PYTHONPATH": str(src)})
+    return json.loads(done.stdout.splitlines()[-1])
+
+
+def markdown(before: str | None, repeat: int) -> list[str]:
+    with tempfile.TemporaryDirectory() as tmp:
+        site = write_corridor_site(Path(tmp) / "site", 3.0, cell_ft=5.0,
+                                   plan_depths_ft=(5.0, 15.0, 30.0))
+        trees = {"this tree": ROOT / "src"}
+        if before:
+            trees = {f"before ({before})": unpack(before, Path(tmp)), **trees}
+        load = os.getloadavg()[0]
+        best = {tree: dict.fromkeys(STEPS, float("inf")) for tree in trees}
+        for _ in range(repeat):
+            for tree, src in trees.items():
+                for step, seconds in measure_tree(src, site).items():
+                    best[tree][step] = min(best[tree][step], seconds)
+    lines = [f"Best of {repeat} runs; load average {load:.1f} before, "
+             f"{os.getloadavg()[0]:.1f} after (1 min); 2 cores shared with other work.", "",
+             "| step | " + " | ".join(trees) + " |", "|---|" + "---|" * len(trees)]
+    for step in STEPS:
+        lines.append(f"| {step} | " + " | ".join(f"{best[t][step]:.2f} s" for t in trees)
+                     + " |")
+    return lines
+
+
+def main(argv=None) -> None:
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--before", help="a commit to compare with (its src/ via git archive)")
+    ap.add_argument("--repeat", type=int, default=3)
+    args = ap.parse_args(argv)
+    print("\n".join(markdown(args.before, args.repeat)))
+
+
+if __name__ == "__main__":
+    main()
