@@ -132,7 +132,7 @@ def test_raster_design_over_a_survey_with_holes_matches_the_full_lattice(units, 
     rng = np.random.default_rng(11)
     xy = centre + rng.uniform(0, 1, (700, 2)) * [80 * 1.3 * to_m, 70 * 1.3 * to_m]
     ground = TinSurface.from_points(np.c_[xy, _ground_z(xy[:, 0], xy[:, 1], centre)])
-    t, rep = _assert_same_as_full_lattice(design, ground, _lattice(design, to_m, cell))
+    _, rep = _assert_same_as_full_lattice(design, ground, _lattice(design, to_m, cell))
     assert rep.volume_cut > 0 and rep.area_design_only > 0
 
 
@@ -165,7 +165,7 @@ def test_ground_elevation_at_cell_centres_matches_every_centre_sampled(units):
 
 def test_tin_sampling_equals_matplotlib_linear_interpolation():
     """The replaced call: matplotlib's LinearTriInterpolator on the same triangulation."""
-    design, centre = _ribbon(FOOT_US, UNITS["us_feet"][1])
+    design, _ = _ribbon(FOOT_US, UNITS["us_feet"][1])
     rng = np.random.default_rng(2)
     xmin, ymin, xmax, ymax = design.bounds
     x = rng.uniform(xmin - 5, xmax + 5, (300, 70))
