@@ -108,6 +108,20 @@ def test_survey_ground_given_as_its_sample_method_matches_the_full_lattice(units
     _assert_same_as_full_lattice(design, ground.sample, _lattice(design, to_m, cell))
 
 
+@pytest.mark.parametrize("units", UNITS)
+def test_two_lifts_of_one_plan_located_once_match_the_full_lattice(units):
+    """Lift 2 over lift 1: the same vertices and triangles, other elevations (one model)."""
+    to_m, origin, cell = UNITS[units]
+    lift_1, _ = _ribbon(to_m, origin)
+    top = lift_1.points + [0.0, 0.0, 1.0]
+    top[::3, 2] -= 1.4                       # lift 2 dips below lift 1 here and there
+    lift_2 = TinSurface(top, lift_1.triangles)
+    assert lift_2.same_plan(lift_1) and not lift_2.same_plan(_survey_with_holes(to_m, origin))
+    _, rep = _assert_same_as_full_lattice(lift_2, lift_1, _lattice(lift_1, to_m, cell),
+                                          cut="unload")
+    assert rep.volume_fill > 0 and rep.volume_cut > 0 and rep.area_design_only == 0
+
+
 def _raster_design(to_m, origin, reprojected=False):
     """A design raster (a pad on the ground plus a ramp) with a nodata patch, on a pixel
     grid that does not line up with the lattice."""

@@ -108,17 +108,32 @@ class TinSurface:
 
     def sample(self, x, y) -> np.ndarray:
         """Elevation (m) at (x, y), NaN off the surface."""
+        return self.sample_with(None, x, y)[0]
+
+    def same_plan(self, other) -> bool:
+        """Whether `other` is a TIN on the same vertices (x, y) and triangles, with other
+        elevations (lifts cut from one model): a point lies on the same triangle of both."""
+        return isinstance(other, TinSurface) and (other is self or (
+            np.array_equal(other.triangles, self.triangles)
+            and np.array_equal(other.points[:, :2], self.points[:, :2])))
+
+    def sample_with(self, other, x, y) -> tuple:
+        """Elevations (m) at (x, y) of this surface and of `other` (None, or a TIN of the
+        same plan, :meth:`same_plan`), the points located once; NaN off the surface."""
         x = np.asarray(x, dtype=float)
         xl = x.ravel() - self.origin[0]
         yl = np.asarray(y, dtype=float).ravel() - self.origin[1]
         # matplotlib's linear interpolation (a·x + b·y + c on the triangle found), without
         # its masked-array round trip
         found = self._finder(xl, yl)
-        t = np.maximum(found, 0)
-        a, b, c = (coefficient.take(t) for coefficient in self._planes)
-        z = a * xl + b * yl + c
-        z[found < 0] = np.nan
-        return z.reshape(x.shape)
+        t, off = np.maximum(found, 0), found < 0
+        out = []
+        for tin in (self,) if other is None else (self, other):
+            a, b, c = (coefficient.take(t) for coefficient in tin._planes)
+            z = a * xl + b * yl + c
+            z[off] = np.nan
+            out.append(z.reshape(x.shape))
+        return tuple(out)
 
 
 #: A boundary triangle whose longest edge exceeds this multiple of the median edge of the
@@ -430,11 +445,8 @@ def fill_from_surfaces(design, existing, spec: GridSpec, *, cut: str = "ignore",
     # only the cells the design can reach: elsewhere it has no data, so no fill (zero)
     for cells in _chunks(_cells_reached(design, spec), samples):
         x, y = _cell_samples(spec, cells, samples)
-        top = design.sample(x, y)
-        base = np.full(top.shape, np.nan)
+        top, base = _both_at(design, existing, x, y)
         on_design = np.isfinite(top)
-        if on_design.any():
-            base[on_design] = existing.sample(x[on_design], y[on_design])
         diff = top - base
         valid = np.isfinite(diff)
         gap = on_design & ~np.isfinite(base)
@@ -455,6 +467,20 @@ def fill_from_surfaces(design, existing, spec: GridSpec, *, cut: str = "ignore",
                        float(sums[3] * sub_area), float(sums[4] * sub_area), cut,
                        float(design_only * sub_area), first_gap and first_gap[1:])
     return thickness, report
+
+
+def _both_at(design, existing, x, y):
+    """Design and existing surface at the samples; the existing only where the design has
+    data (elsewhere nothing is filled, whatever the ground), located once when the two are
+    TINs of one plan (lifts cut from one model)."""
+    if isinstance(design, TinSurface) and design.same_plan(existing):
+        return design.sample_with(existing, x, y)
+    top = design.sample(x, y)
+    base = np.full(top.shape, np.nan)
+    on_design = np.isfinite(top)
+    if on_design.any():
+        base[on_design] = existing.sample(x[on_design], y[on_design])
+    return top, base
 
 
 def resample_to_grid(surface, spec: GridSpec, *, samples: int = 4) -> np.ndarray:
