@@ -87,7 +87,8 @@ def section(lines: list[str], before: str | None, repeat: int) -> str:
          "1278 cells of which 2 % are loaded; the half-cell rebuild of the convergence check "
          "has 14.5 million). Design surfaces and the ground map are sampled only on the "
          "cells a triangle's bounding box (or a raster's extent) reaches; before, every cell "
-         "of the bounding-box lattice was sampled."), "", *lines, "",
+         "of the bounding-box lattice was sampled; a lift over a lift of the same plan "
+         "locates each sample once."), "", *lines, "",
         f"`{command}`, {time.strftime('%Y-%m-%d %H:%M UTC', time.gmtime())}.", END, ""])
 
 
