@@ -11,9 +11,15 @@ Two are provided: :class:`TinSurface` (triangles, linear on each; from survey po
 LandXML) and :class:`RasterSurface` (grid, bilinear between pixel centres; from GeoTIFF).
 The readers live in :mod:`fillstress.io` (:func:`fillstress.io.surfaces.read_surface`).
 
+A surface may also offer ``cells_reached(spec)``: a mask of the cells of a lattice where
+it may have data (False certain to be off it); both provided surfaces do, from their
+triangles' bounding boxes or their raster's extent.
+
 Cell averages are taken by a ``samples × samples`` midpoint rule in every cell. Where
 either surface has no data at a sample point there is no fill there (the point counts
-as zero thickness), and the points compared are reported.
+as zero thickness), and the points compared are reported. Only the cells the design
+reaches are sampled: a curved road's design TIN reaches a few per cent of the rectangle
+around it, and the rest has no fill whatever is sampled there.
 """
 from __future__ import annotations
 
@@ -237,7 +243,9 @@ class RasterSurface:
         site frame is not exactly its bounds."""
         if self.to_raster is not None:
             return np.ones(spec.shape, bool)
-        return cells_meeting_boxes(np.array([self.bounds], dtype=float), spec)
+        rows, cols = self.z.shape
+        extent = (self.x0, self.y_top - rows * self.dy, self.x0 + cols * self.dx, self.y_top)
+        return cells_meeting_boxes([extent], spec)
 
     def sample(self, x, y) -> np.ndarray:
         """Bilinear elevation (m) at (x, y), NaN off the raster or next to nodata."""
@@ -441,7 +449,7 @@ def fill_from_surfaces(design, existing, spec: GridSpec, *, cut: str = "ignore",
     thickness = spec.zeros()
     sums = np.zeros(5)  # fill volume, cut volume, fill count, cut count, compared count
     sub_area = spec.cell_area / samples**2
-    design_only, first_gap = 0, None
+    design_only, first_gap = 0, None     # first_gap: (scan key, x, y)
     # only the cells the design can reach: elsewhere it has no data, so no fill (zero)
     for cells in _chunks(_cells_reached(design, spec), samples):
         x, y = _cell_samples(spec, cells, samples)
@@ -465,7 +473,8 @@ def fill_from_surfaces(design, existing, spec: GridSpec, *, cut: str = "ignore",
                          argument="existing")
     report = CutReport(float(sums[0]), float(sums[1]), float(sums[2] * sub_area),
                        float(sums[3] * sub_area), float(sums[4] * sub_area), cut,
-                       float(design_only * sub_area), first_gap and first_gap[1:])
+                       float(design_only * sub_area),
+                       None if first_gap is None else first_gap[1:])
     return thickness, report
 
 
