@@ -151,6 +151,28 @@ def test_raster_design_over_a_survey_with_holes_matches_the_full_lattice(units, 
 
 
 @pytest.mark.parametrize("units", UNITS)
+def test_curved_tin_over_a_ground_raster_with_nodata_matches_the_full_lattice(units):
+    """Existing ground as a raster: a nodata patch under the ribbon, and the raster ends
+    before the ribbon does."""
+    to_m, origin, cell = UNITS[units]
+    design, centre = _ribbon(to_m, origin)
+    xmin, ymin, xmax, ymax = design.bounds
+    px = 2.7 * to_m
+    cols, rows = int((xmax - xmin) / px) + 4, int(0.6 * (ymax - ymin) / px)
+    xc = xmin - 2 * px + (np.arange(cols) + 0.5) * px
+    yc = ymin + rows * px - (np.arange(rows) + 0.5) * px
+    gx, gy = np.meshgrid(xc, yc)
+    z = _ground_z(gx, gy, centre)
+    patch = centre + 120 * to_m * np.array([np.cos(0.5), np.sin(0.5)])   # on the ribbon
+    z[np.hypot(gx - patch[0], gy - patch[1]) < 8 * to_m] = np.nan
+    ground = RasterSurface(z, xmin - 2 * px, ymin + rows * px, px, px)
+    spec = _lattice(design, to_m, cell)
+    _, rep = _assert_same_as_full_lattice(design, ground, spec)
+    ground.z[np.isnan(ground.z)] = 50.0
+    assert fill_from_surfaces(design, ground, spec)[1].area_design_only < rep.area_design_only
+
+
+@pytest.mark.parametrize("units", UNITS)
 def test_resampled_surfaces_match_the_full_lattice(units):
     to_m, origin, cell = UNITS[units]
     design, centre = _ribbon(to_m, origin)
