@@ -143,10 +143,10 @@ def fill_from_surfaces(design, existing, spec, cut="ignore", samples=4, toleranc
         thickness[j] = load.reshape(samples, spec.nx, samples).mean(axis=(0, 2))
         sums += [np.maximum(diff, 0).sum() * sub_area, np.maximum(-diff, 0).sum() * sub_area,
                  (diff > 0).sum(), (diff < 0).sum(), valid.sum()]
-    return thickness, dict(volume_fill=sums[0], volume_cut=sums[1],
-                           area_fill=sums[2] * sub_area, area_cut=sums[3] * sub_area,
-                           area_compared=sums[4] * sub_area,
-                           area_design_only=design_only * sub_area, missing_at=missing_at)
+    return thickness, {"volume_fill": sums[0], "volume_cut": sums[1],
+                       "area_fill": sums[2] * sub_area, "area_cut": sums[3] * sub_area,
+                       "area_compared": sums[4] * sub_area,
+                       "area_design_only": design_only * sub_area, "missing_at": missing_at}
 
 
 def resample_to_grid(surface, spec, samples=4):
