@@ -294,10 +294,20 @@ def markdown(ratios, compile_s, commands, far, calibration, startup, headroom, a
         "the site is built as for a run, with pandas tables of its receptors (about "
         "0.15 s of imports), pyproj and shapely, and the console loads rich. A site reader "
         "for `point` without the receptor tables is not built.",
-        "- Whole runs: the steps are in the table above (`--timings`); the report's figures, "
-        "the plan slices of every stage and the half-cell convergence rebuild were not "
-        "changed in this round.",
-        "- The corridor: `benchmarks/bench_corridor.py` builds the site and runs it (`--heavy` for 5 ft cells and a plan grid, `--both`). The plan settlement analyses only the plan nodes where an upper bound on |Δσz| (point-load influence maximised over the profile's depth, per 16 × 16 block) reaches 1 % of the largest applied pressure; the FFT slices behind it still cover the whole bounding box, and the half-cell convergence rebuild (23 s) is unchanged. The 10^7-cell Dask corridor was not run.",
+        "- Whole runs: the steps are in the table above (`--timings`). Beyond the "
+        "computing, a run pays its start-up imports (numpy, scipy, pandas, numba, pyproj, "
+        "shapely, xarray, rich: about 2 s) and the writing of the folder (tables, rasters, "
+        "cube, report figures and scene).",
+        "- The corridor: `benchmarks/bench_corridor.py` builds the site and runs it (`--heavy` "
+        "for 5 ft cells and a plan grid, `--both`). The settlement columns, the alignment and "
+        "the convergence check prepare each load grid once for all their calls "
+        "(solve.auto.PointSolver); the convergence check sums directly where the far field's "
+        "pyramid over the half-size cells would cost more or not fit the memory cap; the "
+        "half-cell rebuild samples the design surfaces only on the cells they reach "
+        "(`benchmarks/bench_build.py`, section below). The plan settlement analyses only the "
+        "plan nodes where an upper bound on |Δσz| (point-load influence maximised over the "
+        "profile's depth, per 16 × 16 block) reaches 1 % of the largest applied pressure; the "
+        "FFT slices behind it still cover the whole bounding box.",
         END,
     ]
     return "\n".join(lines)

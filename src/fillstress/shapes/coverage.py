@@ -101,6 +101,40 @@ def grid_window(bounds, spec: GridSpec) -> tuple[int, int, int, int]:
     return j0, j1, i0, i1
 
 
+def cells_meeting_boxes(boxes, spec: GridSpec, margin: int = 1) -> np.ndarray:
+    """Mask (shape ``spec.shape``) of the cells within `margin` cells of any of the
+    `boxes`, rows ``(xmin, ymin, xmax, ymax)`` (m); the margin keeps a point that
+    rounding moves across a box edge among the cells found.
+
+    Each box marks where its column range starts and ends on every row it spans; a
+    running sum along each row counts the boxes over every cell.
+
+    Examples
+    --------
+    >>> spec = GridSpec(0.0, 0.0, 1.0, 1.0, 6, 3)
+    >>> cells_meeting_boxes([(2.2, 0.5, 2.8, 0.6)], spec, margin=0).astype(int).tolist()
+    [[0, 0, 1, 0, 0, 0], [0, 0, 0, 0, 0, 0], [0, 0, 0, 0, 0, 0]]
+    """
+    b = np.asarray(boxes, dtype=float).reshape(-1, 4)
+
+    def index_range(low, high, origin, step, n):
+        first = np.floor((low - origin) / step) - margin
+        last = np.floor((high - origin) / step) + margin + 1
+        return np.clip(first, 0, n).astype(int), np.clip(last, 0, n).astype(int)
+
+    i0, i1 = index_range(b[:, 0], b[:, 2], spec.x0, spec.dx, spec.nx)
+    j0, j1 = index_range(b[:, 1], b[:, 3], spec.y0, spec.dy, spec.ny)
+    some = np.flatnonzero((i0 < i1) & (j0 < j1))
+    rows = j1[some] - j0[some]
+    box = np.repeat(some, rows)
+    row = j0[box] + np.arange(rows.sum()) - np.repeat(np.cumsum(rows) - rows, rows)
+    marks = np.zeros((spec.ny, spec.nx + 1), np.int32)
+    np.add.at(marks, (row, i0[box]), 1)
+    np.add.at(marks, (row, i1[box]), -1)
+    count = np.cumsum(marks, axis=1, dtype=np.int32)
+    return count[:, :spec.nx] > 0
+
+
 def _window_cells(spec: GridSpec, window):
     """Flattened row/column indices and shapely boxes of the cells in `window`."""
     j0, j1, i0, i1 = window

@@ -11,9 +11,15 @@ Two are provided: :class:`TinSurface` (triangles, linear on each; from survey po
 LandXML) and :class:`RasterSurface` (grid, bilinear between pixel centres; from GeoTIFF).
 The readers live in :mod:`fillstress.io` (:func:`fillstress.io.surfaces.read_surface`).
 
+A surface may also offer ``cells_reached(spec)``: a mask of the cells of a lattice where
+it may have data (False certain to be off it); both provided surfaces do, from their
+triangles' bounding boxes or their raster's extent.
+
 Cell averages are taken by a ``samples × samples`` midpoint rule in every cell. Where
 either surface has no data at a sample point there is no fill there (the point counts
-as zero thickness), and the points compared are reported.
+as zero thickness), and the points compared are reported. Only the cells the design
+reaches are sampled: a curved road's design TIN reaches a few per cent of the rectangle
+around it, and the rest has no fill whatever is sampled there.
 """
 from __future__ import annotations
 
@@ -25,7 +31,7 @@ from .. import crs as crsmod
 from .._validate import finite
 from ..errors import InputError
 from ..grid import GridSpec
-from .coverage import check_samples, check_spec
+from .coverage import cells_meeting_boxes, check_samples, check_spec
 
 # matplotlib (its triangulation) is imported inside the functions that use it: it is slow to load and
 # most commands never need it.
@@ -59,7 +65,7 @@ class TinSurface:
     """
 
     def __init__(self, points, triangles=None, crs=None, source=None):
-        from matplotlib.tri import LinearTriInterpolator, Triangulation
+        from matplotlib.tri import Triangulation
         pts = np.asarray(points, dtype=float)
         where = {"file": source} if source else {"argument": "points"}
         if pts.ndim != 2 or pts.shape[1] != 3 or len(pts) < 3:
@@ -81,8 +87,10 @@ class TinSurface:
             raise InputError("a triangle uses the same point twice", **where)
         try:
             self._tri = Triangulation(local[:, 0], local[:, 1], tri)
-            self._interp = LinearTriInterpolator(self._tri, local[:, 2])
-            self._tri.get_trifinder()
+            # a, b, c of z = a·x + b·y + c per triangle, one contiguous row each
+            self._planes = np.ascontiguousarray(
+                self._tri.calculate_plane_coefficients(local[:, 2]).T)
+            self._finder = self._tri.get_trifinder()
         except (ValueError, RuntimeError) as exc:
             raise InputError(f"is not a valid triangulation ({exc})", **where) from None
         used = pts[np.unique(tri)]
@@ -96,34 +104,42 @@ class TinSurface:
         """A TIN of scattered survey points over their surveyed area (`survey_triangles`)."""
         return cls(points, None, crs, source)
 
-    def columns_in_band(self, x, y_low: float, y_high: float) -> np.ndarray:
-        """Which of the positions `x` (1-D) may lie on a triangle within the band
-        y_low…y_high: False is certain to be off the surface (outside every triangle's
-        bounding box), so a caller can skip sampling there."""
-        if not hasattr(self, "_tri_boxes"):
-            c = self.points[self.triangles][:, :, :2]
-            self._tri_boxes = np.c_[c.min(axis=1), c.max(axis=1)]   # xmin ymin xmax ymax
-        b = self._tri_boxes
-        near = b[(b[:, 1] <= y_high) & (b[:, 3] >= y_low)]
-        x = np.asarray(x, dtype=float)
-        if near.size == 0:
-            return np.zeros(x.shape, bool)
-        order = np.argsort(x)
-        start = np.searchsorted(x[order], near[:, 0], side="left")
-        stop = np.searchsorted(x[order], near[:, 2], side="right")
-        count = np.zeros(x.size + 1, int)
-        np.add.at(count, start, 1)
-        np.add.at(count, stop, -1)
-        out = np.empty(x.size, bool)
-        out[order] = np.cumsum(count[:-1]) > 0
-        return out
+    def cells_reached(self, spec: GridSpec) -> np.ndarray:
+        """Which cells of `spec` may hold a point of the surface (shape ``spec.shape``):
+        False is certain to be off it (outside every triangle's bounding box), so a
+        caller can skip sampling there. A long curved ribbon reaches few of the cells
+        of the rectangle around it."""
+        corners = self.points[self.triangles][:, :, :2]
+        return cells_meeting_boxes(np.c_[corners.min(axis=1), corners.max(axis=1)], spec)
 
     def sample(self, x, y) -> np.ndarray:
         """Elevation (m) at (x, y), NaN off the surface."""
+        return self.sample_with(None, x, y)[0]
+
+    def same_plan(self, other) -> bool:
+        """Whether `other` is a TIN on the same vertices (x, y) and triangles, with other
+        elevations (lifts cut from one model): a point lies on the same triangle of both."""
+        return isinstance(other, TinSurface) and (other is self or (
+            np.array_equal(other.triangles, self.triangles)
+            and np.array_equal(other.points[:, :2], self.points[:, :2])))
+
+    def sample_with(self, other, x, y) -> tuple:
+        """Elevations (m) at (x, y) of this surface and of `other` (None, or a TIN of the
+        same plan, :meth:`same_plan`), the points located once; NaN off the surface."""
         x = np.asarray(x, dtype=float)
-        z = self._interp(x.ravel() - self.origin[0],
-                         np.asarray(y, dtype=float).ravel() - self.origin[1])
-        return np.ma.filled(z.astype(float), np.nan).reshape(x.shape)
+        xl = x.ravel() - self.origin[0]
+        yl = np.asarray(y, dtype=float).ravel() - self.origin[1]
+        # matplotlib's linear interpolation (a·x + b·y + c on the triangle found), without
+        # its masked-array round trip
+        found = self._finder(xl, yl)
+        t, off = np.maximum(found, 0), found < 0
+        out = []
+        for tin in (self,) if other is None else (self, other):
+            a, b, c = (coefficient.take(t) for coefficient in tin._planes)
+            z = a * xl + b * yl + c
+            z[off] = np.nan
+            out.append(z.reshape(x.shape))
+        return tuple(out)
 
 
 #: A boundary triangle whose longest edge exceeds this multiple of the median edge of the
@@ -220,6 +236,16 @@ class RasterSurface:
         rows, cols = self.z.shape
         self.bounds = bounds or (self.x0, self.y_top - rows * self.dy,
                                  self.x0 + cols * self.dx, self.y_top)
+
+    def cells_reached(self, spec: GridSpec) -> np.ndarray:
+        """Which cells of `spec` may hold a point of the raster (False: certainly off it).
+        A raster in another CRS than the site's reaches every cell: its outline in the
+        site frame is not exactly its bounds."""
+        if self.to_raster is not None:
+            return np.ones(spec.shape, bool)
+        rows, cols = self.z.shape
+        extent = (self.x0, self.y_top - rows * self.dy, self.x0 + cols * self.dx, self.y_top)
+        return cells_meeting_boxes([extent], spec)
 
     def sample(self, x, y) -> np.ndarray:
         """Bilinear elevation (m) at (x, y), NaN off the raster or next to nodata."""
@@ -332,11 +358,41 @@ def _overlap(a, b):
     return box if box[0] < box[2] and box[1] < box[3] else None
 
 
-def _row_samples(spec, j, samples):
+#: Sample points evaluated at once (bounds memory).
+_CHUNK_POINTS = 1 << 20
+
+
+def _cells_reached(surface, spec: GridSpec) -> np.ndarray:
+    """Flat indices (row-major) of the cells where `surface` may have data: those its
+    ``cells_reached(spec)`` names, every cell for a surface without one."""
+    reach = getattr(surface, "cells_reached", None)
+    return np.flatnonzero(reach(spec) if callable(reach) else np.ones(spec.shape, bool))
+
+
+def _chunks(cells: np.ndarray, samples: int):
+    step = max(1, _CHUNK_POINTS // samples**2)
+    return (cells[k:k + step] for k in range(0, len(cells), step))
+
+
+def _cell_samples(spec: GridSpec, cells: np.ndarray, samples: int):
+    """x, y of the ``samples × samples`` midpoints of each of `cells` (flat indices),
+    shape (cells, samples, samples): [cell, sub-row (y), sub-column (x)]."""
     offs = (np.arange(samples) + 0.5) / samples
-    xs = spec.x0 + (np.arange(spec.nx)[:, None] + offs[None, :]).ravel() * spec.dx
-    ys = spec.y0 + (j + offs) * spec.dy
-    return np.meshgrid(xs, ys, indexing="xy")  # (samples, nx*samples)
+    j, i = np.divmod(cells, spec.nx)
+    x = spec.x0 + (i[:, None, None] + offs[None, None, :]) * spec.dx
+    y = spec.y0 + (j[:, None, None] + offs[None, :, None]) * spec.dy
+    shape = (len(cells), samples, samples)
+    return np.broadcast_to(x, shape).copy(), np.broadcast_to(y, shape).copy()
+
+
+def _first_gap(spec, cells, gap, x, y, samples):
+    """(scan key, x, y) of the southernmost, then westernmost, sample in `gap`: the one
+    a scan of the sample rows, south to north and west to east, meets first."""
+    c, k, m = np.nonzero(gap)
+    j, i = np.divmod(cells[c], spec.nx)
+    key = ((j * samples + k) * spec.nx + i) * samples + m
+    n = int(np.argmin(key))
+    return int(key[n]), float(x[c[n], k[n], m[n]]), float(y[c[n], k[n], m[n]])
 
 
 def fill_from_surfaces(design, existing, spec: GridSpec, *, cut: str = "ignore",
@@ -393,20 +449,23 @@ def fill_from_surfaces(design, existing, spec: GridSpec, *, cut: str = "ignore",
     thickness = spec.zeros()
     sums = np.zeros(5)  # fill volume, cut volume, fill count, cut count, compared count
     sub_area = spec.cell_area / samples**2
-    design_only, missing_at = 0, None
-    for j in range(spec.ny):
-        x, y = _row_samples(spec, j, samples)
-        top, base = _sample_where_design(design, existing, x, y)
+    design_only, first_gap = 0, None     # first_gap: (scan key, x, y)
+    # only the cells the design can reach: elsewhere it has no data, so no fill (zero)
+    for cells in _chunks(_cells_reached(design, spec), samples):
+        x, y = _cell_samples(spec, cells, samples)
+        top, base = _both_at(design, existing, x, y)
+        on_design = np.isfinite(top)
         diff = top - base
         valid = np.isfinite(diff)
-        gap = np.isfinite(top) & ~np.isfinite(base)
+        gap = on_design & ~np.isfinite(base)
         if gap.any():
             design_only += gap.sum()
-            missing_at = missing_at or (float(x[gap][0]), float(y[gap][0]))
+            found = _first_gap(spec, cells, gap, x, y, samples)
+            first_gap = found if first_gap is None else min(first_gap, found)
         diff = np.where(valid, diff, 0.0)
         diff[np.abs(diff) < noise] = 0.0
         load = diff if cut == "unload" else np.maximum(diff, 0.0)
-        thickness[j] = load.reshape(samples, spec.nx, samples).mean(axis=(0, 2))
+        thickness.flat[cells] = load.reshape(len(cells), -1).mean(axis=1)
         sums += [np.maximum(diff, 0).sum() * sub_area, np.maximum(-diff, 0).sum() * sub_area,
                  (diff > 0).sum(), (diff < 0).sum(), valid.sum()]
     if sums[4] == 0:
@@ -414,20 +473,22 @@ def fill_from_surfaces(design, existing, spec: GridSpec, *, cut: str = "ignore",
                          argument="existing")
     report = CutReport(float(sums[0]), float(sums[1]), float(sums[2] * sub_area),
                        float(sums[3] * sub_area), float(sums[4] * sub_area), cut,
-                       float(design_only * sub_area), missing_at)
+                       float(design_only * sub_area),
+                       None if first_gap is None else first_gap[1:])
     return thickness, report
 
 
-def _sample_where_design(design, existing, x, y):
-    """Both surfaces at the samples of one row of cells, sampling only the columns the
-    design can cover (a long curved ribbon leaves most of a row off the design TIN)."""
-    top = np.full(x.shape, np.nan)
-    base = np.full(x.shape, np.nan)
-    band = getattr(design, "columns_in_band", None)
-    cols = np.ones(x.shape[1], bool) if band is None else band(x[0], y[0, 0], y[-1, 0])
-    if cols.any():
-        top[:, cols] = design.sample(x[:, cols], y[:, cols])
-        base[:, cols] = existing.sample(x[:, cols], y[:, cols])
+def _both_at(design, existing, x, y):
+    """Design and existing surface at the samples; the existing only where the design has
+    data (elsewhere nothing is filled, whatever the ground), located once when the two are
+    TINs of one plan (lifts cut from one model)."""
+    if isinstance(design, TinSurface) and design.same_plan(existing):
+        return design.sample_with(existing, x, y)
+    top = design.sample(x, y)
+    base = np.full(top.shape, np.nan)
+    on_design = np.isfinite(top)
+    if on_design.any():
+        base[on_design] = existing.sample(x[on_design], y[on_design])
     return top, base
 
 
@@ -447,10 +508,40 @@ def resample_to_grid(surface, spec: GridSpec, *, samples: int = 4) -> np.ndarray
     check_spec(spec)
     samples = check_samples(samples)
     out = np.full(spec.shape, np.nan)
-    for j in range(spec.ny):
-        x, y = _row_samples(spec, j, samples)
-        z = surface.sample(x, y).reshape(samples, spec.nx, samples)
-        n = np.isfinite(z).sum(axis=(0, 2))
-        total = np.where(np.isfinite(z), z, 0.0).sum(axis=(0, 2))
-        out[j] = np.where(n > 0, total / np.maximum(n, 1), np.nan)
+    for cells in _chunks(_cells_reached(surface, spec), samples):
+        x, y = _cell_samples(spec, cells, samples)
+        z = surface.sample(x, y).reshape(len(cells), -1)
+        n = np.isfinite(z).sum(axis=1)
+        total = np.where(np.isfinite(z), z, 0.0).sum(axis=1)
+        out.flat[cells] = np.where(n > 0, total / np.maximum(n, 1), np.nan)
     return out
+
+
+def elevation_at_centres(ground, spec: GridSpec) -> np.ndarray:
+    """Elevation (m) at every cell centre, NaN where `ground` has no data.
+
+    Only the cells the surface can reach are sampled (a survey strip along a curved road
+    reaches few of the cells of the rectangle around it); `ground` may be a surface, its
+    own ``sample`` method or any callable ``z(x, y)``.
+
+    Examples
+    --------
+    >>> s = TinSurface([(0, 0, 1.0), (4, 0, 5.0), (0, 4, 1.0), (4, 4, 5.0)])
+    >>> elevation_at_centres(s.sample, GridSpec(0.0, 0.0, 2.0, 2.0, 3, 1)).tolist()
+    [[2.0, 4.0, nan]]
+    """
+    surface = _surface_of(ground)
+    check_spec(spec)
+    out = np.full(spec.shape, np.nan)
+    for cells in _chunks(_cells_reached(surface, spec), 1):
+        j, i = np.divmod(cells, spec.nx)
+        out.flat[cells] = surface.sample(spec.x_centres[i], spec.y_centres[j])
+    return out
+
+
+def _surface_of(func):
+    """The surface whose own ``sample`` method `func` is; else `func` as a surface."""
+    owner = getattr(func, "__self__", None)
+    if owner is not None and getattr(owner, "sample", None) == func:
+        func = owner
+    return check_surface(func, "ground")

@@ -34,7 +34,7 @@ from ..shapes import footprints as fp
 from ..shapes.bodies import Body, choose_cell, stage_pressure
 from ..shapes.embankment import embankment_thickness
 from ..shapes.stockpile import pile_thickness
-from ..shapes.surfaces import CutReport, fill_from_surfaces
+from ..shapes.surfaces import CutReport, elevation_at_centres, fill_from_surfaces
 from ..soil import SoilLayer, SoilProfile
 from ..solve.cost import check_capacity, estimate_grid, memory_cap_bytes
 from ..units import UnitSystem
@@ -350,8 +350,7 @@ class Site(Summarised):
         """
         if self.ground is None:
             return None
-        gx, gy = np.meshgrid(self.spec.x_centres, self.spec.y_centres)
-        z = self.ground(gx, gy)
+        z = elevation_at_centres(self.ground, self.spec)
         gap = ~np.isfinite(z)
         if filled and gap.any() and not gap.all():
             from scipy.ndimage import distance_transform_edt
