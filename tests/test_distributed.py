@@ -49,6 +49,23 @@ def test_points_on_dask_equal_the_serial_path(client, algorithm):
     np.testing.assert_array_equal(spread, serial)
 
 
+def test_a_solver_on_dask_sends_each_evaluator_once_over_many_calls(client, monkeypatch):
+    """Calls of one DistributedSolver give the serial numbers, each with its own
+    algorithm, and send the grid's evaluator to the workers once per algorithm."""
+    from fillstress.solve.distributed import DistributedSolver
+    grid = _grid()
+    sent = []
+    real = client.scatter
+    monkeypatch.setattr(client, "scatter", lambda *a, **k: sent.append(1) or real(*a, **k))
+    solver = DistributedSolver(grid, client=client, chunk_size=50)
+    for n, algorithm in [(30, "direct"), (200, "far"), (90, "direct"), (120, "far")]:
+        pts = _points(n)
+        np.testing.assert_array_equal(solver(pts, algorithm=algorithm),
+                                      stress_at_points(grid, pts, algorithm=algorithm,
+                                                       chunk_size=50))
+    assert len(sent) == 2
+
+
 def test_far_field_order_reaches_the_workers(client):
     grid, pts = _grid(), _points(120)
     serial = stress_at_points(grid, pts, algorithm="far", order=1, tol=1e-2)

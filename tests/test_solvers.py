@@ -369,22 +369,22 @@ def test_auto_goes_far_only_where_the_far_field_is_estimated_faster():
     assert auto.algorithm_for(work, shape, 50, memory_cap=direct / 2) == "far"   # neither fits
 
 
-def test_point_solver_leaves_numpy_once_its_work_adds_up(monkeypatch):
-    """numpy answers the first small calls; once the calls' work passes NUMPY_WORK_LIMIT
-    the compiled kernel takes over, with the same numbers."""
+def test_point_solver_without_the_numpy_path_sums_small_work_compiled(monkeypatch):
+    """numpy answers a small call unless the solver is made without it (a run's solvers),
+    and then the compiled kernel gives the same numbers."""
     from fillstress.solve import auto
     grid = random_grid(9)
     pts = random_points(grid, 9, n=10)
-    solver = auto.PointSolver(grid)
     calls = []
     real = auto.numpy_node_sum
     monkeypatch.setattr(auto, "numpy_node_sum",
                         lambda *a, **k: calls.append(1) or real(*a, **k))
-    monkeypatch.setattr(auto, "NUMPY_WORK_LIMIT", 25 * solver.direct.nodes)
-    first, second, third = solver(pts), solver(pts), solver(pts)
-    assert len(calls) == 2                                   # 10 + 10 points, not 30
-    np.testing.assert_allclose(third, first, rtol=0, atol=1e-12 * np.abs(grid.pressure).max())
-    np.testing.assert_array_equal(first, second)
+    with_numpy = auto.PointSolver(grid)(pts)
+    assert len(calls) == 1
+    compiled = auto.PointSolver(grid, numpy_for_small=False)(pts)
+    assert len(calls) == 1
+    np.testing.assert_allclose(compiled, with_numpy, rtol=0,
+                               atol=1e-12 * np.abs(grid.pressure).max())
 
 
 def test_run_stress_prepares_each_new_grid():

@@ -140,20 +140,14 @@ def stress(site: Site, grid, xyz: np.ndarray, client=None, memory_cap=None) -> n
     only it fits `memory_cap` bytes), on Dask workers when a client is given."""
     if len(xyz) == 0:
         return np.zeros(0)
-    if client is not None:
-        from ..solve.auto import choose_algorithm
-        from ..solve.distributed import distributed_points
-        return distributed_points(grid, xyz, site.method, site.poisson, client=client,
-                                  algorithm=choose_algorithm(grid, len(xyz),
-                                                             memory_cap=memory_cap))
-    from ..solve.auto import PointSolver
-    return PointSolver(grid, site.method, site.poisson, memory_cap=memory_cap)(xyz)
+    return _solver(site, grid, client, memory_cap)(xyz)
 
 
 class RunStress:
     """``evaluate(grid, xyz)`` of a run's steps: Δσz (kPa) at (N, 3) points, as
-    :func:`stress` gives them. The last grid's solver (solve.auto.PointSolver: node
-    weights, far-field pyramid) is kept, so a step that asks depth after depth on one grid
+    :func:`stress` gives them. The last grid's solver (solve.auto.PointSolver, or with a
+    Dask client solve.distributed.DistributedSolver: node weights, far-field pyramid, sent
+    to the workers once) is kept, so a step that asks depth after depth on one grid
     (settlement columns, alignment profiles) prepares that grid once; one grid is kept at
     a time, so the memory stays that of one call."""
 
@@ -162,12 +156,22 @@ class RunStress:
         self._grid = self._solver = None
 
     def __call__(self, grid, xyz: np.ndarray) -> np.ndarray:
-        if len(xyz) == 0 or self.client is not None:
-            return stress(self.site, grid, xyz, self.client, self.memory_cap)
+        if len(xyz) == 0:
+            return np.zeros(0)
         if grid is not self._grid:
-            from ..solve.auto import PointSolver
             self._solver = None                   # free the old solver before the new one
-            self._solver = PointSolver(grid, self.site.method, self.site.poisson,
-                                       memory_cap=self.memory_cap)
+            # a run has numba's kernels loaded anyway: no numpy path for small sums
+            self._solver = _solver(self.site, grid, self.client, self.memory_cap,
+                                   numpy_for_small=False)
             self._grid = grid
         return self._solver(xyz)
+
+
+def _solver(site: Site, grid, client=None, memory_cap=None, numpy_for_small=True):
+    """Δσz at points below `grid`, for many calls: on the workers of `client`, or here."""
+    options = {"memory_cap": memory_cap, "numpy_for_small": numpy_for_small}
+    if client is not None:
+        from ..solve.distributed import DistributedSolver
+        return DistributedSolver(grid, site.method, site.poisson, client=client, **options)
+    from ..solve.auto import PointSolver
+    return PointSolver(grid, site.method, site.poisson, **options)

@@ -126,23 +126,21 @@ def point_evaluator(grid, method="boussinesq", poisson=None, *, algorithm="direc
 
 
 class _Direct:
-    """Direct summation: numpy for small work, the compiled node kernel otherwise. The
-    node weights, their rows and the numpy path's listed nodes are prepared once, so a
-    solver called many times on one grid (a run's settlement columns) pays them once;
-    numpy serves only while the calls' work adds up to NUMPY_WORK_LIMIT (beyond that,
-    loading numba pays for itself)."""
+    """Direct summation: numpy for a call of small work (`numpy_for_small`), the compiled
+    node kernel otherwise. The node weights, their rows and the numpy path's listed nodes
+    are prepared once, so a solver called many times on one grid (a run's settlement
+    columns) pays them once."""
 
-    def __init__(self, grid, method, poisson):
+    def __init__(self, grid, method, poisson, numpy_for_small=True):
         self.grid, self.spec = grid, resolve_method(method, poisson)
         self.weights = node_weights(grid.pressure)
         self.nodes = int(np.count_nonzero(self.weights))
+        self.numpy_limit = NUMPY_WORK_LIMIT if numpy_for_small else -1
         self._rows = self._listed = None
-        self.work = 0                         # corner evaluations asked of this solver
 
     def __call__(self, points):
         pts = points_array(points)
-        self.work += pts.shape[0] * self.nodes
-        if self.work <= NUMPY_WORK_LIMIT:
+        if pts.shape[0] * self.nodes <= self.numpy_limit:
             if self._listed is None:
                 self._listed = listed_nodes(self.grid, self.weights)
             return numpy_node_sum(self.grid, pts, self.spec.depth_scale,
@@ -171,7 +169,9 @@ class PointSolver:
 
     The grid's pressures are read once: a solver does not see later changes to them.
     `memory_cap` (bytes) keeps a call that would not fit in the far field's memory on
-    direct summation (:func:`algorithm_for`).
+    direct summation (:func:`algorithm_for`). `numpy_for_small`: small direct sums by
+    numpy, which answers before numba has loaded its kernels (``fillstress point``); a
+    run, which loads them anyway, passes False.
 
     Examples
     --------
@@ -182,11 +182,11 @@ class PointSolver:
     """
 
     def __init__(self, grid, method="boussinesq", poisson=None, *, tol=1e-3, floor=0.01,
-                 order=DEFAULT_ORDER, memory_cap=None):
+                 order=DEFAULT_ORDER, memory_cap=None, numpy_for_small=True):
         self.grid, self.memory_cap = checked_grid(grid), memory_cap
         self.spec = resolve_method(method, poisson)
         self.far_options = {"tol": tol, "floor": floor, "order": order}
-        self.direct = _Direct(self.grid, self.spec.method, self.spec.poisson)
+        self.direct = _Direct(self.grid, self.spec.method, self.spec.poisson, numpy_for_small)
         self._far = None
 
     def choose(self, n_points: int, algorithm: str = "auto") -> str:
@@ -271,13 +271,3 @@ def stress_at_points(grid, points, method="boussinesq", poisson=None, *, algorit
 __all__ = ["stress_at_points", "choose_algorithm", "algorithm_for", "direct_work",
            "point_evaluator", "PointSolver", "DIRECT_WORK_LIMIT", "NUMPY_WORK_LIMIT", "ALGORITHMS"]
 
-
-def prepare(grid, points, method="boussinesq", poisson=None, *, algorithm="auto",
-            chunk_size=None, tol=1e-3, floor=0.01, order=DEFAULT_ORDER):
-    """Checked points, chunk size, the chosen algorithm and its evaluator: what the serial
-    and the Dask point paths share."""
-    pts = points_array(points)
-    step = points_per_chunk(chunk_size, "chunk_size", DEFAULT_CHUNK)
-    solver = PointSolver(grid, method, poisson, tol=tol, floor=floor, order=order)
-    chosen = solver.choose(pts.shape[0], algorithm)
-    return pts, step, chosen, solver.evaluator(chosen)

@@ -17,11 +17,11 @@ import numpy as np
 import xarray as xr
 
 from .._lazy import require_extra
-from .._validate import whole_number
+from .._validate import points_array, whole_number
 from ..errors import ClusterError, InputError
 from ..progress import open_bar, silent
-from .auto import prepare
-from ._checks import DEFAULT_ORDER
+from .auto import DEFAULT_CHUNK, PointSolver
+from ._checks import DEFAULT_ORDER, points_per_chunk
 from .slices import slice_at_depth, slice_setup
 from .tiled import assemble, prepare_tiled, run_tile
 
@@ -260,18 +260,41 @@ def distributed_points(grid, points, method="boussinesq", poisson=None, *, clien
     ...
     fillstress.errors.InputError: argument client: must be a distributed.Client, got str
     """
-    client = _client(client)
-    retries = whole_number(retries, "retries", minimum=0)
-    pts, step, chosen, evaluate = prepare(grid, points, method, poisson, algorithm=algorithm,
-                                          chunk_size=chunk_size, tol=tol, floor=floor,
-                                          order=order)
-    # hash=False: a key of its own each call; with content keys a second call on the
-    # same data can reuse a key the first call is releasing ("lost dependencies").
-    shared = client.scatter(evaluate, broadcast=True, hash=False)
-    futures = [client.submit(_apply, shared, pts[s:s + step], retries=retries, pure=False)
-               for s in range(0, pts.shape[0], step)]
-    parts = _gather(client, futures, f"stress at points ({chosen}, Dask)", progress)
-    return np.concatenate(parts) if parts else np.zeros(0)
+    solver = DistributedSolver(grid, method, poisson, client=client, chunk_size=chunk_size,
+                               tol=tol, floor=floor, order=order, retries=retries)
+    return solver(points, algorithm=algorithm, progress=progress)
+
+
+class DistributedSolver:
+    """Δσz (kPa) at points below one load grid on Dask workers, for many calls: as
+    :class:`fillstress.solve.auto.PointSolver` (each call chooses its algorithm by its
+    size), with each evaluator (the far-field pyramid, the node weights) sent to the
+    workers once, not once a call. Arguments as :func:`distributed_points`;
+    `memory_cap` and `numpy_for_small` as for PointSolver."""
+
+    def __init__(self, grid, method="boussinesq", poisson=None, *, client, chunk_size=None,
+                 tol=1e-3, floor=0.01, order=DEFAULT_ORDER, retries=DEFAULT_RETRIES,
+                 memory_cap=None, numpy_for_small=True):
+        self.client = _client(client)
+        self.retries = whole_number(retries, "retries", minimum=0)
+        self.step = points_per_chunk(chunk_size, "chunk_size", DEFAULT_CHUNK)
+        self.solver = PointSolver(grid, method, poisson, tol=tol, floor=floor, order=order,
+                                  memory_cap=memory_cap, numpy_for_small=numpy_for_small)
+        self._shared = {}                    # algorithm → the evaluator on the workers
+
+    def __call__(self, points, *, algorithm="auto", progress=None) -> np.ndarray:
+        pts = points_array(points)
+        chosen = self.solver.choose(pts.shape[0], algorithm)
+        if chosen not in self._shared:
+            # hash=False: a key of its own; with content keys a later solver on the same
+            # data can reuse a key this one is releasing ("lost dependencies").
+            self._shared[chosen] = self.client.scatter(self.solver.evaluator(chosen),
+                                                       broadcast=True, hash=False)
+        futures = [self.client.submit(_apply, self._shared[chosen], pts[s:s + self.step],
+                                      retries=self.retries, pure=False)
+                   for s in range(0, pts.shape[0], self.step)]
+        parts = _gather(self.client, futures, f"stress at points ({chosen}, Dask)", progress)
+        return np.concatenate(parts) if parts else np.zeros(0)
 
 
 def _apply(evaluate, part):
