@@ -295,10 +295,12 @@ def markdown(ratios, compile_s, commands, far, calibration, startup, headroom, a
         "call in a process loads the cached kernel and sets up its CPU target (about a second "
         "at this load, in cProfile). A numpy path for a handful of points would skip that; "
         "it is not built.",
-        "- Whole runs: the steps are in the table above (`--timings`); the report's figures, "
-        "the plan slices of every stage and the half-cell convergence rebuild were not "
-        "changed in this round.",
-        "- The corridor: `benchmarks/bench_corridor.py` builds the site and runs it (`--heavy` for 5 ft cells and a plan grid, `--both`). The plan settlement analyses only the plan nodes where an upper bound on |Δσz| (point-load influence maximised over the profile's depth, per 16 × 16 block) reaches 1 % of the largest applied pressure; the FFT slices behind it still cover the whole bounding box, and the half-cell convergence rebuild (23 s) is unchanged. The 10^7-cell Dask corridor was not run.",
+        "- Whole runs: the steps are in the table above (`--timings`); the report's figures "
+        "and the half-cell convergence rebuild were not changed in this round. The plan "
+        "slices of every stage, and the plan settlement over every load state, share per "
+        "depth one unit-cell kernel and its transform (`benchmarks/bench_plan_slices.py` "
+        "times them against one slice call per load grid).",
+        "- The corridor: `benchmarks/bench_corridor.py` builds the site and runs it (`--heavy` for 5 ft cells and a plan grid, `--both`). The plan settlement analyses only the plan nodes where an upper bound on |Δσz| (point-load influence maximised over the profile's depth, per 16 × 16 block) reaches 1 % of the largest applied pressure; the FFT slices behind it still cover the whole bounding box (one kernel and kernel transform per depth serve both load states), and the half-cell convergence rebuild (23 s) is unchanged. The 10^7-cell Dask corridor was not run.",
         END,
     ]
     return "\n".join(lines)

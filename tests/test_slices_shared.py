@@ -12,6 +12,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
+import reference
 from fillstress import LoadGrid
 from fillstress.run import compute, plan as run_plan, settle
 from fillstress.site.build import load_site
@@ -132,11 +133,22 @@ def test_mirrored_kernel_equals_the_full_evaluation(lattice, method, poisson, de
     paired = (paired_nodes(a), paired_nodes(b))
     assert paired == {"symmetric": (True, True), "odd, through zero": (True, True),
                       "one axis shifted": (False, True), "asymmetric": (False, False)}[lattice]
-    full = _unit_cell_kernel(a, b, depth, spec.depth_scale, spec.second_term, False, False)
-    mirrored = _unit_cell_kernel(a, b, depth, spec.depth_scale, spec.second_term, *paired)
+    padded = (b.size + 2, a.size + 3)          # the FFT's input: zero beyond the kernel
+    full = _unit_cell_kernel(a, b, depth, spec.depth_scale, spec.second_term, False, False,
+                             *padded)
+    mirrored = _unit_cell_kernel(a, b, depth, spec.depth_scale, spec.second_term, *paired,
+                                 *padded)
+    assert full.shape == mirrored.shape == padded
+    assert not full[b.size - 1:].any() and not full[:, a.size - 1:].any()
+    assert not mirrored[b.size - 1:].any() and not mirrored[:, a.size - 1:].any()
     np.testing.assert_allclose(mirrored, full, rtol=1e-14, atol=1e-16)
+    # the full evaluation is the second difference of the corner function (slow numpy)
+    f = reference.corner(a[None, :], b[:, None], depth, method, poisson)
+    second = f[1:, 1:] - f[1:, :-1] - f[:-1, 1:] + f[:-1, :-1]
+    np.testing.assert_allclose(full[:b.size - 1, :a.size - 1], second, rtol=1e-12, atol=1e-14)
     if all(paired):       # and the kernel is symmetric about the sample, as it must be
-        np.testing.assert_allclose(mirrored, mirrored[::-1, ::-1], rtol=1e-14, atol=1e-16)
+        kernel = mirrored[:b.size - 1, :a.size - 1]
+        np.testing.assert_array_equal(kernel, kernel[::-1, ::-1])
 
 
 @pytest.mark.parametrize("offset, paired", [((0.0, 0.0), (True, True)),
@@ -248,3 +260,17 @@ def test_stack_estimate_covers_what_the_stack_holds(site):
     # the output counted is the plan grid's, not the whole lattice's
     assert est.bytes < estimate_slices(site.spec.shape, len(plan.depths), loads=2,
                                        pad_cells=run_plan._pad_cells(site, plan)).bytes
+
+
+def test_the_dask_path_slices_each_grid_alone_and_agrees(site):
+    """With a Dask client the run keeps one distributed call per grid (no SliceStack on
+    the workers); its stage slices and plan settlement equal the shared serial path."""
+    from distributed import Client
+    serial = compute.compute(site)
+    with Client(processes=False, n_workers=1, threads_per_worker=2,
+                dashboard_address=":0") as client:
+        spread = compute.compute(site, client=client)
+    _assert_same_slices(spread.stage_slices["yard"], serial.stage_slices["yard"])
+    np.testing.assert_allclose(spread.plan_settlement["yard"].values,
+                               serial.plan_settlement["yard"].values, rtol=1e-10,
+                               equal_nan=True)

@@ -29,43 +29,72 @@ from ._checks import checked_grid, fft_workers, offset_pair
 
 
 @numba.njit(parallel=True, cache=True)
-def _unit_cell_kernel(a_nodes, b_nodes, z, depth_scale, second_term, a_odd, b_odd):
-    """Unit-cell influence G[j, i] = F(a_i+1, b_j+1) − F(a_i, b_j+1) − F(a_i+1, b_j) + F(a_i, b_j)
-    from the corner function F evaluated once on the node lattice (a_i, b_j).
-
-    F is odd in a and in b (in floating point too: every term changes sign exactly), so
-    along an axis whose nodes come in ± pairs (`a_odd`: a[na − 1 − i] == −a[i], the
-    sample on a cell centre with symmetric padding) F is evaluated on the first half and
-    the rest is its negation: the same floats as the full evaluation at half the cost.
-    """
-    z = abs(z)
-    c = depth_scale * z
-    inv_c = inverse_depth(c)
-    na, nb = a_nodes.size, b_nodes.size
-    na_eval = (na + 1) // 2 if a_odd else na
-    nb_eval = (nb + 1) // 2 if b_odd else nb
-    a_sq = np.empty(na)
-    a_cross = np.empty(na)
-    for i in range(na):
+def _corners(a_nodes, b_nodes, z, c, inv_c, second_term, na_eval, nb_eval):
+    """F(a_i, b_j) on the first `na_eval` × `nb_eval` nodes."""
+    a_sq = np.empty(na_eval)
+    a_cross = np.empty(na_eval)
+    for i in range(na_eval):
         a_sq[i] = a_nodes[i] * a_nodes[i] + c * c
         a_cross[i] = second_term * cross_ratio(a_nodes[i], z)
-    corner = np.empty((nb, na))
+    corner = np.empty((nb_eval, na_eval))
     for j in numba.prange(nb_eval):
         b = b_nodes[j]
         b_cross = second_term * cross_ratio(b, z)
         for i in range(na_eval):
             corner[j, i] = INV_2PI * corner_sum(a_nodes[i], b, c, a_sq[i] + b * b, inv_c,
                                                 a_cross[i], b_cross)
-        for i in range(na - na_eval):
-            corner[j, na - 1 - i] = -corner[j, i]
-    for j in numba.prange(nb - nb_eval):
-        for i in range(na):
-            corner[nb - 1 - j, i] = -corner[j, i]
-    cell = np.empty((nb - 1, na - 1))
-    for j in numba.prange(nb - 1):
-        for i in range(na - 1):
-            cell[j, i] = (corner[j + 1, i + 1] - corner[j + 1, i]
-                          - corner[j, i + 1] + corner[j, i])
+    return corner
+
+
+@numba.njit(cache=True)
+def _mirrored(corner, node_j, node_i, nb, na):
+    """F at node (node_j, node_i) from the evaluated part: beyond it, the negated mirror
+    node."""
+    # signed: a prange index may come unsigned, and unsigned minus signed is a float
+    row, col, sign = np.intp(node_j), np.intp(node_i), 1.0
+    if row >= corner.shape[0]:
+        row = nb - 1 - row
+        sign = -sign
+    if col >= corner.shape[1]:
+        col = na - 1 - col
+        sign = -sign
+    return sign * corner[row, col]
+
+
+@numba.njit(parallel=True, cache=True)
+def _unit_cell_kernel(a_nodes, b_nodes, z, depth_scale, second_term, a_odd, b_odd,
+                      rows, cols):
+    """Unit-cell influence G[j, i] = F(a_i+1, b_j+1) − F(a_i, b_j+1) − F(a_i+1, b_j) + F(a_i, b_j)
+    from the corner function F evaluated once on the node lattice (a_i, b_j), zero-padded
+    to `rows` × `cols` (at least (nb − 1) × (na − 1): the FFT's input, so no copy pads it).
+
+    F is odd in a and in b (in floating point too: every term changes sign exactly), so
+    along an axis whose nodes come in ± pairs (`a_odd`: a[na − 1 − i] == −a[i], the
+    sample on a cell centre with symmetric padding) F is evaluated on the first half of
+    the nodes and G, even there, on the first half of the cells, the rest mirrored: the
+    full evaluation's floats but for the order of G's four terms.
+    """
+    z = abs(z)
+    c = depth_scale * z
+    inv_c = inverse_depth(c)
+    na, nb = a_nodes.size, b_nodes.size
+    corner = _corners(a_nodes, b_nodes, z, c, inv_c, second_term,
+                      (na + 1) // 2 if a_odd else na, (nb + 1) // 2 if b_odd else nb)
+    ma, mb = na - 1, nb - 1
+    ma_eval = (ma + 1) // 2 if a_odd else ma
+    mb_eval = (mb + 1) // 2 if b_odd else mb
+    cell = np.zeros((rows, cols))
+    for j in numba.prange(mb_eval):
+        for i in range(ma_eval):
+            cell[j, i] = (_mirrored(corner, j + 1, i + 1, nb, na)
+                          - _mirrored(corner, j + 1, i, nb, na)
+                          - _mirrored(corner, j, i + 1, nb, na)
+                          + _mirrored(corner, j, i, nb, na))
+        for i in range(ma - ma_eval):
+            cell[j, ma - 1 - i] = cell[j, i]
+    for j in numba.prange(mb - mb_eval):
+        for i in range(ma):
+            cell[mb - 1 - j, i] = cell[j, i]
     return cell
 
 
@@ -153,8 +182,8 @@ class SlicePlan:
             raise InputError(f"must be >= 0 below the ground surface, got {depth!r}",
                              argument="depth")
         kernel = _unit_cell_kernel(self.a_nodes, self.b_nodes, depth, self.spec.depth_scale,
-                                   self.spec.second_term, *self.paired)
-        return scipy.fft.rfftn(kernel, s=self.fft_shape, workers=self.workers)
+                                   self.spec.second_term, *self.paired, *self.fft_shape)
+        return scipy.fft.rfftn(kernel, workers=self.workers)
 
     def at_depth(self, depth: float, window=(slice(None), slice(None))) -> np.ndarray:
         """Δσz (kPa) on the sample lattice at one depth (m, >= 0): shape (my, mx), or
@@ -168,7 +197,8 @@ class SlicePlan:
         out = None
         for e, load in enumerate(loads):
             # the last load multiplies in place: one spectrum fewer for a single load
-            product = spectrum.__imul__(load) if e == len(loads) - 1 else spectrum * load
+            last = e == len(loads) - 1
+            product = np.multiply(spectrum, load, out=spectrum if last else None)
             full = scipy.fft.irfftn(product, s=self.fft_shape, workers=self.workers)
             del product
             kept = full[ny - 1:ny - 1 + my, nx - 1:nx - 1 + mx][rows, cols]
