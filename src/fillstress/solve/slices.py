@@ -62,14 +62,14 @@ def _mirrored(corner, node_j, node_i, nb, na):
 
 
 @numba.njit(parallel=True, cache=True)
-def _unit_cell_kernel(a_nodes, b_nodes, z, depth_scale, second_term, a_odd, b_odd,
+def _unit_cell_kernel(a_nodes, b_nodes, z, depth_scale, second_term, a_paired, b_paired,
                       rows, cols):
     """Unit-cell influence G[j, i] = F(a_i+1, b_j+1) − F(a_i, b_j+1) − F(a_i+1, b_j) + F(a_i, b_j)
     from the corner function F evaluated once on the node lattice (a_i, b_j), zero-padded
     to `rows` × `cols` (at least (nb − 1) × (na − 1): the FFT's input, so no copy pads it).
 
     F is odd in a and in b (in floating point too: every term changes sign exactly), so
-    along an axis whose nodes come in ± pairs (`a_odd`: a[na − 1 − i] == −a[i], the
+    along an axis whose nodes come in ± pairs (`a_paired`: a[na − 1 − i] == −a[i], the
     sample on a cell centre with symmetric padding) F is evaluated on the first half of
     the nodes and G, even there, on the first half of the cells, the rest mirrored: the
     full evaluation's floats but for the order of G's four terms.
@@ -79,10 +79,10 @@ def _unit_cell_kernel(a_nodes, b_nodes, z, depth_scale, second_term, a_odd, b_od
     inv_c = inverse_depth(c)
     na, nb = a_nodes.size, b_nodes.size
     corner = _corners(a_nodes, b_nodes, z, c, inv_c, second_term,
-                      (na + 1) // 2 if a_odd else na, (nb + 1) // 2 if b_odd else nb)
+                      (na + 1) // 2 if a_paired else na, (nb + 1) // 2 if b_paired else nb)
     ma, mb = na - 1, nb - 1
-    ma_eval = (ma + 1) // 2 if a_odd else ma
-    mb_eval = (mb + 1) // 2 if b_odd else mb
+    ma_eval = (ma + 1) // 2 if a_paired else ma
+    mb_eval = (mb + 1) // 2 if b_paired else mb
     cell = np.zeros((rows, cols))
     for j in numba.prange(mb_eval):
         for i in range(ma_eval):
