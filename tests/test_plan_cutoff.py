@@ -86,14 +86,18 @@ def _slices_at(site):
     return lambda plan, z, g: compute._plan_slices(site, g, replace(plan, depths=z))
 
 
+def _slicer(site):
+    return lambda plan, grids: compute._plan_slicer(site, plan, grids)
+
+
 def _full_box(site, monkeypatch):
     with monkeypatch.context() as m:
         m.setattr(settle, "NEGLIGIBLE_FRACTION", 0.0)
-        return settle.plan_settlement(site, _slices_at(site))["bend"]
+        return settle.plan_settlement(site, _slicer(site))["bend"]
 
 
 def test_analysed_nodes_equal_the_full_box(site, monkeypatch):
-    cut = settle.plan_settlement(site, _slices_at(site))["bend"]
+    cut = settle.plan_settlement(site, _slicer(site))["bend"]
     full = _full_box(site, monkeypatch)
     analysed = cut.notnull().values
     assert full.notnull().values.all() and full.attrs["not_analysed_nodes"] == 0
@@ -102,7 +106,7 @@ def test_analysed_nodes_equal_the_full_box(site, monkeypatch):
 
 
 def test_left_out_nodes_are_below_the_cut_off(site, monkeypatch):
-    cut = settle.plan_settlement(site, _slices_at(site))["bend"]
+    cut = settle.plan_settlement(site, _slicer(site))["bend"]
     full = _full_box(site, monkeypatch)
     left = cut.isnull().values
     z, _ = settle.st.sublayers(site.soil)

@@ -35,9 +35,12 @@ def _load_key(pressure) -> str:
 
 def _counted_run(site, monkeypatch):
     """Run `compute(site)` and count its solver calls: Counter of (points, load or
-    "fine") for Δσz, of (plan grid, depths) for FFT slices."""
+    "fine") for Δσz, of (plan grid, depths, loads, pressure transforms, shared) for FFT
+    slices (a SliceStack's calls, or one grid's alone)."""
     points, slices = Counter(), Counter()
     real_stress, real_slices = run_compute.stress, run_compute._plan_slices
+    real_slicer = run_compute._plan_slicer
+    current = []
 
     def count(grid, xyz):
         if len(xyz):
@@ -54,12 +57,29 @@ def _counted_run(site, monkeypatch):
             return super().__call__(grid, xyz)
 
     def plan_slices(s, grid, plan, client=None):
-        slices[(plan.name, len(plan.depths))] += 1
+        slices[(plan.name, len(plan.depths), 1, 1, False)] += 1
         return real_slices(s, grid, plan, client)
+
+    def plan_slicer(s, plan, grids, client=None):
+        current[:] = [plan.name]
+        return real_slicer(s, plan, grids, client)
+
+    class CountedStack(run_compute.SliceStack):
+        def __init__(self, *args, **kwargs):
+            super().__init__(*args, **kwargs)
+            self.plan_name, self.transforms = current[0], len(self.plan.pressure_hat)
+
+        def slices(self, depths, window=(slice(None), slice(None))):
+            n = len(self.plan.pressure_hat)
+            slices[(self.plan_name, len(depths), n, self.transforms, True)] += 1
+            self.transforms = 0                  # made once, on the first call
+            return super().slices(depths, window)
 
     monkeypatch.setattr(run_compute, "stress", stress)
     monkeypatch.setattr(run_compute, "RunStress", CountedStress)
     monkeypatch.setattr(run_compute, "_plan_slices", plan_slices)
+    monkeypatch.setattr(run_compute, "_plan_slicer", plan_slicer)
+    monkeypatch.setattr(run_compute, "SliceStack", CountedStack)
     run_compute.compute(site)
     return points, slices
 
@@ -69,7 +89,8 @@ def _planned(site):
     points = Counter((c.n, "fine" if c.fine else _load_key(
         body[c.load] if isinstance(c.load, str) else site.load_grid(c.load).pressure))
         for c in solver_calls(site))
-    slices = Counter((plan.name, n) for _, plan, n in slice_calls(site))
+    slices = Counter((c.plan.name, c.n_depths, c.loads, c.transforms, c.stacked)
+                     for c in slice_calls(site))
     return points, slices
 
 

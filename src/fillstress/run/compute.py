@@ -23,6 +23,7 @@ from ..io.atomic import ResultsWriter
 from ..progress import describe, open_bar, silent
 from ..site.build import Site, load_site
 from ..solve import stress_slices
+from ..solve.slices import SliceStack
 from ..solve.distributed import connect, distributed_slices
 from ..solve.tiled import tiled_slices
 from . import settle
@@ -32,7 +33,8 @@ from .headroom import headroom_results, headroom_warnings
 from .limits import LimitResults, limit_results
 from .odds import odds_results
 from .point import RunStress, stress
-from .plan import describe_run, memory_cap, plan_pad, slices_need_tiles, validate_run
+from .plan import (describe_run, memory_cap, plan_pad, plan_step, plan_window, shares_kernel,
+                   slices_need_tiles, validate_run)
 
 from .wording import ASSUMPTIONS, CAUTIONS  # noqa: F401  (re-exported for the writers)
 
@@ -260,7 +262,7 @@ def compute(site: Site, progress=silent, client=None) -> RunResults:
         earlier = [site.load_grid(k) for k in site.stages[:-1]]
         for plan in site.plan_grids:
             with step("plan_slices"):
-                stack = [_plan_slices(site, g, plan, client) for g in (*earlier, grid)]
+                stack = _plan_slicer(site, plan, [*earlier, grid], client)(plan.depths)
                 res.slices[plan.name] = stack[-1]
                 res.stage_slices[plan.name] = _stage_stack(stack, site.stages)
         if site.soil is not None:
@@ -271,8 +273,7 @@ def compute(site: Site, progress=silent, client=None) -> RunResults:
             if site.plan_grids:
                 with step("plan_settlement"):
                     res.plan_settlement = settle.plan_settlement(
-                        site, lambda plan, z, g: _plan_slices(site, g, replace(plan, depths=z),
-                                                              client))
+                        site, lambda plan, grids: _plan_slicer(site, plan, grids, client))
                     res.warnings += _plan_cutoff_notes(res.plan_settlement, site.units)
         res.limits = limit_results(res)
         if site.settings.max_heights:
@@ -337,6 +338,21 @@ def _stage_stack(stack: list, stages: list):
     return xr.concat(stack, dim="stage").assign_coords(stage=stages)
 
 
+def _plan_slicer(site: Site, plan, grids, client=None):
+    """Δσz slices of every load grid of `grids` on a plan grid, as a function of the
+    depths (a list of DataArrays, one per grid). Without Dask and when it fits the memory
+    cap (plan.shares_kernel), one SliceStack serves them all: each pressure transformed
+    once, per depth one kernel and one kernel transform for every grid, the output cut to
+    the plan grid depth by depth. Otherwise each grid is sliced alone (_plan_slices:
+    tiled under the cap, or on the Dask workers)."""
+    if client is None and shares_kernel(site, plan, [g.pressure for g in grids]):
+        stack = SliceStack(grids, site.method, site.poisson, pad=plan_pad(site, plan))
+        window = plan_window(site, plan)
+        return lambda depths: stack.slices(depths, window)
+    return lambda depths: [_plan_slices(site, g, replace(plan, depths=tuple(depths)), client)
+                           for g in grids]
+
+
 def _plan_slices(site: Site, grid, plan, client=None):
     """FFT slices on the cell centres of the analysis grid, cut to the plan extent."""
     pad = plan_pad(site, plan)
@@ -350,7 +366,7 @@ def _plan_slices(site: Site, grid, plan, client=None):
     else:
         da = stress_slices(grid, plan.depths, method=site.method, poisson=site.poisson,
                            pad=pad)
-    step = max(1, round(plan.spacing / site.spec.dx))
+    step = plan_step(site, plan)
     return da.sel(x=slice(plan.xmin, plan.xmax), y=slice(plan.ymin, plan.ymax)).isel(
         x=slice(None, None, step), y=slice(None, None, step))
 

@@ -7,14 +7,16 @@ from __future__ import annotations
 
 from typing import NamedTuple
 
+import numpy as np
+
 from ..settlement import sublayers
 from ..solve.auto import algorithm_for, direct_work
 from ..solve.cost import (Estimate, check_capacity, estimate_points, estimate_slices,
                           format_bytes, memory_cap_bytes)
-from ..solve.slices import pad_cells
+from ..solve.slices import distinct_loads, pad_cells, slice_lattice
 from . import corridor
 from .limits import limits_in_force
-from .settle import _settlement_points
+from .settle import _settlement_points, state_grids
 from .timeline import load_states
 
 
@@ -52,20 +54,83 @@ def solver_calls(site) -> list[SolverCall]:
     return [c for c in calls if c.n]
 
 
-def slice_calls(site) -> list[tuple[str, object, int]]:
-    """(step, plan grid, depths) of every FFT slice call: each plan grid's depths under
-    the load of every stage, and with a soil profile the plan settlement's sublayer depths
-    under every load state, as many at a time as the plan grid has depths
-    (settle.plan_settlement)."""
-    calls = [(f"plan grid {plan.name}", plan, len(plan.depths))
-             for plan in site.plan_grids for _ in site.stages]
+class SliceCall(NamedTuple):
+    """One FFT slice call of a run: `n_depths` depths on a plan grid, of one load grid
+    alone (`stacked` False) or of `loads` distinct load grids sharing each depth's kernel
+    in one SliceStack, which makes `transforms` pressure transforms (all of them on its
+    first call, none later)."""
+
+    step: str
+    plan: object
+    n_depths: int
+    loads: int = 1
+    transforms: int = 1
+    stacked: bool = False
+
+
+def slice_calls(site) -> list[SliceCall]:
+    """Every FFT slice call: each plan grid's depths under the load of every stage, and
+    with a soil profile the plan settlement's sublayer depths under every load state, as
+    many at a time as the plan grid has depths (settle.plan_settlement). The loads of a
+    step share one SliceStack when it fits the memory cap (:func:`shares_kernel`, as
+    run/compute.py decides), else each is sliced on its own."""
+    stages = [site.load_grid(k).pressure for k in site.stages]
+    calls = []
+    for plan in site.plan_grids:
+        calls += _step_calls(site, f"plan grid {plan.name}", plan, stages, [len(plan.depths)])
     n_z = 0 if site.soil is None else len(sublayers(site.soil, top_depth=0.0)[0])
-    states = load_states(site) if n_z else []
+    states = [g.pressure for g in state_grids(site)] if n_z else []
     for plan in site.plan_grids:
         step = max(1, len(plan.depths))
-        calls += [(f"plan grid {plan.name}, settlement", plan, min(step, n_z - k))
-                  for k in range(0, n_z, step) for _ in states]
+        chunks = [min(step, n_z - k) for k in range(0, n_z, step)]
+        calls += _step_calls(site, f"plan grid {plan.name}, settlement", plan, states, chunks)
     return calls
+
+
+def _step_calls(site, step: str, plan, loads: list, chunks: list[int]) -> list[SliceCall]:
+    if not loads:
+        return []
+    if shares_kernel(site, plan, loads):
+        n = len(distinct_loads(loads)[0])
+        return [SliceCall(step, plan, d, n, n if k == 0 else 0, True)
+                for k, d in enumerate(chunks)]
+    return [SliceCall(step, plan, d) for d in chunks for _ in loads]
+
+
+def shares_kernel(site, plan, loads: list) -> bool:
+    """Whether the slices of the load arrays `loads` on `plan` go through one SliceStack:
+    its estimate (a spectrum kept per distinct load, the output cut to the plan grid)
+    fits the memory cap; otherwise each load is sliced alone, tiled when needed."""
+    n = len(distinct_loads(loads)[0])
+    return _stack_estimate(site, plan, len(plan.depths), n, n).bytes <= memory_cap(site)
+
+
+def _stack_estimate(site, plan, n_depths: int, loads: int, transforms: int) -> Estimate:
+    """A SliceStack's call: its output is cut to the plan grid (:func:`plan_window`)."""
+    pad_x, pad_y = _pad_cells(site, plan)
+    rows, cols = plan_window(site, plan)
+    kept = (len(range(site.spec.ny + 2 * pad_y)[rows])
+            * len(range(site.spec.nx + 2 * pad_x)[cols]))
+    return estimate_slices(site.spec.shape, max(1, n_depths), pad_cells=(pad_x, pad_y),
+                           loads=loads, transforms=transforms, kept=kept)
+
+
+def plan_step(site, plan) -> int:
+    """Cells between the nodes of a plan grid."""
+    return max(1, round(plan.spacing / site.spec.dx))
+
+
+def plan_window(site, plan) -> tuple[slice, slice]:
+    """Rows and columns of the slice lattice (cell centres, padded by :func:`plan_pad`)
+    that a plan grid keeps: the samples within its extent, every :func:`plan_step`."""
+    x, y = slice_lattice(site.spec, _pad_cells(site, plan), (0.0, 0.0))
+    step = plan_step(site, plan)
+    return _within(y, plan.ymin, plan.ymax, step), _within(x, plan.xmin, plan.xmax, step)
+
+
+def _within(v: np.ndarray, lo: float, hi: float, step: int) -> slice:
+    """The slice of sorted `v` from `lo` to `hi` inclusive (as xarray's .sel), every `step`."""
+    return slice(int(np.searchsorted(v, lo, "left")), int(np.searchsorted(v, hi, "right")), step)
 
 
 def plan_pad(site, plan) -> float:
@@ -96,9 +161,10 @@ def run_estimates(site) -> list[Estimate]:
         steps.setdefault(call.step, []).append(estimate_points(
             g_shape, call.n, algorithm=algorithm, active_nodes=nodes, prepared=key in prepared))
         prepared.add(key)
-    for step, plan, n_depths in slice_calls(site):
-        steps.setdefault(step, []).append(
-            estimate_slices(shape, n_depths, pad_cells=_pad_cells(site, plan)))
+    for c in slice_calls(site):
+        steps.setdefault(c.step, []).append(
+            _stack_estimate(site, c.plan, c.n_depths, c.loads, c.transforms) if c.stacked
+            else estimate_slices(shape, c.n_depths, pad_cells=_pad_cells(site, c.plan)))
     out = [_combined(step, parts) for step, parts in steps.items()]
     if len(site.points) and site.build_seconds and site.settings.convergence_check:
         # the check rebuilds every body on 4× the cells: scale the measured first build

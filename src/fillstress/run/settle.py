@@ -158,43 +158,51 @@ NEGLIGIBLE_FRACTION = 0.01
 _BLOCK = 16                  # cells a side of a load block, nodes a side of a plan tile
 
 
-def plan_settlement(site, slices_at) -> dict:
+def state_grids(site) -> list:
+    """The load grid of every load state (timeline.load_states), in their order."""
+    return [site.spec.load_grid(sum((b.pressure for b, on in zip(site.bodies, s.active) if on),
+                                    site.spec.zeros()))
+            for s in tl.load_states(site)]
+
+
+def plan_settlement(site, slicer) -> dict:
     """Final settlement (m) at the ground surface over every plan grid, along the load
     history (a surcharge removed on its day rebounds on Cr, as at the receptor points).
 
     Δσz at the sublayer mid-depths of the whole profile comes from
-    ``slices_at(plan, depths, grid)`` (FFT slices of load grid `grid` on the plan grid's
-    nodes, dims depth, y, x), one load state and as many depths at a time as the plan grid
-    has slices, so the memory stays what the run estimate counted for its slices. Sublayers
-    settle independently (1-D compression), so their settlements add up by the rule the
-    receptor points use. NaN (nodata) marks nodes where unloading exceeds σ'v0 (heave) and
-    nodes in tiles where an upper bound on |Δσz| (`stress_bound`) stays below
-    ``NEGLIGIBLE_FRACTION`` of the largest applied pressure at every sublayer: those are
-    not analysed; attrs ``not_analysed_below_kpa`` and ``not_analysed_settlement_bound_m``
-    (the settlement of the column under that stress at every sublayer) state the cut-off.
+    ``slicer(plan, grids)(depths)``: FFT slices of every load grid of `grids` (the load
+    states) on the plan grid's nodes, a list of DataArrays (depth, y, x), one per grid.
+    `slicer` is asked once per plan grid (so it may keep what does not depend on the
+    depth, such as the pressure transforms) and the depths come as many at a time as the
+    plan grid has slices, so the memory stays what the run estimate counted for its
+    slices. Sublayers settle independently (1-D compression), so their settlements add up
+    by the rule the receptor points use. NaN (nodata) marks nodes where unloading exceeds
+    σ'v0 (heave) and nodes in tiles where an upper bound on |Δσz| (`stress_bound`) stays
+    below ``NEGLIGIBLE_FRACTION`` of the largest applied pressure at every sublayer: those
+    are not analysed; attrs ``not_analysed_below_kpa`` and
+    ``not_analysed_settlement_bound_m`` (the settlement of the column under that stress at
+    every sublayer) state the cut-off.
     """
     z, h = st.sublayers(site.soil, top_depth=0.0)
     if len(z) == 0:
         return {}
     s0 = site.soil.sigma_v0_eff(z)
-    grids = [site.spec.load_grid(sum((b.pressure for b, on in zip(site.bodies, s.active) if on),
-                                     site.spec.zeros()))
-             for s in tl.load_states(site)]
+    grids = state_grids(site)
     cutoff = NEGLIGIBLE_FRACTION * max(float(np.abs(g.pressure).max()) for g in grids)
     out = {}
     for plan in site.plan_grids:
+        slices_at = slicer(plan, grids)
         step = max(1, len(plan.depths))
         total = tension = keep = da = None
         for k in range(0, len(z), step):
             part = slice(k, k + step)
-            depths = tuple(float(d) for d in z[part])
             states = []
-            for g in grids:
-                da = slices_at(plan, depths, g)
+            for da in slices_at(tuple(float(d) for d in z[part])):
                 if keep is None:
                     keep = (stress_bound(site, grids, da.x.values, da.y.values, float(z[-1]))
                             >= cutoff).ravel()
-                values = np.moveaxis(np.asarray(da.values, float), 0, -1).reshape(-1, len(depths))
+                values = np.moveaxis(np.asarray(da.values, float), 0, -1).reshape(
+                    -1, da.sizes["depth"])
                 states.append(values[keep])
             dsz = np.stack(states, axis=1)                                  # (N kept, E, K)
             heave = np.any(s0[part] + dsz <= 0, axis=(1, 2))

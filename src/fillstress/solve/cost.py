@@ -96,28 +96,42 @@ def _fast_len(n: int) -> int:
     return next_fast_len(n, real=True)
 
 
-def fft_working_bytes(tile_shape, out_shape) -> int:
+def fft_working_bytes(tile_shape, out_shape, loads: int = 1) -> int:
     """Peak bytes of one exact FFT slice of a (ny, nx) load array onto an (my, mx) lattice.
 
-    Counts the pressure spectrum, the node corner array and the unit-cell kernel, the
-    kernel spectrum, a transform temporary and the inverse transform.
+    Counts the pressure spectrum of each of `loads` loads sharing the kernel (a
+    :class:`~fillstress.solve.slices.SlicePlan` of a stack of loads keeps them all), the
+    node corner array and the unit-cell kernel, the kernel spectrum, a product spectrum
+    (more than one load: the kernel spectrum is kept for the next), a transform
+    temporary and the inverse transform.
 
     Examples
     --------
     >>> fft_working_bytes((100, 100), (100, 100)) > 0
     True
+    >>> fft_working_bytes((100, 100), (100, 100), loads=3) > fft_working_bytes((100, 100), (100, 100))
+    True
     """
     ny, nx = _shape(tile_shape, "tile_shape")
     my, mx = _shape(out_shape, "out_shape")
+    loads = whole_number(loads, "loads", minimum=1)
     fy = _fast_len(ny + my - 1)
     fx = _fast_len(nx + mx - 1)
     spectrum = _COMPLEX * fy * (fx // 2 + 1)
     real = _FLOAT * fy * fx
     nodes = _FLOAT * (ny + my) * (nx + mx)
-    return 3 * spectrum + 2 * real + 2 * nodes
+    return (loads + 2 + (loads > 1)) * spectrum + 2 * real + 2 * nodes
 
 
-def estimate_slices(shape, n_depths: int, *, pad_cells=(0, 0), tile=None) -> Estimate:
+def _evaluated_corners(n: int, paired: bool) -> int:
+    """Corner evaluations along one axis of n nodes: half of them when they come in ±
+    pairs (solve.slices._unit_cell_kernel mirrors the rest)."""
+    return (n + 1) // 2 if paired else n
+
+
+def estimate_slices(shape, n_depths: int, *, pad_cells=(0, 0), tile=None, offset=(0.0, 0.0),
+                    loads: int = 1, transforms: int | None = None,
+                    kept: int | None = None) -> Estimate:
     """Estimate exact FFT slices of an (ny, nx) grid at `n_depths` depths.
 
     Parameters
@@ -131,6 +145,18 @@ def estimate_slices(shape, n_depths: int, *, pad_cells=(0, 0), tile=None) -> Est
     tile : (int, int), optional
         Tile size (ty, tx) in cells for :func:`fillstress.solve.tiled.tiled_slices`;
         None for one untiled transform.
+    offset : (float, float)
+        Shift of the samples from the cell centres; along an axis with none the corner
+        function is evaluated on half the nodes (untiled).
+    loads : int
+        Load grids sharing each depth's kernel and its transform
+        (:class:`~fillstress.solve.slices.SliceStack`, untiled): one inverse transform
+        and one output each.
+    transforms : int, optional
+        Pressure transforms the call makes (default `loads`; 0 when a stack made earlier
+        holds them).
+    kept : int, optional
+        Samples kept of each slice (a window of the lattice); default all of them.
 
     Examples
     --------
@@ -139,21 +165,32 @@ def estimate_slices(shape, n_depths: int, *, pad_cells=(0, 0), tile=None) -> Est
     True
     >>> estimate_slices((1000, 1000), 5, tile=(250, 250)).bytes < e.bytes
     True
+    >>> estimate_slices((1000, 1000), 5, loads=2).seconds < 2 * e.seconds
+    True
     """
     ny, nx = _shape(shape)
     n_depths = whole_number(n_depths, "n_depths", minimum=1)
     pad_x, pad_y = _pad(pad_cells)
     my, mx = ny + 2 * pad_y, nx + 2 * pad_x
-    output = _FLOAT * n_depths * my * mx
     if tile is None:
-        work = fft_working_bytes((ny, nx), (my, mx))
+        loads = whole_number(loads, "loads", minimum=1)
+        transforms = loads if transforms is None else whole_number(transforms, "transforms")
+        samples = my * mx if kept is None else whole_number(kept, "kept")
+        output = _FLOAT * loads * n_depths * samples
+        work = fft_working_bytes((ny, nx), (my, mx), loads)
         fy = _fast_len(ny + my - 1)
         fx = _fast_len(nx + mx - 1)
+        ox, oy = offset
         # each depth also evaluates the corner function on the (ny+my) × (nx+mx) nodes
-        seconds = ((1 + 2 * n_depths) * _fft_seconds(fy * fx)
-                   + n_depths * (ny + my) * (nx + mx) / CORNERS_PER_SECOND)
+        corners = (_evaluated_corners(ny + my, oy == 0.0)
+                   * _evaluated_corners(nx + mx, ox == 0.0))
+        seconds = ((transforms + (1 + loads) * n_depths) * _fft_seconds(fy * fx)
+                   + n_depths * corners / CORNERS_PER_SECOND)
+        shared = f", {loads} loads sharing each kernel" if loads > 1 else ""
         return Estimate("slices", output + work, seconds,
-                        f"{ny} × {nx} cells, {n_depths} depth(s), one transform of {fy} × {fx}")
+                        f"{ny} × {nx} cells, {n_depths} depth(s){shared}, one transform of "
+                        f"{fy} × {fx}")
+    output = _FLOAT * n_depths * my * mx
     ty, tx = _shape(tile, "tile")
     pairs = math.ceil(ny / ty) * math.ceil(nx / tx) * math.ceil(my / ty) * math.ceil(mx / tx)
     fy = _fast_len(2 * ty - 1)

@@ -29,31 +29,104 @@ from ._checks import checked_grid, fft_workers, offset_pair
 
 
 @numba.njit(parallel=True, cache=True)
-def _unit_cell_kernel(a_nodes, b_nodes, z, depth_scale, second_term):
+def _corners(a_nodes, b_nodes, z, c, inv_c, second_term, na_eval, nb_eval):
+    """F(a_i, b_j) on the first `na_eval` × `nb_eval` nodes."""
+    a_sq = np.empty(na_eval)
+    a_cross = np.empty(na_eval)
+    for i in range(na_eval):
+        a_sq[i] = a_nodes[i] * a_nodes[i] + c * c
+        a_cross[i] = second_term * cross_ratio(a_nodes[i], z)
+    corner = np.empty((nb_eval, na_eval))
+    for j in numba.prange(nb_eval):
+        b = b_nodes[j]
+        b_cross = second_term * cross_ratio(b, z)
+        for i in range(na_eval):
+            corner[j, i] = INV_2PI * corner_sum(a_nodes[i], b, c, a_sq[i] + b * b, inv_c,
+                                                a_cross[i], b_cross)
+    return corner
+
+
+@numba.njit(cache=True)
+def _mirrored(corner, node_j, node_i, nb, na):
+    """F at node (node_j, node_i) from the evaluated part: beyond it, the negated mirror
+    node."""
+    # signed: a prange index may come unsigned, and unsigned minus signed is a float
+    row, col, sign = np.intp(node_j), np.intp(node_i), 1.0
+    if row >= corner.shape[0]:
+        row = nb - 1 - row
+        sign = -sign
+    if col >= corner.shape[1]:
+        col = na - 1 - col
+        sign = -sign
+    return sign * corner[row, col]
+
+
+@numba.njit(parallel=True, cache=True)
+def _unit_cell_kernel(a_nodes, b_nodes, z, depth_scale, second_term, a_paired, b_paired,
+                      rows, cols):
     """Unit-cell influence G[j, i] = F(a_i+1, b_j+1) − F(a_i, b_j+1) − F(a_i+1, b_j) + F(a_i, b_j)
-    from the corner function F evaluated once on the node lattice (a_i, b_j)."""
+    from the corner function F evaluated once on the node lattice (a_i, b_j), zero-padded
+    to `rows` × `cols` (at least (nb − 1) × (na − 1): the FFT's input, so no copy pads it).
+
+    F is odd in a and in b (in floating point too: every term changes sign exactly), so
+    along an axis whose nodes come in ± pairs (`a_paired`: a[na − 1 − i] == −a[i], the
+    sample on a cell centre with symmetric padding) F is evaluated on the first half of
+    the nodes and G, even there, on the first half of the cells, the rest mirrored: the
+    full evaluation's floats but for the order of G's four terms.
+    """
     z = abs(z)
     c = depth_scale * z
     inv_c = inverse_depth(c)
     na, nb = a_nodes.size, b_nodes.size
-    a_sq = np.empty(na)
-    a_cross = np.empty(na)
-    for i in range(na):
-        a_sq[i] = a_nodes[i] * a_nodes[i] + c * c
-        a_cross[i] = second_term * cross_ratio(a_nodes[i], z)
-    corner = np.empty((nb, na))
-    for j in numba.prange(nb):
-        b = b_nodes[j]
-        b_cross = second_term * cross_ratio(b, z)
-        for i in range(na):
-            corner[j, i] = INV_2PI * corner_sum(a_nodes[i], b, c, a_sq[i] + b * b, inv_c,
-                                                a_cross[i], b_cross)
-    cell = np.empty((nb - 1, na - 1))
-    for j in numba.prange(nb - 1):
-        for i in range(na - 1):
-            cell[j, i] = (corner[j + 1, i + 1] - corner[j + 1, i]
-                          - corner[j, i + 1] + corner[j, i])
+    corner = _corners(a_nodes, b_nodes, z, c, inv_c, second_term,
+                      (na + 1) // 2 if a_paired else na, (nb + 1) // 2 if b_paired else nb)
+    ma, mb = na - 1, nb - 1
+    ma_eval = (ma + 1) // 2 if a_paired else ma
+    mb_eval = (mb + 1) // 2 if b_paired else mb
+    cell = np.zeros((rows, cols))
+    for j in numba.prange(mb_eval):
+        for i in range(ma_eval):
+            cell[j, i] = (_mirrored(corner, j + 1, i + 1, nb, na)
+                          - _mirrored(corner, j + 1, i, nb, na)
+                          - _mirrored(corner, j, i + 1, nb, na)
+                          + _mirrored(corner, j, i, nb, na))
+        for i in range(ma - ma_eval):
+            cell[j, ma - 1 - i] = cell[j, i]
+    for j in numba.prange(mb - mb_eval):
+        for i in range(ma):
+            cell[mb - 1 - j, i] = cell[j, i]
     return cell
+
+
+def paired_nodes(nodes: np.ndarray) -> bool:
+    """True when the nodes come in ± pairs, ``nodes[n − 1 − i] == −nodes[i]`` exactly
+    (what lets :func:`_unit_cell_kernel` mirror the corner function).
+
+    Examples
+    --------
+    >>> paired_nodes(np.array([1.5, 0.5, -0.5, -1.5])), paired_nodes(np.array([1.0, -0.5]))
+    (True, False)
+    """
+    return bool(np.array_equal(nodes, -nodes[::-1]))
+
+
+def distinct_loads(pressures) -> tuple[list, list[int]]:
+    """The distinct arrays of `pressures` (equal arrays once, in first-seen order) and
+    for each input the index of its distinct array.
+
+    Examples
+    --------
+    >>> distinct, index = distinct_loads([np.ones(2), np.zeros(2), np.ones(2)])
+    >>> len(distinct), index
+    (2, [0, 1, 0])
+    """
+    distinct, index = [], []
+    for p in pressures:
+        k = next((k for k, d in enumerate(distinct) if np.array_equal(d, p)), len(distinct))
+        if k == len(distinct):
+            distinct.append(p)
+        index.append(k)
+    return distinct, index
 
 
 class SlicePlan:
@@ -63,18 +136,23 @@ class SlicePlan:
     The sample lattice has ``ny + 2·pad_y`` rows and ``nx + 2·pad_x`` columns; sample
     (l, k) sits at ``((k − pad_x + 0.5)·dx + ox, (l − pad_y + 0.5)·dy + oy)`` relative to
     the south-west corner of the pressure grid.  Arguments are as for
-    :func:`slice_at_depth` and are validated here.
+    :func:`slice_at_depth` and are validated here; `pressure` may also be a stack
+    (E, ny, nx) of loads on the same cells: the unit-cell kernel and its transform depend
+    only on the depth and the lattice, so each depth computes them once for all E loads
+    (E pressure spectra are kept: ``cost.fft_working_bytes(..., loads=E)``).
 
     Examples
     --------
     >>> plan = SlicePlan([[10.0, 10.0], [10.0, 10.0]], 1.0, 1.0, pad_cells=(1, 0))
     >>> plan.shape_out, plan.at_depth(0.0).round(9).tolist()
     ((2, 4), [[0.0, 10.0, 10.0, 0.0], [0.0, 10.0, 10.0, 0.0]])
+    >>> SlicePlan(np.ones((3, 2, 2)), 1.0, 1.0).at_depth(1.0).shape     # three loads
+    (3, 2, 2)
     """
 
     def __init__(self, pressure, dx, dy, method="boussinesq", poisson=None, *,
                  offset=(0.0, 0.0), pad_cells=(0, 0), workers=None):
-        pressure = finite_array(pressure, "pressure", ndim=2)
+        pressure = finite_array(pressure, "pressure", ndim=3 if np.ndim(pressure) == 3 else 2)
         if pressure.size == 0:
             raise InputError("must have at least one cell", argument="pressure")
         dx, dy = positive(dx, "dx"), positive(dy, "dy")
@@ -82,35 +160,60 @@ class SlicePlan:
         pad_x, pad_y = whole_pair(pad_cells, "pad_cells", meaning="(pad_x, pad_y) whole cells >= 0")
         workers = fft_workers(workers)
         spec = resolve_method(method, poisson)
-        ny, nx = pressure.shape
+        ny, nx = pressure.shape[-2:]
         self.spec, self.workers, self.shape_in = spec, workers, (ny, nx)
         self.shape_out = (ny + 2 * pad_y, nx + 2 * pad_x)
         my, mx = self.shape_out
         # kernel length nx + mx - 1; an FFT at least that long keeps wrap-around off the samples
         self.fft_shape = (scipy.fft.next_fast_len(ny + my - 1, real=True),
                           scipy.fft.next_fast_len(nx + mx - 1, real=True))
-        self.pressure_hat = scipy.fft.rfftn(pressure, s=self.fft_shape, workers=workers)
+        self.pressure_hat = scipy.fft.rfftn(pressure, s=self.fft_shape, axes=(-2, -1),
+                                            workers=workers)
         # node offsets from the sample, listed in decreasing order so that the second
         # difference of F is directly the convolution kernel (no flip needed)
         self.a_nodes = (pad_x + nx - 0.5 - np.arange(nx + mx)) * dx - offset[0]
         self.b_nodes = (pad_y + ny - 0.5 - np.arange(ny + my)) * dy - offset[1]
+        self.paired = (paired_nodes(self.a_nodes), paired_nodes(self.b_nodes))
 
-    def at_depth(self, depth: float) -> np.ndarray:
-        """Δσz (kPa) on the sample lattice at one depth (m, >= 0)."""
+    def kernel_spectrum(self, depth: float) -> np.ndarray:
+        """The transform of the unit-cell kernel at one depth (m, >= 0)."""
         depth = finite(depth, "depth")
         if depth < 0:
             raise InputError(f"must be >= 0 below the ground surface, got {depth!r}",
                              argument="depth")
-        kernel = _unit_cell_kernel(self.a_nodes, self.b_nodes, depth,
-                                   self.spec.depth_scale, self.spec.second_term)
-        spectrum = scipy.fft.rfftn(kernel, s=self.fft_shape, workers=self.workers)
-        del kernel
-        spectrum *= self.pressure_hat
-        full = scipy.fft.irfftn(spectrum, s=self.fft_shape, workers=self.workers)
-        del spectrum
+        kernel = _unit_cell_kernel(self.a_nodes, self.b_nodes, depth, self.spec.depth_scale,
+                                   self.spec.second_term, *self.paired, *self.fft_shape)
+        return scipy.fft.rfftn(kernel, workers=self.workers)
+
+    def at_depth(self, depth: float, window=(slice(None), slice(None))) -> np.ndarray:
+        """Δσz (kPa) on the sample lattice at one depth (m, >= 0): shape (my, mx), or
+        (E, my, mx) for a stack of loads; `window` (rows, columns of the lattice, slices)
+        keeps part of it."""
+        spectrum = self.kernel_spectrum(depth)
+        loads = self.pressure_hat.reshape((-1,) + spectrum.shape)
+        out = None
+        for e, load in enumerate(loads):
+            # the last load multiplies in place: one spectrum fewer for a single load
+            last = e == len(loads) - 1
+            kept = self._inverse(np.multiply(spectrum, load, out=spectrum if last else None),
+                                 window)
+            if out is None:
+                out = np.empty((len(loads),) + kept.shape)
+            out[e] = kept
+            del kept
+        return out if self.pressure_hat.ndim == 3 else out[0]
+
+    def _inverse(self, product: np.ndarray, window) -> np.ndarray:
+        """The samples `window` of the inverse transform of `product` (overwritten): along
+        y for every column, then along x for the rows kept only (scipy's irfftn would
+        transform every row, and more slowly)."""
         ny, nx = self.shape_in
         my, mx = self.shape_out
-        return full[ny - 1:ny - 1 + my, nx - 1:nx - 1 + mx].copy()
+        rows, cols = window
+        along_y = scipy.fft.ifft(product, axis=0, overwrite_x=True, workers=self.workers)
+        kept = along_y[ny - 1:ny - 1 + my][rows]
+        full = scipy.fft.irfft(kept, n=self.fft_shape[1], axis=1, workers=self.workers)
+        return full[:, nx - 1:nx - 1 + mx][:, cols]
 
 
 def slice_at_depth(pressure, dx, dy, depth, method="boussinesq", poisson=None, *,
@@ -200,6 +303,53 @@ def stress_slices(grid, depths, method="boussinesq", poisson=None, *, offset=(0.
     for k, depth in enumerate(frame["depth"]):
         values[k] = plan.at_depth(depth)
     return slice_array(values, frame)
+
+
+class SliceStack:
+    """Slices of several load grids on the cells of one lattice, depth after depth.
+
+    Each distinct pressure is transformed once (when the stack is made) and every call
+    of :meth:`slices` reuses the transforms; per depth one unit-cell kernel and one kernel
+    transform serve every grid (:class:`SlicePlan` with a stack of loads).  Grids with
+    equal pressures are computed once.  Arguments are as for :func:`stress_slices`; the
+    grids must share their cells (shape, origin and size).
+
+    Examples
+    --------
+    >>> from fillstress import LoadGrid
+    >>> grids = [LoadGrid([[q]], x0=0.0, y0=0.0, dx=1.0, dy=1.0) for q in (10.0, 30.0)]
+    >>> one, three = SliceStack(grids, pad=1.0).slices([0.0, 2.0])
+    >>> one.dims, one.shape, bool(np.allclose(3 * one, three, rtol=1e-12))
+    (('depth', 'y', 'x'), (2, 3, 3), True)
+    """
+
+    def __init__(self, grids, method="boussinesq", poisson=None, *, offset=(0.0, 0.0),
+                 pad=0.0, workers=None):
+        grids = [checked_grid(g) for g in grids]
+        if not grids:
+            raise InputError("must hold at least one load grid", argument="grids")
+        first = grids[0]
+        cells = [(g.shape, g.x0, g.y0, g.dx, g.dy) for g in grids]
+        if any(c != cells[0] for c in cells):
+            raise InputError("the load grids must share their cells (shape, origin, size)",
+                             argument="grids")
+        distinct, self.index = distinct_loads([g.pressure for g in grids])
+        _, self.frame = slice_setup(first, [0.0], method, poisson, offset=offset, pad=pad)
+        self.plan = SlicePlan(np.stack(distinct), first.dx, first.dy, method, poisson,
+                              offset=self.frame["offset"], pad_cells=self.frame["pad_cells"],
+                              workers=workers)
+
+    def slices(self, depths, window=(slice(None), slice(None))) -> list[xr.DataArray]:
+        """Δσz (kPa) of every grid at `depths`, one DataArray (depth, y, x) per grid as
+        :func:`stress_slices` gives it, cut to `window` (rows and columns of the sample
+        lattice, slices).  Grids with equal pressures share their values array."""
+        z = depths_array(depths)
+        rows, cols = window
+        frame = {**self.frame, "depth": z, "y": self.frame["y"][rows], "x": self.frame["x"][cols]}
+        values = np.empty((len(self.plan.pressure_hat), z.size, frame["y"].size, frame["x"].size))
+        for k, depth in enumerate(z):
+            values[:, k] = self.plan.at_depth(depth, window)
+        return [slice_array(values[e], frame) for e in self.index]
 
 
 def slice_lattice(grid, pad_cells, offset) -> tuple[np.ndarray, np.ndarray]:
