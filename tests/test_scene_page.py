@@ -186,3 +186,13 @@ def test_large_lattices_are_thinned_for_the_browser(truth, monkeypatch):
         za = np.frombuffer(base64.b64decode(a["z"]), np.float32).reshape(a["n1"], a["n0"])
         zb = np.frombuffer(base64.b64decode(b["z"]), np.float32).reshape(b["n1"], b["n0"])
         np.testing.assert_array_equal(zb, za[::step, ::step])
+
+
+def test_bounds_are_those_of_all_points_together(truth):
+    """Part by part least and greatest points = those of one concatenation (the earlier
+    way, hundreds of MB on a corridor)."""
+    scene = viewer.scene_parts(truth.path, exaggeration=2.0)
+    pts = np.concatenate([np.asarray(p.mesh.points) for p in scene.parts])
+    lo, hi = pts.min(axis=0), pts.max(axis=0)
+    expected = (lo[0], hi[0], lo[1], hi[1], lo[2] / 2.0, hi[2] / 2.0)
+    assert scene_page._bounds(scene) == tuple(float(v) for v in expected)

@@ -153,8 +153,12 @@ def scene_data(scene) -> dict:
 
 
 def _bounds(scene):
-    pts = np.concatenate([np.asarray(p.mesh.points) for p in scene.parts])
-    lo, hi = pts.min(axis=0), pts.max(axis=0)
+    """(x0, x1, y0, y1, z0, z1) of every part's points, z unexaggerated: the least and
+    greatest of each part's own, not of one copy of all the points (hundreds of MB on
+    a corridor's full-resolution slices)."""
+    pts = [np.asarray(p.mesh.points) for p in scene.parts]
+    lo = np.min([p.min(axis=0) for p in pts if len(p)], axis=0)
+    hi = np.max([p.max(axis=0) for p in pts if len(p)], axis=0)
     return (float(lo[0]), float(hi[0]), float(lo[1]), float(hi[1]),
             float(lo[2] / scene.exaggeration), float(hi[2] / scene.exaggeration))
 
