@@ -331,3 +331,37 @@ def test_small_plan_fields_are_drawn_from_every_node(truth, monkeypatch):
     monkeypatch.setattr(figures, "display_field", lambda f, most=None: (f, 1))
     np.testing.assert_array_equal(_pixels(now),
                                   _pixels(figures.plan_map(field, levels=levels, fill=fill)))
+
+
+def test_report_and_scene_from_one_view_equal_each_from_the_folder(truth, tmp_path):
+    """The run hands the report and then the scene one ResultsFolder (the cube and rasters
+    read once): both pages equal those each written from the folder's path (the report's
+    clock times aside), and the manifest records the report alike."""
+    import re
+
+    from fillstress.report.html import write_run_report
+    from fillstress.scene_page import export_scene_html
+    shared, alone = tmp_path / "a" / "run", tmp_path / "b" / "run"     # the page names it
+    shutil.copytree(truth.path, shared)
+    shutil.copytree(truth.path, alone)
+    view = ResultsFolder(shared)
+    write_run_report(view, shared / "report.html")
+    export_scene_html(view, shared / "scene.html")
+    write_run_report(alone, alone / "report.html")
+    export_scene_html(alone, alone / "scene.html")
+    assert view._read_once                       # the scene used what the report read
+    clock = re.compile(r"\d{4}-\d\d-\d\d[ T]\d\d:\d\d(:\d\d)?( UTC|Z)")
+    for name in ("report.html", "scene.html", "manifest.json"):
+        a, b = ((d / name).read_text(encoding="utf-8") for d in (shared, alone))
+        if name == "report.html":
+            a, b = clock.sub("", a), clock.sub("", b)
+        if name == "manifest.json":
+            a, b = (json.loads(t)["outputs"] for t in (a, b))
+            assert a["report.html"] == hashlib_of(shared / "report.html")
+            a.pop("report.html"), b.pop("report.html")
+        assert a == b, name
+
+
+def hashlib_of(path):
+    import hashlib
+    return hashlib.sha256(path.read_bytes()).hexdigest()

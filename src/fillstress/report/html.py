@@ -537,8 +537,8 @@ def write_run_report(results_dir, path=None) -> Path:
 
     Parameters
     ----------
-    results_dir : str or path-like
-        A results folder (docs/results-folder.md).
+    results_dir : str, path-like or ResultsFolder
+        A results folder (docs/results-folder.md), or a view of it already reading it.
     path : str or path-like, optional
         Where to write; default ``<results_dir>/report.html``.
 
@@ -554,10 +554,11 @@ def write_run_report(results_dir, path=None) -> Path:
     ...
     fillstress.errors.InputError: argument results_dir: is not a results folder (no such directory)
     """
-    if (Path(results_dir) / "monitoring.json").is_file():
+    where = getattr(results_dir, "path", results_dir)
+    if (Path(where) / "monitoring.json").is_file():
         raise InputError("is a monitoring folder: its report.html is written by "
-                         "`fillstress monitor` (rerun it with --overwrite)", file=results_dir)
-    folder = ResultsFolder(results_dir)
+                         "`fillstress monitor` (rerun it with --overwrite)", file=where)
+    folder = ResultsFolder.of(results_dir)
     text = _Report(folder).page()
     path = folder.path / "report.html" if path is None else Path(path)
     write_atomic(path, lambda tmp: tmp.write_text(text, encoding="utf-8"))

@@ -19,7 +19,7 @@ from ..grid import GridSpec
 from ..io import geotiff, manifest, netcdf, tables, vtk
 from ..io.atomic import write_atomic
 from ..progress import describe, open_bar, silent
-from ..report import write_report
+from ..report.html import write_run_report
 from ..site.receptors import summarise
 from ..scene_page import export_scene_html
 from ..site.alignment import format_station
@@ -569,14 +569,17 @@ def _soil_rows(site) -> list[dict]:
 
 
 def _write_report_and_scene(folder, bar, site) -> None:
-    """The report and the scene, each unless the site file's [outputs] turns it off."""
+    """The report and the scene, each unless the site file's [outputs] turns it off. They
+    share one view of the folder, so the cube and rasters are read once, not twice."""
+    from ..io.results import ResultsFolder
+    finished = ResultsFolder(folder.root)
     describe(bar, "report")
     if _output(site, "report"):
-        write_report(folder.root, folder.path("report.html"))
+        write_run_report(finished, folder.path("report.html"))
     bar.advance()
     describe(bar, "3D scene")
     if _output(site, "scene"):
-        export_scene_html(folder.root, folder.path("scene.html"))
+        export_scene_html(finished, folder.path("scene.html"))
     bar.advance()
 
 
