@@ -19,6 +19,7 @@ from ..cautions import CHECKED_BY, CORE_CAUTION
 from ..errors import InputError
 from ..io.atomic import write_atomic
 from .corridor import alignment_section
+from .forked import make_all
 from .headroom import headroom_section
 from .limits import CSS as LIMITS_CSS, limits_section
 from .odds import odds_section
@@ -61,6 +62,10 @@ SECTIONS = (
     ("provenance", "Provenance"),
     ("cautions", "Cautions"),
 )
+
+# Shared with a second process where there are two cores (report.forked), these first:
+# the sections drawing most figures, slowest first.
+SLOW_SECTIONS = ("plans", "alignment", "time", "profiles", "headroom", "pipes", "odds")
 
 METHOD_TEXT = (
     "The soil is taken as a homogeneous, isotropic, linear-elastic half-space below the "
@@ -453,11 +458,13 @@ class _Report:
                   "provenance": self.provenance, "cautions": self.cautions}
         title = _site_title(self.f)
         new_page = {"plans", "profiles", "tables", "provenance"}
+        self.f.cube()               # read here, before the fork: kept for the scene after
+        made = make_all({key: bodies[key] for key, _ in SECTIONS}, first=SLOW_SECTIONS)
         sections = []
         for key, heading_text in SECTIONS:
             cls = ' class="new-page"' if key in new_page else ""
             sections.append(f'<section id="{key}"{cls}><h2>{esc(heading_text)}</h2>'
-                            f"{bodies[key]()}</section>")
+                            f"{made[key]}</section>")
         top = ('<div class="caution" id="cautions-top"><ul>'
                + "".join(f"<li>{esc(t)}</li>" for t in self._caution_items()) + "</ul></div>")
         return ("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"

@@ -1,0 +1,93 @@
+"""Sections of a page shared with a second process, on a machine with two cores or more.
+
+A report's sections are functions of a results folder already read into memory, and
+drawing their figures is most of a report's time. A child made by ``fork()`` shares what
+was read without copying it; the two processes take the sections one at a time, each the
+next one not yet taken (the slow ones first), and the child sends back the HTML text of
+its own. Where fork is missing or unsafe (Windows, macOS), on one core, or when a
+section fails, the sections left are made here in their order, so the page and any
+error it raises are those of making them one after another.
+"""
+from __future__ import annotations
+
+import os
+import pickle
+import signal
+import sys
+from typing import Callable
+
+
+def can_fork() -> bool:
+    """True on Linux with at least two cores this process may run on."""
+    return (sys.platform.startswith("linux") and hasattr(os, "fork")
+            and len(os.sched_getaffinity(0)) >= 2)
+
+
+def make_all(makers: dict[str, Callable[[], str]], first=()) -> dict[str, str]:
+    """``{key: makers[key]()}`` in the order of `makers`, made by this process and a
+    forked child, those in `first` taken first.
+
+    Examples
+    --------
+    >>> made = make_all({"a": lambda: "A", "b": lambda: "B"})
+    >>> made
+    {'a': 'A', 'b': 'B'}
+    """
+    if len(makers) < 2 or not can_fork():
+        return {k: make() for k, make in makers.items()}
+    import multiprocessing
+
+    order = [k for k in first if k in makers] + [k for k in makers if k not in first]
+    taken = multiprocessing.get_context("fork").Value("i", 0)   # shared with the child
+
+    def make_taken() -> dict:
+        done = {}
+        while True:
+            with taken.get_lock():
+                i = taken.value
+                taken.value += 1
+            if i >= len(order):
+                return done
+            done[order[i]] = makers[order[i]]()
+
+    read, write = os.pipe()
+    pid = os.fork()
+    if pid == 0:                                      # the child: make, send, leave
+        try:
+            os.close(read)
+            try:
+                done = make_taken()
+            except BaseException:
+                done = None                           # the parent makes what is missing
+            with os.fdopen(write, "wb") as out:
+                pickle.dump(done, out)
+        finally:
+            os._exit(0)
+    os.close(write)
+    try:
+        here = make_taken()
+    except Exception:                                 # all made again below, in order
+        _stop(pid, read)
+        here = there = {}
+    except BaseException:                             # Ctrl-C: stop the child too
+        _stop(pid, read)
+        raise
+    else:
+        with os.fdopen(read, "rb") as sent:
+            there = _loaded(sent.read()) or {}
+        os.waitpid(pid, 0)
+    made = {**here, **there}
+    return {k: made[k] if k in made else makers[k]() for k in makers}
+
+
+def _stop(pid: int, read: int) -> None:
+    os.kill(pid, signal.SIGKILL)
+    os.close(read)
+    os.waitpid(pid, 0)
+
+
+def _loaded(data: bytes):
+    try:
+        return pickle.loads(data)
+    except Exception:                                 # the child died before sending
+        return None
