@@ -7,6 +7,8 @@ international foot). The VTK writers know no CRS, so their coordinates are pre-s
 """
 from __future__ import annotations
 
+import contextlib
+import importlib
 import json
 import math
 
@@ -19,6 +21,7 @@ from ..grid import GridSpec
 from ..io import geotiff, manifest, netcdf, tables, vtk
 from ..io.atomic import write_atomic
 from ..progress import describe, open_bar, silent
+from ..report.forked import make_all
 from ..report.html import write_run_report
 from ..site.receptors import summarise
 from ..scene_page import export_scene_html
@@ -164,15 +167,10 @@ def write_all(res, folder, *, report=True, progress=silent, assumptions="", caut
         describe(bar, "tables")
         _write_tables(res, folder)
         bar.advance()
-        describe(bar, "rasters")
-        _write_rasters(res, folder)
-        bar.advance()
-        describe(bar, "NetCDF cube")
-        _write_cube(res, folder, version)
-        bar.advance()
-        describe(bar, "VTK")
-        _write_vtk(res, folder)
-        bar.advance()
+        describe(bar, "rasters, NetCDF cube, VTK")
+        _write_grids(res, folder, version)
+        for _ in range(3):
+            bar.advance()
         describe(bar, "summary")
         _write_summary_json(res, folder, assumptions, cautions)
         bar.advance()
@@ -189,6 +187,19 @@ def write_all(res, folder, *, report=True, progress=silent, assumptions="", caut
         describe(bar, "manifest")
         manifest.write_manifest(folder, **fields)
         bar.advance()
+
+
+def _write_grids(res, folder, version) -> None:
+    """The rasters, the cube and the VTK files: shared with a forked second process where
+    there are two cores (report.forked), the slowest first. Their libraries are loaded
+    here first, so that the report and the scene after find them loaded."""
+    for module, output in (("rasterio", "geotiff"), ("h5netcdf", "netcdf"), ("pyvista", "vtk")):
+        if _output(res.site, output):
+            with contextlib.suppress(ImportError):      # its writer says what is missing
+                importlib.import_module(module)
+    make_all({"rasters": lambda: _write_rasters(res, folder),
+              "cube": lambda: _write_cube(res, folder, version),
+              "vtk": lambda: _write_vtk(res, folder)}, first=("vtk", "cube"))
 
 
 def _write_tables(res, folder) -> None:
