@@ -154,8 +154,8 @@ def test_zlib_level_one_holds_what_level_four_held(tmp_path, monkeypatch):
     plan = xr.DataArray(values, dims=SLICE_DIMS, coords={"depth": [1.0, 3.0, 7.0], "y": y,
                                                          "x": x})
     grid = GridSpec(299.0, 699.0, 2.0, 2.0, nx=120, ny=80, crs="EPSG:32633")
-    args = dict(grid=grid, fill_thickness=rng.random((80, 120)), units=US,
-                settlement={"plan": values[0] / 1000})
+    args = {"grid": grid, "fill_thickness": rng.random((80, 120)), "units": US,
+            "settlement": {"plan": values[0] / 1000}}
     fast = write_stress_cube(tmp_path / "fast.nc", {"plan": plan}, **args)
     level_four = netcdf._encoding
 

@@ -125,7 +125,7 @@ def _same_mesh(a, b):
     for kind in ("point_data", "cell_data", "field_data"):
         da, db = getattr(a, kind), getattr(b, kind)
         assert sorted(da.keys()) == sorted(db.keys())
-        for key in da.keys():
+        for key in da:
             assert np.asarray(da[key]).dtype == np.asarray(db[key]).dtype, key
             np.testing.assert_array_equal(np.asarray(da[key]), np.asarray(db[key]))
 
@@ -154,5 +154,5 @@ def test_raw_compressed_files_read_back_as_pyvista_default_save(tmp_path):
         for compressor in ("zlib", "lz4"):
             fast = fv._save(tmp_path / f"{compressor}-{name}", mesh, compressor)
             mesh.save(tmp_path / f"old-{name}")
-            assert b'format="appended"' in open(fast, "rb").read(4000)
+            assert b'format="appended"' in fast.read_bytes()[:4000]
             _same_mesh(pv.read(fast), pv.read(tmp_path / f"old-{name}"))

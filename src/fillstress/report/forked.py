@@ -14,7 +14,8 @@ import os
 import pickle
 import signal
 import sys
-from typing import Callable
+import warnings
+from collections.abc import Callable
 
 
 def can_fork() -> bool:
@@ -33,12 +34,10 @@ def make_all(makers: dict[str, Callable[[], str]], first=()) -> dict[str, str]:
     >>> made
     {'a': 'A', 'b': 'B'}
     """
-    if len(makers) < 2 or not can_fork():
+    taken = _shared_counter() if len(makers) > 1 and can_fork() else None
+    if taken is None:
         return {k: make() for k, make in makers.items()}
-    import multiprocessing
-
     order = [k for k in first if k in makers] + [k for k in makers if k not in first]
-    taken = multiprocessing.get_context("fork").Value("i", 0)   # shared with the child
 
     def make_taken() -> dict:
         done = {}
@@ -51,7 +50,10 @@ def make_all(makers: dict[str, Callable[[], str]], first=()) -> dict[str, str]:
             done[order[i]] = makers[order[i]]()
 
     read, write = os.pipe()
-    pid = os.fork()
+    with warnings.catch_warnings():   # Python 3.12+ on threads idle here (numba's pool)
+        warnings.filterwarnings("ignore", "This process .* is multi-threaded",
+                                DeprecationWarning)
+        pid = os.fork()
     if pid == 0:                                      # the child: make, send, leave
         try:
             os.close(read)
@@ -78,6 +80,16 @@ def make_all(makers: dict[str, Callable[[], str]], first=()) -> dict[str, str]:
         os.waitpid(pid, 0)
     made = {**here, **there}
     return {k: made[k] if k in made else makers[k]() for k in makers}
+
+
+def _shared_counter():
+    """A count both processes see (shared memory and a semaphore), None where the system
+    has none to give (no /dev/shm)."""
+    import multiprocessing
+    try:
+        return multiprocessing.get_context("fork").Value("i", 0)
+    except OSError:
+        return None
 
 
 def _stop(pid: int, read: int) -> None:
