@@ -168,7 +168,7 @@ def write_all(res, folder, *, report=True, progress=silent, assumptions="", caut
         _write_tables(res, folder)
         bar.advance()
         describe(bar, "rasters, NetCDF cube, VTK")
-        _write_grids(res, folder, version)
+        _write_grids(res, folder, version, report)
         for _ in range(3):
             bar.advance()
         describe(bar, "summary")
@@ -189,14 +189,18 @@ def write_all(res, folder, *, report=True, progress=silent, assumptions="", caut
         bar.advance()
 
 
-def _write_grids(res, folder, version) -> None:
+def _write_grids(res, folder, version, report) -> None:
     """The rasters, the cube and the VTK files: shared with a forked second process where
-    there are two cores (report.forked), the slowest first. Their libraries are loaded
-    here first, so that the report and the scene after find them loaded."""
-    for module, output in (("rasterio", "geotiff"), ("h5netcdf", "netcdf"), ("pyvista", "vtk")):
-        if _output(res.site, output):
-            with contextlib.suppress(ImportError):      # its writer says what is missing
-                importlib.import_module(module)
+    there are two cores (report.forked), the slowest first. Their libraries, and the
+    report's, are loaded here first: once, not in both processes, and found loaded by
+    the report and the scene after."""
+    site = res.site
+    wanted = {"rasterio": _output(site, "geotiff"), "h5netcdf": _output(site, "netcdf"),
+              "pyvista": _output(site, "vtk"),
+              "matplotlib.backends.backend_agg": report and _output(site, "report")}
+    for module in (m for m, used in wanted.items() if used):
+        with contextlib.suppress(ImportError):          # its writer says what is missing
+            importlib.import_module(module)
     make_all({"rasters": lambda: _write_rasters(res, folder),
               "cube": lambda: _write_cube(res, folder, version),
               "vtk": lambda: _write_vtk(res, folder)}, first=("vtk", "cube"))
