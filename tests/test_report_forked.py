@@ -73,3 +73,11 @@ def test_report_made_by_two_processes_is_the_one_made_by_one(tmp_path, monkeypat
         pages.append(clock.sub("", write_run_report(where).read_text(encoding="utf-8")))
     assert pages[0] == pages[1]
     assert pages[0].count("<section") > 10
+
+
+def test_without_a_process_to_fork_all_is_made_here(forking, monkeypatch):
+    def refused():
+        raise OSError(11, "Resource temporarily unavailable")
+    monkeypatch.setattr(forked.os, "fork", refused)
+    made = forked.make_all({k: _slow(k, 0.0) for k in "abc"})
+    assert {v.split(":")[1] for v in made.values()} == {str(os.getpid())}

@@ -50,10 +50,15 @@ def make_all(makers: dict[str, Callable[[], str]], first=()) -> dict[str, str]:
             done[order[i]] = makers[order[i]]()
 
     read, write = os.pipe()
-    with warnings.catch_warnings():   # Python 3.12+ on threads idle here (numba's pool)
-        warnings.filterwarnings("ignore", "This process .* is multi-threaded",
-                                DeprecationWarning)
-        pid = os.fork()
+    try:
+        with warnings.catch_warnings():   # Python 3.12+ on threads idle here (numba's)
+            warnings.filterwarnings("ignore", "This process .* is multi-threaded",
+                                    DeprecationWarning)
+            pid = os.fork()
+    except OSError:                                   # no process to be had: all here
+        os.close(read)
+        os.close(write)
+        return {k: make() for k, make in makers.items()}
     if pid == 0:                                      # the child: make, send, leave
         try:
             os.close(read)
