@@ -162,15 +162,14 @@ def column_quantities(frame: pd.DataFrame) -> dict:
 def write_all(res, folder, *, report=True, progress=silent, assumptions="", cautions="",
               version="") -> None:
     site = res.site
-    steps = 6 + (2 if report else 0)
+    steps = 4 + (2 if report else 0)
     with open_bar(progress, "writing results", steps) as bar:
         describe(bar, "tables")
         _write_tables(res, folder)
         bar.advance()
-        describe(bar, "rasters, NetCDF cube, VTK")
+        describe(bar, "rasters, NetCDF cube, VTK")         # one step: written side by side
         _write_grids(res, folder, version, report)
-        for _ in range(3):
-            bar.advance()
+        bar.advance()
         describe(bar, "summary")
         _write_summary_json(res, folder, assumptions, cautions)
         bar.advance()
