@@ -81,3 +81,22 @@ def test_without_a_process_to_fork_all_is_made_here(forking, monkeypatch):
     monkeypatch.setattr(forked.os, "fork", refused)
     made = forked.make_all({k: _slow(k, 0.0) for k in "abc"})
     assert {v.split(":")[1] for v in made.values()} == {str(os.getpid())}
+
+
+def test_warnings_met_by_the_child_are_shown_here(forking):
+    """The child writes nothing to the terminal (a progress bar's lock may be held at the
+    fork): its warnings come back with its sections and are issued by the parent."""
+    parent = os.getpid()
+
+    def warns(key):
+        def make():
+            time.sleep(0.1)
+            if os.getpid() != parent:
+                import warnings
+                warnings.warn(f"{key} made in the child", RuntimeWarning)
+            return key
+        return make
+    with pytest.warns(RuntimeWarning) as caught:
+        made = forked.make_all({k: warns(k) for k in "abcd"})
+    assert made == {k: k for k in "abcd"}
+    assert caught and all(str(w.message).endswith("made in the child") for w in caught)

@@ -59,32 +59,44 @@ def make_all(makers: dict[str, Callable[[], str]], first=()) -> dict[str, str]:
         os.close(read)
         os.close(write)
         return {k: make() for k, make in makers.items()}
-    if pid == 0:                                      # the child: make, send, leave
-        try:
-            os.close(read)
-            try:
-                done = make_taken()
-            except BaseException:
-                done = None                           # the parent makes what is missing
-            with os.fdopen(write, "wb") as out:
-                pickle.dump(done, out)
-        finally:
-            os._exit(0)
+    if pid == 0:
+        _child(make_taken, read, write)
     os.close(write)
     try:
         here = make_taken()
     except Exception:                                 # all made again below, in order
         _stop(pid, read)
-        here = there = {}
+        here, there = {}, {}
     except BaseException:                             # Ctrl-C: stop the child too
         _stop(pid, read)
         raise
     else:
         with os.fdopen(read, "rb") as sent:
-            there = _loaded(sent.read()) or {}
+            there, caught = _loaded(sent.read())
         os.waitpid(pid, 0)
+        for text, category, filename, lineno in caught:   # the child's, shown here
+            warnings.warn_explicit(text, category, filename, lineno)
     made = {**here, **there}
     return {k: made[k] if k in made else makers[k]() for k in makers}
+
+
+def _child(make_taken, read: int, write: int) -> None:
+    """Make the sections taken, send them and the warnings met, and leave. Nothing is
+    written to the terminal: a lock of it held at the fork by another thread (a progress
+    bar's) would never be let go here."""
+    try:
+        os.close(read)
+        sys.stdout = sys.stderr = open(os.devnull, "w")
+        with warnings.catch_warnings(record=True) as caught:
+            try:
+                done = make_taken()
+            except BaseException:
+                done = None                           # the parent makes what is missing
+        notes = [(str(w.message), w.category, w.filename, w.lineno) for w in caught]
+        with os.fdopen(write, "wb") as out:
+            pickle.dump((done, notes), out)
+    finally:
+        os._exit(0)
 
 
 def _shared_counter():
@@ -103,8 +115,10 @@ def _stop(pid: int, read: int) -> None:
     os.waitpid(pid, 0)
 
 
-def _loaded(data: bytes):
+def _loaded(data: bytes) -> tuple[dict, list]:
+    """(sections made, warnings met) sent by the child; none when it died first."""
     try:
-        return pickle.loads(data)
-    except Exception:                                 # the child died before sending
-        return None
+        done, notes = pickle.loads(data)
+    except Exception:
+        return {}, []
+    return done or {}, notes
