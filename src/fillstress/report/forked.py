@@ -1,12 +1,14 @@
-"""Sections of a page shared with a second process, on a machine with two cores or more.
+"""Work shared with a second process, on a machine with two cores or more: the sections
+of a report, and the rasters, cube and VTK files of a run.
 
-A report's sections are functions of a results folder already read into memory, and
-drawing their figures is most of a report's time. A child made by ``fork()`` shares what
-was read without copying it; the two processes take the sections one at a time, each the
-next one not yet taken (the slow ones first), and the child sends back the HTML text of
-its own. Where fork is missing or unsafe (Windows, macOS), on one core, or when a
-section fails, the sections left are made here in their order, so the page and any
-error it raises are those of making them one after another.
+Each piece is a function of data already in memory (a results folder read, a run's
+results), and drawing figures or compressing grids is most of the writing time. A child
+made by ``fork()`` shares those data without copying them; the two processes take the
+pieces one at a time, each the next one not yet taken (the slow ones first), and the
+child sends back what its pieces returned and the warnings they met (it writes nothing
+to the terminal). Where fork is missing or unsafe (Windows, macOS), on one core, or when
+a piece fails, the pieces left are made here in their order, so the result and any
+error raised are those of making them one after another.
 """
 from __future__ import annotations
 
@@ -24,7 +26,7 @@ def can_fork() -> bool:
             and len(os.sched_getaffinity(0)) >= 2)
 
 
-def make_all(makers: dict[str, Callable[[], str]], first=()) -> dict[str, str]:
+def make_all(makers: dict[str, Callable[[], object]], first=()) -> dict[str, object]:
     """``{key: makers[key]()}`` in the order of `makers`, made by this process and a
     forked child, those in `first` taken first.
 
