@@ -3,6 +3,7 @@ forked second process make the folder made by one process alone."""
 from __future__ import annotations
 
 import json
+import os
 import re
 
 import pytest
@@ -22,9 +23,13 @@ def results():
 
 def _write(res, path, fork, monkeypatch):
     monkeypatch.setattr(forked, "can_fork", lambda: fork)
+    forks = []
+    real = os.fork
+    monkeypatch.setattr(forked.os, "fork", lambda: forks.append(1) or real())
     with ResultsWriter(path) as folder:
         write_results(res, folder)
     assert verify_folder(path) == []
+    assert len(forks) == (2 if fork else 0)           # the grids, then the report
     return {p.relative_to(path).as_posix(): p for p in sorted(path.rglob("*")) if p.is_file()}
 
 
