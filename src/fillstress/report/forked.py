@@ -66,7 +66,7 @@ def make_all(makers: dict[str, Callable[[], object]], first=()) -> dict[str, obj
     os.close(write)
     try:
         here = make_taken()
-    except Exception:                                 # all made again below, in order
+    except Exception:  # noqa: BLE001 (all made again below, in order)
         _stop(pid, read)
         here, there = {}, {}
     except BaseException:                             # Ctrl-C: stop the child too
@@ -88,11 +88,11 @@ def _child(make_taken, read: int, write: int) -> None:
     bar's) would never be let go here."""
     try:
         os.close(read)
-        sys.stdout = sys.stderr = open(os.devnull, "w")
+        sys.stdout = sys.stderr = open(os.devnull, "w")  # noqa: SIM115 (the child exits)
         with warnings.catch_warnings(record=True) as caught:
             try:
                 done = make_taken()
-            except BaseException:
+            except BaseException:  # noqa: BLE001
                 done = None                           # the parent makes what is missing
         notes = [(str(w.message), w.category, w.filename, w.lineno) for w in caught]
         with os.fdopen(write, "wb") as out:
@@ -121,6 +121,6 @@ def _loaded(data: bytes) -> tuple[dict, list]:
     """(sections made, warnings met) sent by the child; none when it died first."""
     try:
         done, notes = pickle.loads(data)
-    except Exception:
+    except Exception:  # noqa: BLE001
         return {}, []
     return done or {}, notes
