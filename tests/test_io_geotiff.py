@@ -102,3 +102,32 @@ def test_us_foot_lattice_is_round_in_the_crs():
     assert t.c % 4 == 0 and t.f % 4 == 0
     sub = GridSpec(spec.x0 + 3 * spec.dx, spec.y0 + 2 * spec.dy, spec.dx, spec.dy, 2, 2)
     assert crs_transform(sub, "EPSG:2263").c == t.c + 12.0     # same lattice, exactly
+
+
+def test_deflate_level_one_holds_what_the_default_level_held(tmp_path, monkeypatch):
+    """Level 1 (fast) against GDAL's default level 6 (the earlier files): the same
+    values, NaN, overviews, tags and georeferencing read back; still a COG."""
+    from fillstress.io import geotiff
+    rng = np.random.default_rng(3)
+    grid = GridSpec(4200.0, 9100.0, 2.0, 5.0, nx=700, ny=300, crs="EPSG:32633")
+    field = np.cumsum(rng.random(grid.shape), axis=1)
+    field[:40, :90] = np.nan
+    fast = write_geotiff(tmp_path / "fast.tif", field, grid, quantity="pressure", units=US,
+                         description="dsz")
+    earlier = {k: v for k, v in geotiff.COG_OPTIONS.items() if k != "level"}
+    monkeypatch.setattr(geotiff, "COG_OPTIONS", earlier)
+    slow = write_geotiff(tmp_path / "slow.tif", field, grid, quantity="pressure", units=US,
+                         description="dsz")
+    assert cog_problems(fast) == []
+    with rasterio.open(fast) as a, rasterio.open(slow) as b:
+        np.testing.assert_array_equal(a.read(1), b.read(1))
+        assert a.overviews(1) == b.overviews(1) and a.overviews(1)
+        assert (a.transform, a.crs, a.units, a.descriptions, a.tags(1)) == \
+            (b.transform, b.crs, b.units, b.descriptions, b.tags(1))
+        assert np.isnan(a.nodata) and np.isnan(b.nodata)
+        assert a.profile["compress"] == b.profile["compress"] == "deflate"
+        levels = len(a.overviews(1))
+    for level in range(levels):
+        with rasterio.open(fast, overview_level=level) as oa, \
+                rasterio.open(slow, overview_level=level) as ob:
+            np.testing.assert_array_equal(oa.read(1), ob.read(1))

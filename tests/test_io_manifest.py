@@ -155,3 +155,26 @@ def test_unusable_crs_is_refused_alike_by_every_writer():
         for bad in ("EPSG:0", object()):
             with pytest.raises(InputError, match="argument crs: is not a coordinate reference"):
                 call(bad)
+
+
+def test_second_manifest_reads_only_new_or_replaced_files(tmp_path, monkeypatch):
+    """A ResultsWriter's second manifest reuses the digests of files unchanged since its
+    first and reads again a file replaced meanwhile (same size, new content): its
+    checksums equal reading every file afresh (the earlier way)."""
+    from fillstress.io import manifest
+    from fillstress.io.atomic import write_atomic
+    from fillstress.io.manifest import output_checksums
+    read = []
+    plain = manifest.sha256_file
+    monkeypatch.setattr(manifest, "sha256_file", lambda p: read.append(p.name) or plain(p))
+    with ResultsWriter(tmp_path / "run") as out:
+        _invented_run(out, SI)
+        first = len(read)
+        csv = out.path("buildings_summary.csv")
+        text = csv.read_text()
+        write_atomic(csv, lambda tmp: tmp.write_text(text.replace("Ropewalk", "Ropewalx")))
+        write_atomic(out.path("report.html"), lambda tmp: tmp.write_text("<p>new</p>"))
+        write_manifest(out, settings={"method": "boussinesq"}, units=SI)
+        assert sorted(read[first:]) == ["buildings_summary.csv", "report.html"]
+        written = json.loads(out.path("manifest.json").read_text())["outputs"]
+        assert written == output_checksums(out.root)

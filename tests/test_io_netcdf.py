@@ -141,3 +141,50 @@ def test_thickness_needs_its_grid(tmp_path):
     with pytest.raises(InputError, match="grid shape"):
         write_stress_cube(tmp_path / "c.nc", {"plan": da}, grid=GRID,
                           fill_thickness=np.zeros((5, 3)))
+
+
+def test_zlib_level_one_holds_what_level_four_held(tmp_path, monkeypatch):
+    """The cube at zlib level 1 (fast) and at level 4 (the earlier files) read back the
+    same, variable by variable, attributes included."""
+    from fillstress.io import netcdf
+    rng = np.random.default_rng(11)
+    x, y = 300.0 + 2.0 * np.arange(120), 700.0 + 2.0 * np.arange(80)
+    values = rng.random((3, 80, 120)) * 50
+    values[:, :10] = np.nan
+    plan = xr.DataArray(values, dims=SLICE_DIMS, coords={"depth": [1.0, 3.0, 7.0], "y": y,
+                                                         "x": x})
+    grid = GridSpec(299.0, 699.0, 2.0, 2.0, nx=120, ny=80, crs="EPSG:32633")
+    args = {"grid": grid, "fill_thickness": rng.random((80, 120)), "units": US,
+            "settlement": {"plan": values[0] / 1000}}
+    fast = write_stress_cube(tmp_path / "fast.nc", {"plan": plan}, **args)
+    level_four = netcdf._encoding
+
+    def earlier(ds):
+        enc = level_four(ds)
+        return {k: {**v, "complevel": 4} if "complevel" in v else v for k, v in enc.items()}
+    monkeypatch.setattr(netcdf, "_encoding", earlier)
+    slow = write_stress_cube(tmp_path / "slow.nc", {"plan": plan}, **args)
+    with xr.open_dataset(fast, engine="h5netcdf") as a, \
+            xr.open_dataset(slow, engine="h5netcdf") as b:
+        xr.testing.assert_identical(a, b)
+        assert a["dsz_plan"].encoding["complevel"] == 1 and b["dsz_plan"].encoding["complevel"] == 4
+
+
+@pytest.mark.parametrize("north_first", [False, True])
+def test_north_up_by_reversing_is_the_sorted_dataset(north_first):
+    """Reversing the y axes (a view) gives the dataset sorting them gave (the earlier
+    way), axes already north-first and one-row grids included."""
+    from fillstress.io import netcdf
+    plan = _stack([300.0, 305.0, 310.0], [700.0, 703.0, 709.0], [2.0, 6.0], 100.0)
+    row = _stack([301.0, 302.0], [701.0], [1.0], 50.0)
+    if north_first:
+        plan = plan.isel(y=slice(None, None, -1))
+    ds = xr.Dataset({"dsz_plan": (("depth_plan", "y_plan", "x_plan"), plan.values),
+                     "dsz_row": (("depth_row", "y_row", "x_row"), row.values)},
+                    coords={"y_plan": plan["y"].values, "y_row": row["y"].values,
+                            "x_plan": plan["x"].values, "x_row": row["x"].values})
+    ys = ["y_plan", "y_row"]
+    xr.testing.assert_identical(netcdf._north_up(ds), ds.sortby(ys, ascending=False))
+    shuffled = ds.isel(y_plan=[1, 0, 2])                       # not a lattice: sorted
+    xr.testing.assert_identical(netcdf._north_up(shuffled),
+                                shuffled.sortby(ys, ascending=False))

@@ -110,3 +110,49 @@ def test_pipes_and_boreholes_as_lines(tmp_path):
     assert mesh.n_lines == 2
     assert mesh.points[:, 2].tolist() == [-0.0, -2.0, -4.0, -1.0, -2.0]
     assert "chainage_m" not in mesh.point_data
+
+
+def _same_mesh(a, b):
+    """Two meshes read back hold the same points, cells and arrays, bit for bit."""
+    assert type(a) is type(b)
+    np.testing.assert_array_equal(a.points, b.points)
+    if isinstance(a, pv.PolyData):
+        for cells in ("faces", "lines"):
+            np.testing.assert_array_equal(getattr(a, cells), getattr(b, cells))
+    else:
+        for axis in "xyz":
+            np.testing.assert_array_equal(getattr(a, axis), getattr(b, axis))
+    for kind in ("point_data", "cell_data", "field_data"):
+        da, db = getattr(a, kind), getattr(b, kind)
+        assert sorted(da.keys()) == sorted(db.keys())
+        for key in da:
+            assert np.asarray(da[key]).dtype == np.asarray(db[key]).dtype, key
+            np.testing.assert_array_equal(np.asarray(da[key]), np.asarray(db[key]))
+
+
+def test_raw_compressed_files_read_back_as_pyvista_default_save(tmp_path):
+    """The fast writing (raw appended arrays, LZ4 or zlib level 1) holds what pyvista's
+    own save (base64, zlib), the earlier way, held: NaN included."""
+    from fillstress.io import vtk as fv
+    rng = np.random.default_rng(7)
+    grid = GridSpec(50.0, 80.0, 2.0, 4.0, nx=40, ny=30)
+    thick = rng.random(grid.shape)
+    values = rng.random((3, 30, 40)) * 100
+    values[:, :5] = np.nan
+    da = xr.DataArray(values, dims=SLICE_DIMS, coords={
+        "depth": [1.0, 3.0, 8.0], "y": grid.y_centres, "x": grid.x_centres})
+    pipe = pipe_points("Main-4", LineString([(0, 0), (20, 0), (20, 10)]), [2.0, 3.0, 1.0],
+                       spacing=6.0).assign(dsz=1.5)
+    b = gpd.GeoDataFrame({"receptor_id": ["B1", "Bohrloch-Ü"], "foundation_depth": [2.0, 0.0]},
+                         geometry=[box(0, 0, 4, 3), box(10, 0, 14, 3)])
+    meshes = {"f.vtp": fv.fill_surface_mesh(thick, grid, ground=20.0 + thick, units=US),
+              "s.vtr": fv.stress_grid_mesh(da, US),
+              "t.vtr": fv.settlement_grid_mesh(da.isel(depth=0), US),
+              "p.vtp": fv.polylines_mesh(pipe, "chainage"),
+              "b.vtp": fv.buildings_mesh(b)}
+    for name, mesh in meshes.items():
+        for compressor in ("zlib", "lz4"):
+            fast = fv._save(tmp_path / f"{compressor}-{name}", mesh, compressor)
+            mesh.save(tmp_path / f"old-{name}")
+            assert b'format="appended"' in fast.read_bytes()[:4000]
+            _same_mesh(pv.read(fast), pv.read(tmp_path / f"old-{name}"))

@@ -288,3 +288,96 @@ def test_maps_sharing_a_layout_are_drawn_as_each_alone(truth):
     for s, png in zip(slices, shared):
         alone = figures.plan_map(s, levels=levels, pipes=pipes, fill=folder.fill_thickness())
         np.testing.assert_array_equal(imread(io.BytesIO(png)), imread(io.BytesIO(alone)))
+
+
+def _pixels(png):
+    import io
+
+    from matplotlib.image import imread
+    return imread(io.BytesIO(png))
+
+
+def _corridor_field():
+    """A 3000 x 1100-node plan field (a corridor's size): a winding embankment's Δσz."""
+    from fillstress.io.results import PlanField
+    x, y = np.arange(3000) * 1.5, np.arange(1100) * 1.5
+    centre = 800 + 500 * np.sin(x / 900.0)
+    dist = np.abs(y[:, None] - centre[None, :])
+    values = 120.0 / (1.0 + (dist / 60.0) ** 2) * (1 + 0.3 * np.cos(x / 400.0))
+    fill = PlanField("fill_thickness", "analysis", None, x, y, np.where(dist < 45, 3.0, 0.0), "m")
+    return PlanField("dsz", "plan", 5.0, x, y, values, "kPa"), fill
+
+
+def test_large_plan_fields_are_drawn_from_every_kth_node(monkeypatch):
+    """Above DISPLAY_NODES a plan map is drawn from every k-th node (first and last kept:
+    same extent), says so on the map, and looks like the map of every node; below it the
+    map is the one drawn from every node, pixel for pixel."""
+    from fillstress.report import figures
+    field, fill = _corridor_field()
+    levels = figures.nice_levels(*field.value_range())
+    ny, nx = field.values.shape
+    shown, k = figures.display_field(field)
+    assert k == 3 == -(-nx // figures.DISPLAY_NODES)
+    rows, cols = sorted({*range(0, ny, k), ny - 1}), sorted({*range(0, nx, k), nx - 1})
+    np.testing.assert_array_equal(shown.values, field.values[np.ix_(rows, cols)])
+    assert (shown.x[[0, -1]] == field.x[[0, -1]]).all()
+    assert (shown.y[[0, -1]] == field.y[[0, -1]]).all()
+    fig, _ = figures._plan_figure(field, levels, fill=fill)
+    assert [t.get_text() for t in fig.texts] == [
+        "drawn from 1 node in 3 along x and y (display only; the files hold every node)"]
+    thin = _pixels(figures.plan_map(field, levels=levels, fill=fill))
+
+    monkeypatch.setattr(figures, "DISPLAY_NODES", nx)               # every node: the old way
+    fig, _ = figures._plan_figure(field, levels, fill=fill)
+    assert not fig.texts
+    every = _pixels(figures.plan_map(field, levels=levels, fill=fill))
+    assert thin.shape == every.shape
+    changed = np.abs(thin - every).max(axis=2) > 0.1
+    assert changed.mean() < 0.03       # the note, moved contour labels, phase of the dashes
+
+
+def test_small_plan_fields_are_drawn_from_every_node(truth, monkeypatch):
+    """Below DISPLAY_NODES nothing is thinned: the map is the old one, pixel for pixel."""
+    from fillstress.report import figures
+    folder = ResultsFolder(truth.path)
+    field, fill = folder.plan_slices("dsz")[0], folder.fill_thickness()
+    assert figures.display_field(field) == (field, 1)
+    levels = figures.nice_levels(*field.value_range())
+    now = figures.plan_map(field, levels=levels, fill=fill)
+    monkeypatch.setattr(figures, "display_field", lambda f, most=None: (f, 1))
+    np.testing.assert_array_equal(_pixels(now),
+                                  _pixels(figures.plan_map(field, levels=levels, fill=fill)))
+
+
+def test_report_and_scene_from_one_view_equal_each_from_the_folder(truth, tmp_path):
+    """The run hands the report and then the scene one ResultsFolder (the cube and rasters
+    read once): both pages equal those each written from the folder's path (the report's
+    clock times aside), and the manifest records the report alike."""
+    import re
+
+    from fillstress.report.html import write_run_report
+    from fillstress.scene_page import export_scene_html
+    shared, alone = tmp_path / "a" / "run", tmp_path / "b" / "run"     # the page names it
+    shutil.copytree(truth.path, shared)
+    shutil.copytree(truth.path, alone)
+    view = ResultsFolder(shared)
+    write_run_report(view, shared / "report.html")
+    export_scene_html(view, shared / "scene.html")
+    write_run_report(alone, alone / "report.html")
+    export_scene_html(alone, alone / "scene.html")
+    assert view._read_once                       # the scene used what the report read
+    clock = re.compile(r"\d{4}-\d\d-\d\d[ T]\d\d:\d\d(:\d\d)?( UTC|Z)")
+    for name in ("report.html", "scene.html", "manifest.json"):
+        a, b = ((d / name).read_text(encoding="utf-8") for d in (shared, alone))
+        if name == "report.html":
+            a, b = clock.sub("", a), clock.sub("", b)
+        if name == "manifest.json":
+            a, b = (json.loads(t)["outputs"] for t in (a, b))
+            assert a["report.html"] == hashlib_of(shared / "report.html")
+            a.pop("report.html"), b.pop("report.html")
+        assert a == b, name
+
+
+def hashlib_of(path):
+    import hashlib
+    return hashlib.sha256(path.read_bytes()).hexdigest()

@@ -186,3 +186,43 @@ def test_large_lattices_are_thinned_for_the_browser(truth, monkeypatch):
         za = np.frombuffer(base64.b64decode(a["z"]), np.float32).reshape(a["n1"], a["n0"])
         zb = np.frombuffer(base64.b64decode(b["z"]), np.float32).reshape(b["n1"], b["n0"])
         np.testing.assert_array_equal(zb, za[::step, ::step])
+
+
+def test_bounds_are_those_of_all_points_together(truth):
+    """Part by part least and greatest points = those of one concatenation (the earlier
+    way, hundreds of MB on a corridor)."""
+    scene = viewer.scene_parts(truth.path, exaggeration=2.0)
+    pts = np.concatenate([np.asarray(p.mesh.points) for p in scene.parts])
+    lo, hi = pts.min(axis=0), pts.max(axis=0)
+    expected = (lo[0], hi[0], lo[1], hi[1], lo[2] / 2.0, hi[2] / 2.0)
+    assert scene_page._bounds(scene) == tuple(float(v) for v in expected)
+
+
+def _lattice_before(part, scene):
+    """scene_page._lattice as it was: every point copied, then thinned."""
+    mesh = part.mesh
+    n0, n1, _ = mesh.dimensions
+    step = scene_page.lattice_step(n0 * n1)
+    pts = scene_page._unexaggerated(mesh.points, scene.exaggeration)
+    values = np.asarray(part.values)
+    if step > 1:
+        keep = np.arange(n0 * n1).reshape(n1, n0)[::step, ::step]
+        n1, n0 = keep.shape
+        pts, values = pts[keep.ravel()], values[keep.ravel()]
+    first, second = pts[:n0, :2], pts[::n0, :2][:n1]
+    index = (np.where(np.isfinite(values), 0, scene_page.HOLE).astype(np.uint8)
+             if part.layer == "fill" else colour_index(values, scene.clim))
+    b64 = scene_page._b64
+    return {"n0": int(n0), "n1": int(n1), "a": b64(first.astype(np.float32)),
+            "b": b64(second.astype(np.float32)), "z": b64(pts[:, 2]), "c": b64(index)}
+
+
+@pytest.mark.parametrize("most", [100, 10**6])
+def test_lattices_thinned_before_copying_are_those_copied_then_thinned(truth, monkeypatch,
+                                                                       most):
+    scene = viewer.scene_parts(truth.path, exaggeration=2.0)
+    monkeypatch.setattr(scene_page, "MAX_LATTICE_NODES", most)
+    grids = [p for p in scene.parts if p.kind == "grid"]
+    assert grids
+    for part in grids:
+        assert scene_page._lattice(part, scene) == _lattice_before(part, scene)

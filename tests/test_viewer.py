@@ -359,3 +359,31 @@ def test_boreholes_are_thin_lines_whatever_the_site_span(tmp_path):
     run_site_file(example_site("preload_surcharge"), out, report=False)
     holes = [p for p in viewer.scene_parts(out).parts if p.layer == "boreholes"]
     assert holes and all(p.kind == "lines" and p.mesh.n_points == 2 for p in holes)
+
+
+def test_ground_on_its_own_nodes_is_what_interpolating_there_gives():
+    """The ground of a lattice on the ground raster's nodes is read off the raster: equal,
+    bit for bit, to interpolating it there (the earlier way); elsewhere it interpolates."""
+    import pyvista as pv
+
+    from fillstress.io.results import PlanField
+    rng = np.random.default_rng(5)
+    x, y = 1000.0 + 1.5 * np.arange(70), 20.0 + 2.5 * np.arange(40)
+    values = 30.0 + rng.random((40, 70))
+    values[:3, :5] = np.nan                                       # no data: lowest ground
+    frame = object.__new__(viewer._Frame)
+    frame._ground = PlanField("ground_elevation", "analysis", None, x, y, values, "m")
+    frame.z_ref = float(np.nanmin(values))
+    frame.x0, frame.y0, frame.plan_to_length, frame.exaggeration = x[0], y[0], 1.0, 3.0
+    on_nodes = frame._ground_on(x, y)
+    np.testing.assert_array_equal(on_nodes, frame.ground(*np.meshgrid(x, y)))
+    assert np.isfinite(on_nodes).all()
+    between = x[:-1] + 0.4
+    np.testing.assert_array_equal(frame._ground_on(between, y),
+                                  frame.ground(*np.meshgrid(between, y)))
+    f = PlanField("dsz", "plan", 2.0, x, y, values, "kPa")
+    height = np.full(values.shape, -2.0)
+    xx, yy = np.meshgrid(x, y)
+    pts = frame.points(xx, yy, height)                             # interpolated everywhere
+    before = pv.StructuredGrid(*(pts[:, k].reshape(xx.shape) for k in range(3)))
+    np.testing.assert_array_equal(frame.surface(f, height).points, before.points)

@@ -75,12 +75,12 @@ def _lattice(part, scene) -> dict | None:
     mesh = part.mesh
     n0, n1, _ = mesh.dimensions
     step = lattice_step(n0 * n1)
-    pts = _unexaggerated(mesh.points, scene.exaggeration)
-    values = np.asarray(part.values)
-    if step > 1:
+    pts, values = np.asarray(mesh.points), np.asarray(part.values)
+    if step > 1:                      # thinned before the copy below, not after
         keep = np.arange(n0 * n1).reshape(n1, n0)[::step, ::step]
         n1, n0 = keep.shape
         pts, values = pts[keep.ravel()], values[keep.ravel()]
+    pts = _unexaggerated(pts, scene.exaggeration)
     first, second = pts[:n0, :2], pts[::n0, :2][:n1]
     rebuilt = (first[:, None, :] + second[None, :, :] - first[0]).transpose(1, 0, 2).reshape(-1, 2)
     if not np.allclose(rebuilt, pts[:, :2], atol=1e-3 * max(scene.span, 1.0)):
@@ -153,8 +153,12 @@ def scene_data(scene) -> dict:
 
 
 def _bounds(scene):
-    pts = np.concatenate([np.asarray(p.mesh.points) for p in scene.parts])
-    lo, hi = pts.min(axis=0), pts.max(axis=0)
+    """(x0, x1, y0, y1, z0, z1) of every part's points, z unexaggerated: the least and
+    greatest of each part's own, not of one copy of all the points (hundreds of MB on
+    a corridor's full-resolution slices)."""
+    pts = [np.asarray(p.mesh.points) for p in scene.parts]
+    lo = np.min([p.min(axis=0) for p in pts if len(p)], axis=0)
+    hi = np.max([p.max(axis=0) for p in pts if len(p)], axis=0)
     return (float(lo[0]), float(hi[0]), float(lo[1]), float(hi[1]),
             float(lo[2] / scene.exaggeration), float(hi[2] / scene.exaggeration))
 
@@ -529,8 +533,8 @@ def export_scene_html(results_dir, path=None, *, exaggeration: float | None = No
     ...
     fillstress.errors.InputError: argument results_dir: is not a results folder (no such directory)
     """
-    ResultsFolder(results_dir)
-    path = writable(Path(results_dir) / "scene.html" if path is None else path)
-    html = page_html(scene_parts(results_dir, exaggeration=exaggeration, quantity=quantity,
+    folder = ResultsFolder.of(results_dir)
+    path = writable(folder.path / "scene.html" if path is None else path)
+    html = page_html(scene_parts(folder, exaggeration=exaggeration, quantity=quantity,
                                  layers=layers, colour_range=colour_range))
     return write_atomic(path, lambda tmp: Path(tmp).write_text(html, encoding="utf-8"))

@@ -111,23 +111,42 @@ class _Frame:
     def _has_ground(self) -> bool:
         return self._ground is not None and np.isfinite(self._ground.values).any()
 
+    def _interpolator(self) -> RegularGridInterpolator:
+        """Bilinear interpolation of the ground (no-data cells at the lowest ground),
+        made once: every part of the scene asks for it."""
+        if not hasattr(self, "_interp"):
+            g = self._ground
+            values = np.where(np.isfinite(g.values), g.values, self.z_ref)
+            self._interp = RegularGridInterpolator((g.y, g.x), values, bounds_error=False,
+                                                   fill_value=None)
+        return self._interp
+
     def ground(self, x, y) -> np.ndarray:
         """Existing ground elevation (relative to the lowest ground) at site x, y."""
         x, y = np.broadcast_arrays(np.asarray(x, float), np.asarray(y, float))
         if not self._has_ground():
             return np.zeros(x.shape)
         g = self._ground
-        values = np.where(np.isfinite(g.values), g.values, self.z_ref)
-        interp = RegularGridInterpolator((g.y, g.x), values, bounds_error=False, fill_value=None)
         yc = np.clip(y, g.y[0], g.y[-1])
         xc = np.clip(x, g.x[0], g.x[-1])
-        return interp(np.stack([yc.ravel(), xc.ravel()], axis=1)).reshape(x.shape) - self.z_ref
+        return (self._interpolator()(np.stack([yc.ravel(), xc.ravel()], axis=1))
+                .reshape(x.shape) - self.z_ref)
 
-    def points(self, x, y, height) -> np.ndarray:
+    def _ground_on(self, fx, fy) -> np.ndarray:
+        """:meth:`ground` at the nodes fx × fy; on the ground raster's own nodes (slices
+        and fill on the analysis lattice) its values, which is what interpolating there
+        gives, without interpolating millions of points."""
+        g = self._ground
+        if self._has_ground() and np.array_equal(fx, g.x) and np.array_equal(fy, g.y):
+            return np.asarray(self._interpolator().values, float) - self.z_ref
+        return self.ground(*np.meshgrid(fx, fy))
+
+    def points(self, x, y, height, ground=None) -> np.ndarray:
         """(N, 3) scene points for site x, y (plan unit) at `height` (length unit) above
-        the existing ground, all three in the length unit."""
+        the existing ground (`ground` at x, y when known), all three in the length unit."""
         x, y, height = np.broadcast_arrays(*(np.asarray(a, float) for a in (x, y, height)))
-        z = (self.ground(x, y) + height) * self.exaggeration
+        ground = self.ground(x, y) if ground is None else ground
+        z = (ground + height) * self.exaggeration
         k = self.plan_to_length
         return np.column_stack([(x.ravel() - self.x0) * k, (y.ravel() - self.y0) * k, z.ravel()])
 
@@ -135,7 +154,7 @@ class _Frame:
         """A pyvista StructuredGrid over the centres of `f` at `height` above ground."""
         import pyvista as pv
         xx, yy = np.meshgrid(f.x, f.y)
-        pts = self.points(xx, yy, height)
+        pts = self.points(xx, yy, height, ground=self._ground_on(f.x, f.y))
         return pv.StructuredGrid(*(pts[:, k].reshape(xx.shape) for k in range(3)))
 
 
@@ -466,8 +485,9 @@ class _PartsBuilder:
 
 def scene_parts(results_dir, *, exaggeration: float | None = None, quantity: str = "dsz",
                 layers=LAYERS, colour_range=None) -> Scene:
-    """The parts of the scene of a results folder (see :func:`build_scene`)."""
-    folder = ResultsFolder(results_dir)
+    """The parts of the scene of a results folder or of a :class:`ResultsFolder` view of
+    it (see :func:`build_scene`)."""
+    folder = ResultsFolder.of(results_dir)
     require_extra("view", argument="view")
     if exaggeration is not None:
         exaggeration = positive(exaggeration, "exaggeration")

@@ -171,6 +171,7 @@ class ResultsWriter:
         self._token = uuid.uuid4().hex[:12]
         self.root = self.final.with_name(f".{self.final.name}.partial-{self._token}")
         self._lock = None
+        self.digests = {}     # SHA-256 of files already checksummed (io.manifest)
         self.recovered = recover_stranded(self.final)
         self._check_target()
         self._open = False

@@ -27,7 +27,9 @@ from .tables import plan_unit, to_output_units, unit_label
 # most commands never need it.
 
 
-COG_OPTIONS = dict(compress="deflate", predictor=3, blocksize=256, overviews="auto")
+# Deflate at level 1: a third of the default level's (6) time for files some 6 % larger,
+# on the floating-point predictor's bytes; every deflate reader reads every level.
+COG_OPTIONS = dict(compress="deflate", level=1, predictor=3, blocksize=256, overviews="auto")
 
 
 def rasterio_crs(crs):

@@ -103,9 +103,15 @@ def _grid_entry(grid, units: UnitSystem, crs):
             "dy": grid.dy / factor, "nx": int(grid.nx), "ny": int(grid.ny), "unit": label}
 
 
-def output_checksums(folder, *, exclude=(MANIFEST_NAME,)) -> dict[str, str]:
+def output_checksums(folder, *, exclude=(MANIFEST_NAME,), known: dict | None = None
+                     ) -> dict[str, str]:
     """Relative POSIX path → SHA-256 of every file under `folder` (hidden temporaries and
-    `exclude` left out), sorted by path."""
+    `exclude` left out), sorted by path.
+
+    `known` (a dict kept between calls) remembers each digest with the file's inode, size
+    and modification time: a file still the same is not read again. Files of a results
+    folder are only ever replaced by renaming a new file into place (a new inode).
+    """
     root = Path(os.fspath(folder))
     files = sorted(p for p in root.rglob("*") if p.is_file())
     out = {}
@@ -113,8 +119,18 @@ def output_checksums(folder, *, exclude=(MANIFEST_NAME,)) -> dict[str, str]:
         rel = p.relative_to(root).as_posix()
         if rel in exclude or any(part.startswith(".") for part in Path(rel).parts):
             continue
-        out[rel] = sha256_file(p)
+        out[rel] = _checksum(p, known)
     return out
+
+
+def _checksum(path: Path, known: dict | None) -> str:
+    if known is None:
+        return sha256_file(path)
+    st = path.stat()
+    key = (os.fspath(path), st.st_ino, st.st_size, st.st_mtime_ns)
+    if key not in known:
+        known[key] = sha256_file(path)
+    return known[key]
 
 
 def build_manifest(*, settings: Mapping, units: UnitSystem = SI, inputs: Iterable = (),
@@ -159,7 +175,8 @@ def write_manifest(folder, **fields) -> Path:
     """Checksum every file already in `folder`, then write ``folder/manifest.json``.
 
     `folder` is a path or a :class:`~fillstress.io.atomic.ResultsWriter` (its folder being
-    assembled); `fields` are those of :func:`build_manifest` except ``outputs``.
+    assembled; files it checksummed before and that are unchanged are not read again);
+    `fields` are those of :func:`build_manifest` except ``outputs``.
 
     Examples
     --------
@@ -176,7 +193,8 @@ def write_manifest(folder, **fields) -> Path:
     if "outputs" in fields:
         raise InputError("outputs are computed from the folder, do not pass them",
                          argument="outputs")
-    manifest = build_manifest(outputs=output_checksums(root), **fields)
+    known = folder.digests if isinstance(folder, ResultsWriter) else None
+    manifest = build_manifest(outputs=output_checksums(root, known=known), **fields)
     text = json.dumps(manifest, indent=2, ensure_ascii=False, allow_nan=False) + "\n"
     return write_atomic(root / MANIFEST_NAME,
                         lambda tmp: tmp.write_text(text, encoding="utf-8"))

@@ -190,6 +190,12 @@ class ResultsFolder:
         self.units = self._read_units()
         self._read_once: dict = {}
 
+    @classmethod
+    def of(cls, folder) -> "ResultsFolder":
+        """`folder` itself when it is a ResultsFolder (what it has read is kept: the run
+        hands one to the report and then to the scene), else a new view of that path."""
+        return folder if isinstance(folder, cls) else cls(folder)
+
     def _once(self, key: str, read):
         """`read()` the first time `key` is asked for, the kept result after: the report and
         the scene ask for the stress cube and the fill raster from several places."""

@@ -4,6 +4,7 @@ Each function returns PNG bytes, ready to embed in the HTML report as base64.
 """
 from __future__ import annotations
 
+import dataclasses
 import io
 
 import numpy as np
@@ -15,6 +16,10 @@ from ..io.results import Feature, PlanField
 
 PLAN_CMAP = "viridis"   # perceptually uniform
 DPI = 110
+# A plan map is some 550 pixels wide: a grid of more nodes than twice that shows nothing
+# more, while contouring and building its paths grow with the nodes (seconds on a
+# corridor). Larger grids are drawn from every k-th node, and the map says so.
+DISPLAY_NODES = 1200
 
 
 def _new_figure(width_in: float, height_in: float):
@@ -165,6 +170,28 @@ def plan_maps(fields, *, levels=None, **common) -> list[bytes]:
     return out
 
 
+def display_field(field: PlanField, most: int | None = None) -> tuple[PlanField, int]:
+    """`field` thinned for display to every k-th node along x and y (the last row and
+    column kept, so the extent stays), k the least step leaving at most `most` (+1;
+    default :data:`DISPLAY_NODES`) nodes each way; `field` itself and k = 1 when it is
+    small enough.
+
+    Examples
+    --------
+    >>> f = PlanField("dsz", "plan", 2.0, np.arange(7.0), np.arange(2.0),
+    ...               np.arange(14.0).reshape(2, 7), "kPa")
+    >>> shown, k = display_field(f, most=3)
+    >>> k, shown.x.tolist(), shown.values.tolist()
+    (3, [0.0, 3.0, 6.0], [[0.0, 3.0, 6.0], [7.0, 10.0, 13.0]])
+    """
+    k = max(1, -(-max(field.values.shape) // (most or DISPLAY_NODES)))
+    if k == 1:
+        return field, 1
+    rows, cols = (np.unique(np.r_[np.arange(0, n, k), n - 1]) for n in field.values.shape)
+    return dataclasses.replace(field, x=field.x[cols], y=field.y[rows],
+                               values=field.values[np.ix_(rows, cols)]), k
+
+
 def _plan_figure(field: PlanField, levels, positions=None, *, fill=None, buildings=(),
                  pipes=(), boreholes=(), length_unit="m", label=r"$\Delta\sigma_z$"):
     """The map's figure and its (map, colour bar) axes; with `positions` (from a map of
@@ -173,6 +200,14 @@ def _plan_figure(field: PlanField, levels, positions=None, *, fill=None, buildin
     fig = _new_figure(*_figure_size(field))
     if positions is not None:
         fig.set_layout_engine("none")
+    field, step = display_field(field)
+    if fill is not None:
+        fill, fill_step = display_field(fill)
+        step = max(step, fill_step)
+    if step > 1:
+        fig.text(0.995, 0.005, f"drawn from 1 node in {step} along x and y (display only; "
+                 "the files hold every node)", ha="right", va="bottom", fontsize=6,
+                 color="dimgray")
     ax = fig.add_subplot()
     filled = ax.contourf(field.x, field.y, field.values, levels=levels, cmap=PLAN_CMAP,
                          extend="both")

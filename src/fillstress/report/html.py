@@ -19,6 +19,7 @@ from ..cautions import CHECKED_BY, CORE_CAUTION
 from ..errors import InputError
 from ..io.atomic import write_atomic
 from .corridor import alignment_section
+from .forked import make_all
 from .headroom import headroom_section
 from .limits import CSS as LIMITS_CSS, limits_section
 from .odds import odds_section
@@ -61,6 +62,10 @@ SECTIONS = (
     ("provenance", "Provenance"),
     ("cautions", "Cautions"),
 )
+
+# Shared with a second process where there are two cores (report.forked), these first:
+# the sections drawing most figures, slowest first.
+SLOW_SECTIONS = ("plans", "alignment", "time", "profiles", "headroom", "pipes", "odds")
 
 #: The stress solution of a run, by its method: what the soil is taken to be.
 SOIL_MODEL = {
@@ -460,11 +465,13 @@ class _Report:
                   "provenance": self.provenance, "cautions": self.cautions}
         title = _site_title(self.f)
         new_page = {"plans", "profiles", "tables", "provenance"}
+        self.f.cube()               # read here, before the fork: kept for the scene after
+        made = make_all({key: bodies[key] for key, _ in SECTIONS}, first=SLOW_SECTIONS)
         sections = []
         for key, heading_text in SECTIONS:
             cls = ' class="new-page"' if key in new_page else ""
             sections.append(f'<section id="{key}"{cls}><h2>{esc(heading_text)}</h2>'
-                            f"{bodies[key]()}</section>")
+                            f"{made[key]}</section>")
         top = ('<div class="caution" id="cautions-top"><ul>'
                + "".join(f"<li>{esc(t)}</li>" for t in self._caution_items()) + "</ul></div>")
         return ("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
@@ -544,8 +551,8 @@ def write_run_report(results_dir, path=None) -> Path:
 
     Parameters
     ----------
-    results_dir : str or path-like
-        A results folder (docs/results-folder.md).
+    results_dir : str, path-like or ResultsFolder
+        A results folder (docs/results-folder.md), or a view of it already reading it.
     path : str or path-like, optional
         Where to write; default ``<results_dir>/report.html``.
 
@@ -561,10 +568,11 @@ def write_run_report(results_dir, path=None) -> Path:
     ...
     fillstress.errors.InputError: argument results_dir: is not a results folder (no such directory)
     """
-    if (Path(results_dir) / "monitoring.json").is_file():
+    where = getattr(results_dir, "path", results_dir)
+    if (Path(where) / "monitoring.json").is_file():
         raise InputError("is a monitoring folder: its report.html is written by "
-                         "`fillstress monitor` (rerun it with --overwrite)", file=results_dir)
-    folder = ResultsFolder(results_dir)
+                         "`fillstress monitor` (rerun it with --overwrite)", file=where)
+    folder = ResultsFolder.of(results_dir)
     text = _Report(folder).page()
     path = folder.path / "report.html" if path is None else Path(path)
     write_atomic(path, lambda tmp: tmp.write_text(text, encoding="utf-8"))

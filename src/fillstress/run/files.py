@@ -7,6 +7,8 @@ international foot). The VTK writers know no CRS, so their coordinates are pre-s
 """
 from __future__ import annotations
 
+import contextlib
+import importlib
 import json
 import math
 
@@ -19,7 +21,8 @@ from ..grid import GridSpec
 from ..io import geotiff, manifest, netcdf, tables, vtk
 from ..io.atomic import write_atomic
 from ..progress import describe, open_bar, silent
-from ..report import write_report
+from ..report.forked import make_all
+from ..report.html import write_run_report
 from ..site.receptors import summarise
 from ..scene_page import export_scene_html
 from ..site.alignment import format_station
@@ -159,19 +162,13 @@ def column_quantities(frame: pd.DataFrame) -> dict:
 def write_all(res, folder, *, report=True, progress=silent, assumptions="", cautions="",
               version="") -> None:
     site = res.site
-    steps = 6 + (2 if report else 0)
+    steps = 4 + (2 if report else 0)
     with open_bar(progress, "writing results", steps) as bar:
         describe(bar, "tables")
         _write_tables(res, folder)
         bar.advance()
-        describe(bar, "rasters")
-        _write_rasters(res, folder)
-        bar.advance()
-        describe(bar, "NetCDF cube")
-        _write_cube(res, folder, version)
-        bar.advance()
-        describe(bar, "VTK")
-        _write_vtk(res, folder)
+        describe(bar, "rasters, NetCDF cube, VTK")         # one step: written side by side
+        _write_grids(res, folder, version, report)
         bar.advance()
         describe(bar, "summary")
         _write_summary_json(res, folder, assumptions, cautions)
@@ -189,6 +186,23 @@ def write_all(res, folder, *, report=True, progress=silent, assumptions="", caut
         describe(bar, "manifest")
         manifest.write_manifest(folder, **fields)
         bar.advance()
+
+
+def _write_grids(res, folder, version, report) -> None:
+    """The rasters, the cube and the VTK files: shared with a forked second process where
+    there are two cores (report.forked), the slowest first. Their libraries, and the
+    report's, are loaded here first: once, not in both processes, and found loaded by
+    the report and the scene after."""
+    site = res.site
+    wanted = {"rasterio": _output(site, "geotiff"), "h5netcdf": _output(site, "netcdf"),
+              "pyvista": _output(site, "vtk"),
+              "matplotlib.backends.backend_agg": report and _output(site, "report")}
+    for module in (m for m, used in wanted.items() if used):
+        with contextlib.suppress(ImportError):          # its writer says what is missing
+            importlib.import_module(module)
+    make_all({"rasters": lambda: _write_rasters(res, folder),
+              "cube": lambda: _write_cube(res, folder, version),
+              "vtk": lambda: _write_vtk(res, folder)}, first=("vtk", "cube"))
 
 
 def _write_tables(res, folder) -> None:
@@ -569,14 +583,17 @@ def _soil_rows(site) -> list[dict]:
 
 
 def _write_report_and_scene(folder, bar, site) -> None:
-    """The report and the scene, each unless the site file's [outputs] turns it off."""
+    """The report and the scene, each unless the site file's [outputs] turns it off. They
+    share one view of the folder, so the cube and rasters are read once, not twice."""
+    from ..io.results import ResultsFolder
+    finished = ResultsFolder(folder.root)
     describe(bar, "report")
     if _output(site, "report"):
-        write_report(folder.root, folder.path("report.html"))
+        write_run_report(finished, folder.path("report.html"))
     bar.advance()
     describe(bar, "3D scene")
     if _output(site, "scene"):
-        export_scene_html(folder.root, folder.path("scene.html"))
+        export_scene_html(finished, folder.path("scene.html"))
     bar.advance()
 
 

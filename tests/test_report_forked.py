@@ -1,0 +1,102 @@
+"""Report sections shared with a forked second process (report/forked.py): the same page,
+the same errors, as making them one after another."""
+from __future__ import annotations
+
+import os
+import re
+import shutil
+import time
+
+import pytest
+
+from fillstress.report import forked
+from fillstress.report.html import write_run_report
+from results_fixture import write_results_folder
+
+
+@pytest.fixture
+def forking(monkeypatch):
+    """Fork as on a machine of two cores (the test machine may have one)."""
+    monkeypatch.setattr(forked, "can_fork", lambda: True)
+
+
+def _slow(value, seconds=0.15):
+    def make():
+        time.sleep(seconds)
+        return f"{value}:{os.getpid()}"
+    return make
+
+
+def test_both_processes_make_sections_and_the_order_is_kept(forking):
+    makers = {k: _slow(k) for k in "abcdefgh"}
+    made = forked.make_all(makers, first=("g", "c"))
+    assert list(made) == list("abcdefgh")
+    assert [v.split(":")[0] for v in made.values()] == list("abcdefgh")
+    pids = {v.split(":")[1] for v in made.values()}
+    assert str(os.getpid()) in pids and len(pids) == 2
+
+
+def test_the_first_error_in_order_is_raised_as_one_after_another(forking):
+    def fails(exc):
+        def make():
+            time.sleep(0.05)
+            raise exc
+        return make
+    makers = {"a": _slow("a"), "b": fails(ValueError("b broke")), "c": _slow("c"),
+              "d": fails(KeyError("d")), "e": _slow("e")}
+    with pytest.raises(ValueError, match="b broke"):
+        forked.make_all(makers, first=("d",))
+    fine = {k: v for k, v in makers.items() if k not in "bd"}
+    assert list(forked.make_all(fine)) == ["a", "c", "e"]
+
+
+def test_a_child_that_dies_leaves_its_sections_to_the_parent(forking):
+    parent = os.getpid()
+
+    def dies_in_child():
+        if os.getpid() != parent:
+            os._exit(3)
+        return "made here"
+    makers = {"a": dies_in_child, "b": dies_in_child, "c": _slow("c"), "d": _slow("d")}
+    made = forked.make_all(makers)
+    assert made["a"] == made["b"] == "made here"
+    assert all(v.startswith(("c:", "d:")) for k, v in made.items() if k in "cd")
+
+
+def test_report_made_by_two_processes_is_the_one_made_by_one(tmp_path, monkeypatch):
+    truth = write_results_folder(tmp_path / "a" / "run")
+    shutil.copytree(truth.path, tmp_path / "b" / "run")
+    clock = re.compile(r"\d{4}-\d\d-\d\d[ T]\d\d:\d\d(:\d\d)?( UTC|Z)")
+    pages = []
+    for where, fork in ((tmp_path / "a" / "run", True), (tmp_path / "b" / "run", False)):
+        monkeypatch.setattr(forked, "can_fork", lambda fork=fork: fork)
+        pages.append(clock.sub("", write_run_report(where).read_text(encoding="utf-8")))
+    assert pages[0] == pages[1]
+    assert pages[0].count("<section") > 10
+
+
+def test_without_a_process_to_fork_all_is_made_here(forking, monkeypatch):
+    def refused():
+        raise OSError(11, "Resource temporarily unavailable")
+    monkeypatch.setattr(forked.os, "fork", refused)
+    made = forked.make_all({k: _slow(k, 0.0) for k in "abc"})
+    assert {v.split(":")[1] for v in made.values()} == {str(os.getpid())}
+
+
+def test_warnings_met_by_the_child_are_shown_here(forking):
+    """The child writes nothing to the terminal (a progress bar's lock may be held at the
+    fork): its warnings come back with its sections and are issued by the parent."""
+    parent = os.getpid()
+
+    def warns(key):
+        def make():
+            time.sleep(0.1)
+            if os.getpid() != parent:
+                import warnings
+                warnings.warn(f"{key} made in the child", RuntimeWarning)
+            return key
+        return make
+    with pytest.warns(RuntimeWarning) as caught:
+        made = forked.make_all({k: warns(k) for k in "abcd"})
+    assert made == {k: k for k in "abcd"}
+    assert caught and all(str(w.message).endswith("made in the child") for w in caught)
