@@ -141,6 +141,25 @@ def test_inputs_convergence_provenance_cautions(page, truth):
     assert "Westergaard" in body and "superposition" in body
 
 
+def test_limits_reached_box_names_a_site_limit_the_summaries_do_not_flag(truth, tmp_path):
+    """A [limits] row at or over its limit (limits.csv) is named in the box at the top, not
+    only in the Limits section further down; rows within their limit are not."""
+    copy = tmp_path / "limits"
+    shutil.copytree(truth.path, copy)
+    pd.DataFrame([
+        {"receptor_kind": "pipe", "receptor_id": "main-9", "limit": "pipe_differential",
+         "quantity": "pipe_differential", "value": 31.5, "limit_value": 15.0, "unit": "mm",
+         "utilisation": 2.1, "source": "site file [limits]", "governing": True},
+        {"receptor_kind": "pipe", "receptor_id": "main-9", "limit": "settlement",
+         "quantity": "settlement", "value": 40.0, "limit_value": 150.0, "unit": "mm",
+         "utilisation": 0.27, "source": "site file [limits]", "governing": False},
+    ]).to_csv(copy / "limits.csv", index=False)
+    text = write_report(copy).read_text(encoding="utf-8")
+    box = text.split("<strong>Limits reached</strong>", 1)[1].split("</div>", 1)[0]
+    assert "pipe main-9: pipe differential 31.5 of 15 mm (utilisation 2.1)" in box
+    assert "settlement 40" not in box
+
+
 def test_method_section_states_the_soil_model_of_the_run(page, truth, tmp_path):
     """A Boussinesq run is said to be on a homogeneous half-space; a Westergaard run on
     the layered one, not opened with the homogeneous wording."""

@@ -21,7 +21,7 @@ from ..io.atomic import write_atomic
 from .corridor import alignment_section
 from .forked import make_all
 from .headroom import headroom_section
-from .limits import CSS as LIMITS_CSS, limits_section
+from .limits import CSS as LIMITS_CSS, limits_section, reached_limits
 from .odds import odds_section
 from ..io.results import ResultsFolder, UnitLabels
 from . import figures
@@ -425,13 +425,16 @@ class _Report:
 
     def findings(self) -> str:
         """The flagged receptors, stated at the top of the report."""
-        flagged, checked = [], False
+        flagged, checked, named = [], False, set()
         for kind, df in self.summaries.items():
             flag_cols = [c for c in df.columns if is_flag_column(c)]
             checked = checked or bool(flag_cols)
             for rec in df.to_dict("records"):
                 if receptor_flagged(rec):
                     flagged.append(_flag_text(kind, rec, flag_cols, self.u))
+                    named.add((kind.rstrip("s"), str(rec.get("receptor_id", ""))))
+        # the [limits] the flag columns do not carry (a pipe's differential, a stress limit)
+        flagged += reached_limits(self.f, skip=named)
         converged = convergence_item(self.f.summary.get("convergence"), self.u)
         flagged += [converged] if converged else []
         if flagged:

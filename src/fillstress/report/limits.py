@@ -46,6 +46,32 @@ def limits_section(folder: ResultsFolder) -> str:
     return "".join(parts) + max_heights_table(folder)
 
 
+def reached_limits(folder: ResultsFolder, skip=()) -> list[str]:
+    """One line per row of limits.csv at or over its limit (utilisation >= 1), for the
+    report's "Limits reached" box; receptors (kind, id) in `skip` are left out (already
+    named there).
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> class F:
+    ...     def table(self, name):
+    ...         return pd.DataFrame([{"receptor_kind": "pipe", "receptor_id": "G1",
+    ...             "limit": "pipe_differential", "value": 30.0, "limit_value": 15.0,
+    ...             "unit": "mm", "utilisation": 2.0}])
+    >>> reached_limits(F())
+    ['pipe G1: pipe differential 30 of 15 mm (utilisation 2)']
+    """
+    table = folder.table("limits")
+    if table is None or table.empty:
+        return []
+    return [f"{r['receptor_kind']} {r['receptor_id']}: {str(r['limit']).replace('_', ' ')} "
+            f"{plain(r['value'])} of {plain(r['limit_value'])} {_unit(r['unit'])}".rstrip()
+            + f" (utilisation {plain(r['utilisation'])})"
+            for r in table.to_dict("records")
+            if r["utilisation"] >= 1 and (r["receptor_kind"], str(r["receptor_id"])) not in skip]
+
+
 def max_heights_table(folder: ResultsFolder) -> str:
     """The factor on each body's height at the first limit (max_heights.csv), if any."""
     table = folder.table("max_heights")
