@@ -226,3 +226,20 @@ def test_lattices_thinned_before_copying_are_those_copied_then_thinned(truth, mo
     assert grids
     for part in grids:
         assert scene_page._lattice(part, scene) == _lattice_before(part, scene)
+
+
+def test_footer_says_the_core_caution_once(truth, tmp_path):
+    """The folder's cautions follow the bold caution without repeating its first sentence."""
+    import shutil
+
+    from fillstress.cautions import CORE_CAUTION
+    copy = tmp_path / "folder"
+    shutil.copytree(truth.path, copy)
+    manifest = json.loads((copy / "manifest.json").read_text())
+    manifest["cautions"] = CORE_CAUTION + " Check stability separately."
+    (copy / "manifest.json").write_text(json.dumps(manifest))
+    text = scene_page.export_scene_html(copy, tmp_path / "scene.html").read_text(
+        encoding="utf-8")
+    footer = text.split("<footer>", 1)[1].split("</footer>", 1)[0]
+    assert footer.count("licensed geotechnical engineer") == 1
+    assert "Check stability separately." in footer

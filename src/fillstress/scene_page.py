@@ -19,6 +19,7 @@ import numpy as np
 
 from .io.atomic import write_atomic
 from .io.results import ResultsFolder
+from .cautions import CORE_CAUTION
 from .viewer import CAUTION, LAYERS, _fmt, colour_table, scene_parts
 from .viewer import _writable as writable
 
@@ -180,6 +181,8 @@ def page_html(scene) -> str:
     """The whole page for `scene` (a :class:`fillstress.viewer.Scene`)."""
     esc = html.escape
     notes = [_text(scene.folder.manifest.get(k)) for k in ("cautions", "assumptions")]
+    # the bold caution leads; the folder's own cautions follow without saying it twice
+    notes[0] = notes[0].replace(CORE_CAUTION, "").strip()
     heading = f"{scene.site_name} — {scene.quantity_heading}"
     fields = {
         "TITLE": esc(f"{scene.site_name} — 3D scene — {scene.date}"),
