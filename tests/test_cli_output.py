@@ -13,7 +13,7 @@ from fillstress.cli import main
 SITE = """
 # Invented: one square stockpile pad, SI units, UTM zone 33N.
 [site]
-name = "Ostrava siding pad"
+name = "Ostrick siding pad"
 crs = "EPSG:32633"
 units = "SI"
 
@@ -98,7 +98,7 @@ def test_point_far_outside_the_site_says_so(site, capsys):
 def test_check_and_run_json(site, tmp_path, capsys):
     assert main(["check", str(site), "--json"]) == 0
     check = json.loads(capsys.readouterr().out)
-    assert check["valid"] and check["plan"]["site"] == "Ostrava siding pad"
+    assert check["valid"] and check["plan"]["site"] == "Ostrick siding pad"
     out = tmp_path / "res"
     assert main(["run", str(site), "-o", str(out), "--json", "--no-report"]) == 0
     run = json.loads(capsys.readouterr().out)
@@ -143,7 +143,7 @@ def test_verbose_logs_each_step_with_its_time_and_keeps_the_answer(site, tmp_pat
         logging.getLogger("fillstress").handlers.clear()      # the handler of this run only
         logging.getLogger("fillstress").setLevel(logging.NOTSET)
     said = capsys.readouterr()
-    assert json.loads(said.out)["site"]["name"] == "Ostrava siding pad"   # stdout: the answer
+    assert json.loads(said.out)["site"]["name"] == "Ostrick siding pad"   # stdout: the answer
     timings = json.loads((tmp_path / "out" / "summary.json").read_text())["timings_s"]
     for step in ("receptor_points",):
         assert f"{step.replace('_', ' ')}: {timings[step + '_s']:.2f} s" in said.err

@@ -9,7 +9,7 @@ from fillstress.run.compute import compute
 from test_cli_output import SITE as CLI_SITE
 
 # The one-pad site of the command-line tests, renamed with markup and given a plan grid.
-SITE = CLI_SITE.replace('name = "Ostrava siding pad"', 'name = "Brodno <east> pad"') + """
+SITE = CLI_SITE.replace('name = "Ostrick siding pad"', 'name = "Brindle <east> pad"') + """
 [[plan_grids]]
 name = "pad"
 depths = [2.0, 4.0]
@@ -35,8 +35,8 @@ def test_site_and_results_reprs_are_short_and_escaped_in_html(tmp_path):
     path.write_text(SITE, encoding="utf-8")
     site = load_site(path)
     res = compute(site)
-    for obj, title in ((site, "Site Brodno <east> pad"),
-                       (res, "RunResults of Brodno <east> pad")):
+    for obj, title in ((site, "Site Brindle <east> pad"),
+                       (res, "RunResults of Brindle <east> pad")):
         text = repr(obj)
         assert text.startswith(f"<{title}>") and len(text) < 1000, text
         html = obj._repr_html_()
