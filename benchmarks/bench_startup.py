@@ -8,7 +8,9 @@
 Each command runs in a fresh process (numba cache warm: every tree runs once before
 timing), `--repeat` times, the trees alternating so both see the same load; the best
 time is reported, with its multiple of a bare `python -c pass` measured alongside.
-`--before REF` unpacks `src/` of that commit (git archive) into a temporary folder.
+`--before REF` unpacks `src/` and `sample_sites/` of that commit (git archive) into a
+temporary folder; each tree runs on its own copy of the sample site (the site file keys
+change with the trees).
 """
 from __future__ import annotations
 
@@ -21,12 +23,12 @@ import time
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[1]
-SITE = ROOT / "sample_sites" / "stockpile_yard" / "site.toml"
+SITE = "{sites}/stockpile_yard/site.toml"     # in the tree's own sample_sites/
 POINT = ("512380", "5763470", "3.5")  # beside the ore pile (site units), as run_all.py
 COMMANDS = {
     "`fillstress --version`": ["--version"],
-    "`fillstress point` (one point)": ["point", "-q", str(SITE), *POINT],
-    "`fillstress check`": ["check", str(SITE)],
+    "`fillstress point` (one point)": ["point", "-q", SITE, *POINT],
+    "`fillstress check`": ["check", SITE],
 }
 IMPORTS = "import fillstress.cli, fillstress.console, fillstress.run.point"
 SAMPLE_SITES = ("stockpile_yard", "preload_surcharge", "bridge_approach")
@@ -35,23 +37,25 @@ SAMPLE_SITES = ("stockpile_yard", "preload_surcharge", "bridge_approach")
 def run_commands(out: Path) -> dict:
     """Whole runs of the sample sites, report and scene included, into `out`."""
     return {f"`fillstress run` {name}": ["run", "-q", "--overwrite", "-o", str(out / name),
-                                         str(ROOT / "sample_sites" / name / "site.toml")]
+                                         f"{{sites}}/{name}/site.toml"]
             for name in SAMPLE_SITES}
 
 
-def wall(args: list[str], src: Path) -> float:
+def wall(args: list[str], tree: Path) -> float:
+    """Seconds of one command on the tree at `tree` (its src/ and sample_sites/)."""
+    args = [a.replace("{sites}", str(tree / "sample_sites")) for a in args]
     t = time.perf_counter()
     subprocess.run([sys.executable, *args], check=True, capture_output=True,
-                   env={**os.environ, "PYTHONPATH": str(src)}, cwd=ROOT)
+                   env={**os.environ, "PYTHONPATH": str(tree / "src")}, cwd=ROOT)
     return time.perf_counter() - t
 
 
 def unpack(ref: str, into: Path) -> Path:
-    """`src/` of commit `ref` under `into`."""
-    archive = subprocess.run(["git", "archive", ref, "src"], cwd=ROOT, check=True,
-                             capture_output=True).stdout
+    """`src/` and `sample_sites/` of commit `ref` under `into`."""
+    archive = subprocess.run(["git", "archive", ref, "src", "sample_sites"], cwd=ROOT,
+                             check=True, capture_output=True).stdout
     subprocess.run(["tar", "-x", "-C", str(into)], input=archive, check=True)
-    return into / "src"
+    return into
 
 
 def measure(trees: dict[str, Path], repeat: int, commands: dict = COMMANDS) -> dict:
@@ -73,7 +77,7 @@ def measure(trees: dict[str, Path], repeat: int, commands: dict = COMMANDS) -> d
 def markdown(before: str | None, repeat: int, runs: bool = False) -> tuple[list[str], dict]:
     """The Markdown table and the best times {(job, tree): seconds}."""
     with tempfile.TemporaryDirectory() as tmp:
-        trees = {"this tree": ROOT / "src"}
+        trees = {"this tree": ROOT}
         if before:
             trees = {f"before ({before})": unpack(before, Path(tmp)), **trees}
         commands = {**COMMANDS, **(run_commands(Path(tmp) / "runs") if runs else {})}
