@@ -177,15 +177,26 @@ def estimate_against_run(path: Path) -> tuple[list, float, float]:
             return out
         return timed
 
+    real_points = run_compute.RunStress
+
+    class TimedStress(real_points):                 # the steps' evaluator
+        def __call__(self, grid, xyz):
+            t = time.perf_counter()
+            out = super().__call__(grid, xyz)
+            if len(xyz):
+                measured[order.pop(0)] += time.perf_counter() - t
+            return out
+
     real_slicer = run_compute._plan_slicer
     run_compute.stress = timed_call(real_stress, order)
+    run_compute.RunStress = TimedStress
     run_compute._plan_slicer = slicer
     run_compute.convergence_check = check
     try:
         res = run_compute.compute(site)
     finally:
         run_compute.stress, run_compute._plan_slicer = real_stress, real_slicer
-        run_compute.convergence_check = real_check
+        run_compute.convergence_check, run_compute.RunStress = real_check, real_points
     rows = [(step, estimated.get(step, 0.0), measured.get(step, 0.0))
             for step in dict.fromkeys([*estimated, *measured])]
     return rows, sum(estimated.values()), res.timings["compute_s"]

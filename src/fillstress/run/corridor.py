@@ -138,16 +138,16 @@ def solver_calls(site) -> list[tuple[str, int, int]]:
     final = site.stages[-1]
     sublayers = 0 if site.soil is None else len(st.sublayers(site.soil, top_depth=0.0)[0])
 
-    def columns(step, n):               # _settlements: one call per stage, if soil settles
-        return [(step, n * sublayers, k) for k in site.stages] if sublayers else []
-
-    calls = []
-    for _ in a.chainages:
-        calls += columns("alignment sections", SECTION_OFFSETS)
-        calls.append(("alignment sections", SECTION_OFFSETS * SECTION_DEPTHS, final))
     n = len(profile_stations(site))
+    calls = []
+    if sublayers:           # _stage_layers: stage by stage, every section, then the profile
+        for k in site.stages:
+            calls += [("alignment sections", SECTION_OFFSETS * sublayers, k)
+                      for _ in a.chainages]
+            calls.append(("alignment profile", n * sublayers, k))
     calls += [("alignment profile", n, final) for _ in a.profile_depths]
-    return calls + columns("alignment profile", n)
+    return calls + [("alignment sections", SECTION_OFFSETS * SECTION_DEPTHS, final)
+                    for _ in a.chainages]
 
 
 def corridor_results(site, evaluate) -> dict:

@@ -44,10 +44,11 @@ def solver_calls(site) -> list[SolverCall]:
     calls = [SolverCall("receptor points", len(site.points), final)]
     if site.soil is not None:
         targets = _settlement_points(site.points)         # as settle.settlement_results
-        for depth, n in targets.groupby("depth").size().items():
-            n_z = len(sublayers(site.soil, top_depth=float(depth))[0])
-            # one call per body: the load states combine them (settle.settlement_results)
-            calls += [SolverCall("settlement columns", n * n_z, b.name) for b in site.bodies]
+        columns = [(n, len(sublayers(site.soil, top_depth=float(depth))[0]))
+                   for depth, n in targets.groupby("depth").size().items()]
+        # body by body, every depth (settle.settlement_results); load states combine them
+        calls += [SolverCall("settlement columns", n * n_z, b.name)
+                  for b in site.bodies for n, n_z in columns]
     calls += [SolverCall(*c) for c in corridor.solver_calls(site)]
     if site.settings.convergence_check:
         calls.append(SolverCall("convergence check", len(site.points), final, fine=True))
