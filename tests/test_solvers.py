@@ -400,3 +400,13 @@ def test_run_stress_prepares_each_new_grid():
         np.testing.assert_allclose(evaluate(g, pts), vertical_stress(g, pts), rtol=0,
                                    atol=1e-12 * np.abs(g.pressure).max())
     assert evaluate(a, np.zeros((0, 3))).shape == (0,)
+
+
+def test_slices_on_several_fft_threads_equal_one_thread():
+    """The default threads of scipy.fft (the cores) give the one-thread values exactly."""
+    grid = random_grid(13, ny=40, nx=57)
+    one = stress_slices(grid, [0.0, 1.5, 7.0], pad=3.0, workers=1)
+    np.testing.assert_array_equal(stress_slices(grid, [0.0, 1.5, 7.0], pad=3.0).values,
+                                  one.values)
+    np.testing.assert_array_equal(stress_slices(grid, [0.0, 1.5, 7.0], pad=3.0,
+                                                workers=3).values, one.values)

@@ -7,6 +7,8 @@ the argument.
 """
 from __future__ import annotations
 
+import os
+
 from .._validate import finite_array, positive, whole_number
 from ..errors import InputError
 from ..grid import LoadGrid
@@ -49,16 +51,29 @@ def offset_pair(offset) -> tuple[float, float]:
     return float(arr[0]), float(arr[1])
 
 
-def fft_workers(workers) -> int | None:
-    """None (scipy's default) or a positive number of scipy.fft threads.
+#: Transforms of at least this many values share their work over the cores by default;
+#: smaller ones (a headroom map's slices) lose more to starting threads than they gain.
+THREADED_FFT_SIZE = 1 << 18
+
+
+def fft_workers(workers, size: int | None = None) -> int:
+    """Threads for scipy.fft: `workers`, a positive number, or by default (None) the cores
+    this process may run on for a transform of `size` values from THREADED_FFT_SIZE up,
+    one below it. scipy's own default is one thread; a slice's transforms are many
+    independent 1-D transforms, which threads share with the same arithmetic (the values
+    do not change), and on two cores the plan settlement of the 3-mile corridor took 8.3 s
+    instead of 11.3 to 14.7 s.
 
     Examples
     --------
-    >>> fft_workers(None), fft_workers(2)
-    (None, 2)
+    >>> fft_workers(None, size=100), fft_workers(2)
+    (1, 2)
     """
     if workers is None:
-        return None
+        if size is not None and size < THREADED_FFT_SIZE:
+            return 1
+        cores = os.sched_getaffinity(0) if hasattr(os, "sched_getaffinity") else None
+        return max(1, len(cores) if cores else os.cpu_count() or 1)
     return whole_number(workers, "workers", minimum=1,
                         meaning="None or a positive number of threads")
 

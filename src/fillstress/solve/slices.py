@@ -158,15 +158,15 @@ class SlicePlan:
         dx, dy = positive(dx, "dx"), positive(dy, "dy")
         offset = offset_pair(offset)
         pad_x, pad_y = whole_pair(pad_cells, "pad_cells", meaning="(pad_x, pad_y) whole cells >= 0")
-        workers = fft_workers(workers)
         spec = resolve_method(method, poisson)
         ny, nx = pressure.shape[-2:]
-        self.spec, self.workers, self.shape_in = spec, workers, (ny, nx)
+        self.spec, self.shape_in = spec, (ny, nx)
         self.shape_out = (ny + 2 * pad_y, nx + 2 * pad_x)
         my, mx = self.shape_out
         # kernel length nx + mx - 1; an FFT at least that long keeps wrap-around off the samples
         self.fft_shape = (scipy.fft.next_fast_len(ny + my - 1, real=True),
                           scipy.fft.next_fast_len(nx + mx - 1, real=True))
+        self.workers = workers = fft_workers(workers, size=math.prod(self.fft_shape))
         self.pressure_hat = scipy.fft.rfftn(pressure, s=self.fft_shape, axes=(-2, -1),
                                             workers=workers)
         # node offsets from the sample, listed in decreasing order so that the second
@@ -237,7 +237,8 @@ def slice_at_depth(pressure, dx, dy, depth, method="boussinesq", poisson=None, *
     pad_cells : (int, int)
         Extra sample columns (x) and rows (y) on each side of the grid.
     workers : int, optional
-        Threads for scipy.fft.
+        Threads for scipy.fft (default: the cores this process may run on, for large
+        transforms; the values do not depend on it).
 
     Returns
     -------
@@ -276,7 +277,8 @@ def stress_slices(grid, depths, method="boussinesq", poisson=None, *, offset=(0.
         Extend the sample lattice this far (m) beyond the grid on every side, rounded
         up to whole cells.
     workers : int, optional
-        Threads for scipy.fft.
+        Threads for scipy.fft (default: the cores this process may run on, for large
+        transforms; the values do not depend on it).
 
     Returns
     -------
