@@ -108,13 +108,14 @@ def test_check_and_run_json(site, tmp_path, capsys):
 
 
 def test_point_at_one_point_loads_no_compiler(site):
-    """A few points are summed by numpy: `fillstress point` never loads numba or the
-    writers (the start-up a user waits for)."""
+    """A few points are summed by numpy: `fillstress point` never loads numba, the
+    writers or pandas (no receptor tables: the start-up a user waits for)."""
     src = str(Path(__file__).resolve().parents[1] / "src")
     code = ("import sys; sys.path.insert(0, %r); from fillstress.cli import main\n"
             "assert main(['point', '-q', %r, '500010', '5500010', '5']) == 0\n"
             "print(sorted(m for m in %r if m in sys.modules))"
-            % (src, str(site), ("numba", "xarray", "matplotlib", "rasterio", "scipy.stats")))
+            % (src, str(site), ("numba", "xarray", "matplotlib", "rasterio", "scipy.stats",
+                                "pandas")))
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
                          check=True).stdout
     assert out.strip().splitlines()[-1] == "[]"

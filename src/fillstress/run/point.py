@@ -101,7 +101,8 @@ def point_stresses(path, xyz, stage=None) -> PointStresses:
     >>> res.stage, round(float(res.dsz[0]), 1)      # BH-01, 2 m below the pad centre (kPa)
     (2, 104.3)
     """
-    site = build_site(read_site_file(path), draw_samples=False)   # no odds at points
+    # no odds samples and no receptor tables at points: the grid is the run's all the same
+    site = build_site(read_site_file(path), draw_samples=False, sample_points=False)
     arr = np.asarray(xyz, float).reshape(-1, 3)
     pts = np.column_stack([arr[:, :2] * site.metres_per_unit, site.units.length_si(arr[:, 2])])
     if np.any(pts[:, 2] < 0):

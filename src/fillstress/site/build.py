@@ -12,10 +12,9 @@ import time
 from contextlib import contextmanager
 from dataclasses import dataclass, field, replace
 from pathlib import Path
-from typing import Callable, NamedTuple
+from typing import TYPE_CHECKING, Callable, NamedTuple
 
 import numpy as np
-import pandas as pd
 import shapely
 from pyproj import CRS
 from shapely.geometry import LineString, Point, Polygon
@@ -44,6 +43,9 @@ from .alignment import Alignment, build_alignment
 from .ground_use import check_body_ground, depths_from_elevations, warn_near_miss
 from .receptors import Borehole, Building, Pipe, PlanGrid, Receptors
 from .uncertainty import Uncertainty, build_uncertainty
+
+if TYPE_CHECKING:                  # pandas is loaded where receptor tables are sampled
+    import pandas as pd
 
 # Receptor kinds: the site-file table and the point-table kind.
 RECEPTOR_TABLES = {"buildings": "building", "pipes": "pipe", "boreholes": "borehole"}
@@ -250,7 +252,8 @@ class Site(Summarised):
                  ("grid", f"{s.nx} × {s.ny} cells of {u.length_out(s.dx):.5g} {u.length}"),
                  ("bodies", ", ".join(f"{b.name} (stage {b.stage})" for b in self.bodies)),
                  ("receptors", ", ".join(f"{k}: {n}" for k, n in kinds.items()) or "none"),
-                 ("sample points", f"{len(self.points):,}"),
+                 ("sample points", "not sampled" if self.points is None
+                  else f"{len(self.points):,}"),
                  ("plan grids", ", ".join(p.name for p in self.plan_grids) or "none"),
                  ("soil", soil), ("warnings", str(len(self.warnings)))])
 
@@ -487,10 +490,13 @@ def load_site(path) -> Site:
     return build_site(read_site_file(path))
 
 
-def build_site(cfg: SiteConfig, *, draw_samples: bool = True) -> Site:
+def build_site(cfg: SiteConfig, *, draw_samples: bool = True,
+               sample_points: bool = True) -> Site:
     """The typed site of a validated site file; `draw_samples=False` leaves the
-    [uncertainty] samples undrawn until a run's odds (`fillstress point` needs none of
-    them, nor scipy.stats to draw them)."""
+    [uncertainty] samples undrawn until a run's odds, `sample_points=False` the receptors
+    unsampled (``points`` None): `fillstress point` needs neither, nor scipy.stats and
+    pandas to make them. The receptors still shape the analysis grid, so Δσz at a point
+    is the run's."""
     s = cfg["site"]
     _check_method(cfg)
     with _located(cfg, "site"):            # the error names its argument: crs
@@ -511,7 +517,8 @@ def build_site(cfg: SiteConfig, *, draw_samples: bool = True) -> Site:
                 [body for body, _ in built.values()],
                 grid.get("method", "boussinesq"),
                 grid.get("poisson") if grid.get("method") == "westergaard" else None,
-                ctx.ground, soil, _points(ctx, receptors), receptors,
+                ctx.ground, soil, _points(ctx, receptors) if sample_points else None,
+                receptors,
                 replace(_settings(cfg, ctx.warnings), **_limits(cfg, receptors),
                         uncertainty=_uncertainty(cfg, soil, draw_samples),
                         headroom=_headroom(ctx, spec)),
@@ -1056,6 +1063,7 @@ def _pipe_crown_depth(ctx, item, where):
 
 
 def _points(ctx: _Context, receptors: Receptors) -> pd.DataFrame:
+    import pandas as pd
     frames = []
     for table, items in receptors.by_table().items():
         for k, r in enumerate(items):

@@ -13,10 +13,9 @@ import os
 import re
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Callable
+from typing import TYPE_CHECKING, Callable
 
 import numpy as np
-import pandas as pd
 import shapely
 from shapely.geometry import LineString, Point, Polygon
 
@@ -24,6 +23,9 @@ from .. import crs as crsmod
 from .._validate import depths_array, finite, finite_array, positive
 from ..errors import InputError
 from ..io.vectors import layer_and_site_crs, read_vector, source_name
+
+if TYPE_CHECKING:                  # pandas is loaded where the point tables are made
+    import pandas as pd
 
 
 POINT_COLUMNS = ["receptor_kind", "receptor_id", "point_id", "role", "x", "y", "depth", "chainage"]
@@ -34,6 +36,7 @@ _SAME_POINT_M = 1e-6
 
 def _frame(kind, receptor_id, prefix_roles, xs, ys, depths, chainages=None) -> pd.DataFrame:
     """Assemble the standard point table; `prefix_roles` is a list of (id suffix, role)."""
+    import pandas as pd
     n = len(prefix_roles)
     return pd.DataFrame({
         "receptor_kind": [kind] * n,
@@ -646,6 +649,7 @@ def summarise(points: pd.DataFrame, value_column: str) -> pd.DataFrame:
     missing = [c for c in needed if c not in points.columns]
     if missing:
         raise InputError(f"missing column(s) {', '.join(missing)}", argument="points")
+    import pandas as pd
     values = pd.to_numeric(points[value_column], errors="coerce")
     if not np.all(np.isfinite(values.to_numpy(dtype=float))):
         raise InputError(f"column {value_column!r} has missing or non-finite values",
