@@ -43,7 +43,7 @@ def quiet_waiting_threads(environ=os.environ) -> None:
     """Let numba's OpenMP threads sleep between parallel regions unless the user said
     otherwise (OMP_WAIT_POLICY). By default they spin; on a machine whose cores are busy
     the spinning threads take the cores from the working ones, and a run's many short
-    parallel calls (a headroom map's small slices) took 15 ms each instead of 0.1 ms
+    parallel calls (a headroom map's small slices) took about 14 ms each instead of 0.2 ms
     (benchmarks/bench_threads.py). Set before numba starts its threads: the command owns
     its process, so it decides here; a library user sets it in their own environment."""
     environ.setdefault("OMP_WAIT_POLICY", "PASSIVE")

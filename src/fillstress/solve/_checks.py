@@ -61,8 +61,9 @@ def fft_workers(workers, size: int | None = None) -> int:
     this process may run on for a transform of `size` values from THREADED_FFT_SIZE up,
     one below it. scipy's own default is one thread; a slice's transforms are many
     independent 1-D transforms, which threads share with the same arithmetic (the values
-    do not change), and on two cores the plan settlement of the 3-mile corridor took 8.3 s
-    instead of 11.3 to 14.7 s.
+    do not change); on two cores the heavy corridor's plan settlement
+    (``benchmarks/bench_corridor.py --heavy``) went from 12.5 s to 9.1 s
+    (docs/performance.md, before and after).
 
     Examples
     --------
