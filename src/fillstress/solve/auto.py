@@ -55,10 +55,7 @@ def choose_algorithm(grid, n_points: int, algorithm: str = "auto", memory_cap=No
     >>> choose_algorithm(g, 10), choose_algorithm(g, 10, "far")
     ('direct', 'far')
     """
-    if _checked_algorithm(algorithm) != "auto":
-        return algorithm
-    return algorithm_for(direct_work(grid, n_points), grid.pressure.shape, n_points,
-                         memory_cap)
+    return PointSolver(grid, memory_cap=memory_cap).choose(n_points, algorithm)
 
 
 def _checked_algorithm(algorithm: str) -> str:
