@@ -29,7 +29,7 @@ sys.path.insert(0, str(ROOT / "tools"))
 
 from make_corridor_site import write_corridor_site  # noqa: E402
 
-from fillstress.run import compute, settle  # noqa: E402
+from fillstress.run import compute  # noqa: E402
 from fillstress.site.build import load_site  # noqa: E402
 from fillstress.solve import slices  # noqa: E402
 
@@ -64,7 +64,7 @@ def plan_work(site) -> dict:
     stack = {p.name: compute._plan_slicer(site, p, stages)(p.depths) for p in site.plan_grids}
     sliced = _since(start)
     start = _clock()
-    settled = settle.plan_settlement(site, lambda p, grids: compute._plan_slicer(site, p, grids))
+    settled = compute.plan_settlement(site)
     return {"plan slices": sliced, "plan settlement": _since(start), "stack": stack,
             "settled": settled}
 

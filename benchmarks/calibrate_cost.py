@@ -177,6 +177,20 @@ def estimate_against_run(path: Path) -> tuple[list, float, float]:
             return out
         return timed
 
+    def kept_slicer(site_, plan, grids, keep, client=None):
+        if slice_order[0].folded is None:   # cut from the full slices, timed by `slicer`
+            return real_kept(site_, plan, grids, keep, client)
+        t = time.perf_counter()
+        inner = real_kept(site_, plan, grids, keep, client)
+        measured[slice_order[0].step] += time.perf_counter() - t
+
+        def timed(depths):
+            t = time.perf_counter()
+            out = inner(depths)
+            measured[slice_order.pop(0).step] += time.perf_counter() - t
+            return out
+        return timed
+
     real_points = run_compute.RunStress
 
     class TimedStress(real_points):                 # the steps' evaluator
@@ -187,15 +201,16 @@ def estimate_against_run(path: Path) -> tuple[list, float, float]:
                 measured[order.pop(0)] += time.perf_counter() - t
             return out
 
-    real_slicer = run_compute._plan_slicer
+    real_slicer, real_kept = run_compute._plan_slicer, run_compute._kept_slicer
     run_compute.stress = timed_call(real_stress, order)
     run_compute.RunStress = TimedStress
-    run_compute._plan_slicer = slicer
+    run_compute._plan_slicer, run_compute._kept_slicer = slicer, kept_slicer
     run_compute.convergence_check = check
     try:
         res = run_compute.compute(site)
     finally:
         run_compute.stress, run_compute._plan_slicer = real_stress, real_slicer
+        run_compute._kept_slicer = real_kept
         run_compute.convergence_check, run_compute.RunStress = real_check, real_points
     rows = [(step, estimated.get(step, 0.0), measured.get(step, 0.0))
             for step in dict.fromkeys([*estimated, *measured])]

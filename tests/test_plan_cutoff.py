@@ -86,18 +86,14 @@ def _slices_at(site):
     return lambda plan, z, g: compute._plan_slices(site, g, replace(plan, depths=z))
 
 
-def _slicer(site):
-    return lambda plan, grids: compute._plan_slicer(site, plan, grids)
-
-
 def _full_box(site, monkeypatch):
     with monkeypatch.context() as m:
         m.setattr(settle, "NEGLIGIBLE_FRACTION", 0.0)
-        return settle.plan_settlement(site, _slicer(site))["bend"]
+        return compute.plan_settlement(site)["bend"]
 
 
 def test_analysed_nodes_equal_the_full_box(site, monkeypatch):
-    cut = settle.plan_settlement(site, _slicer(site))["bend"]
+    cut = compute.plan_settlement(site)["bend"]
     full = _full_box(site, monkeypatch)
     analysed = cut.notnull().values
     assert full.notnull().values.all() and full.attrs["not_analysed_nodes"] == 0
@@ -106,7 +102,7 @@ def test_analysed_nodes_equal_the_full_box(site, monkeypatch):
 
 
 def test_left_out_nodes_are_below_the_cut_off(site, monkeypatch):
-    cut = settle.plan_settlement(site, _slicer(site))["bend"]
+    cut = compute.plan_settlement(site)["bend"]
     full = _full_box(site, monkeypatch)
     left = cut.isnull().values
     z, _ = settle.st.sublayers(site.soil)

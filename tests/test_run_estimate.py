@@ -57,7 +57,7 @@ def _counted_run(site, monkeypatch):
             return super().__call__(grid, xyz)
 
     def plan_slices(s, grid, plan, client=None):
-        slices[(plan.name, len(plan.depths), 1, 1, False)] += 1
+        slices[(plan.name, len(plan.depths), 1, 1, False, False)] += 1
         return real_slices(s, grid, plan, client)
 
     def plan_slicer(s, plan, grids, client=None):
@@ -71,7 +71,7 @@ def _counted_run(site, monkeypatch):
 
         def slices(self, depths, window=(slice(None), slice(None))):
             n = len(self.plan.pressure_hat)
-            slices[(self.plan_name, len(depths), n, self.transforms, True)] += 1
+            slices[(self.plan_name, len(depths), n, self.transforms, True, False)] += 1
             self.transforms = 0                  # made once, on the first call
             return super().slices(depths, window)
 
@@ -79,7 +79,25 @@ def _counted_run(site, monkeypatch):
     monkeypatch.setattr(run_compute, "RunStress", CountedStress)
     monkeypatch.setattr(run_compute, "_plan_slices", plan_slices)
     monkeypatch.setattr(run_compute, "_plan_slicer", plan_slicer)
+    class CountedFolded(run_compute.FoldedSlices):
+        def __init__(self, *args, **kwargs):
+            super().__init__(*args, **kwargs)
+            self.plan_name, self.transforms = current[0], len(self.pressure_hat)
+
+        def slices(self, depths):
+            slices[(self.plan_name, len(depths), len(self.pressure_hat), self.transforms,
+                    False, True)] += 1
+            self.transforms = 0
+            return super().slices(depths)
+
+    def kept_slicer(s, plan, grids, keep, client=None):
+        current[:] = [plan.name]
+        return real_kept(s, plan, grids, keep, client)
+
+    real_kept = run_compute._kept_slicer
     monkeypatch.setattr(run_compute, "SliceStack", CountedStack)
+    monkeypatch.setattr(run_compute, "FoldedSlices", CountedFolded)
+    monkeypatch.setattr(run_compute, "_kept_slicer", kept_slicer)
     run_compute.compute(site)
     return sequence, slices
 
@@ -89,18 +107,20 @@ def _planned(site):
     points = [(c.n, "fine" if c.fine else _load_key(
         body[c.load] if isinstance(c.load, str) else site.load_grid(c.load).pressure))
         for c in solver_calls(site)]          # in the order the run makes them
-    slices = Counter((c.plan.name, c.n_depths, c.loads, c.transforms, c.stacked)
-                     for c in slice_calls(site))
+    slices = Counter((c.plan.name, c.n_depths, c.loads, c.transforms, c.stacked,
+                      c.folded is not None) for c in slice_calls(site))
     return points, slices
 
 
-@pytest.mark.parametrize("which", ["preload_surcharge", "corridor"])
+@pytest.mark.parametrize("which", ["preload_surcharge", "bridge_approach", "corridor"])
 def test_the_estimate_counts_every_solver_call_of_a_run(which, tmp_path, monkeypatch):
     path = example_site(which) if which != "corridor" else _corridor_site(tmp_path)
     site = load_site(path)
     counted = _counted_run(site, monkeypatch)
     assert len(counted[0]) > 3                     # the site exercises several steps
     assert _planned(site) == counted
+    # the bridge approach's settlement plan goes through the folded torus
+    assert any(key[-1] for key in counted[1]) == (which == "bridge_approach")
 
 
 def test_each_step_of_the_corridor_is_estimated(tmp_path):

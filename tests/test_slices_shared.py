@@ -102,7 +102,10 @@ def _plain(site, plan, grid, depths):
 
 
 def _plain_slicer(site):
-    return lambda plan, grids: lambda depths: [_plain(site, plan, g, depths) for g in grids]
+    """plan_settlement's slicer from one plain stress_slices call per grid, cut to the
+    analysed nodes."""
+    return lambda plan, grids, keep: lambda depths: compute.cut_to_nodes(
+        [_plain(site, plan, g, depths) for g in grids], keep)
 
 
 def _assert_same_slices(got, expected, rtol=1e-10):
@@ -223,9 +226,9 @@ def test_stage_slices_equal_one_plain_call_per_stage(site):
 
 
 def test_plan_settlement_equals_the_per_state_computation(site):
-    shared = settle.plan_settlement(
-        site, lambda plan, grids: compute._plan_slicer(site, plan, grids))["yard"]
-    plain = settle.plan_settlement(site, _plain_slicer(site))["yard"]
+    shared = compute.plan_settlement(site)["yard"]
+    plain = settle.plan_settlement(site, lambda plan: compute._plan_nodes(site, plan),
+                                   _plain_slicer(site))["yard"]
     assert shared.attrs == plain.attrs and shared.notnull().sum() > 50
     np.testing.assert_array_equal(shared.isnull().values, plain.isnull().values)
     np.testing.assert_allclose(shared.values, plain.values, rtol=1e-10, equal_nan=True)

@@ -23,7 +23,8 @@ from ..io.atomic import ResultsWriter
 from ..progress import describe, open_bar, silent
 from ..site.build import Site, load_site
 from ..solve import stress_slices
-from ..solve.slices import SliceStack
+from ..solve.folded import FoldedSlices
+from ..solve.slices import SliceStack, distinct_loads, slice_array, slice_setup
 from ..solve.distributed import connect, distributed_slices
 from ..solve.tiled import tiled_slices
 from . import settle
@@ -33,9 +34,8 @@ from .headroom import headroom_results, headroom_warnings
 from .limits import LimitResults, limit_results
 from .odds import odds_results
 from .point import RunStress, stress
-from .plan import (describe_run, memory_cap, plan_pad, plan_step, plan_window, shares_kernel,
-                   slices_need_tiles, validate_run)
-
+from .plan import (describe_run, folding_layout, memory_cap, plan_pad, plan_samples, plan_step,
+                   plan_window, shares_kernel, slices_need_tiles, validate_run)
 from .wording import ASSUMPTIONS, CAUTIONS  # noqa: F401  (re-exported for the writers)
 
 log = logging.getLogger(__name__)
@@ -272,8 +272,7 @@ def compute(site: Site, progress=silent, client=None) -> RunResults:
                 settle.settlement_results(res, points_at)
             if site.plan_grids:
                 with step("plan_settlement"):
-                    res.plan_settlement = settle.plan_settlement(
-                        site, lambda plan, grids: _plan_slicer(site, plan, grids, client))
+                    res.plan_settlement = plan_settlement(site, client)
                     res.warnings += _plan_cutoff_notes(res.plan_settlement, site.units)
         res.limits = limit_results(res)
         if site.settings.max_heights:
@@ -351,6 +350,50 @@ def _plan_slicer(site: Site, plan, grids, client=None):
         return lambda depths: stack.slices(depths, window)
     return lambda depths: [_plan_slices(site, g, replace(plan, depths=tuple(depths)), client)
                            for g in grids]
+
+
+def plan_settlement(site: Site, client=None) -> dict:
+    """The run's settlement plan of every plan grid (settle.plan_settlement): Δσz at the
+    nodes it analyses only, on a folded torus where that is cheaper (:func:`_kept_slicer`)."""
+    return settle.plan_settlement(site, lambda plan: _plan_nodes(site, plan),
+                                  lambda plan, grids, keep: _kept_slicer(site, plan, grids,
+                                                                         keep, client))
+
+
+def _plan_nodes(site: Site, plan) -> xr.DataArray:
+    """A plan grid's nodes as a (y, x) DataArray of zeros with the slices' coordinates."""
+    _, frame = slice_setup(site.spec.load_grid(site.spec.zeros()), [0.0], site.method,
+                           site.poisson, pad=plan_pad(site, plan))
+    rows, cols = plan_window(site, plan)
+    frame = {**frame, "y": frame["y"][rows], "x": frame["x"][cols]}
+    return slice_array(np.zeros((1, frame["y"].size, frame["x"].size)), frame).isel(
+        depth=0, drop=True)
+
+
+def _kept_slicer(site: Site, plan, grids, keep: np.ndarray, client=None):
+    """Δσz of every load grid of `grids` at a plan grid's nodes `keep` (bool (y, x)), as a
+    function of the depths: one (depth, node) array per grid. On one machine, where the
+    offsets between those nodes and the loaded cells fold onto a torus much smaller than
+    the zero-padded transform (plan.folding_layout), only the kept nodes are computed
+    (FoldedSlices, each distinct load once); otherwise the full slices are cut to them."""
+    layout = folding_layout(site, plan, grids, keep) if client is None else None
+    if layout is None:
+        full = _plan_slicer(site, plan, grids, client)
+        return lambda depths: cut_to_nodes(full(depths), keep)
+    distinct, index = distinct_loads([g.pressure for g in grids])
+    rows, cols = plan_samples(site, plan, keep)
+    folded = FoldedSlices(distinct, site.spec.dx, site.spec.dy, rows, cols, site.method,
+                          site.poisson, layout=layout)
+
+    def values_at(depths):
+        values = folded.slices(depths)                                      # (E, K, N)
+        return [values[e] for e in index]
+    return values_at
+
+
+def cut_to_nodes(slices: list, keep: np.ndarray) -> list[np.ndarray]:
+    """(depth, y, x) slices cut to the nodes `keep` (bool (y, x)): (depth, node) arrays."""
+    return [np.asarray(da.values)[:, keep] for da in slices]
 
 
 def _plan_slices(site: Site, grid, plan, client=None):

@@ -11,12 +11,13 @@ import numpy as np
 
 from ..settlement import sublayers
 from ..solve.auto import algorithm_for, direct_work
-from ..solve.cost import (Estimate, check_capacity, estimate_points, estimate_slices,
-                          format_bytes, memory_cap_bytes)
+from ..solve.cost import (Estimate, check_capacity, estimate_folded, estimate_points,
+                          estimate_slices, format_bytes, memory_cap_bytes)
+from ..solve.folded import fold_layout
 from ..solve.slices import distinct_loads, pad_cells, slice_lattice
 from . import corridor
 from .limits import limits_in_force
-from .settle import _settlement_points, state_grids
+from .settle import _settlement_points, analysed_nodes, state_grids
 from .timeline import load_states
 
 
@@ -59,7 +60,8 @@ class SliceCall(NamedTuple):
     """One FFT slice call of a run: `n_depths` depths on a plan grid, of one load grid
     alone (`stacked` False) or of `loads` distinct load grids sharing each depth's kernel
     in one SliceStack, which makes `transforms` pressure transforms (all of them on its
-    first call, none later)."""
+    first call, none later); with a `folded` layout (solve.folded.FoldLayout), the same
+    loads at `samples` nodes on its torus instead."""
 
     step: str
     plan: object
@@ -67,6 +69,8 @@ class SliceCall(NamedTuple):
     loads: int = 1
     transforms: int = 1
     stacked: bool = False
+    folded: object = None
+    samples: int = 0
 
 
 def slice_calls(site) -> list[SliceCall]:
@@ -79,13 +83,30 @@ def slice_calls(site) -> list[SliceCall]:
     calls = []
     for plan in site.plan_grids:
         calls += _step_calls(site, f"plan grid {plan.name}", plan, stages, [len(plan.depths)])
-    n_z = 0 if site.soil is None else len(sublayers(site.soil, top_depth=0.0)[0])
-    states = [g.pressure for g in state_grids(site)] if n_z else []
+    z = np.empty(0) if site.soil is None else sublayers(site.soil, top_depth=0.0)[0]
+    grids = state_grids(site) if len(z) else []
     for plan in site.plan_grids:
         step = max(1, len(plan.depths))
-        chunks = [min(step, n_z - k) for k in range(0, n_z, step)]
-        calls += _step_calls(site, f"plan grid {plan.name}, settlement", plan, states, chunks)
+        chunks = [min(step, len(z) - k) for k in range(0, len(z), step)]
+        keep = analysed_nodes(site, grids, *plan_nodes(site, plan), z) if grids else None
+        layout = folding_layout(site, plan, grids, keep) if grids else None
+        name = f"plan grid {plan.name}, settlement"
+        calls += _step_calls(site, name, plan, [g.pressure for g in grids], chunks) \
+            if layout is None else _folded_calls(name, plan, grids, chunks, layout, keep)
     return calls
+
+
+def _folded_calls(step: str, plan, grids, chunks: list[int], layout, keep) -> list[SliceCall]:
+    n = len(distinct_loads([g.pressure for g in grids])[0])
+    return [SliceCall(step, plan, d, n, n if k == 0 else 0, False, layout, int(keep.sum()))
+            for k, d in enumerate(chunks)]
+
+
+def plan_nodes(site, plan) -> tuple[np.ndarray, np.ndarray]:
+    """x and y (m) of a plan grid's nodes: the slice lattice's samples it keeps."""
+    x, y = slice_lattice(site.spec, _pad_cells(site, plan), (0.0, 0.0))
+    rows, cols = plan_window(site, plan)
+    return x[cols], y[rows]
 
 
 def _step_calls(site, step: str, plan, loads: list, chunks: list[int]) -> list[SliceCall]:
@@ -140,6 +161,43 @@ def plan_pad(site, plan) -> float:
     return max(0.0, gx0 - plan.xmin, gy0 - plan.ymin, plan.xmax - gx1, plan.ymax - gy1)
 
 
+def plan_samples(site, plan, keep: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Lattice indices (rows, cols) of a plan grid's nodes `keep` (bool (y, x)): the cell
+    each node is the centre of, negative or beyond the grid in its padding."""
+    pad_x, pad_y = _pad_cells(site, plan)
+    rows, cols = plan_window(site, plan)
+    y = np.arange(site.spec.ny + 2 * pad_y)[rows] - pad_y
+    x = np.arange(site.spec.nx + 2 * pad_x)[cols] - pad_x
+    j, i = np.nonzero(keep)
+    return y[j], x[i]
+
+
+#: plan settlement folds its kept nodes onto a torus when the estimate of that is at most
+#: this fraction of the zero-padded SliceStack's: the folded path transforms all of its
+#: torus back and gathers the nodes, where the stack inverts along x only the rows kept
+FOLD_GAIN = 0.7
+
+
+def folding_layout(site, plan, grids, keep: np.ndarray):
+    """The folded torus (solve.folded.FoldLayout) on which plan settlement computes its
+    nodes `keep` (bool (y, x)) under the load `grids`, or None where the zero-padded
+    transform is about as cheap or the torus would not fit the memory cap."""
+    if not keep.any():
+        return None
+    loaded = np.any([g.pressure != 0 for g in grids], axis=0)
+    layout = fold_layout(*plan_samples(site, plan, keep), loaded)
+    n = len(distinct_loads([g.pressure for g in grids])[0])
+    folded = _folded_estimate(layout, len(plan.depths), n, n, int(keep.sum()))
+    stack = _stack_estimate(site, plan, len(plan.depths), n, n)
+    fits = folded.bytes <= memory_cap(site)
+    return layout if fits and folded.seconds <= FOLD_GAIN * stack.seconds else None
+
+
+def _folded_estimate(layout, n_depths: int, loads: int, transforms: int, samples: int):
+    return estimate_folded(layout.torus, layout.reach, max(1, n_depths), loads=loads,
+                           transforms=transforms, samples=samples)
+
+
 def _pad_cells(site, plan) -> tuple[int, int]:
     return pad_cells(plan_pad(site, plan), site.spec.dx, site.spec.dy)
 
@@ -163,9 +221,7 @@ def run_estimates(site) -> list[Estimate]:
             g_shape, call.n, algorithm=algorithm, active_nodes=nodes, prepared=key in prepared))
         prepared.add(key)
     for c in slice_calls(site):
-        steps.setdefault(c.step, []).append(
-            _stack_estimate(site, c.plan, c.n_depths, c.loads, c.transforms) if c.stacked
-            else estimate_slices(shape, c.n_depths, pad_cells=_pad_cells(site, c.plan)))
+        steps.setdefault(c.step, []).append(_slice_estimate(site, c))
     out = [_combined(step, parts) for step, parts in steps.items()]
     if len(site.points) and site.build_seconds and site.settings.convergence_check:
         # the check rebuilds every body on 4× the cells: scale the measured first build
@@ -173,6 +229,14 @@ def run_estimates(site) -> list[Estimate]:
                             4 * site.build_seconds,
                             f"4 × the {site.build_seconds:.2g} s the bodies took"))
     return out
+
+
+def _slice_estimate(site, c: SliceCall) -> Estimate:
+    if c.folded is not None:
+        return _folded_estimate(c.folded, c.n_depths, c.loads, c.transforms, c.samples)
+    if c.stacked:
+        return _stack_estimate(site, c.plan, c.n_depths, c.loads, c.transforms)
+    return estimate_slices(site.spec.shape, c.n_depths, pad_cells=_pad_cells(site, c.plan))
 
 
 def _combined(step: str, parts: list[Estimate]) -> Estimate:

@@ -165,21 +165,21 @@ def state_grids(site) -> list:
             for s in tl.load_states(site)]
 
 
-def plan_settlement(site, slicer) -> dict:
+def plan_settlement(site, nodes, slicer) -> dict:
     """Final settlement (m) at the ground surface over every plan grid, along the load
     history (a surcharge removed on its day rebounds on Cr, as at the receptor points).
 
-    Δσz at the sublayer mid-depths of the whole profile comes from
-    ``slicer(plan, grids)(depths)``: FFT slices of every load grid of `grids` (the load
-    states) on the plan grid's nodes, a list of DataArrays (depth, y, x), one per grid.
-    `slicer` is asked once per plan grid (so it may keep what does not depend on the
-    depth, such as the pressure transforms) and the depths come as many at a time as the
-    plan grid has slices, so the memory stays what the run estimate counted for its
-    slices. Sublayers settle independently (1-D compression), so their settlements add up
-    by the rule the receptor points use. NaN (nodata) marks nodes where unloading exceeds
-    σ'v0 (heave) and nodes in tiles where an upper bound on |Δσz| (`stress_bound`) stays
-    below ``NEGLIGIBLE_FRACTION`` of the largest applied pressure at every sublayer: those
-    are not analysed; attrs ``not_analysed_below_kpa`` and
+    ``nodes(plan)`` is a plan grid's (y, x) DataArray of nodes (coordinates, CRS) and
+    ``slicer(plan, grids, keep)(depths)`` Δσz of every load grid of `grids` (the load
+    states) at the nodes `keep` (bool (y, x)) and `depths`: a list, one (depth, node)
+    array per grid. `slicer` is asked once per plan grid (so it may keep what does not
+    depend on the depth, such as the pressure transforms) and the depths come as many at
+    a time as the plan grid has slices, so the memory stays what the run estimate counted
+    for its slices. Sublayers settle independently (1-D compression), so their
+    settlements add up by the rule the receptor points use. NaN (nodata) marks nodes where
+    unloading exceeds σ'v0 (heave) and nodes in tiles where an upper bound on |Δσz|
+    (`stress_bound`) stays below ``NEGLIGIBLE_FRACTION`` of the largest applied pressure at
+    every sublayer: those are not analysed; attrs ``not_analysed_below_kpa`` and
     ``not_analysed_settlement_bound_m`` (the settlement of the column under that stress at
     every sublayer) state the cut-off.
     """
@@ -188,39 +188,44 @@ def plan_settlement(site, slicer) -> dict:
         return {}
     s0 = site.soil.sigma_v0_eff(z)
     grids = state_grids(site)
-    cutoff = NEGLIGIBLE_FRACTION * max(float(np.abs(g.pressure).max()) for g in grids)
+    cutoff = _cutoff(grids)
     out = {}
     for plan in site.plan_grids:
-        slices_at = slicer(plan, grids)
+        surface = nodes(plan)
+        keep = analysed_nodes(site, grids, surface.x.values, surface.y.values, z)
+        values_at = slicer(plan, grids, keep)
         step = max(1, len(plan.depths))
-        total = tension = keep = da = None
+        total = np.zeros(int(keep.sum()))
+        tension = np.zeros(total.shape, bool)
         for k in range(0, len(z), step):
             part = slice(k, k + step)
-            states = []
-            for da in slices_at(tuple(float(d) for d in z[part])):
-                if keep is None:
-                    keep = (stress_bound(site, grids, da.x.values, da.y.values, float(z[-1]))
-                            >= cutoff).ravel()
-                values = np.moveaxis(np.asarray(da.values, float), 0, -1).reshape(
-                    -1, da.sizes["depth"])
-                states.append(values[keep])
-            dsz = np.stack(states, axis=1)                                  # (N kept, E, K)
+            dsz = np.stack([v.T for v in values_at(tuple(float(d) for d in z[part]))],
+                           axis=1)                                          # (N kept, E, K)
             heave = np.any(s0[part] + dsz <= 0, axis=(1, 2))
             path = st.stress_path(site.soil, z[part], h[part],
                                   np.where(heave[:, None, None], 0.0, dsz))
-            total = path.settlement[:, -1].sum(axis=1) + (0.0 if total is None else total)
-            tension = heave if tension is None else tension | heave
+            total += path.settlement[:, -1].sum(axis=1)
+            tension |= heave
         total[tension] = np.nan
         full = np.full(keep.shape, np.nan)
         full[keep] = total
-        surface = da.isel(depth=0, drop=True)
-        settled = surface.copy(data=full.reshape(surface.shape))
+        settled = surface.copy(data=full)
         settled.attrs = {"units": "m", "long_name": "final settlement of the ground surface",
                          "positive": "down"}       # not the Δσz slice's attributes it came from
         out[plan.name] = settled.assign_attrs(
             not_analysed_below_kpa=cutoff, not_analysed_nodes=int((~keep).sum()),
             not_analysed_settlement_bound_m=_column_settlement(site.soil, z, h, cutoff))
     return out
+
+
+def _cutoff(grids) -> float:
+    return NEGLIGIBLE_FRACTION * max(float(np.abs(g.pressure).max()) for g in grids)
+
+
+def analysed_nodes(site, grids, x, y, z) -> np.ndarray:
+    """The plan nodes (y, x) whose settlement is analysed under the load `grids`: where
+    the bound on |Δσz| down to the deepest sublayer (`z`) reaches the cut-off."""
+    return stress_bound(site, grids, x, y, float(z[-1])) >= _cutoff(grids)
 
 
 def _column_settlement(soil, z, h, dsz: float) -> float:

@@ -203,6 +203,36 @@ def estimate_slices(shape, n_depths: int, *, pad_cells=(0, 0), tile=None, offset
                     f"at most {pairs} tile pairs")
 
 
+def estimate_folded(torus, reach, n_depths: int, *, loads: int = 1,
+                    transforms: int | None = None, samples: int = 1) -> Estimate:
+    """Estimate Δσz at `samples` chosen samples by a folded convolution
+    (:class:`~fillstress.solve.folded.FoldedSlices`) on a (Ly, Lx) `torus`, the corner
+    function evaluated out to `reach` (y, x) cells, `loads` loads, at `n_depths` depths.
+
+    Memory: a spectrum per load, the corner array, the folded kernel, its spectrum, a
+    product spectrum and the inverse; the output of every load at every sample and depth.
+
+    Examples
+    --------
+    >>> small = estimate_folded((512, 512), (300, 300), 10, samples=1000)
+    >>> small.seconds < estimate_slices((1000, 1000), 10).seconds
+    True
+    """
+    ly, lx = _shape(torus, "torus")
+    ry, rx = _shape(reach, "reach")
+    n_depths = whole_number(n_depths, "n_depths", minimum=1)
+    loads = whole_number(loads, "loads", minimum=1)
+    transforms = loads if transforms is None else whole_number(transforms, "transforms")
+    spectrum = _COMPLEX * ly * (lx // 2 + 1)
+    work = (loads + 2) * spectrum + 2 * _FLOAT * ly * lx + _FLOAT * (ry + 1) * (rx + 1)
+    output = _FLOAT * loads * n_depths * whole_number(samples, "samples", minimum=1)
+    seconds = ((transforms + (1 + loads) * n_depths) * _fft_seconds(ly * lx)
+               + n_depths * (ry + 1) * (rx + 1) / CORNERS_PER_SECOND)
+    return Estimate("slices-folded", output + work, seconds,
+                    f"{samples} nodes, {n_depths} depth(s), {loads} load(s) on a folded "
+                    f"torus of {ly} × {lx}")
+
+
 def estimate_points(shape, n_points: int, *, algorithm: str = "direct", order: int = 4,
                     active_nodes: int | None = None, prepared: bool = False) -> Estimate:
     """Estimate one call of Δσz at `n_points` points below an (ny, nx) grid.
