@@ -306,10 +306,12 @@ def markdown(ratios, compile_s, commands, far, calibration, startup, headroom, a
         "half-cell rebuild samples the design surfaces only on the cells they reach "
         "(`benchmarks/bench_build.py`, section below). The plan settlement analyses only the "
         "plan nodes where an upper bound on |Δσz| (point-load influence maximised over the "
-        "profile's depth, per 16 × 16 block) reaches 1 % of the largest applied pressure; the "
-        "FFT slices behind it still cover the whole bounding box; per depth one unit-cell "
-        "kernel (mirrored about the sample) and its transform serve every load grid, stages "
-        "and load states (`benchmarks/bench_plan_slices.py` times them against one slice "
+        "profile's depth, per 16 × 16 block) reaches 1 % of the largest applied pressure, and "
+        "computes only those, by a convolution on the smallest torus their offsets to the "
+        "loaded cells fold onto without aliasing (solve/folded.py, docs/method-engine.md; "
+        "864 × 4800 values instead of the 2560 × 5760 of the zero-padded transform); the "
+        "plan slices cover the whole plan grid; per depth one unit-cell kernel (mirrored "
+        "about the sample) and its transform serve every load grid, stages and load states (`benchmarks/bench_plan_slices.py` times them against one slice "
         "call per load grid).",
         END,
     ]
