@@ -255,16 +255,17 @@ def compute(site: Site, progress=silent, client=None) -> RunResults:
     cap = memory_cap(site)
     points_at = RunStress(site, client, cap)
     with open_bar(progress, "computing", steps) as bar:
-        step = _Steps(timings, bar)
+        step = _Steps(timings, bar, points_at.release)
         with step("receptor_points"):
             pts["dsz"] = points_at(grid, pts[["x", "y", "depth"]].to_numpy(float))
         res = RunResults(site, grid, pts, warnings=list(site.warnings), timings=timings)
         earlier = [site.load_grid(k) for k in site.stages[:-1]]
         for plan in site.plan_grids:
             with step("plan_slices"):
-                stack = _plan_slicer(site, plan, [*earlier, grid], client)(plan.depths)
-                res.slices[plan.name] = stack[-1]
-                res.stage_slices[plan.name] = _stage_stack(stack, site.stages)
+                stages = _stage_stack(_plan_slicer(site, plan, [*earlier, grid], client)(
+                    plan.depths), site.stages)
+                res.stage_slices[plan.name] = stages
+                res.slices[plan.name] = stages.isel(stage=-1, drop=True)   # a view, no copy
         if site.soil is not None:
             with step("stress_ratios"):
                 settle.soil_results(res)
@@ -298,16 +299,18 @@ def compute(site: Site, progress=silent, client=None) -> RunResults:
 
 class _Steps:
     """``with step(name):`` times a step of the run into `timings` (seconds, summed under
-    ``<name>_s``, in the order the steps first run) and advances the progress bar."""
+    ``<name>_s``, in the order the steps first run), advances the progress bar and calls
+    `done` (the point solver lets its prepared grid go: the next step asks other grids)."""
 
-    def __init__(self, timings: dict, bar):
-        self.timings, self.bar = timings, bar
+    def __init__(self, timings: dict, bar, done=lambda: None):
+        self.timings, self.bar, self.done = timings, bar, done
 
     @contextmanager
     def __call__(self, name: str):
         describe(self.bar, name.replace("_", " "))
         t0 = time.perf_counter()
         yield
+        self.done()
         key = f"{name}_s"
         seconds = time.perf_counter() - t0
         self.timings[key] = self.timings.get(key, 0.0) + seconds

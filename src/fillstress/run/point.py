@@ -167,6 +167,10 @@ class RunStress:
             self._grid = grid
         return self._solver(xyz)
 
+    def release(self) -> None:
+        """Let the kept grid's solver go (its far-field pyramid may be large)."""
+        self._grid = self._solver = None
+
 
 def _solver(site: Site, grid, client=None, memory_cap=None, numpy_for_small=True):
     """Δσz at points below `grid`, for many calls: on the workers of `client`, or here."""
