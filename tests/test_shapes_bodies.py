@@ -259,3 +259,31 @@ def test_read_footprints_takes_a_geodataframe_or_geoseries_as_a_file(tmp_path):
 def test_read_footprints_in_memory_errors_name_the_source(given, message):
     with pytest.raises(InputError, match=message):
         read_footprints(given)
+
+
+# --- the embankment's projection on its centreline -------------------------------------
+def test_numpy_projection_equals_shapelys_on_a_curved_centreline():
+    from fillstress.shapes.embankment import _Embankment
+    line = shapely.LineString([(0, 0), (40, 5), (75, 30), (90, 70), (90.0, 70.0), (80, 110)])
+    bank = _Embankment(line, np.array([0.0, line.length]), np.array([2.0, 3.0]), 6.0, 2.0,
+                       2.0, 2.0)
+    rng = np.random.default_rng(7)
+    x, y = rng.uniform(-20, 110, 20_000), rng.uniform(-20, 130, 20_000)
+    s, d = bank.project(x, y)
+    pts = shapely.points(x, y)
+    np.testing.assert_allclose(d, shapely.distance(line, pts), rtol=0, atol=1e-9)
+    np.testing.assert_allclose(s, shapely.line_locate_point(line, pts), rtol=0, atol=1e-9)
+
+
+def test_embankment_thickness_is_the_same_by_numpy_and_by_shapely(monkeypatch):
+    from fillstress.shapes import embankment
+    spec = GridSpec(0.0, 0.0, 1.5, 1.5, 120, 110)
+    line = shapely.LineString([(20, 15), (80, 60), (150, 140)])
+    args = dict(crest_width=8.0, side_slope=2.0, heights=[(0.0, 1.0), (120.0, 4.0),
+                                                          (line.length, 2.5)],
+                start_slope=2.0, end_slope="vertical")
+    fast = embankment.embankment_thickness(line, spec, **args)
+    monkeypatch.setattr(embankment, "LOOP_SEGMENTS", 0)
+    slow = embankment.embankment_thickness(line, spec, **args)
+    np.testing.assert_allclose(fast, slow, rtol=0, atol=1e-12 * slow.max())
+    assert slow.max() > 3.0

@@ -87,3 +87,37 @@ def test_bad_height_function_and_samples():
         cell_average(sq, lambda x, y: x, spec, samples=0)
     with pytest.raises(InputError, match="GridSpec"):
         coverage_fraction(sq, "not a grid")
+
+
+# --- only cells near the boundary are tested against it -----------------------------
+def _classify_every_cell(geometry, spec):
+    """The slow reference: every cell of the bounding-box window gets a box and the exact
+    boundary test."""
+    from fillstress.shapes import coverage
+    jj, ii = coverage._window_cells(spec, coverage.grid_window(geometry.bounds, spec))
+    boxes = coverage._cell_boxes(spec, jj, ii)
+    edge = shapely.intersects(boxes, geometry.boundary)
+    inside = ~edge & shapely.contains_xy(geometry, spec.x0 + (ii + 0.5) * spec.dx,
+                                         spec.y0 + (jj + 0.5) * spec.dy)
+    return jj, ii, boxes, edge, inside
+
+
+_DIAGONAL_SHAPES = [
+    shapely.LineString([(10, 10), (120, 90), (200, 220)]).buffer(8, quad_segs=16),
+    shapely.Polygon([(5, 5), (150, 20), (60, 200)], holes=[[(40, 40), (80, 50), (60, 90)]]),
+    shapely.MultiPolygon([shapely.box(1, 1, 30.3, 40.1), shapely.Point(150, 150).buffer(30)]),
+    shapely.box(20.0, 30.0, 70.0, 90.0),       # edges on cell lines: 70 = 100 × 0.7
+]
+
+
+@pytest.mark.parametrize("geometry", _DIAGONAL_SHAPES)
+def test_near_boundary_classification_equals_testing_every_cell(geometry, monkeypatch):
+    from fillstress.shapes import coverage
+    spec = GridSpec(0.0, 0.0, 0.7, 0.9, 300, 260)
+    height = lambda x, y: 0.01 * x + np.sin(y)               # noqa: E731
+    fast = (coverage_fraction(geometry, spec), cell_average(geometry, height, spec))
+    monkeypatch.setattr(coverage, "_classify", _classify_every_cell)
+    slow = (coverage_fraction(geometry, spec), cell_average(geometry, height, spec))
+    for got, expected in zip(fast, slow):
+        np.testing.assert_array_equal(got, expected)
+    assert fast[0].sum() * spec.cell_area == pytest.approx(geometry.area, rel=1e-12)

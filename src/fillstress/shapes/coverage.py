@@ -6,7 +6,8 @@ is the fill volume. This module does the geometry for that.
 
 Method
 ------
-Only the cells inside the polygon's bounding box are looked at (the candidate cells).
+Only the cells inside the polygon's bounding box are looked at (the candidate cells),
+and of those only the cells near a boundary segment are tested against the boundary.
 A candidate cell is either
 
 * cut by the polygon boundary (an *edge cell*): it is clipped to the polygon with
@@ -136,25 +137,51 @@ def cells_meeting_boxes(boxes, spec: GridSpec, margin: int = 1) -> np.ndarray:
 
 
 def _window_cells(spec: GridSpec, window):
-    """Flattened row/column indices and shapely boxes of the cells in `window`."""
+    """Flattened row/column indices of the cells in `window`."""
     j0, j1, i0, i1 = window
     jj, ii = np.meshgrid(np.arange(j0, j1), np.arange(i0, i1), indexing="ij")
-    jj, ii = jj.ravel(), ii.ravel()
+    return jj.ravel(), ii.ravel()
+
+
+def _cell_boxes(spec: GridSpec, jj: np.ndarray, ii: np.ndarray):
     x0 = spec.x0 + ii * spec.dx
     y0 = spec.y0 + jj * spec.dy
-    boxes = shapely.box(x0, y0, x0 + spec.dx, y0 + spec.dy)
-    return jj, ii, boxes
+    return shapely.box(x0, y0, x0 + spec.dx, y0 + spec.dy)
+
+
+def _segment_boxes(boundary, length: float) -> np.ndarray:
+    """(xmin, ymin, xmax, ymax) of the pieces, at most `length` long, of every segment of
+    a polygon boundary's rings (a long diagonal segment's own box would span many cells
+    it does not meet)."""
+    rings = shapely.get_parts(shapely.segmentize(boundary, length))
+    xy, ring = shapely.get_coordinates(rings, return_index=True)
+    same = ring[1:] == ring[:-1]                       # no segment joins two rings
+    a, b = xy[:-1][same], xy[1:][same]
+    return np.column_stack([np.minimum(a, b), np.maximum(a, b)])
 
 
 def _classify(geometry, spec: GridSpec):
-    """Split the candidate cells into edge cells and wholly-inside cells."""
-    jj, ii, boxes = _window_cells(spec, grid_window(geometry.bounds, spec))
+    """Split the candidate cells into edge cells and wholly-inside cells.
+
+    Only cells within a cell of a boundary segment's bounding box can be cut by the
+    boundary; they alone get shapely boxes and the exact test. Any other cell is wholly
+    inside or wholly outside, as its centre is: a long diagonal or curved footprint so
+    skips most of its bounding box."""
+    jj, ii = _window_cells(spec, grid_window(geometry.bounds, spec))
     boundary = geometry.boundary
-    shapely.prepare(boundary)
-    edge = shapely.intersects(boxes, boundary)
+    pieces = _segment_boxes(boundary, 2.0 * min(spec.dx, spec.dy))
+    near = cells_meeting_boxes(pieces, spec, margin=1)[jj, ii]
     cx = spec.x0 + (ii + 0.5) * spec.dx
     cy = spec.y0 + (jj + 0.5) * spec.dy
-    inside = ~edge & shapely.contains_xy(geometry, cx, cy)
+    centre_inside = shapely.contains_xy(geometry, cx, cy)
+    keep = near | centre_inside
+    jj, ii, near, centre_inside = jj[keep], ii[keep], near[keep], centre_inside[keep]
+    boxes = np.full(jj.size, None, dtype=object)
+    boxes[near] = _cell_boxes(spec, jj[near], ii[near])
+    shapely.prepare(boundary)
+    edge = np.zeros(jj.size, bool)
+    edge[near] = shapely.intersects(boxes[near], boundary)
+    inside = ~edge & centre_inside
     return jj, ii, boxes, edge, inside
 
 

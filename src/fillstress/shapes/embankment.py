@@ -33,6 +33,11 @@ from .._validate import finite, positive
 from ..errors import InputError
 from ..grid import GridSpec
 from .coverage import cell_average, check_spec
+from .stockpile import nearest_on_segments
+
+#: Centrelines of up to this many segments are projected on by a numpy loop (N × S work;
+#: several times faster than shapely for a few segments), longer ones by shapely.
+LOOP_SEGMENTS = 64
 
 VERTICAL = "vertical"
 
@@ -123,15 +128,25 @@ class _Embankment:
                      (_end_frame(line, False), end_slope,
                       float(np.interp(line.length, ch, hts)))]
 
+    def project(self, x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Chainage (m along the line) of the nearest point of the line and the distance
+        to it: by a numpy loop over up to LOOP_SEGMENTS segments, else by shapely."""
+        xy = shapely.get_coordinates(self.line)
+        if len(xy) - 1 > LOOP_SEGMENTS:
+            pts = shapely.points(x, y)
+            return shapely.line_locate_point(self.line, pts), shapely.distance(self.line, pts)
+        along = np.diff(xy, axis=0)
+        lengths = np.hypot(along[:, 0], along[:, 1])
+        d_sq, k, t = nearest_on_segments(xy[:-1], along, x, y, where=True)
+        return np.concatenate([[0.0], np.cumsum(lengths)])[k] + t * lengths[k], np.sqrt(d_sq)
+
     def side_drop(self, offset):
         return np.maximum(0.0, np.abs(offset) - self.half_w) / self.n
 
     def __call__(self, x, y):
-        pts = shapely.points(np.ravel(x), np.ravel(y))
-        s = shapely.line_locate_point(self.line, pts)
-        d = shapely.distance(self.line, pts)
-        h = np.interp(s, self.ch, self.hts) - self.side_drop(d)
         px, py = np.ravel(x), np.ravel(y)
+        s, d = self.project(px, py)
+        h = np.interp(s, self.ch, self.hts) - self.side_drop(d)
         for ((tip, t), slope, h_end), at in zip(self.ends, (0.0, self.line.length)):
             u = (px - tip[0]) * t[0] + (py - tip[1]) * t[1]
             beyond = (np.abs(s - at) <= 1e-9 * max(self.line.length, 1.0)) & (u > 0)

@@ -58,19 +58,40 @@ def distance_to_boundary(geometry):
         return _tree_distance(segments)
     ends = shapely.get_coordinates(segments).reshape(-1, 2, 2)
     start, along = ends[:, 0], ends[:, 1] - ends[:, 0]
-    length_sq = np.maximum((along ** 2).sum(axis=1), np.finfo(float).tiny)  # a zero-length
-    # segment then gives t = 0: the distance to its point
 
     def distance(x, y):
         x, y = np.broadcast_arrays(np.asarray(x, dtype=float), np.asarray(y, dtype=float))
-        best = np.full(x.shape, np.inf)
-        for (ax, ay), (dx, dy), l_sq in zip(start, along, length_sq):
-            rx, ry = x - ax, y - ay
-            t = np.clip((rx * dx + ry * dy) / l_sq, 0.0, 1.0)   # nearest point on the segment
-            np.minimum(best, (rx - t * dx) ** 2 + (ry - t * dy) ** 2, out=best)
-        return np.sqrt(best)
+        return np.sqrt(nearest_on_segments(start, along, x, y))
 
     return distance
+
+
+def nearest_on_segments(start, along, x, y, *, where: bool = False):
+    """Squared plan distance from points (x, y) to the nearest of the segments
+    ``start + t·along`` (0 ≤ t ≤ 1), looping over the segments in numpy (N × S work);
+    with `where` also the first nearest segment's index and t on it (as a line's
+    projection takes the first of equally near segments).
+
+    Examples
+    --------
+    >>> start, along = np.array([[0.0, 0.0], [4.0, 0.0]]), np.array([[4.0, 0.0], [0.0, 3.0]])
+    >>> d_sq, k, t = nearest_on_segments(start, along, np.array([5.0]), np.array([2.0]), where=True)
+    >>> d_sq.tolist(), k.tolist(), t.round(6).tolist()
+    ([1.0], [1], [0.666667])
+    """
+    # a zero-length segment gives t = 0: the distance to its point
+    length_sq = np.maximum((along ** 2).sum(axis=1), np.finfo(float).tiny)
+    best = np.full(x.shape, np.inf)
+    seg, at = (np.zeros(x.shape, np.int64), np.zeros(x.shape)) if where else (None, None)
+    for k, ((ax, ay), (dx, dy), l_sq) in enumerate(zip(start, along, length_sq)):
+        rx, ry = x - ax, y - ay
+        t = np.clip((rx * dx + ry * dy) / l_sq, 0.0, 1.0)   # nearest point on the segment
+        d_sq = (rx - t * dx) ** 2 + (ry - t * dy) ** 2
+        if where:
+            closer = d_sq < best
+            seg[closer], at[closer] = k, t[closer]
+        np.minimum(best, d_sq, out=best)
+    return (best, seg, at) if where else best
 
 
 def _tree_distance(segments):
