@@ -400,6 +400,11 @@ def test_run_stress_prepares_each_new_grid():
         np.testing.assert_allclose(evaluate(g, pts), vertical_stress(g, pts), rtol=0,
                                    atol=1e-12 * np.abs(g.pressure).max())
     assert evaluate(a, np.zeros((0, 3))).shape == (0,)
+    kept = evaluate._solver
+    evaluate.release()                       # a run's step ends: its solver goes
+    assert evaluate._solver is None
+    np.testing.assert_array_equal(evaluate(a, pts), kept(pts))
+    assert evaluate._solver is not kept
 
 
 def test_slices_on_several_fft_threads_equal_one_thread():
