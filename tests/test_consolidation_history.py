@@ -14,6 +14,7 @@ from fillstress.errors import InputError
 from fillstress.settlement import (ramp_degree, secondary_compression, secondary_strain_index,
                                    settlement_time_curve, stress_path, sublayer_settlement,
                                    time_to_fraction)
+from fillstress import settlement as st
 from fillstress.soil import SoilLayer, SoilProfile
 
 CC, CR, E0 = 0.6, 0.07, 1.6
@@ -154,3 +155,27 @@ def test_staged_curve_with_build_duration_and_removal():
     assert curve[2] == pytest.approx(0.25, abs=1e-9)
     t50 = time_to_fraction(lambda t: settlement_time_curve([0.3], [0.0], t, 1.0, 1.0), 0.5, 0.3, 10)
     assert t50 == pytest.approx(0.19674, abs=1e-4)     # Terzaghi: Tv50 = 0.197
+
+
+def test_several_fractions_on_one_bracketing_grid_equal_separate_searches():
+    curve = lambda t: st.settlement_time_curve([0.2, 0.1, -0.05], [0.0, 0.4, 1.5],  # noqa: E731
+                                               t, 2.0, 1.3, durations=[0.2, 0.1, 0.0])
+    fractions = [0.5, 0.9, 0.95, 1.0, 1.2]
+    together = st.times_to_fractions(curve, fractions, 0.3, 100.0)
+    alone = [st.time_to_fraction(curve, f, 0.3, 100.0) for f in fractions]
+    np.testing.assert_array_equal(together, alone)
+    assert np.isfinite(together[:3]).all() and np.isnan(together[-1])
+
+
+def test_end_of_primary_is_the_instant_loads_u95_for_each_sublayer():
+    from fillstress.run import timeline as tl
+    history = tl.PointHistory(np.zeros((1, 3)), np.zeros(1), np.zeros(1),
+                              np.array([1.5, 1.5, 4.0]), np.array([2.0, 2.0, 1.0]),
+                              np.array([0.0, 0.0, 0.3]))
+    layers = [type("Layer", (), {"end_of_primary_yr": None})()] * 3
+    got = history.end_of_primary(layers)
+    for k, (cv, h, radial) in enumerate([(1.5, 2.0, 0.0), (1.5, 2.0, 0.0), (4.0, 1.0, 0.3)]):
+        u95 = st.time_to_fraction(lambda t: st.ramp_degree(t, 0.0, cv / h**2, radial),
+                                  tl.U_END_OF_PRIMARY, 1.0, 1e4)
+        assert got[k] == u95
+    assert float(st.ramp_degree(got[2], 0.0, 4.0, 0.3)) == pytest.approx(0.95, abs=1e-6)

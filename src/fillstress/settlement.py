@@ -816,10 +816,28 @@ def time_to_fraction(curve: Callable[[np.ndarray], np.ndarray], fraction: float,
     >>> round(time_to_fraction(f, 0.5, 0.3, 50.0), 4)         # ln 2
     0.6931
     """
-    target = float(fraction) * float(final)
+    return times_to_fractions(curve, [fraction], final, t_max)[0]
+
+
+def times_to_fractions(curve: Callable[[np.ndarray], np.ndarray], fractions, final: float,
+                       t_max: float) -> list[float]:
+    """:func:`time_to_fraction` of each of `fractions`, the curve bracketed on one grid of
+    times for all of them.
+
+    Examples
+    --------
+    >>> f = lambda t: 0.3 * (1 - np.exp(-np.asarray(t)))
+    >>> [round(v, 4) for v in times_to_fractions(f, [0.5, 0.9], 0.3, 50.0)]   # ln 2, ln 10
+    [0.6931, 2.3026]
+    """
     grid = np.concatenate([[0.0], np.geomspace(1e-6 * t_max, t_max, 400)])
-    values = np.asarray(curve(grid), dtype=float) - target
-    reached = np.nonzero(values >= 0)[0]
+    values = np.asarray(curve(grid), dtype=float)
+    return [_first_reached(curve, grid, values, float(f) * float(final), final, t_max)
+            for f in fractions]
+
+
+def _first_reached(curve, grid, values, target: float, final: float, t_max: float) -> float:
+    reached = np.nonzero(values - target >= 0)[0]
     if final == 0 or reached.size == 0:
         return math.nan
     k = int(reached[0])

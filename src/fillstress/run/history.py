@@ -56,8 +56,9 @@ def settlement_record(res, targets: pd.DataFrame, states, points: dict) -> None:
         if timed:
             res.time_curves[rid] = (years * tl.DAYS_PER_YEAR, hist.curve(years))
             peak_final = float(peak.settlement[0, -1].sum())
-            for name, f in FRACTIONS.items():
-                times[name] = _day(st.time_to_fraction(hist_peak.curve, f, peak_final, _HORIZON_YR))
+            reached = st.times_to_fractions(hist_peak.curve, FRACTIONS.values(), peak_final,
+                                            _HORIZON_YR)
+            times |= {name: _day(t) for name, t in zip(FRACTIONS, reached)}
         rows["consolidation_times"].append(times)
         if surcharge.any() and timed:
             rows["preload"].append(_preload_row(res, rid, z, h, per_body, surcharge,

@@ -4,6 +4,7 @@ through them, the settlement–time curve with drains where they act, secondary 
 and the preload answers (all SI; days only at the edges)."""
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import dataclass
 
@@ -112,10 +113,17 @@ class PointHistory:
             elif math.isinf(vertical[k]):
                 out[k] = 1.0 / DAYS_PER_YEAR            # drains at once: a day
             else:
-                out[k] = st.time_to_fraction(
-                    lambda t, k=k: st.ramp_degree(t, 0.0, vertical[k], self.radial[k]),
-                    U_END_OF_PRIMARY, 1.0, 1e4)
+                out[k] = _end_of_primary_yr(float(vertical[k]), float(self.radial[k]))
         return out
+
+
+@functools.lru_cache(maxsize=1024)
+def _end_of_primary_yr(vertical: float, radial: float) -> float:
+    """Years to U = 95 % under an instant load, for consolidation rates cv/H_dr² and
+    8·ch/(de²·μ) (1/year): kept, as the sublayers of a layer and the points of a site
+    share their rates."""
+    return st.time_to_fraction(lambda t: st.ramp_degree(t, 0.0, vertical, radial),
+                               U_END_OF_PRIMARY, 1.0, 1e4)
 
 
 def sublayer_time_parameters(soil, z: np.ndarray):
