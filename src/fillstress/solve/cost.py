@@ -89,11 +89,22 @@ def _fft_seconds(n: int) -> float:
     return 5.0 * n * math.log2(max(n, 2)) / FFT_FLOPS_PER_SECOND
 
 
-def _fast_len(n: int) -> int:
-    """scipy.fft.next_fast_len of a real transform; scipy.fft is loaded on first use
-    (reading a site needs none)."""
+def fft_length(n: int) -> int:
+    """The slices' transform length for a kernel of n cells: the shortest even fast length
+    of a real transform (scipy.fft.next_fast_len) >= n.  Even, because a kernel even about
+    its centre then transforms as a type-I DCT of its half (solve.slices); scipy.fft is
+    loaded on first use (reading a site needs none).
+
+    Examples
+    --------
+    >>> fft_length(74), fft_length(75), fft_length(1)
+    (80, 80, 2)
+    """
     from scipy.fft import next_fast_len
-    return next_fast_len(n, real=True)
+    length = next_fast_len(n, real=True)
+    while length % 2:
+        length = next_fast_len(length + 1, real=True)
+    return length
 
 
 def fft_working_bytes(tile_shape, out_shape, loads: int = 1) -> int:
@@ -115,8 +126,8 @@ def fft_working_bytes(tile_shape, out_shape, loads: int = 1) -> int:
     ny, nx = _shape(tile_shape, "tile_shape")
     my, mx = _shape(out_shape, "out_shape")
     loads = whole_number(loads, "loads", minimum=1)
-    fy = _fast_len(ny + my - 1)
-    fx = _fast_len(nx + mx - 1)
+    fy = fft_length(ny + my - 1)
+    fx = fft_length(nx + mx - 1)
     spectrum = _COMPLEX * fy * (fx // 2 + 1)
     real = _FLOAT * fy * fx
     nodes = _FLOAT * (ny + my) * (nx + mx)
@@ -178,8 +189,8 @@ def estimate_slices(shape, n_depths: int, *, pad_cells=(0, 0), tile=None, offset
         samples = my * mx if kept is None else whole_number(kept, "kept")
         output = _FLOAT * loads * n_depths * samples
         work = fft_working_bytes((ny, nx), (my, mx), loads)
-        fy = _fast_len(ny + my - 1)
-        fx = _fast_len(nx + mx - 1)
+        fy = fft_length(ny + my - 1)
+        fx = fft_length(nx + mx - 1)
         ox, oy = offset
         # each depth also evaluates the corner function on the (ny+my) × (nx+mx) nodes
         corners = (_evaluated_corners(ny + my, oy == 0.0)
@@ -193,8 +204,8 @@ def estimate_slices(shape, n_depths: int, *, pad_cells=(0, 0), tile=None, offset
     output = _FLOAT * n_depths * my * mx
     ty, tx = _shape(tile, "tile")
     pairs = math.ceil(ny / ty) * math.ceil(nx / tx) * math.ceil(my / ty) * math.ceil(mx / tx)
-    fy = _fast_len(2 * ty - 1)
-    fx = _fast_len(2 * tx - 1)
+    fy = fft_length(2 * ty - 1)
+    fx = fft_length(2 * tx - 1)
     work = fft_working_bytes((ty, tx), (ty, tx)) + _FLOAT * n_depths * ty * tx
     seconds = pairs * ((1 + 2 * n_depths) * _fft_seconds(fy * fx)
                        + n_depths * 4 * ty * tx / CORNERS_PER_SECOND)
