@@ -148,3 +148,20 @@ def test_fft_lengths_are_even_fast_and_long_enough():
         assert scipy.fft.next_fast_len(length, real=True) == length
         assert all(k % 2 or scipy.fft.next_fast_len(k, real=True) != k
                    for k in range(n, length))
+
+
+@pytest.mark.parametrize("offset", [(0.0, 0.0), (0.3, -0.4)])
+@pytest.mark.parametrize("stacked", [True, False])
+def test_several_depths_at_once_equal_one_depth_at_a_time(offset, stacked):
+    """at_depths reuses one product array over depths and loads: each depth as alone."""
+    rng = np.random.default_rng(9)
+    loads = rng.uniform(0.0, 50.0, (3, 6, 9) if stacked else (6, 9))
+    plan = SlicePlan(loads, DX, DY, "boussinesq", offset=offset, pad_cells=(1, 2))
+    depths = [4.0, 0.0, 1.5]
+    window = (slice(1, None, 2), slice(2, 9))
+    together = plan.at_depths(depths, window)
+    assert together.shape == ((3,) if stacked else ()) + (3, 5, 7)
+    for k, depth in enumerate(depths):
+        np.testing.assert_array_equal(together[..., k, :, :], plan.at_depth(depth, window))
+        _close(together[..., k, :, :],
+               _direct(loads, depth, "boussinesq", None, (1, 2), offset)[..., 1::2, 2:9])
