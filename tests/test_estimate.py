@@ -25,6 +25,23 @@ def test_fft_estimate_covers_the_plan_arrays():
     assert (scipy.fft.next_fast_len(70 + plan.shape_out[0] - 1, real=True), fx) == (fy, fx)
 
 
+def test_centred_fft_estimate_covers_the_plan_arrays():
+    """On cell centres the kernel's transform is real, a quarter of the lattice."""
+    p = np.ones((3, 70, 90))
+    plan = SlicePlan(p, 1.0, 1.0, pad_cells=(5, 3))
+    assert plan.centred
+    fy, fx = plan.fft_shape
+    spectrum = plan.pressure_hat[0].nbytes
+    quarter = plan.kernel_spectrum(1.0)
+    padded = 8 * fy * fx
+    corners = 8 * (plan.a_nodes.size // 2) * (plan.b_nodes.size // 2)
+    counted = plan.pressure_hat.nbytes + spectrum + padded + 2 * quarter.nbytes + corners
+    assert quarter.shape == (fy // 2 + 1, fx // 2 + 1) and quarter.dtype == float
+    assert fft_working_bytes(p.shape[1:], plan.shape_out, 3, centred=True) >= counted
+    assert (fft_working_bytes(p.shape[1:], plan.shape_out, 3, centred=True)
+            < fft_working_bytes(p.shape[1:], plan.shape_out, 3))
+
+
 def test_slice_estimate_counts_the_output():
     est = estimate_slices((100, 200), 7, pad_cells=(10, 5))
     assert est.bytes >= 8 * 7 * 110 * 220

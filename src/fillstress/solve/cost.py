@@ -107,20 +107,25 @@ def fft_length(n: int) -> int:
     return length
 
 
-def fft_working_bytes(tile_shape, out_shape, loads: int = 1) -> int:
+def fft_working_bytes(tile_shape, out_shape, loads: int = 1, centred: bool = False) -> int:
     """Peak bytes of one exact FFT slice of a (ny, nx) load array onto an (my, mx) lattice.
 
     Counts the pressure spectrum of each of `loads` loads sharing the kernel (a
     :class:`~fillstress.solve.slices.SlicePlan` of a stack of loads keeps them all), the
     node corner array and the unit-cell kernel, the kernel spectrum, a product spectrum
     (more than one load: the kernel spectrum is kept for the next), a transform
-    temporary and the inverse transform.
+    temporary and the inverse transform.  `centred` (samples on the cell centres,
+    ``SlicePlan.centred``): one product spectrum (or, making the pressure spectra, the
+    transform's output), the padded pressure or the inverse transform, a quarter of the
+    corner array, the kernel quarter and its real transform (in place).
 
     Examples
     --------
     >>> fft_working_bytes((100, 100), (100, 100)) > 0
     True
     >>> fft_working_bytes((100, 100), (100, 100), loads=3) > fft_working_bytes((100, 100), (100, 100))
+    True
+    >>> fft_working_bytes((100, 100), (100, 100), centred=True) < fft_working_bytes((100, 100), (100, 100))
     True
     """
     ny, nx = _shape(tile_shape, "tile_shape")
@@ -130,6 +135,10 @@ def fft_working_bytes(tile_shape, out_shape, loads: int = 1) -> int:
     fx = fft_length(nx + mx - 1)
     spectrum = _COMPLEX * fy * (fx // 2 + 1)
     real = _FLOAT * fy * fx
+    if centred:
+        quarter = _FLOAT * (fy // 2 + 1) * (fx // 2 + 1)
+        corners = _FLOAT * ((ny + my + 1) // 2) * ((nx + mx + 1) // 2)
+        return (loads + 1) * spectrum + real + 2 * quarter + corners
     nodes = _FLOAT * (ny + my) * (nx + mx)
     return (loads + 2 + (loads > 1)) * spectrum + 2 * real + 2 * nodes
 
@@ -188,7 +197,7 @@ def estimate_slices(shape, n_depths: int, *, pad_cells=(0, 0), tile=None, offset
         transforms = loads if transforms is None else whole_number(transforms, "transforms")
         samples = my * mx if kept is None else whole_number(kept, "kept")
         output = _FLOAT * loads * n_depths * samples
-        work = fft_working_bytes((ny, nx), (my, mx), loads)
+        work = fft_working_bytes((ny, nx), (my, mx), loads, centred=offset == (0.0, 0.0))
         fy = fft_length(ny + my - 1)
         fx = fft_length(nx + mx - 1)
         ox, oy = offset

@@ -290,11 +290,15 @@ class SlicePlan:
 
 def _padded_spectrum(pressure, shift, fft_shape, workers) -> np.ndarray:
     """rfft over the last two axes of `pressure` placed `shift` (rows, columns) into zeros
-    of `fft_shape`."""
+    of `fft_shape`, one load at a time through one padded array."""
     (sy, sx), (ny, nx) = shift, pressure.shape[-2:]
-    placed = np.zeros(pressure.shape[:-2] + tuple(fft_shape))
-    placed[..., sy:sy + ny, sx:sx + nx] = pressure
-    return scipy.fft.rfftn(placed, axes=(-2, -1), overwrite_x=True, workers=workers)
+    loads = pressure.reshape((-1, ny, nx))
+    placed = np.zeros(fft_shape)
+    spectra = np.empty((len(loads), fft_shape[0], fft_shape[1] // 2 + 1), dtype=complex)
+    for e, load in enumerate(loads):
+        placed[sy:sy + ny, sx:sx + nx] = load
+        spectra[e] = scipy.fft.rfft2(placed, workers=workers)
+    return spectra.reshape(pressure.shape[:-2] + spectra.shape[1:])
 
 
 def slice_at_depth(pressure, dx, dy, depth, method="boussinesq", poisson=None, *,
