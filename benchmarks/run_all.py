@@ -308,7 +308,8 @@ def markdown(ratios, compile_s, commands, far, calibration, startup, headroom, a
         "plan nodes where an upper bound on |Δσz| (point-load influence maximised over the "
         "profile's depth, per 16 × 16 block) reaches 1 % of the largest applied pressure; the "
         "FFT slices behind it still cover the whole bounding box; per depth one unit-cell "
-        "kernel (mirrored about the sample) and its transform serve every load grid, stages "
+        "kernel (re-centred on the sample: its real transform, a type-I DCT of one "
+        "quarter, `benchmarks/bench_slices_centred.py`) serves every load grid, stages "
         "and load states (`benchmarks/bench_plan_slices.py` times them against one slice "
         "call per load grid).",
         END,

@@ -7,13 +7,18 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+import reference
 import scipy.fft
 import scipy.signal
 
-import reference
 from fillstress.solve import slices
 from fillstress.solve.cost import fft_length
-from fillstress.solve.slices import SlicePlan, _centred_kernel, _times_even, _unit_cell_kernel
+from fillstress.solve.slices import (
+    SlicePlan,
+    _centred_kernel,
+    _times_even,
+    _unit_cell_kernel,
+)
 
 METHODS = [("boussinesq", None), ("westergaard", 0.3)]
 SHAPES = [(5, 8), (6, 7), (7, 7), (1, 4), (4, 1)]            # (ny, nx): odd and even
@@ -33,7 +38,9 @@ def _direct(pressure, depth, method, poisson, pad_cells, offset=(0.0, 0.0)):
     b = (pad_y + ny - 0.5 - np.arange(ny + my)) * DY - offset[1]
     f = reference.corner(a[None, :], b[:, None], depth, method, poisson)
     kernel = f[1:, 1:] - f[1:, :-1] - f[:-1, 1:] + f[:-1, :-1]
-    one = lambda p: scipy.signal.convolve2d(p, kernel)[ny - 1:ny - 1 + my, nx - 1:nx - 1 + mx]  # noqa: E731
+
+    def one(p):
+        return scipy.signal.convolve2d(p, kernel)[ny - 1:ny - 1 + my, nx - 1:nx - 1 + mx]
     return np.stack([one(p) for p in pressure]) if pressure.ndim == 3 else one(pressure)
 
 
@@ -58,7 +65,7 @@ def test_centred_slices_equal_the_direct_sum_and_the_full_kernel(method, poisson
                                                                  pad_cells, monkeypatch):
     rng = np.random.default_rng(sum(shape) + 7 * sum(pad_cells))
     loads = rng.uniform(0.0, 90.0, (3,) + shape)
-    kw = dict(pad_cells=pad_cells)
+    kw = {"pad_cells": pad_cells}
     plan = SlicePlan(loads, DX, DY, method, poisson, **kw)
     assert plan.centred and plan.paired == (True, True)
     full = _full_kernel_plan(monkeypatch, loads, DX, DY, method, poisson, **kw)

@@ -10,6 +10,10 @@ with the closed-form corner function (G is the 2-D second difference of F on the
 node lattice).  That discrete sum is a linear convolution, which the FFT computes
 exactly up to round-off once both arrays are zero-padded to at least the kernel
 length (no wrap-around reaches the samples kept).  Nothing is truncated or fitted.
+
+On cell centres G is even about its centre cell; re-centred on the sample its transform
+is real, the type-I DCT of one quarter of it (:meth:`SlicePlan.kernel_spectrum`), and the
+pressure placed at the centre cell keeps the samples where they were.
 """
 from __future__ import annotations
 
