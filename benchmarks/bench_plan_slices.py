@@ -1,6 +1,6 @@
 """Plan-grid FFT work of the corridor (5 ft cells, plan grid at 5, 15, 30 ft): the stage
 slices and the plan settlement with the kernel shared over the load grids (SliceStack,
-the corner function mirrored) against one slice call per load grid with the corner
+the kernel re-centred on the sample, a quarter of it evaluated) against one slice call per load grid with the corner
 function on every node (the path before, but for the kernel now written straight into the
 FFT's zero-padded input), interleaved in one process so both see the same load of a shared
 machine.

@@ -310,8 +310,10 @@ def markdown(ratios, compile_s, commands, far, calibration, startup, headroom, a
         "computes only those, by a convolution on the smallest torus their offsets to the "
         "loaded cells fold onto without aliasing (solve/folded.py, docs/method-engine.md; "
         "864 × 4800 values instead of the 2560 × 5760 of the zero-padded transform); the "
-        "plan slices cover the whole plan grid; per depth one unit-cell kernel (mirrored "
-        "about the sample) and its transform serve every load grid, stages and load states (`benchmarks/bench_plan_slices.py` times them against one slice "
+        "plan slices cover the whole plan grid; per depth one unit-cell kernel (re-centred "
+        "on the sample: its real transform, a type-I DCT of one quarter, "
+        "`benchmarks/bench_slices_centred.py`) serves every load grid, stages and load "
+        "states (`benchmarks/bench_plan_slices.py` times them against one slice "
         "call per load grid).",
         END,
     ]

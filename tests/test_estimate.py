@@ -3,11 +3,10 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-import scipy.fft
 
 from fillstress import CapacityError, InputError, LoadGrid
 from fillstress.solve.cost import (check_capacity, estimate_points, estimate_slices,
-                                 fft_working_bytes, format_bytes, largest_tile)
+                                 fft_length, fft_working_bytes, format_bytes, largest_tile)
 from fillstress.solve.farfield import build_pyramid, pyramid_blocks
 from fillstress.solve.slices import SlicePlan
 
@@ -22,7 +21,25 @@ def test_fft_estimate_covers_the_plan_arrays():
     counted = plan.pressure_hat.nbytes + kernel_spectrum + inverse + 2 * nodes
     assert fft_working_bytes(p.shape, plan.shape_out) >= counted
     # the estimate uses the same padded sizes as the solver
-    assert (scipy.fft.next_fast_len(70 + plan.shape_out[0] - 1, real=True), fx) == (fy, fx)
+    assert (fft_length(70 + plan.shape_out[0] - 1), fft_length(90 + plan.shape_out[1] - 1)) == (fy, fx)
+    assert fy % 2 == fx % 2 == 0 and fy >= 2 * 70 + 2 * 3 and fx >= 2 * 90 + 2 * 5
+
+
+def test_centred_fft_estimate_covers_the_plan_arrays():
+    """On cell centres the kernel's transform is real, a quarter of the lattice."""
+    p = np.ones((3, 70, 90))
+    plan = SlicePlan(p, 1.0, 1.0, pad_cells=(5, 3))
+    assert plan.centred
+    fy, fx = plan.fft_shape
+    spectrum = plan.pressure_hat[0].nbytes
+    quarter = plan.kernel_spectrum(1.0)
+    padded = 8 * fy * fx
+    corners = 8 * (plan.a_nodes.size // 2) * (plan.b_nodes.size // 2)
+    counted = plan.pressure_hat.nbytes + spectrum + padded + 2 * quarter.nbytes + corners
+    assert quarter.shape == (fy // 2 + 1, fx // 2 + 1) and quarter.dtype == float
+    assert fft_working_bytes(p.shape[1:], plan.shape_out, 3, centred=True) >= counted
+    assert (fft_working_bytes(p.shape[1:], plan.shape_out, 3, centred=True)
+            < fft_working_bytes(p.shape[1:], plan.shape_out, 3))
 
 
 def test_slice_estimate_counts_the_output():

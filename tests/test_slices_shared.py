@@ -257,7 +257,9 @@ def test_stack_estimate_covers_what_the_stack_holds(site):
     out = stack.slices(plan.depths, run_plan.plan_window(site, plan))
     held = stack.plan.pressure_hat.nbytes + sum(da.nbytes for da in out[:2])   # 2 distinct
     fy, fx = stack.plan.fft_shape
-    working = 2 * 16 * fy * (fx // 2 + 1) + 8 * fy * fx   # kernel spectrum, product, inverse
+    assert stack.plan.centred         # a product spectrum, the padded pressure (one load at
+    working = (16 * fy * (fx // 2 + 1) + 8 * fy * fx       # a time), the kernel's real
+               + 8 * (fy // 2 + 1) * (fx // 2 + 1))        # transform (a quarter)
     est = run_plan._stack_estimate(site, plan, len(plan.depths), 2, 2)
     assert est.bytes >= held + working
     # the output counted is the plan grid's, not the whole lattice's

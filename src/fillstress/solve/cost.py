@@ -89,21 +89,35 @@ def _fft_seconds(n: int) -> float:
     return 5.0 * n * math.log2(max(n, 2)) / FFT_FLOPS_PER_SECOND
 
 
-def _fast_len(n: int) -> int:
-    """scipy.fft.next_fast_len of a real transform; scipy.fft is loaded on first use
-    (reading a site needs none)."""
+def fft_length(n: int) -> int:
+    """The slices' transform length for a kernel of n cells: the shortest even fast length
+    of a real transform (scipy.fft.next_fast_len) >= n.  Even, because a kernel even about
+    its centre then transforms as a type-I DCT of its half (solve.slices); scipy.fft is
+    loaded on first use (reading a site needs none).
+
+    Examples
+    --------
+    >>> fft_length(74), fft_length(75), fft_length(1)
+    (80, 80, 2)
+    """
     from scipy.fft import next_fast_len
-    return next_fast_len(n, real=True)
+    length = next_fast_len(n, real=True)
+    while length % 2:
+        length = next_fast_len(length + 1, real=True)
+    return length
 
 
-def fft_working_bytes(tile_shape, out_shape, loads: int = 1) -> int:
+def fft_working_bytes(tile_shape, out_shape, loads: int = 1, centred: bool = False) -> int:
     """Peak bytes of one exact FFT slice of a (ny, nx) load array onto an (my, mx) lattice.
 
     Counts the pressure spectrum of each of `loads` loads sharing the kernel (a
     :class:`~fillstress.solve.slices.SlicePlan` of a stack of loads keeps them all), the
     node corner array and the unit-cell kernel, the kernel spectrum, a product spectrum
     (more than one load: the kernel spectrum is kept for the next), a transform
-    temporary and the inverse transform.
+    temporary and the inverse transform.  `centred` (samples on the cell centres,
+    ``SlicePlan.centred``): one product spectrum (or, making the pressure spectra, the
+    transform's output), the padded pressure or the inverse transform, a quarter of the
+    corner array, the kernel quarter and its real transform (in place).
 
     Examples
     --------
@@ -111,14 +125,20 @@ def fft_working_bytes(tile_shape, out_shape, loads: int = 1) -> int:
     True
     >>> fft_working_bytes((100, 100), (100, 100), loads=3) > fft_working_bytes((100, 100), (100, 100))
     True
+    >>> fft_working_bytes((100, 100), (100, 100), centred=True) < fft_working_bytes((100, 100), (100, 100))
+    True
     """
     ny, nx = _shape(tile_shape, "tile_shape")
     my, mx = _shape(out_shape, "out_shape")
     loads = whole_number(loads, "loads", minimum=1)
-    fy = _fast_len(ny + my - 1)
-    fx = _fast_len(nx + mx - 1)
+    fy = fft_length(ny + my - 1)
+    fx = fft_length(nx + mx - 1)
     spectrum = _COMPLEX * fy * (fx // 2 + 1)
     real = _FLOAT * fy * fx
+    if centred:
+        quarter = _FLOAT * (fy // 2 + 1) * (fx // 2 + 1)
+        corners = _FLOAT * ((ny + my + 1) // 2) * ((nx + mx + 1) // 2)
+        return (loads + 1) * spectrum + real + 2 * quarter + corners
     nodes = _FLOAT * (ny + my) * (nx + mx)
     return (loads + 2 + (loads > 1)) * spectrum + 2 * real + 2 * nodes
 
@@ -177,9 +197,9 @@ def estimate_slices(shape, n_depths: int, *, pad_cells=(0, 0), tile=None, offset
         transforms = loads if transforms is None else whole_number(transforms, "transforms")
         samples = my * mx if kept is None else whole_number(kept, "kept")
         output = _FLOAT * loads * n_depths * samples
-        work = fft_working_bytes((ny, nx), (my, mx), loads)
-        fy = _fast_len(ny + my - 1)
-        fx = _fast_len(nx + mx - 1)
+        work = fft_working_bytes((ny, nx), (my, mx), loads, centred=offset == (0.0, 0.0))
+        fy = fft_length(ny + my - 1)
+        fx = fft_length(nx + mx - 1)
         ox, oy = offset
         # each depth also evaluates the corner function on the (ny+my) × (nx+mx) nodes
         corners = (_evaluated_corners(ny + my, oy == 0.0)
@@ -193,8 +213,8 @@ def estimate_slices(shape, n_depths: int, *, pad_cells=(0, 0), tile=None, offset
     output = _FLOAT * n_depths * my * mx
     ty, tx = _shape(tile, "tile")
     pairs = math.ceil(ny / ty) * math.ceil(nx / tx) * math.ceil(my / ty) * math.ceil(mx / tx)
-    fy = _fast_len(2 * ty - 1)
-    fx = _fast_len(2 * tx - 1)
+    fy = fft_length(2 * ty - 1)
+    fx = fft_length(2 * tx - 1)
     work = fft_working_bytes((ty, tx), (ty, tx)) + _FLOAT * n_depths * ty * tx
     seconds = pairs * ((1 + 2 * n_depths) * _fft_seconds(fy * fx)
                        + n_depths * 4 * ty * tx / CORNERS_PER_SECOND)

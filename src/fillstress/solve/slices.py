@@ -10,6 +10,10 @@ with the closed-form corner function (G is the 2-D second difference of F on the
 node lattice).  That discrete sum is a linear convolution, which the FFT computes
 exactly up to round-off once both arrays are zero-padded to at least the kernel
 length (no wrap-around reaches the samples kept).  Nothing is truncated or fitted.
+
+On cell centres G is even about its centre cell; re-centred on the sample its transform
+is real, the type-I DCT of one quarter of it (:meth:`SlicePlan.kernel_spectrum`), and the
+pressure placed at the centre cell keeps the samples where they were.
 """
 from __future__ import annotations
 
@@ -26,6 +30,7 @@ from ..kernels import resolve_method
 from ..kernels.corner import INV_2PI, corner_sum, cross_ratio, inverse_depth
 from .._validate import whole_pair
 from ._checks import checked_grid, fft_workers, offset_pair
+from .cost import fft_length
 
 
 @numba.njit(parallel=True, cache=True)
@@ -61,6 +66,13 @@ def _mirrored(corner, node_j, node_i, nb, na):
     return sign * corner[row, col]
 
 
+@numba.njit(cache=True)
+def _second_difference(corner, j, i, nb, na):
+    """G[j, i] from the corner function's evaluated part (:func:`_mirrored`)."""
+    return (_mirrored(corner, j + 1, i + 1, nb, na) - _mirrored(corner, j + 1, i, nb, na)
+            - _mirrored(corner, j, i + 1, nb, na) + _mirrored(corner, j, i, nb, na))
+
+
 @numba.njit(parallel=True, cache=True)
 def _unit_cell_kernel(a_nodes, b_nodes, z, depth_scale, second_term, a_paired, b_paired,
                       rows, cols):
@@ -86,16 +98,46 @@ def _unit_cell_kernel(a_nodes, b_nodes, z, depth_scale, second_term, a_paired, b
     cell = np.zeros((rows, cols))
     for j in numba.prange(mb_eval):
         for i in range(ma_eval):
-            cell[j, i] = (_mirrored(corner, j + 1, i + 1, nb, na)
-                          - _mirrored(corner, j + 1, i, nb, na)
-                          - _mirrored(corner, j, i + 1, nb, na)
-                          + _mirrored(corner, j, i, nb, na))
+            cell[j, i] = _second_difference(corner, j, i, nb, na)
         for i in range(ma - ma_eval):
             cell[j, ma - 1 - i] = cell[j, i]
     for j in numba.prange(mb - mb_eval):
         for i in range(ma):
             cell[mb - 1 - j, i] = cell[j, i]
     return cell
+
+
+@numba.njit(parallel=True, cache=True)
+def _centred_kernel(a_nodes, b_nodes, z, depth_scale, second_term, rows, cols):
+    """The unit-cell kernel of ± paired nodes on both axes, re-centred on the sample:
+    ``Q[t, s] = G[cb + t, ca + s]`` at the cell offsets t, s >= 0 (G is even about its
+    centre cell (cb, ca), so this quarter is all of it), zero beyond up to `rows` × `cols`.
+    The floats are those of :func:`_unit_cell_kernel` (the same evaluated half)."""
+    z = abs(z)
+    c = depth_scale * z
+    inv_c = inverse_depth(c)
+    na, nb = a_nodes.size, b_nodes.size
+    corner = _corners(a_nodes, b_nodes, z, c, inv_c, second_term, (na + 1) // 2, (nb + 1) // 2)
+    ca, cb = (na - 2) // 2, (nb - 2) // 2     # kernel lengths na − 1 = 2·ca + 1, nb − 1
+    quarter = np.zeros((rows, cols))
+    for t in numba.prange(cb + 1):
+        j = cb - np.intp(t)          # signed: a prange index may come unsigned
+        for s in range(ca + 1):
+            quarter[t, s] = _second_difference(corner, j, ca - s, nb, na)
+    return quarter
+
+
+@numba.njit(parallel=True, cache=True)
+def _times_even(spectrum, even, out):
+    """``out[k] = spectrum[k] · R[k]`` for a real R even along axis 0 (R[L − k] = R[k],
+    L = spectrum.shape[0]), given by its rows 0 … L/2 (`even`)."""
+    rows, cols = spectrum.shape
+    for k in numba.prange(rows):
+        r = np.intp(k) if k < even.shape[0] else rows - np.intp(k)
+        for i in range(cols):
+            v = spectrum[k, i]
+            w = even[r, i]
+            out[k, i] = complex(v.real * w, v.imag * w)
 
 
 def paired_nodes(nodes: np.ndarray) -> bool:
@@ -131,7 +173,8 @@ def distinct_loads(pressures) -> tuple[list, list[int]]:
 
 class SlicePlan:
     """Everything about a slice that does not depend on depth: the pressure spectrum,
-    FFT sizes and node offsets.  Build one plan and call :meth:`at_depth` per depth.
+    FFT sizes and node offsets.  Build one plan and call :meth:`at_depth` per depth (or
+    :meth:`at_depths` for several).
 
     The sample lattice has ``ny + 2·pad_y`` rows and ``nx + 2·pad_x`` columns; sample
     (l, k) sits at ``((k − pad_x + 0.5)·dx + ox, (l − pad_y + 0.5)·dy + oy)`` relative to
@@ -164,43 +207,76 @@ class SlicePlan:
         self.shape_out = (ny + 2 * pad_y, nx + 2 * pad_x)
         my, mx = self.shape_out
         # kernel length nx + mx - 1; an FFT at least that long keeps wrap-around off the samples
-        self.fft_shape = (scipy.fft.next_fast_len(ny + my - 1, real=True),
-                          scipy.fft.next_fast_len(nx + mx - 1, real=True))
+        self.fft_shape = (fft_length(ny + my - 1), fft_length(nx + mx - 1))
         self.workers = workers = fft_workers(workers, size=math.prod(self.fft_shape))
-        self.pressure_hat = scipy.fft.rfftn(pressure, s=self.fft_shape, axes=(-2, -1),
-                                            workers=workers)
         # node offsets from the sample, listed in decreasing order so that the second
         # difference of F is directly the convolution kernel (no flip needed)
         self.a_nodes = (pad_x + nx - 0.5 - np.arange(nx + mx)) * dx - offset[0]
         self.b_nodes = (pad_y + ny - 0.5 - np.arange(ny + my)) * dy - offset[1]
         self.paired = (paired_nodes(self.a_nodes), paired_nodes(self.b_nodes))
+        # paired on both axes, the kernel is even about its centre cell (ny + pad_y − 1,
+        # nx + pad_x − 1): re-centred on index 0 its transform is real (kernel_spectrum),
+        # and the pressure placed that many cells later keeps the samples where they were
+        self.centred = all(self.paired)
+        shift = (ny + pad_y - 1, nx + pad_x - 1) if self.centred else (0, 0)
+        self.pressure_hat = _padded_spectrum(pressure, shift, self.fft_shape, workers)
 
     def kernel_spectrum(self, depth: float) -> np.ndarray:
-        """The transform of the unit-cell kernel at one depth (m, >= 0)."""
+        """The transform of the unit-cell kernel at one depth (m, >= 0): complex, in the
+        layout of :attr:`pressure_hat`; for a :attr:`centred` plan real, the transform of
+        the re-centred kernel on rows 0 … fy/2 (the rest mirror them: row fy − k is row k).
+
+        The re-centred kernel is real and even about index 0 on both axes, so its
+        transform is the type-I DCT of its quarter at offsets 0 … f/2 (zero beyond the
+        kernel: f is even and longer than it): a quarter of the kernel evaluated and
+        transformed, none of it mirrored."""
         depth = finite(depth, "depth")
         if depth < 0:
             raise InputError(f"must be >= 0 below the ground surface, got {depth!r}",
                              argument="depth")
+        fy, fx = self.fft_shape
+        if self.centred:
+            quarter = _centred_kernel(self.a_nodes, self.b_nodes, depth, self.spec.depth_scale,
+                                      self.spec.second_term, fy // 2 + 1, fx // 2 + 1)
+            return scipy.fft.dctn(quarter, type=1, overwrite_x=True, workers=self.workers)
         kernel = _unit_cell_kernel(self.a_nodes, self.b_nodes, depth, self.spec.depth_scale,
-                                   self.spec.second_term, *self.paired, *self.fft_shape)
+                                   self.spec.second_term, *self.paired, fy, fx)
         return scipy.fft.rfftn(kernel, workers=self.workers)
 
     def at_depth(self, depth: float, window=(slice(None), slice(None))) -> np.ndarray:
         """Δσz (kPa) on the sample lattice at one depth (m, >= 0): shape (my, mx), or
         (E, my, mx) for a stack of loads; `window` (rows, columns of the lattice, slices)
         keeps part of it."""
-        spectrum = self.kernel_spectrum(depth)
-        loads = self.pressure_hat.reshape((-1,) + spectrum.shape)
-        out = None
-        for e, load in enumerate(loads):
-            # the last load multiplies in place: one spectrum fewer for a single load
-            last = e == len(loads) - 1
-            kept = self._inverse(np.multiply(spectrum, load, out=spectrum if last else None),
-                                 window)
-            if out is None:
-                out = np.empty((len(loads),) + kept.shape)
-            out[e] = kept
-            del kept
+        return self.at_depths([depth], window)[..., 0, :, :]
+
+    def at_depths(self, depths, window=(slice(None), slice(None))) -> np.ndarray:
+        """Δσz (kPa) at each of `depths` (m, >= 0), cut to `window` as :meth:`at_depth`:
+        shape (K, my, mx), or (E, K, my, mx) for a stack of loads.  One product array
+        serves every depth and load (a fresh array of that size costs its page faults).
+
+        Examples
+        --------
+        >>> SlicePlan(np.ones((3, 2, 2)), 1.0, 1.0).at_depths([0.0, 1.0, 2.0]).shape
+        (3, 3, 2, 2)
+        """
+        loads = self.pressure_hat.reshape((-1,) + self.pressure_hat.shape[-2:])
+        rows, cols = (np.arange(n)[cut] for n, cut in zip(self.shape_out, window))
+        out = np.empty((len(loads), len(depths), rows.size, cols.size))
+        # a single load of a full kernel spectrum multiplies that in place
+        alone = len(loads) == 1 and not self.centred
+        product = None
+        for k, depth in enumerate(depths):
+            spectrum = self.kernel_spectrum(depth)
+            if alone:
+                product = spectrum
+            elif product is None:
+                product = np.empty_like(loads[0])
+            for e, load in enumerate(loads):
+                if self.centred:
+                    _times_even(load, spectrum, product)
+                else:
+                    np.multiply(spectrum, load, out=product)
+                out[e, k] = self._inverse(product, window)
         return out if self.pressure_hat.ndim == 3 else out[0]
 
     def _inverse(self, product: np.ndarray, window) -> np.ndarray:
@@ -214,6 +290,19 @@ class SlicePlan:
         kept = along_y[ny - 1:ny - 1 + my][rows]
         full = scipy.fft.irfft(kept, n=self.fft_shape[1], axis=1, workers=self.workers)
         return full[:, nx - 1:nx - 1 + mx][:, cols]
+
+
+def _padded_spectrum(pressure, shift, fft_shape, workers) -> np.ndarray:
+    """rfft over the last two axes of `pressure` placed `shift` (rows, columns) into zeros
+    of `fft_shape`, one load at a time through one padded array."""
+    (sy, sx), (ny, nx) = shift, pressure.shape[-2:]
+    loads = pressure.reshape((-1, ny, nx))
+    placed = np.zeros(fft_shape)
+    spectra = np.empty((len(loads), fft_shape[0], fft_shape[1] // 2 + 1), dtype=complex)
+    for e, load in enumerate(loads):
+        placed[sy:sy + ny, sx:sx + nx] = load
+        spectra[e] = scipy.fft.rfft2(placed, workers=workers)
+    return spectra.reshape(pressure.shape[:-2] + spectra.shape[1:])
 
 
 def slice_at_depth(pressure, dx, dy, depth, method="boussinesq", poisson=None, *,
@@ -301,10 +390,7 @@ def stress_slices(grid, depths, method="boussinesq", poisson=None, *, offset=(0.
     grid, frame = slice_setup(grid, depths, method, poisson, offset=offset, pad=pad)
     plan = SlicePlan(grid.pressure, grid.dx, grid.dy, method, poisson, offset=frame["offset"],
                      pad_cells=frame["pad_cells"], workers=workers)
-    values = np.empty((frame["depth"].size,) + plan.shape_out)
-    for k, depth in enumerate(frame["depth"]):
-        values[k] = plan.at_depth(depth)
-    return slice_array(values, frame)
+    return slice_array(plan.at_depths(frame["depth"]), frame)
 
 
 class SliceStack:
@@ -348,9 +434,7 @@ class SliceStack:
         z = depths_array(depths)
         rows, cols = window
         frame = {**self.frame, "depth": z, "y": self.frame["y"][rows], "x": self.frame["x"][cols]}
-        values = np.empty((len(self.plan.pressure_hat), z.size, frame["y"].size, frame["x"].size))
-        for k, depth in enumerate(z):
-            values[:, k] = self.plan.at_depth(depth, window)
+        values = self.plan.at_depths(z, window)
         return [slice_array(values[e], frame) for e in self.index]
 
 
