@@ -36,8 +36,8 @@ def assert_same_layer(got: Layer, want: Layer):
     assert got.crs == want.crs
 
 
-def write(tmp_path, features, name="layer.geojson", **top) -> Path:
-    path = tmp_path / name
+def write(tmp_path, features, filename="layer.geojson", **top) -> Path:
+    path = tmp_path / filename
     path.write_text(json.dumps({"type": "FeatureCollection", **top, "features": [
         {"type": "Feature", "properties": props, "geometry": geom}
         for props, geom in features]}), encoding="utf-8")
@@ -71,6 +71,8 @@ READ_LIGHT = {
          ({"id": "p"}, {"type": "Point", "coordinates": [512380.125, 5763470.5]}),
          ({"id": "mp"}, {"type": "MultiPoint", "coordinates": [[1, 2], [3, 4]]})], {}),
     "text that is no date": ([({"id": "BH-K1", "note": "1.5 m of fill"}, polygon())], {}),
+    "whole-number ids": ([({"id": 12, "h": 1.5}, polygon()), ({"id": 7, "h": 2}, polygon())],
+                         {"name": "pads"}),
 }
 
 
@@ -95,6 +97,7 @@ DECLINED = {   # GDAL types or reads these its own way: left to geopandas
     "3-D vertices": [({"id": "a"}, polygon([[[0, 0, 1], [0, 2, 1], [3, 2, 2], [0, 0, 1]]]))],
     "a null geometry": [({"id": "a"}, None)],
     "a collection": [({"id": "a"}, {"type": "GeometryCollection", "geometries": []})],
+    "a field named geometry": [({"id": "a", "geometry": "x"}, polygon())],
 }
 
 
@@ -134,6 +137,9 @@ WRONG = {
     "not json": ("pads.geojson", "{ this is not GeoJSON"),
     "json, no GeoJSON": ("pads.geojson", "[1, 2, 3]"),
     "empty": ("pads.json", ""),
+    "an open ring": ("pads.geojson", json.dumps({"type": "FeatureCollection", "features": [
+        {"type": "Feature", "properties": {"id": "a"},
+         "geometry": {"type": "Polygon", "coordinates": [[[0, 0], [0, 2], [3, 2], [3, 0]]]}}]})),
 }
 
 

@@ -204,7 +204,7 @@ def geojson_layer(path: Path) -> Layer | None:
                and isinstance(f["properties"], dict) for f in features):
         return None
     names = list(features[0]["properties"])
-    if "" in names or any(list(f["properties"]) != names for f in features):
+    if {"", "geometry"} & set(names) or any(list(f["properties"]) != names for f in features):
         return None
     fields = {n: _geojson_field([f["properties"][n] for f in features]) for n in names}
     geoms = [_geojson_geometry(f["geometry"]) for f in features]
@@ -230,14 +230,14 @@ def _geojson_crs(member) -> pyproj.CRS | None:
 
 
 def _geojson_field(values: list) -> np.ndarray | None:
-    """An attribute's values as GDAL types them (text, int32, int64, float64), or None."""
+    """An attribute's values as GDAL types them (text, int32, float64), or None."""
     if all(isinstance(v, str) for v in values):
         if any(_DATE_LIKE.match(v) for v in values):
             return None
         return _objects(values)
     if not all(type(v) in (int, float) for v in values):
         return None
-    if all(type(v) is int for v in values):     # GDAL: int64 past int32 (not read here)
+    if all(type(v) is int for v in values):     # GDAL: int64 past int32 (left to it)
         return np.array(values, dtype=np.int32) if max(map(abs, values)) < 2**31 - 1 else None
     if not all(math.isfinite(v) and abs(v) < 2**53 for v in values):
         return None
