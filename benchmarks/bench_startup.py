@@ -6,8 +6,9 @@
                                          # also whole `fillstress run`s of the sample sites
 
 Each command runs in a fresh process (numba cache warm: every tree runs once before
-timing), `--repeat` times, the trees alternating so both see the same load; the best
-time is reported, with its multiple of a bare `python -c pass` measured alongside.
+timing), `--repeat` times, the trees alternating so both see the same load; the median
+and the best time are reported, with the median's multiple of a bare `python -c pass`
+measured alongside.
 `--before REF` unpacks `src/` and `sample_sites/` of that commit (git archive) into a
 temporary folder; each tree runs on its own copy of the sample site (the site file keys
 change with the trees).
@@ -16,6 +17,7 @@ from __future__ import annotations
 
 import argparse
 import os
+import statistics
 import subprocess
 import sys
 import tempfile
@@ -66,31 +68,33 @@ def measure(trees: dict[str, Path], repeat: int, commands: dict = COMMANDS) -> d
         for job in jobs:
             if job.startswith(("`fillstress point`", "`fillstress run`")):
                 wall(jobs[job], src)
-    best = {(job, tree): float("inf") for job in jobs for tree in trees}
+    times = {(job, tree): [] for job in jobs for tree in trees}
     for _ in range(repeat):
         for job, args in jobs.items():
             for tree, src in trees.items():
-                best[job, tree] = min(best[job, tree], wall(args, src))
-    return best
+                times[job, tree].append(wall(args, src))
+    return times
 
 
 def markdown(before: str | None, repeat: int, runs: bool = False) -> tuple[list[str], dict]:
-    """The Markdown table and the best times {(job, tree): seconds}."""
+    """The Markdown table and the median times {(job, tree): seconds}."""
     with tempfile.TemporaryDirectory() as tmp:
         trees = {"this tree": ROOT}
         if before:
             trees = {f"before ({before})": unpack(before, Path(tmp)), **trees}
         commands = {**COMMANDS, **(run_commands(Path(tmp) / "runs") if runs else {})}
         load = os.getloadavg()[0]
-        best = measure(trees, repeat, commands)
-    bare = {tree: best["bare `python -c pass`", tree] for tree in trees}
-    lines = [f"Best of {repeat} runs; load average {load:.1f} before, "
+        times = measure(trees, repeat, commands)
+    median = {key: statistics.median(t) for key, t in times.items()}
+    bare = {tree: median["bare `python -c pass`", tree] for tree in trees}
+    lines = [f"Median (best) of {repeat} runs; load average {load:.1f} before, "
              f"{os.getloadavg()[0]:.1f} after (1 min).", "",
              "| command | " + " | ".join(trees) + " |", "|---|" + "---|" * len(trees)]
-    for job in dict.fromkeys(j for j, _ in best):
-        cells = [f"{best[job, t]:.2f} s ({best[job, t] / bare[t]:.1f}x bare)" for t in trees]
+    for job in dict.fromkeys(j for j, _ in times):
+        cells = [f"{median[job, t]:.2f} s ({min(times[job, t]):.2f}; "
+                 f"{median[job, t] / bare[t]:.1f}x bare)" for t in trees]
         lines.append(f"| {job} | " + " | ".join(cells) + " |")
-    return lines, best
+    return lines, median
 
 
 def main(argv=None) -> None:

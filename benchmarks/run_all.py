@@ -287,17 +287,19 @@ def markdown(ratios, compile_s, commands, far, calibration, startup, headroom, a
         "- Numba first compile: every kernel a run may use is compiled on first call "
         "(`cache=True` keeps them afterwards); the figure was taken at the load shown above "
         "and scales with it.",
-        "- `fillstress point`: it loads neither the writers, report, viewer and geopandas nor "
-        "numba (a handful of points is summed by numpy, solve/nodes.py). It still takes "
+        "- `fillstress point`: it loads neither the writers, report, viewer, pandas and "
+        "geopandas nor numba (a handful of points is summed by numpy, solve/nodes.py; the "
+        "site is built without its receptor tables, its GeoJSON inputs read by json and "
+        "shapely, io/vectors.read_layer). It takes "
         f"{point_s:.2f} s, and its imports alone took {imports_s:.2f} s in the same run "
-        "(each row is the best of a few runs, so the two are comparable, not additive): "
-        "the site is built as for a run, with pandas tables of its receptors (about "
-        "0.15 s of imports), pyproj and shapely, and the console loads rich. A site reader "
-        "for `point` without the receptor tables is not built.",
+        "(each row is the median of a few runs, so the two are comparable, not additive): "
+        "numpy, pyproj and shapely for the site, and rich for the console.",
         "- Whole runs: the steps are in the table above (`--timings`). Beyond the "
         "computing, a run pays its start-up imports (numpy, scipy, pandas, numba, pyproj, "
         "shapely, xarray, rich: about 2 s) and the writing of the folder (tables, rasters, "
-        "cube, report figures and scene).",
+        "cube, report figures and scene). With the `dask` extra installed xarray loads "
+        "dask.array at its first DataArray and its NetCDF writer loads dask.distributed, "
+        "in a serial run too (about 0.3 s and 0.1 s).",
         "- The corridor: `benchmarks/bench_corridor.py` builds the site and runs it (`--heavy` "
         "for 5 ft cells and a plan grid, `--both`). The settlement columns, the alignment and "
         "the convergence check prepare each load grid once for all their calls "

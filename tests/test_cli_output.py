@@ -123,14 +123,30 @@ def test_point_at_one_point_loads_no_compiler(site):
 
 def test_point_on_a_site_with_uncertainty_loads_no_solver_library():
     """The stockpile sample has [uncertainty]: its samples (scipy.stats) are drawn by a
-    run, not by `fillstress point`, which needs no root finder, triangulation or FFT."""
+    run, not by `fillstress point`, which needs no root finder, triangulation or FFT; its
+    piles and warehouse are GeoJSON, read without pandas and GDAL; and no Dask."""
     src = str(Path(__file__).resolve().parents[1] / "src")
     site = Path(__file__).resolve().parents[1] / "sample_sites" / "stockpile_yard" / "site.toml"
     code = ("import sys; sys.path.insert(0, %r); from fillstress.cli import main\n"
             "assert main(['point', '-q', %r, '512380', '5763470', '3.5']) == 0\n"
             "print(sorted(m for m in %r if m in sys.modules))"
             % (src, str(site), ("numba", "scipy.stats", "scipy.optimize", "scipy.spatial",
-                                "scipy.fft", "matplotlib", "xarray")))
+                                "scipy.fft", "matplotlib", "xarray", "pandas", "geopandas",
+                                "pyogrio", "dask", "distributed")))
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                         check=True).stdout
+    assert out.strip().splitlines()[-1] == "[]"
+
+
+def test_serial_run_loads_no_distributed(site, tmp_path):
+    """Without --workers or --scheduler no Dask client is made, nor distributed loaded
+    (the NetCDF cube is off here: xarray's to_netcdf itself asks for dask.distributed)."""
+    src = str(Path(__file__).resolve().parents[1] / "src")
+    site.write_text(SITE + "\n[outputs]\nnetcdf = false\n", encoding="utf-8")
+    code = ("import sys; sys.path.insert(0, %r); from fillstress.cli import main\n"
+            "assert main(['run', '-q', '--no-report', %r, '-o', %r]) == 0\n"
+            "print(sorted(m for m in ('distributed',) if m in sys.modules))"
+            % (src, str(site), str(tmp_path / "out")))
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
                          check=True).stdout
     assert out.strip().splitlines()[-1] == "[]"

@@ -16,7 +16,6 @@ from dataclasses import dataclass
 from typing import Callable
 
 import numpy as np
-from scipy.optimize import brentq
 
 from .._validate import finite, finite_array, positive, whole_number
 from ..errors import InputError
@@ -91,6 +90,7 @@ def scale_at_limit(max_utilisation: Callable[[float], float], *, start: float = 
         lo, hi = hi, 2.0 * hi
     else:
         return ScaleAtLimit(math.inf, at_hi + 1.0, count[0], (0.0, lo), rtol, False)
+    from scipy.optimize import brentq     # slow to load; only a settlement limit needs it
     s = hi if at_hi == 0 else brentq(excess, lo, hi, xtol=1e-300, rtol=max(rtol, 4e-16))
     return ScaleAtLimit(float(s), excess(s) + 1.0, count[0], (lo, hi), rtol, True)
 

@@ -12,8 +12,12 @@ for fill outlines, footprints and receptors alike, with one policy:
 """
 from __future__ import annotations
 
+import json
+import math
 import os
+import re
 from pathlib import Path
+from typing import NamedTuple
 
 import numpy as np
 import pyproj
@@ -23,7 +27,7 @@ from .. import crs as crsmod
 from ..errors import InputError
 
 # geopandas (GDAL) is imported inside the functions that use it: it is slow to load and
-# most commands never need it.
+# most commands never need it (pyogrio loads pandas and geopandas with itself).
 
 def source_name(source, what: str = "features") -> str:
     """How messages name a vector source: its path, or ``the <what> GeoDataFrame`` for
@@ -88,10 +92,15 @@ def read_vector(path, geometry: str, *, parts: bool = True, layer=None, what: st
         except Exception as exc:  # pyogrio and fiona raise several types for unreadable data
             raise InputError(f"cannot be read as a vector layer "
                              f"({str(exc).splitlines()[0]})", file=path) from None
-    if len(frame) == 0:
+    _check_features(frame.geometry.values, geometry, parts, path, what)
+    return frame
+
+
+def _check_features(geoms, geometry: str, parts: bool, path, what: str) -> None:
+    if len(geoms) == 0:
         raise InputError(f"the layer has no features; expected {what}", file=path)
     allowed = {geometry, "Multi" + geometry} if parts else {geometry}
-    for k, geom in enumerate(frame.geometry.values):
+    for k, geom in enumerate(geoms):
         if geom is None or geom.is_empty:
             raise InputError(f"feature {k} has no geometry", file=path)
         if geom.geom_type not in allowed:
@@ -100,7 +109,165 @@ def read_vector(path, geometry: str, *, parts: bool = True, layer=None, what: st
         if geometry == "Polygon" and not shapely.is_valid(geom):
             raise InputError(f"feature {k} is not a valid polygon "
                              f"({shapely.is_valid_reason(geom)})", file=path)
-    return frame
+
+
+class Layer(NamedTuple):
+    """A vector layer as read, without pandas: the features' geometries (object array),
+    their attributes by name (arrays in feature order) and the layer's own CRS (or None).
+    """
+
+    geometry: np.ndarray
+    fields: dict[str, np.ndarray]
+    crs: pyproj.CRS | None
+
+    @classmethod
+    def of_frame(cls, frame) -> Layer:
+        """The layer of a GeoDataFrame (its attribute columns as numpy arrays)."""
+        name = frame.geometry.name
+        return cls(np.asarray(frame.geometry.values, dtype=object),
+                   {c: frame[c].to_numpy() for c in frame.columns if c != name}, frame.crs)
+
+    @property
+    def columns(self) -> list[str]:
+        return list(self.fields)
+
+    @property
+    def total_bounds(self) -> np.ndarray:
+        return shapely.total_bounds(self.geometry)
+
+    def __len__(self) -> int:
+        return len(self.geometry)
+
+    def __getitem__(self, name: str) -> np.ndarray:
+        return self.fields[name]
+
+    def take(self, rows) -> Layer:
+        """The features at positions `rows`."""
+        return Layer(self.geometry[rows], {c: v[rows] for c, v in self.fields.items()},
+                     self.crs)
+
+
+def read_layer(path, geometry: str, *, parts: bool = True, what: str = "features") -> Layer:
+    """:func:`read_vector` of a file, as a :class:`Layer`: the same features, attributes,
+    CRS and errors, without loading pandas where the file is GeoJSON that
+    :func:`geojson_layer` reads as GDAL does (anything else goes through geopandas).
+
+    Examples
+    --------
+    >>> import json, tempfile, os
+    >>> f = os.path.join(tempfile.mkdtemp(), "pads.geojson")
+    >>> square = {"type": "Polygon", "coordinates": [[[0, 0], [4, 0], [4, 2], [0, 0]]]}
+    >>> with open(f, "w") as out:
+    ...     json.dump({"type": "FeatureCollection", "features": [{"type": "Feature",
+    ...                "properties": {"id": "a"}, "geometry": square}]}, out)
+    >>> pads = read_layer(f, "Polygon")
+    >>> pads.geometry[0].area, pads["id"].tolist(), pads.crs.to_epsg()
+    (4.0, ['a'], 4326)
+    """
+    path = _read_path(path)
+    layer = geojson_layer(path)
+    if layer is None:
+        return Layer.of_frame(read_vector(path, geometry, parts=parts, what=what))
+    _check_features(layer.geometry, geometry, parts, path, what)
+    return layer
+
+
+# GeoJSON read by json and shapely where GDAL's GeoJSON driver gives the same layer:
+# text, whole-number and number attributes present in every feature, two-dimensional
+# geometries, a CRS stated by EPSG code or none (GDAL then says EPSG:4326). Strings GDAL
+# may parse as dates or JSON, nulls, booleans, lists and every other case return None.
+_GEOJSON_SUFFIXES = (".geojson", ".json")
+_EPSG_NAME = re.compile(r"(?:EPSG:|urn:ogc:def:crs:EPSG::)(\d+)")
+_DATE_LIKE = re.compile(r"\s*[+-]?\d.*[-/:]|\s*[\[{]")
+_DEPTH = {"Point": 0, "LineString": 1, "Polygon": 2, "MultiPoint": 1, "MultiLineString": 2,
+          "MultiPolygon": 3}
+
+
+def geojson_layer(path: Path) -> Layer | None:
+    """The GeoJSON file at `path` as GDAL reads it, or None where it might read otherwise
+    (or the file is no GeoJSON that json parses)."""
+    if path.suffix.lower() not in _GEOJSON_SUFFIXES:
+        return None
+    try:
+        doc = json.loads(path.read_bytes())
+    except (OSError, ValueError):
+        return None
+    if not (isinstance(doc, dict) and doc.get("type") == "FeatureCollection"
+            and set(doc) <= {"type", "name", "crs", "features"}):
+        return None
+    features = doc["features"]
+    crs = _geojson_crs(doc["crs"]) if "crs" in doc else pyproj.CRS.from_user_input("EPSG:4326")
+    if not (isinstance(features, list) and features and crs is not None):
+        return None
+    if not all(isinstance(f, dict) and f.get("type") == "Feature"
+               and set(f) == {"type", "properties", "geometry"}
+               and isinstance(f["properties"], dict) for f in features):
+        return None
+    names = list(features[0]["properties"])
+    if {"", "geometry"} & set(names) or any(list(f["properties"]) != names for f in features):
+        return None
+    fields = {n: _geojson_field([f["properties"][n] for f in features]) for n in names}
+    geoms = [_geojson_geometry(f["geometry"]) for f in features]
+    if any(v is None for v in fields.values()) or any(g is None for g in geoms):
+        return None
+    return Layer(_objects(geoms), fields, crs)
+
+
+def _objects(items: list) -> np.ndarray:
+    out = np.empty(len(items), dtype=object)
+    out[:] = items
+    return out
+
+
+def _geojson_crs(member) -> pyproj.CRS | None:
+    """The CRS of a ``crs`` member naming an EPSG code, else None."""
+    try:
+        name = member["properties"]["name"] if member["type"] == "name" else None
+        match = _EPSG_NAME.fullmatch(name)
+        return pyproj.CRS.from_user_input(f"EPSG:{match.group(1)}") if match else None
+    except (TypeError, KeyError, pyproj.exceptions.CRSError):
+        return None
+
+
+def _geojson_field(values: list) -> np.ndarray | None:
+    """An attribute's values as GDAL types them (text, int32, float64), or None."""
+    if all(isinstance(v, str) for v in values):
+        if any(_DATE_LIKE.match(v) for v in values):
+            return None
+        return _objects(values)
+    if not all(type(v) in (int, float) for v in values):
+        return None
+    if all(type(v) is int for v in values):     # GDAL: int64 past int32 (left to it)
+        return np.array(values, dtype=np.int32) if max(map(abs, values)) < 2**31 - 1 else None
+    if not all(math.isfinite(v) and abs(v) < 2**53 for v in values):
+        return None
+    return np.array(values, dtype=np.float64)
+
+
+def _geojson_geometry(geom):
+    """The shapely geometry of a GeoJSON geometry object, or None where GDAL might read
+    it otherwise (null, a collection, three dimensions, open rings, too few points)."""
+    if not (isinstance(geom, dict) and set(geom) == {"type", "coordinates"}
+            and geom["type"] in _DEPTH):
+        return None
+    if not _plain_positions(geom["coordinates"], _DEPTH[geom["type"]], geom["type"]):
+        return None
+    return shapely.geometry.shape(geom)
+
+
+def _plain_positions(coords, depth: int, kind: str) -> bool:
+    """Whether `coords` nests [x, y] pairs of numbers `depth` lists deep, LineStrings of two
+    points or more and closed rings of four or more."""
+    if depth == 0:
+        return (isinstance(coords, list) and len(coords) == 2
+                and all(type(c) in (int, float) and math.isfinite(c) for c in coords))
+    if not (isinstance(coords, list) and coords):
+        return False
+    if depth == 1 and kind.endswith("LineString") and len(coords) < 2:
+        return False
+    if depth == 1 and kind.endswith("Polygon") and (len(coords) < 4 or coords[0] != coords[-1]):
+        return False
+    return all(_plain_positions(c, depth - 1, kind) for c in coords)
 
 
 def _read_path(path) -> Path:
@@ -115,20 +282,22 @@ def _read_path(path) -> Path:
 
 
 def select(frame, id_field: str, where, path):
-    """The features of `frame` whose `id_field` equals `where` (all when None)."""
+    """The features of `frame` (a GeoDataFrame or a :class:`Layer`) whose `id_field`
+    equals `where` as text (all when None)."""
     if where is None:
         return frame
     if id_field not in frame.columns:
         raise InputError(f"no attribute {id_field!r} to select {where!r} with; attributes: "
                          f"{', '.join(map(str, frame.columns))}", file=path)
-    frame = frame[frame[id_field].astype(str) == str(where)]
-    if frame.empty:
+    frame = frame.take(np.flatnonzero([str(v) == str(where) for v in frame[id_field]]))
+    if len(frame) == 0:
         raise InputError(f"no feature with {id_field} = {where!r}", file=path)
     return frame
 
 
 def to_site(frame, site_crs, path) -> np.ndarray:
-    """The layer's geometries in internal site metres (object array).
+    """The geometries of `frame` (a GeoDataFrame or a :class:`Layer`) in internal site
+    metres (object array).
 
     `site_crs` is ``(pyproj.CRS, metres per unit)`` from :func:`fillstress.crs.site_crs`,
     or None when the site states no CRS.
@@ -137,7 +306,7 @@ def to_site(frame, site_crs, path) -> np.ndarray:
         raise InputError("the layer states no CRS and neither does the site; add "
                          "crs = \"EPSG:...\" to [site]", file=path)
     # crs.to_site also refuses "degrees" that cannot be (GeoJSON without a crs member)
-    return crsmod.to_site(np.asarray(frame.geometry.values, dtype=object), frame.crs, site_crs,
+    return crsmod.to_site(np.asarray(frame.geometry, dtype=object), frame.crs, site_crs,
                           argument="crs", file=path)
 
 

@@ -28,7 +28,7 @@ from ..errors import InputError
 from ..grid import GridSpec, LoadGrid
 from ..io.footprints import read_footprints
 from ..io.surfaces import read_surface
-from ..io.vectors import read_vector, select, to_site
+from ..io.vectors import read_layer, select, to_site
 from ..shapes import footprints as fp
 from ..shapes.bodies import Body, choose_cell, stage_pressure
 from ..shapes.embankment import embankment_thickness
@@ -687,9 +687,9 @@ def _outline_from(ctx: _Context, raw: dict, where: str, line: bool = False):
     if raw.get("file") is None:
         raise InputError(f"needs {key} = [[x, y], ...] or file = \"...\"",
                          file=ctx.cfg.path, key=where)
-    frame = _read_vector(ctx, raw["file"], raw.get("id_field") or "id", raw.get("where"),
+    geoms = _read_vector(ctx, raw["file"], raw.get("id_field") or "id", raw.get("where"),
                          "LineString" if line else "Polygon")
-    geom = shapely.union_all(frame.geometry.values)
+    geom = shapely.union_all(geoms)
     if line:
         geom = shapely.line_merge(geom)
         if geom.geom_type != "LineString":
@@ -699,8 +699,9 @@ def _outline_from(ctx: _Context, raw: dict, where: str, line: bool = False):
 
 
 def _read_vector(ctx: _Context, path: Path, id_field: str, where, geom_type: str):
-    frame = select(read_vector(path, geom_type, what="fill outlines"), id_field, where, path)
-    return frame.set_geometry(list(_into_site(ctx, frame, path)))
+    """The selected features' geometries in site metres."""
+    layer = select(read_layer(path, geom_type, what="fill outlines"), id_field, where, path)
+    return _into_site(ctx, layer, path)
 
 
 def _into_site(ctx: _Context, frame, path) -> np.ndarray:
@@ -1003,13 +1004,11 @@ def _receptor_items(ctx, table, raw, where) -> list:
         xy = ctx.xy(raw[key])
         geoms = [(raw["id"], LineString(xy) if line else Polygon(xy), {})]
     elif raw.get("file") is not None:
-        def into_site(frame):
-            return frame.set_geometry(list(_into_site(ctx, frame, raw["file"])))
-        frame = rc.read_receptor_layer(
+        layer, ids = rc.receptor_layer(
             raw["file"], RECEPTOR_TABLES[table], id_field=raw["id_field"],
-            required_fields=[raw["depth_field"]] if raw.get("depth_field") else (),
-            to_site_crs=into_site)
-        geoms = [(r["receptor_id"], r.geometry, r) for _, r in frame.iterrows()]
+            required_fields=[raw["depth_field"]] if raw.get("depth_field") else ())
+        geoms = [(rid, geom, {f: v[k] for f, v in layer.fields.items()}) for k, (rid, geom)
+                 in enumerate(zip(ids, _into_site(ctx, layer, raw["file"])))]
     else:
         raise InputError(f"needs {key} = [[x, y], ...] or file = \"...\"",
                          file=ctx.cfg.path, key=where)

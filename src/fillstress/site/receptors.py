@@ -22,7 +22,7 @@ from shapely.geometry import LineString, Point, Polygon
 from .. import crs as crsmod
 from .._validate import depths_array, finite, finite_array, positive
 from ..errors import InputError
-from ..io.vectors import layer_and_site_crs, read_vector, source_name
+from ..io.vectors import Layer, layer_and_site_crs, read_layer, read_vector, source_name
 
 if TYPE_CHECKING:                  # pandas is loaded where the point tables are made
     import pandas as pd
@@ -594,15 +594,9 @@ def read_receptor_layer(path, kind: str, *, id_field: str = "id", required_field
     if _is_series(path) and id_field not in frame.columns:
         frame[id_field] = frame.index.astype(str)
     path = Path(path) if isinstance(path, (str, os.PathLike)) else source_name(path, what)
-    for field in (id_field, *required_fields):
-        _check_field(frame, field, path)
-    ids = frame[id_field].astype(str).str.strip()
-    dup = ids[ids.duplicated()]
-    if len(dup):
-        raise InputError(f"duplicate receptor id {dup.iloc[0]!r}", file=path, key=id_field)
-    crsmod.check_degrees(frame.geometry.values, frame.crs if frame.crs is not None else crs,
-                         file=path)
-    frame = frame.assign(receptor_id=ids.to_numpy())
+    ids = _checked_ids(Layer.of_frame(frame), id_field, required_fields, path,
+                       frame.crs if frame.crs is not None else crs)
+    frame = frame.assign(receptor_id=ids)
     frame = frame[["receptor_id"] + [c for c in frame.columns if c != "receptor_id"]]
     if to_site_crs is not None:
         return to_site_crs(frame)
@@ -614,20 +608,66 @@ def read_receptor_layer(path, kind: str, *, id_field: str = "id", required_field
     return moved.set_crs(crsmod.metric_twin(site[0]), allow_override=True)
 
 
+def receptor_layer(path, kind: str, id_field: str = "id",
+                   required_fields=()) -> tuple[Layer, np.ndarray]:
+    """The receptor file at `path` as a :class:`~fillstress.io.vectors.Layer` (read without
+    pandas where it can be), checked as :func:`read_receptor_layer` checks it, and the
+    receptor ids (text, stripped) in feature order.
+
+    Examples
+    --------
+    >>> import json, tempfile, os
+    >>> f = os.path.join(tempfile.mkdtemp(), "bh.geojson")
+    >>> with open(f, "w") as out:
+    ...     json.dump({"type": "FeatureCollection", "features": [{"type": "Feature",
+    ...                "properties": {"id": " BH1 "},
+    ...                "geometry": {"type": "Point", "coordinates": [1, 2]}}]}, out)
+    >>> layer, ids = receptor_layer(f, "borehole")
+    >>> ids.tolist(), layer.geometry[0].x
+    (['BH1'], 1.0)
+    """
+    layer = read_layer(path, _GEOMETRY[kind], parts=False, what=f"{kind} receptors")
+    return layer, _checked_ids(layer, id_field, required_fields, Path(path), layer.crs)
+
+
+def _checked_ids(layer: Layer, id_field: str, required_fields, path, crs) -> np.ndarray:
+    """The receptor ids of `layer`, after checking its id and required fields and its
+    coordinates against `crs`."""
+    for field in (id_field, *required_fields):
+        _check_field(layer, field, path)
+    ids = np.array([str(v).strip() for v in layer[id_field]], dtype=object)
+    seen: set = set()
+    dup = next((i for i in ids if i in seen or seen.add(i)), None)
+    if dup is not None:
+        raise InputError(f"duplicate receptor id {dup!r}", file=path, key=id_field)
+    crsmod.check_degrees(layer.geometry, crs, file=path)
+    return ids
+
+
 def _is_series(source) -> bool:
     import geopandas as gpd
     return isinstance(source, gpd.GeoSeries)
 
 
-def _check_field(frame, field: str, path: Path) -> None:
-    if field not in frame.columns:
-        have = ", ".join(c for c in frame.columns if c != "geometry") or "none"
+def _check_field(layer: Layer, field: str, path: Path) -> None:
+    if field not in layer.fields:
+        have = ", ".join(c for c in layer.columns if c != "geometry") or "none"
         raise InputError(f"attribute {field!r} is missing (attributes: {have})", file=path,
                          key=field)
-    empty = frame[field].isna() | (frame[field].astype(str).str.strip() == "")
-    if empty.any():
-        raise InputError(f"feature {int(np.flatnonzero(empty)[0])} has no value for "
-                         f"{field!r}", file=path, key=field)
+    empty = [_blank(v) for v in layer[field]]
+    if any(empty):
+        raise InputError(f"feature {empty.index(True)} has no value for {field!r}",
+                         file=path, key=field)
+
+
+def _blank(value) -> bool:
+    """Missing (None, NaN, NaT, pandas.NA) or empty text."""
+    try:
+        if value != value:  # noqa: PLR0124 (NaN and NaT are unequal to themselves)
+            return True
+    except TypeError:                       # pandas.NA has no truth value
+        return True
+    return value is None or str(value).strip() == ""
 
 
 # --- summaries -------------------------------------------------------------------------
