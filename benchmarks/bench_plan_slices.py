@@ -1,9 +1,10 @@
 """Plan-grid FFT work of the corridor (5 ft cells, plan grid at 5, 15, 30 ft): the stage
 slices and the plan settlement with the kernel shared over the load grids (SliceStack,
-the kernel re-centred on the sample, a quarter of it evaluated) against one slice call per load grid with the corner
-function on every node (the path before, but for the kernel now written straight into the
-FFT's zero-padded input), interleaved in one process so both see the same load of a shared
-machine.
+the kernel re-centred on the sample, a quarter of it evaluated; the settlement's analysed
+nodes alone, on a folded torus) against one slice call per load grid over the whole
+padded box with the corner function on every node (the path before, but for the kernel
+now written straight into the FFT's zero-padded input), interleaved in one process so
+both see the same load of a shared machine.
 
     PYTHONPATH=src nice python benchmarks/bench_plan_slices.py [--miles 3.0] [--repeats 2]
 
@@ -36,14 +37,16 @@ from fillstress.solve import slices  # noqa: E402
 
 @contextmanager
 def per_grid():
-    """The path before: every load grid sliced alone, the corner on every node."""
-    saved = compute.shares_kernel, slices.paired_nodes
+    """The path before: every load grid sliced alone over the whole box, the corner on
+    every node."""
+    saved = compute.shares_kernel, slices.paired_nodes, compute.folding_layout
     compute.shares_kernel = lambda *args: False
     slices.paired_nodes = lambda nodes: False
+    compute.folding_layout = lambda *args: None
     try:
         yield
     finally:
-        compute.shares_kernel, slices.paired_nodes = saved
+        compute.shares_kernel, slices.paired_nodes, compute.folding_layout = saved
 
 
 def _clock() -> tuple[float, float]:
