@@ -49,13 +49,14 @@ def per_grid():
         compute.shares_kernel, slices.paired_nodes, compute.folding_layout = saved
 
 
-def _clock() -> tuple[float, float]:
+def clock() -> tuple[float, float]:
+    """(wall, CPU of all threads) seconds now."""
     use = resource.getrusage(resource.RUSAGE_SELF)
     return time.perf_counter(), use.ru_utime + use.ru_stime
 
 
-def _since(start) -> tuple[float, float]:
-    now = _clock()
+def since(start) -> tuple[float, float]:
+    now = clock()
     return now[0] - start[0], now[1] - start[1]
 
 
@@ -63,12 +64,12 @@ def plan_work(site) -> dict:
     """(wall, CPU) seconds and results of the plan slices of every stage and the plan
     settlement."""
     stages = [site.load_grid(k) for k in site.stages]
-    start = _clock()
+    start = clock()
     stack = {p.name: compute._plan_slicer(site, p, stages)(p.depths) for p in site.plan_grids}
-    sliced = _since(start)
-    start = _clock()
+    sliced = since(start)
+    start = clock()
     settled = compute.plan_settlement(site)
-    return {"plan slices": sliced, "plan settlement": _since(start), "stack": stack,
+    return {"plan slices": sliced, "plan settlement": since(start), "stack": stack,
             "settled": settled}
 
 

@@ -18,11 +18,9 @@ from __future__ import annotations
 import argparse
 import importlib.util
 import os
-import resource
 import subprocess
 import sys
 import tempfile
-import time
 from contextlib import contextmanager
 from pathlib import Path
 
@@ -33,6 +31,7 @@ sys.path.insert(0, str(ROOT / "tools"))
 
 from make_corridor_site import write_corridor_site  # noqa: E402
 
+from bench_plan_slices import clock, since  # noqa: E402
 from fillstress.run import compute, plan as run_plan, settle  # noqa: E402
 from fillstress.site.build import load_site  # noqa: E402
 from fillstress.solve import slices  # noqa: E402
@@ -62,16 +61,6 @@ def stack_from(module):
         compute.SliceStack = saved
 
 
-def _clock() -> tuple[float, float]:
-    use = resource.getrusage(resource.RUSAGE_SELF)
-    return time.perf_counter(), use.ru_utime + use.ru_stime
-
-
-def _since(start) -> tuple[float, float]:
-    now = _clock()
-    return now[0] - start[0], now[1] - start[1]
-
-
 def per_depth(site, module) -> tuple[tuple[float, float], list]:
     """(wall, CPU) seconds of one depth of the plan settlement's stack, the mean over
     DEPTHS (the stack made before the clock starts), and the slices."""
@@ -79,18 +68,18 @@ def per_depth(site, module) -> tuple[tuple[float, float], list]:
     stack = module.SliceStack(settle.state_grids(site), site.method, site.poisson,
                               pad=run_plan.plan_pad(site, plan))
     window = run_plan.plan_window(site, plan)
-    start = _clock()
+    start = clock()
     out = [stack.slices([z], window) for z in DEPTHS]
-    wall, cpu = _since(start)
+    wall, cpu = since(start)
     return (wall / len(DEPTHS), cpu / len(DEPTHS)), out
 
 
 def plan_settlement(site, module) -> tuple[tuple[float, float], dict]:
     with stack_from(module):
-        start = _clock()
+        start = clock()
         settled = settle.plan_settlement(
             site, lambda p, grids: compute._plan_slicer(site, p, grids))
-        return _since(start), settled
+        return since(start), settled
 
 
 def _difference(a, b) -> float:
