@@ -296,7 +296,10 @@ def markdown(ratios, compile_s, commands, far, calibration, startup, headroom, a
         "numpy, pyproj and shapely for the site, and rich for the console.",
         "- Whole runs: the steps are in the table above (`--timings`). Beyond the "
         "computing, a run pays its start-up imports (numpy, scipy, pandas, numba, pyproj, "
-        "shapely, xarray, rich: about 2 s) and the writing of the folder (tables, rasters, "
+        "shapely, xarray, rich: about 2 s), numba's loading of its cached kernels on their "
+        f"first call ({compile_s[1]:.1f} s for every kernel with a warm cache, the compile "
+        "row above; most of it is numba's one-time set-up at the first kernel) and the "
+        "writing of the folder (tables, rasters, "
         "cube, report figures and scene). With the `dask` extra installed xarray loads "
         "dask.array at its first DataArray and its NetCDF writer loads dask.distributed, "
         "in a serial run too (about 0.3 s and 0.1 s).",
