@@ -26,10 +26,12 @@ from pathlib import Path
 
 
 def _pickle_surveys() -> None:
-    """TIN surfaces keep a matplotlib triangulation, which cannot be pickled: rebuilt."""
+    """TIN surfaces keep a matplotlib triangulation and its point finder, which cannot be
+    pickled: rebuilt from the points and triangles."""
     from fillstress.shapes.surfaces import TinSurface
+    rebuilt = ("_tri", "_finder", "_planes", "_interp")
     copyreg.pickle(TinSurface, lambda s: (_tin, (s.points, s.triangles, s.crs, s.source, {
-        k: v for k, v in vars(s).items() if k not in ("_tri", "_interp")})))
+        k: v for k, v in vars(s).items() if k not in rebuilt})))
 
 
 def _tin(points, triangles, crs, source, state):
