@@ -100,3 +100,26 @@ def test_warnings_met_by_the_child_are_shown_here(forking):
         made = forked.make_all({k: warns(k) for k in "abcd"})
     assert made == {k: k for k in "abcd"}
     assert caught and all(str(w.message).endswith("made in the child") for w in caught)
+
+
+def test_scene_made_beside_the_sections_is_the_scene_made_after_the_report(tmp_path,
+                                                                           monkeypatch):
+    """A run makes its 3D scene in the report's two processes (write_run_report's
+    `beside`): the report and scene equal those written one after the other, alone."""
+    from fillstress.io.results import ResultsFolder
+    from fillstress.scene_page import export_scene_html
+    truth = write_results_folder(tmp_path / "a" / "run")
+    shutil.copytree(truth.path, tmp_path / "b" / "run")
+    beside, after = tmp_path / "a" / "run", tmp_path / "b" / "run"
+    monkeypatch.setattr(forked, "can_fork", lambda: True)
+    view = ResultsFolder(beside)
+    write_run_report(view, beside / "report.html",
+                     beside={"scene": lambda: export_scene_html(view, beside / "scene.html")})
+    monkeypatch.setattr(forked, "can_fork", lambda: False)
+    write_run_report(after)
+    export_scene_html(after)
+    clock = re.compile(r"\d{4}-\d\d-\d\d[ T]\d\d:\d\d(:\d\d)?( UTC|Z)")
+    for name in ("report.html", "scene.html"):
+        a, b = (clock.sub("", (d / name).read_text(encoding="utf-8")) for d in (beside, after))
+        assert a == b, name
+    assert (beside / "scene.html").stat().st_size > 10_000

@@ -584,17 +584,18 @@ def _soil_rows(site) -> list[dict]:
 
 def _write_report_and_scene(folder, bar, site) -> None:
     """The report and the scene, each unless the site file's [outputs] turns it off. They
-    share one view of the folder, so the cube and rasters are read once, not twice."""
+    share one view of the folder, so the cube and rasters are read once, not twice; the
+    scene is made beside the report's sections (by the second process on two cores)."""
     from ..io.results import ResultsFolder
     finished = ResultsFolder(folder.root)
-    describe(bar, "report")
+    describe(bar, "report and 3D scene")
+    scene = {"scene": lambda: export_scene_html(finished, folder.path("scene.html"))
+             } if _output(site, "scene") else {}
     if _output(site, "report"):
-        write_run_report(finished, folder.path("report.html"))
-    bar.advance()
-    describe(bar, "3D scene")
-    if _output(site, "scene"):
-        export_scene_html(finished, folder.path("scene.html"))
-    bar.advance()
+        write_run_report(finished, folder.path("report.html"), beside=scene)
+    elif scene:
+        scene["scene"]()
+    bar.advance(2)
 
 
 def _output(site, key) -> bool:
