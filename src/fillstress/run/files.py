@@ -164,12 +164,9 @@ def write_all(res, folder, *, report=True, progress=silent, assumptions="", caut
     site = res.site
     steps = 4 + (2 if report else 0)
     with open_bar(progress, "writing results", steps) as bar:
-        describe(bar, "tables")
-        _write_tables(res, folder)
-        bar.advance()
-        describe(bar, "rasters, NetCDF cube, VTK")         # one step: written side by side
-        _write_grids(res, folder, version, report)
-        bar.advance()
+        describe(bar, "tables, rasters, NetCDF cube, VTK")   # written side by side
+        _write_side_by_side(res, folder, version, report)
+        bar.advance(2)
         describe(bar, "summary")
         _write_summary_json(res, folder, assumptions, cautions)
         bar.advance()
@@ -188,11 +185,12 @@ def write_all(res, folder, *, report=True, progress=silent, assumptions="", caut
         bar.advance()
 
 
-def _write_grids(res, folder, version, report) -> None:
-    """The rasters, the cube and the VTK files: shared with a forked second process where
-    there are two cores (report.forked), the slowest first. Their libraries, and the
-    report's, are loaded here first: once, not in both processes, and found loaded by
-    the report and the scene after."""
+def _write_side_by_side(res, folder, version, report) -> None:
+    """The tables, rasters, cube and VTK files: shared with a forked second process where
+    there are two cores (report.forked), the slowest first, the tables last (whichever
+    process is free takes them). The libraries of the rasters, cube and VTK files, and
+    the report's, are loaded here first: once, not in both processes, and found loaded
+    by the report and the scene after."""
     site = res.site
     wanted = {"rasterio": _output(site, "geotiff"), "h5netcdf": _output(site, "netcdf"),
               "pyvista": _output(site, "vtk"),
@@ -200,9 +198,10 @@ def _write_grids(res, folder, version, report) -> None:
     for module in (m for m, used in wanted.items() if used):
         with contextlib.suppress(ImportError):          # its writer says what is missing
             importlib.import_module(module)
-    make_all({"rasters": lambda: _write_rasters(res, folder),
+    make_all({"tables": lambda: _write_tables(res, folder),
+              "rasters": lambda: _write_rasters(res, folder),
               "cube": lambda: _write_cube(res, folder, version),
-              "vtk": lambda: _write_vtk(res, folder)}, first=("vtk", "cube"))
+              "vtk": lambda: _write_vtk(res, folder)}, first=("vtk", "cube", "rasters"))
 
 
 def _write_tables(res, folder) -> None:
