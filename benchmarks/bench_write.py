@@ -5,24 +5,32 @@ from results computed once: what `fillstress run --timings` calls "writing the f
     python tools/make_corridor_site.py /tmp/cor --miles 3.0 --cell 5 --plan-depths 5 15 30
     PYTHONPATH=src python benchmarks/bench_write.py /tmp/cor/site.toml --repeat 2
     PYTHONPATH=src python benchmarks/bench_write.py --one-process        # no forked helper
+    PYTHONPATH=src python benchmarks/bench_write.py /tmp/cor/site.toml --before main --repeat 5
 
 The site is computed once and its results pickled; each write then runs in a fresh
-process (its libraries load there, as in a run), into a ResultsWriter folder as
-`fillstress run` writes one. Printed: every write's wall seconds, the best, and the CPU
-seconds of the writing process and of its forked helper.
+process (its libraries load there, as in a run; dask is loaded first, as a run's compute
+loads it through xarray), into a ResultsWriter folder as `fillstress run` writes one.
+Printed: every write's wall and CPU seconds of the writing process and of its forked
+helpers, and the best and median wall. `--before REF` writes the same results with the
+`src/` of commit REF too (git archive, as bench_startup.py), the trees alternating write
+by write so that both see the same load.
 """
 from __future__ import annotations
 
 import argparse
 import copyreg
+import os
 import pickle
 import resource
 import shutil
+import statistics
 import subprocess
 import sys
 import tempfile
 import time
 from pathlib import Path
+
+ROOT = Path(__file__).resolve().parents[1]
 
 
 def _pickle_surveys() -> None:
@@ -50,6 +58,7 @@ def compute_once(site_file, store: Path) -> None:
 
 def write_once(store: Path, out: Path, one_process: bool) -> None:
     _pickle_surveys()
+    import dask.array  # noqa: F401  (xarray loads it on a run's first DataArray)
     res = pickle.loads(store.read_bytes())
     from fillstress.io.atomic import ResultsWriter
     from fillstress.run.compute import write_results
@@ -64,11 +73,22 @@ def write_once(store: Path, out: Path, one_process: bool) -> None:
     print(f"{wall:.2f} {cpu:.2f} {helper.ru_utime + helper.ru_stime:.2f}")
 
 
+def write_in_fresh_process(store: Path, out: Path, tree: Path, one_process: bool) -> list:
+    """[wall, cpu, helper cpu] of one write by the code of `tree` (its src/)."""
+    cmd = [sys.executable, __file__, "--write-from", str(store), "--out", str(out)]
+    cmd += ["--one-process"] if one_process else []
+    line = subprocess.run(cmd, check=True, capture_output=True, text=True,
+                          env={**os.environ, "PYTHONPATH": str(tree / "src")}).stdout
+    shutil.rmtree(out)
+    return [float(v) for v in line.split()[-3:]]
+
+
 def main(argv=None) -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("site", nargs="?", help="site file (default: the stockpile_yard sample)")
     ap.add_argument("--repeat", type=int, default=3)
     ap.add_argument("--one-process", action="store_true", help="no forked second process")
+    ap.add_argument("--before", help="a commit to compare with (its src/ via git archive)")
     ap.add_argument("--write-from", help=argparse.SUPPRESS)
     ap.add_argument("--out", help=argparse.SUPPRESS)
     args = ap.parse_args(argv)
@@ -78,19 +98,27 @@ def main(argv=None) -> None:
         from fillstress.examples import example_site
         args.site = example_site("stockpile_yard")
     with tempfile.TemporaryDirectory() as tmp:
+        trees = {"this tree": ROOT}
+        if args.before:
+            from bench_startup import unpack
+            before = Path(tmp) / "before"
+            before.mkdir()
+            trees = {f"before ({args.before})": unpack(args.before, before), **trees}
         store = Path(tmp) / "results.pickle"
         compute_once(args.site, store)
-        runs = []
+        runs = {name: [] for name in trees}
         for k in range(args.repeat):
-            cmd = [sys.executable, __file__, "--write-from", str(store),
-                   "--out", str(Path(tmp) / f"run{k}")]
-            cmd += ["--one-process"] if args.one_process else []
-            line = subprocess.run(cmd, check=True, capture_output=True, text=True).stdout
-            runs.append([float(v) for v in line.split()[-3:]])
-            shutil.rmtree(Path(tmp) / f"run{k}")
-    for wall, cpu, helper in runs:
-        print(f"write {wall:6.2f} s   cpu {cpu:6.2f} s   forked helper cpu {helper:6.2f} s")
-    print(f"best {min(r[0] for r in runs):.2f} s of {len(runs)} ({args.site})")
+            for name, tree in trees.items():
+                runs[name].append(write_in_fresh_process(store, Path(tmp) / f"run{k}", tree,
+                                                         args.one_process))
+    for name, rows in runs.items():
+        for wall, cpu, helper in rows:
+            print(f"{name}: write {wall:6.2f} s   cpu {cpu:6.2f} s   "
+                  f"forked helpers cpu {helper:6.2f} s")
+    for name, rows in runs.items():
+        walls = [r[0] for r in rows]
+        print(f"{name}: best {min(walls):.2f} s, median {statistics.median(walls):.2f} s "
+              f"of {len(walls)} ({args.site}; load average {os.getloadavg()[0]:.1f})")
 
 
 if __name__ == "__main__":
