@@ -1,5 +1,6 @@
 """Work shared with a second process, on a machine with two cores or more: the sections
-of a report, and the rasters, cube and VTK files of a run.
+of a report (and a run's 3D scene beside them), and the tables, rasters, cube and VTK
+files of a run.
 
 Each piece is a function of data already in memory (a results folder read, a run's
 results), and drawing figures or compressing grids is most of the writing time. A child
