@@ -200,8 +200,10 @@ def _write_side_by_side(res, folder, version, report) -> None:
             importlib.import_module(module)
     make_all({"tables": lambda: _write_tables(res, folder),
               "rasters": lambda: _write_rasters(res, folder),
+              "slice rasters": lambda: _write_slice_rasters(res, folder),
               "cube": lambda: _write_cube(res, folder, version),
-              "vtk": lambda: _write_vtk(res, folder)}, first=("vtk", "cube", "rasters"))
+              "vtk": lambda: _write_vtk(res, folder)},
+             first=("vtk", "cube", "slice rasters", "rasters"))
 
 
 def _write_tables(res, folder) -> None:
@@ -310,6 +312,8 @@ def _receptor_layer(res, kind, name, summary) -> gpd.GeoDataFrame:
 
 
 def _write_rasters(res, folder) -> None:
+    """The rasters on the analysis lattice: fill, surface pressure, existing ground and
+    the headroom maps."""
     site, u = res.site, res.site.units
     if not _output(site, "geotiff"):
         return
@@ -325,6 +329,15 @@ def _write_rasters(res, folder) -> None:
         geotiff.write_geotiff(folder.path("ground_elevation.tif"), ground, spec,  # NaN = no data
                               quantity="length", units=u, description="existing ground",
                               crs=site.crs)
+    if res.headroom is not None:
+        _write_headroom_rasters(res, folder)
+
+
+def _write_slice_rasters(res, folder) -> None:
+    """slices/: Δσz at each depth and the settlement plan of every plan grid."""
+    site, u = res.site, res.site.units
+    if not _output(site, "geotiff"):
+        return
     for name, da in res.slices.items():
         sub = _slice_spec(site, da)
         for depth in da["depth"].values:
@@ -332,8 +345,6 @@ def _write_rasters(res, folder) -> None:
             geotiff.write_geotiff(folder.path(f"slices/dsz_{name}_z{label}.tif"),
                                   da.sel(depth=depth).values, sub, quantity="pressure",
                                   units=u, description=f"dsz at depth {label}", crs=site.crs)
-    if res.headroom is not None:
-        _write_headroom_rasters(res, folder)
     for name, da in res.plan_settlement.items():          # the settlement plan of each grid
         geotiff.write_geotiff(folder.path(f"slices/settlement_{name}.tif"), da.values,
                               _slice_spec(site, da), quantity="settlement", units=u,
