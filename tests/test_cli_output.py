@@ -210,7 +210,7 @@ def test_progress_bars_name_each_step_and_their_unit(site, tmp_path):
     assert [s for s in computing["steps"] if s in steps] == computing["steps"]
     assert "receptor points" in computing["steps"]
     writing = by_label["writing results"]
-    assert writing["steps"][:3] == ["tables", "rasters, NetCDF cube, VTK", "summary"]
+    assert writing["steps"][:2] == ["tables, rasters, NetCDF cube, VTK", "summary"]
     assert writing["done"] == writing["total"]
 
 

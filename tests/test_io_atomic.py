@@ -158,3 +158,30 @@ def test_parent_folder_is_created(tmp_path):
     with ResultsWriter(tmp_path / "jobs" / "2031" / "run") as out:
         write_atomic(out.path("x.txt"), lambda p: p.write_text("1"))
     assert (tmp_path / "jobs" / "2031" / "run" / "x.txt").read_text() == "1"
+
+
+@pytest.mark.skipif(not hasattr(os, "register_at_fork") or atomic.fcntl is None,
+                    reason="fork and flock are POSIX")
+def test_a_forked_child_holds_no_copy_of_the_folder_lock(tmp_path):
+    """A child forked while a run writes (report.forked) closes its copy of the lock file
+    at the fork: once the run lets go of its own (as it does by dying), the folder is
+    seen unlocked, though the child still lives."""
+    import signal
+    import time
+    with ResultsWriter(tmp_path / "res") as folder:
+        ready, say = os.pipe()
+        pid = os.fork()
+        if pid == 0:                                  # the child: forked, lives on a while
+            os.write(say, b"1")
+            time.sleep(30)
+            os._exit(0)
+        try:
+            assert os.read(ready, 1) == b"1"
+            atomic._release_lock(folder._lock)        # the run's own copy let go
+            folder._lock = None
+            assert atomic._abandoned(folder.root)
+        finally:
+            os.kill(pid, signal.SIGKILL)
+            os.waitpid(pid, 0)
+            os.close(ready)
+            os.close(say)

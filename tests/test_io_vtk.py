@@ -156,3 +156,37 @@ def test_raw_compressed_files_read_back_as_pyvista_default_save(tmp_path):
             mesh.save(tmp_path / f"old-{name}")
             assert b'format="appended"' in fast.read_bytes()[:4000]
             _same_mesh(pv.read(fast), pv.read(tmp_path / f"old-{name}"))
+
+
+def _fill_surface_before(thickness, grid, ground, units):
+    """io.vtk.fill_surface_mesh as it was: the quads parsed by pyvista from a padded
+    legacy face list."""
+    from fillstress.io.vtk import _length, _units_note, array_name
+    t = np.asarray(thickness, float)
+    x, y = np.meshgrid(grid.x_centres, grid.y_centres)
+    xyz = np.column_stack([x.ravel(), y.ravel(), t.ravel()])
+    ny, nx = t.shape
+    corner = (np.arange(ny - 1)[:, None] * nx + np.arange(nx - 1)[None, :]).ravel()
+    quads = np.column_stack([np.full(corner.size, 4), corner, corner + 1, corner + 1 + nx,
+                             corner + nx])
+    surface = pv.PolyData(_length(xyz, units), faces=quads.ravel() if corner.size else None)
+    surface.point_data[array_name("thickness", units, "length")] = _length(t, units).ravel()
+    surface.point_data[array_name("ground_elevation", units, "length")] = \
+        _length(np.broadcast_to(ground, t.shape), units).ravel()
+    surface.field_data["units"] = _units_note(units)
+    return surface
+
+
+@pytest.mark.parametrize("shape", [(23, 31), (1, 9), (6, 1)])
+def test_fill_surface_file_is_the_one_the_face_list_gave(tmp_path, shape):
+    """Quads handed to VTK as offsets and connectivity: the .vtp file byte for byte the
+    one the earlier padded face list wrote (a single row or column: its vertices)."""
+    from fillstress.io import vtk
+    rng = np.random.default_rng(7)
+    grid = GridSpec(100.0, 200.0, 2.5, 2.5, nx=shape[1], ny=shape[0])
+    t = np.where(rng.random(shape) > 0.4, 3.0 * rng.random(shape), 0.0)
+    ground = 40.0 + rng.random(shape)
+    now = write_fill_surface(tmp_path / "now.vtp", t, grid, ground=ground, units=US)
+    before = vtk._save(tmp_path / "before.vtp", _fill_surface_before(t, grid, ground, US))
+    assert now.read_bytes() == before.read_bytes()
+    assert pv.read(now).n_cells == ((shape[0] - 1) * (shape[1] - 1) or shape[0] * shape[1])

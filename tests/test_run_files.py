@@ -1,5 +1,6 @@
-"""Writing a results folder (run/files.py): the rasters, cube and VTK files shared with a
-forked second process make the folder made by one process alone."""
+"""Writing a results folder (run/files.py): the tables, rasters, cube and VTK files, then
+the report's sections and the scene, shared with a forked second process make the folder
+made by one process alone."""
 from __future__ import annotations
 
 import json

@@ -386,4 +386,29 @@ def test_ground_on_its_own_nodes_is_what_interpolating_there_gives():
     xx, yy = np.meshgrid(x, y)
     pts = frame.points(xx, yy, height)                             # interpolated everywhere
     before = pv.StructuredGrid(*(pts[:, k].reshape(xx.shape) for k in range(3)))
-    np.testing.assert_array_equal(frame.surface(f, height).points, before.points)
+    now = frame.surface(f, height)
+    np.testing.assert_array_equal(now.points, before.points)
+    assert now.dimensions == before.dimensions == (40, 70, 1)
+
+
+def test_colour_range_partitioned_in_place_is_the_copying_one_and_leaves_the_data():
+    """_colour_range partitions its own copy of the values (np.percentile with
+    overwrite_input): the same range, bit for bit, as the copying call, and the slices'
+    and points' values as they were."""
+    from fillstress.io.results import PlanField
+    rng = np.random.default_rng(11)
+    grids = [rng.gamma(2.0, 30.0, (37, 53)) for _ in range(3)]
+    grids[1][4:9, 2:7] = np.nan
+    slices = [PlanField("dsz", "plan", d, np.arange(53.0), np.arange(37.0), g.copy(), "kPa")
+              for d, g in zip((2.0, 5.0, 9.0), grids)]
+    points = np.r_[rng.gamma(2.0, 30.0, 500), np.nan]
+    kept = points.copy()
+    for shown, q in ((slices, viewer.ROBUST_PERCENTILE), ([], 95.0)):
+        values = (np.concatenate([g[np.isfinite(g)] for g in grids]) if shown
+                  else points[np.isfinite(points)])
+        copied = float(np.percentile(values, q))
+        (lo, hi), robust, top = viewer._colour_range(shown, points, None)
+        assert (lo, hi, robust, top) == (0.0, copied, True, float(values.max()))
+    for f, g in zip(slices, grids):
+        np.testing.assert_array_equal(f.values, g)
+    np.testing.assert_array_equal(points, kept)

@@ -158,10 +158,21 @@ def _bounds(scene):
     greatest of each part's own, not of one copy of all the points (hundreds of MB on
     a corridor's full-resolution slices)."""
     pts = [np.asarray(p.mesh.points) for p in scene.parts]
-    lo = np.min([p.min(axis=0) for p in pts if len(p)], axis=0)
-    hi = np.max([p.max(axis=0) for p in pts if len(p)], axis=0)
+    lo = np.min([_per_axis(np.min, p) for p in pts if len(p)], axis=0)
+    hi = np.max([_per_axis(np.max, p) for p in pts if len(p)], axis=0)
     return (float(lo[0]), float(hi[0]), float(lo[1]), float(hi[1]),
             float(lo[2] / scene.exaggeration), float(hi[2] / scene.exaggeration))
+
+
+def _per_axis(reduce, points: np.ndarray) -> list[float]:
+    """`reduce` (np.min, np.max) of each column of (N, 3) `points`, one column at a time:
+    the same numbers as ``reduce(points, axis=0)``, which is many times slower on a
+    C-ordered (N, 3) array.
+
+    >>> _per_axis(np.max, np.array([[0.0, 5.0, -1.0], [2.0, 1.0, -3.0]]))
+    [2.0, 5.0, -1.0]
+    """
+    return [float(reduce(points[:, k])) for k in range(points.shape[1])]
 
 
 def _script_json(data) -> str:

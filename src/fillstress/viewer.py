@@ -154,8 +154,15 @@ class _Frame:
         """A pyvista StructuredGrid over the centres of `f` at `height` above ground."""
         import pyvista as pv
         xx, yy = np.meshgrid(f.x, f.y)
-        pts = self.points(xx, yy, height, ground=self._ground_on(f.x, f.y))
-        return pv.StructuredGrid(*(pts[:, k].reshape(xx.shape) for k in range(3)))
+        # The points of pyvista's StructuredGrid(x, y, z) of these (ny, nx) arrays, in its
+        # order (y fastest: the transposes raveled), made once and handed to VTK uncopied;
+        # StructuredGrid(x, y, z) copies them twice more (millions of nodes on a corridor).
+        pts = self.points(xx.T, yy.T, np.asarray(height).T,
+                          ground=self._ground_on(f.x, f.y).T)
+        grid = pv.StructuredGrid()
+        grid.SetDimensions(*xx.shape, 1)
+        grid.points = pts
+        return grid
 
 
 @dataclass(eq=False)
@@ -288,7 +295,9 @@ def _colour_range(slices, point_values, colour_range) -> tuple[tuple, bool, floa
     if values.size == 0:
         return (0.0, 1.0), True, top
     lo = min(float(values.min()), 0.0)
-    hi = float(np.percentile(values, ROBUST_PERCENTILE if slices else 95.0))
+    # `values` is a copy made here: partitioned in place, not copied once more
+    hi = float(np.percentile(values, ROBUST_PERCENTILE if slices else 95.0,
+                             overwrite_input=True))
     if not hi > lo:
         hi = top if top > lo else lo + 1.0
     return (lo, hi), True, top

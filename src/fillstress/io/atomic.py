@@ -277,16 +277,35 @@ def _between_renames() -> None:
     """Nothing; the tests replace it to kill a commit between its two renames."""
 
 
+_LOCKS_HELD: set = set()                # lock files of this process's open ResultsWriters
+
+
 def _hold_lock(path: Path):
     fh = open(path, "w")
     if fcntl is not None:
         fcntl.flock(fh, fcntl.LOCK_EX | fcntl.LOCK_NB)
+    _LOCKS_HELD.add(fh)
     return fh
 
 
 def _release_lock(fh) -> None:
     if fh is not None:
+        _LOCKS_HELD.discard(fh)
         fh.close()                      # closing releases the flock
+
+
+def _forget_inherited_locks() -> None:
+    """In a forked child (report.forked): close its copies of the lock files. The lock
+    stays the parent's (an flock belongs to the open file both share and is let go when
+    the last copy closes), so a run killed while its child writes leaves a folder seen
+    as stranded at once, not only when the child is gone too."""
+    for fh in _LOCKS_HELD:
+        fh.close()
+    _LOCKS_HELD.clear()
+
+
+if hasattr(os, "register_at_fork"):
+    os.register_at_fork(after_in_child=_forget_inherited_locks)
 
 
 def _abandoned(folder: Path) -> bool:

@@ -111,17 +111,39 @@ def fill_surface_mesh(thickness, grid: GridSpec, *, ground=None, units: UnitSyst
         raise InputError("ground elevation must be finite everywhere", argument="ground")
     x, y = np.meshgrid(grid.x_centres, grid.y_centres)
     xyz = np.column_stack([x.ravel(), y.ravel(), t.ravel()])
-    ny, nx = t.shape
-    corner = (np.arange(ny - 1)[:, None] * nx + np.arange(nx - 1)[None, :]).ravel()
-    quads = np.column_stack([np.full(corner.size, 4), corner, corner + 1, corner + 1 + nx,
-                             corner + nx])  # counter-clockwise seen from above
-    surface = pv.PolyData(_length(xyz, units), faces=quads.ravel() if corner.size else None)
+    if min(t.shape) > 1:
+        surface = pv.PolyData()
+        surface.points = _length(xyz, units)
+        surface.SetPolys(_lattice_quads(*t.shape))
+    else:                     # one row or column of nodes: pyvista's vertices, no quads
+        surface = pv.PolyData(_length(xyz, units))
     surface.point_data[array_name("thickness", units, "length")] = _length(t, units).ravel()
     if ground is not None:
         surface.point_data[array_name("ground_elevation", units, "length")] = \
             _length(z0, units).ravel()
     surface.field_data["units"] = _units_note(units)
     return surface
+
+
+def _lattice_quads(ny: int, nx: int):
+    """The quads between the nodes of an ny × nx lattice (node ``j * nx + i``), counter-
+    clockwise seen from above, as a vtkCellArray given its offsets and connectivity:
+    the cells pyvista's ``faces=`` makes, without the padded list it parses them from
+    (seconds on a corridor's millions of nodes)."""
+    from vtkmodules.util.numpy_support import vtk_to_numpy
+    from vtkmodules.vtkCommonCore import vtkTypeInt64Array
+    from vtkmodules.vtkCommonDataModel import vtkCellArray
+
+    def int64(values):
+        array = vtkTypeInt64Array()
+        array.SetNumberOfTuples(values.size)
+        vtk_to_numpy(array)[:] = values
+        return array
+    corner = (np.arange(ny - 1)[:, None] * nx + np.arange(nx - 1)[None, :]).ravel()
+    nodes = np.column_stack([corner, corner + 1, corner + 1 + nx, corner + nx]).ravel()
+    cells = vtkCellArray()
+    cells.SetData(int64(np.arange(0, nodes.size + 1, 4)), int64(nodes))
+    return cells
 
 
 def write_fill_surface(path, thickness, grid: GridSpec, *, ground=None,

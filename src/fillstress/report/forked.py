@@ -1,5 +1,6 @@
 """Work shared with a second process, on a machine with two cores or more: the sections
-of a report, and the rasters, cube and VTK files of a run.
+of a report (and a run's 3D scene beside them), and the tables, rasters, cube and VTK
+files of a run.
 
 Each piece is a function of data already in memory (a results folder read, a run's
 results), and drawing figures or compressing grids is most of the writing time. A child
@@ -52,6 +53,7 @@ def make_all(makers: dict[str, Callable[[], object]], first=()) -> dict[str, obj
             done[order[i]] = makers[order[i]]()
 
     read, write = os.pipe()
+    parent = os.getpid()
     try:
         with warnings.catch_warnings():   # Python 3.12+ on threads idle here (numba's)
             warnings.filterwarnings("ignore", "This process .* is multi-threaded",
@@ -62,7 +64,7 @@ def make_all(makers: dict[str, Callable[[], object]], first=()) -> dict[str, obj
         os.close(write)
         return {k: make() for k, make in makers.items()}
     if pid == 0:
-        _child(make_taken, read, write)
+        _child(make_taken, read, write, parent)
     os.close(write)
     try:
         here = make_taken()
@@ -82,11 +84,12 @@ def make_all(makers: dict[str, Callable[[], object]], first=()) -> dict[str, obj
     return {k: made[k] if k in made else makers[k]() for k in makers}
 
 
-def _child(make_taken, read: int, write: int) -> None:
+def _child(make_taken, read: int, write: int, parent: int) -> None:
     """Make the sections taken, send them and the warnings met, and leave. Nothing is
     written to the terminal: a lock of it held at the fork by another thread (a progress
     bar's) would never be let go here."""
     try:
+        _die_with(parent)
         os.close(read)
         sys.stdout = sys.stderr = open(os.devnull, "w")  # noqa: SIM115 (the child exits)
         with warnings.catch_warnings(record=True) as caught:
@@ -98,6 +101,20 @@ def _child(make_taken, read: int, write: int) -> None:
         with os.fdopen(write, "wb") as out:
             pickle.dump((done, notes), out)
     finally:
+        os._exit(0)
+
+
+def _die_with(parent: int) -> None:
+    """Have Linux kill this child when its parent dies (prctl PR_SET_PDEATHSIG): a run
+    killed mid-write leaves no orphan writing on into its folder and holding the folder's
+    lock (the lock is the open file both share), which would keep the next run from
+    seeing the folder stranded."""
+    import ctypes
+    try:
+        ctypes.CDLL(None, use_errno=True).prctl(1, signal.SIGKILL)   # 1: PR_SET_PDEATHSIG
+    except (OSError, AttributeError):
+        return
+    if os.getppid() != parent:                        # it died before the request
         os._exit(0)
 
 

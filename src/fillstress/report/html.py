@@ -455,7 +455,10 @@ class _Report:
                 + "".join(f"<li>{esc(t)}</li>" for t in items) + "</ul></div>")
 
     # --- page ----------------------------------------------------------------
-    def page(self) -> str:
+    def page(self, beside=None) -> str:
+        """The page; `beside` (name → callable) is other work made first in the same
+        processes as the sections (see :func:`write_run_report`)."""
+        beside = dict(beside or {})
         bodies = {"site": self.site, "inputs": self.inputs, "method": self.method,
                   "plans": self.plans, "profiles": self.profiles, "pipes": self.pipe_profiles,
                   "alignment": lambda: alignment_section(self.f, _img, esc),
@@ -469,7 +472,8 @@ class _Report:
         title = _site_title(self.f)
         new_page = {"plans", "profiles", "tables", "provenance"}
         self.f.cube()               # read here, before the fork: kept for the scene after
-        made = make_all({key: bodies[key] for key, _ in SECTIONS}, first=SLOW_SECTIONS)
+        made = make_all({**beside, **{key: bodies[key] for key, _ in SECTIONS}},
+                        first=(*beside, *SLOW_SECTIONS))
         sections = []
         for key, heading_text in SECTIONS:
             cls = ' class="new-page"' if key in new_page else ""
@@ -549,7 +553,7 @@ def _grid_text(grid, units: UnitLabels) -> str:
         return str(grid)
 
 
-def write_run_report(results_dir, path=None) -> Path:
+def write_run_report(results_dir, path=None, *, beside=None) -> Path:
     """Write the engineering report of a run's results folder as one self-contained HTML file.
 
     Parameters
@@ -558,6 +562,10 @@ def write_run_report(results_dir, path=None) -> Path:
         A results folder (docs/results-folder.md), or a view of it already reading it.
     path : str or path-like, optional
         Where to write; default ``<results_dir>/report.html``.
+    beside : mapping of str to callable, optional
+        Other work on the same folder (a run's 3D scene), made before the sections by the
+        same two processes (report.forked), its results dropped: on two cores it runs
+        beside the sections instead of after the report.
 
     Returns
     -------
@@ -576,7 +584,7 @@ def write_run_report(results_dir, path=None) -> Path:
         raise InputError("is a monitoring folder: its report.html is written by "
                          "`fillstress monitor` (rerun it with --overwrite)", file=where)
     folder = ResultsFolder.of(results_dir)
-    text = _Report(folder).page()
+    text = _Report(folder).page(beside)
     path = folder.path / "report.html" if path is None else Path(path)
     write_atomic(path, lambda tmp: tmp.write_text(text, encoding="utf-8"))
     _record_in_manifest(folder.path, path)

@@ -164,12 +164,9 @@ def write_all(res, folder, *, report=True, progress=silent, assumptions="", caut
     site = res.site
     steps = 4 + (2 if report else 0)
     with open_bar(progress, "writing results", steps) as bar:
-        describe(bar, "tables")
-        _write_tables(res, folder)
-        bar.advance()
-        describe(bar, "rasters, NetCDF cube, VTK")         # one step: written side by side
-        _write_grids(res, folder, version, report)
-        bar.advance()
+        describe(bar, "tables, rasters, NetCDF cube, VTK")   # written side by side
+        _write_side_by_side(res, folder, version, report)
+        bar.advance(2)
         describe(bar, "summary")
         _write_summary_json(res, folder, assumptions, cautions)
         bar.advance()
@@ -188,11 +185,12 @@ def write_all(res, folder, *, report=True, progress=silent, assumptions="", caut
         bar.advance()
 
 
-def _write_grids(res, folder, version, report) -> None:
-    """The rasters, the cube and the VTK files: shared with a forked second process where
-    there are two cores (report.forked), the slowest first. Their libraries, and the
-    report's, are loaded here first: once, not in both processes, and found loaded by
-    the report and the scene after."""
+def _write_side_by_side(res, folder, version, report) -> None:
+    """The tables, rasters, cube and VTK files: shared with a forked second process where
+    there are two cores (report.forked), the slowest first, the tables last (whichever
+    process is free takes them). The libraries of the rasters, cube and VTK files, and
+    the report's, are loaded here first: once, not in both processes, and found loaded
+    by the report and the scene after."""
     site = res.site
     wanted = {"rasterio": _output(site, "geotiff"), "h5netcdf": _output(site, "netcdf"),
               "pyvista": _output(site, "vtk"),
@@ -200,9 +198,12 @@ def _write_grids(res, folder, version, report) -> None:
     for module in (m for m, used in wanted.items() if used):
         with contextlib.suppress(ImportError):          # its writer says what is missing
             importlib.import_module(module)
-    make_all({"rasters": lambda: _write_rasters(res, folder),
+    make_all({"tables": lambda: _write_tables(res, folder),
+              "rasters": lambda: _write_rasters(res, folder),
+              "slice rasters": lambda: _write_slice_rasters(res, folder),
               "cube": lambda: _write_cube(res, folder, version),
-              "vtk": lambda: _write_vtk(res, folder)}, first=("vtk", "cube"))
+              "vtk": lambda: _write_vtk(res, folder)},
+             first=("vtk", "cube", "slice rasters", "rasters"))
 
 
 def _write_tables(res, folder) -> None:
@@ -311,6 +312,8 @@ def _receptor_layer(res, kind, name, summary) -> gpd.GeoDataFrame:
 
 
 def _write_rasters(res, folder) -> None:
+    """The rasters on the analysis lattice: fill, surface pressure, existing ground and
+    the headroom maps."""
     site, u = res.site, res.site.units
     if not _output(site, "geotiff"):
         return
@@ -326,6 +329,15 @@ def _write_rasters(res, folder) -> None:
         geotiff.write_geotiff(folder.path("ground_elevation.tif"), ground, spec,  # NaN = no data
                               quantity="length", units=u, description="existing ground",
                               crs=site.crs)
+    if res.headroom is not None:
+        _write_headroom_rasters(res, folder)
+
+
+def _write_slice_rasters(res, folder) -> None:
+    """slices/: Δσz at each depth and the settlement plan of every plan grid."""
+    site, u = res.site, res.site.units
+    if not _output(site, "geotiff"):
+        return
     for name, da in res.slices.items():
         sub = _slice_spec(site, da)
         for depth in da["depth"].values:
@@ -333,8 +345,6 @@ def _write_rasters(res, folder) -> None:
             geotiff.write_geotiff(folder.path(f"slices/dsz_{name}_z{label}.tif"),
                                   da.sel(depth=depth).values, sub, quantity="pressure",
                                   units=u, description=f"dsz at depth {label}", crs=site.crs)
-    if res.headroom is not None:
-        _write_headroom_rasters(res, folder)
     for name, da in res.plan_settlement.items():          # the settlement plan of each grid
         geotiff.write_geotiff(folder.path(f"slices/settlement_{name}.tif"), da.values,
                               _slice_spec(site, da), quantity="settlement", units=u,
@@ -584,17 +594,18 @@ def _soil_rows(site) -> list[dict]:
 
 def _write_report_and_scene(folder, bar, site) -> None:
     """The report and the scene, each unless the site file's [outputs] turns it off. They
-    share one view of the folder, so the cube and rasters are read once, not twice."""
+    share one view of the folder, so the cube and rasters are read once, not twice; the
+    scene is made beside the report's sections (by the second process on two cores)."""
     from ..io.results import ResultsFolder
     finished = ResultsFolder(folder.root)
-    describe(bar, "report")
+    describe(bar, "report and 3D scene")
+    scene = {"scene": lambda: export_scene_html(finished, folder.path("scene.html"))
+             } if _output(site, "scene") else {}
     if _output(site, "report"):
-        write_run_report(finished, folder.path("report.html"))
-    bar.advance()
-    describe(bar, "3D scene")
-    if _output(site, "scene"):
-        export_scene_html(finished, folder.path("scene.html"))
-    bar.advance()
+        write_run_report(finished, folder.path("report.html"), beside=scene)
+    elif scene:
+        scene["scene"]()
+    bar.advance(2)
 
 
 def _output(site, key) -> bool:
