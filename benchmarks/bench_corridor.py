@@ -7,7 +7,8 @@
 The site is written by tools/make_corridor_site.py into a temporary folder and run with
 ``fillstress run --timings`` in a fresh process; the wall time is the whole command, the
 peak memory the process's largest resident set (getrusage of the child), the steps the
-``timings_s`` of the run's summary.json. Issue 19 target: <= 20 s and <= 2 GB.
+``timings_s`` of the run's summary.json; each site runs twice and the best wall time
+counts (the largest peak memory). Issue 19 target: <= 20 s and <= 2 GB.
 
 ``--dask`` is the 10^7-cell case: 3.28 ft (1 m) cells over the same corridor (8.4 million
 cells), run on a local Dask cluster of two workers (``--workers 2``); its peak memory is
@@ -35,24 +36,31 @@ HEAVY = {"cell_ft": 5.0, "plan_depths_ft": (5.0, 15.0, 30.0)}
 DASK = {"cell_ft": 3.28}
 DASK_WORKERS = 2
 TARGET_S, TARGET_GB = 20.0, 2.0
+REPEAT = 2          # runs of each site: the best wall time, as for the other commands
 # runs the command as a child and prints the child's peak resident set (kB on Linux)
 _PEAK = ("import resource, subprocess, sys; r = subprocess.run(sys.argv[1:]).returncode; "
          "print(resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss); sys.exit(r)")
 
 
-def run_corridor(heavy: bool, miles: float = 3.0) -> dict:
-    """Build and run the corridor site; wall seconds, peak GB and the seconds per step."""
+def run_corridor(heavy: bool, miles: float = 3.0, repeat: int = REPEAT) -> dict:
+    """Build the corridor site and run it `repeat` times in fresh processes: the best
+    wall seconds (with that run's seconds per step) and the largest peak GB of them."""
     with tempfile.TemporaryDirectory() as tmp:
         site = write_corridor_site(Path(tmp) / "site", miles, **(HEAVY if heavy else {}))
-        out = Path(tmp) / "out"
-        cmd = [sys.executable, "-c", _PEAK, sys.executable, "-m", "fillstress", "run",
-               str(site), "-o", str(out), "--overwrite", "-q"]
-        t0 = time.perf_counter()
-        done = subprocess.run(cmd, capture_output=True, text=True, check=True)
-        wall = time.perf_counter() - t0
-        steps = json.loads((out / "summary.json").read_text())["timings_s"]
-    peak_kb = int(done.stdout.split()[-1])
-    return {"wall_s": wall, "peak_gb": peak_kb / 1024 ** 2, "steps": steps}
+        runs = [_one_run(site, Path(tmp) / "out") for _ in range(max(1, repeat))]
+    best = min(runs, key=lambda r: r["wall_s"])
+    return {**best, "peak_gb": max(r["peak_gb"] for r in runs), "runs": len(runs)}
+
+
+def _one_run(site: Path, out: Path) -> dict:
+    cmd = [sys.executable, "-c", _PEAK, sys.executable, "-m", "fillstress", "run",
+           str(site), "-o", str(out), "--overwrite", "-q"]
+    t0 = time.perf_counter()
+    done = subprocess.run(cmd, capture_output=True, text=True, check=True)
+    wall = time.perf_counter() - t0
+    steps = json.loads((out / "summary.json").read_text())["timings_s"]
+    return {"wall_s": wall, "peak_gb": int(done.stdout.split()[-1]) / 1024 ** 2,
+            "steps": steps}
 
 
 def run_dask_corridor(miles: float = 3.0, workers: int = DASK_WORKERS) -> dict:
@@ -87,7 +95,8 @@ def describe(name: str, r: dict) -> str:
     steps = ", ".join(f"{k.removesuffix('_s').replace('_', ' ')} {v:.1f} s"
                       for k, v in r["steps"].items() if v >= 0.5 and k != "compute_s")
     met = r["wall_s"] <= TARGET_S and r["peak_gb"] <= TARGET_GB
-    return (f"{name}: {r['wall_s']:.1f} s wall, {r['peak_gb']:.2f} GB peak RSS "
+    runs = f" (best of {r['runs']} runs; peak the largest)" if r.get("runs", 1) > 1 else ""
+    return (f"{name}: {r['wall_s']:.1f} s wall, {r['peak_gb']:.2f} GB peak RSS{runs} "
             f"({'met' if met else 'not met'}); {steps}")
 
 
