@@ -82,9 +82,11 @@ def array_name(base: str, units: UnitSystem, quantity: str | None) -> str:
 def fill_surface_mesh(thickness, grid: GridSpec, *, ground=None, units: UnitSystem = SI):
     """Top of fill as a quad surface through the cell centres at ``z = thickness`` above
     the existing ground (point data ``thickness_<len>``, and ``ground_elevation_<len>``
-    when `ground` is given).
+    when `ground` is given), over the fill: the quads with a corner of non-zero thickness
+    (every quad where there is none). A long corridor's lattice is mostly bare ground,
+    which the stress grids show; its quads would be most of the file.
 
-    Point ``j * nx + i`` is cell ``[j, i]`` (row 0 south); quads face upward.
+    Points are the cell centres the quads use, row by row (row 0 south); quads face upward.
 
     Examples
     --------
@@ -112,24 +114,42 @@ def fill_surface_mesh(thickness, grid: GridSpec, *, ground=None, units: UnitSyst
     x, y = np.meshgrid(grid.x_centres, grid.y_centres)
     xyz = np.column_stack([x.ravel(), y.ravel(), t.ravel()])
     if min(t.shape) > 1:
+        corner, used = _fill_quads(t)
         surface = pv.PolyData()
-        surface.points = _length(xyz, units)
-        surface.SetPolys(_lattice_quads(*t.shape))
+        surface.points = _length(xyz[used], units)
+        surface.SetPolys(_lattice_quads(corner, t.shape[1], np.cumsum(used) - 1))
     else:                     # one row or column of nodes: pyvista's vertices, no quads
+        used = np.ones(t.size, bool)
         surface = pv.PolyData(_length(xyz, units))
-    surface.point_data[array_name("thickness", units, "length")] = _length(t, units).ravel()
+    surface.point_data[array_name("thickness", units, "length")] = \
+        _length(t, units).ravel()[used]
     if ground is not None:
         surface.point_data[array_name("ground_elevation", units, "length")] = \
-            _length(z0, units).ravel()
+            _length(z0, units).ravel()[used]
     surface.field_data["units"] = _units_note(units)
     return surface
 
 
-def _lattice_quads(ny: int, nx: int):
-    """The quads between the nodes of an ny × nx lattice (node ``j * nx + i``), counter-
-    clockwise seen from above, as a vtkCellArray given its offsets and connectivity:
-    the cells pyvista's ``faces=`` makes, without the padded list it parses them from
-    (seconds on a corridor's millions of nodes)."""
+def _fill_quads(t: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The lower-left node (``j * nx + i``) of each quad with a corner of non-zero
+    thickness (every quad when there is none) and which nodes those quads use."""
+    ny, nx = t.shape
+    loaded = t != 0
+    touch = loaded[:-1, :-1] | loaded[:-1, 1:] | loaded[1:, :-1] | loaded[1:, 1:]
+    if not touch.any():
+        touch[:] = True
+    j, i = np.nonzero(touch)
+    used = np.zeros((ny, nx), bool)
+    for dj, di in ((0, 0), (0, 1), (1, 0), (1, 1)):
+        used[j + dj, i + di] = True
+    return j * nx + i, used.ravel()
+
+
+def _lattice_quads(corner: np.ndarray, nx: int, index: np.ndarray):
+    """The quads whose lower-left nodes are `corner` on a lattice nx nodes wide,
+    counter-clockwise seen from above, their nodes renumbered by `index`, as a
+    vtkCellArray given its offsets and connectivity: the cells pyvista's ``faces=`` makes,
+    without the padded list it parses them from (seconds on millions of nodes)."""
     from vtkmodules.util.numpy_support import vtk_to_numpy
     from vtkmodules.vtkCommonCore import vtkTypeInt64Array
     from vtkmodules.vtkCommonDataModel import vtkCellArray
@@ -139,8 +159,7 @@ def _lattice_quads(ny: int, nx: int):
         array.SetNumberOfTuples(values.size)
         vtk_to_numpy(array)[:] = values
         return array
-    corner = (np.arange(ny - 1)[:, None] * nx + np.arange(nx - 1)[None, :]).ravel()
-    nodes = np.column_stack([corner, corner + 1, corner + 1 + nx, corner + nx]).ravel()
+    nodes = index[np.column_stack([corner, corner + 1, corner + 1 + nx, corner + nx]).ravel()]
     cells = vtkCellArray()
     cells.SetData(int64(np.arange(0, nodes.size + 1, 4)), int64(nodes))
     return cells
