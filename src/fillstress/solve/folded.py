@@ -23,7 +23,6 @@ from typing import NamedTuple
 import numba
 import numpy as np
 import scipy.fft
-import scipy.signal
 
 from ..errors import InputError
 from ..kernels import resolve_method
@@ -130,13 +129,21 @@ def offset_blocks(rows: np.ndarray, cols: np.ndarray, loaded: np.ndarray) -> np.
     samples, s0 = _block_mask(rows, cols)
     cells, c0 = _block_mask(cj, ci)
     # S − C for every pair of occupied blocks: a correlation of the two masks (counts ≥ 1)
-    pairs = scipy.signal.fftconvolve(samples, cells[::-1, ::-1].astype(float)) > 0.5
+    pairs = _convolve(samples, cells[::-1, ::-1]) > 0.5
     qy, qx = np.nonzero(pairs)
     qy = qy + s0[0] - c0[0] - (cells.shape[0] - 1)
     qx = qx + s0[1] - c0[1] - (cells.shape[1] - 1)
     both = {(y - dy, x - dx) for y, x in zip(qy.tolist(), qx.tolist())
             for dy in (0, 1) for dx in (0, 1)}
     return np.array(sorted(both), dtype=np.int64)
+
+
+def _convolve(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """The full linear convolution of two small real arrays by FFT."""
+    shape = [n + m - 1 for n, m in zip(a.shape, b.shape)]
+    fast = [scipy.fft.next_fast_len(n, real=True) for n in shape]
+    product = scipy.fft.rfft2(a, fast) * scipy.fft.rfft2(b, fast)
+    return scipy.fft.irfft2(product, fast)[:shape[0], :shape[1]]
 
 
 def _block_mask(rows: np.ndarray, cols: np.ndarray) -> tuple[np.ndarray, tuple[int, int]]:
