@@ -113,12 +113,35 @@ def test_bad_arguments_are_refused(pressures, rows):
         FoldedSlices(pressures, 1.0, 1.0, rows, list(rows))
 
 
-def test_a_runs_folded_settlement_plan_equals_the_zero_padded_one():
+def _bridge_with_a_coarse_padded_plan(folder):
+    """The bridge approach with its plan grid every 2 cells and reaching beyond the
+    analysis grid on two sides (samples in the padding)."""
+    import shutil
+
+    from fillstress.examples import example_site
+    from fillstress.site.build import load_site
+    src = example_site("bridge_approach")
+    shutil.copytree(src.parent, folder)
+    x0, y0, x1, y1 = (v / 0.3048 for v in load_site(src).spec.extent)       # ft
+    toml = folder / src.name
+    toml.write_text(toml.read_text().replace(
+        "depths = [5.0, 12.0, 25.0]",
+        f"depths = [5.0, 12.0, 25.0]\nspacing = 8.0\nextent = [{x0 - 40.0}, {y0 - 24.0}, "
+        f"{x1}, {y1}]"))
+    return toml
+
+
+@pytest.mark.parametrize("variant", ["sample", "coarse padded plan"])
+def test_a_runs_folded_settlement_plan_equals_the_zero_padded_one(variant, tmp_path):
     from fillstress.examples import example_site
     from fillstress.run import compute, plan as run_plan, settle
     from fillstress.site.build import load_site
 
-    site = load_site(example_site("bridge_approach"))
+    site = load_site(example_site("bridge_approach") if variant == "sample"
+                     else _bridge_with_a_coarse_padded_plan(tmp_path / "site"))
+    if variant != "sample":
+        assert run_plan.plan_step(site, site.plan_grids[0]) == 2
+        assert min(run_plan._pad_cells(site, site.plan_grids[0])) > 0
     folded = [c for c in run_plan.slice_calls(site) if c.folded is not None]
     assert folded and all(c.step.endswith("settlement") for c in folded)
     got = compute.plan_settlement(site)
