@@ -158,3 +158,26 @@ def test_a_runs_folded_settlement_plan_equals_the_zero_padded_one(variant, tmp_p
         np.testing.assert_allclose(da.values, ref.values, rtol=1e-10, equal_nan=True)
         for axis in ("x", "y"):
             np.testing.assert_array_equal(da[axis].values, ref[axis].values)
+
+
+def test_with_dask_the_settlement_plan_still_folds_in_the_runs_process(monkeypatch):
+    """The folded torus serves a Dask run too (it fits the memory cap here): the same
+    values as the serial run, and no full-box slices of the load states on the workers."""
+    from dask.distributed import Client
+
+    from fillstress.examples import example_site
+    from fillstress.run import compute
+    from fillstress.site.build import load_site
+
+    site = load_site(example_site("bridge_approach"))
+    serial = compute.plan_settlement(site)
+    full_box = []
+    real = compute._plan_slicer
+    monkeypatch.setattr(compute, "_plan_slicer",
+                        lambda *args: full_box.append(args) or real(*args))
+    with Client(processes=False, n_workers=1, threads_per_worker=1,
+                dashboard_address=":0") as client:
+        spread = compute.plan_settlement(site, client)
+    assert not full_box
+    for name, da in serial.items():
+        np.testing.assert_array_equal(spread[name].values, da.values)

@@ -375,11 +375,12 @@ def _plan_nodes(site: Site, plan) -> xr.DataArray:
 
 def _kept_slicer(site: Site, plan, grids, keep: np.ndarray, client=None):
     """Δσz of every load grid of `grids` at a plan grid's nodes `keep` (bool (y, x)), as a
-    function of the depths: one (depth, node) array per grid. On one machine, where the
-    offsets between those nodes and the loaded cells fold onto a torus much smaller than
-    the zero-padded transform (plan.folding_layout), only the kept nodes are computed
-    (FoldedSlices, each distinct load once); otherwise the full slices are cut to them."""
-    layout = folding_layout(site, plan, grids, keep) if client is None else None
+    function of the depths: one (depth, node) array per grid. Where the offsets between
+    those nodes and the loaded cells fold onto a torus much smaller than the zero-padded
+    transform and it fits the memory cap (plan.folding_layout), only the kept nodes are
+    computed, here, with Dask too (FoldedSlices, each distinct load once); otherwise the
+    full slices (tiled, or on the Dask workers) are cut to them."""
+    layout = folding_layout(site, plan, grids, keep)
     if layout is None:
         full = _plan_slicer(site, plan, grids, client)
         return lambda depths: cut_to_nodes(full(depths), keep)
