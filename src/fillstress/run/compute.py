@@ -34,8 +34,8 @@ from .headroom import headroom_results, headroom_warnings
 from .limits import LimitResults, limit_results
 from .odds import odds_results
 from .point import RunStress, stress
-from .plan import (describe_run, folding_layout, memory_cap, plan_pad, plan_samples, plan_step,
-                   plan_window, shares_kernel, slices_need_tiles, validate_run)
+from .plan import (describe_run, folding_layout, memory_cap, plan_nodes, plan_pad, plan_samples,
+                   plan_step, plan_window, shares_kernel, slices_need_tiles, validate_run)
 from .wording import ASSUMPTIONS, CAUTIONS  # noqa: F401  (re-exported for the writers)
 
 log = logging.getLogger(__name__)
@@ -367,8 +367,8 @@ def _plan_nodes(site: Site, plan) -> xr.DataArray:
     """A plan grid's nodes as a (y, x) DataArray of zeros with the slices' coordinates."""
     _, frame = slice_setup(site.spec.load_grid(site.spec.zeros()), [0.0], site.method,
                            site.poisson, pad=plan_pad(site, plan))
-    rows, cols = plan_window(site, plan)
-    frame = {**frame, "y": frame["y"][rows], "x": frame["x"][cols]}
+    x, y = plan_nodes(site, plan)
+    frame = {**frame, "y": y, "x": x}
     return slice_array(np.zeros((1, frame["y"].size, frame["x"].size)), frame).isel(
         depth=0, drop=True)
 

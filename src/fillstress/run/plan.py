@@ -202,9 +202,10 @@ def _pad_cells(site, plan) -> tuple[int, int]:
     return pad_cells(plan_pad(site, plan), site.spec.dx, site.spec.dy)
 
 
-def run_estimates(site) -> list[Estimate]:
-    """One estimate per step of a run (:func:`solver_calls`, :func:`slice_calls` and the
-    rebuild of the bodies on half cells): memory of its largest call, time of all."""
+def run_estimates(site, slices: bool = True) -> list[Estimate]:
+    """One estimate per step of a run (:func:`solver_calls`, :func:`slice_calls` unless
+    not `slices`, and the rebuild of the bodies on half cells): memory of its largest
+    call, time of all."""
     shape, cap = site.spec.shape, memory_cap(site)
     active = {k: direct_work(site.load_grid(k), 1) for k in site.stages}   # weighted nodes
     active |= {b.name: direct_work(site.spec.load_grid(b.pressure), 1) for b in site.bodies}
@@ -220,7 +221,7 @@ def run_estimates(site) -> list[Estimate]:
         steps.setdefault(call.step, []).append(estimate_points(
             g_shape, call.n, algorithm=algorithm, active_nodes=nodes, prepared=key in prepared))
         prepared.add(key)
-    for c in slice_calls(site):
+    for c in slice_calls(site) if slices else []:
         steps.setdefault(c.step, []).append(_slice_estimate(site, c))
     out = [_combined(step, parts) for step, parts in steps.items()]
     if len(site.points) and site.build_seconds and site.settings.convergence_check:
@@ -248,12 +249,13 @@ def _combined(step: str, parts: list[Estimate]) -> Estimate:
 
 def check_fits(site) -> list[Estimate]:
     """Raise CapacityError, with the numbers, when point work cannot fit the memory cap.
-    Plan slices that do not fit are tiled instead (see run/compute.py)."""
+    Plan slices that do not fit are tiled instead (see run/compute.py), so they are not
+    estimated here: their settlement step's analysed nodes and folded torus would be
+    worked out twice in a run."""
     cap = memory_cap(site)
-    estimates = run_estimates(site)
+    estimates = run_estimates(site, slices=False)
     for e in estimates:
-        if not e.operation.startswith("plan grid"):
-            check_capacity(e, cap, hint="use a coarser [grid] cell or fewer receptor points")
+        check_capacity(e, cap, hint="use a coarser [grid] cell or fewer receptor points")
     return estimates
 
 
