@@ -72,6 +72,7 @@ class FoldedSlices:
         self.workers = fft_workers(workers, size=math.prod(self.torus))
         self.pressure_hat = scipy.fft.rfft2(np.stack([fold(p, self.torus) for p in loads]),
                                             workers=self.workers)
+        self._at = (self.rows % self.torus[0], self.cols % self.torus[1])   # their residues
 
     def slices(self, depths) -> np.ndarray:
         """Δσz (kPa) at the samples at each of `depths`, shape (E, depth, N)."""
@@ -88,10 +89,10 @@ class FoldedSlices:
         blocks = self.layout.blocks
         kernel = _folded_kernel(corner, blocks[:, 0], blocks[:, 1], BLOCK, *self.torus)
         spectrum = scipy.fft.rfft2(kernel, workers=self.workers)
-        at = (self.rows % self.torus[0], self.cols % self.torus[1])
         out = np.empty((len(self.pressure_hat), self.rows.size))
         for e, load in enumerate(self.pressure_hat):
-            out[e] = scipy.fft.irfft2(spectrum * load, s=self.torus, workers=self.workers)[at]
+            out[e] = scipy.fft.irfft2(spectrum * load, s=self.torus,
+                                      workers=self.workers)[self._at]
         return out
 
 
