@@ -2,6 +2,7 @@
 -q never hides the answer, --version/--help start without the numerical stack, and a
 point far outside the site says so."""
 import json
+import os
 import subprocess
 import sys
 from pathlib import Path
@@ -256,3 +257,44 @@ def test_command_lets_waiting_threads_sleep_unless_the_user_chose():
     mine = {"OMP_WAIT_POLICY": "ACTIVE"}
     quiet_waiting_threads(mine)
     assert mine == {"OMP_WAIT_POLICY": "ACTIVE"}
+
+
+def _command(*args, cwd=None) -> subprocess.CompletedProcess:
+    """`python -m fillstress ARGS` through pipes, as a script meets the installed command."""
+    src = str(Path(__file__).resolve().parents[1] / "src")
+    return subprocess.run([sys.executable, "-m", "fillstress", *args], capture_output=True,
+                          text=True, cwd=cwd, env={**os.environ, "PYTHONPATH": src})
+
+
+def test_command_leaving_at_once_keeps_all_its_output_and_exit_code(site, tmp_path):
+    """The command ends its process without the interpreter's teardown (cli.leave): what
+    it printed through a pipe still arrives whole, its summary file is complete, and the
+    exit code is main's, for a finished run and for bad input alike."""
+    done = _command("run", str(site), "-o", str(tmp_path / "out"), "--no-report", "--json")
+    assert done.returncode == 0, done.stderr
+    answer = json.loads(done.stdout)                        # the whole JSON document
+    assert answer["site"]["name"] == "Ostrick siding pad"
+    assert json.loads((tmp_path / "out" / "summary.json").read_text())["site"]["name"] \
+        == "Ostrick siding pad"
+    bad = _command("run", str(tmp_path / "missing.toml"))
+    assert bad.returncode == 2
+    assert bad.stderr.strip().splitlines() == [
+        f"fillstress: error: site file not found: {tmp_path / 'missing.toml'}"]
+
+
+def test_command_collects_only_young_garbage_and_main_keeps_the_interpreter_defaults(
+        site, capsys):
+    """The installed command raises the collector's thresholds for its own process; main()
+    called from Python (tests, notebooks) leaves the caller's collector alone."""
+    import gc
+    before = gc.get_threshold()
+    assert main(["check", str(site), "--json"]) == 0
+    assert gc.get_threshold() == before
+    code = ("import gc, sys; from fillstress import cli\n"
+            "cli.main = lambda: print(gc.get_threshold()) or 3\n"
+            "cli.command()")
+    src = str(Path(__file__).resolve().parents[1] / "src")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                         env={**os.environ, "PYTHONPATH": src})
+    assert out.returncode == 3
+    assert out.stdout.strip() == "(50000, 20, 10)"

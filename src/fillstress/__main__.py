@@ -1,7 +1,5 @@
 """``python -m fillstress``: the same command as ``fillstress``."""
-import sys
-
-from .cli import main
+from .cli import command
 
 if __name__ == "__main__":
-    sys.exit(main())
+    command()
