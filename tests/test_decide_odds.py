@@ -15,6 +15,7 @@ import pytest
 from scipy import stats
 
 from fillstress.decide.odds import (convergence, correlation_matrix, exceedance, latin_hypercube,
+                                    unit_hypercube,
                                     lognormal, normal, odds, profile_with, quantile_bounds,
                                     sampled_settlement, uniform)
 from fillstress.errors import InputError
@@ -130,3 +131,43 @@ def test_load_factor_scales_the_stress():
     z, h = np.array([3.0]), np.array([2.0])
     s = sampled_settlement(CLAY, z, h, [[40.0]], {"load_factor": [1.0, 1.5]})
     np.testing.assert_allclose(s[:, 0], consolidation_settlement(CLAY, z, h, [[40.0], [60.0]]))
+
+
+@pytest.mark.parametrize("seed, n, d", [(0, 2, 1), (7, 50, 3), (123, 400, 6)])
+def test_unit_hypercube_draws_what_scipy_qmc_latin_hypercube_draws(seed, n, d):
+    """The Latin hypercube made without scipy.stats is scipy's, draw for draw (the same
+    seed gives the samples it gave when scipy.stats.qmc made them)."""
+    from scipy.stats import qmc
+    ours = unit_hypercube(np.random.default_rng(seed), n, d)
+    theirs = qmc.LatinHypercube(d, seed=np.random.default_rng(seed)).random(n)
+    np.testing.assert_array_equal(ours, theirs)
+
+
+@pytest.mark.parametrize("dist", [normal(18.0, 0.05), normal(-3.0, sd=0.4), lognormal(0.4, 0.3),
+                                  lognormal(1.6, 1.2), uniform(17.0, 19.0),
+                                  uniform(mean=10.0, cov=0.1)], ids=repr)
+def test_quantiles_are_scipy_stats_quantiles(dist):
+    """Distribution.ppf by ndtri alone gives the floats of the frozen scipy.stats
+    distribution's ppf, tails included."""
+    u = np.concatenate([np.linspace(1e-9, 1 - 1e-9, 1001), [1e-300, 0.5, 1 - 2 ** -53]])
+    np.testing.assert_array_equal(dist.ppf(u), dist.scipy.ppf(u))
+
+
+def test_correlated_samples_are_those_of_the_scipy_stats_reference():
+    """latin_hypercube (with Iman–Conover re-pairing) equals the same steps done with
+    scipy.stats: qmc's hypercube, the frozen distributions' ppf and norm.ppf scores."""
+    dists = {"cc": lognormal(0.4, 0.3), "e0": normal(1.2, 0.1), "gamma": uniform(17.0, 19.0)}
+    pairs = {("cc", "e0"): 0.6}
+    got = latin_hypercube(dists, 64, seed=11, correlation=pairs)
+    rng = np.random.default_rng(11)
+    from scipy.stats import qmc
+    u = qmc.LatinHypercube(3, seed=rng).random(64)
+    x = np.column_stack([d.scipy.ppf(u[:, i]) for i, d in enumerate(dists.values())])
+    scores = stats.norm.ppf(np.arange(1, 65) / 65.0)
+    s = np.column_stack([rng.permutation(scores) for _ in range(3)])
+    q = np.linalg.cholesky(np.corrcoef(s, rowvar=False))
+    t = s @ np.linalg.solve(q, np.linalg.cholesky(correlation_matrix(list(dists), pairs)).T)
+    ranks = np.argsort(np.argsort(t, axis=0), axis=0)
+    want = np.take_along_axis(np.sort(x, axis=0), ranks, axis=0)
+    for i, k in enumerate(dists):
+        np.testing.assert_array_equal(got[k], want[:, i])
