@@ -415,3 +415,26 @@ def test_slices_on_several_fft_threads_equal_one_thread():
                                   one.values)
     np.testing.assert_array_equal(stress_slices(grid, [0.0, 1.5, 7.0], pad=3.0,
                                                 workers=3).values, one.values)
+
+
+def test_compiled_threads_sets_and_restores_numba_threads():
+    """A small slice runs its compiled kernels on one thread (no parallel region to
+    start) with the same floats as on all threads; the count is restored afterwards,
+    also when the work inside fails."""
+    import numba
+    from fillstress.solve._checks import compiled_threads
+    from fillstress.solve.slices import _unit_cell_kernel
+    before = numba.get_num_threads()
+    a = (np.arange(31) - 14.3) * 0.7
+    b = (np.arange(22) - 9.1) * 1.3
+    args = (a, b, 2.5, 1.0, 0.0, False, False, 40, 48)
+    full = _unit_cell_kernel(*args)
+    with compiled_threads(1):
+        assert numba.get_num_threads() == 1
+        np.testing.assert_array_equal(_unit_cell_kernel(*args), full)
+    assert numba.get_num_threads() == before
+    with pytest.raises(ZeroDivisionError), compiled_threads(1):
+        1 / 0
+    assert numba.get_num_threads() == before
+    with compiled_threads(before + 5):
+        assert numba.get_num_threads() == before

@@ -8,6 +8,9 @@ the argument.
 from __future__ import annotations
 
 import os
+from contextlib import contextmanager
+
+import numba
 
 from .._validate import finite_array, positive, whole_number
 from ..errors import InputError
@@ -77,6 +80,29 @@ def fft_workers(workers, size: int | None = None) -> int:
         return max(1, len(cores) if cores else os.cpu_count() or 1)
     return whole_number(workers, "workers", minimum=1,
                         meaning="None or a positive number of threads")
+
+
+@contextmanager
+def compiled_threads(workers: int):
+    """Run the compiled (numba) kernels inside on `workers` threads, then restore the count.
+
+    A slice too small to share its FFT over the cores (fft_workers gives one thread) is
+    too small to share its kernel too: on an idle machine a parallel call on 20² to 100²
+    nodes (a headroom map's templates) takes 0.17–0.21 ms with OpenMP's threads asleep
+    (OMP_WAIT_POLICY=PASSIVE, the command's default) against 0.007–0.09 ms on one
+    thread, and on a busy one up to 16 ms with them spinning
+    (``benchmarks/bench_threads.py --load 0`` and ``--load 2``). The values do not change: each thread
+    computes whole entries, nothing is summed across threads. numba's thread count is
+    per calling thread, so Dask's worker threads do not see each other's."""
+    before = numba.get_num_threads()
+    if workers >= before:
+        yield
+        return
+    numba.set_num_threads(max(1, workers))
+    try:
+        yield
+    finally:
+        numba.set_num_threads(before)
 
 
 def points_per_chunk(chunk, name: str, default: int) -> int:

@@ -27,7 +27,7 @@ import scipy.fft
 from ..errors import InputError
 from ..kernels import resolve_method
 from ..kernels.corner import inverse_depth
-from ._checks import fft_workers
+from ._checks import compiled_threads, fft_workers
 from .slices import _corners
 
 BLOCK = 16                  # cells a side of an offset block; every torus length is a multiple
@@ -85,9 +85,11 @@ class FoldedSlices:
         reach_y, reach_x = self.layout.reach
         a = (np.arange(reach_x + 1) + 0.5) * self.dx
         b = (np.arange(reach_y + 1) + 0.5) * self.dy
-        corner = _corners(a, b, z, c, inverse_depth(c), self.spec.second_term, a.size, b.size)
         blocks = self.layout.blocks
-        kernel = _folded_kernel(corner, blocks[:, 0], blocks[:, 1], BLOCK, *self.torus)
+        with compiled_threads(self.workers):
+            corner = _corners(a, b, z, c, inverse_depth(c), self.spec.second_term,
+                              a.size, b.size)
+            kernel = _folded_kernel(corner, blocks[:, 0], blocks[:, 1], BLOCK, *self.torus)
         spectrum = scipy.fft.rfft2(kernel, workers=self.workers)
         out = np.empty((len(self.pressure_hat), self.rows.size))
         for e, load in enumerate(self.pressure_hat):

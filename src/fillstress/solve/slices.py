@@ -29,7 +29,7 @@ from ..errors import InputError
 from ..kernels import resolve_method
 from ..kernels.corner import INV_2PI, corner_sum, cross_ratio, inverse_depth
 from .._validate import whole_pair
-from ._checks import checked_grid, fft_workers, offset_pair
+from ._checks import checked_grid, compiled_threads, fft_workers, offset_pair
 from .cost import fft_length
 
 
@@ -235,12 +235,14 @@ class SlicePlan:
             raise InputError(f"must be >= 0 below the ground surface, got {depth!r}",
                              argument="depth")
         fy, fx = self.fft_shape
-        if self.centred:
-            quarter = _centred_kernel(self.a_nodes, self.b_nodes, depth, self.spec.depth_scale,
-                                      self.spec.second_term, fy // 2 + 1, fx // 2 + 1)
-            return scipy.fft.dctn(quarter, type=1, overwrite_x=True, workers=self.workers)
-        kernel = _unit_cell_kernel(self.a_nodes, self.b_nodes, depth, self.spec.depth_scale,
-                                   self.spec.second_term, *self.paired, fy, fx)
+        with compiled_threads(self.workers):
+            if self.centred:
+                quarter = _centred_kernel(self.a_nodes, self.b_nodes, depth,
+                                          self.spec.depth_scale, self.spec.second_term,
+                                          fy // 2 + 1, fx // 2 + 1)
+                return scipy.fft.dctn(quarter, type=1, overwrite_x=True, workers=self.workers)
+            kernel = _unit_cell_kernel(self.a_nodes, self.b_nodes, depth, self.spec.depth_scale,
+                                       self.spec.second_term, *self.paired, fy, fx)
         return scipy.fft.rfftn(kernel, workers=self.workers)
 
     def at_depth(self, depth: float, window=(slice(None), slice(None))) -> np.ndarray:
@@ -273,7 +275,8 @@ class SlicePlan:
                 product = np.empty_like(loads[0])
             for e, load in enumerate(loads):
                 if self.centred:
-                    _times_even(load, spectrum, product)
+                    with compiled_threads(self.workers):
+                        _times_even(load, spectrum, product)
                 else:
                     np.multiply(spectrum, load, out=product)
                 out[e, k] = self._inverse(product, window)
