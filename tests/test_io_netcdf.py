@@ -188,3 +188,23 @@ def test_north_up_by_reversing_is_the_sorted_dataset(north_first):
     shuffled = ds.isel(y_plan=[1, 0, 2])                       # not a lattice: sorted
     xr.testing.assert_identical(netcdf._north_up(shuffled),
                                 shuffled.sortby(ys, ascending=False))
+
+
+def test_the_cube_is_the_file_to_netcdf_writes(tmp_path):
+    """The store written directly (no Dask scheduler asked for a lock) gives the file
+    xarray's own ``to_netcdf`` gives: the same data, attributes, encodings and HDF5
+    filters, variable by variable, and a Dask-chunked dataset loses nothing."""
+    from fillstress.io import netcdf
+    plan = _stack([300.0, 305.0, 310.0], [700.0, 703.0], [2.0, 6.0], 100.0)
+    ds = netcdf.stress_dataset({"plan": plan}, grid=GRID, fill_thickness=np.ones((3, 5)))
+    netcdf._to_h5netcdf(ds.chunk({"x": 2}), tmp_path / "direct.nc")
+    ds.to_netcdf(tmp_path / "xarray.nc", engine="h5netcdf", encoding=netcdf._encoding(ds))
+    with xr.open_dataset(tmp_path / "direct.nc", engine="h5netcdf") as a, \
+            xr.open_dataset(tmp_path / "xarray.nc", engine="h5netcdf") as b:
+        xr.testing.assert_identical(a, b)
+    with h5py.File(tmp_path / "direct.nc") as a, h5py.File(tmp_path / "xarray.nc") as b:
+        assert sorted(a) == sorted(b) and dict(a.attrs).keys() == dict(b.attrs).keys()
+        for name in a:
+            assert dict(a[name].attrs).keys() == dict(b[name].attrs).keys(), name
+            assert (a[name].compression, a[name].shuffle) == (b[name].compression,
+                                                              b[name].shuffle), name

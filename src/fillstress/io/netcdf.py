@@ -343,5 +343,20 @@ def write_stress_cube(path, slices: Mapping, *, grid: GridSpec | None = None,
     """
     ds = stress_dataset(slices, grid=grid, fill_thickness=fill_thickness, units=units, crs=crs,
                         stages=stages, attrs=attrs, sigma_v0=sigma_v0, settlement=settlement)
-    return write_atomic(path, lambda tmp: ds.to_netcdf(tmp, engine="h5netcdf",
-                                                       encoding=_encoding(ds)))
+    return write_atomic(path, lambda tmp: _to_h5netcdf(ds, tmp))
+
+
+def _to_h5netcdf(ds, path) -> None:
+    """``ds.to_netcdf(path, engine="h5netcdf")`` with :func:`_encoding`, the same file,
+    through xarray's store with HDF5's own lock: ``to_netcdf`` asks Dask which scheduler
+    is active to choose its file lock, and that question loads dask.distributed (0.1 s
+    of a sample run) even where no Dask is used. The data are loaded first: the store
+    writes numpy arrays as it is given them (Dask arrays would wait for a sync)."""
+    from xarray.backends import H5NetCDFStore
+    from xarray.backends.locks import HDF5_LOCK
+    ds = ds.load()
+    store = H5NetCDFStore.open(path, mode="w", lock=HDF5_LOCK)
+    try:
+        ds.dump_to_store(store, encoding=_encoding(ds))
+    finally:
+        store.close()
