@@ -22,12 +22,36 @@ DPI = 110
 DISPLAY_NODES = 1200
 
 
-def _new_figure(width_in: float, height_in: float):
+#: Margins (left, right, bottom, top; inches) of a chart of one axes: room for a tick
+#: label of six characters, the axis label and a title. Drawn with margins fixed, a chart
+#: takes some 40 % less time than with the constrained layout, which draws the figure
+#: once more to measure its labels; maps (a colour bar, a legend below) keep that layout.
+CHART = (0.85, 0.2, 0.55, 0.3)
+TWIN_CHART = (0.85, 0.85, 0.55, 0.3)     # a second value axis on the right
+
+
+def _new_figure(width_in: float, height_in: float, margins=None):
+    """A figure on the Agg canvas: laid out by matplotlib's constrained layout, or with
+    `margins` (left, right, bottom, top; inches) fixed."""
     from matplotlib.backends.backend_agg import FigureCanvasAgg
     from matplotlib.figure import Figure
-    fig = Figure(figsize=(width_in, height_in), dpi=DPI, layout="constrained")
+    fig = Figure(figsize=(width_in, height_in), dpi=DPI,
+                 layout=None if margins else "constrained")
     FigureCanvasAgg(fig)
+    if margins:
+        left, right, bottom, top = margins
+        fig.subplots_adjust(left=left / width_in, right=1 - right / width_in,
+                            bottom=bottom / height_in, top=1 - top / height_in)
     return fig
+
+
+def plain_log_ticks(axis) -> None:
+    """Decades of a log axis written as plain numbers (0.1, 1, 10, 1000), the minor ticks
+    unlabelled: what a reader of days or sample counts expects, and quicker to draw than
+    the powers of ten typeset by matplotlib's mathtext."""
+    from matplotlib.ticker import FuncFormatter, NullFormatter
+    axis.set_major_formatter(FuncFormatter(lambda v, _: f"{v:g}"))
+    axis.set_minor_formatter(NullFormatter())
 
 
 def png_bytes(fig) -> bytes:
@@ -250,7 +274,7 @@ def depth_profile(depth, series: dict, *, length_unit: str, value_label: str,
     """
     depth = np.asarray(depth, float)
     order = np.argsort(depth)
-    fig = _new_figure(4.2, 4.6)
+    fig = _new_figure(4.2, 4.6, CHART)
     ax = fig.add_subplot()
     for (name, values), marker in zip(series.items(), "osd^v"):
         ax.plot(np.asarray(values, float)[order], depth[order], marker=marker, label=name)
@@ -277,7 +301,7 @@ def chainage_profile(chainage, values, *, length_unit: str, value_label: str,
     """
     chainage = np.asarray(chainage, float)
     order = np.argsort(chainage)
-    fig = _new_figure(6.4, 3.4)
+    fig = _new_figure(6.4, 3.4, TWIN_CHART if second is not None else CHART)
     ax = fig.add_subplot()
     ax.plot(chainage[order], np.asarray(values, float)[order], color="tab:blue", marker=".")
     ax.set_xlabel(f"chainage ({length_unit})")
@@ -310,7 +334,7 @@ def settlement_time(days, settlement, *, settlement_unit: str, title: str = "",
     order = np.argsort(days)
     days, values = days[order], values[order]
     keep = (days > 0) & np.isfinite(values)
-    fig = _new_figure(6.4, 3.4)
+    fig = _new_figure(6.4, 3.4, CHART)
     ax = fig.add_subplot()
     ax.plot(days[keep], values[keep], color="tab:blue")
     for d in stage_days:
@@ -318,6 +342,7 @@ def settlement_time(days, settlement, *, settlement_unit: str, title: str = "",
             ax.axvline(d, color="gray", linestyle=":", linewidth=1)
     if keep.any():
         ax.set_xscale("log")
+        plain_log_ticks(ax.xaxis)
         ax.annotate(f"{values[keep][-1]:.3g} {settlement_unit}",
                     (days[keep][-1], values[keep][-1]), xytext=(-4, 6),
                     textcoords="offset points", ha="right", fontsize=8)

@@ -11,7 +11,7 @@ import html as _html
 
 import numpy as np
 
-from .figures import _new_figure, png_bytes
+from .figures import CHART, _new_figure, png_bytes
 from .html import _img, _mpl_text
 
 COLOURS = {"readings": "black", "design": "tab:gray", "built": "tab:blue",
@@ -32,7 +32,7 @@ def instrument_figure(name, days, design, built, revised, readings, *, unit: str
     >>> png[:4] == b"\\x89PNG"
     True
     """
-    fig = _new_figure(6.4, 3.4)
+    fig = _new_figure(6.4, 3.4, CHART)
     ax = fig.add_subplot()
     days = np.asarray(days, float)
     at_base = np.interp(baseline_day, days, design), np.interp(baseline_day, days, built), \
@@ -69,7 +69,7 @@ def asaoka_figure(name, fit, *, unit: str, scale: float) -> bytes:
     >>> asaoka_figure("P1", fit, unit="mm", scale=1000)[:4] == b"\\x89PNG"
     True
     """
-    fig = _new_figure(4.2, 3.8)
+    fig = _new_figure(4.2, 3.8, CHART)
     ax = fig.add_subplot()
     prev, cur = fit.previous * scale, fit.current * scale
     top = max(float(fit.ultimate * scale), float(cur.max())) * 1.05

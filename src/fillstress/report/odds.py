@@ -6,7 +6,7 @@ odds_convergence.csv of a results folder, written by :mod:`fillstress.run.odds`)
 from __future__ import annotations
 
 from ..io.results import ResultsFolder
-from .figures import _new_figure, png_bytes
+from .figures import CHART, _new_figure, plain_log_ticks, png_bytes
 from .tables import esc, html_table, plain
 
 SHOWN = 4                # limit rows drawn in the convergence plot
@@ -93,7 +93,7 @@ def convergence_figure(series, keys: list[tuple]) -> bytes:
     >>> convergence_figure(s, [("building", "B1", "beta")])[:4] == b"\\x89PNG"
     True
     """
-    fig = _new_figure(6.4, 3.4)
+    fig = _new_figure(6.4, 3.4, CHART)
     ax = fig.add_subplot()
     top = 1.0
     for k, (kind, rid, limit) in enumerate(keys):
@@ -109,6 +109,7 @@ def convergence_figure(series, keys: list[tuple]) -> bytes:
         ax.plot(n, 100 * g["p_exceed"], color=colour, marker=".",
                 label=f"{limit} at {kind} {rid}".replace("$", r"\$"))
     ax.set_xscale("log")
+    plain_log_ticks(ax.xaxis)
     ax.set_ylim(bottom=0.0, top=1.05 * top)
     ax.set_xlabel("number of samples (log scale)")
     ax.set_ylabel("P(exceed) (%)")
