@@ -10,8 +10,6 @@ from __future__ import annotations
 import os
 from contextlib import contextmanager
 
-import numba
-
 from .._validate import finite_array, positive, whole_number
 from ..errors import InputError
 from ..grid import LoadGrid
@@ -93,7 +91,10 @@ def compiled_threads(workers: int):
     thread, and on a busy one up to 16 ms with them spinning
     (``benchmarks/bench_threads.py --load 0`` and ``--load 2``). The values do not change: each thread
     computes whole entries, nothing is summed across threads. numba's thread count is
-    per calling thread, so Dask's worker threads do not see each other's."""
+    per calling thread, so Dask's worker threads do not see each other's.  numba is
+    imported here: this module is loaded by `fillstress point`, which never compiles."""
+    import numba
+
     before = numba.get_num_threads()
     if workers >= before:
         yield
